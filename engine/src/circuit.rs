@@ -1,0 +1,207 @@
+//! The one circuit model: parts, nodes, values, tolerances and the stage each part belongs to.
+//!
+//! Synthesis produces exactly one [`Circuit`]; the solver, the netlist, the part list and
+//! every later output (schematic, analyses, report) are derived from it and never re-derive
+//! values. Besides the parts that get soldered, the model holds the *bench* around them —
+//! the sensor as an EMF behind its impedance, the supplies and the converter's input load —
+//! marked `bench: true`, so that simulation and export see the same surroundings.
+//!
+//! Node names are stable and meaningful: `0` (ground), `emf` (the sensor's open-circuit
+//! voltage), `sense` (the sensor terminal), `vpos`/`vneg` (rails), `adc` (the converter
+//! input); stage-internal nodes are named by role (`inp1`, `inn1`, `ref`, …).
+
+use serde::Serialize;
+
+use crate::amplifier::Amplifier;
+
+/// Ground node name.
+pub const GND: &str = "0";
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum PartKind {
+    Resistor,
+    Capacitor,
+    /// An operational amplifier; nodes are `[in+, in−, v+, v−, out]`.
+    OpAmp,
+    /// An independent voltage source; nodes are `[+, −]`.
+    VoltageSource,
+}
+
+impl PartKind {
+    pub fn name(self) -> &'static str {
+        match self {
+            PartKind::Resistor => "resistor",
+            PartKind::Capacitor => "capacitor",
+            PartKind::OpAmp => "amplifier",
+            PartKind::VoltageSource => "source",
+        }
+    }
+}
+
+/// What a part is for; the stage it belongs to.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum StageRole {
+    /// The sensor model (EMF and source impedance).
+    Sensor,
+    /// The supplies.
+    Supply,
+    /// DC blocking and the bias that sets the DC level after it.
+    Coupling,
+    /// A reference voltage derived from a rail.
+    Reference,
+    /// Gain and level shift.
+    Gain,
+    /// The converter's input load.
+    Converter,
+}
+
+impl StageRole {
+    pub fn name(self) -> &'static str {
+        match self {
+            StageRole::Sensor => "sensor",
+            StageRole::Supply => "supply",
+            StageRole::Coupling => "coupling",
+            StageRole::Reference => "reference",
+            StageRole::Gain => "gain",
+            StageRole::Converter => "converter",
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Part {
+    /// Reference designator: R1, C1, U1 … for parts to build; VSENSE, RSENSE, VPOS, VNEG,
+    /// RADC for the bench around them.
+    #[serde(rename = "ref")]
+    pub reference: String,
+    pub kind: PartKind,
+    /// Value in SI base units (Ω, F, V); for an amplifier its GBW in Hz.
+    pub value: f64,
+    /// Relative tolerance (0.01 = ±1 %), `None` where it does not apply.
+    pub tolerance: Option<f64>,
+    pub nodes: Vec<String>,
+    pub stage: StageRole,
+    /// What the part does, in a short phrase.
+    pub purpose: String,
+    /// Part of the bench (sensor, supplies, converter load), not something to build.
+    pub bench: bool,
+}
+
+/// One stage of the design with its role in words.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Stage {
+    pub role: StageRole,
+    pub description: String,
+    /// Designators of the parts in this stage, bench parts excluded.
+    pub parts: Vec<String>,
+}
+
+/// The circuit model.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Circuit {
+    pub parts: Vec<Part>,
+    pub stages: Vec<Stage>,
+    /// The amplifier every `OpAmp` part uses.
+    pub amplifier: Amplifier,
+    /// Rails the amplifiers run from.
+    pub rail_pos: f64,
+    pub rail_neg: f64,
+}
+
+impl Circuit {
+    /// Every node name, ground first, in order of first use.
+    pub fn nodes(&self) -> Vec<String> {
+        let mut out = vec![GND.to_string()];
+        for p in &self.parts {
+            for n in &p.nodes {
+                if !out.contains(n) {
+                    out.push(n.clone());
+                }
+            }
+        }
+        out
+    }
+
+    pub fn part(&self, reference: &str) -> Option<&Part> {
+        self.parts.iter().find(|p| p.reference == reference)
+    }
+
+    pub fn part_mut(&mut self, reference: &str) -> Option<&mut Part> {
+        self.parts.iter_mut().find(|p| p.reference == reference)
+    }
+
+    /// Parts to build (the bench excluded), in designator order.
+    pub fn build_parts(&self) -> Vec<&Part> {
+        let mut v: Vec<&Part> = self.parts.iter().filter(|p| !p.bench).collect();
+        v.sort_by(|a, b| designator_key(&a.reference).cmp(&designator_key(&b.reference)));
+        v
+    }
+}
+
+/// Sort key so that R2 comes before R10.
+pub fn designator_key(d: &str) -> (String, u64) {
+    let split = d.find(|c: char| c.is_ascii_digit()).unwrap_or(d.len());
+    let (prefix, num) = d.split_at(split);
+    (prefix.to_string(), num.parse().unwrap_or(0))
+}
+
+/// Builds a circuit part by part, numbering designators per letter.
+#[derive(Debug, Default)]
+pub struct Builder {
+    pub parts: Vec<Part>,
+    counters: Vec<(char, u32)>,
+}
+
+impl Builder {
+    fn next(&mut self, letter: char) -> String {
+        let n = match self.counters.iter_mut().find(|(c, _)| *c == letter) {
+            Some((_, n)) => {
+                *n += 1;
+                *n
+            }
+            None => {
+                self.counters.push((letter, 1));
+                1
+            }
+        };
+        format!("{letter}{n}")
+    }
+
+    /// Adds a part to build and returns its designator.
+    pub fn add(&mut self, kind: PartKind, value: f64, tolerance: Option<f64>, nodes: &[&str], stage: StageRole, purpose: &str) -> String {
+        let letter = match kind {
+            PartKind::Resistor => 'R',
+            PartKind::Capacitor => 'C',
+            PartKind::OpAmp => 'U',
+            PartKind::VoltageSource => 'V',
+        };
+        let reference = self.next(letter);
+        self.parts.push(Part {
+            reference: reference.clone(),
+            kind,
+            value,
+            tolerance,
+            nodes: nodes.iter().map(|s| s.to_string()).collect(),
+            stage,
+            purpose: purpose.to_string(),
+            bench: false,
+        });
+        reference
+    }
+
+    /// Adds a bench part with a fixed name (VSENSE, RSENSE, VPOS, VNEG, RADC).
+    pub fn bench(&mut self, reference: &str, kind: PartKind, value: f64, nodes: &[&str], stage: StageRole, purpose: &str) {
+        self.parts.push(Part {
+            reference: reference.to_string(),
+            kind,
+            value,
+            tolerance: None,
+            nodes: nodes.iter().map(|s| s.to_string()).collect(),
+            stage,
+            purpose: purpose.to_string(),
+            bench: true,
+        });
+    }
+}

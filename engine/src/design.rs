@@ -1,0 +1,434 @@
+//! The design: runs the pipeline for one request and gathers the result and its checks.
+//!
+//! [`design`] never fails: a request that cannot be built comes back with error checks that
+//! say why and what would make it possible, and with whatever could still be computed.
+//! `predicted` comes from the MNA solver on the rounded circuit with the finite-gain,
+//! finite-bandwidth amplifier model — the same model the netlist exports — so it agrees with
+//! a SPICE3 simulation of that netlist.
+
+use serde::Serialize;
+
+use crate::amplifier::{Amplifier, Rails};
+use crate::circuit::{Circuit, Part, PartKind, Stage};
+use crate::diag::{has_error, Check, Severity};
+use crate::request::{Coupling, Request};
+use crate::solve::Solver;
+use crate::synth::{self, Target};
+use crate::units::{format, Quantity};
+
+/// Rule for the amplifier's bandwidth: closed-loop bandwidth (GBW / noise gain) at least this
+/// many times `band_high`, which keeps a single-pole amplifier's gain error at `band_high`
+/// within 0.5 % (1/√(1 + 0.1²)).
+pub const GBW_MARGIN: f64 = 10.0;
+
+/// Everything the engine says about one request.
+#[derive(Debug, Clone, Serialize)]
+pub struct Design {
+    pub name: String,
+    /// The normalised request.
+    pub request: Request,
+    pub rails: Rails,
+    /// The amplifier as assumed (class figures filled in where the request is silent).
+    pub amplifier: Amplifier,
+    /// What the amplifier must at least provide for this design.
+    pub requirements: Option<Requirements>,
+    pub topology: String,
+    pub target: Option<Target>,
+    pub stages: Vec<Stage>,
+    /// Parts to build.
+    pub parts: Vec<PartRow>,
+    /// The bench around them (sensor model, supplies, converter load).
+    pub bench: Vec<PartRow>,
+    pub predicted: Option<Predicted>,
+    pub equations: Vec<String>,
+    pub checks: Vec<Check>,
+    pub cautions: Vec<String>,
+    /// The circuit model every output derives from (absent when synthesis was impossible).
+    #[serde(skip)]
+    pub circuit: Option<Circuit>,
+}
+
+/// One part as listed in the output.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PartRow {
+    #[serde(rename = "ref")]
+    pub reference: String,
+    pub kind: String,
+    /// SI base units (Ω, F, V; GBW in Hz for an amplifier).
+    pub value: f64,
+    /// The value formatted with prefix and unit, e.g. "4.7 kΩ".
+    pub display: String,
+    pub tolerance: Option<f64>,
+    pub nodes: Vec<String>,
+    pub stage: String,
+    pub purpose: String,
+}
+
+/// The mapping the rounded circuit actually realises.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Predicted {
+    /// V/V: DC coupling, the slope between the source extremes; AC coupling, the mid-band gain (signed).
+    pub gain: f64,
+    /// DC coupling: the intercept b; AC coupling: the output's DC level.
+    pub offset: f64,
+    pub output_at_min: f64,
+    pub output_at_max: f64,
+    /// −3 dB points of the response from the sensor EMF to the converter input, where they exist.
+    pub band_low: Option<f64>,
+    pub band_high: Option<f64>,
+}
+
+/// The amplifier requirements this design places.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Requirements {
+    pub supply: f64,
+    pub output_low: f64,
+    pub output_high: f64,
+    pub input_low: f64,
+    pub input_high: f64,
+    pub gbw_min: f64,
+    pub slew_rate_min: f64,
+    pub noise_gain: f64,
+    pub summary: Vec<String>,
+}
+
+/// Designs the interface for `req`.
+pub fn design(req: &Request) -> Design {
+    let rails = Rails::choose(req);
+    let amp = Amplifier::resolve(&req.amplifier, rails);
+    let mut checks = feasibility(req, rails, &amp);
+    let mut out = Design {
+        name: req.name.clone(),
+        request: req.clone(),
+        rails,
+        amplifier: amp.clone(),
+        requirements: None,
+        topology: String::new(),
+        target: None,
+        stages: Vec::new(),
+        parts: Vec::new(),
+        bench: Vec::new(),
+        predicted: None,
+        equations: Vec::new(),
+        checks: Vec::new(),
+        cautions: cautions(req, rails),
+        circuit: None,
+    };
+    if has_error(&checks) {
+        out.checks = checks;
+        return out;
+    }
+    let Some(mut target) = synth::target(req, &amp, rails, &mut checks) else {
+        out.checks = checks;
+        return out;
+    };
+    let d = &req.destination;
+    let span = d.max - d.min;
+    let (band_lo, band_hi) = (d.min + d.headroom * span, d.max - d.headroom * span);
+    // Rounding and the amplifier's finite gain can move the extremes by a hair past the
+    // headroom; pull the target in by that much and design again (at most a few times).
+    let mut result = None;
+    for _ in 0..4 {
+        let Some(s) = synth::synthesize(req, &amp, rails, target) else { break };
+        let Some(p) = predict(req, &s.circuit) else { break };
+        let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
+        let under = (band_lo - lo).max(0.0);
+        let over = (hi - band_hi).max(0.0);
+        let done = under <= 1e-9 * span && over <= 1e-9 * span;
+        result = Some((s, p));
+        if done {
+            break;
+        }
+        let nudge = 1e-4 * span;
+        target = shrink(target, req, if under > 0.0 { under + nudge } else { 0.0 }, if over > 0.0 { over + nudge } else { 0.0 });
+    }
+    let Some((s, p)) = result else {
+        checks.push(Check::error(
+            "no_realisation",
+            "No stage built from the requested series inside the resistor window realises this mapping; widen parts.resistor_min … resistor_max or choose a finer series.",
+        ));
+        out.checks = checks;
+        return out;
+    };
+    let req_amp = requirements(req, &s, &amp, rails);
+    checks.extend(design_checks(req, &s, &p, &amp, rails, &req_amp));
+    out.topology = s.topology.clone();
+    out.target = Some(s.target);
+    out.stages = s.circuit.stages.clone();
+    out.parts = s.circuit.build_parts().into_iter().map(row).collect();
+    out.bench = s.circuit.parts.iter().filter(|p| p.bench).map(row).collect();
+    out.predicted = Some(p);
+    out.equations = s.equations.clone();
+    out.requirements = Some(req_amp);
+    checks.sort_by(|a, b| b.severity.cmp(&a.severity));
+    out.checks = checks;
+    out.circuit = Some(s.circuit);
+    out
+}
+
+/// The mapping of a rounded circuit, from the solver.
+pub fn predict(req: &Request, c: &Circuit) -> Option<Predicted> {
+    let solver = Solver::new(c);
+    let s = &req.source;
+    match s.coupling {
+        Coupling::Dc => {
+            let y1 = solver.dc(s.min).ok()?.voltage("adc")?;
+            let y2 = solver.dc(s.max).ok()?.voltage("adc")?;
+            let gain = (y2 - y1) / (s.max - s.min);
+            let h0 = solver.transfer(0.0, "adc").ok()?.norm();
+            let (_, band_high) = corners(&solver, h0, None, s.band_high.max(1.0));
+            Some(Predicted { gain, offset: y1 - gain * s.min, output_at_min: y1, output_at_max: y2, band_low: None, band_high })
+        }
+        Coupling::Ac => {
+            let mid = 0.5 * (s.min + s.max);
+            let level = solver.dc(mid).ok()?.voltage("adc")?;
+            let f_mid = (s.band_low * s.band_high).sqrt();
+            let h = solver.transfer(f_mid, "adc").ok()?;
+            let gain = if h.re >= 0.0 { h.norm() } else { -h.norm() };
+            let (band_low, band_high) = corners(&solver, h.norm(), Some(f_mid), f_mid);
+            Some(Predicted {
+                gain,
+                offset: level,
+                output_at_min: level + gain * (s.min - mid),
+                output_at_max: level + gain * (s.max - mid),
+                band_low,
+                band_high,
+            })
+        }
+    }
+}
+
+/// −3 dB points relative to `reference` magnitude, searched below `low_from` (if given) and
+/// above `high_from` on a log grid of 40 points per decade, then refined by bisection.
+fn corners(solver: &Solver, reference: f64, low_from: Option<f64>, high_from: f64) -> (Option<f64>, Option<f64>) {
+    let level = reference / std::f64::consts::SQRT_2;
+    let mag = |f: f64| solver.transfer(f, "adc").map(|h| h.norm()).unwrap_or(0.0);
+    let search = |start: f64, step: f64, decades: f64| -> Option<f64> {
+        let n = (decades * 40.0) as usize;
+        let mut f_prev = start;
+        for i in 1..=n {
+            let f = start * 10f64.powf(step * i as f64 / 40.0);
+            if mag(f) < level {
+                let (mut a, mut b) = (f_prev.ln(), f.ln());
+                for _ in 0..50 {
+                    let c = 0.5 * (a + b);
+                    if mag(c.exp()) < level {
+                        b = c;
+                    } else {
+                        a = c;
+                    }
+                }
+                return Some((0.5 * (a + b)).exp());
+            }
+            f_prev = f;
+        }
+        None
+    };
+    let low = low_from.and_then(|f| search(f, -1.0, 8.0));
+    (low, search(high_from, 1.0, 10.0))
+}
+
+/// Shrinks the target range by `lo` at its lower end and `hi` at its upper end.
+fn shrink(t: Target, req: &Request, lo: f64, hi: f64) -> Target {
+    let (a, b) = (t.at_min.min(t.at_max) + lo, t.at_min.max(t.at_max) - hi);
+    let s = &req.source;
+    let m = (b - a) / (s.max - s.min);
+    match s.coupling {
+        Coupling::Dc => Target { at_min: a, at_max: b, gain: m, offset: a - m * s.min },
+        Coupling::Ac => Target { at_min: a, at_max: b, gain: m, offset: 0.5 * (a + b) },
+    }
+}
+
+fn row(p: &Part) -> PartRow {
+    let q = match p.kind {
+        PartKind::Resistor => Quantity::Resistance,
+        PartKind::Capacitor => Quantity::Capacitance,
+        PartKind::OpAmp => Quantity::Frequency,
+        PartKind::VoltageSource => Quantity::Voltage,
+    };
+    let display = match p.kind {
+        PartKind::OpAmp => format!("amplifier, GBW ≥ {}", format(p.value, q)),
+        _ => format(p.value, q),
+    };
+    PartRow {
+        reference: p.reference.clone(),
+        kind: p.kind.name().to_string(),
+        value: p.value,
+        display,
+        tolerance: p.tolerance,
+        nodes: p.nodes.clone(),
+        stage: p.stage.name().to_string(),
+        purpose: p.purpose.clone(),
+    }
+}
+
+fn v(x: f64) -> String {
+    format(x, Quantity::Voltage)
+}
+
+fn hz(x: f64) -> String {
+    format(x, Quantity::Frequency)
+}
+
+/// Checks that need no circuit: impossible or doubtful requests.
+fn feasibility(req: &Request, rails: Rails, amp: &Amplifier) -> Vec<Check> {
+    let mut c = Vec::new();
+    let s = &req.source;
+    let d = &req.destination;
+    if !(s.max > s.min) {
+        c.push(Check::error("zero_span", format!("The sensor's min and max are both {}; a span is needed to map onto the converter. Give the sensor's lowest and highest output.", v(s.min))));
+    }
+    if !(d.max > d.min) {
+        c.push(Check::error("zero_destination_span", "The converter's input min and max are equal; give its input range, e.g. 0 … 3.3 V."));
+    }
+    let nyquist = 0.5 * d.sample_rate;
+    if s.band_high > nyquist {
+        c.push(Check::error(
+            "band_above_nyquist",
+            format!(
+                "The band reaches {} but the converter samples at {}, so everything above {} folds back into the band. Raise the sample rate to at least {} (2.5× the band edge leaves room for an anti-alias filter) or lower band_high.",
+                hz(s.band_high), hz(d.sample_rate), hz(nyquist), hz(2.5 * s.band_high)
+            ),
+        ));
+    } else if s.band_high > 0.4 * d.sample_rate {
+        c.push(Check::warning(
+            "band_near_nyquist",
+            format!("The band edge {} is above 40 % of the sample rate {}; an anti-alias filter cannot fall steeply enough in the little room left. A sample rate of {} or more makes it practical.", hz(s.band_high), hz(d.sample_rate), hz(2.5 * s.band_high)),
+        ));
+    }
+    if s.band_high <= s.band_low {
+        c.push(Check::error("band_order", format!("band_high ({}) must be above band_low ({}).", hz(s.band_high), hz(s.band_low))));
+    }
+    if s.coupling == Coupling::Ac && s.band_low <= 0.0 {
+        c.push(Check::error("ac_needs_band_low", "AC coupling blocks DC, so band_low must be above 0 Hz; give the lowest frequency that must pass, or choose DC coupling."));
+    }
+    if rails.pos <= 0.0 {
+        c.push(Check::error("no_positive_rail", "No positive rail is listed in supplies."));
+    }
+    let total = rails.total();
+    if total > amp.supply_max + 1e-9 {
+        c.push(Check::error("supply_too_high", format!("The amplifier runs from {} in total but its limit is {}; use lower rails or give an amplifier with a higher supply_max.", v(total), v(amp.supply_max))));
+    } else if total < amp.supply_min - 1e-9 {
+        c.push(Check::error("supply_too_low", format!("The amplifier needs at least {} in total but the rails give {}; use a higher rail or an amplifier with a lower supply_min.", v(amp.supply_min), v(total))));
+    }
+    c
+}
+
+/// The amplifier requirements of a synthesised design.
+fn requirements(req: &Request, s: &synth::Synthesis, amp: &Amplifier, rails: Rails) -> Requirements {
+    let ng = noise_gain(&s.circuit);
+    let gbw_min = GBW_MARGIN * ng * req.source.band_high;
+    let vpk = 0.5 * (s.target.at_max - s.target.at_min).abs();
+    let slew_rate_min = 2.0 * std::f64::consts::PI * req.source.band_high * vpk;
+    let (out_lo, out_hi) = (s.target.at_min.min(s.target.at_max), s.target.at_min.max(s.target.at_max));
+    let (in_lo, in_hi) = s.plus_range;
+    let _ = amp;
+    let summary = vec![
+        format!("runs from {} (rails {} and {})", v(rails.total()), v(rails.pos), v(rails.neg)),
+        format!("output reaches {} … {} ({} from the lower rail, {} from the upper)", v(out_lo), v(out_hi), v(out_lo - rails.neg), v(rails.pos - out_hi)),
+        format!("input common-mode range covers {} … {}", v(in_lo), v(in_hi)),
+        format!("gain-bandwidth ≥ {} (noise gain {:.3} × {} × {})", hz(gbw_min), ng, hz(req.source.band_high), GBW_MARGIN),
+        format!("slew rate ≥ {}/µs for a full-swing sine at {}", v(slew_rate_min * 1e-6), hz(req.source.band_high)),
+    ];
+    Requirements { supply: rails.total(), output_low: out_lo, output_high: out_hi, input_low: in_lo, input_high: in_hi, gbw_min, slew_rate_min, noise_gain: ng, summary }
+}
+
+/// Noise gain of the (first) amplifier: 1 + R_f·Σ(1/R) over the other resistors at its − input
+/// (the sensor's impedance added to a leg that comes from the sensor).
+pub fn noise_gain(c: &Circuit) -> f64 {
+    let Some(u) = c.parts.iter().find(|p| p.kind == PartKind::OpAmp) else { return 1.0 };
+    let (inn, out) = (&u.nodes[1], &u.nodes[4]);
+    if inn == out {
+        return 1.0;
+    }
+    let rs = c.part("RSENSE").map(|p| p.value).unwrap_or(0.0);
+    let mut rf = None;
+    let mut g = 0.0;
+    for p in c.parts.iter().filter(|p| p.kind == PartKind::Resistor && !p.bench && p.nodes.contains(inn)) {
+        let other = if &p.nodes[0] == inn { &p.nodes[1] } else { &p.nodes[0] };
+        if other == out {
+            rf = Some(p.value);
+        } else {
+            g += 1.0 / (p.value + if other == "sense" { rs } else { 0.0 });
+        }
+    }
+    rf.map_or(1.0, |rf| 1.0 + rf * g)
+}
+
+fn design_checks(req: &Request, s: &synth::Synthesis, p: &Predicted, amp: &Amplifier, rails: Rails, r: &Requirements) -> Vec<Check> {
+    let mut c = s.checks.clone();
+    let d = &req.destination;
+    let span = d.max - d.min;
+    let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
+    let (want_lo, want_hi) = (d.min + d.headroom * span - 1e-9 * span, d.max - d.headroom * span + 1e-9 * span);
+    let used = (hi - lo) / span * 100.0;
+    if lo >= want_lo && hi <= want_hi {
+        c.push(Check::ok("headroom", format!("The sensor's range lands on {} … {}, {:.1} % of the converter span, inside the {:.1} % headroom at each end.", v(lo), v(hi), used, d.headroom * 100.0)));
+    } else {
+        c.push(Check::error("headroom", format!("The sensor's range lands on {} … {}, outside the wanted {} … {}; the amplifier cannot reach that far on these rails.", v(lo), v(hi), v(want_lo), v(want_hi))));
+    }
+    let err_pct = s.rounding_error / span * 100.0;
+    let lsb = span / 2f64.powi(d.bits as i32);
+    let msg = format!("After rounding to {} the mapping is off by at most {} ({:.3} % of the span, {:.1} LSB) from the ideal; the headroom absorbs it and a two-point calibration removes it.", req.parts.resistor_series.name(), v(s.rounding_error), err_pct, s.rounding_error / lsb);
+    c.push(if err_pct <= 0.5 { Check::ok("rounding", msg) } else { Check::warning("rounding", format!("{msg} A finer series (E96) reduces it.")) });
+    let (in_lo, in_hi) = amp.input_limits(rails);
+    let (plo, phi) = s.plus_range;
+    if plo < in_lo - 1e-9 || phi > in_hi + 1e-9 {
+        c.push(Check::error("common_mode", format!("The amplifier's + input swings {} … {}, outside its input range {} … {} on these rails; choose an amplifier with rail-to-rail inputs or widen the rails.", v(plo), v(phi), v(in_lo), v(in_hi))));
+    } else {
+        c.push(Check::ok("common_mode", format!("The amplifier's + input stays within {} … {}, inside its input range {} … {}.", v(plo), v(phi), v(in_lo), v(in_hi))));
+    }
+    if r.gbw_min > amp.gbw {
+        c.push(Check::warning("gbw", format!("The amplifier's gain-bandwidth {} is below the {} this gain and band need (noise gain {:.2} × band {} × {}); the gain will droop toward the band edge. Choose a faster amplifier or split the gain over two stages.", hz(amp.gbw), hz(r.gbw_min), r.noise_gain, hz(req.source.band_high), GBW_MARGIN)));
+    } else {
+        c.push(Check::ok("gbw", format!("Gain-bandwidth {} covers the {} needed (noise gain {:.2}).", hz(amp.gbw), hz(r.gbw_min), r.noise_gain)));
+    }
+    if r.slew_rate_min > amp.slew_rate {
+        c.push(Check::warning("slew_rate", format!("A full-swing sine at {} needs {} V/µs but the amplifier slews {} V/µs; choose a faster amplifier or lower band_high.", hz(req.source.band_high), r.slew_rate_min * 1e-6, amp.slew_rate * 1e-6)));
+    } else {
+        c.push(Check::ok("slew_rate", format!("Slew rate {:.3} V/µs covers the {:.3} V/µs a full-swing sine at {} needs.", amp.slew_rate * 1e-6, r.slew_rate_min * 1e-6, hz(req.source.band_high))));
+    }
+    if let Some(fh) = p.band_high {
+        if fh < req.source.band_high {
+            c.push(Check::warning("bandwidth", format!("The response falls 3 dB at {}, below the band edge {}.", hz(fh), hz(req.source.band_high))));
+        }
+    }
+    if let (Some(fl), Coupling::Ac) = (p.band_low, req.source.coupling) {
+        if fl > req.source.band_low {
+            c.push(Check::warning("band_low", format!("The response falls 3 dB at {}, above band_low {}.", hz(fl), hz(req.source.band_low))));
+        }
+    }
+    let rs = req.source.impedance;
+    if let Some(circuit) = Some(&s.circuit) {
+        let big: Vec<String> = circuit.parts.iter().filter(|q| q.kind == PartKind::Capacitor && q.value > 100e-6).map(|q| format!("{} ({})", q.reference, format(q.value, Quantity::Capacitance))).collect();
+        if !big.is_empty() {
+            c.push(Check::warning("large_capacitor", format!("{} is very large because band_low is low; consider DC coupling or a higher band_low.", big.join(", "))));
+        }
+    }
+    if rails.pos > d.max + 0.3 || rails.neg < d.min - 0.3 {
+        c.push(Check::warning(
+            "converter_protection",
+            format!("The amplifier runs from {} … {}, beyond the converter's {} … {} input range; an overload or fault can drive the input there. Check the converter's absolute maximum input and add a series resistor and clamp if it is exceeded.", v(rails.neg), v(rails.pos), v(d.min), v(d.max)),
+        ));
+    }
+    if rs > 0.0 {
+        c.push(Check::ok("sensor_impedance", format!("The sensor's {} impedance is part of the gain equations.", format(rs, Quantity::Resistance))));
+    }
+    if !amp.assumed.is_empty() {
+        c.push(Check::new("amplifier_assumed", Severity::Ok, format!("Figures not given in the request ({}) are those of a generic {}; any amplifier meeting the stated requirements will do.", amp.assumed.join(", "), amp.class)));
+    }
+    c
+}
+
+/// Safety cautions shown with every design.
+fn cautions(req: &Request, rails: Rails) -> Vec<String> {
+    let mut v = vec![
+        "Sensors tied to mains or other high voltages need isolation rated for that voltage before anything here connects to them.".to_string(),
+        "Never exceed the converter's absolute maximum input, including during power-up, power-down and faults.".to_string(),
+        "A design for safety- or medically-relevant use must be checked by a qualified person; follow local codes and licensed practice.".to_string(),
+    ];
+    if rails.total() > 30.0 || req.source.max.abs().max(req.source.min.abs()) > 30.0 {
+        v.push("Voltages above 30 V are present; treat the circuit as hazardous when working on it.".to_string());
+    }
+    v
+}

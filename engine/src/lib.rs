@@ -1,0 +1,26 @@
+//! Rangefit engine: designs the analog interface between a sensor and an ADC input.
+//!
+//! The pipeline reads top-down in the module tree:
+//! [`units`] → [`values`] → [`diag`] → [`request`] → [`amplifier`] → [`synth`] → [`circuit`] →
+//! [`solve`] → [`design`] (checks and the design result) → [`netlist`] (export) →
+//! [`cli`] (the `rangefit` command).
+//!
+//! The engine knows nothing of browsers, the DOM or storage; it builds for the host and
+//! for `wasm32-unknown-unknown`. Every output is derived from the one [`circuit::Circuit`]
+//! that synthesis produces.
+
+pub mod units;
+pub mod values;
+pub mod diag;
+pub mod request;
+pub mod amplifier;
+pub mod synth;
+pub mod circuit;
+pub mod solve;
+pub mod design;
+pub mod netlist;
+pub mod cli;
+pub mod demos;
+
+pub use design::{design, Design};
+pub use request::{Request, RequestError};

@@ -1,0 +1,481 @@
+//! The request: the public, versioned contract between a user (form, share link, script)
+//! and the engine.
+//!
+//! A request is read from JSON where every physical value may be a plain number in SI base
+//! units or a string with a unit (`"4.7k"`, `"20 Hz"`, `"-250 mV"`). Reading normalises it:
+//! values become numbers in SI base units and every optional field receives its stated
+//! default, so the normalised request printed by `rangefit design` can be read back as is.
+//!
+//! Reading fails only for malformed input (wrong JSON, a value that does not parse, an
+//! unknown field, an unknown series). Requests that are well formed but cannot be built
+//! (zero span, band above Nyquist, range beyond the rails) are accepted here and reported
+//! as error checks by [`crate::design`], so the user sees everything wrong at once.
+
+use serde::{Deserialize, Serialize};
+use serde_json::{Map, Value};
+use std::fmt;
+
+use crate::units::{self, Quantity};
+use crate::values::Series;
+
+/// The newest request version this build reads and writes.
+pub const CURRENT_VERSION: u32 = 1;
+
+/// Default headroom: 5 % of the converter span kept free at each end, enough to absorb
+/// rounding to standard values plus 1 % resistor and amplifier offset errors (common practice).
+pub const DEFAULT_HEADROOM: f64 = 0.05;
+/// Default converter input impedance when none is given: a high-impedance input (1 MΩ).
+pub const DEFAULT_DESTINATION_IMPEDANCE: f64 = 1e6;
+/// Default resolution when none is given.
+pub const DEFAULT_BITS: u32 = 12;
+/// When `band_high` is absent it defaults to this fraction of the sample rate.
+pub const DEFAULT_BAND_FRACTION_OF_FS: f64 = 0.1;
+
+/// A normalised design request. All physical values are in SI base units.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Request {
+    pub version: u32,
+    pub name: String,
+    #[serde(default)]
+    pub notes: String,
+    pub source: Source,
+    pub destination: Destination,
+    /// The rails available, in volts (e.g. `[5]`, `[12, -12]`).
+    pub supplies: Vec<f64>,
+    pub parts: Parts,
+    /// Amplifier facts the user knows; absent fields are taken from a generic class.
+    #[serde(default)]
+    pub amplifier: AmplifierSpec,
+    /// The output rises when the sensor's signal rises.
+    pub keep_polarity: bool,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SourceKind {
+    SingleEnded,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Coupling {
+    Dc,
+    Ac,
+}
+
+/// What the sensor produces.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Source {
+    pub kind: SourceKind,
+    /// Instantaneous extremes, DC level included (V).
+    pub min: f64,
+    pub max: f64,
+    pub coupling: Coupling,
+    /// The sensor's output (source) impedance, Ω.
+    pub impedance: f64,
+    /// Band of interest, Hz (`band_low` is 0 for DC coupling).
+    pub band_low: f64,
+    pub band_high: f64,
+}
+
+/// The converter input.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Destination {
+    pub min: f64,
+    pub max: f64,
+    pub bits: u32,
+    pub sample_rate: f64,
+    pub impedance: f64,
+    /// Fraction of the span kept free at each end.
+    pub headroom: f64,
+}
+
+/// The parts at hand.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Parts {
+    pub resistor_series: Series,
+    pub resistor_tolerance: f64,
+    pub capacitor_series: Series,
+    pub capacitor_tolerance: f64,
+    /// Practical resistor window (see [`crate::values`] for why 1 kΩ … 1 MΩ).
+    pub resistor_min: f64,
+    pub resistor_max: f64,
+}
+
+impl Default for Parts {
+    fn default() -> Self {
+        Parts {
+            resistor_series: Series::E24,
+            resistor_tolerance: 0.01,
+            capacitor_series: Series::E6,
+            capacitor_tolerance: 0.1,
+            resistor_min: 1e3,
+            resistor_max: 1e6,
+        }
+    }
+}
+
+/// Amplifier facts supplied by the user; every field is optional.
+/// `swing_*` and `cm_*` are measured inward from the rail (negative = beyond the rail).
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct AmplifierSpec {
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub gbw: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub slew_rate: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub swing_low: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub swing_high: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub cm_low: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub cm_high: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub supply_min: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub supply_max: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub offset: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub bias_current: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub noise_voltage: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub noise_current: Option<f64>,
+    /// Open-loop DC gain, V/V.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub open_loop_gain: Option<f64>,
+}
+
+/// A malformed request: which field, and what is wrong with it.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct RequestError {
+    /// Dotted path of the field, e.g. `source.band_low`; empty for the whole document.
+    pub field: String,
+    pub message: String,
+}
+
+impl fmt::Display for RequestError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        if self.field.is_empty() {
+            write!(f, "{}", self.message)
+        } else {
+            write!(f, "{}: {}", self.field, self.message)
+        }
+    }
+}
+
+impl std::error::Error for RequestError {}
+
+impl Request {
+    /// Reads and normalises a request from JSON text.
+    pub fn from_json(text: &str) -> Result<Request, RequestError> {
+        let value: Value = serde_json::from_str(text).map_err(|e| RequestError {
+            field: String::new(),
+            message: format!("not valid JSON ({e})"),
+        })?;
+        Request::from_value(&value)
+    }
+
+    /// Reads and normalises a request from a parsed JSON value.
+    pub fn from_value(value: &Value) -> Result<Request, RequestError> {
+        let top = Obj::new("", value)?;
+        let version = match top.get("version") {
+            None => CURRENT_VERSION,
+            Some(v) => {
+                let n = v.as_u64().ok_or_else(|| top.err("version", "must be a whole number such as 1"))?;
+                if n == 0 || n > CURRENT_VERSION as u64 {
+                    return Err(top.err(
+                        "version",
+                        &format!("this request is version {n}; this build of Rangefit reads versions 1 to {CURRENT_VERSION}"),
+                    ));
+                }
+                n as u32
+            }
+        };
+        let name = top.string("name")?.unwrap_or_else(|| "Untitled design".to_string());
+        let notes = top.string("notes")?.unwrap_or_default();
+
+        let dest_v = top.required("destination")?;
+        let destination = read_destination(dest_v)?;
+        let src_v = top.required("source")?;
+        let source = read_source(src_v, &destination)?;
+        let supplies = read_supplies(top.required("supplies")?)?;
+        let parts = match top.get("parts") {
+            None => Parts::default(),
+            Some(v) => read_parts(v)?,
+        };
+        let amplifier = match top.get("amplifier") {
+            None | Some(Value::Null) => AmplifierSpec::default(),
+            Some(v) => read_amplifier(v)?,
+        };
+        let keep_polarity = top.bool("keep_polarity")?.unwrap_or(true);
+        top.finish(&["version", "name", "notes", "source", "destination", "supplies", "parts", "amplifier", "keep_polarity"])?;
+        Ok(Request { version, name, notes, source, destination, supplies, parts, amplifier, keep_polarity })
+    }
+
+    /// The normalised request as pretty JSON (the form `rangefit design` prints).
+    pub fn to_json(&self) -> String {
+        serde_json::to_string_pretty(self).unwrap_or_default()
+    }
+}
+
+fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
+    let o = Obj::new("source", v)?;
+    let kind = match o.string("kind")?.as_deref() {
+        None | Some("single_ended") => SourceKind::SingleEnded,
+        Some(other) => {
+            return Err(o.err("kind", &format!("'{other}' is not a sensor kind this version designs for; use \"single_ended\"")))
+        }
+    };
+    let min = o.required_q("min", Quantity::Voltage)?;
+    let max = o.required_q("max", Quantity::Voltage)?;
+    if max < min {
+        return Err(o.err("max", &format!("{} is below source.min ({}); give the lower extreme as min", units::format(max, Quantity::Voltage), units::format(min, Quantity::Voltage))));
+    }
+    let coupling = match o.string("coupling")?.as_deref() {
+        None | Some("dc") => Coupling::Dc,
+        Some("ac") => Coupling::Ac,
+        Some(other) => return Err(o.err("coupling", &format!("'{other}' is not a coupling; use \"dc\" or \"ac\""))),
+    };
+    let impedance = o.q("impedance", Quantity::Resistance)?.unwrap_or(0.0);
+    if impedance < 0.0 {
+        return Err(o.err("impedance", "must not be negative"));
+    }
+    let band_low = match (o.q("band_low", Quantity::Frequency)?, coupling) {
+        (Some(f), _) => f,
+        (None, Coupling::Dc) => 0.0,
+        (None, Coupling::Ac) => {
+            return Err(o.err("band_low", "is required for AC coupling: the lowest frequency that must pass, e.g. \"20 Hz\""))
+        }
+    };
+    let band_high = o.q("band_high", Quantity::Frequency)?.unwrap_or(dest.sample_rate * DEFAULT_BAND_FRACTION_OF_FS);
+    if band_low < 0.0 || band_high < 0.0 {
+        return Err(o.err(if band_low < 0.0 { "band_low" } else { "band_high" }, "must not be negative"));
+    }
+    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high"])?;
+    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high })
+}
+
+fn read_destination(v: &Value) -> Result<Destination, RequestError> {
+    let o = Obj::new("destination", v)?;
+    let min = o.required_q("min", Quantity::Voltage)?;
+    let max = o.required_q("max", Quantity::Voltage)?;
+    if max < min {
+        return Err(o.err("max", "is below destination.min; give the converter's lower input limit as min"));
+    }
+    let bits = match o.get("bits") {
+        None => DEFAULT_BITS,
+        Some(b) => match b.as_u64() {
+            Some(n) if (1..=32).contains(&n) => n as u32,
+            _ => return Err(o.err("bits", "must be a whole number of bits from 1 to 32")),
+        },
+    };
+    let sample_rate = o.required_q("sample_rate", Quantity::Frequency)?;
+    if sample_rate <= 0.0 {
+        return Err(o.err("sample_rate", "must be above 0 Hz"));
+    }
+    let impedance = o.q("impedance", Quantity::Resistance)?.unwrap_or(DEFAULT_DESTINATION_IMPEDANCE);
+    if impedance <= 0.0 {
+        return Err(o.err("impedance", "must be above 0 Ω"));
+    }
+    let headroom = o.q("headroom", Quantity::Ratio)?.unwrap_or(DEFAULT_HEADROOM);
+    if !(0.0..0.45).contains(&headroom) {
+        return Err(o.err("headroom", "must be a fraction from 0 to 0.45 of the span (e.g. 0.05 or \"5 %\")"));
+    }
+    o.finish(&["min", "max", "bits", "sample_rate", "impedance", "headroom"])?;
+    Ok(Destination { min, max, bits, sample_rate, impedance, headroom })
+}
+
+fn read_supplies(v: &Value) -> Result<Vec<f64>, RequestError> {
+    let items: Vec<&Value> = match v {
+        Value::Array(a) => a.iter().collect(),
+        other => vec![other],
+    };
+    if items.is_empty() {
+        return Err(field_err("supplies", "needs at least one rail, e.g. [3.3] or [12, -12]"));
+    }
+    let mut out = Vec::new();
+    for (i, item) in items.iter().enumerate() {
+        let path = format!("supplies[{i}]");
+        let x = quantity(&path, item, Quantity::Voltage)?;
+        if x == 0.0 {
+            return Err(field_err(&path, "a rail of 0 V is ground, which is always available; list only the other rails"));
+        }
+        out.push(x);
+    }
+    if !out.iter().any(|&x| x > 0.0) {
+        return Err(field_err("supplies", "needs a positive rail"));
+    }
+    Ok(out)
+}
+
+fn read_parts(v: &Value) -> Result<Parts, RequestError> {
+    let mut o = Obj::new("parts", v)?;
+    let d = Parts::default();
+    let series = |o: &mut Obj, key: &str, default: Series| -> Result<Series, RequestError> {
+        match o.string(key)? {
+            None => Ok(default),
+            Some(s) => Series::parse(&s).ok_or_else(|| o.err(key, &format!("'{s}' is not an IEC 60063 series; use one of E3, E6, E12, E24, E48, E96, E192"))),
+        }
+    };
+    let resistor_series = series(&mut o, "resistor_series", d.resistor_series)?;
+    let capacitor_series = series(&mut o, "capacitor_series", d.capacitor_series)?;
+    let tol = |o: &mut Obj, key: &str, default: f64| -> Result<f64, RequestError> {
+        let t = o.q(key, Quantity::Ratio)?.unwrap_or(default);
+        if !(0.0..=0.5).contains(&t) {
+            return Err(o.err(key, "must be a fraction from 0 to 0.5 (e.g. 0.01 or \"1 %\")"));
+        }
+        Ok(t)
+    };
+    let resistor_tolerance = tol(&mut o, "resistor_tolerance", d.resistor_tolerance)?;
+    let capacitor_tolerance = tol(&mut o, "capacitor_tolerance", d.capacitor_tolerance)?;
+    let resistor_min = o.q("resistor_min", Quantity::Resistance)?.unwrap_or(d.resistor_min);
+    let resistor_max = o.q("resistor_max", Quantity::Resistance)?.unwrap_or(d.resistor_max);
+    if resistor_min <= 0.0 || resistor_max < resistor_min * 10.0 {
+        return Err(o.err("resistor_max", "the resistor window must span at least one decade above resistor_min (> 0 Ω)"));
+    }
+    o.finish(&["resistor_series", "resistor_tolerance", "capacitor_series", "capacitor_tolerance", "resistor_min", "resistor_max"])?;
+    Ok(Parts { resistor_series, resistor_tolerance, capacitor_series, capacitor_tolerance, resistor_min, resistor_max })
+}
+
+fn read_amplifier(v: &Value) -> Result<AmplifierSpec, RequestError> {
+    let o = Obj::new("amplifier", v)?;
+    let mut a = AmplifierSpec {
+        gbw: o.q("gbw", Quantity::Frequency)?,
+        slew_rate: o.q("slew_rate", Quantity::SlewRate)?,
+        swing_low: o.q("swing_low", Quantity::Voltage)?,
+        swing_high: o.q("swing_high", Quantity::Voltage)?,
+        cm_low: o.q("cm_low", Quantity::Voltage)?,
+        cm_high: o.q("cm_high", Quantity::Voltage)?,
+        supply_min: o.q("supply_min", Quantity::Voltage)?,
+        supply_max: o.q("supply_max", Quantity::Voltage)?,
+        offset: o.q("offset", Quantity::Voltage)?,
+        bias_current: o.q("bias_current", Quantity::Current)?,
+        noise_voltage: o.q("noise_voltage", Quantity::VoltageNoise)?,
+        noise_current: o.q("noise_current", Quantity::CurrentNoise)?,
+        open_loop_gain: o.q("open_loop_gain", Quantity::Ratio)?,
+    };
+    for (key, val) in [("gbw", a.gbw), ("slew_rate", a.slew_rate), ("supply_max", a.supply_max)] {
+        if let Some(x) = val {
+            if x <= 0.0 {
+                return Err(o.err(key, "must be above 0"));
+            }
+        }
+    }
+    if let Some(g) = a.open_loop_gain {
+        if g < 10.0 {
+            return Err(o.err("open_loop_gain", "must be at least 10 V/V (an amplifier's open-loop gain, e.g. 1e5)"));
+        }
+    }
+    // Negative offsets and bias currents describe the same spread as positive ones.
+    a.offset = a.offset.map(f64::abs);
+    a.bias_current = a.bias_current.map(f64::abs);
+    o.finish(&[
+        "gbw", "slew_rate", "swing_low", "swing_high", "cm_low", "cm_high", "supply_min", "supply_max", "offset",
+        "bias_current", "noise_voltage", "noise_current", "open_loop_gain",
+    ])?;
+    Ok(a)
+}
+
+fn field_err(field: &str, message: &str) -> RequestError {
+    RequestError { field: field.to_string(), message: message.to_string() }
+}
+
+/// Reads one physical value: a JSON number in SI base units or a string with a unit.
+fn quantity(path: &str, v: &Value, q: Quantity) -> Result<f64, RequestError> {
+    let r = match v {
+        Value::Number(n) => match n.as_f64() {
+            Some(x) => units::parse_number(x, q),
+            None => return Err(field_err(path, "number out of range")),
+        },
+        Value::String(s) => units::parse(s, q),
+        other => {
+            return Err(field_err(
+                path,
+                &format!("expected a {} as a number or a string with a unit, got {}", q.name(), json_kind(other)),
+            ))
+        }
+    };
+    r.map_err(|e| field_err(path, &e.to_string()))
+}
+
+fn json_kind(v: &Value) -> &'static str {
+    match v {
+        Value::Null => "null",
+        Value::Bool(_) => "true/false",
+        Value::Number(_) => "a number",
+        Value::String(_) => "text",
+        Value::Array(_) => "a list",
+        Value::Object(_) => "an object",
+    }
+}
+
+/// A JSON object being read, with the path used in error messages.
+struct Obj<'a> {
+    path: String,
+    map: &'a Map<String, Value>,
+}
+
+impl<'a> Obj<'a> {
+    fn new(path: &str, v: &'a Value) -> Result<Obj<'a>, RequestError> {
+        match v {
+            Value::Object(map) => Ok(Obj { path: path.to_string(), map }),
+            other => Err(field_err(
+                if path.is_empty() { "" } else { path },
+                &format!("expected an object {{…}}, got {}", json_kind(other)),
+            )),
+        }
+    }
+    fn path_of(&self, key: &str) -> String {
+        if self.path.is_empty() {
+            key.to_string()
+        } else {
+            format!("{}.{}", self.path, key)
+        }
+    }
+    fn err(&self, key: &str, message: &str) -> RequestError {
+        field_err(&self.path_of(key), message)
+    }
+    fn get(&self, key: &str) -> Option<&'a Value> {
+        self.map.get(key).filter(|v| !v.is_null())
+    }
+    fn required(&self, key: &str) -> Result<&'a Value, RequestError> {
+        self.get(key).ok_or_else(|| self.err(key, "is required"))
+    }
+    fn q(&self, key: &str, q: Quantity) -> Result<Option<f64>, RequestError> {
+        match self.get(key) {
+            None => Ok(None),
+            Some(Value::String(s)) if s.trim().is_empty() => Ok(None),
+            Some(v) => quantity(&self.path_of(key), v, q).map(Some),
+        }
+    }
+    fn required_q(&self, key: &str, q: Quantity) -> Result<f64, RequestError> {
+        self.q(key, q)?.ok_or_else(|| self.err(key, &format!("is required (a {})", q.name())))
+    }
+    fn string(&self, key: &str) -> Result<Option<String>, RequestError> {
+        match self.get(key) {
+            None => Ok(None),
+            Some(Value::String(s)) => Ok(Some(s.trim().to_string())),
+            Some(other) => Err(self.err(key, &format!("expected text, got {}", json_kind(other)))),
+        }
+    }
+    fn bool(&self, key: &str) -> Result<Option<bool>, RequestError> {
+        match self.get(key) {
+            None => Ok(None),
+            Some(Value::Bool(b)) => Ok(Some(*b)),
+            Some(other) => Err(self.err(key, &format!("expected true or false, got {}", json_kind(other)))),
+        }
+    }
+    /// Rejects fields this version does not know, so a typo is not silently ignored.
+    fn finish(&self, known: &[&str]) -> Result<(), RequestError> {
+        for key in self.map.keys() {
+            if !known.contains(&key.as_str()) {
+                return Err(self.err(key, &format!("unknown field; known fields here are: {}", known.join(", "))));
+            }
+        }
+        Ok(())
+    }
+}

@@ -1,0 +1,195 @@
+//! AC-coupled stage: a coupling capacitor into a non-inverting stage biased at the output's
+//! DC level.
+//!
+//! ```text
+//! sense ─C1─┬─(Ra)─ inp ─┬─ U+         U− ─┬─ Rf ─ adc
+//!                         Rb                Rg
+//!                         ref ─ Rt/Rbt divider, Cb    Cg ─ ground
+//! ```
+//! The divider sets `ref` to the wanted output DC level; `Rb` carries no DC current, so the
+//! + input sits at that level; `Cg` makes the DC gain one, so the output sits there too,
+//! whatever the mid-band gain `G = 1 + Rf/Rg`. Mid-band, the sensor reaches the + input
+//! through `Rb / (R_sensor + Ra + Rb)`; `Ra` is added only when the swing must be attenuated.
+//!
+//! Corner rule: each high-pass corner (C1 with the loop resistance, Cg with Rg, Cb with the
+//! divider's Thevenin resistance) is placed at or below `band_low / 10`; a single such
+//! corner costs 0.5 % (0.043 dB) at `band_low` (1/√(1 + 0.1²)), and the capacitors are
+//! rounded *up* in their series so no corner moves above that. The AC analysis of the
+//! rounded circuit reports the combined response.
+
+use super::round::{optimise, RoundConfig};
+use super::{Limits, Synthesis, Target};
+use crate::amplifier::{Amplifier, Rails};
+use crate::circuit::{Builder, PartKind, Stage, StageRole};
+use crate::request::Request;
+use crate::units::{format, Quantity};
+use crate::values;
+
+/// Fraction of `band_low` at which each high-pass corner is placed.
+pub const CORNER_FRACTION: f64 = 0.1;
+
+/// Designs the AC-coupled stage.
+pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limits: Limits) -> Option<Synthesis> {
+    let s = &req.source;
+    let rs = s.impedance;
+    let span = req.destination.max - req.destination.min;
+    let half = 0.5 * (s.max - s.min);
+    let m = t.gain;
+    let yc = t.offset;
+    let attenuate = m < 1.0 - 1e-9;
+    let follower = m <= 1.0 + 1e-9;
+    let (ref_rail, ref_node) = if yc.abs() < 1e-6 {
+        (0.0, "0")
+    } else if yc > 0.0 {
+        (rails.pos, "vpos")
+    } else if rails.is_dual() {
+        (rails.neg, "vneg")
+    } else {
+        return None;
+    };
+    let has_divider = ref_rail != 0.0;
+    let k = if has_divider { yc / ref_rail } else { 0.0 };
+    if has_divider && !(k > 0.0 && k < 1.0) {
+        return None;
+    }
+    let cfg = RoundConfig { series: req.parts.resistor_series, min: req.parts.resistor_min, max: req.parts.resistor_max };
+    // Vector layout: Rb, [Ra], [Rt, Rbt], [Rg, Rf].
+    let unpack = |v: &[f64]| {
+        let mut i = 0;
+        let mut next = || {
+            i += 1;
+            v[i - 1]
+        };
+        let rb = next();
+        let ra = if attenuate { next() } else { 0.0 };
+        let (rt, rbt) = if has_divider { (next(), next()) } else { (0.0, 0.0) };
+        let (rg, rf) = if follower { (0.0, 0.0) } else { (next(), next()) };
+        (rb, ra, rt, rbt, rg, rf)
+    };
+    let mapping = |v: &[f64]| {
+        let (rb, ra, rt, rbt, rg, rf) = unpack(v);
+        let alpha = rb / (rs + ra + rb);
+        let g = if follower { 1.0 } else { 1.0 + rf / rg };
+        let vref = if has_divider { ref_rail * rbt / (rt + rbt) } else { 0.0 };
+        (alpha * g, vref, alpha)
+    };
+    let cost = |v: &[f64]| {
+        let (rb, ra, ..) = unpack(v);
+        let (m_a, vref, _) = mapping(v);
+        let mut c = ((m_a - m).abs() * half + (vref - yc).abs()) / span;
+        if rs > 0.0 {
+            c += 0.05 * rs / (ra + rb);
+        }
+        c + v.iter().map(|r| 1e-7 * (r / 47e3).log10().abs()).sum::<f64>()
+    };
+    let ideal = |rb: f64| {
+        let mut v = vec![rb];
+        if attenuate {
+            let ra = rb * (1.0 - m) / m - rs;
+            if ra <= 0.0 {
+                return None;
+            }
+            v.push(ra);
+        }
+        if has_divider {
+            let rth = rb / 20.0;
+            v.push(rth / k);
+            v.push(rth / (1.0 - k));
+        }
+        if !follower {
+            let g = m * (rs + rb) / rb;
+            let rg = rb / 10.0;
+            v.push(rg);
+            v.push((g - 1.0) * rg);
+        }
+        Some(v)
+    };
+    let (vals, _) = optimise(cfg, ideal, cost)?;
+    let (rb, ra, rt, rbt, rg, rf) = unpack(&vals);
+    let (m_a, vref, alpha) = mapping(&vals);
+
+    // Capacitors: each corner at or below band_low / 10, rounded up in the series.
+    let fc = s.band_low * CORNER_FRACTION;
+    let cser = req.parts.capacitor_series;
+    let cap_for = |r: f64| values::step_up(cser, 1.0 / (2.0 * std::f64::consts::PI * fc * r));
+    let c1 = cap_for(rs + ra + rb)?;
+    let rth = if has_divider { rt * rbt / (rt + rbt) } else { 0.0 };
+    let cb = if has_divider { Some(cap_for(rth)?) } else { None };
+    let cg = if follower { None } else { Some(cap_for(rg)?) };
+
+    let mut bld = Builder::default();
+    super::bench(&mut bld, req, rails);
+    let rtol = Some(req.parts.resistor_tolerance);
+    let ctol = Some(req.parts.capacitor_tolerance);
+    let inp = "inp1";
+    let after_c1 = if attenuate { "cin1" } else { inp };
+    let mut coupling = vec![bld.add(PartKind::Capacitor, c1, ctol, &["sense", after_c1], StageRole::Coupling, "coupling capacitor: blocks the sensor's DC level")];
+    if attenuate {
+        coupling.push(bld.add(PartKind::Resistor, ra, rtol, &[after_c1, inp], StageRole::Coupling, "series resistor: attenuates the swing with the bias resistor"));
+    }
+    coupling.push(bld.add(PartKind::Resistor, rb, rtol, &[inp, "ref"], StageRole::Coupling, "bias resistor: holds the + input at the reference"));
+    let mut reference = Vec::new();
+    let ref_name = if has_divider { "ref" } else { "0" };
+    if has_divider {
+        reference.push(bld.add(PartKind::Resistor, rt, rtol, &[ref_node, "ref"], StageRole::Reference, "reference divider, upper leg"));
+        reference.push(bld.add(PartKind::Resistor, rbt, rtol, &["ref", "0"], StageRole::Reference, "reference divider, lower leg"));
+        if let Some(c) = cb {
+            reference.push(bld.add(PartKind::Capacitor, c, ctol, &["ref", "0"], StageRole::Reference, "reference bypass: keeps supply noise and signal current off the reference"));
+        }
+    }
+    // Without a divider the bias resistor returns straight to ground.
+    if !has_divider {
+        if let Some(p) = bld.parts.iter_mut().find(|p| p.nodes == ["inp1", "ref"]) {
+            p.nodes[1] = ref_name.to_string();
+        }
+    }
+    let inn = if follower { "adc" } else { "inn1" };
+    let mut gain = Vec::new();
+    if !follower {
+        gain.push(bld.add(PartKind::Resistor, rg, rtol, &[inn, "rg1"], StageRole::Gain, "gain-setting resistor"));
+        if let Some(c) = cg {
+            gain.push(bld.add(PartKind::Capacitor, c, ctol, &["rg1", "0"], StageRole::Gain, "makes the DC gain one so the output rests at the reference"));
+        }
+        gain.push(bld.add(PartKind::Resistor, rf, rtol, &["adc", inn], StageRole::Gain, "feedback resistor"));
+    }
+    let vneg = if rails.is_dual() { "vneg" } else { "0" };
+    gain.push(bld.add(PartKind::OpAmp, amp.gbw, None, &[inp, inn, "vpos", vneg, "adc"], StageRole::Gain, "amplifier: AC gain and converter drive"));
+
+    let v = |x: f64| format(x, Quantity::Voltage);
+    let r = |x: f64| format(x, Quantity::Resistance);
+    let f = |x: f64| format(x, Quantity::Frequency);
+    let mut equations = vec![
+        format!("Wanted: |m| = {m:.5} V/V around an output DC level of {} ({} swing → {} … {})", v(yc), v(2.0 * half), v(t.at_min), v(t.at_max)),
+        format!("Mid-band gain = Rb/(R_sensor + Ra + Rb) · (1 + Rf/Rg) = {m_a:.5} V/V; DC level = V_rail · Rbt/(Rt + Rbt) = {}", v(vref)),
+        format!("High-pass corners at ≤ band_low/10 = {}: C ≥ 1/(2π·{}·R), rounded up in {}", f(fc), f(fc), cser.name()),
+        format!("C1 with {} loop resistance → corner {}", r(rs + ra + rb), f(1.0 / (2.0 * std::f64::consts::PI * c1 * (rs + ra + rb)))),
+    ];
+    if let Some(c) = cg {
+        equations.push(format!("Cg with Rg = {} → corner {}", r(rg), f(1.0 / (2.0 * std::f64::consts::PI * c * rg))));
+    }
+    if let Some(c) = cb {
+        equations.push(format!("Cb with the divider's {} → corner {}", r(rth), f(1.0 / (2.0 * std::f64::consts::PI * c * rth))));
+    }
+    let topology = if follower && attenuate {
+        "AC coupling, attenuator and buffer biased at the output level"
+    } else if follower {
+        "AC coupling into a buffer biased at the output level"
+    } else {
+        "AC coupling into a non-inverting amplifier biased at the output level"
+    };
+    let mut stages = vec![Stage { role: StageRole::Coupling, description: "coupling capacitor and bias resistor: block the sensor's DC level and set the amplifier's".to_string(), parts: coupling }];
+    if !reference.is_empty() {
+        stages.push(Stage { role: StageRole::Reference, description: format!("reference at {} from a divider with its bypass capacitor", v(vref)), parts: reference });
+    }
+    stages.push(Stage { role: StageRole::Gain, description: topology.to_string(), parts: gain });
+    let error = (m_a - m).abs() * half + (vref - yc).abs();
+    Some(Synthesis {
+        circuit: super::finish(bld, stages, amp, rails),
+        target: t,
+        topology: topology.to_string(),
+        equations,
+        rounding_error: error,
+        plus_range: (vref - alpha * half, vref + alpha * half),
+        checks: Vec::new(),
+    })
+}

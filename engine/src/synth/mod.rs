@@ -1,0 +1,143 @@
+//! Synthesis: from a request to the one circuit model, for single-ended voltage sensors.
+//!
+//! Gain and level shift are solved together as y = m·x + b ([`Target`]): the sensor's
+//! extremes land on the converter's range less the headroom (DC coupling), or the swing
+//! lands symmetrically around the middle of that range (AC coupling). The targets are first
+//! pulled inside what the amplifier's output can reach on the rails.
+//!
+//! Every DC case is met by one amplifier ([`dc`]): a non-inverting stage whose + input is a
+//! weighted average of the sensor, a rail and ground (m > 0, b ≥ 0, or b < 0 with a negative
+//! rail); a non-inverting stage whose feedback leg returns partly to the positive rail
+//! (m > 0, b < 0 on one supply); and, when polarity may flip, an inverting stage with its
+//! + input on a divider, or an inverting summer (m < 0). Because a reference divider is folded
+//! into the summing network, its own impedance is part of the gain equations and it never
+//! needs a buffer. AC coupling ([`ac`]) uses a coupling capacitor into a non-inverting stage
+//! biased from a bypassed divider at the output's DC level, with DC gain one.
+//!
+//! Values: every resistor is rounded to the requested series inside the resistor window by
+//! [`round`]: a sweep over the anchor resistor's series values, nearest rounding of the
+//! others, then a neighbour-step descent on the mapping error of the rounded circuit.
+
+pub mod ac;
+pub mod dc;
+pub mod round;
+
+use serde::Serialize;
+
+use crate::amplifier::{Amplifier, Rails};
+use crate::circuit::{Builder, Circuit, PartKind, Stage, StageRole};
+use crate::diag::Check;
+use crate::request::{Coupling, Request};
+
+/// The mapping the design aims for.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Target {
+    /// Output wanted at the sensor's minimum and maximum (AC: the output's swing extremes).
+    pub at_min: f64,
+    pub at_max: f64,
+    /// Wanted gain m (V/V, signed).
+    pub gain: f64,
+    /// DC coupling: the intercept b; AC coupling: the output's DC level.
+    pub offset: f64,
+}
+
+/// What synthesis produced: the circuit and how it got there.
+#[derive(Debug, Clone)]
+pub struct Synthesis {
+    pub circuit: Circuit,
+    pub target: Target,
+    /// Short name of the topology, e.g. "non-inverting stage with offset from the positive rail".
+    pub topology: String,
+    /// Design equations with the numbers substituted.
+    pub equations: Vec<String>,
+    /// Ideal-amplifier mapping error after rounding, in volts at the worse extreme.
+    pub rounding_error: f64,
+    /// Lowest and highest voltage the amplifier's + input sees over the source range (ideal amplifier).
+    pub plus_range: (f64, f64),
+    pub checks: Vec<Check>,
+}
+
+/// Where the amplifier's output and inputs may go.
+#[derive(Debug, Clone, Copy)]
+pub struct Limits {
+    pub out_lo: f64,
+    pub out_hi: f64,
+    pub in_lo: f64,
+    pub in_hi: f64,
+}
+
+/// Computes the target mapping. Returns `None` (with an error check) when nothing usable
+/// is left of the converter range.
+pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Check>) -> Option<Target> {
+    let d = &req.destination;
+    let s = &req.source;
+    let span = d.max - d.min;
+    let mut lo = d.min + d.headroom * span;
+    let mut hi = d.max - d.headroom * span;
+    let (out_lo, out_hi) = amp.output_limits(rails);
+    let fmt = |v: f64| crate::units::format(v, crate::units::Quantity::Voltage);
+    if lo < out_lo || hi > out_hi {
+        let new_lo = lo.max(out_lo);
+        let new_hi = hi.min(out_hi);
+        if new_hi - new_lo < 0.5 * (hi - lo) {
+            checks.push(Check::error(
+                "range_beyond_rails",
+                format!(
+                    "The amplifier output reaches only {} … {} on these rails, which covers less than half of the wanted {} … {}; add a rail that reaches the converter range (e.g. a negative rail for a converter input below 0 V) or give amplifier swing figures.",
+                    fmt(out_lo), fmt(out_hi), fmt(lo), fmt(hi)
+                ),
+            ));
+            return None;
+        }
+        checks.push(Check::warning(
+            "swing_limits_range",
+            format!(
+                "The amplifier output reaches only {} … {} on these rails, so the design uses {} … {} instead of {} … {}; a rail-to-rail output amplifier or a wider rail recovers the rest.",
+                fmt(out_lo), fmt(out_hi), fmt(new_lo), fmt(new_hi), fmt(lo), fmt(hi)
+            ),
+        ));
+        lo = new_lo;
+        hi = new_hi;
+    }
+    let x_span = s.max - s.min;
+    if !(x_span > 0.0) {
+        return None;
+    }
+    let m = (hi - lo) / x_span;
+    Some(match s.coupling {
+        Coupling::Dc => {
+            Target { at_min: lo, at_max: hi, gain: m, offset: lo - m * s.min }
+        }
+        Coupling::Ac => Target { at_min: lo, at_max: hi, gain: m, offset: 0.5 * (lo + hi) },
+    })
+}
+
+/// Runs synthesis for a request that passed the feasibility checks.
+pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, target: Target) -> Option<Synthesis> {
+    let (in_lo, in_hi) = amp.input_limits(rails);
+    let (out_lo, out_hi) = amp.output_limits(rails);
+    let limits = Limits { out_lo, out_hi, in_lo, in_hi };
+    match req.source.coupling {
+        Coupling::Dc => dc::synthesize(req, amp, rails, target, limits),
+        Coupling::Ac => ac::synthesize(req, amp, rails, target, limits),
+    }
+}
+
+/// Adds the bench around the design: the sensor as `VSENSE` (EMF at the middle of its range)
+/// behind `RSENSE`, the rails `VPOS` (and `VNEG`), and the converter's input load `RADC`.
+fn bench(bld: &mut Builder, req: &Request, rails: Rails) {
+    let s = &req.source;
+    bld.bench("VSENSE", PartKind::VoltageSource, 0.5 * (s.min + s.max), &["emf", "0"], StageRole::Sensor, "sensor EMF (swept over the source range)");
+    // A zero source impedance is modelled as 1 mΩ so that the sensor terminal stays a node.
+    bld.bench("RSENSE", PartKind::Resistor, s.impedance.max(1e-3), &["emf", "sense"], StageRole::Sensor, "sensor output impedance");
+    bld.bench("VPOS", PartKind::VoltageSource, rails.pos, &["vpos", "0"], StageRole::Supply, "positive rail");
+    if rails.is_dual() {
+        bld.bench("VNEG", PartKind::VoltageSource, rails.neg, &["vneg", "0"], StageRole::Supply, "negative rail");
+    }
+    bld.bench("RADC", PartKind::Resistor, req.destination.impedance, &["adc", "0"], StageRole::Converter, "converter input impedance");
+}
+
+/// Wraps the built parts into the circuit model.
+fn finish(bld: Builder, stages: Vec<Stage>, amp: &Amplifier, rails: Rails) -> Circuit {
+    Circuit { parts: bld.parts, stages, amplifier: amp.clone(), rail_pos: rails.pos, rail_neg: rails.neg }
+}

@@ -1,0 +1,714 @@
+//! Physical quantities and the text engineers type for them.
+//!
+//! [`parse`] turns text such as `4.7k`, `4k7`, `100 nF`, `-250 mV`, `10 V/µs` or
+//! `15 nV/√Hz` into a value in SI base units, checked against the plausible range of the
+//! expected [`Quantity`]. [`parse_number`] applies the same checks to a bare number (for
+//! JSON input). [`format`] and [`format_sig`] print a value back with an SI prefix, e.g.
+//! `4.7 kΩ`, so that `parse(&format(v, q), q)` returns `v` to three significant digits.
+//!
+//! Conventions:
+//! * Prefixes `f p n u µ μ m k K M G T` and SPICE-style `meg`/`MEG`; `m` is milli and
+//!   `M` is mega. A prefix with no unit takes the unit of the expected quantity (`100n`).
+//! * RKM code: the prefix letter stands in for the decimal point (`4k7`, `2M2`, `1n5`);
+//!   `R` does so for resistance only (`4R7`, `R47`).
+//! * `K` alone is kelvin when a temperature is expected and kilo otherwise.
+//! * Temperatures are absolute (kelvin); `°C` or `C` adds 273.15. Negative kelvin is
+//!   rejected as out of range.
+//! * [`Quantity::Ratio`] is dimensionless: a plain number, `%` (1e-2), `ppm` (1e-6) or
+//!   `ppb` (1e-9).
+//!
+//! Nothing here panics, whatever the input; failures come back as [`UnitError`].
+
+use std::fmt;
+
+/// A physical quantity a value can have. Values are always held in SI base units.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Quantity {
+    Voltage,
+    Current,
+    Resistance,
+    Capacitance,
+    Inductance,
+    Frequency,
+    Time,
+    SlewRate,
+    VoltageNoise,
+    CurrentNoise,
+    Power,
+    Temperature,
+    /// Dimensionless (gain, tolerance, fraction).
+    Ratio,
+}
+
+impl Quantity {
+    /// Every quantity, in declaration order.
+    pub const ALL: [Quantity; 13] = [
+        Quantity::Voltage,
+        Quantity::Current,
+        Quantity::Resistance,
+        Quantity::Capacitance,
+        Quantity::Inductance,
+        Quantity::Frequency,
+        Quantity::Time,
+        Quantity::SlewRate,
+        Quantity::VoltageNoise,
+        Quantity::CurrentNoise,
+        Quantity::Power,
+        Quantity::Temperature,
+        Quantity::Ratio,
+    ];
+
+    /// The SI unit symbol (empty for a ratio).
+    pub fn unit_symbol(self) -> &'static str {
+        match self {
+            Quantity::Voltage => "V",
+            Quantity::Current => "A",
+            Quantity::Resistance => "Ω",
+            Quantity::Capacitance => "F",
+            Quantity::Inductance => "H",
+            Quantity::Frequency => "Hz",
+            Quantity::Time => "s",
+            Quantity::SlewRate => "V/s",
+            Quantity::VoltageNoise => "V/√Hz",
+            Quantity::CurrentNoise => "A/√Hz",
+            Quantity::Power => "W",
+            Quantity::Temperature => "K",
+            Quantity::Ratio => "",
+        }
+    }
+
+    /// Lower-case name for messages, e.g. "slew rate".
+    pub fn name(self) -> &'static str {
+        match self {
+            Quantity::Voltage => "voltage",
+            Quantity::Current => "current",
+            Quantity::Resistance => "resistance",
+            Quantity::Capacitance => "capacitance",
+            Quantity::Inductance => "inductance",
+            Quantity::Frequency => "frequency",
+            Quantity::Time => "time",
+            Quantity::SlewRate => "slew rate",
+            Quantity::VoltageNoise => "voltage noise density",
+            Quantity::CurrentNoise => "current noise density",
+            Quantity::Power => "power",
+            Quantity::Temperature => "temperature",
+            Quantity::Ratio => "ratio",
+        }
+    }
+
+    /// Inclusive bounds on the magnitude of a plausible value, in SI base units.
+    /// Zero is always accepted. Temperature is absolute and must not be negative.
+    pub fn plausible_range(self) -> (f64, f64) {
+        match self {
+            Quantity::Voltage => (1e-9, 1e4),
+            Quantity::Current => (1e-15, 10.0),
+            Quantity::Resistance => (1e-3, 1e13),
+            Quantity::Capacitance => (1e-15, 1.0),
+            Quantity::Inductance => (1e-12, 1e3),
+            Quantity::Frequency => (1e-3, 1e10),
+            Quantity::Time => (1e-12, 1e6),
+            Quantity::SlewRate => (1.0, 1e11),
+            Quantity::VoltageNoise => (1e-12, 1e-3),
+            Quantity::CurrentNoise => (1e-18, 1e-6),
+            Quantity::Power => (1e-9, 1e4),
+            Quantity::Temperature => (1.0, 1000.0),
+            Quantity::Ratio => (0.0, 1e6),
+        }
+    }
+}
+
+/// Why a value could not be read.
+#[derive(Debug, Clone, PartialEq)]
+pub enum UnitError {
+    Empty,
+    NotANumber {
+        text: String,
+    },
+    UnknownUnit {
+        unit: String,
+        expected: Quantity,
+    },
+    WrongQuantity {
+        unit: String,
+        found: Quantity,
+        expected: Quantity,
+    },
+    NotFinite,
+    OutOfRange {
+        value: f64,
+        quantity: Quantity,
+        min: f64,
+        max: f64,
+    },
+}
+
+impl UnitError {
+    /// The message for a field known to hold `expected`; unlike `Display`, it names the
+    /// quantity for [`UnitError::Empty`] and [`UnitError::NotANumber`] too.
+    pub fn message(&self, expected: Quantity) -> String {
+        match self {
+            UnitError::Empty => format!("value is empty; expected {}", describe(expected)),
+            UnitError::NotANumber { text } => {
+                format!(
+                    "'{}' is not a number; expected {}",
+                    text,
+                    describe(expected)
+                )
+            }
+            other => other.to_string(),
+        }
+    }
+}
+
+impl fmt::Display for UnitError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            UnitError::Empty => write!(
+                f,
+                "value is empty; expected a number such as 4.7 kΩ or 100 nF"
+            ),
+            UnitError::NotANumber { text } => write!(
+                f,
+                "'{}' is not a number; write a value such as 4.7k, 4k7, 100 nF or 1e-6",
+                text
+            ),
+            UnitError::UnknownUnit { unit, expected } => write!(
+                f,
+                "unknown unit '{}'; expected {} or {}",
+                unit,
+                describe(*expected),
+                examples(*expected).1
+            ),
+            UnitError::WrongQuantity {
+                unit,
+                found,
+                expected,
+            } => write!(
+                f,
+                "'{}' is a {} unit; expected {}",
+                unit,
+                found.name(),
+                describe(*expected)
+            ),
+            UnitError::NotFinite => {
+                write!(
+                    f,
+                    "value is not a finite number (NaN, infinity or too large to represent)"
+                )
+            }
+            UnitError::OutOfRange {
+                value,
+                quantity,
+                min,
+                max,
+            } => write!(
+                f,
+                "{} is outside the plausible range for {} ({} … {})",
+                format(*value, *quantity),
+                with_article(*quantity),
+                format(*min, *quantity),
+                format(*max, *quantity)
+            ),
+        }
+    }
+}
+
+impl std::error::Error for UnitError {}
+
+/// Read `text` as a value of quantity `expected`, returned in SI base units.
+pub fn parse(text: &str, expected: Quantity) -> Result<f64, UnitError> {
+    let s = text.trim();
+    if s.is_empty() {
+        return Err(UnitError::Empty);
+    }
+    let not_a_number = || UnitError::NotANumber {
+        text: s.to_string(),
+    };
+    let sc = scan(s)?;
+
+    let (prefix_exp, unit) = match sc.rkm {
+        Some((letter, letter_exp)) => {
+            let unit = resolve_after_rkm(letter, &sc.suffix, expected, s)?;
+            (letter_exp, unit)
+        }
+        None => resolve_suffix(&sc.suffix, expected)?,
+    };
+    if unit.quantity != expected {
+        return Err(UnitError::WrongQuantity {
+            unit: sc.suffix,
+            found: unit.quantity,
+            expected,
+        });
+    }
+
+    let int = if sc.int.is_empty() { "0" } else { sc.int };
+    let frac = if sc.frac.is_empty() { "0" } else { sc.frac };
+    let exp = sc
+        .exp
+        .saturating_add(i64::from(prefix_exp))
+        .saturating_add(i64::from(unit.exp10));
+    let sign = if sc.negative { "-" } else { "" };
+    let mut value: f64 = format!("{sign}{int}.{frac}e{exp}")
+        .parse()
+        .map_err(|_| not_a_number())?;
+    if !value.is_finite() {
+        return Err(UnitError::NotFinite);
+    }
+    let nonzero_digits = sc.int.bytes().chain(sc.frac.bytes()).any(|b| b != b'0');
+    if unit.celsius {
+        value += 273.15;
+    } else if value == 0.0 && nonzero_digits {
+        // Underflowed to zero: far below any plausible magnitude.
+        let (min, max) = expected.plausible_range();
+        let tiny = if sc.negative {
+            -f64::MIN_POSITIVE
+        } else {
+            f64::MIN_POSITIVE
+        };
+        return Err(UnitError::OutOfRange {
+            value: tiny,
+            quantity: expected,
+            min,
+            max,
+        });
+    }
+    check_range(value, expected)
+}
+
+/// Check a bare number (already in SI base units, e.g. from JSON) for `expected`.
+pub fn parse_number(value: f64, expected: Quantity) -> Result<f64, UnitError> {
+    check_range(value, expected)
+}
+
+/// Format with an SI prefix and three significant digits, e.g. "4.7 kΩ".
+pub fn format(value: f64, q: Quantity) -> String {
+    format_sig(value, q, 3)
+}
+
+/// Format with an SI prefix and `sig` significant digits (1 to 17), trailing zeros removed.
+/// Ratios print as plain numbers and temperatures as plain kelvin; values beyond the
+/// f…T prefixes use an exponent ("1e20 V"). Non-finite values print as "—".
+pub fn format_sig(value: f64, q: Quantity, sig: usize) -> String {
+    if !value.is_finite() {
+        return "—".to_string();
+    }
+    let sig = sig.clamp(1, 17);
+    let (number, prefix) = if value == 0.0 {
+        ("0".to_string(), "")
+    } else {
+        let (digits, exp) = sci_digits(value.abs(), sig);
+        let (body, prefix) = match q {
+            Quantity::Ratio | Quantity::Temperature => (plain_number(&digits, exp), ""),
+            _ => si_number(&digits, exp),
+        };
+        let sign = if value < 0.0 { "-" } else { "" };
+        (format!("{sign}{body}"), prefix)
+    };
+    let unit = q.unit_symbol();
+    if unit.is_empty() && prefix.is_empty() {
+        number
+    } else {
+        format!("{number} {prefix}{unit}")
+    }
+}
+
+// ---------------------------------------------------------------------------------------
+// Private helpers.
+
+/// Prefix spellings and their powers of ten; longer spellings first so "meg" beats "m".
+const PREFIXES: [(&str, i32); 15] = [
+    ("meg", 6),
+    ("MEG", 6),
+    ("Meg", 6),
+    ("f", -15),
+    ("p", -12),
+    ("n", -9),
+    ("u", -6),
+    ("µ", -6),
+    ("μ", -6),
+    ("m", -3),
+    ("k", 3),
+    ("K", 3),
+    ("M", 6),
+    ("G", 9),
+    ("T", 12),
+];
+
+/// Prefixes formatting may choose, indexed by (exponent / 3 + 5).
+const FORMAT_PREFIXES: [&str; 10] = ["f", "p", "n", "µ", "m", "", "k", "M", "G", "T"];
+
+fn examples(q: Quantity) -> (&'static str, &'static str) {
+    match q {
+        Quantity::Voltage => ("3.3 V", "250 mV"),
+        Quantity::Current => ("10 mA", "2.5 µA"),
+        Quantity::Resistance => ("4.7 kΩ", "4k7"),
+        Quantity::Capacitance => ("100 nF", "1n5"),
+        Quantity::Inductance => ("10 µH", "2.2 mH"),
+        Quantity::Frequency => ("48 kHz", "10 Hz"),
+        Quantity::Time => ("1 ms", "10 µs"),
+        Quantity::SlewRate => ("10 V/µs", "0.5 V/µs"),
+        Quantity::VoltageNoise => ("15 nV/√Hz", "15 nV/rtHz"),
+        Quantity::CurrentNoise => ("1 pA/√Hz", "1 pA/rtHz"),
+        Quantity::Power => ("250 mW", "1 W"),
+        Quantity::Temperature => ("300 K", "27 °C"),
+        Quantity::Ratio => ("5 %", "100 ppm"),
+    }
+}
+
+fn with_article(q: Quantity) -> String {
+    let name = q.name();
+    let article = if name.starts_with(['a', 'e', 'i', 'o', 'u']) {
+        "an"
+    } else {
+        "a"
+    };
+    format!("{article} {name}")
+}
+
+fn describe(q: Quantity) -> String {
+    format!("{} such as {}", with_article(q), examples(q).0)
+}
+
+fn check_range(value: f64, q: Quantity) -> Result<f64, UnitError> {
+    if !value.is_finite() {
+        return Err(UnitError::NotFinite);
+    }
+    if value == 0.0 {
+        return Ok(0.0);
+    }
+    let (min, max) = q.plausible_range();
+    let mag = value.abs();
+    // A hair of slack so that e.g. "1000 pV" still counts as 1 nV.
+    let inside = mag >= min * (1.0 - 1e-9) && mag <= max * (1.0 + 1e-9);
+    let negative_kelvin = q == Quantity::Temperature && value < 0.0;
+    if inside && !negative_kelvin {
+        Ok(value)
+    } else {
+        Err(UnitError::OutOfRange {
+            value,
+            quantity: q,
+            min,
+            max,
+        })
+    }
+}
+
+/// The pieces of the numeric part of the input.
+struct Scanned<'a> {
+    negative: bool,
+    int: &'a str,
+    frac: &'a str,
+    /// Written exponent, clamped to ±1e6 (enough to over- or underflow any f64).
+    exp: i64,
+    /// RKM letter standing for the decimal point, with its power of ten.
+    rkm: Option<(char, i32)>,
+    /// Everything after the number, whitespace removed.
+    suffix: String,
+}
+
+fn rkm_exp(c: char) -> Option<i32> {
+    match c {
+        'R' => Some(0),
+        'f' => Some(-15),
+        'p' => Some(-12),
+        'n' => Some(-9),
+        'u' | 'µ' | 'μ' => Some(-6),
+        'm' => Some(-3),
+        'k' | 'K' => Some(3),
+        'M' => Some(6),
+        'G' => Some(9),
+        'T' => Some(12),
+        _ => None,
+    }
+}
+
+/// Length in bytes of the run of ASCII digits at the start of `s`.
+fn digit_run(s: &str) -> usize {
+    s.bytes().take_while(u8::is_ascii_digit).count()
+}
+
+fn scan(s: &str) -> Result<Scanned<'_>, UnitError> {
+    let not_a_number = || UnitError::NotANumber {
+        text: s.to_string(),
+    };
+    let mut rest = s;
+    let mut negative = false;
+    if let Some(c) = rest
+        .chars()
+        .next()
+        .filter(|c| matches!(c, '+' | '-' | '\u{2212}'))
+    {
+        negative = c != '+';
+        rest = rest.get(c.len_utf8()..).unwrap_or("").trim_start();
+    }
+    let lower = rest.to_lowercase();
+    if lower.starts_with("nan") || lower.starts_with("inf") || lower.starts_with('∞') {
+        return Err(UnitError::NotFinite);
+    }
+
+    let int_len = digit_run(rest);
+    let int = rest.get(..int_len).unwrap_or("");
+    let mut pos = int_len;
+    let mut frac = "";
+    let mut rkm = None;
+    let after = rest.get(pos..).unwrap_or("");
+    let mut chars = after.chars();
+    match chars.next() {
+        Some('.') => {
+            let tail = after.get(1..).unwrap_or("");
+            let n = digit_run(tail);
+            frac = tail.get(..n).unwrap_or("");
+            pos += 1 + n;
+        }
+        Some(c) if rkm_exp(c).is_some() && chars.next().is_some_and(|d| d.is_ascii_digit()) => {
+            let tail = after.get(c.len_utf8()..).unwrap_or("");
+            let n = digit_run(tail);
+            frac = tail.get(..n).unwrap_or("");
+            pos += c.len_utf8() + n;
+            rkm = rkm_exp(c).map(|e| (c, e));
+        }
+        _ => {}
+    }
+    if int.is_empty() && frac.is_empty() {
+        return Err(not_a_number());
+    }
+
+    let mut exp: i64 = 0;
+    if rkm.is_none() {
+        let after = rest.get(pos..).unwrap_or("");
+        let bytes = after.as_bytes();
+        if matches!(bytes.first(), Some(b'e' | b'E')) {
+            let (exp_negative, start) = match bytes.get(1) {
+                Some(b'+') => (false, 2),
+                Some(b'-') => (true, 2),
+                _ => (false, 1),
+            };
+            let digits = after.get(start..).unwrap_or("");
+            let n = digit_run(digits);
+            if n > 0 {
+                for b in digits.bytes().take(n) {
+                    exp = (exp * 10 + i64::from(b - b'0')).min(1_000_000);
+                }
+                if exp_negative {
+                    exp = -exp;
+                }
+                pos += start + n;
+            }
+        }
+    }
+
+    let suffix: String = rest
+        .get(pos..)
+        .unwrap_or("")
+        .chars()
+        .filter(|c| !c.is_whitespace())
+        .collect();
+    if suffix
+        .chars()
+        .any(|c| c.is_ascii_digit() || matches!(c, '.' | '+' | '-' | ','))
+    {
+        return Err(not_a_number());
+    }
+    Ok(Scanned {
+        negative,
+        int,
+        frac,
+        exp,
+        rkm,
+        suffix,
+    })
+}
+
+/// A recognised unit: its quantity, a power-of-ten scale to SI, and whether it is °C.
+#[derive(Clone, Copy)]
+struct Unit {
+    quantity: Quantity,
+    exp10: i32,
+    celsius: bool,
+}
+
+impl Unit {
+    fn of(quantity: Quantity, exp10: i32) -> Unit {
+        Unit {
+            quantity,
+            exp10,
+            celsius: false,
+        }
+    }
+}
+
+/// Look up a unit spelling. `prefixed` says whether a prefix preceded it: a bare "K" is
+/// kelvin only when a temperature is expected, "f" is a farad only after a prefix
+/// ("100nf"), and °C takes no prefix.
+fn lookup_unit(u: &str, expected: Quantity, prefixed: bool) -> Option<Unit> {
+    use Quantity::*;
+    if let Some((num, den)) = u.split_once('/') {
+        let den = den.to_lowercase();
+        let volts = matches!(num, "V" | "v");
+        let amps = matches!(num, "A" | "a");
+        let root_hz =
+            ["√hz", "√(hz)", "rthz", "rt(hz)", "sqrthz", "sqrt(hz)"].contains(&den.as_str());
+        return match (volts, amps) {
+            (true, _) if root_hz => Some(Unit::of(VoltageNoise, 0)),
+            (_, true) if root_hz => Some(Unit::of(CurrentNoise, 0)),
+            (true, _) => match den.as_str() {
+                "s" | "sec" => Some(Unit::of(SlewRate, 0)),
+                "ms" | "msec" => Some(Unit::of(SlewRate, 3)),
+                "us" | "µs" | "μs" | "usec" => Some(Unit::of(SlewRate, 6)),
+                "ns" => Some(Unit::of(SlewRate, 9)),
+                _ => None,
+            },
+            _ => None,
+        };
+    }
+    let unit = match u {
+        "V" | "v" => Unit::of(Voltage, 0),
+        "A" | "a" => Unit::of(Current, 0),
+        "Ω" | "\u{2126}" | "R" => Unit::of(Resistance, 0),
+        "F" => Unit::of(Capacitance, 0),
+        "f" if prefixed => Unit::of(Capacitance, 0),
+        "H" | "h" => Unit::of(Inductance, 0),
+        "s" | "sec" | "secs" => Unit::of(Time, 0),
+        "W" | "w" => Unit::of(Power, 0),
+        "K" if prefixed || expected == Temperature => Unit::of(Temperature, 0),
+        "°K" => Unit::of(Temperature, 0),
+        "°C" | "℃" | "C" | "degC" if !prefixed => Unit {
+            quantity: Temperature,
+            exp10: 0,
+            celsius: true,
+        },
+        "%" => Unit::of(Ratio, -2),
+        "ppm" => Unit::of(Ratio, -6),
+        "ppb" => Unit::of(Ratio, -9),
+        _ => match u.to_lowercase().as_str() {
+            "volt" | "volts" => Unit::of(Voltage, 0),
+            "amp" | "amps" => Unit::of(Current, 0),
+            "ohm" | "ohms" => Unit::of(Resistance, 0),
+            "hz" => Unit::of(Frequency, 0),
+            "watt" | "watts" => Unit::of(Power, 0),
+            _ => return None,
+        },
+    };
+    Some(unit)
+}
+
+/// Split the text after a plain number into (prefix exponent, unit).
+fn resolve_suffix(u: &str, expected: Quantity) -> Result<(i32, Unit), UnitError> {
+    if u.is_empty() {
+        return Ok((0, Unit::of(expected, 0)));
+    }
+    if let Some(unit) = lookup_unit(u, expected, false) {
+        return Ok((0, unit));
+    }
+    for (p, p_exp) in PREFIXES {
+        if let Some(rest) = u.strip_prefix(p) {
+            if rest.is_empty() {
+                return Ok((p_exp, Unit::of(expected, 0)));
+            }
+            if let Some(unit) = lookup_unit(rest, expected, true) {
+                return Ok((p_exp, unit));
+            }
+        }
+    }
+    Err(UnitError::UnknownUnit {
+        unit: u.to_string(),
+        expected,
+    })
+}
+
+/// The unit after an RKM number such as "4k7" or "4R7Ω": no second prefix allowed.
+fn resolve_after_rkm(
+    letter: char,
+    u: &str,
+    expected: Quantity,
+    text: &str,
+) -> Result<Unit, UnitError> {
+    let unit = if u.is_empty() {
+        Unit::of(
+            if letter == 'R' {
+                Quantity::Resistance
+            } else {
+                expected
+            },
+            0,
+        )
+    } else if let Some(unit) = lookup_unit(u, expected, letter != 'R') {
+        unit
+    } else if matches!(resolve_suffix(u, expected), Ok((e, _)) if e != 0) {
+        return Err(UnitError::NotANumber {
+            text: text.to_string(),
+        });
+    } else {
+        return Err(UnitError::UnknownUnit {
+            unit: u.to_string(),
+            expected,
+        });
+    };
+    if letter == 'R' && expected != Quantity::Resistance {
+        return Err(UnitError::WrongQuantity {
+            unit: "R".to_string(),
+            found: Quantity::Resistance,
+            expected,
+        });
+    }
+    Ok(unit)
+}
+
+/// Significant digits (ASCII, exactly `sig` of them) and decimal exponent of `mag` > 0,
+/// rounded by the standard library so that 999.96 becomes "100", exponent 3.
+fn sci_digits(mag: f64, sig: usize) -> (String, i32) {
+    let text = format!("{:.*e}", sig.saturating_sub(1), mag);
+    let (mantissa, exp) = text.split_once('e').unwrap_or((text.as_str(), "0"));
+    let digits: String = mantissa.chars().filter(char::is_ascii_digit).collect();
+    (digits, exp.parse().unwrap_or(0))
+}
+
+/// Join integer and fraction digits, dropping trailing zeros of the fraction.
+fn join_number(int: &str, frac: &str) -> String {
+    let frac = frac.trim_end_matches('0');
+    let int = if int.is_empty() { "0" } else { int };
+    if frac.is_empty() {
+        int.to_string()
+    } else {
+        format!("{int}.{frac}")
+    }
+}
+
+/// Digits with the decimal point after `n` of them, padding with zeros as needed.
+fn place_point(digits: &str, n: usize) -> String {
+    if digits.len() >= n {
+        join_number(digits.get(..n).unwrap_or(""), digits.get(n..).unwrap_or(""))
+    } else {
+        format!("{digits}{}", "0".repeat(n - digits.len()))
+    }
+}
+
+fn scientific(digits: &str, exp: i32) -> String {
+    format!("{}e{}", place_point(digits, 1), exp)
+}
+
+fn si_number(digits: &str, exp: i32) -> (String, &'static str) {
+    let group = exp.div_euclid(3);
+    let index = group + 5;
+    match usize::try_from(index)
+        .ok()
+        .and_then(|i| FORMAT_PREFIXES.get(i))
+    {
+        Some(prefix) => {
+            let lead = (exp - group * 3) as usize + 1; // 1..=3 digits before the point
+            (place_point(digits, lead), *prefix)
+        }
+        None => (scientific(digits, exp), ""),
+    }
+}
+
+fn plain_number(digits: &str, exp: i32) -> String {
+    if (0..=6).contains(&exp) {
+        place_point(digits, exp as usize + 1)
+    } else if (-5..0).contains(&exp) {
+        let zeros = "0".repeat((-exp - 1) as usize);
+        join_number("0", &format!("{zeros}{digits}"))
+    } else {
+        scientific(digits, exp)
+    }
+}
