@@ -128,7 +128,7 @@ pub fn design(req: &Request) -> Design {
     // Rounding and the amplifier's finite gain can move the extremes by a hair past the
     // headroom; pull the target in by that much and design again (at most a few times).
     let mut result = None;
-    for _ in 0..4 {
+    for attempt in 0..6 {
         let Some(s) = synth::synthesize(req, &amp, rails, target) else { break };
         let Some(p) = predict(req, &s.circuit) else { break };
         let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
@@ -139,7 +139,8 @@ pub fn design(req: &Request) -> Design {
         if done {
             break;
         }
-        let nudge = 1e-4 * span;
+        // Rounding may jump to other values after a small shrink; widen the step each time.
+        let nudge = [1e-4, 1e-3, 3e-3, 1e-2, 3e-2, 0.1][attempt] * span;
         target = shrink(target, req, if under > 0.0 { under + nudge } else { 0.0 }, if over > 0.0 { over + nudge } else { 0.0 });
     }
     let Some((s, p)) = result else {
@@ -365,7 +366,8 @@ fn design_checks(req: &Request, s: &synth::Synthesis, p: &Predicted, amp: &Ampli
     if lo >= want_lo && hi <= want_hi {
         c.push(Check::ok("headroom", format!("The sensor's range lands on {} … {}, {:.1} % of the converter span, inside the {:.1} % headroom at each end.", v(lo), v(hi), used, d.headroom * 100.0)));
     } else {
-        c.push(Check::error("headroom", format!("The sensor's range lands on {} … {}, outside the wanted {} … {}; the amplifier cannot reach that far on these rails.", v(lo), v(hi), v(want_lo), v(want_hi))));
+        let v4 = |x: f64| crate::units::format_sig(x, Quantity::Voltage, 5);
+        c.push(Check::error("headroom", format!("The sensor's range lands on {} … {}, outside the wanted {} … {}; the amplifier cannot reach that far on these rails, or rounding to the series could not keep it inside. A finer series or a little more headroom helps.", v4(lo), v4(hi), v4(want_lo), v4(want_hi))));
     }
     let err_pct = s.rounding_error / span * 100.0;
     let lsb = span / 2f64.powi(d.bits as i32);

@@ -28,16 +28,33 @@ use crate::values;
 /// Fraction of `band_low` at which each high-pass corner is placed.
 pub const CORNER_FRACTION: f64 = 0.1;
 
-/// Designs the AC-coupled stage.
+/// Designs the AC-coupled stage: the plain form (a buffer with an attenuator when |m| < 1,
+/// an amplifier of gain m otherwise) and a form with a quarter more gain taken back by an
+/// attenuator, which a gain just above one needs; the lower mapping error (plus a small
+/// charge per part) wins.
 pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limits: Limits) -> Option<Synthesis> {
+    let m = t.gain;
+    let plain = if m < 1.0 - 1e-9 {
+        variant(req, amp, rails, t, 1.0, true)
+    } else if m <= 1.0 + 1e-9 {
+        variant(req, amp, rails, t, 1.0, false)
+    } else {
+        variant(req, amp, rails, t, m, false)
+    };
+    let boosted = variant(req, amp, rails, t, m.max(1.0) * 1.25, true);
+    [plain, boosted].into_iter().flatten().min_by(|a, b| a.1.total_cmp(&b.1)).map(|(s, _)| s)
+}
+
+/// One form of the stage with amplifier gain `g` (1 = buffer), with or without the
+/// attenuating series resistor; returns the design and its score.
+fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, attenuate: bool) -> Option<(Synthesis, f64)> {
     let s = &req.source;
     let rs = s.impedance;
     let span = req.destination.max - req.destination.min;
     let half = 0.5 * (s.max - s.min);
     let m = t.gain;
     let yc = t.offset;
-    let attenuate = m < 1.0 - 1e-9;
-    let follower = m <= 1.0 + 1e-9;
+    let follower = g <= 1.0 + 1e-9;
     let (ref_rail, ref_node) = if yc.abs() < 1e-6 {
         (0.0, "0")
     } else if yc > 0.0 {
@@ -84,8 +101,11 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
     };
     let ideal = |rb: f64| {
         let mut v = vec![rb];
+        // With the attenuator the amplifier gain is fixed at g; without it the gain absorbs
+        // the small loss of the sensor impedance against Rb.
+        let alpha = if attenuate { m / g } else { 1.0 };
         if attenuate {
-            let ra = rb * (1.0 - m) / m - rs;
+            let ra = rb * (1.0 - alpha) / alpha - rs;
             if ra <= 0.0 {
                 return None;
             }
@@ -97,14 +117,15 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
             v.push(rth / (1.0 - k));
         }
         if !follower {
-            let g = m * (rs + rb) / rb;
+            let gain = if attenuate { g } else { m * (rs + rb) / rb };
             let rg = rb / 10.0;
             v.push(rg);
-            v.push((g - 1.0) * rg);
+            v.push((gain - 1.0) * rg);
         }
         Some(v)
     };
-    let (vals, _) = optimise(cfg, ideal, cost)?;
+    let (vals, score) = optimise(cfg, ideal, cost)?;
+    let score = score + 0.001 * (vals.len() as f64 + 1.0);
     let (rb, ra, rt, rbt, rg, rf) = unpack(&vals);
     let (m_a, vref, alpha) = mapping(&vals);
 
@@ -183,7 +204,7 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
     }
     stages.push(Stage { role: StageRole::Gain, description: topology.to_string(), parts: gain });
     let error = (m_a - m).abs() * half + (vref - yc).abs();
-    Some(Synthesis {
+    let synthesis = Synthesis {
         circuit: super::finish(bld, stages, amp, rails),
         target: t,
         topology: topology.to_string(),
@@ -191,5 +212,6 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
         rounding_error: error,
         plus_range: (vref - alpha * half, vref + alpha * half),
         checks: Vec::new(),
-    })
+    };
+    Some((synthesis, score))
 }

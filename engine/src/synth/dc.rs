@@ -139,8 +139,35 @@ struct Candidate {
     score: f64,
 }
 
-/// Designs the DC-coupled stage.
+/// The DC stage templates (see the table in the module doc).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Template {
+    /// m > 0: offset summed into the + input.
+    NonInvertingPlus,
+    /// m > 0, b < 0 on one supply: feedback leg partly to the positive rail.
+    NonInvertingMinus,
+    /// m < 0: + input on a divider.
+    InvertingPlus,
+    /// m < 0: offset summed into the − input.
+    InvertingSum,
+}
+
+impl Template {
+    pub const ALL: [Template; 4] = [Template::NonInvertingPlus, Template::NonInvertingMinus, Template::InvertingPlus, Template::InvertingSum];
+    pub fn inverting(self) -> bool {
+        matches!(self, Template::InvertingPlus | Template::InvertingSum)
+    }
+}
+
+/// Designs the DC-coupled stage: every allowed template, the best one wins.
 pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, target: Target, limits: Limits) -> Option<Synthesis> {
+    let allowed: Vec<Template> = Template::ALL.into_iter().filter(|t| !req.keep_polarity || !t.inverting()).collect();
+    synthesize_with(req, amp, rails, target, limits, &allowed)
+}
+
+/// Designs the DC-coupled stage from the given templates only. For an inverting template the
+/// target is mirrored: the sensor's minimum lands on the upper end.
+pub fn synthesize_with(req: &Request, amp: &Amplifier, rails: Rails, target: Target, limits: Limits, templates: &[Template]) -> Option<Synthesis> {
     let ctx = Ctx {
         req,
         rails,
@@ -149,18 +176,22 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, target: Target, 
         cfg: RoundConfig { series: req.parts.resistor_series, min: req.parts.resistor_min, max: req.parts.resistor_max },
         span: req.destination.max - req.destination.min,
     };
+    let inv = Target { at_min: target.at_max, at_max: target.at_min, gain: -target.gain, offset: target.at_max + target.gain * req.source.min };
     let mut candidates = Vec::new();
-    // Each non-inverting template is tried with the least gain that works (fewest parts, but
-    // the gain ratio must then round exactly) and with a quarter more gain, taken back by an
-    // extra divider leg that gives the rounding a free ratio to work with.
-    for boost in [1.0, 1.25] {
-        candidates.extend(noninv_plus(&ctx, target, boost).map(|c| (c, target)));
-        candidates.extend(noninv_minus(&ctx, target, boost).map(|c| (c, target)));
-    }
-    if !req.keep_polarity {
-        let inv = Target { at_min: target.at_max, at_max: target.at_min, gain: -target.gain, offset: target.at_max + target.gain * req.source.min };
-        candidates.extend(inv_plus(&ctx, inv).map(|c| (c, inv)));
-        candidates.extend(inv_sum(&ctx, inv).map(|c| (c, inv)));
+    for &tpl in templates {
+        // Each non-inverting template is tried with the least gain that works (fewest parts,
+        // but the gain ratio must then round exactly) and with a quarter more gain, taken
+        // back by an extra divider leg that gives the rounding a free ratio to work with.
+        for boost in [1.0, 1.25] {
+            let c = match tpl {
+                Template::NonInvertingPlus => noninv_plus(&ctx, target, boost).map(|c| (c, target)),
+                Template::NonInvertingMinus => noninv_minus(&ctx, target, boost).map(|c| (c, target)),
+                Template::InvertingPlus if boost == 1.0 => inv_plus(&ctx, inv).map(|c| (c, inv)),
+                Template::InvertingSum if boost == 1.0 => inv_sum(&ctx, inv).map(|c| (c, inv)),
+                _ => None,
+            };
+            candidates.extend(c);
+        }
     }
     let (best, t) = candidates.into_iter().min_by(|a, b| a.0.score.total_cmp(&b.0.score))?;
     Some(build(&ctx, amp, best, t))
@@ -207,8 +238,20 @@ impl Ctx<'_> {
 /// m > 0: + input is a weighted average of the sensor, one rail and ground; gain from Rf/Rg.
 fn noninv_plus(ctx: &Ctx, t: Target, boost: f64) -> Option<Candidate> {
     let (m, b) = (t.gain, t.offset);
-    let (rail, rail_pot) = if b >= 0.0 { (ctx.rails.pos, Pot::Pos) } else if ctx.rails.is_dual() { (ctx.rails.neg, Pot::Neg) } else { return None };
-    let bias = if b == 0.0 { 0.0 } else { b / rail };
+    // An offset so small that its leg would exceed the window's ratio is left out; the
+    // rounding search then sees the remaining error like any other.
+    let tiny = ctx.cfg.min / ctx.cfg.max;
+    let (rail, rail_pot) = if b >= 0.0 {
+        (ctx.rails.pos, Pot::Pos)
+    } else if ctx.rails.is_dual() {
+        (ctx.rails.neg, Pot::Neg)
+    } else if -b / ctx.rails.pos < tiny {
+        (ctx.rails.pos, Pot::Pos)
+    } else {
+        return None;
+    };
+    // The rail leg is (Ra + R_sensor)·m/bias; it must fit under the window's top.
+    let bias = if b / rail < (ctx.cfg.min + ctx.rs) / ctx.cfg.max * m { 0.0 } else { b / rail };
     let g_min = (m + bias).max(1.0);
     // Keep V+ = y/G inside the input range.
     let y_hi = t.at_min.max(t.at_max);
@@ -277,6 +320,9 @@ fn noninv_minus(ctx: &Ctx, t: Target, boost: f64) -> Option<Candidate> {
     }
     let s = &ctx.req.source;
     let k = -b / vp;
+    if k < ctx.cfg.min / ctx.cfg.max {
+        return None;
+    }
     let mut g = (1.0 + k).max(m);
     if s.max > 0.0 && ctx.limits.in_hi > 0.0 {
         g = g.max(m * s.max / ctx.limits.in_hi * 1.02);

@@ -112,11 +112,17 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
     })
 }
 
+impl Limits {
+    pub fn of(amp: &Amplifier, rails: Rails) -> Limits {
+        let (in_lo, in_hi) = amp.input_limits(rails);
+        let (out_lo, out_hi) = amp.output_limits(rails);
+        Limits { out_lo, out_hi, in_lo, in_hi }
+    }
+}
+
 /// Runs synthesis for a request that passed the feasibility checks.
 pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, target: Target) -> Option<Synthesis> {
-    let (in_lo, in_hi) = amp.input_limits(rails);
-    let (out_lo, out_hi) = amp.output_limits(rails);
-    let limits = Limits { out_lo, out_hi, in_lo, in_hi };
+    let limits = Limits::of(amp, rails);
     match req.source.coupling {
         Coupling::Dc => dc::synthesize(req, amp, rails, target, limits),
         Coupling::Ac => ac::synthesize(req, amp, rails, target, limits),

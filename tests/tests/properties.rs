@@ -1,0 +1,125 @@
+//! Property tests (proptest): feasible requests land inside the converter range with the
+//! requested headroom; malformed requests, unit strings and infeasible requests never panic,
+//! and infeasible ones always carry an error check.
+
+use proptest::prelude::*;
+use rangefit_engine::diag::Severity;
+use rangefit_engine::request::Request;
+use rangefit_engine::units::{self, Quantity};
+use rangefit_engine::{cli, design};
+
+/// Supplies and a converter range those rails can serve.
+fn bench() -> impl Strategy<Value = (Vec<f64>, f64, f64)> {
+    prop_oneof![
+        Just((vec![3.3], 0.0, 3.3)),
+        Just((vec![5.0], 0.0, 5.0)),
+        Just((vec![5.0], 0.0, 2.5)),
+        Just((vec![5.0, 3.3], 0.0, 3.3)),
+        Just((vec![12.0, -12.0], -10.0, 10.0)),
+        Just((vec![5.0, -5.0], -2.5, 2.5)),
+        Just((vec![15.0, -15.0], 0.0, 4.096)),
+    ]
+}
+
+prop_compose! {
+    fn feasible_request()(
+        (supplies, dmin, dmax) in bench(),
+        centre in -3.0f64..3.0,
+        span in 0.05f64..8.0,
+        ac in any::<bool>(),
+        rs in prop_oneof![Just(0.0), 10.0f64..10e3],
+        headroom in 0.0f64..0.1,
+        series in prop_oneof![Just("E24"), Just("E96"), Just("E12")],
+        keep in any::<bool>(),
+    ) -> String {
+        let (lo, hi) = (centre - span / 2.0, centre + span / 2.0);
+        let coupling = if ac { r#""coupling": "ac", "band_low": 10,"# } else { r#""coupling": "dc","# };
+        format!(
+            r#"{{"name": "property", "source": {{"min": {lo}, "max": {hi}, {coupling} "impedance": {rs}, "band_high": 1000}},
+                "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": 10000, "headroom": {headroom}}},
+                "supplies": {supplies:?}, "parts": {{"resistor_series": "{series}"}}, "keep_polarity": {keep}}}"#
+        )
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 256, ..ProptestConfig::default() })]
+
+    /// Feasible requests: no error check, and the predicted extremes (solver, rounded parts,
+    /// finite-gain amplifier) lie inside the destination range less the requested headroom.
+    #[test]
+    fn feasible_requests_land_inside_the_range(json in feasible_request()) {
+        let req = Request::from_json(&json).expect("well-formed");
+        let d = design(&req);
+        let errors: Vec<_> = d.checks.iter().filter(|c| c.severity == Severity::Error).collect();
+        prop_assert!(errors.is_empty(), "errors {:?} for {}", errors, json);
+        let p = d.predicted.expect("prediction");
+        let dd = &req.destination;
+        let span = dd.max - dd.min;
+        let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
+        prop_assert!(lo >= dd.min + dd.headroom * span - 1e-9 * span, "low end {} for {}", lo, json);
+        prop_assert!(hi <= dd.max - dd.headroom * span + 1e-9 * span, "high end {} for {}", hi, json);
+        prop_assert!(p.gain.is_finite() && p.offset.is_finite());
+        if req.keep_polarity {
+            prop_assert!(p.gain > 0.0, "polarity flipped for {}", json);
+        }
+    }
+
+    /// Infeasible requests always carry an error check and never panic.
+    #[test]
+    fn infeasible_requests_carry_an_error(
+        level in -5.0f64..5.0,
+        fs in 100.0f64..1e6,
+        which in 0usize..3,
+    ) {
+        let json = match which {
+            // Zero span.
+            0 => format!(r#"{{"source": {{"min": {level}, "max": {level}}}, "destination": {{"min": 0, "max": 3.3, "sample_rate": {fs}}}, "supplies": [3.3]}}"#),
+            // Band above Nyquist.
+            1 => format!(r#"{{"source": {{"min": 0, "max": 1, "band_high": {}}}, "destination": {{"min": 0, "max": 3.3, "sample_rate": {fs}}}, "supplies": [3.3]}}"#, fs * 0.75),
+            // Converter range far beyond the rails.
+            _ => format!(r#"{{"source": {{"min": 0, "max": 1, "band_high": {}}}, "destination": {{"min": 0, "max": 24, "sample_rate": {fs}}}, "supplies": [3.3]}}"#, fs * 0.1),
+        };
+        let req = Request::from_json(&json).expect("well-formed");
+        let d = design(&req);
+        prop_assert!(d.checks.iter().any(|c| c.severity == Severity::Error), "no error check for {}", json);
+    }
+
+    /// Arbitrary text as a request: an error or a design, never a panic.
+    #[test]
+    fn arbitrary_text_never_panics(text in ".{0,200}") {
+        if let Ok(req) = Request::from_json(&text) {
+            let _ = design(&req);
+        }
+    }
+
+    /// Well-formed JSON with arbitrary values in every field never panics; the CLI answers
+    /// with status 0 (a design) or 2 (a field error).
+    #[test]
+    fn arbitrary_field_values_never_panic(
+        min in prop_oneof![any::<f64>().prop_map(|x| x.to_string()), "[a-zA-Z0-9µΩ .+-]{0,12}".prop_map(|s| format!("{s:?}"))],
+        max in prop_oneof![(-1e3f64..1e3).prop_map(|x| x.to_string()), "[a-zA-Z0-9 .]{0,8}".prop_map(|s| format!("{s:?}"))],
+        rate in prop_oneof![(-1e3f64..1e7).prop_map(|x| x.to_string()), Just("true".to_string()), Just("null".to_string())],
+        supplies in prop_oneof![Just("[]".to_string()), Just("[0]".to_string()), Just("[-5]".to_string()), Just("[5, -5, 3.3]".to_string()), (-100f64..100.0).prop_map(|x| format!("[{x}]"))],
+        bits in prop_oneof![Just("0".to_string()), Just("12".to_string()), Just("-3".to_string()), Just("64".to_string()), Just("1.5".to_string())],
+        coupling in prop_oneof![Just("\"ac\""), Just("\"dc\""), Just("\"xy\""), Just("3")],
+    ) {
+        let json = format!(r#"{{"source": {{"min": {min}, "max": {max}, "coupling": {coupling}, "band_low": 1}}, "destination": {{"min": 0, "max": 3.3, "bits": {bits}, "sample_rate": {rate}}}, "supplies": {supplies}}}"#);
+        let read = |_: &str| Ok(json.clone());
+        let out = cli::run(&["design".to_string(), "x.json".to_string()], &read);
+        prop_assert!(out.status == 0 || out.status == 2, "status {} for {}", out.status, json);
+        if out.status == 2 {
+            prop_assert!(out.stderr.starts_with("rangefit: "), "{}", out.stderr);
+        }
+    }
+
+    /// Unit strings of any shape, for every quantity: a value or an error, never a panic.
+    #[test]
+    fn unit_strings_never_panic(text in "\\PC{0,24}") {
+        for q in Quantity::ALL {
+            if let Ok(v) = units::parse(&text, q) {
+                prop_assert!(v.is_finite());
+            }
+        }
+    }
+}
