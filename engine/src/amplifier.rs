@@ -65,6 +65,8 @@ pub struct Amplifier {
     pub bias_current: f64,
     pub noise_voltage: f64,
     pub noise_current: f64,
+    /// Corner below which voltage and current noise densities rise as 1/f (Hz).
+    pub noise_corner: f64,
     pub open_loop_gain: f64,
     /// Names of the fields taken from the class rather than from the request.
     pub assumed: Vec<&'static str>,
@@ -96,6 +98,7 @@ impl Amplifier {
             bias_current: pick("bias_current", spec.bias_current, class.bias_current),
             noise_voltage: pick("noise_voltage", spec.noise_voltage, class.noise_voltage),
             noise_current: pick("noise_current", spec.noise_current, class.noise_current),
+            noise_corner: pick("noise_corner", spec.noise_corner, class.noise_corner),
             open_loop_gain: pick("open_loop_gain", spec.open_loop_gain, class.open_loop_gain),
             assumed: Vec::new(),
         };
@@ -134,6 +137,7 @@ fn low_voltage_class() -> Amplifier {
         bias_current: 10e-12,
         noise_voltage: 15e-9,
         noise_current: 1e-15,
+        noise_corner: 500.0,
         open_loop_gain: 1e5,
         assumed: Vec::new(),
     }
@@ -156,6 +160,7 @@ fn wide_supply_class() -> Amplifier {
         bias_current: 20e-9,
         noise_voltage: 10e-9,
         noise_current: 0.4e-12,
+        noise_corner: 10.0,
         open_loop_gain: 1e5,
         assumed: Vec::new(),
     }

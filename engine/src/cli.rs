@@ -3,6 +3,7 @@
 //! ```text
 //! rangefit design REQUEST.json              JSON: normalised request, stages, parts, predicted, checks
 //! rangefit netlist [--testbench] REQUEST.json   SPICE3 netlist of the same circuit
+//! rangefit bom REQUEST.json                 part list as CSV (RFC 4180)
 //! rangefit demo [ID]                        print a demo request (list them without ID)
 //! ```
 //! `REQUEST.json` may be `-` for standard input. A malformed request prints
@@ -27,6 +28,7 @@ pub struct Outcome {
 pub const USAGE: &str = "usage:
   rangefit design REQUEST.json               design the interface; prints JSON
   rangefit netlist [--testbench] REQUEST.json  SPICE3 netlist of the design
+  rangefit bom REQUEST.json                  part list as CSV (RFC 4180)
   rangefit demo [ID]                         print a demo request (lists them without ID)
 REQUEST.json may be - for standard input.";
 
@@ -39,7 +41,7 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
     let flags: Vec<&str> = rest.iter().filter(|a| a.starts_with("--")).map(|a| a.as_str()).collect();
     let files: Vec<&str> = rest.iter().filter(|a| !a.starts_with("--")).map(|a| a.as_str()).collect();
     match cmd.as_str() {
-        "design" | "netlist" => {
+        "design" | "netlist" | "bom" => {
             let allowed: &[&str] = if cmd == "netlist" { &["--testbench"] } else { &[] };
             if let Some(bad) = flags.iter().find(|f| !allowed.contains(f)) {
                 return fail(format!("unknown option {bad} for {cmd}\n{USAGE}"));
@@ -56,6 +58,9 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
             let d = design(&req);
             if cmd == "design" {
                 return ok(serde_json::to_string_pretty(&d).unwrap_or_default() + "\n");
+            }
+            if cmd == "bom" && d.circuit.is_some() {
+                return ok(crate::bom::to_csv(&crate::bom::bom(&d)));
             }
             match &d.circuit {
                 Some(c) => ok(netlist(&req, c, NetlistConfig { testbench: flags.contains(&"--testbench") })),

@@ -267,6 +267,11 @@ fn v(x: f64) -> String {
     format(x, Quantity::Voltage)
 }
 
+/// A plain number with three significant digits.
+fn sig3(x: f64) -> String {
+    crate::units::format(x, Quantity::Ratio)
+}
+
 fn hz(x: f64) -> String {
     format(x, Quantity::Frequency)
 }
@@ -329,7 +334,7 @@ fn requirements(req: &Request, s: &synth::Synthesis, amp: &Amplifier, rails: Rai
         format!("output reaches {} … {} ({} from the lower rail, {} from the upper)", v(out_lo), v(out_hi), v(out_lo - rails.neg), v(rails.pos - out_hi)),
         format!("input common-mode range covers {} … {}", v(in_lo), v(in_hi)),
         format!("gain-bandwidth ≥ {} (noise gain {:.3} × {} × {})", hz(gbw_min), ng, hz(req.source.band_high), GBW_MARGIN),
-        format!("slew rate ≥ {}/µs for a full-swing sine at {}", v(slew_rate_min * 1e-6), hz(req.source.band_high)),
+        format!("slew rate ≥ {} V/µs for a full-swing sine at {}", sig3(slew_rate_min * 1e-6), hz(req.source.band_high)),
     ];
     Requirements { supply: rails.total(), output_low: out_lo, output_high: out_hi, input_low: in_lo, input_high: in_hi, gbw_min, slew_rate_min, noise_gain: ng, summary }
 }

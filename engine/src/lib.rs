@@ -2,7 +2,7 @@
 //!
 //! The pipeline reads top-down in the module tree:
 //! [`units`] → [`values`] → [`diag`] → [`request`] → [`amplifier`] → [`synth`] → [`circuit`] →
-//! [`solve`] → [`design`] (checks and the design result) → [`netlist`] (export) →
+//! [`solve`] → [`analysis`] → [`design`] (checks and the design result) → [`netlist`], [`bom`] (exports) →
 //! [`cli`] (the `rangefit` command).
 //!
 //! The engine knows nothing of browsers, the DOM or storage; it builds for the host and
@@ -17,8 +17,10 @@ pub mod amplifier;
 pub mod synth;
 pub mod circuit;
 pub mod solve;
+pub mod analysis;
 pub mod design;
 pub mod netlist;
+pub mod bom;
 pub mod cli;
 pub mod demos;
 

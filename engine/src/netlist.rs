@@ -66,7 +66,9 @@ pub fn netlist(req: &Request, circuit: &Circuit, cfg: NetlistConfig) -> String {
     if cfg.testbench {
         let s = &req.source;
         let step = (s.max - s.min) / 100.0;
-        out.push_str(".op\n");
+        // Saving the output node keeps every analysis's data (some simulators otherwise keep
+        // only the last analysis when several are in one deck).
+        out.push_str(".save v(adc)\n.op\n");
         if step > 0.0 {
             out.push_str(&format!(".dc VSENSE {} {} {}\n", num(s.min), num(s.max), num(step)));
             out.push_str(".print dc v(adc)\n");

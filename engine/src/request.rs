@@ -48,6 +48,27 @@ pub struct Request {
     pub amplifier: AmplifierSpec,
     /// The output rises when the sensor's signal rises.
     pub keep_polarity: bool,
+    /// Options of the analyses.
+    #[serde(default)]
+    pub analysis: AnalysisOptions,
+}
+
+/// Options of the analyses (`analysis` in the request).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct AnalysisOptions {
+    /// Monte Carlo builds (default 10,000).
+    pub monte_carlo_runs: usize,
+    /// Seed of the Monte Carlo generator; the same seed gives the same builds.
+    pub seed: u64,
+    /// Temperature for thermal noise, K (default 300 K).
+    pub temperature: f64,
+}
+
+impl Default for AnalysisOptions {
+    fn default() -> Self {
+        AnalysisOptions { monte_carlo_runs: 10_000, seed: 1, temperature: 300.0 }
+    }
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
@@ -144,6 +165,9 @@ pub struct AmplifierSpec {
     pub noise_voltage: Option<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub noise_current: Option<f64>,
+    /// 1/f noise corner, Hz.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub noise_corner: Option<f64>,
     /// Open-loop DC gain, V/V.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub open_loop_gain: Option<f64>,
@@ -212,8 +236,12 @@ impl Request {
             Some(v) => read_amplifier(v)?,
         };
         let keep_polarity = top.bool("keep_polarity")?.unwrap_or(true);
-        top.finish(&["version", "name", "notes", "source", "destination", "supplies", "parts", "amplifier", "keep_polarity"])?;
-        Ok(Request { version, name, notes, source, destination, supplies, parts, amplifier, keep_polarity })
+        let analysis = match top.get("analysis") {
+            None => AnalysisOptions::default(),
+            Some(v) => read_analysis(v)?,
+        };
+        top.finish(&["version", "name", "notes", "source", "destination", "supplies", "parts", "amplifier", "keep_polarity", "analysis"])?;
+        Ok(Request { version, name, notes, source, destination, supplies, parts, amplifier, keep_polarity, analysis })
     }
 
     /// The normalised request as pretty JSON (the form `rangefit design` prints).
@@ -356,12 +384,20 @@ fn read_amplifier(v: &Value) -> Result<AmplifierSpec, RequestError> {
         bias_current: o.q("bias_current", Quantity::Current)?,
         noise_voltage: o.q("noise_voltage", Quantity::VoltageNoise)?,
         noise_current: o.q("noise_current", Quantity::CurrentNoise)?,
+        noise_corner: o.q("noise_corner", Quantity::Frequency)?,
         open_loop_gain: o.q("open_loop_gain", Quantity::Ratio)?,
     };
     for (key, val) in [("gbw", a.gbw), ("slew_rate", a.slew_rate), ("supply_max", a.supply_max)] {
         if let Some(x) = val {
             if x <= 0.0 {
                 return Err(o.err(key, "must be above 0"));
+            }
+        }
+    }
+    for (key, val) in [("noise_voltage", a.noise_voltage), ("noise_current", a.noise_current), ("noise_corner", a.noise_corner), ("supply_min", a.supply_min)] {
+        if let Some(x) = val {
+            if x < 0.0 {
+                return Err(o.err(key, "must not be negative"));
             }
         }
     }
@@ -375,9 +411,31 @@ fn read_amplifier(v: &Value) -> Result<AmplifierSpec, RequestError> {
     a.bias_current = a.bias_current.map(f64::abs);
     o.finish(&[
         "gbw", "slew_rate", "swing_low", "swing_high", "cm_low", "cm_high", "supply_min", "supply_max", "offset",
-        "bias_current", "noise_voltage", "noise_current", "open_loop_gain",
+        "bias_current", "noise_voltage", "noise_current", "noise_corner", "open_loop_gain",
     ])?;
     Ok(a)
+}
+
+fn read_analysis(v: &Value) -> Result<AnalysisOptions, RequestError> {
+    let o = Obj::new("analysis", v)?;
+    let d = AnalysisOptions::default();
+    let whole = |key: &str, default: u64, max: u64| -> Result<u64, RequestError> {
+        match o.get(key) {
+            None => Ok(default),
+            Some(x) => match x.as_u64() {
+                Some(n) if n <= max => Ok(n),
+                _ => Err(o.err(key, &format!("must be a whole number from 0 to {max}"))),
+            },
+        }
+    };
+    let monte_carlo_runs = whole("monte_carlo_runs", d.monte_carlo_runs as u64, 1_000_000)? as usize;
+    let seed = whole("seed", d.seed, u64::MAX)?;
+    let temperature = o.q("temperature", Quantity::Temperature)?.unwrap_or(d.temperature);
+    if temperature <= 0.0 {
+        return Err(o.err("temperature", "must be above 0 K"));
+    }
+    o.finish(&["monte_carlo_runs", "seed", "temperature"])?;
+    Ok(AnalysisOptions { monte_carlo_runs, seed, temperature })
 }
 
 fn field_err(field: &str, message: &str) -> RequestError {

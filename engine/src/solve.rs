@@ -149,6 +149,37 @@ impl<'a> Solver<'a> {
     }
 
     fn solve(&self, omega: f64, excite: Excite, pins: &[Option<f64>]) -> Result<DVector<C64>, SolveError> {
+        let (a, z) = self.assemble(omega, excite, pins);
+        let lu = a.lu();
+        match lu.solve(&z) {
+            Some(x) if x.iter().all(|v| v.re.is_finite() && v.im.is_finite()) => Ok(x),
+            _ => Err(SolveError("the circuit has a node without a path to the rest of the circuit".to_string())),
+        }
+    }
+
+    /// Output response at `out` to a unit current injected into each unknown, at `f` Hz
+    /// (amplifiers linear), from one adjoint solve Aᵀ·z = e_out: injecting current I into
+    /// unknown k moves V(out) by z[k]·I. Index with [`Solver::index_of`]; the amplifiers'
+    /// internal nodes are `"U1:x"` etc.
+    pub fn injection_transfers(&self, f: f64, out: &str) -> Result<Vec<C64>, SolveError> {
+        let pins = vec![None; self.amps.len()];
+        let (a, _) = self.assemble(2.0 * std::f64::consts::PI * f, Excite::Ac, &pins);
+        let mut e = DVector::<C64>::zeros(a.nrows());
+        if let Some(&k) = self.index.get(out) {
+            e[k] = C64::new(1.0, 0.0);
+        }
+        match a.transpose().lu().solve(&e) {
+            Some(z) if z.iter().all(|v| v.re.is_finite() && v.im.is_finite()) => Ok(z.iter().copied().collect()),
+            _ => Err(SolveError("the circuit has a node without a path to the rest of the circuit".to_string())),
+        }
+    }
+
+    /// Index of a node (or amplifier internal node `"U1:x"`) among the unknowns.
+    pub fn index_of(&self, node: &str) -> Option<usize> {
+        self.index.get(node).copied()
+    }
+
+    fn assemble(&self, omega: f64, excite: Excite, pins: &[Option<f64>]) -> (DMatrix<C64>, DVector<C64>) {
         let c = self.circuit;
         let n_branch = c.parts.iter().filter(|p| matches!(p.kind, PartKind::VoltageSource | PartKind::OpAmp)).count()
             + pins.iter().filter(|p| p.is_some()).count();
@@ -210,11 +241,7 @@ impl<'a> Solver<'a> {
                 }
             }
         }
-        let lu = a.lu();
-        match lu.solve(&z) {
-            Some(x) if x.iter().all(|v| v.re.is_finite() && v.im.is_finite()) => Ok(x),
-            _ => Err(SolveError("the circuit has a node without a path to the rest of the circuit".to_string())),
-        }
+        (a, z)
     }
 }
 

@@ -94,6 +94,10 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
         let (rb, ra, ..) = unpack(v);
         let (m_a, vref, _) = mapping(v);
         let mut c = ((m_a - m).abs() * half + (vref - yc).abs()) / span;
+        // Missing outward leaves the range: ten times the cost of missing inward.
+        let (lo, hi) = (t.at_min, t.at_max);
+        let (y_lo, y_hi) = (vref - m_a * half, vref + m_a * half);
+        c += 10.0 * ((lo - y_lo).max(0.0) + (y_hi - hi).max(0.0)) / span;
         if rs > 0.0 {
             c += 0.05 * rs / (ra + rb);
         }

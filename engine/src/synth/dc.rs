@@ -21,7 +21,10 @@
 //! template's equations give continuous values; [`super::round`] rounds them; the candidate
 //! with the lowest mapping error (plus a small charge per part) wins.
 
-use super::round::{optimise, RoundConfig};
+use super::round::{optimise, pairs, RoundConfig};
+
+/// Ratio pairs tried per template (the best few by ratio error).
+const PAIRS: usize = 6;
 use super::{Limits, Synthesis, Target};
 use crate::amplifier::{Amplifier, Rails};
 use crate::circuit::{Builder, PartKind, Stage, StageRole};
@@ -204,6 +207,13 @@ impl Ctx<'_> {
         let y1 = self.output_err(net, s.min, t.at_min);
         let y2 = self.output_err(net, s.max, t.at_max);
         let mut c = y1.max(y2) / self.span;
+        // Missing inward is harmless (the headroom shrinks a little); missing outward leaves
+        // the range the target allows (headroom and output swing), so it costs ten times as much.
+        let (lo, hi) = (t.at_min.min(t.at_max), t.at_min.max(t.at_max));
+        for x in [s.min, s.max] {
+            let y = net.output(x, self.rs, self.rails);
+            c += 10.0 * ((lo - y).max(0.0) + (y - hi).max(0.0)) / self.span;
+        }
         let lim = self.limits;
         for x in [s.min, s.max] {
             let vp = net.plus_voltage(x, self.rs, self.rails);
@@ -223,10 +233,41 @@ impl Ctx<'_> {
         (net.output(x, self.rs, self.rails) - want).abs()
     }
 
-    /// Rounds a template and returns the candidate.
-    fn round(&self, name: &str, layout: &[Slot], direct: bool, t: Target, ideal: impl Fn(f64) -> Option<Vec<f64>>) -> Option<Candidate> {
+    /// Rounds a template and returns the candidate. When `pairs` is given, the last two slots
+    /// of `layout` are a ratio pair taken from it (each pair tried in turn), and `ideal`
+    /// derives the other values for that pair's exact ratio; otherwise `ideal` gives all.
+    fn round(
+        &self,
+        name: &str,
+        layout: &[Slot],
+        direct: bool,
+        t: Target,
+        pairs: Option<Vec<(f64, f64)>>,
+        ideal: impl Fn(Option<(f64, f64)>, f64) -> Option<Vec<f64>>,
+    ) -> Option<Candidate> {
         let make = |v: &[f64]| Net { slots: layout.iter().copied().zip(v.iter().copied()).collect(), direct };
-        let (values, cost) = optimise(self.cfg, ideal, |v| self.cost(&make(v), t))?;
+        let cost = |v: &[f64]| self.cost(&make(v), t);
+        let runs: Vec<Option<(f64, f64)>> = match pairs {
+            Some(p) => p.into_iter().map(Some).collect(),
+            None => vec![None],
+        };
+        let mut best: Option<(Vec<f64>, f64)> = None;
+        for pair in runs {
+            let full = |anchor: f64| {
+                let mut v = ideal(pair, anchor)?;
+                if let Some((a, b)) = pair {
+                    v.push(a);
+                    v.push(b);
+                }
+                Some(v)
+            };
+            if let Some((v, c)) = optimise(self.cfg, full, cost) {
+                if best.as_ref().map_or(true, |b| c < b.1) {
+                    best = Some((v, c));
+                }
+            }
+        }
+        let (values, cost) = best?;
         let net = make(&values);
         let s = &self.req.source;
         let error = self.output_err(&net, s.min, t.at_min).max(self.output_err(&net, s.max, t.at_max));
@@ -258,14 +299,12 @@ fn noninv_plus(ctx: &Ctx, t: Target, boost: f64) -> Option<Candidate> {
     let g_cm = if y_hi > 0.0 && ctx.limits.in_hi > 0.0 { y_hi / ctx.limits.in_hi * 1.02 } else { 1.0 };
     let g = g_min.max(g_cm) * boost;
     let follower = g <= 1.0 + 1e-9;
-    let alpha = m / g;
-    let beta = bias / g;
-    let gamma = 1.0 - alpha - beta;
-    if gamma < -1e-9 {
+    let gamma_ideal = 1.0 - (m + bias) / g;
+    if gamma_ideal < -1e-9 {
         return None;
     }
-    let has_rail = beta > 1e-9;
-    let has_gnd = gamma > 1e-3;
+    let has_rail = bias > 0.0;
+    let has_gnd = gamma_ideal > 1e-3;
     let direct = !has_rail && !has_gnd;
     let mut layout = Vec::new();
     if !direct {
@@ -290,22 +329,24 @@ fn noninv_plus(ctx: &Ctx, t: Target, boost: f64) -> Option<Candidate> {
         (false, true) if direct => "buffer",
         (false, true) => "divider into a buffer",
     };
-    ctx.round(name, &layout, direct, t, |anchor| {
+    let pairs = if follower { None } else { Some(pairs(ctx.cfg, g - 1.0, 0.0, PAIRS)) };
+    ctx.round(name, &layout, direct, t, pairs, |pair, anchor| {
+        let g_a = pair.map_or(1.0, |(rg, rf)| 1.0 + rf / rg);
+        let (alpha, beta) = (m / g_a, bias / g_a);
+        let gamma = 1.0 - alpha - beta;
         let mut v = Vec::new();
         if !direct {
             let total = anchor + rs;
-            let s = 1.0 / (alpha * total);
             v.push(anchor);
             if has_rail {
-                v.push(1.0 / (beta * s));
+                v.push(total * alpha / beta);
             }
             if has_gnd {
-                v.push(1.0 / (gamma * s));
+                if gamma <= 0.0 {
+                    return None;
+                }
+                v.push(total * alpha / gamma);
             }
-        }
-        if !follower {
-            v.push(anchor);
-            v.push((g - 1.0) * anchor);
         }
         Some(v)
     })
@@ -328,23 +369,28 @@ fn noninv_minus(ctx: &Ctx, t: Target, boost: f64) -> Option<Candidate> {
         g = g.max(m * s.max / ctx.limits.in_hi * 1.02);
     }
     g *= boost;
-    let alpha = m / g;
-    let direct = alpha >= 1.0 - 1e-9;
+    let direct = m / g >= 1.0 - 1e-9;
     let has_g = g - 1.0 - k > 1e-3;
     let mut layout = Vec::new();
     if !direct {
         layout.push(Slot::Plus(Pot::Sensor));
         layout.push(Slot::Plus(Pot::Gnd));
     }
-    layout.push(Slot::Minus(Pot::Pos));
     if has_g {
         layout.push(Slot::Minus(Pot::Gnd));
     }
+    layout.push(Slot::Minus(Pot::Pos));
     layout.push(Slot::Feedback);
     let rs = ctx.rs;
-    ctx.round("non-inverting amplifier with a negative offset from the positive rail", &layout, direct, t, |anchor| {
+    let pairs = Some(pairs(ctx.cfg, k, 0.0, PAIRS));
+    ctx.round("non-inverting amplifier with a negative offset from the positive rail", &layout, direct, t, pairs, |pair, anchor| {
+        let (rh, rf) = pair?;
+        let k_a = rf / rh;
         let mut v = Vec::new();
+        // Direct input: the gain must be m exactly; otherwise G as planned and the + divider takes m/G.
+        let g_a = if direct { m } else { g };
         if !direct {
+            let alpha = m / g_a;
             let ra = anchor * (1.0 - alpha) / alpha - rs;
             if ra <= 0.0 {
                 return None;
@@ -352,11 +398,13 @@ fn noninv_minus(ctx: &Ctx, t: Target, boost: f64) -> Option<Candidate> {
             v.push(ra);
             v.push(anchor);
         }
-        v.push(anchor / k);
         if has_g {
-            v.push(anchor / (g - 1.0 - k));
+            let rest = g_a - 1.0 - k_a;
+            if rest <= 0.0 {
+                return None;
+            }
+            v.push(rf / rest);
         }
-        v.push(anchor);
         Some(v)
     })
 }
@@ -368,24 +416,34 @@ fn inv_plus(ctx: &Ctx, t: Target) -> Option<Candidate> {
     if vplus < ctx.limits.in_lo || vplus > ctx.limits.in_hi {
         return None;
     }
-    let (k, pot) = if vplus.abs() < 1e-6 {
+    let (rail, pot) = if vplus.abs() < 1e-6 {
         (0.0, Pot::Gnd)
     } else if vplus > 0.0 && vplus < ctx.rails.pos {
-        (vplus / ctx.rails.pos, Pot::Pos)
+        (ctx.rails.pos, Pot::Pos)
     } else if vplus < 0.0 && vplus > ctx.rails.neg {
-        (vplus / ctx.rails.neg, Pot::Neg)
+        (ctx.rails.neg, Pot::Neg)
     } else {
         return None;
     };
-    let mut layout = vec![Slot::Minus(Pot::Sensor), Slot::Feedback];
-    if k > 0.0 {
+    let mut layout = Vec::new();
+    if rail != 0.0 {
         layout.push(Slot::Plus(pot));
         layout.push(Slot::Plus(Pot::Gnd));
     }
+    layout.push(Slot::Minus(Pot::Sensor));
+    layout.push(Slot::Feedback);
     let rs = ctx.rs;
-    ctx.round("inverting amplifier with its + input on a divider", &layout, false, t, |anchor| {
-        let mut v = vec![anchor, mg * (anchor + rs)];
-        if k > 0.0 {
+    let b = t.offset;
+    let pairs = Some(pairs(ctx.cfg, mg, rs, PAIRS));
+    ctx.round("inverting amplifier with its + input on a divider", &layout, false, t, pairs, |pair, anchor| {
+        let (ri, rf) = pair?;
+        let mg_a = rf / (ri + rs);
+        let mut v = Vec::new();
+        if rail != 0.0 {
+            let k = b / (1.0 + mg_a) / rail;
+            if !(k > 0.0 && k < 1.0) {
+                return None;
+            }
             v.push(anchor * (1.0 - k) / k);
             v.push(anchor);
         }
@@ -401,11 +459,11 @@ fn inv_sum(ctx: &Ctx, t: Target) -> Option<Candidate> {
         return None;
     }
     let (vh, pot) = if b < 0.0 { (ctx.rails.pos, Pot::Pos) } else if ctx.rails.is_dual() { (ctx.rails.neg, Pot::Neg) } else { return None };
-    let layout = [Slot::Minus(Pot::Sensor), Slot::Feedback, Slot::Minus(pot)];
-    let rs = ctx.rs;
-    ctx.round("inverting summer with the offset from a rail", &layout, false, t, |anchor| {
-        let rf = mg * (anchor + rs);
-        Some(vec![anchor, rf, rf * vh / -b])
+    let layout = [Slot::Minus(pot), Slot::Minus(Pot::Sensor), Slot::Feedback];
+    let pairs = Some(pairs(ctx.cfg, mg, ctx.rs, PAIRS));
+    ctx.round("inverting summer with the offset from a rail", &layout, false, t, pairs, |pair, _anchor| {
+        let (_, rf) = pair?;
+        Some(vec![rf * vh / -b])
     })
 }
 

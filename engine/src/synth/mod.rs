@@ -29,6 +29,10 @@ use crate::circuit::{Builder, Circuit, PartKind, Stage, StageRole};
 use crate::diag::Check;
 use crate::request::{Coupling, Request};
 
+/// Margin kept inside the amplifier's stated output swing, V (common practice: the output
+/// stage's gain falls off before the stated limit).
+pub const SWING_MARGIN: f64 = 0.01;
+
 /// The mapping the design aims for.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct Target {
@@ -75,6 +79,8 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
     let mut lo = d.min + d.headroom * span;
     let mut hi = d.max - d.headroom * span;
     let (out_lo, out_hi) = amp.output_limits(rails);
+    // Stay a margin inside the stated swing: the output stage stops being linear before it.
+    let (out_lo, out_hi) = (out_lo + SWING_MARGIN, out_hi - SWING_MARGIN);
     let fmt = |v: f64| crate::units::format(v, crate::units::Quantity::Voltage);
     if lo < out_lo || hi > out_hi {
         let new_lo = lo.max(out_lo);
