@@ -4,6 +4,7 @@
 //! rangefit design REQUEST.json              JSON: normalised request, stages, parts, predicted, checks
 //! rangefit netlist [--testbench] REQUEST.json   SPICE3 netlist of the same circuit
 //! rangefit bom REQUEST.json                 part list as CSV (RFC 4180)
+//! rangefit scaling [--c] REQUEST.json       converter code → sensor quantity (JSON, or a C header)
 //! rangefit demo [ID]                        print a demo request (list them without ID)
 //! ```
 //! `REQUEST.json` may be `-` for standard input. A malformed request prints
@@ -29,6 +30,7 @@ pub const USAGE: &str = "usage:
   rangefit design REQUEST.json               design the interface; prints JSON
   rangefit netlist [--testbench] REQUEST.json  SPICE3 netlist of the design
   rangefit bom REQUEST.json                  part list as CSV (RFC 4180)
+  rangefit scaling [--c] REQUEST.json        converter code to sensor quantity (JSON or a C header)
   rangefit demo [ID]                         print a demo request (lists them without ID)
 REQUEST.json may be - for standard input.";
 
@@ -41,8 +43,12 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
     let flags: Vec<&str> = rest.iter().filter(|a| a.starts_with("--")).map(|a| a.as_str()).collect();
     let files: Vec<&str> = rest.iter().filter(|a| !a.starts_with("--")).map(|a| a.as_str()).collect();
     match cmd.as_str() {
-        "design" | "netlist" | "bom" => {
-            let allowed: &[&str] = if cmd == "netlist" { &["--testbench"] } else { &[] };
+        "design" | "netlist" | "bom" | "scaling" => {
+            let allowed: &[&str] = match cmd.as_str() {
+                "netlist" => &["--testbench"],
+                "scaling" => &["--c"],
+                _ => &[],
+            };
             if let Some(bad) = flags.iter().find(|f| !allowed.contains(f)) {
                 return fail(format!("unknown option {bad} for {cmd}\n{USAGE}"));
             }
@@ -58,6 +64,11 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
             let d = design(&req);
             if cmd == "design" {
                 return ok(serde_json::to_string_pretty(&d).unwrap_or_default() + "\n");
+            }
+            if cmd == "scaling" {
+                if let Some(sc) = &d.scaling {
+                    return ok(if flags.contains(&"--c") { crate::scaling::c_header(&d, sc) } else { serde_json::to_string_pretty(sc).unwrap_or_default() + "\n" });
+                }
             }
             if cmd == "bom" && d.circuit.is_some() {
                 return ok(crate::bom::to_csv(&crate::bom::bom(&d)));

@@ -9,6 +9,7 @@
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
+use crate::analysis::{analyse, Analysis, AnalysisConfig, Nominal};
 use crate::circuit::{Circuit, Part, PartKind, Stage};
 use crate::diag::{has_error, Check, Severity};
 use crate::request::{Coupling, Request};
@@ -40,9 +41,13 @@ pub struct Design {
     /// The bench around them (sensor model, supplies, converter load).
     pub bench: Vec<PartRow>,
     pub predicted: Option<Predicted>,
+    /// DC transfer, frequency response, noise, tolerance spread and loading.
+    pub analysis: Option<Analysis>,
     pub equations: Vec<String>,
     pub checks: Vec<Check>,
     pub cautions: Vec<String>,
+    /// Converter codes back to the sensor's quantity (filled in after the analyses).
+    pub scaling: Option<crate::scaling::Scaling>,
     /// The circuit model every output derives from (absent when synthesis was impossible).
     #[serde(skip)]
     pub circuit: Option<Circuit>,
@@ -92,8 +97,13 @@ pub struct Requirements {
     pub summary: Vec<String>,
 }
 
-/// Designs the interface for `req`.
+/// Designs the interface for `req` with the analyses configured by the request.
 pub fn design(req: &Request) -> Design {
+    design_with(req, &AnalysisConfig::from_request(req))
+}
+
+/// Designs the interface for `req` with explicit analysis options.
+pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     let rails = Rails::choose(req);
     let amp = Amplifier::resolve(&req.amplifier, rails);
     let mut checks = feasibility(req, rails, &amp);
@@ -109,9 +119,11 @@ pub fn design(req: &Request) -> Design {
         parts: Vec::new(),
         bench: Vec::new(),
         predicted: None,
+        analysis: None,
         equations: Vec::new(),
         checks: Vec::new(),
         cautions: cautions(req, rails),
+        scaling: None,
         circuit: None,
     };
     if has_error(&checks) {
@@ -153,6 +165,9 @@ pub fn design(req: &Request) -> Design {
     };
     let req_amp = requirements(req, &s, &amp, rails);
     checks.extend(design_checks(req, &s, &p, &amp, rails, &req_amp));
+    let (analysis, analysis_checks) = analyse(req, &s.circuit, Nominal { gain: p.gain, f_low_3db: p.band_low, f_high_3db: p.band_high }, cfg);
+    checks.extend(analysis_checks);
+    out.analysis = Some(analysis);
     out.topology = s.topology.clone();
     out.target = Some(s.target);
     out.stages = s.circuit.stages.clone();
@@ -164,6 +179,7 @@ pub fn design(req: &Request) -> Design {
     checks.sort_by(|a, b| b.severity.cmp(&a.severity));
     out.checks = checks;
     out.circuit = Some(s.circuit);
+    out.scaling = crate::scaling::scaling(&out);
     out
 }
 

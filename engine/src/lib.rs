@@ -2,7 +2,7 @@
 //!
 //! The pipeline reads top-down in the module tree:
 //! [`units`] → [`values`] → [`diag`] → [`request`] → [`amplifier`] → [`synth`] → [`circuit`] →
-//! [`solve`] → [`analysis`] → [`design`] (checks and the design result) → [`netlist`], [`bom`] (exports) →
+//! [`solve`] → [`analysis`] → [`design`] (checks and the design result) → [`netlist`], [`bom`], [`scaling`] (exports) →
 //! [`cli`] (the `rangefit` command).
 //!
 //! The engine knows nothing of browsers, the DOM or storage; it builds for the host and
@@ -19,8 +19,10 @@ pub mod circuit;
 pub mod solve;
 pub mod analysis;
 pub mod design;
+pub mod draw;
 pub mod netlist;
 pub mod bom;
+pub mod scaling;
 pub mod cli;
 pub mod demos;
 

@@ -97,6 +97,19 @@ pub struct Source {
     /// Band of interest, Hz (`band_low` is 0 for DC coupling).
     pub band_low: f64,
     pub band_high: f64,
+    /// What the sensor measures, for scaling converter codes back to it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub measurand: Option<Measurand>,
+}
+
+/// The physical quantity behind the sensor's output: `at_min` at `source.min`, `at_max` at
+/// `source.max`, linear in between (e.g. pressure 0 … 600 kPa).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Measurand {
+    pub name: String,
+    pub unit: String,
+    pub at_min: f64,
+    pub at_max: f64,
 }
 
 /// The converter input.
@@ -283,8 +296,32 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
     if band_low < 0.0 || band_high < 0.0 {
         return Err(o.err(if band_low < 0.0 { "band_low" } else { "band_high" }, "must not be negative"));
     }
-    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high"])?;
-    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high })
+    let measurand = match o.get("measurand") {
+        None => None,
+        Some(v) => Some(read_measurand(v)?),
+    };
+    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand"])?;
+    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand })
+}
+
+fn read_measurand(v: &Value) -> Result<Measurand, RequestError> {
+    let o = Obj::new("source.measurand", v)?;
+    let name = o.string("name")?.filter(|s| !s.is_empty()).ok_or_else(|| o.err("name", "is required, e.g. \"pressure\""))?;
+    let unit = o.string("unit")?.unwrap_or_default();
+    let number = |key: &str| -> Result<f64, RequestError> {
+        match o.get(key) {
+            Some(Value::Number(n)) => n.as_f64().filter(|x| x.is_finite()).ok_or_else(|| o.err(key, "must be a finite number")),
+            Some(other) => Err(o.err(key, &format!("expected a number in the measurand's unit, got {}", json_kind(other)))),
+            None => Err(o.err(key, "is required: the measurand's value at the sensor's extreme")),
+        }
+    };
+    let at_min = number("at_min")?;
+    let at_max = number("at_max")?;
+    if at_min == at_max {
+        return Err(o.err("at_max", "must differ from at_min"));
+    }
+    o.finish(&["name", "unit", "at_min", "at_max"])?;
+    Ok(Measurand { name, unit, at_min, at_max })
 }
 
 fn read_destination(v: &Value) -> Result<Destination, RequestError> {

@@ -12,6 +12,7 @@ pub mod tolerance;
 pub mod noise;
 pub mod loading;
 pub mod response;
+pub mod checks;
 
 use crate::request::Request;
 
@@ -50,4 +51,62 @@ impl AnalysisConfig {
             ..AnalysisConfig::default()
         }
     }
+}
+
+/// Every analysis of one design.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct Analysis {
+    pub dc: response::DcAnalysis,
+    pub ac: response::AcAnalysis,
+    pub noise: noise::NoiseAnalysis,
+    pub tolerance: tolerance::ToleranceAnalysis,
+    pub loading: loading::LoadingAnalysis,
+}
+
+/// What the analyses need to know of the prediction.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Nominal {
+    /// Mid-band (AC) or DC gain, signed.
+    pub gain: f64,
+    pub f_low_3db: Option<f64>,
+    pub f_high_3db: Option<f64>,
+}
+
+/// Runs every analysis on `circuit` and returns them with the checks that follow.
+pub fn analyse(
+    req: &Request,
+    circuit: &crate::circuit::Circuit,
+    nominal: Nominal,
+    cfg: &AnalysisConfig,
+) -> (Analysis, Vec<crate::diag::Check>) {
+    let dc = response::dc_transfer(req, circuit, nominal.gain, cfg.dc_points);
+    let ac = response::ac_response(
+        req,
+        circuit,
+        nominal.f_low_3db,
+        nominal.f_high_3db,
+        cfg.ac_points,
+    );
+    let noise_cfg = noise::NoiseConfig {
+        temperature: cfg.temperature,
+        points: cfg.noise_points,
+        include_amplifier: true,
+    };
+    let noise = noise::noise(req, circuit, nominal.gain, nominal.f_high_3db, &noise_cfg);
+    let tol_cfg = tolerance::ToleranceConfig {
+        runs: cfg.monte_carlo_runs,
+        seed: cfg.seed,
+        bins: cfg.histogram_bins,
+    };
+    let tolerance = tolerance::tolerance(req, circuit, &tol_cfg);
+    let loading = loading::loading(req, circuit);
+    let a = Analysis {
+        dc,
+        ac,
+        noise,
+        tolerance,
+        loading,
+    };
+    let checks = checks::checks(req, &a, nominal);
+    (a, checks)
 }

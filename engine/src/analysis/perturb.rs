@@ -4,9 +4,9 @@
 //! different part values, amplifier offsets and bias currents. The general [`crate::solve`]
 //! solver (complex arithmetic, node lookup by name, a fresh dense matrix per solve) is built
 //! for clarity; this kernel is built for that loop. The circuit is compiled once into
-//! index-based stamp lists, then every build only copies a constant base matrix, adds the
-//! perturbed conductances and sources, factorises and substitutes — no strings, no maps and
-//! no allocation per build.
+//! index-based stamp lists; every build then copies a constant base matrix, adds the
+//! perturbed conductances and sources, and eliminates — no strings, no maps and no
+//! allocation per build.
 //!
 //! The equations are those of the general solver's DC case (same macro-model, same
 //! [`GMIN`]), reduced by three exact eliminations:
@@ -17,18 +17,22 @@
 //! * an amplifier's output equals its internal node (the unity buffer), so the output
 //!   shares the internal node's column and its own row (which only fixes the buffer's
 //!   current) is dropped — no branch currents remain;
-//! * the system is linear in the sensor EMF, so one factorisation serves two right-hand
+//! * the system is linear in the sensor EMF, so one elimination serves two right-hand
 //!   sides: the EMF's unit contribution `u` and everything else `w`. The output is then
 //!   `slope·source + intercept` for any source value.
 //!
 //! A second system treats every capacitor as a short (nodes joined, the rails at AC ground,
 //! the EMF a unit small signal) for the mid-band gain of AC-coupled stages.
 //!
-//! What is left has a few unknowns (3–8 for the stages synthesis produces), so it is solved
-//! by a short hand-written LU factorisation with partial pivoting on buffers allocated once
-//! per analysis: a general dense-matrix library allocates per factorisation, which at this
-//! size costs more than the arithmetic. The tests check this factorisation against
-//! nalgebra's LU and the whole kernel against the general solver.
+//! What is left has a few unknowns (3–8 for the stages synthesis produces), solved by a
+//! short hand-written Gaussian elimination: a general dense-matrix library allocates per
+//! factorisation, which at this size costs more than the arithmetic. The output's unknown
+//! is placed last, so forward elimination alone yields it. As circuit simulators do, the
+//! row order is chosen once by partial pivoting on the nominal circuit and reused, and the
+//! elimination is compiled into index lists that touch only the structural non-zeros and
+//! only the rows the output depends on; a build whose pivot falls below half its nominal
+//! size is redone with full partial pivoting. The tests check the elimination against
+//! Cramer's rule and the whole kernel against the general solver.
 //!
 //! Offset voltage sits in series with an amplifier's + input; bias currents flow from the
 //! nodes into the amplifier's input pins. Output swing limits are not applied here.
@@ -79,13 +83,12 @@ pub struct Kernel {
     nodes: Vec<(String, Col)>,
 }
 
-/// Buffers for one thread of solves; make it with [`Kernel::workspace`].
+/// Buffers for systems larger than the stack arrays; make it with [`Kernel::workspace`].
 #[derive(Debug, Clone)]
 pub struct Workspace {
     a: Vec<f64>,
     u: Vec<f64>,
     w: Vec<f64>,
-    perm: Vec<usize>,
 }
 
 impl Kernel {
@@ -114,11 +117,11 @@ impl Kernel {
                 params.push(Param { kind, part: p.reference.clone(), bound: finite_abs(bound) });
             }
         }
-        let ctx = Ctx { circuit, part_param: &part_param, amp_param: &amp_param, out };
-        let (dc, cols) = ctx.system(false)?;
+        let ctx = Ctx { circuit, part_param: &part_param, amp_param: &amp_param, out, n_params: params.len() };
+        let (dc, nodes) = ctx.system(false)?;
         let mid = ctx.system(true).ok().map(|(s, _)| s);
         let out_amp = circuit.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.nodes.get(4).is_some_and(|n| n == out));
-        Ok(Kernel { params, dc, mid, out_amp, nodes: cols })
+        Ok(Kernel { params, dc, mid, out_amp, nodes })
     }
 
     /// The parameters, in the order a parameter slice must list them.
@@ -131,47 +134,64 @@ impl Kernel {
         self.out_amp
     }
 
+    /// Unknowns of the DC system and of the mid-band system (0 when there is none).
+    pub fn unknowns(&self) -> (usize, usize) {
+        (self.dc.n, self.mid.as_ref().map_or(0, |m| m.n))
+    }
+
     /// Buffers large enough for either system.
     pub fn workspace(&self) -> Workspace {
         let n = self.dc.n.max(self.mid.as_ref().map_or(0, |m| m.n)).max(1);
-        Workspace { a: vec![0.0; n * n], u: vec![0.0; n], w: vec![0.0; n], perm: vec![0; n] }
+        Workspace { a: vec![0.0; n * n], u: vec![0.0; n], w: vec![0.0; n] }
     }
 
     /// DC output as `(slope, intercept)`: output = slope·source + intercept for a build with
     /// parameters `p` (one value per [`Kernel::params`]). `None` for a singular build or a
     /// short parameter slice.
     pub fn dc_line(&self, p: &[f64], ws: &mut Workspace) -> Option<(f64, f64)> {
-        self.dc.solve(p, ws)?;
-        self.dc.output(ws)
+        self.dc.line(p, ws)
     }
 
     /// Mid-band small-signal gain from the sensor EMF to the output with every capacitor a
     /// short. `None` when the circuit cannot be reduced that way or the build is singular.
     pub fn short_gain(&self, p: &[f64], ws: &mut Workspace) -> Option<f64> {
-        let m = self.mid.as_ref()?;
-        m.solve(p, ws)?;
-        m.output(ws).map(|(slope, _)| slope)
+        self.mid.as_ref()?.line(p, ws).map(|(slope, _)| slope)
     }
 
-    /// Every node voltage at DC for sensor EMF `source` (allocates; for checks and reports).
+    /// Every node voltage at DC for sensor EMF `source`, by dense elimination with partial
+    /// pivoting and back substitution (allocates; for checks and reports).
     pub fn dc_voltages(&self, p: &[f64], source: f64) -> Option<Vec<(String, f64)>> {
-        let mut ws = self.workspace();
-        self.dc.solve(p, &mut ws)?;
-        Some(self.nodes.iter().map(|(name, col)| (name.clone(), col.value(&ws, source))).collect())
+        let s = &self.dc;
+        let n = s.n;
+        if p.len() < s.n_params {
+            return None;
+        }
+        let (mut a, mut u, mut w) = (vec![0.0; n * n], vec![0.0; n], vec![0.0; n]);
+        s.assemble(p, &mut a, &mut u, &mut w);
+        if n > 0 {
+            eliminate(&mut a, n, &mut u, &mut w)?;
+            back(&a, n, &mut u);
+            back(&a, n, &mut w);
+        }
+        let value = |c: &Col| match *c {
+            Col::Free(i) => u[i] * source + w[i],
+            Col::Known { u, w } => u * source + w,
+        };
+        Some(self.nodes.iter().map(|(name, c)| (name.clone(), value(c))).collect())
     }
 }
 
-/// Solves `a·x = b` in place (`a` row-major `n×n`, overwritten by its LU factors; `b`
-/// overwritten by `x`) with the kernel's factorisation. `false` for a singular matrix.
+/// Solves `a·x = b` in place (`a` row-major `n×n`, overwritten; `b` overwritten by `x`)
+/// with the kernel's elimination and partial pivoting. `false` for a singular matrix.
 pub fn solve_dense(a: &mut [f64], n: usize, b: &mut [f64]) -> bool {
-    if a.len() < n * n || b.len() < n {
+    if n == 0 || a.len() < n * n || b.len() < n {
+        return n == 0;
+    }
+    let mut dummy = vec![0.0; n];
+    if eliminate(a, n, b, &mut dummy).is_none() {
         return false;
     }
-    let mut perm = vec![0; n];
-    if !factor(a, n, &mut perm) {
-        return false;
-    }
-    substitute(a, n, &perm, b);
+    back(a, n, b);
     b[..n].iter().all(|v| v.is_finite())
 }
 
@@ -188,15 +208,6 @@ fn finite_abs(x: f64) -> f64 {
 enum Col {
     Free(usize),
     Known { u: f64, w: f64 },
-}
-
-impl Col {
-    fn value(&self, ws: &Workspace, source: f64) -> f64 {
-        match *self {
-            Col::Free(i) => ws.u[i] * source + ws.w[i],
-            Col::Known { u, w } => u * source + w,
-        }
-    }
 }
 
 /// A perturbed conductance: its nominal resistance, its parameter and where it stamps.
@@ -220,6 +231,19 @@ struct Src {
     coef: f64,
 }
 
+/// One elimination step of the compiled program: pivot `k`, the rows it updates
+/// (`rows[r0..r1]`) and the columns right of the pivot that are non-zero (`cols[c0..c1]`).
+#[derive(Debug, Clone, Copy)]
+struct Step {
+    k: usize,
+    r0: usize,
+    r1: usize,
+    c0: usize,
+    c1: usize,
+    /// Magnitude of this pivot in the nominal build.
+    nominal: f64,
+}
+
 /// One compiled linear system.
 #[derive(Debug, Clone)]
 struct System {
@@ -231,21 +255,83 @@ struct System {
     srcs: Vec<Src>,
     out: Col,
     n_params: usize,
+    /// The compiled elimination is usable (else every build uses full partial pivoting).
+    compiled: bool,
+    steps: Vec<Step>,
+    rows: Vec<usize>,
+    cols: Vec<usize>,
 }
 
 impl System {
-    /// Assembles and factorises the build `p`, then substitutes both right-hand sides.
-    fn solve(&self, p: &[f64], ws: &mut Workspace) -> Option<()> {
-        let n = self.n;
-        if p.len() < self.n_params || ws.perm.len() < n {
+    /// Output `(slope, intercept)` of build `p`. Sizes up to 8 run on stack arrays of a size
+    /// known at compile time.
+    fn line(&self, p: &[f64], ws: &mut Workspace) -> Option<(f64, f64)> {
+        if p.len() < self.n_params {
             return None;
         }
-        let (a, u, w) = (&mut ws.a[..n * n], &mut ws.u[..n], &mut ws.w[..n]);
+        if let Col::Known { u, w } = self.out {
+            return Some((u, w));
+        }
+        match self.n {
+            1 => self.line_in(p, &mut [0.0; 1], &mut [0.0; 1], &mut [0.0; 1]),
+            2 => self.line_in(p, &mut [0.0; 4], &mut [0.0; 2], &mut [0.0; 2]),
+            3 => self.line_in(p, &mut [0.0; 9], &mut [0.0; 3], &mut [0.0; 3]),
+            4 => self.line_in(p, &mut [0.0; 16], &mut [0.0; 4], &mut [0.0; 4]),
+            5 => self.line_in(p, &mut [0.0; 25], &mut [0.0; 5], &mut [0.0; 5]),
+            6 => self.line_in(p, &mut [0.0; 36], &mut [0.0; 6], &mut [0.0; 6]),
+            7 => self.line_in(p, &mut [0.0; 49], &mut [0.0; 7], &mut [0.0; 7]),
+            8 => self.line_in(p, &mut [0.0; 64], &mut [0.0; 8], &mut [0.0; 8]),
+            n if ws.a.len() >= n * n && ws.u.len() >= n => {
+                let Workspace { a, u, w } = ws;
+                self.line_in(p, &mut a[..n * n], &mut u[..n], &mut w[..n])
+            }
+            _ => None,
+        }
+    }
+
+    /// Runs the compiled elimination; falls back to full partial pivoting when a pivot has
+    /// shrunk below half its nominal size (or the program is empty).
+    #[inline(always)]
+    fn line_in(&self, p: &[f64], a: &mut [f64], u: &mut [f64], w: &mut [f64]) -> Option<(f64, f64)> {
+        let n = self.n;
+        self.assemble(p, a, u, w);
+        let mut ok = self.compiled;
+        for st in &self.steps {
+            let d = a[st.k * n + st.k];
+            if !(d.abs() >= 0.5 * st.nominal) {
+                ok = false;
+                break;
+            }
+            let inv = 1.0 / d;
+            let (uk, wk) = (u[st.k], w[st.k]);
+            for &i in &self.rows[st.r0..st.r1] {
+                let f = a[i * n + st.k] * inv;
+                for &j in &self.cols[st.c0..st.c1] {
+                    a[i * n + j] -= f * a[st.k * n + j];
+                }
+                u[i] -= f * uk;
+                w[i] -= f * wk;
+            }
+        }
+        if !ok {
+            self.assemble(p, a, u, w);
+            return eliminate(a, n, u, w);
+        }
+        let d = a[n * n - 1];
+        let (s, i) = (u[n - 1] / d, w[n - 1] / d);
+        (s.is_finite() && i.is_finite()).then_some((s, i))
+    }
+
+    #[inline(always)]
+    fn assemble(&self, p: &[f64], a: &mut [f64], u: &mut [f64], w: &mut [f64]) {
         a.copy_from_slice(&self.base);
         u.copy_from_slice(&self.base_u);
         w.copy_from_slice(&self.base_w);
         for e in &self.elems {
-            let g = 1.0 / (e.r0 * (1.0 + p[e.param])).max(1e-9);
+            let r = e.r0 * (1.0 + p[e.param]);
+            // As the general solver: resistance floored at 1 nΩ (a comparison, not f64::max,
+            // which stays a library call when optimising for size).
+            let g = 1.0 / if r > 1e-9 { r } else { 1e-9 };
             for &(k, s) in &e.mat[..e.n_mat] {
                 a[k] += s * g;
             }
@@ -257,25 +343,114 @@ impl System {
         for s in &self.srcs {
             w[s.row] += s.coef * p[s.param];
         }
-        if !factor(a, n, &mut ws.perm[..n]) {
-            return None;
-        }
-        substitute(a, n, &ws.perm[..n], u);
-        substitute(a, n, &ws.perm[..n], w);
-        Some(())
     }
 
-    fn output(&self, ws: &Workspace) -> Option<(f64, f64)> {
-        let (s, i) = match self.out {
-            Col::Free(k) => (ws.u[k], ws.w[k]),
-            Col::Known { u, w } => (u, w),
-        };
-        (s.is_finite() && i.is_finite()).then_some((s, i))
+    /// Chooses the row order by partial pivoting on the nominal build, reorders the stamps
+    /// accordingly and compiles the elimination over the structural non-zeros, keeping only
+    /// what the last row depends on.
+    fn compile_program(&mut self) {
+        let n = self.n;
+        if n == 0 {
+            return;
+        }
+        let zero = vec![0.0; self.n_params];
+        let (mut a, mut u, mut w) = (vec![0.0; n * n], vec![0.0; n], vec![0.0; n]);
+        self.assemble(&zero, &mut a, &mut u, &mut w);
+        let mut order: Vec<usize> = (0..n).collect();
+        for k in 0..n {
+            let piv = (k..n).fold(k, |b, i| if a[i * n + k].abs() > a[b * n + k].abs() { i } else { b });
+            if !(a[piv * n + k].abs() > 0.0) {
+                return;
+            }
+            for j in 0..n {
+                a.swap(k * n + j, piv * n + j);
+            }
+            order.swap(k, piv);
+            for i in k + 1..n {
+                let f = a[i * n + k] / a[k * n + k];
+                for j in k..n {
+                    a[i * n + j] -= f * a[k * n + j];
+                }
+            }
+        }
+        // Row r of the assembled system moves to position pos[r].
+        let mut pos = vec![0; n];
+        for (k, &r) in order.iter().enumerate() {
+            pos[r] = k;
+        }
+        let mv = |idx: usize| pos[idx / n] * n + idx % n;
+        let mut base = vec![0.0; n * n];
+        for (idx, v) in self.base.iter().enumerate() {
+            base[mv(idx)] = *v;
+        }
+        self.base = base;
+        self.base_u = (0..n).map(|k| self.base_u[order[k]]).collect();
+        self.base_w = (0..n).map(|k| self.base_w[order[k]]).collect();
+        for e in &mut self.elems {
+            for m in &mut e.mat[..e.n_mat] {
+                m.0 = mv(m.0);
+            }
+            for r in &mut e.rhs[..e.n_rhs] {
+                r.0 = pos[r.0];
+            }
+        }
+        for s in &mut self.srcs {
+            s.row = pos[s.row];
+        }
+        // Structure, fill-in and the rows each pivot updates.
+        let mut nz: Vec<bool> = self.base.iter().map(|v| *v != 0.0).collect();
+        for e in &self.elems {
+            for m in &e.mat[..e.n_mat] {
+                nz[m.0] = true;
+            }
+        }
+        let mut plan = Vec::new();
+        for k in 0..n.saturating_sub(1) {
+            let rows: Vec<usize> = (k + 1..n).filter(|&i| nz[i * n + k]).collect();
+            let cols: Vec<usize> = (k + 1..n).filter(|&j| nz[k * n + j]).collect();
+            for &i in &rows {
+                for &j in &cols {
+                    nz[i * n + j] = true;
+                }
+            }
+            plan.push((k, rows, cols));
+        }
+        let mut needed = vec![false; n];
+        needed[n - 1] = true;
+        for (k, rows, _) in plan.iter_mut().rev() {
+            rows.retain(|&i| needed[i]);
+            needed[*k] = !rows.is_empty();
+        }
+        self.assemble(&zero, &mut a, &mut u, &mut w);
+        for (k, rows, cols) in plan.into_iter().filter(|(k, _, _)| needed[*k]) {
+            let nominal = a[k * n + k].abs();
+            if !(nominal > 0.0 && nominal.is_finite()) {
+                self.steps.clear();
+                return;
+            }
+            let st = Step { k, r0: self.rows.len(), r1: self.rows.len() + rows.len(), c0: self.cols.len(), c1: self.cols.len() + cols.len(), nominal };
+            for &i in &rows {
+                let f = a[i * n + k] / a[k * n + k];
+                for &j in &cols {
+                    a[i * n + j] -= f * a[k * n + j];
+                }
+            }
+            self.rows.extend(rows);
+            self.cols.extend(cols);
+            self.steps.push(st);
+        }
+        self.compiled = a[n * n - 1] != 0.0;
     }
 }
 
-/// LU factorisation with partial pivoting in place (unit lower factor below the diagonal).
-fn factor(a: &mut [f64], n: usize, perm: &mut [usize]) -> bool {
+/// Forward elimination with partial pivoting of `a·x = [u w]` (upper triangle left in `a`),
+/// returning the last unknown for both right-hand sides. Plain comparisons and swaps keep it
+/// free of library calls when the engine is optimised for size.
+#[allow(clippy::manual_swap)]
+fn eliminate(a: &mut [f64], n: usize, u: &mut [f64], w: &mut [f64]) -> Option<(f64, f64)> {
+    if n == 0 || a.len() < n * n || u.len() < n || w.len() < n {
+        return None;
+    }
     for k in 0..n {
         let mut piv = k;
         let mut best = a[k * n + k].abs();
@@ -286,37 +461,41 @@ fn factor(a: &mut [f64], n: usize, perm: &mut [usize]) -> bool {
                 piv = i;
             }
         }
-        if !(best > 0.0 && best.is_finite()) {
-            return false;
+        if !(best > 0.0 && best < f64::INFINITY) {
+            return None;
         }
-        perm[k] = piv;
         if piv != k {
-            for j in 0..n {
-                a.swap(k * n + j, piv * n + j);
+            for j in k..n {
+                let t = a[k * n + j];
+                a[k * n + j] = a[piv * n + j];
+                a[piv * n + j] = t;
             }
+            let (tu, tw) = (u[k], w[k]);
+            u[k] = u[piv];
+            w[k] = w[piv];
+            u[piv] = tu;
+            w[piv] = tw;
         }
-        let d = a[k * n + k];
+        let inv = 1.0 / a[k * n + k];
+        let (uk, wk) = (u[k], w[k]);
         for i in k + 1..n {
-            let f = a[i * n + k] / d;
-            a[i * n + k] = f;
+            let f = a[i * n + k] * inv;
             if f != 0.0 {
                 for j in k + 1..n {
                     a[i * n + j] -= f * a[k * n + j];
                 }
+                u[i] -= f * uk;
+                w[i] -= f * wk;
             }
         }
     }
-    true
+    let d = a[n * n - 1];
+    let (s, i) = (u[n - 1] / d, w[n - 1] / d);
+    (s.is_finite() && i.is_finite()).then_some((s, i))
 }
 
-fn substitute(a: &[f64], n: usize, perm: &[usize], b: &mut [f64]) {
-    for (k, &p) in perm.iter().enumerate().take(n) {
-        b.swap(k, p);
-    }
-    for i in 0..n {
-        let s: f64 = (0..i).map(|j| a[i * n + j] * b[j]).sum();
-        b[i] -= s;
-    }
+/// Back substitution on the upper triangle [`eliminate`] leaves.
+fn back(a: &[f64], n: usize, b: &mut [f64]) {
     for i in (0..n).rev() {
         let s: f64 = (i + 1..n).map(|j| a[i * n + j] * b[j]).sum();
         b[i] = (b[i] - s) / a[i * n + i];
@@ -329,41 +508,39 @@ struct Ctx<'a> {
     part_param: &'a [Option<usize>],
     amp_param: &'a [usize],
     out: &'a str,
+    n_params: usize,
 }
 
 impl Ctx<'_> {
     /// Builds the DC system (`short = false`) or the mid-band system with capacitors shorted.
     fn system(&self, short: bool) -> Result<(System, Vec<(String, Col)>), KernelError> {
         let c = self.circuit;
-        let err = |m: &str| Err(KernelError(m.to_string()));
+        let err = |m: String| Err(KernelError(m));
         let names = c.nodes();
         let at = |s: &str| names.iter().position(|n| n == s).unwrap_or(0);
-        let mut parent: Vec<usize> = (0..names.len()).collect();
+        if let Some(p) = c.parts.iter().find(|p| p.nodes.len() < if p.kind == PartKind::OpAmp { 5 } else { 2 }) {
+            return err(format!("{} has too few nodes", p.reference));
+        }
+        // Known potentials: ground, and every node a source ties to ground.
         let mut known: Vec<Option<(f64, f64)>> = vec![None; names.len()];
         known[0] = Some((0.0, 0.0));
-        for p in &c.parts {
-            let want = if p.kind == PartKind::OpAmp { 5 } else { 2 };
-            if p.nodes.len() < want {
-                return err(&format!("{} has {} nodes, {want} expected", p.reference, p.nodes.len()));
-            }
-        }
         for p in c.parts.iter().filter(|p| p.kind == PartKind::VoltageSource) {
-            let (pos, neg) = (at(&p.nodes[0]), at(&p.nodes[1]));
             let (u, w) = match (p.reference == "VSENSE", short) {
                 (true, _) => (1.0, 0.0),
                 (false, false) => (0.0, p.value),
                 (false, true) => (0.0, 0.0),
             };
-            let (node, val) = match (pos, neg) {
+            let (node, val) = match (at(&p.nodes[0]), at(&p.nodes[1])) {
                 (a, 0) if a != 0 => (a, (u, w)),
                 (0, b) if b != 0 => (b, (-u, -w)),
-                _ => return err(&format!("{} is not a source from a node to ground", p.reference)),
+                _ => return err(format!("{} is not a source from a node to ground", p.reference)),
             };
-            if known[node].is_some() {
-                return err(&format!("node {} is fixed twice", names[node]));
+            if known[node].replace(val).is_some() {
+                return err(format!("node {} is fixed twice", names[node]));
             }
-            known[node] = Some(val);
         }
+        // Shorted capacitors join nodes (one across two different known potentials stays open).
+        let mut parent: Vec<usize> = (0..names.len()).collect();
         fn root(parent: &mut [usize], mut i: usize) -> usize {
             while parent[i] != i {
                 parent[i] = parent[parent[i]];
@@ -371,17 +548,14 @@ impl Ctx<'_> {
             }
             i
         }
-        if short {
-            for p in c.parts.iter().filter(|p| p.kind == PartKind::Capacitor) {
-                let (ra, rb) = (root(&mut parent, at(&p.nodes[0])), root(&mut parent, at(&p.nodes[1])));
-                match (known[ra], known[rb]) {
-                    _ if ra == rb => {}
-                    // A capacitor across two different known potentials stays open.
-                    (Some(x), Some(y)) if x != y => {}
-                    (ka, kb) => {
-                        parent[rb] = ra;
-                        known[ra] = ka.or(kb);
-                    }
+        for p in c.parts.iter().filter(|p| short && p.kind == PartKind::Capacitor) {
+            let (ra, rb) = (root(&mut parent, at(&p.nodes[0])), root(&mut parent, at(&p.nodes[1])));
+            match (known[ra], known[rb]) {
+                _ if ra == rb => {}
+                (Some(x), Some(y)) if x != y => {}
+                (ka, kb) => {
+                    parent[rb] = ra;
+                    known[ra] = ka.or(kb);
                 }
             }
         }
@@ -390,31 +564,38 @@ impl Ctx<'_> {
         let mut amp_out: Vec<Option<usize>> = vec![None; names.len()];
         for (k, p) in amps.iter().enumerate() {
             let r = roots[at(&p.nodes[4])];
-            if known[r].is_some() || amp_out[r].is_some() {
-                return err(&format!("the output of {} is fixed by another source or amplifier", p.reference));
+            if known[r].is_some() || amp_out[r].replace(k).is_some() {
+                return err(format!("the output of {} is fixed by another source or amplifier", p.reference));
             }
-            amp_out[r] = Some(k);
         }
+        // Unknowns: the remaining nodes, then one internal node per amplifier; the output last.
         let mut ord = vec![usize::MAX; names.len()];
         let mut m = 0;
-        for i in 0..names.len() {
-            if roots[i] == i && known[i].is_none() && amp_out[i].is_none() {
-                ord[i] = m;
-                m += 1;
-            }
+        for i in (0..names.len()).filter(|&i| roots[i] == i && known[i].is_none() && amp_out[i].is_none()) {
+            ord[i] = m;
+            m += 1;
         }
         let n = m + amps.len();
-        let col = |i: usize| {
-            let r = roots[i];
-            match (known[r], amp_out[r]) {
-                (Some((u, w)), _) => Col::Known { u, w },
-                (None, Some(k)) => Col::Free(m + k),
-                (None, None) => Col::Free(ord[r]),
-            }
+        let raw_col = |i: usize| match (known[roots[i]], amp_out[roots[i]]) {
+            (Some((u, w)), _) => Col::Known { u, w },
+            (None, Some(k)) => Col::Free(m + k),
+            (None, None) => Col::Free(ord[roots[i]]),
         };
-        let row = |i: usize| (ord[roots[i]] != usize::MAX).then(|| ord[roots[i]]);
-        let mut s = System { n, base: vec![0.0; n * n], base_u: vec![0.0; n], base_w: vec![0.0; n], elems: Vec::new(), srcs: Vec::new(), out: Col::Known { u: 0.0, w: 0.0 }, n_params: 0 };
-        s.n_params = self.amp_param.iter().map(|&b| b + 3).chain(self.part_param.iter().flatten().map(|&i| i + 1)).max().unwrap_or(0);
+        let Some(out_node) = names.iter().position(|nm| nm == self.out) else {
+            return err(format!("the circuit has no node {}", self.out));
+        };
+        let top = n.saturating_sub(1);
+        let last = match raw_col(out_node) {
+            Col::Free(k) => k,
+            Col::Known { .. } => top,
+        };
+        let re = |i: usize| if i == last { top } else if i == top { last } else { i };
+        let col = |i: usize| match raw_col(i) {
+            Col::Free(k) => Col::Free(re(k)),
+            known => known,
+        };
+        let row = |i: usize| (ord[roots[i]] != usize::MAX).then(|| re(ord[roots[i]]));
+        let mut s = System { n, base: vec![0.0; n * n], base_u: vec![0.0; n], base_w: vec![0.0; n], elems: Vec::new(), srcs: Vec::new(), out: col(out_node), n_params: self.n_params, compiled: false, steps: Vec::new(), rows: Vec::new(), cols: Vec::new() };
         for i in 0..n {
             s.base[i * n + i] += GMIN;
         }
@@ -453,15 +634,16 @@ impl Ctx<'_> {
                 }
             }
         }
+        // Amplifier: −GM·(v+ + Vos − v−) + (GM/A0 + GMIN)·x = 0 on the internal node's row.
         let amp = &c.amplifier;
         for (k, p) in amps.iter().enumerate() {
-            let x = m + k;
-            for (node, sign) in [(at(&p.nodes[0]), -GM), (at(&p.nodes[1]), GM)] {
+            let x = re(m + k);
+            for (node, g) in [(at(&p.nodes[0]), -GM), (at(&p.nodes[1]), GM)] {
                 match col(node) {
-                    Col::Free(j) => s.base[x * n + j] += sign,
+                    Col::Free(j) => s.base[x * n + j] += g,
                     Col::Known { u, w } => {
-                        s.base_u[x] -= sign * u;
-                        s.base_w[x] -= sign * w;
+                        s.base_u[x] -= g * u;
+                        s.base_w[x] -= g * w;
                     }
                 }
             }
@@ -476,11 +658,8 @@ impl Ctx<'_> {
                 }
             }
         }
-        match names.iter().position(|nm| nm == self.out) {
-            Some(i) => s.out = col(i),
-            None => return err(&format!("the circuit has no node {}", self.out)),
-        }
-        let cols = names.iter().enumerate().map(|(i, nm)| (nm.clone(), col(i))).collect();
-        Ok((s, cols))
+        let nodes = names.iter().enumerate().map(|(i, nm)| (nm.clone(), col(i))).collect();
+        s.compile_program();
+        Ok((s, nodes))
     }
 }

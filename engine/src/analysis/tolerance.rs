@@ -32,7 +32,7 @@
 //! until none improves it. Where an output reaches an amplifier limit the gain and offset
 //! bounds follow from the limited outputs by interval arithmetic.
 
-use rand::{Rng, SeedableRng};
+use rand::{Rng, RngCore, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rand_distr::StandardNormal;
 use serde::Serialize;
@@ -188,7 +188,17 @@ impl Model {
 
     fn clamp(&self, y: f64) -> f64 {
         match self.limits {
-            Some((lo, hi)) => y.max(lo).min(hi),
+            // Comparisons rather than f64::max/min, which stay library calls when the engine
+            // is optimised for size; a NaN passes through and is discarded by the caller.
+            Some((lo, hi)) => {
+                if y < lo {
+                    lo
+                } else if y > hi {
+                    hi
+                } else {
+                    y
+                }
+            }
             None => y,
         }
     }
@@ -285,6 +295,20 @@ fn monte_carlo(model: &Model, ws: &mut Workspace, req: &Request, cfg: &Tolerance
     let params = model.kernel.params();
     let mut rng = ChaCha8Rng::seed_from_u64(cfg.seed);
     let mut p = vec![0.0; params.len()];
+    // Parts are drawn uniformly, two per 64-bit word; the amplifier's figures from a normal.
+    let is_part = |k: ParamKind| matches!(k, ParamKind::Resistor | ParamKind::Capacitor);
+    let parts: Vec<(usize, f64)> = params
+        .iter()
+        .enumerate()
+        .filter(|(_, q)| is_part(q.kind))
+        .map(|(i, q)| (i, q.bound))
+        .collect();
+    let amps: Vec<(usize, f64)> = params
+        .iter()
+        .enumerate()
+        .filter(|(_, q)| !is_part(q.kind))
+        .map(|(i, q)| (i, q.bound))
+        .collect();
     let mut q: [Vec<f64>; 4] = std::array::from_fn(|_| Vec::with_capacity(cfg.runs));
     let d = &req.destination;
     let span = d.max - d.min;
@@ -293,15 +317,25 @@ fn monte_carlo(model: &Model, ws: &mut Workspace, req: &Request, cfg: &Tolerance
     let fraction = 0.95 * (1.0 - 2.0 * d.headroom);
     let (mut ok, mut ok_head, mut ok_use) = (0usize, 0usize, 0usize);
     for _ in 0..cfg.runs {
-        for (v, prm) in p.iter_mut().zip(params) {
-            *v = draw(prm, &mut rng);
+        for pair in parts.chunks(2) {
+            let bits = rng.next_u64();
+            for (&(i, bound), word) in pair.iter().zip([bits as u32, (bits >> 32) as u32]) {
+                p[i] = bound * uniform_pm1(word);
+            }
+        }
+        for &(i, bound) in &amps {
+            p[i] = bound * truncated_normal(&mut rng);
         }
         let Some(r) = model.raw(&p, ws) else { continue };
         let y = model.clamped(r);
-        if !y.iter().all(|v| v.is_finite()) {
+        if !(y[0].is_finite() && y[1].is_finite() && y[2].is_finite() && y[3].is_finite()) {
             continue;
         }
-        let (lo, hi) = (y[0].min(y[1]), y[0].max(y[1]));
+        let (lo, hi) = if y[0] < y[1] {
+            (y[0], y[1])
+        } else {
+            (y[1], y[0])
+        };
         ok += (lo >= d.min && hi <= d.max) as usize;
         ok_head += (lo >= h_lo && hi <= h_hi) as usize;
         ok_use += (hi - lo >= fraction * span) as usize;
@@ -311,7 +345,11 @@ fn monte_carlo(model: &Model, ws: &mut Workspace, req: &Request, cfg: &Tolerance
     }
     let share = |k: usize| if cfg.runs > 0 { k as f64 / cfg.runs as f64 } else { f64::NAN };
     let [mut q0, mut q1, mut q2, mut q3] = q;
-    let histograms = Histograms { output_at_min: histogram(&q0, cfg.bins, d.min, d.max), output_at_max: histogram(&q1, cfg.bins, d.min, d.max) };
+    let (s0, s1) = (stats(&mut q0), stats(&mut q1));
+    let histograms = Histograms {
+        output_at_min: histogram(&q0, &s0, cfg.bins, d.min, d.max),
+        output_at_max: histogram(&q1, &s1, cfg.bins, d.min, d.max),
+    };
     MonteCarlo {
         runs: cfg.runs,
         seed: cfg.seed,
@@ -319,8 +357,8 @@ fn monte_carlo(model: &Model, ws: &mut Workspace, req: &Request, cfg: &Tolerance
         yield_headroom: share(ok_head),
         range_use_fraction: fraction,
         range_use_yield: share(ok_use),
-        output_at_min: stats(&mut q0),
-        output_at_max: stats(&mut q1),
+        output_at_min: s0,
+        output_at_max: s1,
         gain: stats(&mut q2),
         offset: stats(&mut q3),
         histograms,
@@ -328,22 +366,22 @@ fn monte_carlo(model: &Model, ws: &mut Workspace, req: &Request, cfg: &Tolerance
     }
 }
 
-/// One parameter of one build: uniform over ±bound for parts, normal with the bound as 3σ
-/// truncated at ±bound for the amplifier.
-fn draw(p: &Param, rng: &mut ChaCha8Rng) -> f64 {
-    match p.kind {
-        ParamKind::Resistor | ParamKind::Capacitor => p.bound * (2.0 * rng.random::<f64>() - 1.0),
-        ParamKind::Offset | ParamKind::BiasPlus | ParamKind::BiasMinus => {
-            // Rejection leaves 0.27 % of draws; after 64 misses (never in practice) use 0.
-            for _ in 0..64 {
-                let z: f64 = rng.sample(StandardNormal);
-                if z.abs() <= 3.0 {
-                    return p.bound * z / 3.0;
-                }
-            }
-            0.0
+/// Uniform over (−1, 1) from 32 random bits, symmetric about 0 (steps of 2⁻³¹, far finer
+/// than any tolerance).
+fn uniform_pm1(word: u32) -> f64 {
+    (word as f64 + 0.5) * (2.0 / 4_294_967_296.0) - 1.0
+}
+
+/// Normal with σ = 1/3 truncated at ±1 (the stated figure is 3σ), by rejection: 0.27 % of
+/// draws are redrawn; after 64 misses in a row (never in practice) it gives 0.
+fn truncated_normal(rng: &mut ChaCha8Rng) -> f64 {
+    for _ in 0..64 {
+        let z: f64 = rng.sample(StandardNormal);
+        if z.abs() <= 3.0 {
+            return z / 3.0;
         }
     }
+    0.0
 }
 
 fn stats(x: &mut [f64]) -> Stats {
@@ -358,20 +396,78 @@ fn stats(x: &mut [f64]) -> Stats {
         let d = v - x0;
         s1 += d;
         s2 += d * d;
-        min = min.min(v);
-        max = max.max(v);
+        if v < min {
+            min = v;
+        }
+        if v > max {
+            max = v;
+        }
     }
     let nf = n as f64;
     let mean = x0 + s1 / nf;
-    let var = if n > 1 { ((s2 - s1 * s1 / nf) / (nf - 1.0)).max(0.0) } else { 0.0 };
-    Stats { mean, std: var.sqrt(), p001: percentile(x, 0.001), p999: percentile(x, 0.999), min, max }
+    let var = if n > 1 {
+        ((s2 - s1 * s1 / nf) / (nf - 1.0)).max(0.0)
+    } else {
+        0.0
+    };
+    let (p001, p999) = tails(x);
+    Stats {
+        mean,
+        std: var.sqrt(),
+        p001,
+        p999,
+        min,
+        max,
+    }
 }
 
-/// Percentile `q` (0…1), linear between order statistics; reorders `x`.
+/// The 0.1 % and 99.9 % percentiles, linear between order statistics. They need only the
+/// few smallest and largest values, kept in short sorted buffers during one pass; when a
+/// tail needs more than 64 values (over 64,000 builds) selection is used instead.
+fn tails(x: &mut [f64]) -> (f64, f64) {
+    const M: usize = 64;
+    let n = x.len();
+    let (pos_lo, pos_hi) = (0.001 * (n - 1) as f64, 0.999 * (n - 1) as f64);
+    let (k_lo, k_hi) = ((pos_lo as usize).min(n - 1), (pos_hi as usize).min(n - 1));
+    let (m_lo, m_hi) = ((k_lo + 2).min(n), n - k_hi);
+    if m_lo > M || m_hi > M {
+        return (percentile(x, 0.001), percentile(x, 0.999));
+    }
+    let (mut lo, mut hi) = ([f64::INFINITY; M], [f64::NEG_INFINITY; M]);
+    for &v in x.iter() {
+        if v < lo[m_lo - 1] {
+            let mut j = m_lo - 1;
+            while j > 0 && lo[j - 1] > v {
+                lo[j] = lo[j - 1];
+                j -= 1;
+            }
+            lo[j] = v;
+        }
+        if v > hi[m_hi - 1] {
+            let mut j = m_hi - 1;
+            while j > 0 && hi[j - 1] < v {
+                hi[j] = hi[j - 1];
+                j -= 1;
+            }
+            hi[j] = v;
+        }
+    }
+    // Ascending order statistic i is lo[i] from below and hi[n − 1 − i] from above.
+    let a = lo[k_lo];
+    let b = if k_lo + 1 < n { lo[k_lo + 1] } else { a };
+    let c = hi[n - 1 - k_hi];
+    let e = if k_hi + 1 < n { hi[n - 2 - k_hi] } else { c };
+    (
+        a + (pos_lo - k_lo as f64) * (b - a),
+        c + (pos_hi - k_hi as f64) * (e - c),
+    )
+}
+
+/// Percentile `q` (0…1), linear between order statistics, by selection; reorders `x`.
 fn percentile(x: &mut [f64], q: f64) -> f64 {
     let n = x.len();
     let pos = q * (n - 1) as f64;
-    let k = (pos.floor() as usize).min(n - 1);
+    let k = (pos as usize).min(n - 1);
     let (_, &mut lo, rest) = x.select_nth_unstable_by(k, f64::total_cmp);
     let hi = rest.iter().copied().fold(f64::INFINITY, f64::min);
     if hi.is_finite() {
@@ -381,12 +477,12 @@ fn percentile(x: &mut [f64], q: f64) -> f64 {
     }
 }
 
-fn histogram(x: &[f64], bins: usize, d_min: f64, d_max: f64) -> Histogram {
+fn histogram(x: &[f64], s: &Stats, bins: usize, d_min: f64, d_max: f64) -> Histogram {
     let mut counts = vec![0u32; bins];
     if x.is_empty() {
         return Histogram { lo: d_min, hi: d_max, counts };
     }
-    let (mut lo, mut hi) = x.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| (a.min(v), b.max(v)));
+    let (mut lo, mut hi) = (s.min, s.max);
     let width = hi - lo;
     let limit = if (lo - d_min).abs() <= (hi - d_max).abs() { d_min } else { d_max };
     if limit < lo && lo - limit <= 3.0 * width {
@@ -402,7 +498,8 @@ fn histogram(x: &[f64], bins: usize, d_min: f64, d_max: f64) -> Histogram {
     if bins > 0 {
         let scale = bins as f64 / (hi - lo);
         for &v in x {
-            let b = (((v - lo) * scale) as usize).min(bins - 1);
+            let b = ((v - lo) * scale) as usize;
+            let b = if b < bins { b } else { bins - 1 };
             counts[b] = counts[b].saturating_add(1);
         }
     }

@@ -1,0 +1,95 @@
+//! Checks that follow from the analyses: clipping, tolerance yield, noise against the LSB,
+//! sensor loading and wideband noise above Nyquist. Each says what to change.
+
+use super::{Analysis, Nominal};
+use crate::diag::Check;
+use crate::request::Request;
+use crate::units::{format, Quantity};
+
+/// Yield below this is a warning.
+pub const YIELD_WARNING: f64 = 0.99;
+/// Yield below this is an error.
+pub const YIELD_ERROR: f64 = 0.90;
+/// Sensor loading above this gain error (fraction) is a warning.
+pub const LOADING_LIMIT: f64 = 0.001;
+
+/// The checks for one set of analyses.
+pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
+    let mut c = Vec::new();
+    let v = |x: f64| format(x, Quantity::Voltage);
+    let hz = |x: f64| format(x, Quantity::Frequency);
+
+    if let (Some(first), Some(last)) = (a.dc.clipped_in_range.first(), a.dc.clipped_in_range.last())
+    {
+        c.push(Check::error(
+            "clipping",
+            format!("The output sits at the amplifier's swing limit for sensor values {} … {} inside the sensor's range; widen the rails, choose a rail-to-rail output amplifier or give more headroom.", v(*first), v(*last)),
+        ));
+    } else {
+        c.push(Check::ok("clipping", format!("No clipping over the sensor's range; the output limits {} … {} are reached only beyond it.", v(a.dc.output_limits[0]), v(a.dc.output_limits[1]))));
+    }
+
+    let mc = &a.tolerance.monte_carlo;
+    let pct = |x: f64| format!("{:.2} %", 100.0 * x);
+    let msg = format!(
+        "{} of {} simulated builds (parts within tolerance, amplifier offset and bias currents spread) keep the output inside the converter range; {} also keep the full {:.1} % headroom.",
+        pct(mc.yield_), mc.runs, pct(mc.yield_headroom), req.destination.headroom * 100.0
+    );
+    let advice = " Tighter resistor tolerances, more headroom or a two-point calibration in firmware raise it.";
+    c.push(if mc.runs == 0 {
+        Check::ok(
+            "yield",
+            "Monte Carlo was switched off (analysis.monte_carlo_runs = 0).",
+        )
+    } else if mc.yield_ < YIELD_ERROR {
+        Check::error("yield", format!("{msg}{advice}"))
+    } else if mc.yield_ < YIELD_WARNING {
+        Check::warning("yield", format!("{msg}{advice}"))
+    } else {
+        Check::ok("yield", msg)
+    });
+
+    let n = &a.noise;
+    let top = n
+        .contributors
+        .first()
+        .map(|t| {
+            format!(
+                " The largest contributor is {} ({}).",
+                t.part,
+                v(t.output_rms)
+            )
+        })
+        .unwrap_or_default();
+    let noise_msg = format!(
+        "Added noise is {} rms at the converter over {} … {} ({:.2} LSB; quantisation alone is {}); the chain reaches {:.1} dB SNR, {:.2} effective bits, for a full-scale sine.{}",
+        v(n.output_rms), hz(n.band[0]), hz(n.band[1]), n.lsb_ratio, v(n.quantization_rms), n.snr_db, n.enob, top
+    );
+    c.push(if n.lsb_ratio > 1.0 {
+        Check::warning("noise", format!("{noise_msg} Lower resistor values, a quieter amplifier or a narrower band bring it under one LSB."))
+    } else {
+        Check::ok("noise", noise_msg)
+    });
+
+    let nyquist = 0.5 * req.destination.sample_rate;
+    if let Some(fh) = nominal.f_high_3db {
+        if fh > nyquist {
+            c.push(Check::warning(
+                "aliasing",
+                format!("The response reaches {} before it falls 3 dB, above the converter's Nyquist frequency {}; noise and interference between them fold back into the band. A low-pass filter at the band edge stops it.", hz(fh), hz(nyquist)),
+            ));
+        }
+    }
+
+    let l = &a.loading;
+    let loading_msg = format!(
+        "The sensor sees {} ; its own impedance changes the gain by {:.3} % and the converter's input by {:.3} % (both already in the design equations).",
+        format(l.input_impedance, Quantity::Resistance), 100.0 * l.sensor_gain_error, 100.0 * l.converter_gain_error
+    );
+    c.push(if l.sensor_gain_error.abs() > LOADING_LIMIT {
+        Check::warning("loading", format!("{loading_msg} Any change of the sensor's impedance moves the gain in proportion; a buffer or higher input resistance makes it negligible."))
+    } else {
+        Check::ok("loading", loading_msg)
+    });
+    c
+}
