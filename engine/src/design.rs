@@ -390,9 +390,11 @@ fn design_checks(req: &Request, s: &synth::Synthesis, p: &Predicted, amp: &Ampli
         let v4 = |x: f64| crate::units::format_sig(x, Quantity::Voltage, 5);
         c.push(Check::error("headroom", format!("The sensor's range lands on {} … {}, outside the wanted {} … {}; the amplifier cannot reach that far on these rails, or rounding to the series could not keep it inside. A finer series or a little more headroom helps.", v4(lo), v4(hi), v4(want_lo), v4(want_hi))));
     }
-    let err_pct = s.rounding_error / span * 100.0;
+    // Below a nanovolt the error is rounding noise of the arithmetic, not of the parts.
+    let rounding_error = if s.rounding_error < 1e-9 { 0.0 } else { s.rounding_error };
+    let err_pct = rounding_error / span * 100.0;
     let lsb = span / 2f64.powi(d.bits as i32);
-    let msg = format!("After rounding to {} the mapping is off by at most {} ({:.3} % of the span, {:.1} LSB) from the ideal; the headroom absorbs it and a two-point calibration removes it.", req.parts.resistor_series.name(), v(s.rounding_error), err_pct, s.rounding_error / lsb);
+    let msg = format!("After rounding to {} the mapping is off by at most {} ({:.3} % of the span, {:.1} LSB) from the ideal; the headroom absorbs it and a two-point calibration removes it.", req.parts.resistor_series.name(), v(rounding_error), err_pct, rounding_error / lsb);
     c.push(if err_pct <= 0.5 { Check::ok("rounding", msg) } else { Check::warning("rounding", format!("{msg} A finer series (E96) reduces it.")) });
     let (in_lo, in_hi) = amp.input_limits(rails);
     let (plo, phi) = s.plus_range;

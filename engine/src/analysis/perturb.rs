@@ -298,7 +298,8 @@ impl System {
         let mut ok = self.compiled;
         for st in &self.steps {
             let d = a[st.k * n + st.k];
-            if !(d.abs() >= 0.5 * st.nominal) {
+            let holds = d.abs() >= 0.5 * st.nominal;
+            if !holds {
                 ok = false;
                 break;
             }
@@ -359,7 +360,8 @@ impl System {
         let mut order: Vec<usize> = (0..n).collect();
         for k in 0..n {
             let piv = (k..n).fold(k, |b, i| if a[i * n + k].abs() > a[b * n + k].abs() { i } else { b });
-            if !(a[piv * n + k].abs() > 0.0) {
+            let mag = a[piv * n + k].abs();
+            if mag == 0.0 || mag.is_nan() {
                 return;
             }
             for j in 0..n {

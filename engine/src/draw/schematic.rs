@@ -172,8 +172,11 @@ const PITCH: f64 = 95.0;
 const REF_DROP: f64 = 150.0;
 /// Run of the output line to the converter, where TP and DC labels go.
 const OUT_RUN: f64 = 170.0;
-/// Clearance kept round every text.
+/// Clearance kept round every text: from strokes and symbols, from other texts, and (where
+/// possible) from wiring of other nets.
 const PAD: f64 = 2.0;
+const TEXT_GAP: f64 = 6.0;
+const ROOM: f64 = 10.0;
 const INK: &str = "#000000";
 const GREY: &str = "#777777";
 const BLUE: &str = "#1f4e9c";
@@ -781,16 +784,26 @@ impl<'a> Sheet<'a> {
     }
 
     /// Writes `lines` at the first free spot `(x, top of first line, anchor)`.
-    fn put(&mut self, lines: &[String], spots: &[(f64, f64, Anchor)], fs: f64, colour: &str, style: &str) -> bool {
+    /// Writes `lines` at the first free spot `(x, top of first line, anchor)`. With `net`, a
+    /// first pass wants the spot well clear of other nets' wiring, so the text reads as its own.
+    fn put(&mut self, lines: &[String], spots: &[(f64, f64, Anchor)], fs: f64, colour: &str, style: &str, net: Option<&str>) -> bool {
         let lh = 1.2 * fs;
-        for &(x, top, anchor) in spots {
-            let at = |k: usize| top + 0.8 * fs + k as f64 * lh;
-            let boxes: Vec<BoxRect> = lines.iter().enumerate().map(|(k, s)| text_box(x, at(k), s, fs, anchor)).collect();
-            if boxes.iter().all(|b| self.svg.is_free(&b.grow(PAD))) {
-                for (k, s) in lines.iter().enumerate() {
-                    self.svg.text(x, at(k), s, fs, anchor, colour, "", style);
+        let passes: &[bool] = if net.is_some() { &[true, false] } else { &[false] };
+        for &roomy in passes {
+            for &(x, top, anchor) in spots {
+                let at = |k: usize| top + 0.8 * fs + k as f64 * lh;
+                let boxes: Vec<BoxRect> = lines.iter().enumerate().map(|(k, s)| text_box(x, at(k), s, fs, anchor)).collect();
+                let clear = |b: &BoxRect| {
+                    self.svg.is_free(&b.grow(PAD))
+                        && !self.svg.texts.iter().any(|t| t.overlaps(&b.grow(TEXT_GAP)))
+                        && !(roomy && self.svg.wires.iter().any(|w| !w.net.is_empty() && Some(w.net.as_str()) != net && b.grow(ROOM).crosses(w)))
+                };
+                if boxes.iter().all(clear) {
+                    for (k, s) in lines.iter().enumerate() {
+                        self.svg.text(x, at(k), s, fs, anchor, colour, "", style);
+                    }
+                    return true;
                 }
-                return true;
             }
         }
         false
@@ -840,7 +853,7 @@ impl<'a> Sheet<'a> {
                     spots.push((b.x - 8.0, b.y + b.h + 6.0, Anchor::End));
                 }
             }
-            if !self.put(&l.lines, &spots, fs, l.colour, "") {
+            if !self.put(&l.lines, &spots, fs, l.colour, "", None) {
                 self.notes.push(format!("{} (no free place beside the part)", l.lines.join(" ")));
             }
         }
@@ -861,7 +874,7 @@ impl<'a> Sheet<'a> {
                 (x - 16.0, y - h / 2.0 + v * 12.0, Anchor::End),
                 (x, beyond(18.0), Anchor::Middle),
             ];
-            if !self.put(&[m.text.clone()], &spots, fs, m.colour, "") {
+            if !self.put(&[m.text.clone()], &spots, fs, m.colour, "", None) {
                 self.notes.push(format!("{} (no free place beside its symbol)", m.text));
             }
         }
@@ -921,8 +934,9 @@ impl<'a> Sheet<'a> {
                     for (lx, top, a) in spots {
                         let b = text_box(lx, top + 0.8 * fs, text, fs, a);
                         // Keep well clear of other wiring, so the label does not read as theirs.
-                        let roomy = !self.svg.wires.iter().any(|w| !w.net.is_empty() && w.net != node && b.grow(8.0).crosses(w));
-                        if roomy && self.svg.is_free(&b.grow(PAD)) && !b.grow(PAD).crosses(&stub) && !b.grow(PAD).overlaps(&ring) {
+                        let roomy = !self.svg.wires.iter().any(|w| !w.net.is_empty() && w.net != node && b.grow(ROOM).crosses(w));
+                        let apart = !self.svg.texts.iter().any(|t| t.overlaps(&b.grow(TEXT_GAP)));
+                        if roomy && apart && self.svg.is_free(&b.grow(PAD)) && !b.grow(PAD).crosses(&stub) && !b.grow(PAD).overlaps(&ring) {
                             self.svg.segment((x, y), tip, node, self.pen(false));
                             self.svg.circle(c, 4.0, "#ffffff", Some(self.pen(false)));
                             self.svg.circle((x, y), 3.2, INK, None);
@@ -977,7 +991,7 @@ impl<'a> Sheet<'a> {
                     }
                 }
             }
-            if !self.put(&[text.clone()], &spots, fs, BLUE, "italic") {
+            if !self.put(&[text.clone()], &spots, fs, BLUE, "italic", Some(&net)) {
                 self.notes.push(format!("DC level at {net}: {text}"));
             }
         }

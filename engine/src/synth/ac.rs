@@ -202,7 +202,7 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
     } else {
         "AC coupling into a non-inverting amplifier biased at the output level"
     };
-    let mut stages = vec![Stage { role: StageRole::Coupling, description: "coupling capacitor and bias resistor: block the sensor's DC level and set the amplifier's".to_string(), parts: coupling }];
+    let mut stages = vec![Stage { role: StageRole::Coupling, description: "coupling capacitor and bias resistor: block the sensor's DC level and set the amplifier's input level".to_string(), parts: coupling }];
     if !reference.is_empty() {
         stages.push(Stage { role: StageRole::Reference, description: format!("reference at {} from a divider with its bypass capacitor", v(vref)), parts: reference });
     }

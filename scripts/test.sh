@@ -1,0 +1,30 @@
+#!/usr/bin/env bash
+# Runs every test: installs the toolchain, builds the release bundle (the browser tests
+# load it) and runs `cargo test --workspace`, browser tests included. Any failure fails
+# the whole run with a non-zero exit status.
+set -Eeuo pipefail
+
+ROOT="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
+export PATH="$ROOT/tools/npm/node_modules/.bin:$HOME/.cargo/bin:$PATH"
+cd "$ROOT"
+
+step="start"
+trap 'status=$?; echo; echo "########## TESTS FAILED (step: $step, exit status $status) ##########" >&2; exit $status' ERR
+
+run_step() {
+    step="$1"; shift
+    local t0=$SECONDS
+    echo "==> $step"
+    "$@"
+    echo "<== $step: $((SECONDS - t0)) s"
+}
+
+run_step "install toolchain" "$ROOT/scripts/install.sh"
+run_step "fetch crates" cargo fetch
+run_step "build release bundle" trunk build --release
+step="check bundle"
+test -f dist/index.html || { echo "dist/index.html was not produced" >&2; false; }
+run_step "cargo test --workspace" cargo test --workspace --no-fail-fast
+
+echo
+echo "All tests passed."
