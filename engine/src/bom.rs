@@ -11,8 +11,8 @@
 //!   twice the largest voltage across the part — class-2 ceramics lose capacitance under DC
 //!   bias and electrolytics last longer well below their rating — and 6.3 V at the least.
 //! * **Capacitor kind** (common practice, EIA-198 dielectric classes): C0G/NP0 ceramic up to
-//!   10 nF (stable, no DC-bias loss); in the signal path above that, film up to 10 µF, then
-//!   aluminium electrolytic; off the signal path (reference bypass), X7R ceramic up to 10 µF,
+//!   10 nF (stable, no DC-bias loss); in the signal path above that, film below 10 µF, then
+//!   aluminium electrolytic; off the signal path (reference bypass), X7R ceramic below 10 µF,
 //!   then electrolytic. A polarised capacitor's + terminal goes to the node the operating
 //!   point makes more positive; if the DC across it is under 0.1 V or changes sign over the
 //!   signal swing, a non-polarised type is required instead.
@@ -34,6 +34,10 @@ use crate::values;
 pub const POWER_RATINGS: [f64; 7] = [0.063, 0.1, 0.125, 0.25, 0.5, 1.0, 2.0];
 /// Standard capacitor voltage ratings, V (common practice).
 pub const VOLTAGE_RATINGS: [f64; 12] = [6.3, 10.0, 16.0, 25.0, 35.0, 50.0, 63.0, 100.0, 250.0, 400.0, 630.0, 1000.0];
+/// Capacitors from this value up are aluminium electrolytics (polarised); the schematic
+/// draws them with their + mark (common practice: film and ceramic parts stop being
+/// practical around 10 µF).
+pub const ELECTROLYTIC_FROM: f64 = 10e-6;
 /// Rating margin: a rating at least this many times the stress.
 pub const RATING_MARGIN: f64 = 2.0;
 
@@ -197,7 +201,7 @@ fn capacitor_row(p: &Part, s: &Stress) -> BomRow {
     let v = lo.abs().max(hi.abs());
     let rating = VOLTAGE_RATINGS.iter().copied().find(|&r| r >= RATING_MARGIN * v).unwrap_or(f64::NAN);
     let in_signal_path = matches!(p.stage, StageRole::Coupling | StageRole::Gain);
-    let large = p.value > 10e-6;
+    let large = p.value >= ELECTROLYTIC_FROM;
     let one_sign = (lo > 0.1 && hi > 0.1) || (lo < -0.1 && hi < -0.1);
     let construction = if p.value <= 10e-9 {
         "C0G/NP0 ceramic".to_string()

@@ -5,6 +5,8 @@
 //! rangefit netlist [--testbench] REQUEST.json   SPICE3 netlist of the same circuit
 //! rangefit bom REQUEST.json                 part list as CSV (RFC 4180)
 //! rangefit scaling [--c] REQUEST.json       converter code → sensor quantity (JSON, or a C header)
+//! rangefit link REQUEST.json               the share-link fragment (everything after #)
+//! rangefit open FRAGMENT                    the request a link carries, as JSON
 //! rangefit demo [ID]                        print a demo request (list them without ID)
 //! ```
 //! `REQUEST.json` may be `-` for standard input. A malformed request prints
@@ -31,6 +33,8 @@ pub const USAGE: &str = "usage:
   rangefit netlist [--testbench] REQUEST.json  SPICE3 netlist of the design
   rangefit bom REQUEST.json                  part list as CSV (RFC 4180)
   rangefit scaling [--c] REQUEST.json        converter code to sensor quantity (JSON or a C header)
+  rangefit link REQUEST.json                 share-link fragment (everything after #)
+  rangefit open FRAGMENT                     the request a link or fragment carries, as JSON
   rangefit demo [ID]                         print a demo request (lists them without ID)
 REQUEST.json may be - for standard input.";
 
@@ -79,6 +83,24 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
                     let why: Vec<String> = d.checks.iter().filter(|c| c.severity == crate::diag::Severity::Error).map(|c| c.message.clone()).collect();
                     Outcome { status: 1, stdout: String::new(), stderr: format!("rangefit: no circuit for this request: {}\n", why.join(" ")) }
                 }
+            }
+        }
+        "link" => {
+            let [path] = files.as_slice() else { return fail(format!("link needs exactly one request file\n{USAGE}")) };
+            let text = match read(path) {
+                Ok(t) => t,
+                Err(e) => return fail(format!("cannot read {path}: {e}")),
+            };
+            match Request::from_json(&text) {
+                Ok(r) => ok(crate::share::encode(&r) + "\n"),
+                Err(e) => fail(e.to_string()),
+            }
+        }
+        "open" => {
+            let [fragment] = files.as_slice() else { return fail(format!("open needs exactly one link or fragment\n{USAGE}")) };
+            match crate::share::decode(fragment) {
+                Ok(r) => ok(r.to_json() + "\n"),
+                Err(e) => fail(e.to_string()),
             }
         }
         "demo" => match files.as_slice() {

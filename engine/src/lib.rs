@@ -2,7 +2,7 @@
 //!
 //! The pipeline reads top-down in the module tree:
 //! [`units`] → [`values`] → [`diag`] → [`request`] → [`amplifier`] → [`synth`] → [`circuit`] →
-//! [`solve`] → [`analysis`] → [`design`] (checks and the design result) → [`netlist`], [`bom`], [`scaling`] (exports) →
+//! [`solve`] → [`analysis`] → [`design`] (checks and the design result) → [`netlist`], [`bom`], [`scaling`], [`share`] (exports) →
 //! [`cli`] (the `rangefit` command).
 //!
 //! The engine knows nothing of browsers, the DOM or storage; it builds for the host and
@@ -23,6 +23,7 @@ pub mod draw;
 pub mod netlist;
 pub mod bom;
 pub mod scaling;
+pub mod share;
 pub mod cli;
 pub mod demos;
 

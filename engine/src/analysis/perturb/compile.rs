@@ -1,0 +1,352 @@
+//! Compilation of a circuit into the kernel's index-based systems: which nodes are known,
+//! which unknowns remain (the output's last), where each conductance, amplifier and source
+//! stamps, and the elimination program reused by every build (see [`super`]).
+
+use super::{Col, Elem, KernelError, Src, Step, System};
+use crate::circuit::{Circuit, Part, PartKind};
+use crate::solve::{GM, GMIN};
+
+/// Compile-time context shared by both systems.
+pub(super) struct Ctx<'a> {
+    pub circuit: &'a Circuit,
+    pub part_param: &'a [Option<usize>],
+    pub amp_param: &'a [usize],
+    pub out: &'a str,
+    pub n_params: usize,
+}
+
+impl Ctx<'_> {
+    /// Builds the DC system (`short = false`) or the mid-band system with capacitors shorted.
+    pub fn system(&self, short: bool) -> Result<(System, Vec<(String, Col)>), KernelError> {
+        let c = self.circuit;
+        let err = |m: String| Err(KernelError(m));
+        let names = c.nodes();
+        let at = |s: &str| names.iter().position(|n| n == s).unwrap_or(0);
+        if let Some(p) = c
+            .parts
+            .iter()
+            .find(|p| p.nodes.len() < if p.kind == PartKind::OpAmp { 5 } else { 2 })
+        {
+            return err(format!("{} has too few nodes", p.reference));
+        }
+        // Known potentials: ground, and every node a source ties to ground.
+        let mut known: Vec<Option<(f64, f64)>> = vec![None; names.len()];
+        known[0] = Some((0.0, 0.0));
+        for p in c.parts.iter().filter(|p| p.kind == PartKind::VoltageSource) {
+            let (u, w) = match (p.reference == "VSENSE", short) {
+                (true, _) => (1.0, 0.0),
+                (false, false) => (0.0, p.value),
+                (false, true) => (0.0, 0.0),
+            };
+            let (node, val) = match (at(&p.nodes[0]), at(&p.nodes[1])) {
+                (a, 0) if a != 0 => (a, (u, w)),
+                (0, b) if b != 0 => (b, (-u, -w)),
+                _ => {
+                    return err(format!(
+                        "{} is not a source from a node to ground",
+                        p.reference
+                    ))
+                }
+            };
+            if known[node].replace(val).is_some() {
+                return err(format!("node {} is fixed twice", names[node]));
+            }
+        }
+        // Shorted capacitors join nodes (one across two different known potentials stays open).
+        let mut parent: Vec<usize> = (0..names.len()).collect();
+        fn root(parent: &mut [usize], mut i: usize) -> usize {
+            while parent[i] != i {
+                parent[i] = parent[parent[i]];
+                i = parent[i];
+            }
+            i
+        }
+        for p in c
+            .parts
+            .iter()
+            .filter(|p| short && p.kind == PartKind::Capacitor)
+        {
+            let (ra, rb) = (
+                root(&mut parent, at(&p.nodes[0])),
+                root(&mut parent, at(&p.nodes[1])),
+            );
+            match (known[ra], known[rb]) {
+                _ if ra == rb => {}
+                (Some(x), Some(y)) if x != y => {}
+                (ka, kb) => {
+                    parent[rb] = ra;
+                    known[ra] = ka.or(kb);
+                }
+            }
+        }
+        let roots: Vec<usize> = (0..names.len()).map(|i| root(&mut parent, i)).collect();
+        let amps: Vec<&Part> = c
+            .parts
+            .iter()
+            .filter(|p| p.kind == PartKind::OpAmp)
+            .collect();
+        let mut amp_out: Vec<Option<usize>> = vec![None; names.len()];
+        for (k, p) in amps.iter().enumerate() {
+            let r = roots[at(&p.nodes[4])];
+            if known[r].is_some() || amp_out[r].replace(k).is_some() {
+                return err(format!(
+                    "the output of {} is fixed by another source or amplifier",
+                    p.reference
+                ));
+            }
+        }
+        // Unknowns: the remaining nodes, then one internal node per amplifier; the output last.
+        let mut ord = vec![usize::MAX; names.len()];
+        let mut m = 0;
+        for i in (0..names.len())
+            .filter(|&i| roots[i] == i && known[i].is_none() && amp_out[i].is_none())
+        {
+            ord[i] = m;
+            m += 1;
+        }
+        let n = m + amps.len();
+        let raw_col = |i: usize| match (known[roots[i]], amp_out[roots[i]]) {
+            (Some((u, w)), _) => Col::Known { u, w },
+            (None, Some(k)) => Col::Free(m + k),
+            (None, None) => Col::Free(ord[roots[i]]),
+        };
+        let Some(out_node) = names.iter().position(|nm| nm == self.out) else {
+            return err(format!("the circuit has no node {}", self.out));
+        };
+        let top = n.saturating_sub(1);
+        let last = match raw_col(out_node) {
+            Col::Free(k) => k,
+            Col::Known { .. } => top,
+        };
+        let re = |i: usize| {
+            if i == last {
+                top
+            } else if i == top {
+                last
+            } else {
+                i
+            }
+        };
+        let col = |i: usize| match raw_col(i) {
+            Col::Free(k) => Col::Free(re(k)),
+            known => known,
+        };
+        let row = |i: usize| (ord[roots[i]] != usize::MAX).then(|| re(ord[roots[i]]));
+        let mut s = System {
+            n,
+            base: vec![0.0; n * n],
+            base_u: vec![0.0; n],
+            base_w: vec![0.0; n],
+            elems: Vec::new(),
+            srcs: Vec::new(),
+            out: col(out_node),
+            n_params: self.n_params,
+            compiled: false,
+            steps: Vec::new(),
+            rows: Vec::new(),
+            cols: Vec::new(),
+        };
+        for i in 0..n {
+            s.base[i * n + i] += GMIN;
+        }
+        for (pi, p) in c
+            .parts
+            .iter()
+            .enumerate()
+            .filter(|(_, p)| p.kind == PartKind::Resistor)
+        {
+            let (a, b) = (at(&p.nodes[0]), at(&p.nodes[1]));
+            if roots[a] == roots[b] {
+                continue;
+            }
+            let mut e = Elem {
+                param: 0,
+                r0: p.value,
+                mat: [(0, 0.0); 4],
+                n_mat: 0,
+                rhs: [(0, 0.0, 0.0); 2],
+                n_rhs: 0,
+            };
+            for (this, other) in [(a, b), (b, a)] {
+                let Some(r) = row(this) else { continue };
+                for (node, sign) in [(this, 1.0), (other, -1.0)] {
+                    match col(node) {
+                        Col::Free(k) => {
+                            e.mat[e.n_mat] = (r * n + k, sign);
+                            e.n_mat += 1;
+                        }
+                        Col::Known { u, w } => {
+                            e.rhs[e.n_rhs] = (r, -sign * u, -sign * w);
+                            e.n_rhs += 1;
+                        }
+                    }
+                }
+            }
+            match self.part_param[pi] {
+                Some(k) => s.elems.push(Elem { param: k, ..e }),
+                None => {
+                    let g = 1.0 / p.value.max(1e-9);
+                    for &(k, sg) in &e.mat[..e.n_mat] {
+                        s.base[k] += sg * g;
+                    }
+                    for &(r, cu, cw) in &e.rhs[..e.n_rhs] {
+                        s.base_u[r] += cu * g;
+                        s.base_w[r] += cw * g;
+                    }
+                }
+            }
+        }
+        // Amplifier: −GM·(v+ + Vos − v−) + (GM/A0 + GMIN)·x = 0 on the internal node's row.
+        let amp = &c.amplifier;
+        for (k, p) in amps.iter().enumerate() {
+            let x = re(m + k);
+            for (node, g) in [(at(&p.nodes[0]), -GM), (at(&p.nodes[1]), GM)] {
+                match col(node) {
+                    Col::Free(j) => s.base[x * n + j] += g,
+                    Col::Known { u, w } => {
+                        s.base_u[x] -= g * u;
+                        s.base_w[x] -= g * w;
+                    }
+                }
+            }
+            s.base[x * n + x] += 1.0 / (amp.open_loop_gain / GM);
+            if !short {
+                let b = self.amp_param[k];
+                s.srcs.push(Src {
+                    param: b,
+                    row: x,
+                    coef: GM,
+                });
+                for (j, node) in [(1, at(&p.nodes[0])), (2, at(&p.nodes[1]))] {
+                    if let Some(r) = row(node) {
+                        s.srcs.push(Src {
+                            param: b + j,
+                            row: r,
+                            coef: -1.0,
+                        });
+                    }
+                }
+            }
+        }
+        let nodes = names
+            .iter()
+            .enumerate()
+            .map(|(i, nm)| (nm.clone(), col(i)))
+            .collect();
+        s.compile_program();
+        Ok((s, nodes))
+    }
+}
+
+impl System {
+    /// Chooses the row order by partial pivoting on the nominal build, reorders the stamps
+    /// accordingly and compiles the elimination over the structural non-zeros, keeping only
+    /// what the last row depends on.
+    fn compile_program(&mut self) {
+        let n = self.n;
+        if n == 0 {
+            return;
+        }
+        let zero = vec![0.0; self.n_params];
+        let (mut a, mut u, mut w) = (vec![0.0; n * n], vec![0.0; n], vec![0.0; n]);
+        self.assemble(&zero, &mut a, &mut u, &mut w);
+        let mut order: Vec<usize> = (0..n).collect();
+        for k in 0..n {
+            let piv = (k..n).fold(k, |b, i| {
+                if a[i * n + k].abs() > a[b * n + k].abs() {
+                    i
+                } else {
+                    b
+                }
+            });
+            let mag = a[piv * n + k].abs();
+            if mag == 0.0 || mag.is_nan() {
+                return;
+            }
+            for j in 0..n {
+                a.swap(k * n + j, piv * n + j);
+            }
+            order.swap(k, piv);
+            for i in k + 1..n {
+                let f = a[i * n + k] / a[k * n + k];
+                for j in k..n {
+                    a[i * n + j] -= f * a[k * n + j];
+                }
+            }
+        }
+        // Row r of the assembled system moves to position pos[r].
+        let mut pos = vec![0; n];
+        for (k, &r) in order.iter().enumerate() {
+            pos[r] = k;
+        }
+        let mv = |idx: usize| pos[idx / n] * n + idx % n;
+        let mut base = vec![0.0; n * n];
+        for (idx, v) in self.base.iter().enumerate() {
+            base[mv(idx)] = *v;
+        }
+        self.base = base;
+        self.base_u = (0..n).map(|k| self.base_u[order[k]]).collect();
+        self.base_w = (0..n).map(|k| self.base_w[order[k]]).collect();
+        for e in &mut self.elems {
+            for m in &mut e.mat[..e.n_mat] {
+                m.0 = mv(m.0);
+            }
+            for r in &mut e.rhs[..e.n_rhs] {
+                r.0 = pos[r.0];
+            }
+        }
+        for s in &mut self.srcs {
+            s.row = pos[s.row];
+        }
+        // Structure, fill-in and the rows each pivot updates.
+        let mut nz: Vec<bool> = self.base.iter().map(|v| *v != 0.0).collect();
+        for e in &self.elems {
+            for m in &e.mat[..e.n_mat] {
+                nz[m.0] = true;
+            }
+        }
+        let mut plan = Vec::new();
+        for k in 0..n.saturating_sub(1) {
+            let rows: Vec<usize> = (k + 1..n).filter(|&i| nz[i * n + k]).collect();
+            let cols: Vec<usize> = (k + 1..n).filter(|&j| nz[k * n + j]).collect();
+            for &i in &rows {
+                for &j in &cols {
+                    nz[i * n + j] = true;
+                }
+            }
+            plan.push((k, rows, cols));
+        }
+        let mut needed = vec![false; n];
+        needed[n - 1] = true;
+        for (k, rows, _) in plan.iter_mut().rev() {
+            rows.retain(|&i| needed[i]);
+            needed[*k] = !rows.is_empty();
+        }
+        self.assemble(&zero, &mut a, &mut u, &mut w);
+        for (k, rows, cols) in plan.into_iter().filter(|(k, _, _)| needed[*k]) {
+            let nominal = a[k * n + k].abs();
+            if !(nominal > 0.0 && nominal.is_finite()) {
+                self.steps.clear();
+                return;
+            }
+            let st = Step {
+                k,
+                r0: self.rows.len(),
+                r1: self.rows.len() + rows.len(),
+                c0: self.cols.len(),
+                c1: self.cols.len() + cols.len(),
+                nominal,
+            };
+            for &i in &rows {
+                let f = a[i * n + k] / a[k * n + k];
+                for &j in &cols {
+                    a[i * n + j] -= f * a[k * n + j];
+                }
+            }
+            self.rows.extend(rows);
+            self.cols.extend(cols);
+            self.steps.push(st);
+        }
+        self.compiled = a[n * n - 1] != 0.0;
+    }
+}

@@ -1,0 +1,522 @@
+//! The annotated schematic: SVG structure (W3C SVG 1.1), symbol choices (IEC 60617),
+//! annotation and placement, for the demos and a table of our own scenarios covering every
+//! topology synthesis produces. Sources are named beside each check; "common practice"
+//! marks a rule of the trade rather than a standard.
+//!
+//! Set `RANGEFIT_SVG_DIR` to a directory to have every drawing written there for a look.
+
+use rangefit_engine::amplifier::{Amplifier, Rails};
+use rangefit_engine::circuit::{Builder, Circuit, PartKind, StageRole};
+use rangefit_engine::draw::schematic::{schematic, test_points, Schematic, SchematicConfig};
+use rangefit_engine::draw::svg::{BoxRect, Segment};
+use rangefit_engine::request::Request;
+use rangefit_engine::solve::Solver;
+use rangefit_engine::synth::{self, dc::Template, Limits};
+use rangefit_engine::units::{format, Quantity};
+use rangefit_engine::{demos, design};
+
+/// A request of our own scenario (sensor range, coupling, band, converter range, supplies).
+#[allow(clippy::too_many_arguments)]
+fn request(name: &str, min: f64, max: f64, coupling: &str, band: (f64, f64), dest: (f64, f64), supplies: &str, keep_polarity: bool) -> String {
+    format!(
+        r#"{{"version":1,"name":"{name}","source":{{"kind":"single_ended","min":{min},"max":{max},"coupling":"{coupling}","impedance":"1k","band_low":{},"band_high":{}}},
+        "destination":{{"min":{},"max":{},"bits":12,"sample_rate":"100 kHz","impedance":"100k"}},"supplies":{supplies},"keep_polarity":{keep_polarity}}}"#,
+        band.0, band.1, dest.0, dest.1
+    )
+}
+
+/// The circuit `design` makes for `json`.
+fn designed(json: &str) -> (Request, Circuit, String) {
+    let req = Request::from_json(json).unwrap_or_else(|e| panic!("request does not read: {e}\n{json}"));
+    let d = design(&req);
+    let c = d.circuit.clone().unwrap_or_else(|| panic!("{}: no circuit: {:?}", req.name, d.checks));
+    (req, c, d.topology)
+}
+
+/// The circuit one DC template makes for `json` (to reach the inverting stages directly).
+fn forced(json: &str, template: Template) -> (Request, Circuit, String) {
+    let req = Request::from_json(json).unwrap_or_else(|e| panic!("request does not read: {e}"));
+    let rails = Rails::choose(&req);
+    let amp = Amplifier::resolve(&req.amplifier, rails);
+    let mut notes = Vec::new();
+    let t = synth::target(&req, &amp, rails, &mut notes).expect("target");
+    let s = synth::dc::synthesize_with(&req, &amp, rails, t, Limits::of(&amp, rails), &[template])
+        .unwrap_or_else(|| panic!("{}: no {template:?} design", req.name));
+    (req, s.circuit, s.topology)
+}
+
+/// Draws `c` as the application does: operating point at the sensor's mid-range.
+fn draw(req: &Request, c: &Circuit, name: &str) -> Schematic {
+    let mid = 0.5 * (req.source.min + req.source.max);
+    let op = Solver::new(c).dc(mid).ok();
+    let tps = test_points(req, c);
+    let s = schematic(c, op.as_ref(), &tps, name, &SchematicConfig::default());
+    if let Ok(dir) = std::env::var("RANGEFIT_SVG_DIR") {
+        let file: String = name
+            .chars()
+            .map(|ch| {
+                if ch.is_ascii_alphanumeric() {
+                    ch
+                } else if ch == '+' {
+                    'P'
+                } else if ch == '−' {
+                    'M'
+                } else {
+                    '-'
+                }
+            })
+            .collect();
+        let _ = std::fs::write(format!("{dir}/{file}.svg"), &s.svg);
+    }
+    s
+}
+
+fn texts(doc: &roxmltree::Document) -> Vec<String> {
+    doc.descendants().filter(|n| n.has_tag_name("text")).map(|n| n.text().unwrap_or("").to_string()).collect()
+}
+
+fn num(n: &roxmltree::Node, attr: &str) -> f64 {
+    n.attribute(attr).and_then(|v| v.parse().ok()).unwrap_or(f64::NAN)
+}
+
+fn overlap(a: &BoxRect, b: &BoxRect) -> bool {
+    a.x < b.x + b.w && b.x < a.x + a.w && a.y < b.y + b.h && b.y < a.y + a.h
+}
+
+/// Closed segments share a point.
+fn meet(a: &Segment, b: &Segment) -> bool {
+    let o = |ax: f64, ay: f64, bx: f64, by: f64, cx: f64, cy: f64| (bx - ax) * (cy - ay) - (by - ay) * (cx - ax);
+    let within =
+        |s: &Segment, x: f64, y: f64| x >= s.x1.min(s.x2) - 1e-9 && x <= s.x1.max(s.x2) + 1e-9 && y >= s.y1.min(s.y2) - 1e-9 && y <= s.y1.max(s.y2) + 1e-9;
+    let (d1, d2) = (o(b.x1, b.y1, b.x2, b.y2, a.x1, a.y1), o(b.x1, b.y1, b.x2, b.y2, a.x2, a.y2));
+    let (d3, d4) = (o(a.x1, a.y1, a.x2, a.y2, b.x1, b.y1), o(a.x1, a.y1, a.x2, a.y2, b.x2, b.y2));
+    if d1 * d2 < 0.0 && d3 * d4 < 0.0 {
+        return true;
+    }
+    (d1 == 0.0 && within(b, a.x1, a.y1)) || (d2 == 0.0 && within(b, a.x2, a.y2)) || (d3 == 0.0 && within(a, b.x1, b.y1)) || (d4 == 0.0 && within(a, b.x2, b.y2))
+}
+
+/// The segment passes through the box (edges included).
+fn crosses(b: &BoxRect, s: &Segment) -> bool {
+    let inside = |x: f64, y: f64| x >= b.x && x <= b.x + b.w && y >= b.y && y <= b.y + b.h;
+    if inside(s.x1, s.y1) || inside(s.x2, s.y2) {
+        return true;
+    }
+    let e = |x1: f64, y1: f64, x2: f64, y2: f64| Segment { x1, y1, x2, y2, net: String::new() };
+    let (x0, y0, x1, y1) = (b.x, b.y, b.x + b.w, b.y + b.h);
+    [e(x0, y0, x1, y0), e(x1, y0, x1, y1), e(x1, y1, x0, y1), e(x0, y1, x0, y0)].iter().any(|edge| meet(s, edge))
+}
+
+/// Points where three or more wire ends of one net meet (a T counts the through wire twice).
+fn junctions(wires: &[Segment]) -> Vec<(f64, f64)> {
+    let same = |a: (f64, f64), b: (f64, f64)| (a.0 - b.0).abs() < 1e-6 && (a.1 - b.1).abs() < 1e-6;
+    let mut out: Vec<(f64, f64)> = Vec::new();
+    let nets: Vec<&Segment> = wires.iter().filter(|w| !w.net.is_empty()).collect();
+    for w in &nets {
+        for p in [(w.x1, w.y1), (w.x2, w.y2)] {
+            let mut n = 0;
+            for o in nets.iter().filter(|o| o.net == w.net) {
+                if same(p, (o.x1, o.y1)) || same(p, (o.x2, o.y2)) {
+                    n += 1;
+                } else if meet(o, &Segment { x1: p.0, y1: p.1, x2: p.0, y2: p.1, net: String::new() }) {
+                    n += 2;
+                }
+            }
+            if n >= 3 && !out.iter().any(|q| same(*q, p)) {
+                out.push(p);
+            }
+        }
+    }
+    out
+}
+
+/// The one check of a drawing: structure, readability, annotation and placement; with the
+/// request also the design's own numbers (DC levels, test points, rails), each beside its
+/// part, rail or net rather than in the notes under the drawing.
+fn check(what: &str, c: &Circuit, s: &Schematic, req: Option<&Request>) {
+    // W3C SVG 1.1: well-formed XML with an `svg` root in the SVG namespace, width, height and viewBox.
+    let doc = roxmltree::Document::parse(&s.svg).unwrap_or_else(|e| panic!("{what}: not XML: {e}"));
+    let root = doc.root_element();
+    assert!(root.has_tag_name(("http://www.w3.org/2000/svg", "svg")), "{what}: root is not svg:svg");
+    let view: Vec<f64> = root.attribute("viewBox").unwrap_or_else(|| panic!("{what}: no viewBox")).split_whitespace().map(|v| v.parse().unwrap()).collect();
+    assert_eq!(view.len(), 4, "{what}: viewBox {view:?}");
+    assert_eq!((num(&root, "width"), num(&root, "height")), (view[2], view[3]), "{what}: width/height differ from the viewBox");
+    // Standalone (W3C SVG 1.1 linking and scripting): no script, no external reference, no event handler.
+    for n in doc.descendants().filter(|n| n.is_element()) {
+        let tag = n.tag_name().name();
+        assert!(!["script", "image", "use", "foreignObject", "a", "style"].contains(&tag), "{what}: element <{tag}>");
+        for a in n.attributes() {
+            assert!(!a.name().contains("href") && !a.name().starts_with("on"), "{what}: attribute {}", a.name());
+            assert!(!a.value().contains("url("), "{what}: reference in {}", a.name());
+        }
+    }
+    // Readable printed on A4 or Letter (common practice): at most 1100 × 700 user units,
+    // text 12 px or more, strokes 1.5 px or more, a white background.
+    assert!(view[2] <= 1100.0 && view[3] <= 700.0, "{what}: viewBox {} × {} is larger than 1100 × 700", view[2], view[3]);
+    for n in doc.descendants().filter(|n| n.has_tag_name("text")) {
+        let size = num(&n, "font-size");
+        assert!((12.0..=18.0).contains(&size), "{what}: text {:?} at {size} px", n.text());
+    }
+    for n in doc.descendants().filter(|n| n.attribute("stroke-width").is_some()) {
+        assert!(num(&n, "stroke-width") >= 1.5, "{what}: stroke width {:?}", n.attribute("stroke-width"));
+    }
+    let bg = doc.descendants().find(|n| n.has_tag_name("rect")).expect("background");
+    assert_eq!(bg.attribute("fill"), Some("#ffffff"), "{what}: first rect is not a white background");
+
+    let words = texts(&doc);
+    // Every part to build carries its designator and its value with unit (common practice).
+    for p in c.build_parts() {
+        assert!(words.contains(&p.reference), "{what}: no text {}", p.reference);
+        let value = match p.kind {
+            PartKind::Resistor => format(p.value, Quantity::Resistance),
+            PartKind::Capacitor => format(p.value, Quantity::Capacitance),
+            PartKind::OpAmp => format(p.value, Quantity::Frequency),
+            PartKind::VoltageSource => format(p.value, Quantity::Voltage),
+        };
+        assert!(words.iter().any(|w| w.contains(&value)), "{what}: no text with {value} for {}", p.reference);
+    }
+    // The bench is drawn distinct from the parts to build: grey text.
+    for n in doc.descendants().filter(|n| n.has_tag_name("text")) {
+        let t = n.text().unwrap_or("");
+        if c.parts.iter().any(|p| p.bench && p.reference == t) {
+            assert_ne!(n.attribute("fill"), Some("#000000"), "{what}: bench part {t} drawn in black");
+        }
+    }
+    // IEC 60617: a resistor is a rectangle, the amplifier a triangle.
+    let polys: Vec<usize> =
+        doc.descendants().filter(|n| n.has_tag_name("polygon")).map(|n| n.attribute("points").unwrap_or("").split_whitespace().count()).collect();
+    let resistors = c.parts.iter().filter(|p| p.kind == PartKind::Resistor).count();
+    assert!(polys.iter().filter(|&&k| k == 4).count() >= resistors, "{what}: fewer rectangles than resistors");
+    let amps = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.nodes.len() >= 5).count();
+    assert!(polys.iter().filter(|&&k| k == 3).count() >= amps.min(1), "{what}: no triangle for the amplifier");
+
+    // Placement: the record matches the document; no two texts overlap; no text touches a
+    // stroke; wires of different nets never meet (they would read as a connection).
+    assert_eq!(s.texts.len(), words.len(), "{what}: recorded texts differ from the document");
+    for (i, a) in s.texts.iter().enumerate() {
+        for b in &s.texts[i + 1..] {
+            assert!(!overlap(a, b), "{what}: text {:?} overlaps {:?}", a.text, b.text);
+        }
+        for w in &s.wires {
+            assert!(!crosses(a, w), "{what}: text {:?} crosses the stroke {w:?}", a.text);
+        }
+        assert!(
+            a.x >= view[0] && a.y >= view[1] && a.x + a.w <= view[0] + view[2] && a.y + a.h <= view[1] + view[3],
+            "{what}: text {:?} outside the view",
+            a.text
+        );
+    }
+    let nets: Vec<&Segment> = s.wires.iter().filter(|w| !w.net.is_empty()).collect();
+    for (i, a) in nets.iter().enumerate() {
+        for b in &nets[i + 1..] {
+            assert!(a.net == b.net || !meet(a, b), "{what}: wire of {} meets wire of {}: {a:?} {b:?}", a.net, b.net);
+        }
+    }
+    // A dot at every junction and nowhere else (IEC 60617: junction of conductors).
+    let dots: Vec<(f64, f64)> =
+        doc.descendants().filter(|n| n.has_tag_name("circle") && n.attribute("fill") == Some("#000000")).map(|n| (num(&n, "cx"), num(&n, "cy"))).collect();
+    let joins = junctions(&s.wires);
+    for j in &joins {
+        assert!(dots.iter().any(|d| (d.0 - j.0).abs() < 0.06 && (d.1 - j.1).abs() < 0.06), "{what}: no dot at the junction {j:?}");
+    }
+    for d in &dots {
+        assert!(joins.iter().any(|j| (d.0 - j.0).abs() < 0.06 && (d.1 - j.1).abs() < 0.06), "{what}: dot at {d:?} is no junction");
+    }
+    // The surroundings: the sensor in a dashed box, the converter input as a box "ADC".
+    assert!(words.iter().any(|w| w == "sensor") && words.iter().any(|w| w == "ADC"), "{what}: no sensor or ADC block");
+    assert!(doc.descendants().any(|n| n.attribute("stroke-dasharray").is_some()), "{what}: no dashed sensor box");
+    let Some(req) = req else { return };
+    for w in &words {
+        assert!(!w.contains("(no free place") && !w.starts_with("DC level at ") && !w.contains(" (node "), "{what}: moved to the notes: {w}");
+    }
+    let op = Solver::new(c).dc(0.5 * (req.source.min + req.source.max)).unwrap();
+    for node in ["ref", "inp1", "inn1", "adc", "sense", "cin1", "rg1"] {
+        if let Some(v) = op.voltage(node) {
+            let t = format(v, Quantity::Voltage);
+            let zero = v.abs() < 1e-5 * (c.rail_pos - c.rail_neg) && words.iter().any(|w| w == "0 V");
+            assert!(words.contains(&t) || zero, "{what}: no DC level {t} for {node}");
+        }
+    }
+    for tp in test_points(req, c) {
+        assert!(words.iter().any(|w| w.starts_with(&format!("{} ", tp.label))), "{what}: no {} on the drawing", tp.label);
+    }
+    for rail in c.parts.iter().filter(|p| p.stage == StageRole::Supply) {
+        assert!(words.iter().any(|w| w.starts_with(&format!("{} ", rail.reference))), "{what}: no rail label {}", rail.reference);
+    }
+}
+
+#[test]
+fn demos_draw_cleanly() {
+    for demo in demos::ALL {
+        let (req, c, _) = designed(demo.json);
+        let s = draw(&req, &c, demo.id);
+        check(demo.id, &c, &s, Some(&req));
+    }
+}
+
+/// A scenario: what it covers, its design (request, circuit, topology), the topology expected
+/// and nodes that must exist.
+type Row = (&'static str, (Request, Circuit, String), &'static str, &'static [&'static str]);
+
+#[test]
+fn every_topology_draws_cleanly() {
+    // Our own scenarios; the expected topology names what each row covers.
+    let rows: Vec<Row> = vec![
+        (
+            "offset at the + input",
+            designed(&request("offset at +", -1.0, 1.0, "dc", (0.0, 100.0), (0.0, 3.3), "[3.3]", true)),
+            "offset summed into its + input",
+            &["inp1", "inn1"],
+        ),
+        (
+            "offset at the − input",
+            designed(&request("offset at -", 0.5, 2.5, "dc", (0.0, 100.0), (0.0, 3.3), "[3.3]", true)),
+            "negative offset from the positive rail",
+            &["inn1"],
+        ),
+        (
+            "offset from the negative rail",
+            designed(&request("negative rail", 0.0, 1.0, "dc", (0.0, 100.0), (-3.0, 3.0), "[5, -5]", false)),
+            "offset summed into its + input",
+            &["vneg"],
+        ),
+        (
+            "divider into a buffer, dual supply",
+            designed(&request("divider buffer", -4.0, 4.0, "dc", (0.0, 100.0), (-2.0, 2.0), "[5, -5]", true)),
+            "divider into a buffer",
+            &["vneg", "inp1"],
+        ),
+        (
+            "summing divider into a buffer",
+            designed(&request("summing buffer", 0.165, 3.135, "dc", (0.0, 100.0), (0.0, 3.3), "[3.3]", true)),
+            "buffer",
+            &["inp1"],
+        ),
+        (
+            "sensor straight into the + input, dual supply",
+            designed(&request("direct", -0.5, 0.5, "dc", (0.0, 100.0), (-4.0, 4.0), "[5, -5]", true)),
+            "non-inverting amplifier",
+            &["inn1", "vneg"],
+        ),
+        ("polarity may flip", designed(&request("free polarity", 0.0, 2.0, "dc", (0.0, 100.0), (0.0, 3.3), "[3.3]", false)), "amplifier", &["adc"]),
+        (
+            "inverting, + input on a divider",
+            forced(&request("inverting divider", 0.0, 2.0, "dc", (0.0, 100.0), (0.0, 3.3), "[3.3]", false), Template::InvertingPlus),
+            "inverting amplifier with its + input on a divider",
+            &["inn1", "inp1"],
+        ),
+        (
+            "inverting, + input at ground",
+            forced(&request("inverting ground", -1.0, 1.0, "dc", (0.0, 100.0), (-2.0, 2.0), "[5, -5]", false), Template::InvertingPlus),
+            "inverting amplifier",
+            &["inn1"],
+        ),
+        (
+            "inverting summer from the negative rail",
+            forced(&request("inverting summer", 0.0, 2.0, "dc", (0.0, 100.0), (0.0, 3.3), "[5, -5]", false), Template::InvertingSum),
+            "inverting summer",
+            &["inn1", "vneg"],
+        ),
+        (
+            "AC attenuator and buffer",
+            designed(&request("ac attenuator", -2.0, 2.0, "ac", (10.0, 1000.0), (0.0, 3.3), "[3.3]", true)),
+            "attenuator and buffer",
+            &["cin1", "ref"],
+        ),
+        ("AC buffer", designed(&request("ac buffer", -1.485, 1.485, "ac", (10.0, 1000.0), (0.0, 3.3), "[3.3]", true)), "into a buffer", &["ref"]),
+        (
+            "AC amplifier, bias to ground, dual supply",
+            designed(&request("ac ground bias", 1.0, 1.2, "ac", (10.0, 1000.0), (-2.0, 2.0), "[5, -5]", true)),
+            "non-inverting amplifier",
+            &["rg1", "vneg"],
+        ),
+        (
+            "AC amplifier, polarised capacitors",
+            designed(&request("ac polarised", 1.1, 1.3, "ac", (1.0, 1000.0), (0.0, 3.3), "[3.3]", true)),
+            "non-inverting amplifier",
+            &["ref", "rg1"],
+        ),
+    ];
+    for (what, (req, c, topology), expect, nodes) in &rows {
+        assert!(topology.contains(expect), "{what}: topology {topology:?}, expected {expect:?}");
+        let all = c.nodes();
+        for n in *nodes {
+            assert!(all.iter().any(|m| m == n), "{what}: no node {n} (nodes {all:?})");
+        }
+        let s = draw(req, c, what);
+        check(what, c, &s, Some(req));
+        // Nothing of the design lands in the fallback area.
+        assert!(!texts(&roxmltree::Document::parse(&s.svg).unwrap()).iter().any(|t| t.starts_with("Not placed")), "{what}: a part fell back");
+    }
+}
+
+#[test]
+fn user_text_is_escaped() {
+    // W3C XML 1.0 §2.4: "<" and "&" in character data must be escaped.
+    let names = ["<img src=x onerror=alert(1)>", "R&D \"quoted\" 'single'", "tab\tand\u{1}control", "]]> & <![CDATA["];
+    for name in names {
+        let (req, c, _) = designed(
+            &demos::ALL[0]
+                .json
+                .replace("Harbour hydrophone tap", &name.replace('\\', "\\\\").replace('"', "\\\"").replace('\t', "\\t").replace('\u{1}', "\\u0001")),
+        );
+        let s = draw(&req, &c, name);
+        let doc = roxmltree::Document::parse(&s.svg).unwrap_or_else(|e| panic!("{name:?}: not XML: {e}"));
+        assert!(!doc.descendants().any(|n| n.has_tag_name("img")), "{name:?}: became an element");
+        let kept: String = name.chars().filter(|c| !c.is_control() || *c == '\t').map(|c| if c == '\t' { ' ' } else { c }).collect();
+        assert!(texts(&doc).contains(&kept), "{name:?}: title text missing");
+        let title = doc.descendants().find(|n| n.has_tag_name("title")).and_then(|n| n.text()).unwrap_or("");
+        assert_eq!(title, kept, "{name:?}: <title>");
+        check(name, &c, &s, Some(&req));
+    }
+}
+
+#[test]
+fn polarised_capacitor_plus_faces_the_higher_dc_level() {
+    // IEC 60617: a polarised capacitor carries "+" at its positive plate. Sensor DC 1.2 V,
+    // amplifier input at the reference (about 1.65 V): "+" on the amplifier side of C1.
+    // A band reaching down to 0.1 Hz makes C1 large enough to be an electrolytic.
+    let (req, c, _) = designed(&request("polarised coupling", 1.1, 1.3, "ac", (0.1, 1000.0), (0.0, 3.3), "[3.3]", true));
+    let c1 = c.part("C1").expect("C1");
+    assert!(c1.value >= rangefit_engine::bom::ELECTROLYTIC_FROM, "C1 is {} F, not polarised", c1.value);
+    let op = Solver::new(&c).dc(1.2).unwrap();
+    let (lo, hi) = (c1.nodes[0].clone(), c1.nodes[1].clone());
+    let (lo, hi) = if op.voltage(&lo) < op.voltage(&hi) { (lo, hi) } else { (hi, lo) };
+    assert!(op.voltage(&hi).unwrap() - op.voltage(&lo).unwrap() > 0.3, "C1 sits between {lo} and {hi} at nearly the same level");
+    let s = draw(&req, &c, "polarised coupling");
+    // C1's leads: a wire end of each net facing the other across the plates.
+    let ends = |net: &str| -> Vec<(f64, f64)> { s.wires.iter().filter(|w| w.net == net).flat_map(|w| [(w.x1, w.y1), (w.x2, w.y2)]).collect() };
+    let mut pair = None;
+    for a in ends(&lo) {
+        for b in ends(&hi) {
+            let d = (a.0 - b.0).hypot(a.1 - b.1);
+            if d > 0.0 && d <= 10.0 {
+                pair = Some((a, b));
+            }
+        }
+    }
+    let (a, b) = pair.expect("C1's plates not found between its two nets");
+    let mid = ((a.0 + b.0) / 2.0, (a.1 + b.1) / 2.0);
+    let centre = |t: &BoxRect| (t.x + t.w / 2.0, t.y + t.h / 2.0);
+    let plus = s.texts.iter().filter(|t| t.text == "+").min_by(|p, q| {
+        let (cp, cq) = (centre(p), centre(q));
+        (cp.0 - mid.0).hypot(cp.1 - mid.1).total_cmp(&(cq.0 - mid.0).hypot(cq.1 - mid.1))
+    });
+    let p = centre(plus.expect("no + mark"));
+    assert!((p.0 - mid.0).hypot(p.1 - mid.1) < 30.0, "the nearest + mark is far from C1");
+    assert!((p.0 - b.0).hypot(p.1 - b.1) < (p.0 - a.0).hypot(p.1 - a.1), "+ of C1 is on the {lo} side, not on {hi}");
+    check("polarised coupling", &c, &s, Some(&req));
+}
+
+#[test]
+fn test_points_follow_the_solver() {
+    // TP1 sensor terminal, TP2 (AC) amplifier + input, TP3 converter input; the converter's
+    // range is the design's own prediction (same solver, computed apart in design::predict).
+    for demo in demos::ALL {
+        let (req, c, _) = designed(demo.json);
+        let d = design(&req);
+        let p = d.predicted.expect("predicted");
+        let tps = test_points(&req, &c);
+        let ac = req.source.coupling == rangefit_engine::request::Coupling::Ac;
+        let want: Vec<&str> = if ac { vec!["sense", "inp1", "adc"] } else { vec!["sense", "adc"] };
+        assert_eq!(tps.iter().map(|t| t.node.as_str()).collect::<Vec<_>>(), want, "{}", demo.id);
+        for (k, t) in tps.iter().enumerate() {
+            assert_eq!(t.label, format!("TP{}", k + 1), "{}", demo.id);
+            assert!(t.min <= t.max, "{}: {} range reversed", demo.id, t.label);
+        }
+        let out = tps.last().unwrap();
+        let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
+        assert!((out.min - lo).abs() < 1e-6 && (out.max - hi).abs() < 1e-6, "{}: converter range {} … {} vs predicted {lo} … {hi}", demo.id, out.min, out.max);
+        // The sensor terminal follows the sensor (loaded at most by a few per cent).
+        let span = req.source.max - req.source.min;
+        assert!((tps[0].max - tps[0].min - span).abs() < 0.05 * span, "{}: TP1 span {} vs sensor span {span}", demo.id, tps[0].max - tps[0].min);
+    }
+}
+
+/// A circuit built part by part for the robustness rows.
+fn odd(build: impl Fn(&mut Builder)) -> Circuit {
+    let (_, base, _) = designed(demos::ALL[0].json);
+    let mut b = Builder::default();
+    build(&mut b);
+    Circuit { parts: b.parts, stages: vec![], amplifier: base.amplifier, rail_pos: 3.3, rail_neg: 0.0 }
+}
+
+#[test]
+fn odd_circuits_never_panic_and_parts_are_never_dropped() {
+    let (req, harbour, _) = designed(demos::ALL[0].json);
+    let mut extra = harbour.clone();
+    let mut b = Builder::default();
+    b.add(PartKind::Resistor, 2.2e6, None, &["inp1", "adc"], StageRole::Gain, "positive feedback");
+    b.add(PartKind::OpAmp, 1e6, None, &["x1", "x2", "vpos", "0", "x3"], StageRole::Gain, "second stage");
+    b.add(PartKind::Capacitor, 1e-9, None, &["x3", "x1"], StageRole::Gain, "filter");
+    for (p, name) in b.parts.iter_mut().zip(["R9", "U2", "C9"]) {
+        p.reference = name.to_string();
+    }
+    extra.parts.extend(b.parts);
+    let rows: Vec<(&str, Circuit, bool)> = vec![
+        ("extra parts off the roles", extra, true),
+        ("empty", odd(|_| {}), true),
+        (
+            "no amplifier",
+            odd(|b| {
+                b.add(PartKind::Resistor, 1e3, None, &["sense", "adc"], StageRole::Gain, "");
+            }),
+            true,
+        ),
+        (
+            "short node lists",
+            odd(|b| {
+                b.add(PartKind::Resistor, 1e3, None, &["sense"], StageRole::Gain, "");
+                b.add(PartKind::OpAmp, 1e6, None, &["a", "b"], StageRole::Gain, "");
+                b.add(PartKind::Capacitor, 1e-9, None, &[], StageRole::Gain, "");
+            }),
+            true,
+        ),
+        (
+            "values that are not numbers",
+            odd(|b| {
+                b.add(PartKind::Resistor, f64::NAN, None, &["sense", "inp1"], StageRole::Gain, "");
+                b.add(PartKind::Capacitor, f64::INFINITY, None, &["inp1", "0"], StageRole::Gain, "");
+                b.add(PartKind::OpAmp, -1.0, None, &["inp1", "adc", "vpos", "0", "adc"], StageRole::Gain, "");
+            }),
+            false,
+        ),
+        (
+            "hostile node names",
+            odd(|b| {
+                b.add(PartKind::Resistor, 1e3, None, &["<a&b>", "\"q\""], StageRole::Gain, "");
+                b.add(PartKind::OpAmp, 1e6, None, &["<a&b>", "adc", "vpos", "0", "adc"], StageRole::Gain, "");
+            }),
+            true,
+        ),
+        (
+            "self loop",
+            odd(|b| {
+                b.add(PartKind::Resistor, 1e3, None, &["inp1", "inp1"], StageRole::Gain, "");
+                b.add(PartKind::OpAmp, 1e6, None, &["inp1", "inp1", "inp1", "inp1", "inp1"], StageRole::Gain, "");
+            }),
+            false,
+        ),
+    ];
+    for (what, c, strict) in rows {
+        let tps = test_points(&req, &c);
+        // The solver wants whole node lists; the drawing must cope without an operating point.
+        let whole = c.nodes().len() > 1 && c.parts.iter().all(|p| p.nodes.len() >= if p.kind == PartKind::OpAmp { 5 } else { 2 });
+        let op = if whole { Solver::new(&c).dc(1.2).ok() } else { None };
+        for cfg in [SchematicConfig::default(), SchematicConfig { title: false, dc_levels: false, font_size: f64::NAN, line_width: 0.0, polarised_from: 0.0 }] {
+            let s = schematic(&c, op.as_ref(), &tps, what, &cfg);
+            if let (Ok(dir), true) = (std::env::var("RANGEFIT_SVG_DIR"), cfg.title) {
+                let _ = std::fs::write(format!("{dir}/odd-{}.svg", what.replace(' ', "-")), &s.svg);
+            }
+            let doc = roxmltree::Document::parse(&s.svg).unwrap_or_else(|e| panic!("{what}: not XML: {e}"));
+            let words = texts(&doc);
+            for p in &c.parts {
+                // A rail is drawn as its bar labelled "VPOS +3.3 V".
+                assert!(words.iter().any(|w| *w == p.reference || w.starts_with(&format!("{} ", p.reference))), "{what}: part {} dropped", p.reference);
+            }
+            if strict {
+                check(what, &c, &s, None);
+            }
+        }
+    }
+}
