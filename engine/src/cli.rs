@@ -3,6 +3,9 @@
 //! ```text
 //! rangefit design REQUEST.json              JSON: normalised request, stages, parts, predicted, checks
 //! rangefit netlist [--testbench] REQUEST.json   SPICE3 netlist of the same circuit
+//! rangefit schematic REQUEST.json           annotated schematic (SVG)
+//! rangefit plot {response|transfer|tolerance|noise} REQUEST.json   one plot (SVG)
+//! rangefit report REQUEST.json              printable report (self-contained HTML)
 //! rangefit bom REQUEST.json                 part list as CSV (RFC 4180)
 //! rangefit scaling [--c] REQUEST.json       converter code → sensor quantity (JSON, or a C header)
 //! rangefit link REQUEST.json               the share-link fragment (everything after #)
@@ -31,6 +34,9 @@ pub struct Outcome {
 pub const USAGE: &str = "usage:
   rangefit design REQUEST.json               design the interface; prints JSON
   rangefit netlist [--testbench] REQUEST.json  SPICE3 netlist of the design
+  rangefit schematic REQUEST.json            annotated schematic (SVG)
+  rangefit plot {response|transfer|tolerance|noise} REQUEST.json   one plot (SVG)
+  rangefit report REQUEST.json               printable report (self-contained HTML)
   rangefit bom REQUEST.json                  part list as CSV (RFC 4180)
   rangefit scaling [--c] REQUEST.json        converter code to sensor quantity (JSON or a C header)
   rangefit link REQUEST.json                 share-link fragment (everything after #)
@@ -47,7 +53,21 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
     let flags: Vec<&str> = rest.iter().filter(|a| a.starts_with("--")).map(|a| a.as_str()).collect();
     let files: Vec<&str> = rest.iter().filter(|a| !a.starts_with("--")).map(|a| a.as_str()).collect();
     match cmd.as_str() {
-        "design" | "netlist" | "bom" | "scaling" => {
+        "design" | "netlist" | "bom" | "scaling" | "schematic" | "report" | "plot" => {
+            // `plot` takes the plot's name before the request file.
+            let (which, files): (Option<&str>, Vec<&str>) = if cmd == "plot" {
+                match files.split_first() {
+                    Some((w, rest)) => (Some(*w), rest.to_vec()),
+                    None => return fail(format!("plot needs a plot name (response, transfer, tolerance or noise) and a request file\n{USAGE}")),
+                }
+            } else {
+                (None, files.clone())
+            };
+            if let Some(w) = which {
+                if !["response", "transfer", "tolerance", "noise"].contains(&w) {
+                    return fail(format!("unknown plot {w}; choose response, transfer, tolerance or noise"));
+                }
+            }
             let allowed: &[&str] = match cmd.as_str() {
                 "netlist" => &["--testbench"],
                 "scaling" => &["--c"],
@@ -72,6 +92,27 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
             if cmd == "scaling" {
                 if let Some(sc) = &d.scaling {
                     return ok(if flags.contains(&"--c") { crate::scaling::c_header(&d, sc) } else { serde_json::to_string_pretty(sc).unwrap_or_default() + "\n" });
+                }
+            }
+            if cmd == "report" {
+                return ok(crate::report::report(&d));
+            }
+            if let Some(w) = which {
+                use crate::draw::plot;
+                let cfg = plot::PlotConfig::default();
+                let p = match w {
+                    "response" => plot::response(&d, &cfg),
+                    "transfer" => plot::transfer(&d, &cfg),
+                    "tolerance" => plot::tolerance(&d, &cfg),
+                    _ => plot::noise(&d, &cfg),
+                };
+                if let Some(p) = p {
+                    return ok(p.svg);
+                }
+            }
+            if cmd == "schematic" {
+                if let Some(s) = crate::draw::schematic::of_design(&d, &crate::draw::schematic::SchematicConfig::default()) {
+                    return ok(s.svg);
                 }
             }
             if cmd == "bom" && d.circuit.is_some() {

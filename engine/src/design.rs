@@ -216,18 +216,19 @@ pub fn predict(req: &Request, c: &Circuit) -> Option<Predicted> {
 }
 
 /// −3 dB points relative to `reference` magnitude, searched below `low_from` (if given) and
-/// above `high_from` on a log grid of 40 points per decade, then refined by bisection.
+/// above `high_from` on a log grid of 10 points per decade, then refined by bisection.
 fn corners(solver: &Solver, reference: f64, low_from: Option<f64>, high_from: f64) -> (Option<f64>, Option<f64>) {
     let level = reference / std::f64::consts::SQRT_2;
     let mag = |f: f64| solver.transfer(f, "adc").map(|h| h.norm()).unwrap_or(0.0);
     let search = |start: f64, step: f64, decades: f64| -> Option<f64> {
-        let n = (decades * 40.0) as usize;
+        let n = (decades * 10.0) as usize;
         let mut f_prev = start;
         for i in 1..=n {
-            let f = start * 10f64.powf(step * i as f64 / 40.0);
+            let f = start * 10f64.powf(step * i as f64 / 10.0);
             if mag(f) < level {
                 let (mut a, mut b) = (f_prev.ln(), f.ln());
-                for _ in 0..50 {
+                // 30 halvings of a tenth of a decade: relative precision below 1e-9.
+                for _ in 0..30 {
                     let c = 0.5 * (a + b);
                     if mag(c.exp()) < level {
                         b = c;

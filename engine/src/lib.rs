@@ -2,7 +2,7 @@
 //!
 //! The pipeline reads top-down in the module tree:
 //! [`units`] → [`values`] → [`diag`] → [`request`] → [`amplifier`] → [`synth`] → [`circuit`] →
-//! [`solve`] → [`analysis`] → [`design`] (checks and the design result) → [`netlist`], [`bom`], [`scaling`], [`share`] (exports) →
+//! [`solve`] → [`analysis`] → [`design`] (checks and the design result) → [`netlist`], [`bom`], [`scaling`], [`share`], [`draw`], [`report`] (exports) →
 //! [`cli`] (the `rangefit` command).
 //!
 //! The engine knows nothing of browsers, the DOM or storage; it builds for the host and
@@ -24,6 +24,7 @@ pub mod netlist;
 pub mod bom;
 pub mod scaling;
 pub mod share;
+pub mod report;
 pub mod cli;
 pub mod demos;
 

@@ -83,7 +83,7 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
 
     let l = &a.loading;
     let loading_msg = format!(
-        "The sensor sees {} ; its own impedance changes the gain by {:.3} % and the converter's input by {:.3} % (both already in the design equations).",
+        "The sensor sees {}; its own impedance changes the gain by {:.3} % and the converter's input by {:.3} % (both already in the design equations).",
         format(l.input_impedance, Quantity::Resistance), 100.0 * l.sensor_gain_error, 100.0 * l.converter_gain_error
     );
     c.push(if l.sensor_gain_error.abs() > LOADING_LIMIT {

@@ -84,6 +84,8 @@ pub struct Kernel {
     out_amp: bool,
     /// Every node of the circuit and where the DC system holds its voltage.
     nodes: Vec<(String, Col)>,
+    /// (parameter, nominal resistance) of every perturbed resistor.
+    res: Vec<(usize, f64)>,
 }
 
 /// Buffers for systems larger than the stack arrays; make it with [`Kernel::workspace`].
@@ -92,6 +94,8 @@ pub struct Workspace {
     a: Vec<f64>,
     u: Vec<f64>,
     w: Vec<f64>,
+    /// The perturbed conductances of one build, indexed by parameter.
+    g: Vec<f64>,
 }
 
 impl Kernel {
@@ -100,6 +104,7 @@ impl Kernel {
     /// offset and the bias currents of its + and − inputs.
     pub fn compile(circuit: &Circuit, out: &str) -> Result<Kernel, KernelError> {
         let mut params = Vec::new();
+        let mut res = Vec::new();
         let mut part_param = vec![None; circuit.parts.len()];
         for (i, p) in circuit.parts.iter().enumerate() {
             let kind = match p.kind {
@@ -109,6 +114,9 @@ impl Kernel {
             };
             if let (false, Some(t)) = (p.bench, p.tolerance) {
                 part_param[i] = Some(params.len());
+                if kind == ParamKind::Resistor {
+                    res.push((params.len(), p.value));
+                }
                 params.push(Param {
                     kind,
                     part: p.reference.clone(),
@@ -151,6 +159,7 @@ impl Kernel {
             mid,
             out_amp,
             nodes,
+            res,
         })
     }
 
@@ -176,6 +185,7 @@ impl Kernel {
             a: vec![0.0; n * n],
             u: vec![0.0; n],
             w: vec![0.0; n],
+            g: vec![0.0; self.params.len()],
         }
     }
 
@@ -183,13 +193,45 @@ impl Kernel {
     /// parameters `p` (one value per [`Kernel::params`]). `None` for a singular build or a
     /// short parameter slice.
     pub fn dc_line(&self, p: &[f64], ws: &mut Workspace) -> Option<(f64, f64)> {
-        self.dc.line(p, ws)
+        self.conductances(p, ws)?;
+        self.dc.line(ws)
     }
 
     /// Mid-band small-signal gain from the sensor EMF to the output with every capacitor a
     /// short. `None` when the circuit cannot be reduced that way or the build is singular.
     pub fn short_gain(&self, p: &[f64], ws: &mut Workspace) -> Option<f64> {
-        self.mid.as_ref()?.line(p, ws).map(|(slope, _)| slope)
+        self.conductances(p, ws)?;
+        self.mid.as_ref()?.line(ws).map(|(slope, _)| slope)
+    }
+
+    /// [`Kernel::dc_line`] and [`Kernel::short_gain`] of one build together, sharing its
+    /// conductances.
+    pub fn dc_line_and_short_gain(
+        &self,
+        p: &[f64],
+        ws: &mut Workspace,
+    ) -> Option<((f64, f64), f64)> {
+        self.conductances(p, ws)?;
+        let dc = self.dc.line(ws)?;
+        Some((dc, self.mid.as_ref()?.line(ws)?.0))
+    }
+
+    /// The build's parameters into `ws.g`, each resistor's as its perturbed conductance.
+    fn conductances(&self, p: &[f64], ws: &mut Workspace) -> Option<()> {
+        let n = self.params.len();
+        if p.len() < n || ws.g.len() < n {
+            return None;
+        }
+        // Slices, not Vecs, inside the loop: Vec indexing stays a call when optimising for size.
+        let (g, p) = (&mut ws.g[..n], &p[..n]);
+        g.copy_from_slice(p);
+        for &(i, r0) in &self.res {
+            let r = r0 * (1.0 + p[i]);
+            // As the general solver: resistance floored at 1 nΩ (a comparison, not f64::max,
+            // which is a library call too).
+            g[i] = 1.0 / if r > 1e-9 { r } else { 1e-9 };
+        }
+        Some(())
     }
 
     /// Every node voltage at DC for sensor EMF `source`, by dense elimination with partial
@@ -197,11 +239,10 @@ impl Kernel {
     pub fn dc_voltages(&self, p: &[f64], source: f64) -> Option<Vec<(String, f64)>> {
         let s = &self.dc;
         let n = s.n;
-        if p.len() < s.n_params {
-            return None;
-        }
+        let mut ws = self.workspace();
+        self.conductances(p, &mut ws)?;
         let (mut a, mut u, mut w) = (vec![0.0; n * n], vec![0.0; n], vec![0.0; n]);
-        s.assemble(p, &mut a, &mut u, &mut w);
+        s.assemble(&ws.g, &mut a, &mut u, &mut w);
         if n > 0 {
             eliminate(&mut a, n, &mut u, &mut w)?;
             back(&a, n, &mut u);
@@ -262,7 +303,7 @@ struct Elem {
     n_rhs: usize,
 }
 
-/// A perturbed source term: `w[row] += coef·p[param]`.
+/// A perturbed source term: `w[row] += coef·g[param]` (the parameter's value).
 #[derive(Debug, Clone, Copy)]
 struct Src {
     param: usize,
@@ -270,15 +311,13 @@ struct Src {
     coef: f64,
 }
 
-/// One elimination step of the compiled program: pivot `k`, the rows it updates
-/// (`rows[r0..r1]`) and the columns right of the pivot that are non-zero (`cols[c0..c1]`).
-#[derive(Debug, Clone, Copy)]
+/// One elimination step of the compiled program: pivot `k`, the rows it updates and the
+/// columns right of the pivot that are non-zero.
+#[derive(Debug, Clone)]
 struct Step {
     k: usize,
-    r0: usize,
-    r1: usize,
-    c0: usize,
-    c1: usize,
+    rows: Vec<usize>,
+    cols: Vec<usize>,
     /// Magnitude of this pivot in the nominal build.
     nominal: f64,
 }
@@ -290,56 +329,57 @@ struct System {
     base: Vec<f64>,
     base_u: Vec<f64>,
     base_w: Vec<f64>,
+    /// Compile-time form of the perturbed conductances; [`System::flatten`] turns it into
+    /// the flat lists below.
     elems: Vec<Elem>,
+    /// (flat matrix index, parameter, sign): `a[index] += sign·g[parameter]`.
+    mat: Vec<(usize, usize, f64)>,
+    /// (row, parameter, coefficient into `u`, coefficient into `w`).
+    rhs: Vec<(usize, usize, f64, f64)>,
     srcs: Vec<Src>,
     out: Col,
-    n_params: usize,
     /// The compiled elimination is usable (else every build uses full partial pivoting).
     compiled: bool,
     steps: Vec<Step>,
-    rows: Vec<usize>,
-    cols: Vec<usize>,
 }
 
 impl System {
-    /// Output `(slope, intercept)` of build `p`. Sizes up to 8 run on stack arrays of a size
-    /// known at compile time.
-    fn line(&self, p: &[f64], ws: &mut Workspace) -> Option<(f64, f64)> {
-        if p.len() < self.n_params {
-            return None;
-        }
+    /// Output `(slope, intercept)` of the build whose conductances and sources are in
+    /// `ws.g`. Sizes up to 8 run on stack arrays of a size known at compile time.
+    fn line(&self, ws: &mut Workspace) -> Option<(f64, f64)> {
         if let Col::Known { u, w } = self.out {
             return Some((u, w));
         }
+        let Workspace { a, u, w, g } = ws;
+        let g = &g[..];
         match self.n {
-            1 => self.line_in(p, &mut [0.0; 1], &mut [0.0; 1], &mut [0.0; 1]),
-            2 => self.line_in(p, &mut [0.0; 4], &mut [0.0; 2], &mut [0.0; 2]),
-            3 => self.line_in(p, &mut [0.0; 9], &mut [0.0; 3], &mut [0.0; 3]),
-            4 => self.line_in(p, &mut [0.0; 16], &mut [0.0; 4], &mut [0.0; 4]),
-            5 => self.line_in(p, &mut [0.0; 25], &mut [0.0; 5], &mut [0.0; 5]),
-            6 => self.line_in(p, &mut [0.0; 36], &mut [0.0; 6], &mut [0.0; 6]),
-            7 => self.line_in(p, &mut [0.0; 49], &mut [0.0; 7], &mut [0.0; 7]),
-            8 => self.line_in(p, &mut [0.0; 64], &mut [0.0; 8], &mut [0.0; 8]),
-            n if ws.a.len() >= n * n && ws.u.len() >= n => {
-                let Workspace { a, u, w } = ws;
-                self.line_in(p, &mut a[..n * n], &mut u[..n], &mut w[..n])
+            1 => self.line_in(g, &mut [0.0; 1], &mut [0.0; 1], &mut [0.0; 1]),
+            2 => self.line_in(g, &mut [0.0; 4], &mut [0.0; 2], &mut [0.0; 2]),
+            3 => self.line_in(g, &mut [0.0; 9], &mut [0.0; 3], &mut [0.0; 3]),
+            4 => self.line_in(g, &mut [0.0; 16], &mut [0.0; 4], &mut [0.0; 4]),
+            5 => self.line_in(g, &mut [0.0; 25], &mut [0.0; 5], &mut [0.0; 5]),
+            6 => self.line_in(g, &mut [0.0; 36], &mut [0.0; 6], &mut [0.0; 6]),
+            7 => self.line_in(g, &mut [0.0; 49], &mut [0.0; 7], &mut [0.0; 7]),
+            8 => self.line_in(g, &mut [0.0; 64], &mut [0.0; 8], &mut [0.0; 8]),
+            n if a.len() >= n * n && u.len() >= n => {
+                self.line_in(g, &mut a[..n * n], &mut u[..n], &mut w[..n])
             }
             _ => None,
         }
     }
 
     /// Runs the compiled elimination; falls back to full partial pivoting when a pivot has
-    /// shrunk below half its nominal size (or the program is empty).
+    /// shrunk below half its nominal size (or there is no program).
     #[inline(always)]
     fn line_in(
         &self,
-        p: &[f64],
+        g: &[f64],
         a: &mut [f64],
         u: &mut [f64],
         w: &mut [f64],
     ) -> Option<(f64, f64)> {
         let n = self.n;
-        self.assemble(p, a, u, w);
+        self.assemble(g, a, u, w);
         let mut ok = self.compiled;
         for st in &self.steps {
             let d = a[st.k * n + st.k];
@@ -350,9 +390,9 @@ impl System {
             }
             let inv = 1.0 / d;
             let (uk, wk) = (u[st.k], w[st.k]);
-            for &i in &self.rows[st.r0..st.r1] {
+            for &i in &st.rows {
                 let f = a[i * n + st.k] * inv;
-                for &j in &self.cols[st.c0..st.c1] {
+                for &j in &st.cols {
                     a[i * n + j] -= f * a[st.k * n + j];
                 }
                 u[i] -= f * uk;
@@ -360,34 +400,30 @@ impl System {
             }
         }
         if !ok {
-            self.assemble(p, a, u, w);
+            self.assemble(g, a, u, w);
             return eliminate(a, n, u, w);
         }
-        let d = a[n * n - 1];
-        let (s, i) = (u[n - 1] / d, w[n - 1] / d);
+        let inv = 1.0 / a[n * n - 1];
+        let (s, i) = (u[n - 1] * inv, w[n - 1] * inv);
         (s.is_finite() && i.is_finite()).then_some((s, i))
     }
 
+    /// The build's matrix and right-hand sides: the base, plus each perturbed conductance
+    /// `g[param]` at its flat stamp positions, plus each source `g[param]`.
     #[inline(always)]
-    fn assemble(&self, p: &[f64], a: &mut [f64], u: &mut [f64], w: &mut [f64]) {
+    fn assemble(&self, g: &[f64], a: &mut [f64], u: &mut [f64], w: &mut [f64]) {
         a.copy_from_slice(&self.base);
         u.copy_from_slice(&self.base_u);
         w.copy_from_slice(&self.base_w);
-        for e in &self.elems {
-            let r = e.r0 * (1.0 + p[e.param]);
-            // As the general solver: resistance floored at 1 nΩ (a comparison, not f64::max,
-            // which stays a library call when optimising for size).
-            let g = 1.0 / if r > 1e-9 { r } else { 1e-9 };
-            for &(k, s) in &e.mat[..e.n_mat] {
-                a[k] += s * g;
-            }
-            for &(r, cu, cw) in &e.rhs[..e.n_rhs] {
-                u[r] += cu * g;
-                w[r] += cw * g;
-            }
+        for &(k, e, sign) in &self.mat {
+            a[k] += sign * g[e];
+        }
+        for &(r, e, cu, cw) in &self.rhs {
+            u[r] += cu * g[e];
+            w[r] += cw * g[e];
         }
         for s in &self.srcs {
-            w[s.row] += s.coef * p[s.param];
+            w[s.row] += s.coef * g[s.param];
         }
     }
 }

@@ -7,7 +7,8 @@
 //!   operating-point output plus the mid-band gain times the excursion, limited by the output
 //!   swing (`kind: "midband"`).
 //! * [`ac_response`]: magnitude and phase from the sensor EMF (`VSENSE`) to `adc` at
-//!   log-spaced frequencies from well below the lowest corner to ten times the sample rate,
+//!   log-spaced frequencies from well below the lowest corner to ten times the sample rate
+//!   (or three times the upper −3 dB point, whichever is higher),
 //!   the −3 dB points, the ripple inside the band, and the gain at `band_low`, mid-band and
 //!   `band_high`.
 
@@ -109,7 +110,8 @@ pub fn ac_response(req: &Request, circuit: &Circuit, f_low_3db: Option<f64>, f_h
     let fs = req.destination.sample_rate;
     let lowest = [Some(s.band_low), f_low_3db].into_iter().flatten().filter(|&f| f > 0.0).fold(f64::INFINITY, f64::min);
     let f_start = if lowest.is_finite() { lowest / 100.0 } else { (s.band_high / 1e4).max(1e-3) };
-    let f_stop = (10.0 * fs).max(10.0 * s.band_high).max(f_start * 100.0);
+    // Far enough to show the roll-off past the sample rate and the upper −3 dB point.
+    let f_stop = (10.0 * fs).max(10.0 * s.band_high).max(3.0 * f_high_3db.unwrap_or(0.0)).max(f_start * 100.0);
     let n = points.max(2);
     let db = |h: num_complex::Complex<f64>| 20.0 * h.norm().max(1e-300).log10();
     let mut out = Vec::with_capacity(n);

@@ -51,13 +51,18 @@ use crate::units::{format, Quantity};
 /// Options of the tolerance analysis.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ToleranceConfig {
-    /// Monte Carlo builds.
+    /// Monte Carlo builds (at most [`MAX_RUNS`] are drawn).
     pub runs: usize,
     /// Seed of the generator.
     pub seed: u64,
-    /// Bins of each histogram.
+    /// Bins of each histogram (at most [`MAX_BINS`]).
     pub bins: usize,
 }
+
+/// Most builds one analysis draws (ten times what a request may ask for).
+pub const MAX_RUNS: usize = 10_000_000;
+/// Most bins of one histogram.
+pub const MAX_BINS: usize = 10_000;
 
 impl From<&AnalysisConfig> for ToleranceConfig {
     fn from(c: &AnalysisConfig) -> Self {
@@ -144,6 +149,10 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
     let model = match Model::new(req, circuit) {
         Ok(m) => m,
         Err(reason) => {
+            let cfg = &ToleranceConfig {
+                bins: cfg.bins.min(MAX_BINS),
+                ..cfg.clone()
+            };
             let notes = vec![format!("No builds were drawn: {reason}.")];
             let monte_carlo = summary::monte_carlo(Vec::new(), [0; 3], 0, req, cfg, notes);
             return ToleranceAnalysis {
@@ -151,6 +160,11 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
                 monte_carlo,
             };
         }
+    };
+    let cfg = &ToleranceConfig {
+        runs: cfg.runs.min(MAX_RUNS),
+        seed: cfg.seed,
+        bins: cfg.bins.min(MAX_BINS),
     };
     let mut ws = model.kernel.workspace();
     let worst_case = worst_case(&model, &mut ws);
@@ -215,16 +229,16 @@ impl Model {
 
     /// Unclamped `[output at min, output at max, gain, offset]` of build `p`.
     fn raw(&self, p: &[f64], ws: &mut Workspace) -> Option<[f64; 4]> {
-        let (slope, icpt) = self.kernel.dc_line(p, ws)?;
         if self.ac {
-            let level = slope * self.mid + icpt;
-            let g = self.ac_scale * self.kernel.short_gain(p, ws)?;
+            let ((slope, icpt), short) = self.kernel.dc_line_and_short_gain(p, ws)?;
+            let (level, g) = (slope * self.mid + icpt, self.ac_scale * short);
             let (y1, y2) = (
                 level + g * (self.s_min - self.mid),
                 level + g * (self.s_max - self.mid),
             );
             Some([y1, y2, g, level])
         } else {
+            let (slope, icpt) = self.kernel.dc_line(p, ws)?;
             Some([
                 slope * self.s_min + icpt,
                 slope * self.s_max + icpt,
@@ -367,9 +381,8 @@ fn worst_case(model: &Model, ws: &mut Workspace) -> WorstCase {
     }
 }
 
-/// Draws and solves the builds: their limited quantities in a column per quantity, and the
-/// counts of builds inside the converter range, inside the headroom, and covering the
-/// range-use fraction.
+/// Draws and solves the builds: each build's limited quantities, and the counts of builds
+/// inside the converter range, inside the headroom, and covering the range-use fraction.
 fn draw_builds(
     model: &Model,
     ws: &mut Workspace,
@@ -378,7 +391,8 @@ fn draw_builds(
 ) -> (Vec<[f64; 4]>, [usize; 3]) {
     let params = model.kernel.params();
     let mut rng = ChaCha8Rng::seed_from_u64(cfg.seed);
-    let mut p = vec![0.0; params.len()];
+    let mut p_buf = vec![0.0; params.len()];
+    let p = &mut p_buf[..];
     // Resistors are drawn uniformly, two per 64-bit word; the amplifier's figures from a
     // normal. Capacitors move none of the quantities, so they are not drawn.
     let pick = |want: fn(ParamKind) -> bool| -> Vec<(usize, f64)> {
@@ -409,14 +423,15 @@ fn draw_builds(
     for _ in 0..cfg.runs {
         for pair in parts.chunks(2) {
             let bits = rng.next_u64();
-            for (&(i, bound), word) in pair.iter().zip([bits as u32, (bits >> 32) as u32]) {
-                p[i] = bound * uniform_pm1(word);
+            p[pair[0].0] = pair[0].1 * uniform_pm1(bits as u32);
+            if let Some(&(i, bound)) = pair.get(1) {
+                p[i] = bound * uniform_pm1((bits >> 32) as u32);
             }
         }
         for &(i, bound) in &amps {
             p[i] = bound * truncated_normal(&mut rng);
         }
-        let Some(r) = model.raw(&p, ws) else { continue };
+        let Some(r) = model.raw(p, ws) else { continue };
         let y = model.clamped(r);
         if !(y[0].is_finite() && y[1].is_finite() && y[2].is_finite() && y[3].is_finite()) {
             continue;

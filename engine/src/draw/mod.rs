@@ -5,5 +5,6 @@
 //! the direction of the signal, and annotates it (values, DC levels, test points).
 //! Symbols follow IEC 60617 throughout (see [`schematic`]).
 
+pub mod plot;
 pub mod schematic;
 pub mod svg;

@@ -130,6 +130,15 @@ pub fn test_points(req: &Request, circuit: &Circuit) -> Vec<TestPoint> {
     found.enumerate().map(|(k, (node, min, max))| TestPoint { node, label: format!("TP{}", k + 1), min, max }).collect()
 }
 
+/// The schematic of a finished design: its circuit, the operating point with the sensor at
+/// the middle of its range, and the design's test points. `None` without a circuit.
+pub fn of_design(d: &crate::design::Design, cfg: &SchematicConfig) -> Option<Schematic> {
+    let c = d.circuit.as_ref()?;
+    let s = &d.request.source;
+    let op = crate::solve::Solver::new(c).dc(0.5 * (s.min + s.max)).ok();
+    Some(schematic(c, op.as_ref(), &test_points(&d.request, c), &d.name, cfg))
+}
+
 /// Draws `circuit` with the operating point `op` (for the DC levels and capacitor polarity),
 /// the test points `ranges` and the design `name` as title.
 pub fn schematic(circuit: &Circuit, op: Option<&DcSolution>, ranges: &[TestPoint], name: &str, cfg: &SchematicConfig) -> Schematic {

@@ -99,9 +99,9 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
         let (y_lo, y_hi) = (vref - m_a * half, vref + m_a * half);
         c += 10.0 * ((lo - y_lo).max(0.0) + (y_hi - hi).max(0.0)) / span;
         if rs > 0.0 {
-            c += 0.05 * rs / (ra + rb);
+            c += 0.5 * rs / (ra + rb);
         }
-        c + v.iter().map(|r| 1e-7 * (r / 47e3).log10().abs()).sum::<f64>()
+        c + v.iter().map(|r| 1e-8 * (r / 47e3).max(47e3 / r)).sum::<f64>()
     };
     let ideal = |rb: f64| {
         let mut v = vec![rb];

@@ -21,10 +21,10 @@
 //! template's equations give continuous values; [`super::round`] rounds them; the candidate
 //! with the lowest mapping error (plus a small charge per part) wins.
 
-use super::round::{optimise, pairs, RoundConfig};
+use super::round::{anchors, optimise_all, pairs, RoundConfig};
 
 /// Ratio pairs tried per template (the best few by ratio error).
-const PAIRS: usize = 6;
+const PAIRS: usize = 4;
 use super::{Limits, Synthesis, Target};
 use crate::amplifier::{Amplifier, Rails};
 use crate::circuit::{Builder, PartKind, Stage, StageRole};
@@ -222,11 +222,11 @@ impl Ctx<'_> {
             }
         }
         if self.rs > 0.0 {
-            c += 0.05 * self.rs / net.input_resistance();
+            c += 0.5 * self.rs / net.input_resistance();
         }
         // Tie-breaker: prefer values near the middle of the window (noise, bias, load).
         let mid = (self.cfg.min * self.cfg.max).sqrt().min(47e3);
-        c + net.slots.iter().map(|(_, r)| 1e-7 * (r / mid).log10().abs()).sum::<f64>()
+        c + net.slots.iter().map(|(_, r)| 1e-8 * (r / mid).max(mid / r)).sum::<f64>()
     }
 
     fn output_err(&self, net: &Net, x: f64, want: f64) -> f64 {
@@ -246,27 +246,33 @@ impl Ctx<'_> {
         ideal: impl Fn(Option<(f64, f64)>, f64) -> Option<Vec<f64>>,
     ) -> Option<Candidate> {
         let make = |v: &[f64]| Net { slots: layout.iter().copied().zip(v.iter().copied()).collect(), direct };
-        let cost = |v: &[f64]| self.cost(&make(v), t);
+        // One scratch stage, refilled for every candidate: no allocation per evaluation.
+        let scratch = std::cell::RefCell::new(make(&vec![1.0; layout.len()]));
+        let cost = |v: &[f64]| {
+            let mut net = scratch.borrow_mut();
+            for (slot, x) in net.slots.iter_mut().zip(v) {
+                slot.1 = *x;
+            }
+            self.cost(&net, t)
+        };
         let runs: Vec<Option<(f64, f64)>> = match pairs {
             Some(p) => p.into_iter().map(Some).collect(),
             None => vec![None],
         };
-        let mut best: Option<(Vec<f64>, f64)> = None;
-        for pair in runs {
-            let full = |anchor: f64| {
-                let mut v = ideal(pair, anchor)?;
-                if let Some((a, b)) = pair {
-                    v.push(a);
-                    v.push(b);
+        let anchors = anchors(self.cfg);
+        let ideal = &ideal;
+        let anchors = &anchors;
+        let ideals = runs.iter().flat_map(|&pair| {
+            anchors.iter().filter_map(move |&a| {
+                let mut v = ideal(pair, a)?;
+                if let Some((x, y)) = pair {
+                    v.push(x);
+                    v.push(y);
                 }
                 Some(v)
-            };
-            if let Some((v, c)) = optimise(self.cfg, full, cost) {
-                if best.as_ref().map_or(true, |b| c < b.1) {
-                    best = Some((v, c));
-                }
-            }
-        }
+            })
+        });
+        let best = optimise_all(self.cfg, ideals, cost);
         let (values, cost) = best?;
         let net = make(&values);
         let s = &self.req.source;

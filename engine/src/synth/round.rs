@@ -1,14 +1,21 @@
 //! Rounding a continuous design to standard values while minimising the mapping error.
 //!
 //! Rounding each resistor to its nearest series value independently can leave a gain or
-//! offset error of a few per cent. Instead, [`optimise`] sweeps one *anchor* resistor over
-//! every series value in the window, derives the others from the ideal equations, rounds
-//! each of them down and up in every combination and scores the result with the caller's cost (the
-//! mapping error of the rounded circuit). The best few starting points are then improved by
-//! a descent that moves one resistor by one or two series steps, or two resistors by one
-//! step each, while the cost falls. The search is exhaustive in the anchor and local in the rest, which is enough
-//! because the cost is smooth in each value and the ideal equations put every start within
-//! one series step of the optimum.
+//! offset error of a few per cent. Instead the search works in two phases:
+//!
+//! 1. **Starts.** The caller's ideal equations give continuous values for many *anchors*
+//!    (one resistor swept over the window on a grid of about twelve values per decade, see
+//!    [`anchors`]; for ratio-setting stages also over the best ratio pairs from [`pairs`]).
+//!    Each ideal vector is rounded down and up in every combination (at most 2⁷) and scored
+//!    with the caller's cost — the mapping error of the rounded circuit.
+//! 2. **Descent.** From the best few starts over all anchors, a descent moves one resistor
+//!    by one or two series steps, or two resistors by one step each, while the cost falls.
+//!
+//! The sweep covers every scale of the stage, so the window and the sensor impedance are
+//! respected; the descent then works within one or two series steps of each start, which is
+//! enough because the cost is smooth in each value and the ideal equations put every start
+//! within one step of a local optimum. Only the best starts are descended, which keeps the
+//! search to about a millisecond on the host.
 
 use crate::values::{self, Series};
 
@@ -20,37 +27,38 @@ pub struct RoundConfig {
     pub max: f64,
 }
 
-/// Best rounded values and their cost. `ideal(anchor)` returns the continuous value of every
-/// resistor for one anchor value (or `None` when that anchor cannot work); `cost` scores a
-/// vector of rounded values, lower is better.
-pub fn optimise(
-    cfg: RoundConfig,
-    ideal: impl Fn(f64) -> Option<Vec<f64>>,
-    cost: impl Fn(&[f64]) -> f64,
-) -> Option<(Vec<f64>, f64)> {
-    let anchors = values::values_between(cfg.series, cfg.min, cfg.max);
+/// Starts that go on to the descent.
+const DESCENT_STARTS: usize = 4;
+/// Passes of the descent at most.
+const DESCENT_PASSES: usize = 30;
+
+/// Best rounded values and their cost for a single-anchor family: `ideal(anchor)` returns
+/// the continuous value of every resistor (or `None` when that anchor cannot work).
+pub fn optimise(cfg: RoundConfig, ideal: impl Fn(f64) -> Option<Vec<f64>>, cost: impl Fn(&[f64]) -> f64) -> Option<(Vec<f64>, f64)> {
+    optimise_all(cfg, anchors(cfg).into_iter().filter_map(ideal), cost)
+}
+
+/// Best rounded values and their cost over any number of ideal vectors (all of one length).
+pub fn optimise_all(cfg: RoundConfig, ideals: impl Iterator<Item = Vec<f64>>, cost: impl Fn(&[f64]) -> f64) -> Option<(Vec<f64>, f64)> {
+    let ladder = Ladder::new(cfg);
     let mut starts: Vec<(Vec<f64>, f64)> = Vec::new();
-    for a in anchors {
-        let Some(ideal_values) = ideal(a) else { continue };
-        // Each value's two neighbours in the series (equal when it is a series value).
-        let mut choices: Vec<(f64, f64)> = Vec::with_capacity(ideal_values.len());
-        for v in ideal_values {
-            // An ideal value far outside the window cannot be rounded into it sensibly.
-            if !(v.is_finite() && v >= cfg.min / 1.5 && v <= cfg.max * 1.5) {
-                break;
+    let mut seen_empty = false;
+    for ideal_values in ideals {
+        if ideal_values.is_empty() {
+            // Nothing to round: one evaluation is enough.
+            if !seen_empty {
+                seen_empty = true;
+                let c = cost(&[]);
+                if c.is_finite() {
+                    starts.push((Vec::new(), c));
+                }
             }
-            match values::bracket(cfg.series, v.clamp(cfg.min, cfg.max)) {
-                Some((lo, hi)) => choices.push((lo.clamp(cfg.min, cfg.max), hi.clamp(cfg.min, cfg.max))),
-                None => break,
-            }
-        }
-        if choices.len() != n_values(&ideal, a) {
             continue;
         }
-        // Every combination of rounding down and up (at most 2^7), the best is this anchor's start.
+        let Some(choices) = ladder.brackets(cfg, &ideal_values) else { continue };
         let n = choices.len().min(7);
-        let mut best_here: Option<(Vec<f64>, f64)> = None;
         let mut v: Vec<f64> = choices.iter().map(|c| c.0).collect();
+        let mut best_here: Option<(Vec<f64>, f64)> = None;
         for mask in 0u32..(1 << n) {
             for (i, c) in choices.iter().enumerate() {
                 v[i] = if i < n && mask & (1 << i) != 0 { c.1 } else { c.0 };
@@ -59,54 +67,18 @@ pub fn optimise(
             if c.is_finite() && best_here.as_ref().map_or(true, |b| c < b.1) {
                 best_here = Some((v.clone(), c));
             }
-        }
-        starts.extend(best_here);
-    }
-    starts.sort_by(|a, b| a.1.total_cmp(&b.1));
-    starts.truncate(8);
-    let mut best: Option<(Vec<f64>, f64)> = None;
-    for (mut v, mut c) in starts {
-        for _ in 0..60 {
-            let mut improved = false;
-            // Single moves: one resistor by one or two series steps.
-            for i in 0..v.len() {
-                for cand in neighbours(cfg, v[i]) {
-                    let old = v[i];
-                    v[i] = cand;
-                    let c2 = cost(&v);
-                    if c2 < c - 1e-15 {
-                        c = c2;
-                        improved = true;
-                    } else {
-                        v[i] = old;
-                    }
-                }
-            }
-            // Pair moves: two resistors together by one step each, which walks along the
-            // narrow valleys a ratio of two values makes.
-            for i in 0..v.len() {
-                for j in (i + 1)..v.len() {
-                    for a in neighbours1(cfg, v[i]) {
-                        for b in neighbours1(cfg, v[j]) {
-                            let (oi, oj) = (v[i], v[j]);
-                            v[i] = a;
-                            v[j] = b;
-                            let c2 = cost(&v);
-                            if c2 < c - 1e-15 {
-                                c = c2;
-                                improved = true;
-                            } else {
-                                v[i] = oi;
-                                v[j] = oj;
-                            }
-                        }
-                    }
-                }
-            }
-            if !improved {
+            // Values already in the series have one choice: skip the duplicate masks.
+            if choices.iter().take(n).all(|c| c.0 == c.1) {
                 break;
             }
         }
+        if let Some(s) = best_here {
+            keep_best(&mut starts, s);
+        }
+    }
+    let mut best: Option<(Vec<f64>, f64)> = None;
+    for (v, c) in starts {
+        let (v, c) = descend(&ladder, v, c, &cost);
         if best.as_ref().map_or(true, |b| c < b.1) {
             best = Some((v, c));
         }
@@ -114,52 +86,24 @@ pub fn optimise(
     best
 }
 
-/// Number of values `ideal` gives for `anchor` (0 when it gives none).
-fn n_values(ideal: &impl Fn(f64) -> Option<Vec<f64>>, anchor: f64) -> usize {
-    ideal(anchor).map_or(0, |v| v.len())
-}
-
-/// Series values one and two steps above and below `v`, inside the window.
-fn neighbours(cfg: RoundConfig, v: f64) -> Vec<f64> {
-    let mut out = Vec::with_capacity(4);
-    let mut up = v;
-    let mut down = v;
-    for _ in 0..2 {
-        if let Some(u) = values::step_up(cfg.series, up * 1.001) {
-            if u <= cfg.max * (1.0 + 1e-9) {
-                out.push(u);
-                up = u;
+/// Anchor values: the series value nearest each E12 value inside the window (the series'
+/// own values when it is coarser than E12).
+pub fn anchors(cfg: RoundConfig) -> Vec<f64> {
+    let grid = if cfg.series.mantissas().len() <= 12 { cfg.series } else { Series::E12 };
+    let mut out: Vec<f64> = Vec::new();
+    for g in values::values_between(grid, cfg.min, cfg.max) {
+        if let Some(v) = values::nearest(cfg.series, g) {
+            if v >= cfg.min && v <= cfg.max && !out.contains(&v) {
+                out.push(v);
             }
-        }
-        if let Some(d) = values::step_down(cfg.series, down * 0.999) {
-            if d >= cfg.min * (1.0 - 1e-9) {
-                out.push(d);
-                down = d;
-            }
-        }
-    }
-    out
-}
-
-/// Series values one step above and below `v`, inside the window.
-fn neighbours1(cfg: RoundConfig, v: f64) -> Vec<f64> {
-    let mut out = Vec::with_capacity(2);
-    if let Some(u) = values::step_up(cfg.series, v * 1.001) {
-        if u <= cfg.max * (1.0 + 1e-9) {
-            out.push(u);
-        }
-    }
-    if let Some(d) = values::step_down(cfg.series, v * 0.999) {
-        if d >= cfg.min * (1.0 - 1e-9) {
-            out.push(d);
         }
     }
     out
 }
 
 /// Pairs `(b, a)` from the series inside the window whose `a / (b + offset)` is one of the
-/// `n` ratios closest to `ratio` (relative error), every scaling of each, best ratio first. `offset` is a fixed
-/// resistance in series with `b` (a sensor's impedance).
+/// `n` ratios closest to `ratio` (relative error), every scaling of each, best ratio first.
+/// `offset` is a fixed resistance in series with `b` (a sensor's impedance).
 pub fn pairs(cfg: RoundConfig, ratio: f64, offset: f64, n: usize) -> Vec<(f64, f64)> {
     if !(ratio.is_finite() && ratio > 0.0) {
         return Vec::new();
@@ -194,4 +138,114 @@ pub fn pairs(cfg: RoundConfig, ratio: f64, offset: f64, n: usize) -> Vec<(f64, f
         }
     }
     out
+}
+
+/// The series values inside the window, ascending, for fast bracketing and stepping (the
+/// general [`values`] functions work across all decades and are slower per call).
+struct Ladder {
+    values: Vec<f64>,
+}
+
+impl Ladder {
+    fn new(cfg: RoundConfig) -> Ladder {
+        Ladder { values: values::values_between(cfg.series, cfg.min, cfg.max) }
+    }
+
+    /// Index of the largest value ≤ v (within 1e-9), clamped to the ladder.
+    fn floor(&self, v: f64) -> usize {
+        let i = self.values.partition_point(|&x| x <= v * (1.0 + 1e-9));
+        i.saturating_sub(1)
+    }
+
+    /// The values below and above each ideal value, or `None` when one lies far outside
+    /// the window (it cannot be rounded into it sensibly).
+    fn brackets(&self, cfg: RoundConfig, ideal: &[f64]) -> Option<Vec<(f64, f64)>> {
+        if self.values.is_empty() {
+            return None;
+        }
+        let last = self.values.len() - 1;
+        let mut out = Vec::with_capacity(ideal.len());
+        for &v in ideal {
+            if !(v.is_finite() && v >= cfg.min / 1.5 && v <= cfg.max * 1.5) {
+                return None;
+            }
+            let i = self.floor(v);
+            let lo = self.values[i];
+            let hi = if lo >= v * (1.0 - 1e-9) { lo } else { self.values[(i + 1).min(last)] };
+            out.push((lo.min(hi), hi));
+        }
+        Some(out)
+    }
+
+    /// Values up to `steps` steps above and below `v`.
+    fn neighbours(&self, v: f64, steps: usize) -> impl Iterator<Item = f64> + '_ {
+        let i = self.floor(v);
+        let last = self.values.len().saturating_sub(1);
+        (1..=steps).flat_map(move |k| {
+            let up = (i + k <= last).then(|| self.values[i + k]);
+            let down = (i >= k).then(|| self.values[i - k]);
+            up.into_iter().chain(down)
+        })
+    }
+}
+
+/// Keeps the `DESCENT_STARTS` cheapest distinct starts.
+fn keep_best(starts: &mut Vec<(Vec<f64>, f64)>, s: (Vec<f64>, f64)) {
+    if starts.iter().any(|t| t.0 == s.0) {
+        return;
+    }
+    if starts.len() < DESCENT_STARTS {
+        starts.push(s);
+    } else if let Some(worst) = starts.iter_mut().max_by(|a, b| a.1.total_cmp(&b.1)) {
+        if s.1 < worst.1 {
+            *worst = s;
+        }
+    }
+}
+
+/// Single and pair moves by series steps while the cost falls.
+fn descend(ladder: &Ladder, mut v: Vec<f64>, mut c: f64, cost: &impl Fn(&[f64]) -> f64) -> (Vec<f64>, f64) {
+    for _ in 0..DESCENT_PASSES {
+        let mut improved = false;
+        for i in 0..v.len() {
+            let cands: Vec<f64> = ladder.neighbours(v[i], 2).collect();
+            for cand in cands {
+                let old = v[i];
+                v[i] = cand;
+                let c2 = cost(&v);
+                if c2 < c - 1e-15 {
+                    c = c2;
+                    improved = true;
+                } else {
+                    v[i] = old;
+                }
+            }
+        }
+        // Pair moves walk along the narrow valleys a ratio of two values makes.
+        for i in 0..v.len() {
+            for j in (i + 1)..v.len() {
+                let ai: Vec<f64> = ladder.neighbours(v[i], 1).collect();
+                let bj: Vec<f64> = ladder.neighbours(v[j], 1).collect();
+                for &a in &ai {
+                    for &b in &bj {
+                        let (oi, oj) = (v[i], v[j]);
+                        v[i] = a;
+                        v[j] = b;
+                        let c2 = cost(&v);
+                        if c2 < c - 1e-15 {
+                            c = c2;
+                            improved = true;
+                        } else {
+                            v[i] = oi;
+                            v[j] = oj;
+                        }
+                    }
+                }
+            }
+        }
+        if !improved {
+            break;
+        }
+    }
+    (v, c)
 }

@@ -138,13 +138,12 @@ impl Ctx<'_> {
             base_u: vec![0.0; n],
             base_w: vec![0.0; n],
             elems: Vec::new(),
+            mat: Vec::new(),
+            rhs: Vec::new(),
             srcs: Vec::new(),
             out: col(out_node),
-            n_params: self.n_params,
             compiled: false,
             steps: Vec::new(),
-            rows: Vec::new(),
-            cols: Vec::new(),
         };
         for i in 0..n {
             s.base[i * n + i] += GMIN;
@@ -233,7 +232,7 @@ impl Ctx<'_> {
             .enumerate()
             .map(|(i, nm)| (nm.clone(), col(i)))
             .collect();
-        s.compile_program();
+        s.compile_program(self.n_params);
         Ok((s, nodes))
     }
 }
@@ -242,14 +241,19 @@ impl System {
     /// Chooses the row order by partial pivoting on the nominal build, reorders the stamps
     /// accordingly and compiles the elimination over the structural non-zeros, keeping only
     /// what the last row depends on.
-    fn compile_program(&mut self) {
+    fn compile_program(&mut self, n_params: usize) {
+        self.flatten();
         let n = self.n;
         if n == 0 {
             return;
         }
-        let zero = vec![0.0; self.n_params];
+        // The nominal build: every conductance at its nominal value, every source at 0.
+        let mut g = vec![0.0; n_params];
+        for e in &self.elems {
+            g[e.param] = 1.0 / e.r0.max(1e-9);
+        }
         let (mut a, mut u, mut w) = (vec![0.0; n * n], vec![0.0; n], vec![0.0; n]);
-        self.assemble(&zero, &mut a, &mut u, &mut w);
+        self.assemble(&g, &mut a, &mut u, &mut w);
         let mut order: Vec<usize> = (0..n).collect();
         for k in 0..n {
             let piv = (k..n).fold(k, |b, i| {
@@ -322,31 +326,42 @@ impl System {
             rows.retain(|&i| needed[i]);
             needed[*k] = !rows.is_empty();
         }
-        self.assemble(&zero, &mut a, &mut u, &mut w);
+        self.flatten();
+        self.assemble(&g, &mut a, &mut u, &mut w);
         for (k, rows, cols) in plan.into_iter().filter(|(k, _, _)| needed[*k]) {
             let nominal = a[k * n + k].abs();
-            if !(nominal > 0.0 && nominal.is_finite()) {
+            if nominal == 0.0 || !nominal.is_finite() {
                 self.steps.clear();
                 return;
             }
-            let st = Step {
-                k,
-                r0: self.rows.len(),
-                r1: self.rows.len() + rows.len(),
-                c0: self.cols.len(),
-                c1: self.cols.len() + cols.len(),
-                nominal,
-            };
             for &i in &rows {
                 let f = a[i * n + k] / a[k * n + k];
                 for &j in &cols {
                     a[i * n + j] -= f * a[k * n + j];
                 }
             }
-            self.rows.extend(rows);
-            self.cols.extend(cols);
-            self.steps.push(st);
+            self.steps.push(Step {
+                k,
+                rows,
+                cols,
+                nominal,
+            });
         }
         self.compiled = a[n * n - 1] != 0.0;
+    }
+
+    /// The per-build form of the perturbed conductances: flat lists of where each stamps.
+    fn flatten(&mut self) {
+        self.mat.clear();
+        self.rhs.clear();
+        for e in &self.elems {
+            self.mat
+                .extend(e.mat[..e.n_mat].iter().map(|&(k, s)| (k, e.param, s)));
+            self.rhs.extend(
+                e.rhs[..e.n_rhs]
+                    .iter()
+                    .map(|&(r, cu, cw)| (r, e.param, cu, cw)),
+            );
+        }
     }
 }

@@ -193,10 +193,11 @@ fn histogram(
     }
     if bins > 0 {
         let scale = bins as f64 / (hi - lo);
+        let slots = &mut counts[..];
         for b in builds {
             let k = ((b[q] - lo) * scale) as usize;
             let k = if k < bins { k } else { bins - 1 };
-            counts[k] = counts[k].saturating_add(1);
+            slots[k] = slots[k].saturating_add(1);
         }
     }
     Histogram { lo, hi, counts }
