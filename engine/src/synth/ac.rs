@@ -88,16 +88,22 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
         let alpha = rb / (rs + ra + rb);
         let g = if follower { 1.0 } else { 1.0 + rf / rg };
         let vref = if has_divider { ref_rail * rbt / (rt + rbt) } else { 0.0 };
-        (alpha * g, vref, alpha)
+        // Finite open-loop gain: the gain falls by 1 + G/A0, the DC level (a follower at DC)
+        // by 1 + 1/A0, as in the solver and the netlist.
+        let a0 = amp.open_loop_gain.max(1.0);
+        (alpha * g / (1.0 + g / a0), vref / (1.0 + 1.0 / a0), alpha)
     };
     let cost = |v: &[f64]| {
         let (rb, ra, ..) = unpack(v);
         let (m_a, vref, _) = mapping(v);
         let mut c = ((m_a - m).abs() * half + (vref - yc).abs()) / span;
-        // Missing outward leaves the range: ten times the cost of missing inward.
+        // Missing outward leaves the range: penalised so that every inward miss wins.
         let (lo, hi) = (t.at_min, t.at_max);
         let (y_lo, y_hi) = (vref - m_a * half, vref + m_a * half);
-        c += 10.0 * ((lo - y_lo).max(0.0) + (y_hi - hi).max(0.0)) / span;
+        let out = ((lo - y_lo).max(0.0) + (y_hi - hi).max(0.0)) / span;
+        if out > 1e-9 {
+            c += 1.0 + 100.0 * out;
+        }
         if rs > 0.0 {
             c += 0.5 * rs / (ra + rb);
         }

@@ -54,6 +54,9 @@ pub struct Net {
     pub slots: Vec<(Slot, f64)>,
     /// The + input sits on the sensor terminal with no resistor.
     pub direct: bool,
+    /// The amplifier's open-loop DC gain: the output is the ideal one divided by
+    /// 1 + noise gain / open-loop gain, as the solver and the netlist have it.
+    pub open_loop_gain: f64,
 }
 
 impl Net {
@@ -77,10 +80,11 @@ impl Net {
         }
     }
 
-    /// Output for sensor EMF `x` (ideal amplifier).
+    /// Output for sensor EMF `x` (amplifier with finite open-loop gain, no other error).
     pub fn output(&self, x: f64, rs: f64, rails: Rails) -> f64 {
         let vp = self.plus_voltage(x, rs, rails);
-        let Some(rf) = self.slots.iter().find(|(s, _)| *s == Slot::Feedback).map(|s| s.1) else { return vp };
+        let a0 = self.open_loop_gain.max(1.0);
+        let Some(rf) = self.slots.iter().find(|(s, _)| *s == Slot::Feedback).map(|s| s.1) else { return vp / (1.0 + 1.0 / a0) };
         let gf = 1.0 / rf;
         let (mut sum_g, mut sum_gv) = (0.0, 0.0);
         for (slot, r) in &self.slots {
@@ -90,7 +94,8 @@ impl Net {
                 sum_gv += g * v;
             }
         }
-        vp * (1.0 + sum_g / gf) - sum_gv / gf
+        let noise_gain = 1.0 + sum_g / gf;
+        (vp * noise_gain - sum_gv / gf) / (1.0 + noise_gain / a0)
     }
 
     /// DC resistance the sensor sees (1 TΩ for an amplifier input alone).
@@ -127,6 +132,7 @@ fn leg(p: Pot, r: f64, x: f64, rs: f64, rails: Rails) -> (f64, f64) {
 /// Everything a template needs to know.
 struct Ctx<'a> {
     req: &'a Request,
+    open_loop_gain: f64,
     rails: Rails,
     limits: Limits,
     rs: f64,
@@ -173,6 +179,7 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, target: Target, 
 pub fn synthesize_with(req: &Request, amp: &Amplifier, rails: Rails, target: Target, limits: Limits, templates: &[Template]) -> Option<Synthesis> {
     let ctx = Ctx {
         req,
+        open_loop_gain: amp.open_loop_gain,
         rails,
         limits,
         rs: req.source.impedance,
@@ -208,11 +215,15 @@ impl Ctx<'_> {
         let y2 = self.output_err(net, s.max, t.at_max);
         let mut c = y1.max(y2) / self.span;
         // Missing inward is harmless (the headroom shrinks a little); missing outward leaves
-        // the range the target allows (headroom and output swing), so it costs ten times as much.
+        // the range the target allows (headroom and output swing), so it is penalised heavily.
         let (lo, hi) = (t.at_min.min(t.at_max), t.at_min.max(t.at_max));
         for x in [s.min, s.max] {
             let y = net.output(x, self.rs, self.rails);
-            c += 10.0 * ((lo - y).max(0.0) + (y - hi).max(0.0)) / self.span;
+            let out = ((lo - y).max(0.0) + (y - hi).max(0.0)) / self.span;
+            // Any outward miss beyond arithmetic noise loses to every inward one.
+            if out > 1e-9 {
+                c += 1.0 + 100.0 * out;
+            }
         }
         let lim = self.limits;
         for x in [s.min, s.max] {
@@ -245,7 +256,8 @@ impl Ctx<'_> {
         pairs: Option<Vec<(f64, f64)>>,
         ideal: impl Fn(Option<(f64, f64)>, f64) -> Option<Vec<f64>>,
     ) -> Option<Candidate> {
-        let make = |v: &[f64]| Net { slots: layout.iter().copied().zip(v.iter().copied()).collect(), direct };
+        let a0 = self.open_loop_gain;
+        let make = |v: &[f64]| Net { slots: layout.iter().copied().zip(v.iter().copied()).collect(), direct, open_loop_gain: a0 };
         // One scratch stage, refilled for every candidate: no allocation per evaluation.
         let scratch = std::cell::RefCell::new(make(&vec![1.0; layout.len()]));
         let cost = |v: &[f64]| {

@@ -56,20 +56,17 @@ pub fn optimise_all(cfg: RoundConfig, ideals: impl Iterator<Item = Vec<f64>>, co
             continue;
         }
         let Some(choices) = ladder.brackets(cfg, &ideal_values) else { continue };
-        let n = choices.len().min(7);
+        // Only values that fall between two series values have a choice; at most 2^7 masks.
+        let free: Vec<usize> = choices.iter().enumerate().filter(|(_, c)| c.0 != c.1).map(|(i, _)| i).take(7).collect();
         let mut v: Vec<f64> = choices.iter().map(|c| c.0).collect();
         let mut best_here: Option<(Vec<f64>, f64)> = None;
-        for mask in 0u32..(1 << n) {
-            for (i, c) in choices.iter().enumerate() {
-                v[i] = if i < n && mask & (1 << i) != 0 { c.1 } else { c.0 };
+        for mask in 0u32..(1 << free.len()) {
+            for (bit, &i) in free.iter().enumerate() {
+                v[i] = if mask & (1 << bit) != 0 { choices[i].1 } else { choices[i].0 };
             }
             let c = cost(&v);
             if c.is_finite() && best_here.as_ref().map_or(true, |b| c < b.1) {
                 best_here = Some((v.clone(), c));
-            }
-            // Values already in the series have one choice: skip the duplicate masks.
-            if choices.iter().take(n).all(|c| c.0 == c.1) {
-                break;
             }
         }
         if let Some(s) = best_here {
