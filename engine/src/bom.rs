@@ -13,7 +13,10 @@
 //! * **Capacitor kind** (common practice, EIA-198 dielectric classes): C0G/NP0 ceramic up to
 //!   10 nF (stable, no DC-bias loss); in the signal path above that, film below 10 µF, then
 //!   aluminium electrolytic; off the signal path (reference bypass), X7R ceramic below 10 µF,
-//!   then electrolytic. A polarised capacitor's + terminal goes to the node the operating
+//!   then electrolytic. Capacitors that set a filter corner (stage `filter`) and the charge
+//!   bucket (stage `drive`) must hold their value under voltage and temperature: C0G/NP0
+//!   up to [`C0G_UP_TO`] (the largest made in common sizes), film above, never a class-2
+//!   ceramic. A polarised capacitor's + terminal goes to the node the operating
 //!   point makes more positive; if the DC across it is under 0.1 V or changes sign over the
 //!   signal swing, a non-polarised type is required instead.
 //! * **Amplifier** as a list of requirements (never a product name).
@@ -38,6 +41,8 @@ pub const VOLTAGE_RATINGS: [f64; 12] = [6.3, 10.0, 16.0, 25.0, 35.0, 50.0, 63.0,
 /// draws them with their + mark (common practice: film and ceramic parts stop being
 /// practical around 10 µF).
 pub const ELECTROLYTIC_FROM: f64 = 10e-6;
+/// Largest C0G/NP0 ceramic listed for a filter or drive capacitor, F (common practice).
+pub const C0G_UP_TO: f64 = 100e-9;
 /// Rating margin: a rating at least this many times the stress.
 pub const RATING_MARGIN: f64 = 2.0;
 
@@ -73,6 +78,7 @@ pub fn bom(design: &Design) -> Vec<BomRow> {
             PartKind::Resistor => resistor_row(p, &stress),
             PartKind::Capacitor => capacitor_row(p, &stress),
             PartKind::OpAmp => amplifier_row(p, design),
+            PartKind::Diode => diode_row(p, &stress),
             PartKind::VoltageSource => continue,
         };
         // One row per distinct part: same kind, value, tolerance, rating and construction.
@@ -201,9 +207,14 @@ fn capacitor_row(p: &Part, s: &Stress) -> BomRow {
     let v = lo.abs().max(hi.abs());
     let rating = VOLTAGE_RATINGS.iter().copied().find(|&r| r >= RATING_MARGIN * v).unwrap_or(f64::NAN);
     let in_signal_path = matches!(p.stage, StageRole::Coupling | StageRole::Gain);
+    let sets_corner = matches!(p.stage, StageRole::Filter | StageRole::Drive);
     let large = p.value >= ELECTROLYTIC_FROM;
     let one_sign = (lo > 0.1 && hi > 0.1) || (lo < -0.1 && hi < -0.1);
-    let construction = if p.value <= 10e-9 {
+    let construction = if sets_corner && p.value <= C0G_UP_TO {
+        "C0G/NP0 ceramic (sets a filter corner: no class-2 dielectric)".to_string()
+    } else if sets_corner && !large {
+        "film (polypropylene or polyphenylene sulphide; sets a filter corner)".to_string()
+    } else if p.value <= 10e-9 {
         "C0G/NP0 ceramic".to_string()
     } else if !large {
         if in_signal_path { "film (polyester or polypropylene)".to_string() } else { "X7R ceramic".to_string() }
@@ -226,6 +237,24 @@ fn capacitor_row(p: &Part, s: &Stress) -> BomRow {
         construction,
         stress: v,
         notes: format!("{} at rest", format(at_op, Quantity::Voltage)),
+    }
+}
+
+fn diode_row(p: &Part, s: &Stress) -> BomRow {
+    let (_, lo, hi) = s.across(p);
+    let reverse = (-lo).max(-hi).max(0.0);
+    BomRow {
+        designators: vec![p.reference.clone()],
+        quantity: 1,
+        kind: "diode".to_string(),
+        value: format!("Schottky, V_F ≈ {} at 1 mA", format(p.value, Quantity::Voltage)),
+        value_si: p.value,
+        tolerance: String::new(),
+        tolerance_code: String::new(),
+        rating: format!("reverse ≥ {}, ≥ 10 mA", format(VOLTAGE_RATINGS.iter().copied().find(|&r| r >= RATING_MARGIN * reverse).unwrap_or(6.3), Quantity::Voltage)),
+        construction: "small-signal Schottky, low leakage".to_string(),
+        stress: reverse,
+        notes: format!("anode {}, cathode {}", p.nodes.first().map(String::as_str).unwrap_or(""), p.nodes.get(1).map(String::as_str).unwrap_or("")),
     }
 }
 

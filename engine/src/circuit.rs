@@ -9,6 +9,12 @@
 //! Node names are stable and meaningful: `0` (ground), `emf` (the sensor's open-circuit
 //! voltage), `sense` (the sensor terminal), `vpos`/`vneg` (rails), `adc` (the converter
 //! input); stage-internal nodes are named by role (`inp1`, `inn1`, `ref`, …).
+//!
+//! When a filter or a converter drive follows the gain stage, the gain stage's output is
+//! `out1`; filter section k has its junction `f{k}a`, its + input `f{k}p`, its − input
+//! `f{k}n` (multiple feedback only) and its output `f{k}o`; inverting sections share the
+//! reference `fref`; the drive's series resistor ends at `adc`. Whatever part comes last
+//! in the chain drives `adc` (see [`crate::synth::chain`]).
 
 use serde::Serialize;
 
@@ -26,6 +32,9 @@ pub enum PartKind {
     OpAmp,
     /// An independent voltage source; nodes are `[+, −]`.
     VoltageSource,
+    /// A clamp diode; nodes are `[anode, cathode]`, value its forward voltage (V). The
+    /// solver treats it as open: it conducts only outside the converter's range.
+    Diode,
 }
 
 impl PartKind {
@@ -35,6 +44,7 @@ impl PartKind {
             PartKind::Capacitor => "capacitor",
             PartKind::OpAmp => "amplifier",
             PartKind::VoltageSource => "source",
+            PartKind::Diode => "diode",
         }
     }
 }
@@ -55,6 +65,10 @@ pub enum StageRole {
     Gain,
     /// The converter's input load.
     Converter,
+    /// The anti-alias low-pass filter.
+    Filter,
+    /// The converter drive: charge-bucket capacitor, isolation resistor, input protection.
+    Drive,
 }
 
 impl StageRole {
@@ -66,6 +80,8 @@ impl StageRole {
             StageRole::Reference => "reference",
             StageRole::Gain => "gain",
             StageRole::Converter => "converter",
+            StageRole::Filter => "filter",
+            StageRole::Drive => "drive",
         }
     }
 }
@@ -155,6 +171,21 @@ pub struct Builder {
 }
 
 impl Builder {
+    /// A builder that continues the designators of `parts` (R4 after R3 …).
+    pub fn resume(parts: Vec<Part>) -> Builder {
+        let mut counters: Vec<(char, u32)> = Vec::new();
+        for p in parts.iter().filter(|p| !p.bench) {
+            let (prefix, n) = designator_key(&p.reference);
+            let mut chars = prefix.chars();
+            let (Some(letter), None) = (chars.next(), chars.next()) else { continue };
+            match counters.iter_mut().find(|(c, _)| *c == letter) {
+                Some((_, m)) => *m = (*m).max(n as u32),
+                None => counters.push((letter, n as u32)),
+            }
+        }
+        Builder { parts, counters }
+    }
+
     fn next(&mut self, letter: char) -> String {
         let n = match self.counters.iter_mut().find(|(c, _)| *c == letter) {
             Some((_, n)) => {
@@ -176,6 +207,7 @@ impl Builder {
             PartKind::Capacitor => 'C',
             PartKind::OpAmp => 'U',
             PartKind::VoltageSource => 'V',
+            PartKind::Diode => 'D',
         };
         let reference = self.next(letter);
         self.parts.push(Part {

@@ -48,6 +48,10 @@ pub struct Design {
     pub cautions: Vec<String>,
     /// Converter codes back to the sensor's quantity (filled in after the analyses).
     pub scaling: Option<crate::scaling::Scaling>,
+    /// The anti-alias filter: response, order, sections (f_n, Q wanted and rounded).
+    pub filter: Option<crate::synth::filter::FilterDesign>,
+    /// The converter drive: charge bucket, isolation resistor, protection.
+    pub drive: Option<crate::synth::drive::DriveDesign>,
     /// The circuit model every output derives from (absent when synthesis was impossible).
     #[serde(skip)]
     pub circuit: Option<Circuit>,
@@ -124,6 +128,8 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         checks: Vec::new(),
         cautions: cautions(req, rails),
         scaling: None,
+        filter: None,
+        drive: None,
         circuit: None,
     };
     if has_error(&checks) {
@@ -140,8 +146,10 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     // Rounding and the amplifier's finite gain can move the extremes by a hair past the
     // headroom; pull the target in by that much and design again (at most a few times).
     let mut result = None;
+    // The filter and the drive do not depend on the gain stage: plan them once.
+    let chain = synth::chain::plan(req, &amp, rails);
     for attempt in 0..6 {
-        let Some(s) = synth::synthesize(req, &amp, rails, target) else { break };
+        let Some(s) = synth::synthesize_with_chain(req, &amp, rails, target, &chain) else { break };
         let Some(p) = predict(req, &s.circuit) else { break };
         let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
         let under = (band_lo - lo).max(0.0);
@@ -167,7 +175,10 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     checks.extend(design_checks(req, &s, &p, &amp, rails, &req_amp));
     let (analysis, analysis_checks) = analyse(req, &s.circuit, Nominal { gain: p.gain, f_low_3db: p.band_low, f_high_3db: p.band_high }, cfg);
     checks.extend(analysis_checks);
+    checks.extend(synth::chain::filter_checks(req, &s, analysis.alias.map(|a| a.achieved_db)));
     out.analysis = Some(analysis);
+    out.filter = s.filter.clone();
+    out.drive = s.drive.clone();
     out.topology = s.topology.clone();
     out.target = Some(s.target);
     out.stages = s.circuit.stages.clone();
@@ -262,10 +273,11 @@ fn row(p: &Part) -> PartRow {
         PartKind::Resistor => Quantity::Resistance,
         PartKind::Capacitor => Quantity::Capacitance,
         PartKind::OpAmp => Quantity::Frequency,
-        PartKind::VoltageSource => Quantity::Voltage,
+        PartKind::VoltageSource | PartKind::Diode => Quantity::Voltage,
     };
     let display = match p.kind {
         PartKind::OpAmp => format!("amplifier, GBW ≥ {}", format(p.value, q)),
+        PartKind::Diode => format!("Schottky, V_F ≈ {}", format(p.value, q)),
         _ => format(p.value, q),
     };
     PartRow {
@@ -340,9 +352,14 @@ fn feasibility(req: &Request, rails: Rails, amp: &Amplifier) -> Vec<Check> {
 /// The amplifier requirements of a synthesised design.
 fn requirements(req: &Request, s: &synth::Synthesis, amp: &Amplifier, rails: Rails) -> Requirements {
     let ng = noise_gain(&s.circuit);
-    let gbw_min = GBW_MARGIN * ng * req.source.band_high;
+    let gain_gbw = GBW_MARGIN * ng * req.source.band_high;
+    let filter_gbw = s.filter.as_ref().map_or(0.0, |f| f.gbw_min);
+    let gbw_min = gain_gbw.max(filter_gbw);
     let vpk = 0.5 * (s.target.at_max - s.target.at_min).abs();
-    let slew_rate_min = 2.0 * std::f64::consts::PI * req.source.band_high * vpk;
+    // With a filter, out-of-band content at the stated level reaches the amplifiers up to
+    // the corner at that level (common practice: slew for the larger of the two sines).
+    let f_slew = s.filter.as_ref().map_or(req.source.band_high, |f| req.source.band_high.max(req.filter.out_of_band_level * f.corner));
+    let slew_rate_min = 2.0 * std::f64::consts::PI * f_slew * vpk;
     let (out_lo, out_hi) = (s.target.at_min.min(s.target.at_max), s.target.at_min.max(s.target.at_max));
     let (in_lo, in_hi) = s.plus_range;
     let _ = amp;
@@ -350,8 +367,12 @@ fn requirements(req: &Request, s: &synth::Synthesis, amp: &Amplifier, rails: Rai
         format!("runs from {} (rails {} and {})", v(rails.total()), v(rails.pos), v(rails.neg)),
         format!("output reaches {} … {} ({} from the lower rail, {} from the upper)", v(out_lo), v(out_hi), v(out_lo - rails.neg), v(rails.pos - out_hi)),
         format!("input common-mode range covers {} … {}", v(in_lo), v(in_hi)),
-        format!("gain-bandwidth ≥ {} (noise gain {:.3} × {} × {})", hz(gbw_min), ng, hz(req.source.band_high), GBW_MARGIN),
-        format!("slew rate ≥ {} V/µs for a full-swing sine at {}", sig3(slew_rate_min * 1e-6), hz(req.source.band_high)),
+        if filter_gbw > gain_gbw {
+            format!("gain-bandwidth ≥ {} for the filter sections (100 × noise gain × Q × f_n; the gain stage needs {})", hz(gbw_min), hz(gain_gbw))
+        } else {
+            format!("gain-bandwidth ≥ {} (noise gain {:.3} × {} × {})", hz(gbw_min), ng, hz(req.source.band_high), GBW_MARGIN)
+        },
+        format!("slew rate ≥ {} V/µs for a full-swing sine at {}", sig3(slew_rate_min * 1e-6), hz(f_slew)),
     ];
     Requirements { supply: rails.total(), output_low: out_lo, output_high: out_hi, input_low: in_lo, input_high: in_hi, gbw_min, slew_rate_min, noise_gain: ng, summary }
 }
@@ -404,15 +425,19 @@ fn design_checks(req: &Request, s: &synth::Synthesis, p: &Predicted, amp: &Ampli
     } else {
         c.push(Check::ok("common_mode", format!("The amplifier's + input stays within {} … {}, inside its input range {} … {}.", v(plo), v(phi), v(in_lo), v(in_hi))));
     }
-    if r.gbw_min > amp.gbw {
+    let filter_gbw = s.filter.as_ref().map_or(0.0, |f| f.gbw_min);
+    if filter_gbw > amp.gbw && filter_gbw >= r.gbw_min {
+        c.push(Check::warning("gbw", format!("The amplifier's gain-bandwidth {} is below the {} the filter sections need (100 × noise gain × Q × f_n for the highest-Q section); their response will peak or droop. Choose a faster amplifier.", hz(amp.gbw), hz(filter_gbw))));
+    } else if r.gbw_min > amp.gbw {
         c.push(Check::warning("gbw", format!("The amplifier's gain-bandwidth {} is below the {} this gain and band need (noise gain {:.2} × band {} × {}); the gain will droop toward the band edge. Choose a faster amplifier or split the gain over two stages.", hz(amp.gbw), hz(r.gbw_min), r.noise_gain, hz(req.source.band_high), GBW_MARGIN)));
     } else {
         c.push(Check::ok("gbw", format!("Gain-bandwidth {} covers the {} needed (noise gain {:.2}).", hz(amp.gbw), hz(r.gbw_min), r.noise_gain)));
     }
+    let f_slew = r.slew_rate_min / (2.0 * std::f64::consts::PI * (0.5 * (s.target.at_max - s.target.at_min).abs()).max(1e-12));
     if r.slew_rate_min > amp.slew_rate {
-        c.push(Check::warning("slew_rate", format!("A full-swing sine at {} needs {} V/µs but the amplifier slews {} V/µs; choose a faster amplifier or lower band_high.", hz(req.source.band_high), r.slew_rate_min * 1e-6, amp.slew_rate * 1e-6)));
+        c.push(Check::warning("slew_rate", format!("A full-swing sine at {} needs {} V/µs but the amplifier slews {} V/µs; choose a faster amplifier or lower band_high.", hz(f_slew), sig3(r.slew_rate_min * 1e-6), sig3(amp.slew_rate * 1e-6))));
     } else {
-        c.push(Check::ok("slew_rate", format!("Slew rate {:.3} V/µs covers the {:.3} V/µs a full-swing sine at {} needs.", amp.slew_rate * 1e-6, r.slew_rate_min * 1e-6, hz(req.source.band_high))));
+        c.push(Check::ok("slew_rate", format!("Slew rate {:.3} V/µs covers the {:.3} V/µs a full-swing sine at {} needs.", amp.slew_rate * 1e-6, r.slew_rate_min * 1e-6, hz(f_slew))));
     }
     if let Some(fh) = p.band_high {
         if fh < req.source.band_high {
@@ -431,12 +456,8 @@ fn design_checks(req: &Request, s: &synth::Synthesis, p: &Predicted, amp: &Ampli
             c.push(Check::warning("large_capacitor", format!("{} is very large because band_low is low; consider DC coupling or a higher band_low.", big.join(", "))));
         }
     }
-    if rails.pos > d.max + 0.3 || rails.neg < d.min - 0.3 {
-        c.push(Check::warning(
-            "converter_protection",
-            format!("The amplifier runs from {} … {}, beyond the converter's {} … {} input range; an overload or fault can drive the input there. Check the converter's absolute maximum input and add a series resistor and clamp if it is exceeded.", v(rails.neg), v(rails.pos), v(d.min), v(d.max)),
-        ));
-    }
+    c.extend(synth::chain::drive_checks(req, s.drive.as_ref()));
+    c.extend(input_protection(req, &s.circuit, rails));
     if rs > 0.0 {
         c.push(Check::ok("sensor_impedance", format!("The sensor's {} impedance is part of the gain equations.", format(rs, Quantity::Resistance))));
     }
@@ -444,6 +465,32 @@ fn design_checks(req: &Request, s: &synth::Synthesis, p: &Predicted, amp: &Ampli
         c.push(Check::new("amplifier_assumed", Severity::Ok, format!("Figures not given in the request ({}) are those of a generic {}; any amplifier meeting the stated requirements will do.", amp.assumed.join(", "), amp.class)));
     }
     c
+}
+
+/// The sensor side: when the sensor's range reaches beyond the rails, how much fault
+/// voltage the resistance between the sensor and the amplifier inputs tolerates with the
+/// injection current limited (the amplifier's datasheet governs its input current).
+fn input_protection(req: &Request, c: &Circuit, rails: Rails) -> Vec<Check> {
+    let src = &req.source;
+    // AC coupling: the coupling capacitor keeps the sensor's DC level off the amplifier.
+    if src.coupling == Coupling::Ac {
+        return Vec::new();
+    }
+    let beyond = src.max > rails.pos + crate::synth::drive::CLAMP_DROP || src.min < rails.neg - crate::synth::drive::CLAMP_DROP;
+    if !beyond {
+        return Vec::new();
+    }
+    let direct = c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.nodes.iter().take(2).any(|n| n == "sense"));
+    let series = c.parts.iter().filter(|p| !p.bench && p.kind == PartKind::Resistor && p.nodes.iter().any(|n| n == "sense")).map(|p| p.value).fold(f64::INFINITY, f64::min);
+    let limit = req.destination.injection_limit;
+    if direct || !series.is_finite() {
+        return vec![Check::warning("input_protection", format!("The sensor reaches {} … {}, beyond the rails {} … {}, and meets an amplifier input with no series resistor; add one of at least (excess − 0.3 V)/{} in front of it.", v(src.min), v(src.max), v(rails.neg), v(rails.pos), format(limit, Quantity::Current)))];
+    }
+    let tolerated = series * limit + crate::synth::drive::CLAMP_DROP;
+    vec![Check::ok(
+        "input_protection",
+        format!("The sensor reaches {} … {}, beyond the rails {} … {}; the input network keeps the amplifier's inputs inside them over that range, and its {} series resistance keeps a fault up to {} beyond a rail under {} into the input's protection (the amplifier's datasheet governs).", v(src.min), v(src.max), v(rails.neg), v(rails.pos), format(series, Quantity::Resistance), v(tolerated), format(limit, Quantity::Current)),
+    )]
 }
 
 /// Safety cautions shown with every design.

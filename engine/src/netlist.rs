@@ -1,7 +1,8 @@
 //! SPICE3 netlist export of the circuit model.
 //!
-//! The netlist uses only R, C, V, E, G and D elements plus a `.subckt` and a `.model` it
-//! defines itself, so any SPICE3-compatible simulator runs it with no library. The amplifier
+//! The netlist uses only R, C, V, E, G and D elements plus a `.subckt` and the `.model`s it
+//! defines itself (the amplifier's clamp, and a Schottky for clamps at the converter pin),
+//! so any SPICE3-compatible simulator runs it with no library. The amplifier
 //! subcircuit is the solver's macro-model (see [`crate::solve`]): a transconductance into a
 //! node loaded by R and C (finite DC gain, one dominant pole at GBW / gain), clamped by two
 //! diodes to the swing limits measured from the supply pins, and a unity-gain buffer to the
@@ -25,6 +26,8 @@ pub struct NetlistConfig {
 
 /// Name of the amplifier subcircuit.
 pub const AMP_SUBCKT: &str = "RFAMP";
+/// Name of the clamp diode model.
+pub const SCHOTTKY_MODEL: &str = "RFSCHOTTKY";
 
 /// Writes the netlist for `circuit`, designed for `req`.
 pub fn netlist(req: &Request, circuit: &Circuit, cfg: NetlistConfig) -> String {
@@ -49,6 +52,10 @@ pub fn netlist(req: &Request, circuit: &Circuit, cfg: NetlistConfig) -> String {
     out.push_str("D1 x nh RFCLAMP\nD2 nl x RFCLAMP\nE1 out 0 x 0 1\n");
     out.push_str(&format!(".ends {AMP_SUBCKT}\n"));
     out.push_str(".model RFCLAMP D(IS=1e-14 N=0.01)\n");
+    if circuit.parts.iter().any(|p| p.kind == PartKind::Diode) {
+        // Clamp diodes at the converter pin: a low-leakage Schottky (about 0.35 V at 1 mA).
+        out.push_str(&format!(".model {SCHOTTKY_MODEL} D(IS=1e-9 N=1.05 RS=2)\n"));
+    }
     for p in &circuit.parts {
         let nodes = p.nodes.join(" ");
         let line = match p.kind {
@@ -57,6 +64,7 @@ pub fn netlist(req: &Request, circuit: &Circuit, cfg: NetlistConfig) -> String {
             PartKind::VoltageSource if p.reference == "VSENSE" => format!("{} {} DC {} AC 1", p.reference, nodes, num(p.value)),
             PartKind::VoltageSource => format!("{} {} DC {}", p.reference, nodes, num(p.value)),
             PartKind::OpAmp => format!("X{} {} {}", p.reference, nodes, AMP_SUBCKT),
+            PartKind::Diode => format!("{} {} {}", p.reference, nodes, SCHOTTKY_MODEL),
         };
         // Comments on their own line: SPICE3 has no inline comment character.
         out.push_str(&format!("* {}: {}\n", p.reference, one_line(&p.purpose)));

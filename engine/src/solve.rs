@@ -14,7 +14,9 @@
 //! it beyond a limit, the node is pinned at that limit and the system solved again, which
 //! is what the netlist's clamp diodes do (to within their few-millivolt knee).
 //! A conductance of [`GMIN`] from every node to ground keeps the system regular, as SPICE
-//! simulators do.
+//! simulators do. Clamp diodes are open: they conduct only beyond the converter's range,
+//! which the design keeps clear of (the netlist exports them as real diodes, whose leakage
+//! at the operating point is far below the solver's precision).
 
 use nalgebra::{DMatrix, DVector};
 use num_complex::Complex;
@@ -212,6 +214,7 @@ impl<'a> Solver<'a> {
                     stamp_source(&mut a, &mut z, branch, idx(&p.nodes[0]), idx(&p.nodes[1]), value);
                     branch += 1;
                 }
+                PartKind::Diode => {}
                 PartKind::OpAmp => {
                     let k = self.amps.iter().position(|(r, _)| *r == p.reference).unwrap_or(0);
                     let xi = self.amps[k].1;

@@ -100,7 +100,7 @@ const PREDICTED_FIELDS: &[&str] = &[
     "band_low",
     "band_high",
 ];
-const PART_KINDS: &[&str] = &["resistor", "capacitor", "amplifier"];
+const PART_KINDS: &[&str] = &["resistor", "capacitor", "amplifier", "diode"];
 const STAGE_NAMES: &[&str] = &[
     "sensor",
     "supply",
@@ -108,6 +108,8 @@ const STAGE_NAMES: &[&str] = &[
     "reference",
     "gain",
     "converter",
+    "filter",
+    "drive",
 ];
 
 /// `design FILE` prints the whole result with the documented shape.
@@ -731,10 +733,21 @@ fn check_netlist(file: &str, testbench: bool, dual: bool) {
         Some("adc"),
         "{args:?}: RADC does not load node adc: {radc}"
     );
+    // An amplifier drives adc, directly or through the drive resistor (R between an
+    // amplifier's output and adc).
+    let amp_outputs: Vec<&str> = lines
+        .iter()
+        .filter(|l| l.starts_with('X'))
+        .filter_map(|l| l.split_whitespace().nth(5))
+        .collect();
+    let through_resistor = lines.iter().any(|l| {
+        let t: Vec<&str> = l.split_whitespace().collect();
+        l.starts_with('R')
+            && t.len() >= 3
+            && ((t[1] == "adc" && amp_outputs.contains(&t[2])) || (t[2] == "adc" && amp_outputs.contains(&t[1])))
+    });
     assert!(
-        lines
-            .iter()
-            .any(|l| l.starts_with('X') && l.split_whitespace().any(|t| t == "adc")),
+        amp_outputs.contains(&"adc") || through_resistor,
         "{args:?}: no amplifier drives node adc"
     );
     let has = |prefix: &str| lines.iter().any(|l| l.starts_with(prefix));

@@ -171,7 +171,7 @@ fn check(what: &str, c: &Circuit, s: &Schematic, req: Option<&Request>) {
             PartKind::Resistor => format(p.value, Quantity::Resistance),
             PartKind::Capacitor => format(p.value, Quantity::Capacitance),
             PartKind::OpAmp => format(p.value, Quantity::Frequency),
-            PartKind::VoltageSource => format(p.value, Quantity::Voltage),
+            PartKind::VoltageSource | PartKind::Diode => format(p.value, Quantity::Voltage),
         };
         assert!(words.iter().any(|w| w.contains(&value)), "{what}: no text with {value} for {}", p.reference);
     }

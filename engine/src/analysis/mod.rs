@@ -1,5 +1,5 @@
 //! Analyses of the rounded circuit: DC transfer, frequency response, noise against the LSB,
-//! tolerance spread (worst case and Monte Carlo) and loading.
+//! tolerance spread (worst case and Monte Carlo), loading and alias rejection.
 //!
 //! Every analysis reads the one [`Circuit`] that synthesis produced (through the solver) and
 //! returns plain data ready for JSON and for plotting; [`analyse`] runs them all and adds the
@@ -12,6 +12,7 @@ pub mod tolerance;
 pub mod noise;
 pub mod loading;
 pub mod response;
+pub mod alias;
 pub mod checks;
 
 use crate::request::Request;
@@ -61,6 +62,8 @@ pub struct Analysis {
     pub noise: noise::NoiseAnalysis,
     pub tolerance: tolerance::ToleranceAnalysis,
     pub loading: loading::LoadingAnalysis,
+    /// Required and achieved rejection at the first frequency that folds into the band.
+    pub alias: Option<alias::AliasAnalysis>,
 }
 
 /// What the analyses need to know of the prediction.
@@ -100,12 +103,14 @@ pub fn analyse(
     };
     let tolerance = tolerance::tolerance(req, circuit, &tol_cfg);
     let loading = loading::loading(req, circuit);
+    let alias = alias::alias(req, circuit);
     let a = Analysis {
         dc,
         ac,
         noise,
         tolerance,
         loading,
+        alias,
     };
     let checks = checks::checks(req, &a, nominal);
     (a, checks)

@@ -21,8 +21,15 @@
 //!   sides: the EMF's unit contribution `u` and everything else `w`. The output is then
 //!   `slope·source + intercept` for any source value.
 //!
-//! A second system treats every capacitor as a short (nodes joined, the rails at AC ground,
-//! the EMF a unit small signal) for the mid-band gain of AC-coupled stages.
+//! A second system treats every coupling, gain and reference capacitor as a short (nodes
+//! joined, the rails at AC ground, the EMF a unit small signal) for the mid-band gain of
+//! AC-coupled stages; filter and drive capacitors, whose corners lie above the band, stay open.
+//!
+//! Several amplifiers (a gain stage followed by filter sections) are handled alike: each
+//! output shares its internal node's column. The output node need not be an amplifier's:
+//! behind a drive resistor it is an ordinary unknown, and [`Kernel::output_is_amplifier`]
+//! still reports the amplifier limits as applying, since the resistor into the converter's
+//! input impedance only scales the amplifier's output slightly.
 //!
 //! What is left has a few unknowns (3–8 for the stages synthesis produces), solved by a
 //! short hand-written Gaussian elimination: a general dense-matrix library allocates per
@@ -149,10 +156,22 @@ impl Kernel {
         };
         let (dc, nodes) = ctx.system(false)?;
         let mid = ctx.system(true).ok().map(|(s, _)| s);
-        let out_amp = circuit
-            .parts
-            .iter()
-            .any(|p| p.kind == PartKind::OpAmp && p.nodes.get(4).is_some_and(|n| n == out));
+        // The output is an amplifier's, or the far end of a resistor from one (a drive
+        // resistor into a light load): the amplifier's swing limits bound it either way.
+        let amp_out = |n: &str| {
+            circuit
+                .parts
+                .iter()
+                .any(|p| p.kind == PartKind::OpAmp && p.nodes.get(4).is_some_and(|m| m == n))
+        };
+        let out_amp = amp_out(out)
+            || circuit.parts.iter().any(|p| {
+                !p.bench
+                    && p.kind == PartKind::Resistor
+                    && p.nodes.len() == 2
+                    && p.nodes.iter().any(|n| n == out)
+                    && p.nodes.iter().any(|n| n != out && amp_out(n))
+            });
         Ok(Kernel {
             params,
             dc,
@@ -168,7 +187,8 @@ impl Kernel {
         &self.params
     }
 
-    /// Whether the output node is driven by an amplifier (its swing limits apply).
+    /// Whether the output node is driven by an amplifier, directly or through one resistor
+    /// (its swing limits apply).
     pub fn output_is_amplifier(&self) -> bool {
         self.out_amp
     }

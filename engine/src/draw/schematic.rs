@@ -79,8 +79,8 @@ pub struct TestPoint {
 }
 
 /// Test points the design wants, numbered in signal order: the sensor terminal (`sense`);
-/// for AC coupling the amplifier's + input after the coupling; the amplifier output, which is
-/// the converter input (`adc`). DC coupling: the node voltages at the sensor's minimum and
+/// for AC coupling the amplifier's + input after the coupling; the converter input (`adc`:
+/// the amplifier output, or the end of the filter and drive that follow it). DC coupling: the node voltages at the sensor's minimum and
 /// maximum. AC coupling: the operating point (sensor at mid-range) ± the mid-band swing, the
 /// magnitude of the response at √(band_low·band_high) times half the sensor's swing.
 pub fn test_points(req: &Request, circuit: &Circuit) -> Vec<TestPoint> {
@@ -93,8 +93,9 @@ pub fn test_points(req: &Request, circuit: &Circuit) -> Vec<TestPoint> {
     if s.coupling == Coupling::Ac {
         want.extend(amp.and_then(|u| u.nodes.first()).cloned());
     }
-    want.push(amp.and_then(|u| u.nodes.get(4)).cloned().unwrap_or_else(|| "adc".to_string()));
     let known = circuit.nodes();
+    let converter = if known.iter().any(|n| n == "adc") { Some("adc".to_string()) } else { amp.and_then(|u| u.nodes.get(4)).cloned() };
+    want.extend(converter);
     let mut nodes: Vec<String> = Vec::new();
     for n in want {
         if n != GND && known.contains(&n) && !nodes.contains(&n) {
@@ -174,6 +175,7 @@ fn value_text(p: &Part) -> String {
         PartKind::Capacitor => format(p.value, Quantity::Capacitance),
         PartKind::VoltageSource => format(p.value, Quantity::Voltage),
         PartKind::OpAmp => format!("GBW ≥ {}", format(p.value, Quantity::Frequency)),
+        PartKind::Diode => format!("Schottky {}", format(p.value, Quantity::Voltage)),
     }
 }
 

@@ -222,6 +222,9 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
         rounding_error: error,
         plus_range: (vref - alpha * half, vref + alpha * half),
         checks: Vec::new(),
+        filter: None,
+        no_filter: None,
+        drive: None,
     };
     Some((synthesis, score))
 }

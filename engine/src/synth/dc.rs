@@ -549,5 +549,8 @@ fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synthesis {
             (a.min(b), a.max(b))
         },
         checks: Vec::new(),
+        filter: None,
+        no_filter: None,
+        drive: None,
     }
 }

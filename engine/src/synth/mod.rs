@@ -19,7 +19,10 @@
 //! others, then a neighbour-step descent on the mapping error of the rounded circuit.
 
 pub mod ac;
+pub mod chain;
 pub mod dc;
+pub mod drive;
+pub mod filter;
 pub mod round;
 
 use serde::Serialize;
@@ -59,6 +62,11 @@ pub struct Synthesis {
     /// Lowest and highest voltage the amplifier's + input sees over the source range (ideal amplifier).
     pub plus_range: (f64, f64),
     pub checks: Vec<Check>,
+    /// The anti-alias filter after the gain stage, or why there is none.
+    pub filter: Option<filter::FilterDesign>,
+    pub no_filter: Option<filter::NoFilter>,
+    /// The converter drive after the filter.
+    pub drive: Option<drive::DriveDesign>,
 }
 
 /// Where the amplifier's output and inputs may go.
@@ -126,13 +134,31 @@ impl Limits {
     }
 }
 
-/// Runs synthesis for a request that passed the feasibility checks.
+/// Runs synthesis for a request that passed the feasibility checks: the filter and drive
+/// are planned first ([`chain`]), the gain stage is designed for what they leave it to
+/// deliver, and they are attached after it.
 pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, target: Target) -> Option<Synthesis> {
+    let chain = chain::plan(req, amp, rails);
+    synthesize_with_chain(req, amp, rails, target, &chain)
+}
+
+/// [`synthesize`] with the filter and drive already planned.
+pub fn synthesize_with_chain(req: &Request, amp: &Amplifier, rails: Rails, target: Target, chain: &chain::Chain) -> Option<Synthesis> {
     let limits = Limits::of(amp, rails);
-    match req.source.coupling {
-        Coupling::Dc => dc::synthesize(req, amp, rails, target, limits),
-        Coupling::Ac => ac::synthesize(req, amp, rails, target, limits),
+    let reference = chain.reference(req, rails, target);
+    let t = chain.gain_target(req, target, reference.as_ref());
+    let mut s = match req.source.coupling {
+        Coupling::Dc => dc::synthesize(req, amp, rails, t, limits),
+        Coupling::Ac => ac::synthesize(req, amp, rails, t, limits),
+    }?;
+    chain.attach(&mut s, req, rails, reference.as_ref());
+    // Followers and Sallen-Key sections see the gain stage's output at their + inputs.
+    if s.filter.as_ref().is_some_and(|f| f.sections.iter().any(|x| x.kind != filter::sections::SectionKind::MultipleFeedback)) {
+        let (lo, hi) = (t.at_min.min(t.at_max), t.at_min.max(t.at_max));
+        s.plus_range = (s.plus_range.0.min(lo), s.plus_range.1.max(hi));
     }
+    s.target = target;
+    Some(s)
 }
 
 /// Adds the bench around the design: the sensor as `VSENSE` (EMF at the middle of its range)

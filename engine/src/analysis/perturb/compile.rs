@@ -3,7 +3,7 @@
 //! stamps, and the elimination program reused by every build (see [`super`]).
 
 use super::{Col, Elem, KernelError, Src, Step, System};
-use crate::circuit::{Circuit, Part, PartKind};
+use crate::circuit::{Circuit, Part, PartKind, StageRole};
 use crate::solve::{GM, GMIN};
 
 /// Compile-time context shared by both systems.
@@ -61,11 +61,12 @@ impl Ctx<'_> {
             }
             i
         }
-        for p in c
-            .parts
-            .iter()
-            .filter(|p| short && p.kind == PartKind::Capacitor)
-        {
+        // Filter and drive capacitors set corners above the band: open at mid-band.
+        for p in c.parts.iter().filter(|p| {
+            short
+                && p.kind == PartKind::Capacitor
+                && !matches!(p.stage, StageRole::Filter | StageRole::Drive)
+        }) {
             let (ra, rb) = (
                 root(&mut parent, at(&p.nodes[0])),
                 root(&mut parent, at(&p.nodes[1])),

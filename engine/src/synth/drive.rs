@@ -1,0 +1,163 @@
+//! The converter drive: an RC at the converter pin for sampling converters, and the
+//! protection of that pin when the amplifier can drive it beyond the converter's range.
+//!
+//! **Charge bucket** (sampling converters): when the converter connects its sampling
+//! capacitor C_in, the charge it needs comes from a capacitor at the pin, C_b, at least
+//! [`BUCKET_RATIO`] × C_in, so the step the pin sees is at most C_in/(C_in + C_b) ≈ 5 %
+//! of the difference to the previous sample (common practice); C_b is the smallest value of
+//! the capacitor series at or above that.
+//!
+//! **Settling rule.** The pin must settle to ½ LSB within the acquisition time: an
+//! exponential settles to 2^−(N+1) of a full-scale step after ln(2^(N+1)) time constants
+//! (12 bits: 9.01 τ; 16 bits: 11.78 τ). The series resistor R and C_b, plus the follower's
+//! own closed-loop time constant 1/(2π·GBW), must therefore satisfy
+//! ln(2^(N+1))·(R·C_b + 1/(2π·GBW)) ≤ t_acq.
+//!
+//! **Stability** (isolation resistor): an amplifier driving C_b directly sees a pole at
+//! 1/(2π·R_o·C_b) from its open-loop output resistance R_o; R in series adds a zero at
+//! 1/(2π·R·C_b). The phase the load costs at the amplifier's unity-gain frequency f_u (its
+//! GBW), atan(2π·f_u·(R_o + R)·C_b) − atan(2π·f_u·R·C_b), is kept within
+//! [`PHASE_LOSS_LIMIT`] (common practice: a follower keeps ≥ 45° of margin); R_o is taken
+//! as [`OUTPUT_RESISTANCE`], typical of small amplifiers.
+//!
+//! **Protection.** When the amplifier's output can reach more than [`CLAMP_DROP`] beyond
+//! the converter's range, a fault (or an overload at the sensor) pushes current into the
+//! converter's input protection; R limits it to `destination.injection_limit` (the
+//! converter's datasheet governs; default 5 mA): R ≥ (excess beyond the range − 0.3 V)/I_limit.
+//! Where the converter's lower limit is ground and the amplifier can go below it, a Schottky
+//! clamp from ground to the pin takes that current instead of the converter.
+//!
+//! R is the smallest resistor-series value meeting the stability and protection minima (it
+//! may lie below the resistor window: a drive resistor of tens of ohms is common); a
+//! settling check says whether it also meets the settling maximum.
+
+use serde::Serialize;
+
+use crate::amplifier::{Amplifier, Rails};
+use crate::request::Request;
+use crate::values;
+
+/// Charge-bucket capacitor at least this many times the sampling capacitance.
+pub const BUCKET_RATIO: f64 = 20.0;
+/// Open-loop output resistance assumed for the amplifier, Ω (common practice).
+pub const OUTPUT_RESISTANCE: f64 = 100.0;
+/// Phase the capacitive load may cost at the unity-gain frequency, degrees.
+pub const PHASE_LOSS_LIMIT: f64 = 20.0;
+/// Forward voltage of a clamp (Schottky) and headroom before protection matters, V.
+pub const CLAMP_DROP: f64 = 0.3;
+/// Smallest drive resistor, Ω.
+pub const R_MIN: f64 = 10.0;
+
+/// The designed drive (`drive` in the design output).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct DriveDesign {
+    /// Series resistor from the last amplifier to the converter pin, Ω.
+    pub resistor: f64,
+    /// Charge-bucket capacitor at the pin, F (sampling converters).
+    pub capacitor: Option<f64>,
+    /// A Schottky clamp from ground to the pin.
+    pub clamp_to_ground: bool,
+    /// ln(2^(N+1)): time constants to settle to ½ LSB.
+    pub settling_time_constants: f64,
+    /// Settling time of the pin with the chosen parts, s (sampling converters).
+    pub settling_time: Option<f64>,
+    pub acquisition_time: f64,
+    /// Minimum R for stability (0 without a bucket), for protection, and maximum R for settling, Ω.
+    pub r_stability_min: f64,
+    pub r_protection_min: f64,
+    pub r_settling_max: Option<f64>,
+    /// Phase the load costs at the unity-gain frequency with the chosen R, degrees.
+    pub phase_loss_deg: Option<f64>,
+    /// Largest current a fault at the rails pushes into the pin through R, A.
+    pub fault_current: f64,
+    pub injection_limit: f64,
+    /// How far beyond the converter's range (above, below) the amplifier can drive the pin, V.
+    pub overdrive: [f64; 2],
+}
+
+/// Time constants an exponential needs to settle to ½ LSB of an N-bit converter: ln(2^(N+1)).
+pub fn settling_time_constants(bits: u32) -> f64 {
+    (bits as f64 + 1.0) * std::f64::consts::LN_2
+}
+
+/// Phase (degrees) that `c` behind `r` costs a follower with unity-gain frequency `f_u`.
+pub fn phase_loss_deg(r: f64, c: f64, f_u: f64) -> f64 {
+    let w = 2.0 * std::f64::consts::PI * f_u * c;
+    ((w * (OUTPUT_RESISTANCE + r)).atan() - (w * r).atan()).to_degrees()
+}
+
+/// The drive the request needs, or `None` when the converter needs neither a bucket nor
+/// protection.
+pub fn design(req: &Request, amp: &Amplifier, rails: Rails) -> Option<DriveDesign> {
+    let d = &req.destination;
+    let (out_lo, out_hi) = amp.output_limits(rails);
+    let over_hi = (out_hi - d.max).max(0.0);
+    let over_lo = (d.min - out_lo).max(0.0);
+    let worst = (over_hi - CLAMP_DROP).max(over_lo - CLAMP_DROP).max(0.0);
+    let r_protection_min = worst / d.injection_limit;
+    let sampling = d.converter.samples();
+    if !sampling && r_protection_min <= 0.0 {
+        return None;
+    }
+    let rser = req.parts.resistor_series;
+    let n_tau = settling_time_constants(d.bits);
+    let tau_amp = 1.0 / (2.0 * std::f64::consts::PI * amp.gbw.max(1.0));
+    let capacitor = if sampling { values::step_up(req.parts.capacitor_series, BUCKET_RATIO * d.input_capacitance) } else { None };
+    let r_stability_min = match capacitor {
+        Some(c) => stability_min(c, amp.gbw),
+        None => 0.0,
+    };
+    let r_settling_max = capacitor.map(|c| ((d.acquisition_time / n_tau - tau_amp) / c).max(0.0));
+    let want = r_stability_min.max(r_protection_min).max(R_MIN);
+    let resistor = values::step_up(rser, want).unwrap_or(want);
+    let settling_time = capacitor.map(|c| n_tau * (resistor * c + tau_amp));
+    let phase = capacitor.map(|c| phase_loss_deg(resistor, c, amp.gbw));
+    let clamp_to_ground = over_lo > CLAMP_DROP && d.min.abs() <= 0.01;
+    Some(DriveDesign {
+        resistor,
+        capacitor,
+        clamp_to_ground,
+        settling_time_constants: n_tau,
+        settling_time,
+        acquisition_time: d.acquisition_time,
+        r_stability_min,
+        r_protection_min,
+        r_settling_max,
+        phase_loss_deg: phase,
+        fault_current: (over_hi.max(over_lo) - CLAMP_DROP).max(0.0) / resistor,
+        injection_limit: d.injection_limit,
+        overdrive: [over_hi, over_lo],
+    })
+}
+
+/// Smallest series resistor that keeps the phase the load `c` costs within the limit.
+fn stability_min(c: f64, f_u: f64) -> f64 {
+    if phase_loss_deg(0.0, c, f_u) <= PHASE_LOSS_LIMIT {
+        return 0.0;
+    }
+    let (mut lo, mut hi) = (0.0, 1e6);
+    if phase_loss_deg(hi, c, f_u) > PHASE_LOSS_LIMIT {
+        return hi;
+    }
+    for _ in 0..100 {
+        let m = 0.5 * (lo + hi);
+        if phase_loss_deg(m, c, f_u) > PHASE_LOSS_LIMIT {
+            lo = m;
+        } else {
+            hi = m;
+        }
+    }
+    hi
+}
+
+impl DriveDesign {
+    /// DC ratio of the pin to the drive resistor's input with the converter's input
+    /// impedance `r_in` as load.
+    pub fn dc_factor(&self, r_in: f64) -> f64 {
+        if r_in > 0.0 && r_in.is_finite() {
+            r_in / (r_in + self.resistor)
+        } else {
+            1.0
+        }
+    }
+}
