@@ -3,7 +3,8 @@
 //! response of such a cascade.
 //!
 //! * **Flat (Butterworth):** poles evenly spaced on the unit circle; −3 dB at 1.
-//!   Section k of order n has f_n = 1 and Q = 1/(2·cos((2k−1)π/(2n))).
+//!   Section k (1 … ⌊n/2⌋) of order n has f_n = 1 and Q = 1/(2·sin((2k−1)π/(2n))); odd
+//!   orders add a real pole at 1.
 //! * **Linear phase (Bessel):** the roots of the reverse Bessel polynomial
 //!   θ_n(s) = Σ a_k s^k with a_k = (2n−k)!/(2^(n−k)·k!·(n−k)!), found by the
 //!   Aberth–Ehrlich iteration (no table), which gives the delay-normalised poles; they are
