@@ -13,6 +13,7 @@ use crate::diag::Severity;
 use crate::draw::schematic::{self, SchematicConfig};
 use crate::draw::svg::escape;
 use crate::request::Coupling;
+use crate::synth::filter::sections::SectionKind;
 use crate::units::{format, Quantity};
 
 /// Options of the report.
@@ -52,6 +53,7 @@ pub fn report_with(d: &Design, cfg: &ReportConfig) -> String {
     }
     checks(&mut h, d);
     mapping(&mut h, d);
+    filter_and_drive(&mut h, d);
     if cfg.plots {
         plots(&mut h, d);
     }
@@ -144,6 +146,61 @@ fn checks(h: &mut String, d: &Design) {
         .map(|c| format!("<tr><td><span class=\"sev sev-{s}\">{s}</span></td><td><code>{}</code></td><td>{}</td></tr>", escape(&c.id), escape(&c.message), s = c.severity))
         .collect();
     section(h, "Checks", &format!("<table><tr><th>Verdict</th><th>Check</th><th>Finding and what to change</th></tr>{rows}</table>"));
+}
+
+/// The anti-alias filter (sections as designed and as rounded) and the converter drive.
+fn filter_and_drive(h: &mut String, d: &Design) {
+    let mut body = String::new();
+    let alias = d.analysis.as_ref().and_then(|a| a.alias);
+    if let Some(f) = &d.filter {
+        let rows: String = f
+            .sections
+            .iter()
+            .enumerate()
+            .map(|(k, s)| {
+                let kind = match s.kind {
+                    SectionKind::FirstOrder => "first order",
+                    SectionKind::SallenKey => "Sallen-Key",
+                    SectionKind::MultipleFeedback => "multiple feedback",
+                };
+                let q = |x: f64| if s.kind == SectionKind::FirstOrder { "—".to_string() } else { format!("{x:.4}") };
+                format!(
+                    "<tr><td>{}</td><td>{kind}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{:+.2} %</td></tr>",
+                    k + 1, escape(&hz(s.f_n)), q(s.q), escape(&hz(s.f_n_rounded)), q(s.q_rounded), 100.0 * s.f_n_error
+                )
+            })
+            .collect();
+        body.push_str(&format!(
+            "<p>{} low-pass of order {}, corner {}.</p><table><tr><th>Section</th><th>Kind</th><th>f_n wanted</th><th>Q wanted</th><th>f_n rounded</th><th>Q rounded</th><th>f_n change</th></tr>{rows}</table>",
+            escape(f.response.name()), f.order, escape(&hz(f.corner))
+        ));
+    }
+    if let Some(a) = alias {
+        body.push_str(&kv(&[
+            ("First alias frequency", hz(a.frequency)),
+            ("Rejection required there", format!("{:.1} dB", a.required_db)),
+            ("Rejection of the rounded circuit", format!("{:.1} dB", a.achieved_db)),
+        ]));
+    }
+    if let Some(dr) = &d.drive {
+        let mut rows = vec![("Drive resistor", format(dr.resistor, Quantity::Resistance))];
+        if let Some(c) = dr.capacitor {
+            rows.push(("Charge bucket", format(c, Quantity::Capacitance)));
+        }
+        if let Some(t) = dr.settling_time {
+            rows.push(("Settling to ½ LSB", format!("{} of {} acquisition time", format(t, Quantity::Time), format(dr.acquisition_time, Quantity::Time))));
+        }
+        if dr.fault_current > 0.0 {
+            rows.push(("Fault current into the pin", format!("{} (limit {})", format(dr.fault_current, Quantity::Current), format(dr.injection_limit, Quantity::Current))));
+        }
+        if dr.clamp_to_ground {
+            rows.push(("Clamp", "Schottky from ground".to_string()));
+        }
+        body.push_str(&kv(&rows));
+    }
+    if !body.is_empty() {
+        section(h, "Anti-alias filter and converter drive", &body);
+    }
 }
 
 fn mapping(h: &mut String, d: &Design) {
