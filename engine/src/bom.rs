@@ -81,8 +81,9 @@ pub fn bom(design: &Design) -> Vec<BomRow> {
             PartKind::Diode => diode_row(p, &stress),
             PartKind::VoltageSource => continue,
         };
-        // One row per distinct part: same kind, value, tolerance, rating and construction.
-        match rows.iter_mut().find(|r| r.kind == row.kind && r.value == row.value && r.tolerance == row.tolerance && r.rating == row.rating && r.construction == row.construction && r.kind != "amplifier") {
+        // One row per distinct part: same kind, value, tolerance, rating and construction
+        // (every amplifier of the design is the same part, meeting the same requirements).
+        match rows.iter_mut().find(|r| r.kind == row.kind && r.value == row.value && r.tolerance == row.tolerance && r.rating == row.rating && r.construction == row.construction) {
             Some(r) => {
                 r.designators.extend(row.designators);
                 r.quantity += 1;

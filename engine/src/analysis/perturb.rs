@@ -361,6 +361,9 @@ struct System {
     /// The compiled elimination is usable (else every build uses full partial pivoting).
     compiled: bool,
     steps: Vec<Step>,
+    /// Flat indices the compiled elimination reads or writes (structural non-zeros with
+    /// their fill-in): only these are reset from the base per build.
+    touched: Vec<usize>,
 }
 
 impl System {
@@ -399,8 +402,12 @@ impl System {
         w: &mut [f64],
     ) -> Option<(f64, f64)> {
         let n = self.n;
-        self.assemble(g, a, u, w);
         let mut ok = self.compiled;
+        if ok {
+            self.assemble_touched(g, a, u, w);
+        } else {
+            self.assemble(g, a, u, w);
+        }
         for st in &self.steps {
             let d = a[st.k * n + st.k];
             let holds = d.abs() >= 0.5 * st.nominal;
@@ -426,6 +433,28 @@ impl System {
         let inv = 1.0 / a[n * n - 1];
         let (s, i) = (u[n - 1] * inv, w[n - 1] * inv);
         (s.is_finite() && i.is_finite()).then_some((s, i))
+    }
+
+    /// [`System::assemble`] for the compiled elimination: only the entries it touches are
+    /// reset, which for the chain-shaped systems of a gain stage and its filter sections is a
+    /// small part of the n² a full copy would move.
+    #[inline(always)]
+    fn assemble_touched(&self, g: &[f64], a: &mut [f64], u: &mut [f64], w: &mut [f64]) {
+        for &k in &self.touched {
+            a[k] = self.base[k];
+        }
+        u.copy_from_slice(&self.base_u);
+        w.copy_from_slice(&self.base_w);
+        for &(k, e, sign) in &self.mat {
+            a[k] += sign * g[e];
+        }
+        for &(r, e, cu, cw) in &self.rhs {
+            u[r] += cu * g[e];
+            w[r] += cw * g[e];
+        }
+        for s in &self.srcs {
+            w[s.row] += s.coef * g[s.param];
+        }
     }
 
     /// The build's matrix and right-hand sides: the base, plus each perturbed conductance

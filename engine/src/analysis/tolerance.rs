@@ -19,6 +19,11 @@
 //! * each amplifier's input offset and the bias currents of its two inputs (independently):
 //!   normal with the stated figure as 3σ, truncated at ±the figure.
 //!
+//! Parameters whose full-range effect (from the worst-case analysis) moves no quantity by
+//! more than [`NEGLIGIBLE_EFFECT`] of the converter span are held nominal in the Monte Carlo
+//! — a filter section's resistors, for one, carry only bias currents at DC — and listed in
+//! `distributions`.
+//!
 //! The generator is ChaCha8 seeded with the configured seed, so a seed gives the same builds
 //! on every platform. Builds are solved by the compiled kernel of [`super::perturb`].
 //!
@@ -167,9 +172,51 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
         bins: cfg.bins.min(MAX_BINS),
     };
     let mut ws = model.kernel.workspace();
-    let worst_case = worst_case(&model, &mut ws);
-    let (builds, counts) = draw_builds(&model, &mut ws, req, cfg);
-    let notes = distributions(model.kernel.params());
+    let (worst_case, effect) = worst_case(&model, &mut ws);
+    let span = (req.destination.max - req.destination.min).abs();
+    let drawn = significant(&effect, span);
+    // The builds run on a kernel in which the parts held nominal (and the capacitors, which
+    // move no quantity) are fixed, so each build stamps and inverts only what varies.
+    let fixed: Vec<&str> = model
+        .kernel
+        .params()
+        .iter()
+        .zip(&drawn)
+        .filter(|(p, d)| p.kind == ParamKind::Capacitor || (p.kind == ParamKind::Resistor && !**d))
+        .map(|(p, _)| p.part.as_str())
+        .collect();
+    let lean = (!fixed.is_empty())
+        .then(|| {
+            let mut c = circuit.clone();
+            for p in c.parts.iter_mut().filter(|p| fixed.contains(&p.reference.as_str())) {
+                p.tolerance = None;
+            }
+            Model::new(req, &c).ok()
+        })
+        .flatten();
+    let mc = lean.as_ref().unwrap_or(&model);
+    let mc_drawn: Vec<bool> = mc
+        .kernel
+        .params()
+        .iter()
+        .map(|q| {
+            let same = |p: &&Param| p.kind == q.kind && p.part == q.part;
+            model.kernel.params().iter().position(|p| same(&p)).map_or(true, |i| drawn[i])
+        })
+        .collect();
+    let mut mc_ws = mc.kernel.workspace();
+    let (builds, counts) = draw_builds(mc, &mut mc_ws, req, cfg, &mc_drawn);
+    let mut notes = distributions(model.kernel.params());
+    let held: Vec<String> = model.kernel.params().iter().zip(&drawn).filter(|(p, d)| !**d && p.kind != ParamKind::Capacitor).map(|(p, _)| match p.kind {
+        ParamKind::Resistor => p.part.clone(),
+        ParamKind::Offset => format!("{} offset", p.part),
+        _ => format!("{} bias current", p.part),
+    }).collect();
+    if !held.is_empty() {
+        let mut held = held;
+        held.dedup();
+        notes.push(format!("Held nominal because their full range moves no quantity by more than {} of the span: {}.", NEGLIGIBLE_EFFECT, held.join(", ")));
+    }
     let monte_carlo = summary::monte_carlo(builds, counts, cfg.runs, req, cfg, notes);
     ToleranceAnalysis {
         worst_case,
@@ -294,12 +341,31 @@ impl WorstCase {
 
 const METHOD: &str = "Extreme values over the tolerance box (each part at ±its tolerance, each amplifier's offset and bias currents at ±their figures). For each quantity the sign of every parameter's effect, from a central difference across its full range, picks the vertex that pushes the quantity up and the one that pushes it down; single-parameter flips are then tried at each until none improves it. This suffices because every node voltage is a ratio of two functions that are linear in each part's conductance, the offset and each bias current taken separately, so each quantity is monotone in each parameter across a box of a few per cent and its extremes lie at vertices.";
 
-fn worst_case(model: &Model, ws: &mut Workspace) -> WorstCase {
+/// Parameters whose effect across their full range on every quantity stays below this
+/// fraction of the converter span (gain: of itself) are held nominal in the Monte Carlo:
+/// their spread is far below anything the yield or the statistics can show (a filter
+/// section's resistors, for one, carry only bias currents at DC).
+pub const NEGLIGIBLE_EFFECT: f64 = 1e-7;
+
+/// Which parameters the Monte Carlo draws, from each one's full-range effect.
+fn significant(effect: &[[f64; 4]], span: f64) -> Vec<bool> {
+    let gain_scale = effect.iter().map(|e| e[2].abs()).fold(0.0, f64::max).max(1e-12);
+    effect
+        .iter()
+        .map(|e| {
+            let scale = [span, span, gain_scale, span];
+            (0..4).any(|q| !(e[q].abs() < NEGLIGIBLE_EFFECT * scale[q]))
+        })
+        .collect()
+}
+
+/// The worst case and each parameter's full-range effect on the four quantities.
+fn worst_case(model: &Model, ws: &mut Workspace) -> (WorstCase, Vec<[f64; 4]>) {
     let bounds: Vec<f64> = model.kernel.params().iter().map(|p| p.bound).collect();
     let n = bounds.len();
     let mut p = vec![0.0; n];
     let Some(nominal) = model.raw(&p, ws) else {
-        return WorstCase::unknown("the nominal circuit has no solution");
+        return (WorstCase::unknown("the nominal circuit has no solution"), vec![[1.0; 4]; n]);
     };
     // Effect of each parameter across its full range, for every quantity.
     let mut effect = vec![[0.0; 4]; n];
@@ -372,13 +438,16 @@ fn worst_case(model: &Model, ws: &mut Workspace) -> WorstCase {
     } else if limited {
         method.push_str(" An output reaches the amplifier's swing limit at a vertex and is held there; the gain and offset bounds then follow from the limited outputs by interval arithmetic (they may be wider than any build reaches).");
     }
-    WorstCase {
-        output_at_min: y1,
-        output_at_max: y2,
-        gain,
-        offset,
-        method,
-    }
+    (
+        WorstCase {
+            output_at_min: y1,
+            output_at_max: y2,
+            gain,
+            offset,
+            method,
+        },
+        effect,
+    )
 }
 
 /// Draws and solves the builds: each build's limited quantities, and the counts of builds
@@ -388,6 +457,7 @@ fn draw_builds(
     ws: &mut Workspace,
     req: &Request,
     cfg: &ToleranceConfig,
+    drawn: &[bool],
 ) -> (Vec<[f64; 4]>, [usize; 3]) {
     let params = model.kernel.params();
     let mut rng = ChaCha8Rng::seed_from_u64(cfg.seed);
@@ -399,7 +469,7 @@ fn draw_builds(
         params
             .iter()
             .enumerate()
-            .filter(|(_, q)| want(q.kind))
+            .filter(|(i, q)| want(q.kind) && drawn.get(*i).copied().unwrap_or(true))
             .map(|(i, q)| (i, q.bound))
             .collect()
     };

@@ -145,6 +145,7 @@ impl Ctx<'_> {
             out: col(out_node),
             compiled: false,
             steps: Vec::new(),
+            touched: Vec::new(),
         };
         for i in 0..n {
             s.base[i * n + i] += GMIN;
@@ -321,6 +322,7 @@ impl System {
             }
             plan.push((k, rows, cols));
         }
+        self.touched = (0..n * n).filter(|&i| nz[i]).collect();
         let mut needed = vec![false; n];
         needed[n - 1] = true;
         for (k, rows, _) in plan.iter_mut().rev() {
