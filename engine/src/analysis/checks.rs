@@ -79,7 +79,7 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
         if fh > nyquist {
             c.push(Check::warning(
                 "aliasing",
-                format!("The response reaches {} before it falls 3 dB, above the converter's Nyquist frequency {}; noise and interference between them fold back into the band. A low-pass filter at the band edge stops it.", hz(fh), hz(nyquist)),
+                format!("The response reaches {} before it falls 3 dB, above the converter's Nyquist frequency {}; noise and interference between them fold back into the band (the alias_rejection check says how much rejection the converter needs there and what the design gives).", hz(fh), hz(nyquist)),
             ));
         }
     }
