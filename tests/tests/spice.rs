@@ -331,7 +331,7 @@ fn check(case: &Case) -> Result<Measured, Vec<String>> {
         p.output_at_min.min(p.output_at_max),
         p.output_at_min.max(p.output_at_max),
     );
-    let slack = 1e-9 * span;
+    let slack = rangefit_engine::synth::HEADROOM_SLACK * span;
     if lo < want_lo - slack || hi > want_hi + slack {
         problems.push(format!(
             "predicted range {lo:.6} … {hi:.6} V leaves the converter range less {:.1} % headroom ({want_lo:.6} … {want_hi:.6} V)",

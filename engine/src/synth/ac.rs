@@ -101,7 +101,7 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
         let (lo, hi) = (t.at_min, t.at_max);
         let (y_lo, y_hi) = (vref - m_a * half, vref + m_a * half);
         let out = ((lo - y_lo).max(0.0) + (y_hi - hi).max(0.0)) / span;
-        if out > 1e-9 {
+        if out > super::HEADROOM_SLACK {
             c += 1.0 + 100.0 * out;
         }
         if rs > 0.0 {

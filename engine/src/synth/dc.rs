@@ -221,7 +221,7 @@ impl Ctx<'_> {
             let y = net.output(x, self.rs, self.rails);
             let out = ((lo - y).max(0.0) + (y - hi).max(0.0)) / self.span;
             // Any outward miss beyond arithmetic noise loses to every inward one.
-            if out > 1e-9 {
+            if out > super::HEADROOM_SLACK {
                 c += 1.0 + 100.0 * out;
             }
         }
