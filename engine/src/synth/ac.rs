@@ -97,12 +97,12 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
         let (rb, ra, ..) = unpack(v);
         let (m_a, vref, _) = mapping(v);
         let mut c = ((m_a - m).abs() * half + (vref - yc).abs()) / span;
-        // Missing outward leaves the range: penalised so that every inward miss wins.
+        // Missing outward leaves the range: ten times the cost of missing inward.
         let (lo, hi) = (t.at_min, t.at_max);
         let (y_lo, y_hi) = (vref - m_a * half, vref + m_a * half);
         let out = ((lo - y_lo).max(0.0) + (y_hi - hi).max(0.0)) / span;
         if out > super::HEADROOM_SLACK {
-            c += 1.0 + 100.0 * out;
+            c += 10.0 * out;
         }
         if rs > 0.0 {
             c += 0.5 * rs / (ra + rb);
