@@ -302,7 +302,7 @@ fn run_ngspice(tag: &str, deck: &str) -> String {
         Ok(o) => o,
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => panic!(
             "ngspice is not installed, and this test needs it as the independent simulator: install it \
-             (Debian: `apt-get install ngspice`; scripts/install.sh does)"
+             (Debian: `apt-get install ngspice`; .ci/install.sh does)"
         ),
         Err(e) => panic!("cannot run ngspice: {e}"),
     };

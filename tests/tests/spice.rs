@@ -18,7 +18,7 @@
 //! also run unchanged and must complete without errors.
 //!
 //! The requests are scenarios of our own, written inline; none is a demo file. ngspice must
-//! be installed (`.ci/run` installs it through `scripts/install.sh`); without it these
+//! be installed (`.ci/run` installs it through `.ci/install.sh`); without it these
 //! tests fail, they never skip.
 
 use std::collections::HashMap;
@@ -115,7 +115,7 @@ fn run_ngspice(tag: &str, deck: &str) -> (bool, String, String) {
         Ok(o) => o,
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => panic!(
             "ngspice is not installed, and these tests need it as the independent simulator: \
-             install it (Debian: `apt-get install ngspice`; `.ci/run` installs it through scripts/install.sh)"
+             install it (Debian: `apt-get install ngspice`; `.ci/run` installs it through .ci/install.sh)"
         ),
         Err(e) => panic!("cannot run ngspice: {e}"),
     };
