@@ -178,6 +178,8 @@ pub fn schematic(circuit: &Circuit, op: Option<&DcSolution>, ranges: &[TestPoint
 /// Designator's companion: the value with its unit.
 fn value_text(p: &Part) -> String {
     match p.kind {
+        // The bench models an ideal source as 1 mΩ so that its terminal stays a node.
+        PartKind::Resistor if p.bench && p.reference == "RSENSE" && p.value <= 1e-3 => "0 Ω".to_string(),
         PartKind::Resistor => format(p.value, Quantity::Resistance),
         PartKind::Capacitor => format(p.value, Quantity::Capacitance),
         PartKind::VoltageSource => format(p.value, Quantity::Voltage),
