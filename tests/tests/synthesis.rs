@@ -182,6 +182,24 @@ fn solver_matches_closed_form_circuits() {
             },
             rel_tol: 1e-4,
         },
+        // Transimpedance stage, single-pole amplifier model (references.md, Graeme,
+        // "Photodiode Amplifiers", 1996, from memory for the book): R_f 1 MΩ, C_in 10 pF,
+        // GBW 10 MHz with the maximally flat C_f = 0.5640 pF → −3 dB at 388.15 kHz
+        // (re-checked by nodal analysis in references.md). The photocurrent is VSENSE
+        // through 1 GΩ; tolerance 1 % for that resistor and the finite open-loop gain.
+        Case {
+            name: "transimpedance 1M/10p/0.564p",
+            circuit: circuit(amp(10e6, 1e7), |b| {
+                r(b, 1e9, "sense", "inn1");
+                c(b, 10e-12, "inn1", "0");
+                r(b, 1e6, "adc", "inn1");
+                c(b, 0.5640e-12, "adc", "inn1");
+                u(b, "0", "inn1");
+            }),
+            measure: |c| f3db(c, 10.0, true),
+            expected: 388.15e3,
+            rel_tol: 1e-2,
+        },
         // Multiple-feedback low-pass (R1 in→A, R2 A→out, R3 A→−in, C_g A→gnd, C_f out→−in):
         // 10k,10k,10k,10 nF,1 nF → gain −1, f_n 5032.92 Hz, Q 1.05409 (references.md);
         // a second-order low-pass has |H(f_n)| = Q·|H(0)|.
