@@ -427,3 +427,25 @@ pub async fn timings(client: &Client, name: &str) -> Vec<(f64, f64)> {
     let v = eval(client, "return performance.getEntriesByName(arguments[0]).map(e => [e.startTime, e.duration]);", vec![json!(name)]).await;
     serde_json::from_value(v).unwrap_or_default()
 }
+
+/// Runs `deck` with `ngspice -b` (the independent SPICE3-compatible simulator, Debian package
+/// `ngspice`) from a temporary file and returns (success, stdout, stderr). Fails the test,
+/// saying how to install it, when ngspice is missing — never skips.
+pub fn run_ngspice(tag: &str, deck: &str) -> (bool, String, String) {
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    static RUN: AtomicUsize = AtomicUsize::new(0);
+    let safe: String = tag.chars().map(|c| if c.is_ascii_alphanumeric() { c } else { '-' }).collect();
+    let path = std::env::temp_dir().join(format!("rangefit-spice-{}-{}-{safe}.cir", std::process::id(), RUN.fetch_add(1, Ordering::SeqCst)));
+    std::fs::write(&path, deck).unwrap_or_else(|e| panic!("cannot write {}: {e}", path.display()));
+    let run = std::process::Command::new("ngspice").arg("-b").arg(&path).output();
+    let _ = std::fs::remove_file(&path);
+    let out = match run {
+        Ok(o) => o,
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => panic!(
+            "ngspice is not installed, and these tests need it as the independent simulator: \
+             install it (Debian: `apt-get install ngspice`; `.ci/run` installs it through .ci/install.sh)"
+        ),
+        Err(e) => panic!("cannot run ngspice: {e}"),
+    };
+    (out.status.success(), String::from_utf8_lossy(&out.stdout).into_owned(), String::from_utf8_lossy(&out.stderr).into_owned())
+}

@@ -22,9 +22,6 @@
 //! tests fail, they never skip.
 
 use std::collections::HashMap;
-use std::path::PathBuf;
-use std::process::Command;
-use std::sync::atomic::{AtomicUsize, Ordering};
 
 use rangefit_engine::diag::Severity;
 use rangefit_engine::netlist::{netlist, NetlistConfig};
@@ -95,35 +92,9 @@ fn deck(netlist: &str, control: &[String]) -> String {
     )
 }
 
-/// Runs `deck` with `ngspice -b` from a temporary file; returns (success, stdout, stderr).
-/// Fails the test, saying how to install it, when ngspice is missing.
+/// Runs `deck` with `ngspice -b` (the shared runner in the tests crate's library).
 fn run_ngspice(tag: &str, deck: &str) -> (bool, String, String) {
-    static RUN: AtomicUsize = AtomicUsize::new(0);
-    let safe: String = tag
-        .chars()
-        .map(|c| if c.is_ascii_alphanumeric() { c } else { '-' })
-        .collect();
-    let path: PathBuf = std::env::temp_dir().join(format!(
-        "rangefit-spice-{}-{}-{safe}.cir",
-        std::process::id(),
-        RUN.fetch_add(1, Ordering::SeqCst)
-    ));
-    std::fs::write(&path, deck).unwrap_or_else(|e| panic!("cannot write {}: {e}", path.display()));
-    let run = Command::new("ngspice").arg("-b").arg(&path).output();
-    let _ = std::fs::remove_file(&path);
-    let out = match run {
-        Ok(o) => o,
-        Err(e) if e.kind() == std::io::ErrorKind::NotFound => panic!(
-            "ngspice is not installed, and these tests need it as the independent simulator: \
-             install it (Debian: `apt-get install ngspice`; `.ci/run` installs it through .ci/install.sh)"
-        ),
-        Err(e) => panic!("cannot run ngspice: {e}"),
-    };
-    (
-        out.status.success(),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
+    rangefit_tests::run_ngspice(tag, deck)
 }
 
 /// Runs `deck` and returns the printed values, which must be exactly the vectors named in
