@@ -20,15 +20,10 @@ use rangefit_engine::{demos, design, Request};
 use rangefit_tests::*;
 use serde_json::{json, Value};
 
-const LIMIT: Duration = Duration::from_secs(30);
+mod common;
+use common::expected_rows;
 
-/// The part list the page must show for `req`: one row per line of the engine's part list.
-fn expected_rows(req: &Request) -> Vec<Vec<String>> {
-    bom(&design(req))
-        .into_iter()
-        .map(|r| vec![r.designators.join(" "), r.quantity.to_string(), r.kind, r.value, r.tolerance, r.rating, r.construction, r.notes])
-        .collect()
-}
+const LIMIT: Duration = Duration::from_secs(30);
 
 fn request(json: &Value) -> Request {
     Request::from_value(json).unwrap_or_else(|e| panic!("test request is valid: {e}"))

@@ -8,19 +8,14 @@
 use std::time::Duration;
 
 use fantoccini::{Client, Locator};
-use rangefit_engine::bom::bom;
-use rangefit_engine::{demos, design, Request};
+use rangefit_engine::{demos, Request};
 use rangefit_tests::*;
 use serde_json::{json, Value};
 
-const LIMIT: Duration = Duration::from_secs(30);
+mod common;
+use common::expected_rows;
 
-fn expected_rows(req: &Request) -> Vec<Vec<String>> {
-    bom(&design(req))
-        .into_iter()
-        .map(|r| vec![r.designators.join(" "), r.quantity.to_string(), r.kind, r.value, r.tolerance, r.rating, r.construction, r.notes])
-        .collect()
-}
+const LIMIT: Duration = Duration::from_secs(30);
 
 fn demo_json(i: usize) -> Value {
     serde_json::from_str(demos::ALL[i].json).expect("demo is JSON")
