@@ -154,7 +154,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
         let under = (band_lo - lo).max(0.0);
         let over = (hi - band_hi).max(0.0);
-        let done = under <= 1e-9 * span && over <= 1e-9 * span;
+        let done = under <= synth::HEADROOM_SLACK * span && over <= synth::HEADROOM_SLACK * span;
         result = Some((s, p));
         if done {
             break;
@@ -404,7 +404,8 @@ fn design_checks(req: &Request, s: &synth::Synthesis, p: &Predicted, amp: &Ampli
     let d = &req.destination;
     let span = d.max - d.min;
     let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
-    let (want_lo, want_hi) = (d.min + d.headroom * span - 1e-9 * span, d.max - d.headroom * span + 1e-9 * span);
+    let slack = synth::HEADROOM_SLACK * span;
+    let (want_lo, want_hi) = (d.min + d.headroom * span - slack, d.max - d.headroom * span + slack);
     let used = (hi - lo) / span * 100.0;
     if lo >= want_lo && hi <= want_hi {
         c.push(Check::ok("headroom", format!("The sensor's range lands on {} … {}, {:.1} % of the converter span, inside the {:.1} % headroom at each end.", v(lo), v(hi), used, d.headroom * 100.0)));

@@ -146,5 +146,6 @@ pub fn c_header(d: &Design, sc: &Scaling) -> String {
 
 /// Text safe inside a C block comment.
 fn comment_safe(s: &str) -> String {
-    s.replace("*/", "* /").chars().map(|c| if c.is_control() { ' ' } else { c }).collect()
+    // Break comment delimiters and trigraphs (C99 reads "??/" as a backslash).
+    s.replace("*/", "* /").replace("/*", "/ *").replace("??", "? ?").chars().map(|c| if c.is_control() { ' ' } else { c }).collect()
 }

@@ -293,6 +293,10 @@ pub fn format_sig(value: f64, q: Quantity, sig: usize) -> String {
         return "—".to_string();
     }
     let sig = sig.clamp(1, 17);
+    // Slew rates read in V/µs, the way amplifier figures are quoted (common practice).
+    if q == Quantity::SlewRate {
+        return format!("{} V/µs", format_sig(value * 1e-6, Quantity::Ratio, sig));
+    }
     let (number, prefix) = if value == 0.0 {
         ("0".to_string(), "")
     } else {

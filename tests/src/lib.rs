@@ -9,11 +9,13 @@ use std::future::Future;
 use std::net::{Ipv4Addr, SocketAddrV4, TcpListener, TcpStream};
 use std::path::{Path, PathBuf};
 use std::process::{Child, Command, Stdio};
+use std::sync::{Arc, Mutex};
 use std::time::{Duration, Instant};
 
+use fantoccini::elements::Element;
 use fantoccini::{Client, ClientBuilder, Locator};
 use hyper_util::client::legacy::connect::HttpConnector;
-use serde_json::json;
+use serde_json::{json, Value};
 
 /// Chromium binary used by the tests (Debian's `chromium` package).
 pub const CHROMIUM: &str = "/usr/bin/chromium";
@@ -39,7 +41,7 @@ pub fn dist_dir() -> PathBuf {
     assert!(
         index.is_file(),
         "{} is missing: the browser tests load the release bundle. \
-         Run scripts/test.sh, which builds it with `trunk build --release` and then runs all tests.",
+         Run .ci/test.sh, which builds it with `trunk build --release` and then runs all tests.",
         index.display()
     );
     dist
@@ -132,7 +134,7 @@ impl Chromedriver {
     pub fn start() -> Chromedriver {
         assert!(
             Path::new(CHROMIUM).is_file(),
-            "{CHROMIUM} not found: install the `chromium` and `chromium-driver` packages (scripts/install.sh does)"
+            "{CHROMIUM} not found: install the `chromium` and `chromium-driver` packages (.ci/install.sh does)"
         );
         let port = free_port();
         let mut process = ChildGuard::spawn(
@@ -271,4 +273,179 @@ pub async fn texts(client: &Client, css: &str) -> Vec<String> {
         }
     }
     out
+}
+
+/// A running bundle server and chromedriver, from which a test opens as many browser
+/// sessions as it needs. Every session starts with a fresh, empty profile (chromedriver
+/// makes a new temporary profile per session), so a second session is "another browser".
+pub struct Env {
+    url: String,
+    driver: Chromedriver,
+    server: Mutex<Option<StaticServer>>,
+    sessions: Mutex<Vec<Client>>,
+}
+
+impl Env {
+    /// The site root, e.g. `http://127.0.0.1:34567/`.
+    pub fn url(&self) -> &str {
+        &self.url
+    }
+
+    /// Opens a new browser session (fresh profile) at the site root plus `suffix`
+    /// (e.g. `#r1.…` for a share link) and waits until the app has mounted.
+    pub async fn open(&self, suffix: &str) -> Client {
+        let client = connect(&self.driver).await;
+        self.sessions.lock().expect("session list").push(client.clone());
+        let target = format!("{}{}", self.url, suffix);
+        client.goto(&target).await.unwrap_or_else(|e| panic!("cannot load {target}: {e}"));
+        poll(&client, "the app to start", Duration::from_secs(30), || async {
+            client.find(Locator::Css("[data-testid='step-sensor']")).await.ok().map(|_| ())
+        })
+        .await;
+        client
+    }
+
+    /// Stops the static server: from now on the page has no network to its own files.
+    pub fn stop_server(&self) {
+        let server = self.server.lock().expect("server slot").take();
+        drop(server);
+    }
+}
+
+/// Serves `dist/`, starts chromedriver and runs `body`, which opens its own sessions with
+/// [`Env::open`]. Every session is closed afterwards, even when the body fails.
+pub async fn with_app<F, Fut>(body: F)
+where
+    F: FnOnce(Arc<Env>) -> Fut,
+    Fut: Future<Output = ()> + Send + 'static,
+{
+    let dist = dist_dir();
+    let server = StaticServer::start(&dist);
+    let driver = Chromedriver::start();
+    let env = Arc::new(Env { url: server.url(), driver, server: Mutex::new(Some(server)), sessions: Mutex::new(Vec::new()) });
+
+    let task = tokio::spawn(body(env.clone()));
+    let abort = task.abort_handle();
+    let outcome = match tokio::time::timeout(TEST_LIMIT, task).await {
+        Ok(joined) => joined.map_err(|e| if e.is_panic() { Failure::Panic(e.into_panic()) } else { Failure::Message(format!("browser test task failed: {e}")) }),
+        Err(_) => {
+            abort.abort();
+            Err(Failure::Message(format!("browser test did not finish within {TEST_LIMIT:?}")))
+        }
+    };
+    let sessions: Vec<Client> = std::mem::take(&mut *env.sessions.lock().expect("session list"));
+    for client in sessions {
+        let _ = client.close().await;
+    }
+    env.stop_server();
+    match outcome {
+        Ok(()) => {}
+        Err(Failure::Panic(payload)) => std::panic::resume_unwind(payload),
+        Err(Failure::Message(message)) => panic!("{message}"),
+    }
+}
+
+/// Where screenshots and measured figures of the browser tests are written.
+pub fn artifacts_dir() -> PathBuf {
+    let dir = repo_root().join("target").join("e2e");
+    std::fs::create_dir_all(&dir).expect("create target/e2e");
+    dir
+}
+
+/// Saves a screenshot of the viewport as `target/e2e/<name>.png` and returns its path.
+pub async fn screenshot(client: &Client, name: &str) -> PathBuf {
+    let png = client.screenshot().await.expect("take a screenshot");
+    let path = artifacts_dir().join(format!("{name}.png"));
+    std::fs::write(&path, png).expect("write screenshot");
+    path
+}
+
+/// Appends a line to `target/e2e/figures.txt` and prints it (the measured budgets).
+pub fn record_figure(line: &str) {
+    use std::io::Write;
+    println!("{line}");
+    let path = artifacts_dir().join("figures.txt");
+    if let Ok(mut f) = std::fs::OpenOptions::new().create(true).append(true).open(path) {
+        let _ = writeln!(f, "{line}");
+    }
+}
+
+/// Runs `script` in the page and returns its result.
+pub async fn eval(client: &Client, script: &str, args: Vec<Value>) -> Value {
+    client.execute(script, args).await.unwrap_or_else(|e| panic!("script failed: {e}\n{script}"))
+}
+
+/// The element with `data-testid` equal to `id`.
+pub async fn by_testid(client: &Client, id: &str) -> Element {
+    client.find(Locator::Css(&format!("[data-testid='{id}']"))).await.unwrap_or_else(|e| panic!("no element [data-testid='{id}']: {e}"))
+}
+
+/// Clicks the element with `data-testid` equal to `id`.
+pub async fn click(client: &Client, id: &str) {
+    by_testid(client, id).await.click().await.unwrap_or_else(|e| panic!("cannot click [data-testid='{id}']: {e}"));
+}
+
+/// Types `text` into the input of request field `path`, replacing what was there, the way
+/// a user does: select all, delete, type.
+pub async fn type_into(client: &Client, path: &str, text: &str) {
+    let input = by_testid(client, &format!("field-{path}")).await;
+    input.click().await.unwrap_or_else(|e| panic!("cannot focus field {path}: {e}"));
+    // Ctrl+A, release modifiers, Backspace (WebDriver key codes).
+    input.send_keys("\u{e009}a\u{e000}\u{e003}").await.expect("clear field");
+    if !text.is_empty() {
+        input.send_keys(text).await.unwrap_or_else(|e| panic!("cannot type into field {path}: {e}"));
+    }
+}
+
+/// The value shown in the input of request field `path`.
+pub async fn field_value(client: &Client, path: &str) -> String {
+    let input = by_testid(client, &format!("field-{path}")).await;
+    input.prop("value").await.expect("read value").unwrap_or_default()
+}
+
+/// Text of the message under request field `path` (empty when there is none).
+pub async fn field_message(client: &Client, path: &str) -> String {
+    texts(client, &format!("[data-testid='message-{path}']")).await.concat()
+}
+
+/// Rows of the part list as shown: the text of every cell, row by row.
+pub async fn part_rows(client: &Client) -> Vec<Vec<String>> {
+    let script = "return Array.from(document.querySelectorAll(\"[data-testid='parts'] tbody tr\")).map(r => Array.from(r.cells).map(c => c.textContent));";
+    match client.execute(script, vec![]).await {
+        Ok(v) => serde_json::from_value(v).unwrap_or_default(),
+        Err(_) => Vec::new(),
+    }
+}
+
+/// Waits until the part list shows exactly `rows` (compared cell by cell).
+pub async fn wait_for_parts(client: &Client, what: &str, rows: &[Vec<String>]) {
+    poll(client, what, Duration::from_secs(30), || async { (part_rows(client).await == rows).then_some(()) }).await;
+}
+
+/// The user-timing entries named `name` as (startTime, duration) in ms.
+pub async fn timings(client: &Client, name: &str) -> Vec<(f64, f64)> {
+    let v = eval(client, "return performance.getEntriesByName(arguments[0]).map(e => [e.startTime, e.duration]);", vec![json!(name)]).await;
+    serde_json::from_value(v).unwrap_or_default()
+}
+
+/// Runs `deck` with `ngspice -b` (the independent SPICE3-compatible simulator, Debian package
+/// `ngspice`) from a temporary file and returns (success, stdout, stderr). Fails the test,
+/// saying how to install it, when ngspice is missing — never skips.
+pub fn run_ngspice(tag: &str, deck: &str) -> (bool, String, String) {
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    static RUN: AtomicUsize = AtomicUsize::new(0);
+    let safe: String = tag.chars().map(|c| if c.is_ascii_alphanumeric() { c } else { '-' }).collect();
+    let path = std::env::temp_dir().join(format!("rangefit-spice-{}-{}-{safe}.cir", std::process::id(), RUN.fetch_add(1, Ordering::SeqCst)));
+    std::fs::write(&path, deck).unwrap_or_else(|e| panic!("cannot write {}: {e}", path.display()));
+    let run = std::process::Command::new("ngspice").arg("-b").arg(&path).output();
+    let _ = std::fs::remove_file(&path);
+    let out = match run {
+        Ok(o) => o,
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => panic!(
+            "ngspice is not installed, and these tests need it as the independent simulator: \
+             install it (Debian: `apt-get install ngspice`; `.ci/run` installs it through .ci/install.sh)"
+        ),
+        Err(e) => panic!("cannot run ngspice: {e}"),
+    };
+    (out.status.success(), String::from_utf8_lossy(&out.stdout).into_owned(), String::from_utf8_lossy(&out.stderr).into_owned())
 }

@@ -16,9 +16,6 @@
 //! it never skips.
 
 use std::collections::BTreeMap;
-use std::path::PathBuf;
-use std::process::Command;
-use std::sync::atomic::{AtomicUsize, Ordering};
 use std::time::Instant;
 
 use rangefit_engine::amplifier::{Amplifier, Rails};
@@ -294,24 +291,11 @@ fn parse_sections(stdout: &str) -> Vec<BTreeMap<String, f64>> {
     out
 }
 
-/// Runs `deck` in ngspice batch mode and returns its standard output.
+/// Runs `deck` in ngspice batch mode and returns its standard output (shared runner in
+/// the tests crate's library).
 fn run_ngspice(tag: &str, deck: &str) -> String {
-    static RUN: AtomicUsize = AtomicUsize::new(0);
-    let safe: String = tag.chars().map(|c| if c.is_ascii_alphanumeric() { c } else { '-' }).collect();
-    let path: PathBuf = std::env::temp_dir().join(format!("rangefit-noise-{}-{}-{safe}.cir", std::process::id(), RUN.fetch_add(1, Ordering::SeqCst)));
-    std::fs::write(&path, deck).unwrap_or_else(|e| panic!("cannot write {}: {e}", path.display()));
-    let run = Command::new("ngspice").arg("-b").arg(&path).output();
-    let _ = std::fs::remove_file(&path);
-    let out = match run {
-        Ok(o) => o,
-        Err(e) if e.kind() == std::io::ErrorKind::NotFound => panic!(
-            "ngspice is not installed, and this test needs it as the independent simulator: install it \
-             (Debian: `apt-get install ngspice`; scripts/install.sh does)"
-        ),
-        Err(e) => panic!("cannot run ngspice: {e}"),
-    };
-    let stdout = String::from_utf8_lossy(&out.stdout).to_string();
-    assert!(out.status.success(), "[{tag}] ngspice failed ({}):\n{}\n{stdout}\n--- deck ---\n{deck}", out.status, String::from_utf8_lossy(&out.stderr));
+    let (ok, stdout, stderr) = rangefit_tests::run_ngspice(tag, deck);
+    assert!(ok, "[{tag}] ngspice failed:\n{stderr}\n{stdout}\n--- deck ---\n{deck}");
     stdout
 }
 

@@ -60,9 +60,21 @@ proptest! {
         let dd = &req.destination;
         let span = dd.max - dd.min;
         let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
-        prop_assert!(lo >= dd.min + dd.headroom * span - 1e-9 * span, "low end {} for {}", lo, json);
-        prop_assert!(hi <= dd.max - dd.headroom * span + 1e-9 * span, "high end {} for {}", hi, json);
+        // Slack: rangefit_engine::synth::HEADROOM_SLACK (10 ppm of the span).
+        let slack = rangefit_engine::synth::HEADROOM_SLACK * span;
+        prop_assert!(lo >= dd.min + dd.headroom * span - slack, "low end {} for {}", lo, json);
+        prop_assert!(hi <= dd.max - dd.headroom * span + slack, "high end {} for {}", hi, json);
         prop_assert!(p.gain.is_finite() && p.offset.is_finite());
+        // The analyses of every feasible design are numbers, never NaN or infinite.
+        let a = d.analysis.as_ref().expect("analyses");
+        let n = &a.noise;
+        prop_assert!([n.output_rms, n.input_rms, n.snr_db, n.enob, n.lsb_ratio].iter().all(|x| x.is_finite()), "noise {:?} for {}", n.output_rms, json);
+        prop_assert!(a.ac.points.iter().all(|q| q.mag_db.is_finite() && q.phase_deg.is_finite()), "AC response not finite for {}", json);
+        prop_assert!(a.dc.transfer.iter().all(|q| q.y.is_finite()), "DC transfer not finite for {}", json);
+        let mc = &a.tolerance.monte_carlo;
+        let wc = &a.tolerance.worst_case;
+        prop_assert!([mc.yield_, mc.output_at_min.mean, mc.output_at_max.std, wc.output_at_min[0], wc.output_at_max[1], wc.gain[0]].iter().all(|x| x.is_finite()), "tolerance not finite for {}", json);
+        prop_assert!(a.loading.input_impedance.is_finite() && a.loading.gain_error.is_finite(), "loading not finite for {}", json);
         if req.keep_polarity {
             prop_assert!(p.gain > 0.0, "polarity flipped for {}", json);
         }

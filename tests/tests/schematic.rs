@@ -288,7 +288,7 @@ fn every_topology_draws_cleanly() {
         ),
         (
             "summing divider into a buffer",
-            designed(&request("summing buffer", 0.165, 3.135, "dc", (0.0, 100.0), (0.0, 3.3), "[3.3]", true)),
+            designed(&request("summing buffer", 0.0, 3.3, "dc", (0.0, 100.0), (0.0, 3.3), "[3.3]", true)),
             "buffer",
             &["inp1"],
         ),

@@ -18,13 +18,10 @@
 //! also run unchanged and must complete without errors.
 //!
 //! The requests are scenarios of our own, written inline; none is a demo file. ngspice must
-//! be installed (`.ci/run` installs it through `scripts/install.sh`); without it these
+//! be installed (`.ci/run` installs it through `.ci/install.sh`); without it these
 //! tests fail, they never skip.
 
 use std::collections::HashMap;
-use std::path::PathBuf;
-use std::process::Command;
-use std::sync::atomic::{AtomicUsize, Ordering};
 
 use rangefit_engine::diag::Severity;
 use rangefit_engine::netlist::{netlist, NetlistConfig};
@@ -95,35 +92,9 @@ fn deck(netlist: &str, control: &[String]) -> String {
     )
 }
 
-/// Runs `deck` with `ngspice -b` from a temporary file; returns (success, stdout, stderr).
-/// Fails the test, saying how to install it, when ngspice is missing.
+/// Runs `deck` with `ngspice -b` (the shared runner in the tests crate's library).
 fn run_ngspice(tag: &str, deck: &str) -> (bool, String, String) {
-    static RUN: AtomicUsize = AtomicUsize::new(0);
-    let safe: String = tag
-        .chars()
-        .map(|c| if c.is_ascii_alphanumeric() { c } else { '-' })
-        .collect();
-    let path: PathBuf = std::env::temp_dir().join(format!(
-        "rangefit-spice-{}-{}-{safe}.cir",
-        std::process::id(),
-        RUN.fetch_add(1, Ordering::SeqCst)
-    ));
-    std::fs::write(&path, deck).unwrap_or_else(|e| panic!("cannot write {}: {e}", path.display()));
-    let run = Command::new("ngspice").arg("-b").arg(&path).output();
-    let _ = std::fs::remove_file(&path);
-    let out = match run {
-        Ok(o) => o,
-        Err(e) if e.kind() == std::io::ErrorKind::NotFound => panic!(
-            "ngspice is not installed, and these tests need it as the independent simulator: \
-             install it (Debian: `apt-get install ngspice`; `.ci/run` installs it through scripts/install.sh)"
-        ),
-        Err(e) => panic!("cannot run ngspice: {e}"),
-    };
-    (
-        out.status.success(),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
+    rangefit_tests::run_ngspice(tag, deck)
 }
 
 /// Runs `deck` and returns the printed values, which must be exactly the vectors named in
@@ -336,7 +307,7 @@ fn check(case: &Case) -> Result<Measured, Vec<String>> {
         p.output_at_min.min(p.output_at_max),
         p.output_at_min.max(p.output_at_max),
     );
-    let slack = 1e-9 * span;
+    let slack = rangefit_engine::synth::HEADROOM_SLACK * span;
     if lo < want_lo - slack || hi > want_hi + slack {
         problems.push(format!(
             "predicted range {lo:.6} … {hi:.6} V leaves the converter range less {:.1} % headroom ({want_lo:.6} … {want_hi:.6} V)",
@@ -907,4 +878,52 @@ fn every_template_matches_ngspice() {
             assert!((sim - pred).abs() <= SPAN_TOL * span, "[{}] ngspice {sim} V vs predicted {pred} V", case.name);
         }
     }
+}
+
+/// The analyses against ngspice on the testbench netlist: the DC transfer within 0.1 % of the
+/// converter span at every sweep point, and the frequency response within 0.1 dB and 1°
+/// across the band (ngspice, batch mode, `.dc` and `.ac` from `netlist --testbench`; the
+/// engine's values from its solver at the same source values and frequencies).
+#[test]
+fn analyses_match_ngspice_across_sweeps() {
+    let mut problems = Vec::new();
+    for case in CASES {
+        let req = read(case);
+        let d = design(&req);
+        let Some(circuit) = d.circuit.as_ref() else {
+            problems.push(format!("[{}] no circuit", case.name));
+            continue;
+        };
+        let deck = netlist(&req, circuit, NetlistConfig { testbench: true });
+        let (_, stdout, _) = run_ngspice(case.name, &deck);
+        let tables = parse_tables(&stdout);
+        let solver = Solver::new(circuit);
+        let span = req.destination.max - req.destination.min;
+        if req.source.coupling == Coupling::Dc {
+            for row in tables.get("v-sweep").map(|r| r.as_slice()).unwrap_or(&[]) {
+                let ours = solver.dc(row[0]).ok().and_then(|s| s.voltage("adc")).unwrap_or(f64::NAN);
+                if !((ours - row[1]).abs() <= 0.001 * span) {
+                    problems.push(format!("[{}] DC at {} V: engine {ours}, ngspice {}", case.name, row[0], row[1]));
+                    break;
+                }
+            }
+        }
+        let (lo, hi) = (req.source.band_low, req.source.band_high);
+        let rows = tables.get("frequency").map(|r| r.as_slice()).unwrap_or(&[]);
+        if rows.is_empty() {
+            problems.push(format!("[{}] no AC table", case.name));
+        }
+        for row in rows.iter().filter(|r| r[0] >= lo && r[0] <= hi) {
+            let h = solver.transfer(row[0], "adc").unwrap_or_default();
+            let db = 20.0 * h.norm().log10();
+            // ngspice prints vp in radians.
+            let dphase = (h.arg() - row[2]).to_degrees();
+            let dphase = (dphase + 180.0).rem_euclid(360.0) - 180.0;
+            if (db - row[1]).abs() > 0.1 || dphase.abs() > 1.0 {
+                problems.push(format!("[{}] at {} Hz: engine {db:.4} dB, ngspice {:.4} dB, phase difference {dphase:.3}°", case.name, row[0], row[1]));
+                break;
+            }
+        }
+    }
+    assert!(problems.is_empty(), "{}", problems.join("\n"));
 }

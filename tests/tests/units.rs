@@ -451,7 +451,7 @@ fn format_values() {
         (2.2e-6, Capacitance, "2.2 µF"),
         (1e12, Resistance, "1 TΩ"),
         (2.4e9, Frequency, "2.4 GHz"),
-        (10e6, SlewRate, "10 MV/s"),
+        (10e6, SlewRate, "10 V/µs"),
         (15e-9, VoltageNoise, "15 nV/√Hz"),
         (1e-12, CurrentNoise, "1 pA/√Hz"),
         (0.25, Power, "250 mW"),

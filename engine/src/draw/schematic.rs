@@ -134,10 +134,18 @@ pub fn test_points(req: &Request, circuit: &Circuit) -> Vec<TestPoint> {
 /// The schematic of a finished design: its circuit, the operating point with the sensor at
 /// the middle of its range, and the design's test points. `None` without a circuit.
 pub fn of_design(d: &crate::design::Design, cfg: &SchematicConfig) -> Option<Schematic> {
-    let c = d.circuit.as_ref()?;
+    let model = d.circuit.as_ref()?;
     let s = &d.request.source;
-    let op = crate::solve::Solver::new(c).dc(0.5 * (s.min + s.max)).ok();
-    Some(schematic(c, op.as_ref(), &test_points(&d.request, c), &d.name, cfg))
+    let op = crate::solve::Solver::new(model).dc(0.5 * (s.min + s.max)).ok();
+    // An amplifier is labelled with what the design requires of it (as in the part list),
+    // not with the assumed class's figure the simulation used.
+    let mut c = model.clone();
+    if let Some(r) = &d.requirements {
+        for p in c.parts.iter_mut().filter(|p| p.kind == PartKind::OpAmp) {
+            p.value = r.gbw_min;
+        }
+    }
+    Some(schematic(&c, op.as_ref(), &test_points(&d.request, model), &d.name, cfg))
 }
 
 /// Draws `circuit` with the operating point `op` (for the DC levels and capacitor polarity),
@@ -171,6 +179,8 @@ pub fn schematic(circuit: &Circuit, op: Option<&DcSolution>, ranges: &[TestPoint
 /// Designator's companion: the value with its unit.
 fn value_text(p: &Part) -> String {
     match p.kind {
+        // The bench models an ideal source as 1 mΩ so that its terminal stays a node.
+        PartKind::Resistor if p.bench && p.reference == "RSENSE" && p.value <= 1e-3 => "0 Ω".to_string(),
         PartKind::Resistor => format(p.value, Quantity::Resistance),
         PartKind::Capacitor => format(p.value, Quantity::Capacitance),
         PartKind::VoltageSource => format(p.value, Quantity::Voltage),

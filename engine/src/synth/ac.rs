@@ -17,7 +17,7 @@
 //! rounded *up* in their series so no corner moves above that. The AC analysis of the
 //! rounded circuit reports the combined response.
 
-use super::round::{optimise, RoundConfig};
+use super::round::{anchors, optimise_all, pairs, RoundConfig};
 use super::{Limits, Synthesis, Target};
 use crate::amplifier::{Amplifier, Rails};
 use crate::circuit::{Builder, PartKind, Stage, StageRole};
@@ -97,24 +97,28 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
         let (rb, ra, ..) = unpack(v);
         let (m_a, vref, _) = mapping(v);
         let mut c = ((m_a - m).abs() * half + (vref - yc).abs()) / span;
-        // Missing outward leaves the range: penalised so that every inward miss wins.
+        // Missing outward leaves the range: ten times the cost of missing inward.
         let (lo, hi) = (t.at_min, t.at_max);
         let (y_lo, y_hi) = (vref - m_a * half, vref + m_a * half);
         let out = ((lo - y_lo).max(0.0) + (y_hi - hi).max(0.0)) / span;
-        if out > 1e-9 {
-            c += 1.0 + 100.0 * out;
+        if out > super::HEADROOM_SLACK {
+            c += 10.0 * out;
         }
         if rs > 0.0 {
             c += 0.5 * rs / (ra + rb);
         }
         c + v.iter().map(|r| 1e-8 * (r / 47e3).max(47e3 / r)).sum::<f64>()
     };
-    let ideal = |rb: f64| {
+    let ideal = |pair: Option<(f64, f64)>, rb: f64| {
         let mut v = vec![rb];
-        // With the attenuator the amplifier gain is fixed at g; without it the gain absorbs
-        // the small loss of the sensor impedance against Rb.
-        let alpha = if attenuate { m / g } else { 1.0 };
+        // With the attenuator the amplifier gain is the pair's; without it the pair's gain
+        // must already be m (the sensor impedance against Rb is part of the cost).
+        let g_a = pair.map_or(1.0, |(rg, rf)| 1.0 + rf / rg);
+        let alpha = if attenuate { m / g_a } else { 1.0 };
         if attenuate {
+            if !(alpha > 0.0 && alpha < 1.0) {
+                return None;
+            }
             let ra = rb * (1.0 - alpha) / alpha - rs;
             if ra <= 0.0 {
                 return None;
@@ -126,15 +130,21 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
             v.push(rth / k);
             v.push(rth / (1.0 - k));
         }
-        if !follower {
-            let gain = if attenuate { g } else { m * (rs + rb) / rb };
-            let rg = rb / 10.0;
+        if let Some((rg, rf)) = pair {
             v.push(rg);
-            v.push((gain - 1.0) * rg);
+            v.push(rf);
         }
         Some(v)
     };
-    let (vals, score) = optimise(cfg, ideal, cost)?;
+    // The gain pair (Rg, Rf) comes from the best ratio pairs; the rest follows from the
+    // pair's exact gain.
+    let g_plan = if attenuate { g } else { m };
+    let runs: Vec<Option<(f64, f64)>> = if follower { vec![None] } else { pairs(cfg, g_plan - 1.0, 0.0, 3).into_iter().map(Some).collect() };
+    let anchors = anchors(cfg);
+    let ideal = &ideal;
+    let anchors = &anchors;
+    let ideals = runs.iter().flat_map(|&pair| anchors.iter().filter_map(move |&rb| ideal(pair, rb)));
+    let (vals, score) = optimise_all(cfg, ideals, cost)?;
     let score = score + 0.001 * (vals.len() as f64 + 1.0);
     let (rb, ra, rt, rbt, rg, rf) = unpack(&vals);
     let (m_a, vref, alpha) = mapping(&vals);

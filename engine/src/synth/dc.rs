@@ -215,14 +215,15 @@ impl Ctx<'_> {
         let y2 = self.output_err(net, s.max, t.at_max);
         let mut c = y1.max(y2) / self.span;
         // Missing inward is harmless (the headroom shrinks a little); missing outward leaves
-        // the range the target allows (headroom and output swing), so it is penalised heavily.
+        // the range the target allows (headroom and output swing), so it costs ten times as much.
         let (lo, hi) = (t.at_min.min(t.at_max), t.at_min.max(t.at_max));
         for x in [s.min, s.max] {
             let y = net.output(x, self.rs, self.rails);
             let out = ((lo - y).max(0.0) + (y - hi).max(0.0)) / self.span;
-            // Any outward miss beyond arithmetic noise loses to every inward one.
-            if out > 1e-9 {
-                c += 1.0 + 100.0 * out;
+            // An outward miss costs ten times an inward one; `design` pulls the target in when
+            // the best rounding still misses outward.
+            if out > super::HEADROOM_SLACK {
+                c += 10.0 * out;
             }
         }
         let lim = self.limits;
@@ -452,7 +453,8 @@ fn inv_plus(ctx: &Ctx, t: Target) -> Option<Candidate> {
     layout.push(Slot::Feedback);
     let rs = ctx.rs;
     let b = t.offset;
-    let pairs = Some(pairs(ctx.cfg, mg, rs, PAIRS));
+    // The inverting stages have one or two other values only: try more gain pairs.
+    let pairs = Some(pairs(ctx.cfg, mg, rs, 4 * PAIRS));
     ctx.round("inverting amplifier with its + input on a divider", &layout, false, t, pairs, |pair, anchor| {
         let (ri, rf) = pair?;
         let mg_a = rf / (ri + rs);
@@ -478,7 +480,7 @@ fn inv_sum(ctx: &Ctx, t: Target) -> Option<Candidate> {
     }
     let (vh, pot) = if b < 0.0 { (ctx.rails.pos, Pot::Pos) } else if ctx.rails.is_dual() { (ctx.rails.neg, Pot::Neg) } else { return None };
     let layout = [Slot::Minus(pot), Slot::Minus(Pot::Sensor), Slot::Feedback];
-    let pairs = Some(pairs(ctx.cfg, mg, ctx.rs, PAIRS));
+    let pairs = Some(pairs(ctx.cfg, mg, ctx.rs, 4 * PAIRS));
     ctx.round("inverting summer with the offset from a rail", &layout, false, t, pairs, |pair, _anchor| {
         let (_, rf) = pair?;
         Some(vec![rf * vh / -b])

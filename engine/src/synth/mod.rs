@@ -36,6 +36,11 @@ use crate::request::{Coupling, Request};
 /// stage's gain falls off before the stated limit).
 pub const SWING_MARGIN: f64 = 0.01;
 
+/// How far (fraction of the converter span) an extreme may pass the headroom limit and
+/// still count as inside: 10 ppm, the size of the amplifier's finite-gain error in a
+/// follower, far below anything the headroom is for.
+pub const HEADROOM_SLACK: f64 = 1e-5;
+
 /// The mapping the design aims for.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct Target {

@@ -4,8 +4,9 @@
 //! offset error of a few per cent. Instead the search works in two phases:
 //!
 //! 1. **Starts.** The caller's ideal equations give continuous values for many *anchors*
-//!    (one resistor swept over the window on a grid of about twelve values per decade, see
-//!    [`anchors`]; for ratio-setting stages also over the best ratio pairs from [`pairs`]).
+//!    (one resistor swept over the series values in the window — every E24 step for the
+//!    finer series, see [`anchors`]; for
+//!    ratio-setting stages also over the best ratio pairs from [`pairs`]).
 //!    Each ideal vector is rounded down and up in every combination (at most 2⁷) and scored
 //!    with the caller's cost — the mapping error of the rounded circuit.
 //! 2. **Descent.** From the best few starts over all anchors, a descent moves one resistor
@@ -83,12 +84,14 @@ pub fn optimise_all(cfg: RoundConfig, ideals: impl Iterator<Item = Vec<f64>>, co
     best
 }
 
-/// Anchor values: the series value nearest each E12 value inside the window (the series'
-/// own values when it is coarser than E12).
+/// Anchor values: every series value inside the window for E24 and coarser series; for the
+/// finer series the value nearest each E24 value (the descent reaches the values between).
 pub fn anchors(cfg: RoundConfig) -> Vec<f64> {
-    let grid = if cfg.series.mantissas().len() <= 12 { cfg.series } else { Series::E12 };
+    if cfg.series.mantissas().len() <= 24 {
+        return values::values_between(cfg.series, cfg.min, cfg.max);
+    }
     let mut out: Vec<f64> = Vec::new();
-    for g in values::values_between(grid, cfg.min, cfg.max) {
+    for g in values::values_between(Series::E24, cfg.min, cfg.max) {
         if let Some(v) = values::nearest(cfg.series, g) {
             if v >= cfg.min && v <= cfg.max && !out.contains(&v) {
                 out.push(v);
@@ -99,7 +102,8 @@ pub fn anchors(cfg: RoundConfig) -> Vec<f64> {
 }
 
 /// Pairs `(b, a)` from the series inside the window whose `a / (b + offset)` is one of the
-/// `n` ratios closest to `ratio` (relative error), every scaling of each, best ratio first.
+/// ratios closest to `ratio` (relative error) — about `n`, split between both sides of
+/// `ratio` — every scaling of each, best ratio first.
 /// `offset` is a fixed resistance in series with `b` (a sensor's impedance).
 pub fn pairs(cfg: RoundConfig, ratio: f64, offset: f64, n: usize) -> Vec<(f64, f64)> {
     if !(ratio.is_finite() && ratio > 0.0) {
@@ -117,17 +121,23 @@ pub fn pairs(cfg: RoundConfig, ratio: f64, offset: f64, n: usize) -> Vec<(f64, f
         }
     }
     all.sort_by(|x, y| x.2.total_cmp(&y.2));
-    // Keep every scaling of the n best ratios: the other values of a stage may fit the window
-    // at one scale only.
+    // Keep every scaling of the best ratios, half of them at or below the wanted ratio and
+    // half at or above: the other values of a stage may fit the window at one scale only,
+    // and keeping both ends inside the range can need a ratio on one particular side.
+    let below = n.div_ceil(2);
+    let above = n - below;
     let mut ratios: Vec<f64> = Vec::new();
+    let (mut n_below, mut n_above) = (0, 0);
     let mut out: Vec<(f64, f64)> = Vec::new();
     for (b, a, _) in all {
         let r = a / (b + offset);
         let known = ratios.iter().any(|s| (s / r - 1.0).abs() < 1e-9);
         if !known {
-            if ratios.len() == n {
+            let side_below = r <= ratio;
+            if (side_below && n_below == below) || (!side_below && n_above == above.max(1)) {
                 continue;
             }
+            if side_below { n_below += 1 } else { n_above += 1 }
             ratios.push(r);
         }
         if !out.contains(&(b, a)) {

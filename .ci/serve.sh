@@ -7,7 +7,7 @@ export PATH="$ROOT/tools/npm/node_modules/.bin:$HOME/.cargo/bin:$PATH"
 PORT="${PORT:-8080}"
 cd "$ROOT"
 
-"$ROOT/scripts/install.sh"
+"$ROOT/.ci/install.sh"
 cargo fetch
 trunk build --release
 

@@ -19,12 +19,23 @@ run_step() {
     echo "<== $step: $((SECONDS - t0)) s"
 }
 
-run_step "install toolchain" "$ROOT/scripts/install.sh"
+run_step "install toolchain" "$ROOT/.ci/install.sh"
 run_step "fetch crates" cargo fetch
 run_step "build release bundle" trunk build --release
 step="check bundle"
 test -f dist/index.html || { echo "dist/index.html was not produced" >&2; false; }
+# The size budget is checked right after the build; an overrun is reported at the end so
+# that the tests below still run and report too.
+budget_status=0
+step="bundle size"
+echo "==> bundle size"
+"$ROOT/.ci/bundle-size.sh" || budget_status=$?
 run_step "cargo test --workspace" cargo test --workspace --no-fail-fast
 
+if ((budget_status != 0)); then
+    echo
+    echo "########## TESTS FAILED (step: bundle size, over the first-load budget; see above) ##########" >&2
+    exit "$budget_status"
+fi
 echo
 echo "All tests passed."

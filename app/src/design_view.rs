@@ -1,0 +1,316 @@
+//! The design step: schematic, checks, predicted mapping, part list, analysis plots,
+//! assumptions, safety cautions, downloads and the share link. Everything shown comes from
+//! the engine. The read-only report part is built with [`crate::dom`] (text nodes only; the
+//! engine's SVG, which the engine escapes, is inserted as markup); the interactive toolbar
+//! is a Leptos view.
+
+use std::sync::Arc;
+
+use leptos::prelude::*;
+use rangefit_engine::diag::Severity;
+use rangefit_engine::request::Coupling;
+use rangefit_engine::units::{format, Quantity};
+
+use crate::app::{Ctx, NoticeKind};
+use crate::browser;
+use crate::dom::{el, el_c, row, table, Node};
+use crate::fields::{self, Step};
+use crate::outputs::{self, Export, Shown};
+use crate::steps::{plural, tally};
+
+#[component]
+pub fn DesignStep() -> impl IntoView {
+    let ctx = expect_context::<Ctx>();
+    let stale = move || {
+        ctx.validation.with(|v| {
+            if v.is_complete() {
+                return None;
+            }
+            let (step, what) = if let Some((path, _)) = v.errors.iter().next() {
+                (crate::app::step_of(path), "has a value with a problem")
+            } else {
+                (v.missing.first().map(|p| crate::app::step_of(p)).unwrap_or(Step::Sensor), "is missing a value")
+            };
+            Some(view! {
+                <p class="stale-note" data-testid="stale-note">
+                    {format!("Step {} ({}) {what}; this is the last good design. ", step.number(), step.title())}
+                    <button type="button" class="link" on:click=move |_| crate::steps::go(ctx, step, true)>"Go there"</button>
+                </p>
+            })
+        })
+    };
+    let head = NodeRef::<leptos::html::Div>::new();
+    let body = NodeRef::<leptos::html::Div>::new();
+    Effect::new(move |_| {
+        let shown = ctx.shown.get();
+        if let (Some(h), Some(b)) = (head.get(), body.get()) {
+            match &shown {
+                Some(s) => {
+                    head_node(s).replace_contents_of(&h);
+                    body_node(s).replace_contents_of(&b);
+                    fill_plots(ctx);
+                }
+                None => {
+                    el_c("p", "empty").text("No design yet: complete the request in the first three steps.").replace_contents_of(&h);
+                    b.set_text_content(None);
+                }
+            }
+        }
+    });
+    Effect::new(move |_| {
+        ctx.plots.track();
+        fill_plots(ctx);
+    });
+    view! {
+        <section class="panel design-panel" role="tabpanel" id="panel-design" aria-labelledby="tab-design" hidden=move || ctx.step.get() != Step::Design>
+            {stale}
+            <div class="design-body" data-testid="design">
+                <div node_ref=head></div>
+                {move || ctx.shown.get().map(|s| view! { <Toolbar shown=s/> })}
+                <div node_ref=body></div>
+            </div>
+        </section>
+    }
+}
+
+/// Fills the plots area with the plots of the design on show, once they are drawn.
+fn fill_plots(ctx: Ctx) {
+    let serial = ctx.shown.with_untracked(|s| s.as_ref().map(|s| s.serial));
+    let Some(host) = document().get_element_by_id("plots") else { return };
+    let Some(plots) = ctx.plots.with_untracked(|p| p.as_ref().filter(|(n, _)| Some(*n) == serial).map(|(_, p)| p.clone())) else { return };
+    el("div")
+        .attr("class", "plots-inner")
+        .children(plots.iter().map(|p| match &p.svg {
+            Some(svg) => el_c("figure", "plot")
+                .attr("data-testid", &format!("plot-{}", p.id))
+                .child(el_c("div", "plot-svg").attr("role", "img").attr("aria-label", p.title).svg(svg))
+                .child(el("figcaption").text(p.title)),
+            None => el_c("p", "empty").attr("data-testid", &format!("plot-{}", p.id)).text(&format!("{}: not available, the design has no circuit to analyse.", p.title)),
+        }))
+        .replace_contents_of(&host);
+    static MARKED: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
+    if !MARKED.swap(true, std::sync::atomic::Ordering::Relaxed) {
+        browser::mark("rangefit:plots-shown");
+    }
+}
+
+fn badge(class: &str, text: &str) -> Node {
+    el_c("span", &format!("badge {class}")).text(text)
+}
+
+fn head_node(s: &Shown) -> Node {
+    let d = &s.design;
+    let (e, w) = tally(&d.checks);
+    let mut tally_node = el_c("a", "tally").attr("href", "#checks");
+    if e > 0 {
+        tally_node = tally_node.child(badge("sev-error", &plural(e, "error")));
+    }
+    if w > 0 {
+        tally_node = tally_node.child(badge("sev-warning", &plural(w, "warning")));
+    }
+    if e + w == 0 {
+        tally_node = tally_node.child(badge("sev-ok", "checks pass"));
+    }
+    let mut left = el("div")
+        .child(el("h2").attr("data-testid", "design-name").text(&d.name))
+        .child(el_c("p", "topology").text(if d.topology.is_empty() { "No circuit could be built" } else { &d.topology }));
+    if !d.request.notes.trim().is_empty() {
+        left = left.child(el_c("p", "design-notes").text(&d.request.notes));
+    }
+    el_c("header", "design-head").child(left).child(tally_node)
+}
+
+fn block(id: &str, title: &str) -> Node {
+    el_c("section", "block").attr("aria-labelledby", &format!("h-{id}")).child(el("h3").attr("id", &format!("h-{id}")).text(title))
+}
+
+fn body_node(s: &Shown) -> Node {
+    let d = &s.design;
+    let schematic = match &s.schematic {
+        Some(svg) => el_c("div", "schematic").attr("data-testid", "schematic").attr("role", "img").attr("aria-label", &format!("Schematic of {}", d.name)).svg(svg),
+        None => el_c("p", "empty").attr("data-testid", "schematic").text("No schematic: the design has no circuit; the checks say why."),
+    };
+    let plots = el_c("div", "plots").attr("id", "plots").child(el_c("p", "empty").text("Drawing the plots…"));
+    let cautions = el_c("section", "block cautions")
+        .attr("data-testid", "cautions")
+        .attr("aria-labelledby", "h-cautions")
+        .child(el("h3").attr("id", "h-cautions").text("Safety"))
+        .child(el("ul").children(d.cautions.iter().map(|c| el("li").text(c))));
+    el("div")
+        .child(block("schematic", "Schematic").child(schematic))
+        .child(
+            el_c("div", "two-col")
+                .child(block("checks", "Checks").attr("id", "checks").child(checks_node(s)))
+                .child(block("mapping", "Predicted mapping").child(mapping_node(s))),
+        )
+        .child(block("parts", "Part list").child(parts_node(s)))
+        .child(block("plots", "Analyses").child(plots))
+        .child(block("roles", "What each part does").child(roles_node(s)))
+        .child(block("assumptions", "Assumptions").child(assumptions_node(s)))
+        .child(cautions)
+}
+
+#[component]
+fn Toolbar(shown: Arc<Shown>) -> impl IntoView {
+    let ctx = expect_context::<Ctx>();
+    let link = format!("{}#{}", browser::page_address(), shown.fragment);
+    let copied: RwSignal<Option<bool>> = RwSignal::new(None);
+    let has_circuit = shown.design.circuit.is_some();
+    let stored = StoredValue::new(shown);
+    let buttons = Export::ALL
+        .into_iter()
+        .map(|export| {
+            view! {
+                <button type="button" class="btn" data-testid=format!("download-{}", export.id()) disabled=!has_circuit && export != Export::Report
+                    on:click=move |_| {
+                        let file = stored.with_value(|s| outputs::download(s, export));
+                        let result = match file {
+                            Some(f) => browser::download(&f.file_name, f.mime, &f.content),
+                            None => Err("the design has no circuit".into()),
+                        };
+                        if let Err(why) = result {
+                            ctx.notify(NoticeKind::Error, "notice-download-error", format!("The file could not be made: {why}."));
+                        }
+                    }>
+                    {export.label()}
+                </button>
+            }
+        })
+        .collect_view();
+    let link_for_copy = link.clone();
+    view! {
+        <div class="toolbar">
+            <div class="downloads" role="group" aria-label="Downloads">
+                <span class="toolbar-label">"Download"</span>
+                {buttons}
+                <button type="button" class="btn ghost" on:click=|_| browser::print()>"Print"</button>
+            </div>
+            <div class="share">
+                <label class="toolbar-label" for="share-link">"Share link"</label>
+                <input id="share-link" type="text" readonly data-testid="share-link" prop:value=link.clone()
+                    on:focus=|ev| { event_target::<web_sys::HtmlInputElement>(&ev).select(); } />
+                <button type="button" class="btn" data-testid="copy-link" on:click=move |_| {
+                    browser::copy_text(&link_for_copy, move |ok| copied.set(Some(ok)));
+                }>"Copy link"</button>
+                <span class="copy-state" role="status">
+                    {move || match copied.get() {
+                        Some(true) => "Copied.",
+                        Some(false) => "Copying is blocked here: select the link and press Ctrl+C.",
+                        None => "",
+                    }}
+                </span>
+            </div>
+        </div>
+    }
+}
+
+fn checks_node(s: &Shown) -> Node {
+    el_c("ul", "checks").attr("data-testid", "checks").children(s.design.checks.iter().map(|c| {
+        let label = match c.severity {
+            Severity::Error => "Error",
+            Severity::Warning => "Warning",
+            Severity::Ok => "OK",
+        };
+        el_c("li", &format!("check sev-{}", c.severity))
+            .attr("data-check", &c.id)
+            .child(el_c("span", "badge").text(label))
+            .child(el_c("span", "check-text").text(&c.message))
+    }))
+}
+
+fn volts(x: f64) -> String {
+    format(x, Quantity::Voltage)
+}
+
+fn mapping_node(s: &Shown) -> Node {
+    let Some(p) = s.design.predicted else {
+        return el_c("p", "empty").attr("data-testid", "mapping").text("No mapping: the design could not be completed; the checks say why.");
+    };
+    let r = &s.design.request;
+    let hz = |f: f64| format(f, Quantity::Frequency);
+    let band = match (p.band_low, p.band_high) {
+        (Some(low), Some(high)) => format!("{} … {}", hz(low), hz(high)),
+        (None, Some(high)) => format!("DC … {}", hz(high)),
+        (Some(low), None) => format!("from {}", hz(low)),
+        (None, None) => "not limited".to_owned(),
+    };
+    let rows = [("Sensor at its lowest", volts(r.source.min), volts(p.output_at_min)), ("Sensor at its highest", volts(r.source.max), volts(p.output_at_max))]
+        .into_iter()
+        .map(|(what, from, to)| el("tr").child(el("th").attr("scope", "row").text(what)).child(el_c("td", "num").text(&from)).child(el_c("td", "num").text(&to)));
+    let offset_label = if r.source.coupling == Coupling::Ac { "Output DC level" } else { "Offset" };
+    let facts = [
+        ("Gain", format!("{} V/V", format(p.gain, Quantity::Ratio))),
+        (offset_label, volts(p.offset)),
+        ("Converter range", format!("{} … {}", volts(r.destination.min), volts(r.destination.max))),
+        ("Passband (−3 dB)", band),
+    ];
+    el("div")
+        .attr("data-testid", "mapping")
+        .child(table("map-table", "", &["", "Sensor", "Converter input"], rows))
+        .child(el_c("dl", "mapping").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))))
+}
+
+fn parts_node(s: &Shown) -> Node {
+    if s.bom.is_empty() {
+        return el_c("p", "empty").attr("data-testid", "parts").text("No parts: the design has no circuit.");
+    }
+    let rows = s.bom.iter().map(|r| {
+        let refs = r.designators.join(" ");
+        let qty = r.quantity.to_string();
+        row(&[("ref", &refs), ("num", &qty), ("", &r.kind), ("value", &r.value), ("num", &r.tolerance), ("", &r.rating), ("", &r.construction), ("notes", &r.notes)])
+    });
+    table("parts", "parts", &["Designators", "Qty", "Part", "Value", "Tolerance", "Rating", "Construction", "Notes"], rows)
+}
+
+fn roles_node(s: &Shown) -> Node {
+    let rows = s.design.parts.iter().map(|p| {
+        let nodes = p.nodes.join(" · ");
+        row(&[("ref", &p.reference), ("value", &p.display), ("", &p.purpose), ("nodes", &nodes)])
+    });
+    table("roles", "", &["Part", "Value", "Purpose", "Connects"], rows)
+}
+
+const AMP_FIGURES: [&str; 14] = [
+    "gbw", "slew_rate", "swing_low", "swing_high", "cm_low", "cm_high", "supply_min", "supply_max", "offset", "bias_current", "noise_voltage", "noise_current", "noise_corner", "open_loop_gain",
+];
+
+fn assumptions_node(s: &Shown) -> Node {
+    let d = &s.design;
+    let amp = serde_json::to_value(&d.amplifier).unwrap_or_default();
+    let figure = |name: &str| {
+        let f = fields::field(&format!("amplifier.{name}"));
+        let label = f.map(|f| f.label).unwrap_or("");
+        let q = f.and_then(|f| f.quantity()).unwrap_or(Quantity::Ratio);
+        let value = amp.get(name).and_then(|v| v.as_f64()).map(|x| format(x, q)).unwrap_or_default();
+        el("li").child(el("span").text(label)).text(" ").child(el_c("strong", "num").text(&value))
+    };
+    let assumed = &d.amplifier.assumed;
+    let given: Vec<&str> = AMP_FIGURES.iter().copied().filter(|n| !assumed.contains(n)).collect();
+    let (runs, seed) = d
+        .analysis
+        .as_ref()
+        .map(|a| (a.tolerance.monte_carlo.runs, a.tolerance.monte_carlo.seed))
+        .unwrap_or((d.request.analysis.monte_carlo_runs, d.request.analysis.seed));
+    let rails = if d.rails.is_dual() { format!("{} and {}", volts(d.rails.pos), volts(d.rails.neg)) } else { format!("{} and ground", volts(d.rails.pos)) };
+    let facts = [
+        ("Amplifier class", d.amplifier.class.clone(), "amp-class"),
+        ("Amplifier rails", rails, ""),
+        ("Temperature", format(d.request.analysis.temperature, Quantity::Temperature), "temperature"),
+        ("Monte Carlo", format!("{runs} builds, seed {seed}"), "monte-carlo"),
+    ];
+    let facts = el_c("dl", "facts").children(facts.iter().map(|(k, v, id)| {
+        let dd = el("dd").text(v);
+        el("div").child(el("dt").text(k)).child(if id.is_empty() { dd } else { dd.attr("data-testid", id) })
+    }));
+    let column = |title: &str, items: Node| el("div").child(el("h4").text(title)).child(items);
+    let mut cols = el_c("div", "amp-cols").child(column(
+        if assumed.is_empty() { "No figure was assumed" } else { "Figures assumed from the class" },
+        el_c("ul", "figures").children(assumed.iter().map(|n| figure(n))),
+    ));
+    if !given.is_empty() {
+        cols = cols.child(column("Figures you gave", el_c("ul", "figures").children(given.iter().map(|n| figure(n)))));
+    }
+    let reqs = d.requirements.as_ref().map(|r| r.summary.clone()).unwrap_or_default();
+    cols = cols.child(column("What the amplifier must provide", el_c("ul", "requirements").children(reqs.iter().map(|r| el("li").text(r)))));
+    el_c("div", "assumptions").attr("data-testid", "assumptions").child(facts).child(cols)
+}
