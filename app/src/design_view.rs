@@ -8,7 +8,8 @@ use std::sync::Arc;
 
 use leptos::prelude::*;
 use rangefit_engine::diag::Severity;
-use rangefit_engine::request::Coupling;
+use rangefit_engine::request::{Coupling, ResponseKind};
+use rangefit_engine::synth::filter::sections::SectionKind;
 use rangefit_engine::units::{format, Quantity};
 
 use crate::app::{Ctx, NoticeKind};
@@ -144,6 +145,7 @@ fn body_node(s: &Shown) -> Node {
                 .child(block("mapping", "Predicted mapping").child(mapping_node(s))),
         )
         .child(block("parts", "Part list").child(parts_node(s)))
+        .child(block("filter", "Anti-alias filter and converter pin").child(filter_node(s)))
         .child(block("plots", "Analyses").child(plots))
         .child(block("roles", "What each part does").child(roles_node(s)))
         .child(block("assumptions", "Assumptions").child(assumptions_node(s)))
@@ -248,6 +250,75 @@ fn mapping_node(s: &Shown) -> Node {
         .attr("data-testid", "mapping")
         .child(table("map-table", "", &["", "Sensor", "Converter input"], rows))
         .child(el_c("dl", "mapping").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))))
+}
+
+fn filter_node(s: &Shown) -> Node {
+    let d = &s.design;
+    let hz = |f: f64| format(f, Quantity::Frequency);
+    let db = |x: f64| format!("{x:.1} dB");
+    let mut out = el("div").attr("data-testid", "filter");
+    match &d.filter {
+        None => {
+            let why = if d.request.filter.response == ResponseKind::None {
+                "No anti-alias filter was asked for (response: none); the checks say what rejection that gives up."
+            } else {
+                "No filter was designed; the checks say why."
+            };
+            out = out.child(el_c("p", "empty").text(why));
+        }
+        Some(f) => {
+            let (required, achieved) = match d.analysis.as_ref().and_then(|a| a.alias.as_ref()) {
+                Some(a) => (a.required_db, a.achieved_db),
+                None => (f.required_db, f.rounded_db),
+            };
+            let facts = [
+                ("Response", f.response.name().to_string()),
+                ("Order", f.order.to_string()),
+                ("Corner", hz(f.corner)),
+                ("First frequency folding into the band", hz(f.alias_frequency)),
+                ("Rejection needed there", db(required)),
+                ("Rejection of the built filter there", db(achieved)),
+                ("In-band error at the band's top", format!("{:.2} dB of {:.2} dB allowed", f.passband_error_db, f.passband_allowed_db)),
+            ];
+            out = out.child(el_c("dl", "facts").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
+            let rows = f.sections.iter().enumerate().map(|(i, x)| {
+                let kind = match x.kind {
+                    SectionKind::FirstOrder => "first-order RC and follower",
+                    SectionKind::SallenKey => "Sallen-Key",
+                    SectionKind::MultipleFeedback => "multiple feedback",
+                };
+                let q = |q: f64| if x.kind == SectionKind::FirstOrder { "—".to_string() } else { format!("{q:.3}") };
+                let n = (i + 1).to_string();
+                let (fw, fr, qw, qr) = (hz(x.f_n), hz(x.f_n_rounded), q(x.q), q(x.q_rounded));
+                row(&[("num", &n), ("", kind), ("num", &fw), ("num", &fr), ("num", &qw), ("num", &qr)])
+            });
+            out = out.child(table("sections", "filter-sections", &["Section", "Built as", "f_n wanted", "f_n as built", "Q wanted", "Q as built"], rows));
+        }
+    }
+    if let Some(dr) = &d.drive {
+        let mut items = vec![format!("Series resistor {} from the last amplifier to the pin.", format(dr.resistor, Quantity::Resistance))];
+        if let Some(c) = dr.capacitor {
+            items.push(format!("Charge reservoir {} from the pin to ground.", format(c, Quantity::Capacitance)));
+        }
+        if let Some(t) = dr.settling_time {
+            items.push(format!(
+                "Settles to ½ LSB ({:.2} time constants) in {} of the {} acquisition time.",
+                dr.settling_time_constants,
+                format(t, Quantity::Time),
+                format(dr.acquisition_time, Quantity::Time)
+            ));
+        }
+        if dr.clamp_to_ground {
+            items.push("A Schottky clamp from ground to the pin takes fault current below ground.".to_string());
+        }
+        items.push(format!(
+            "Fault current into the pin at most {} (limit used {}; the converter's datasheet governs).",
+            format(dr.fault_current, Quantity::Current),
+            format(dr.injection_limit, Quantity::Current)
+        ));
+        out = out.child(el("h4").text("At the converter pin")).child(el_c("ul", "drive").attr("data-testid", "drive").children(items.iter().map(|t| el("li").text(t))));
+    }
+    out
 }
 
 fn parts_node(s: &Shown) -> Node {

@@ -11,7 +11,8 @@
 use std::collections::BTreeMap;
 
 use rangefit_engine::request::{
-    AnalysisOptions, Parts, Request, DEFAULT_BITS, DEFAULT_DESTINATION_IMPEDANCE, DEFAULT_HEADROOM,
+    AnalysisOptions, Parts, Request, DEFAULT_BITS, DEFAULT_DESTINATION_IMPEDANCE, DEFAULT_HEADROOM, DEFAULT_INJECTION_LIMIT,
+    DEFAULT_INPUT_CAPACITANCE, DEFAULT_MAX_ORDER, DEFAULT_PASSBAND_ERROR_DB,
 };
 use rangefit_engine::units::{self, Quantity};
 use serde_json::{Map, Number, Value};
@@ -76,6 +77,9 @@ pub enum Kind {
     Flag,
     /// Several voltages separated by commas (the supply rails).
     Rails,
+    /// A level the engine reads itself: a plain number, a percentage or decibels
+    /// ("0.1 dB", "-40 dB", "1 %"); sent as typed, the engine names what is wrong.
+    Level,
 }
 
 /// One input of the form.
@@ -111,6 +115,22 @@ impl Field {
     pub fn is_amplifier_figure(&self) -> bool {
         self.path.starts_with("amplifier.")
     }
+
+    /// Whether the field applies given the other fields' texts: the amplifier's figures
+    /// only when the user gives them, the modulator rate only for an oversampling
+    /// converter, the sampling figures only for a sampling one, the filter's settings only
+    /// when a filter is wanted. A field that does not apply is hidden and left out of the
+    /// request, but its text is kept.
+    pub fn applies(&self, text: impl Fn(&str) -> String) -> bool {
+        let oversampling = || text("destination.converter") == "oversampling";
+        match self.path {
+            "destination.modulator_rate" => oversampling(),
+            "destination.acquisition_time" | "destination.input_capacitance" => !oversampling(),
+            "filter.response" => true,
+            p if p.starts_with("filter.") => text("filter.response") != "none",
+            _ => !self.is_amplifier_figure() || text("amplifier") == AMP_GIVEN,
+        }
+    }
 }
 
 /// Value of the `amplifier` choice: the engine assumes a generic class and states what
@@ -123,6 +143,21 @@ const KINDS: &[(&str, &str)] = &[("single_ended", "Single-ended voltage (one sig
 const COUPLINGS: &[(&str, &str)] = &[
     ("dc", "Pass DC: the lowest output maps to the bottom of the converter range, the highest to the top"),
     ("ac", "Block DC: only the swing passes, centred in the converter range"),
+];
+const CONVERTERS: &[(&str, &str)] = &[
+    ("unknown", "Not known (treated as sampling)"),
+    ("sar", "Sampling (SAR): the pin charges a sampling capacitor"),
+    ("oversampling", "Oversampling (delta-sigma) with its own decimation filter"),
+];
+const RESPONSES: &[(&str, &str)] = &[
+    ("flat", "Flat passband (Butterworth)"),
+    ("linear_phase", "Keeps pulse shapes: linear phase (Bessel)"),
+    ("steep", "Steepest roll-off, 0.5 dB ripple (Chebyshev)"),
+    ("none", "No filter"),
+];
+const TOPOLOGIES: &[(&str, &str)] = &[
+    ("sallen_key", "Sallen-Key (non-inverting, unity gain)"),
+    ("multiple_feedback", "Multiple feedback (inverting, around a reference)"),
 ];
 const SERIES: &[(&str, &str)] = &[
     ("E3", "E3"),
@@ -174,6 +209,17 @@ pub const FIELDS: &[Field] = &[
     field!("destination.bits", "Resolution (bits)", Kind::Whole, Converter, "Sampling", false, "A whole number from 1 to 32."),
     field!("destination.sample_rate", "Sample rate", q(Quantity::Frequency), Converter, "Sampling", true, "Samples per second, e.g. 48 kHz."),
     field!("destination.impedance", "Input impedance", q(Quantity::Resistance), Converter, "Sampling", false, "What the converter input loads the circuit with, e.g. 10 kΩ."),
+    field!("destination.converter", "Kind of converter", Kind::Choice(CONVERTERS), Converter, "Sampling", false, "Decides which frequency folds into the band and whether the pin needs a charge reservoir."),
+    field!("destination.modulator_rate", "Modulator rate", q(Quantity::Frequency), Converter, "Sampling", false, "The rate the oversampling modulator samples at, e.g. 3.072 MHz; at least twice the sample rate."),
+    field!("destination.acquisition_time", "Acquisition time", q(Quantity::Time), Converter, "Sampling", false, "How long the pin is connected to the sampling capacitor, from the converter's datasheet."),
+    field!("destination.input_capacitance", "Sampling capacitance", q(Quantity::Capacitance), Converter, "Sampling", false, "The converter's sampling capacitor, from its datasheet, e.g. 20 pF."),
+    field!("destination.injection_limit", "Largest fault current into the pin", q(Quantity::Current), Converter, "Sampling", false, "What the pin's protection may carry in a fault, from the converter's datasheet, e.g. 5 mA."),
+    field!("filter.response", "Filter response", Kind::Choice(RESPONSES), Converter, "Anti-alias filter", false, "The shape of the low-pass ahead of the converter."),
+    field!("filter.topology", "Sections built as", Kind::Choice(TOPOLOGIES), Converter, "Anti-alias filter", false, "How each second-order section is built."),
+    field!("filter.order", "Order", Kind::Whole, Converter, "Anti-alias filter", false, "Leave empty for the lowest order that meets the rejection."),
+    field!("filter.max_order", "Highest order allowed", Kind::Whole, Converter, "Anti-alias filter", false, "Beyond 8, part tolerances spoil the response; a faster or oversampling converter is the better answer."),
+    field!("filter.passband_error", "In-band error allowed at the band's top", Kind::Level, Converter, "Anti-alias filter", false, "In dB, e.g. 0.1 dB."),
+    field!("filter.out_of_band_level", "Strongest content above the band", Kind::Level, Converter, "Anti-alias filter", false, "Relative to full scale: -40 dB, 1 % or 0.01. Full scale (0 dB) is the safe assumption."),
     field!("keep_polarity", "The output rises when the sensor's signal rises", Kind::Flag, Converter, "Direction", false, "Untick to let Rangefit use an inverting stage when that is simpler."),
     // --- power and parts --------------------------------------------------------------
     field!("supplies", "Supply rails", Kind::Rails, Parts, "Power", true, "Every rail you can use, separated by commas: “3.3” for one rail, “5, 3.3” for two, “12, -12” for a split supply. Ground is always there."),
@@ -262,6 +308,12 @@ pub fn new_design() -> Values {
     put("destination.headroom", value_text(DEFAULT_HEADROOM, pct()));
     put("destination.bits", DEFAULT_BITS.to_string());
     put("destination.impedance", value_text(DEFAULT_DESTINATION_IMPEDANCE, q(Quantity::Resistance)));
+    put("destination.converter", "unknown".into());
+    put("destination.input_capacitance", value_text(DEFAULT_INPUT_CAPACITANCE, q(Quantity::Capacitance)));
+    put("destination.injection_limit", value_text(DEFAULT_INJECTION_LIMIT, q(Quantity::Current)));
+    put("filter.response", "flat".into());
+    put("filter.topology", "sallen_key".into());
+    put("filter.max_order", DEFAULT_MAX_ORDER.to_string());
     put("keep_polarity", flag_text(true));
     put("parts.resistor_series", parts.resistor_series.name().to_string());
     put("parts.resistor_tolerance", value_text(parts.resistor_tolerance, pct()));
@@ -390,7 +442,6 @@ fn field_of_error(path: &str) -> Option<&'static str> {
 /// and reads it with `Request::from_value`.
 pub fn validate(values: &Values) -> Validation {
     let text = |path: &str| values.get(path).map(|s| s.trim()).unwrap_or("");
-    let amp_given = text("amplifier") == AMP_GIVEN;
     let mut root = Map::new();
     root.insert("version".into(), Value::from(rangefit_engine::request::CURRENT_VERSION));
     let mut out = Validation::default();
@@ -398,7 +449,7 @@ pub fn validate(values: &Values) -> Validation {
 
     for f in FIELDS {
         let t = text(f.path);
-        if f.path == "amplifier" || (f.is_amplifier_figure() && !amp_given) {
+        if f.path == "amplifier" || !f.applies(|p| text(p).to_string()) {
             continue;
         }
         if t.is_empty() {
@@ -426,6 +477,10 @@ pub fn validate(values: &Values) -> Validation {
                 }
             },
             Kind::Text | Kind::LongText | Kind::Choice(_) => Value::String(t.to_string()),
+            Kind::Level => match serde_json::from_str::<Number>(t) {
+                Ok(n) => Value::Number(n),
+                Err(_) => Value::String(t.to_string()),
+            },
             Kind::Flag => Value::Bool(t == "true"),
             Kind::Rails => {
                 let items: Vec<&str> = t.split([',', ';']).map(str::trim).filter(|s| !s.is_empty()).collect();
@@ -445,7 +500,7 @@ pub fn validate(values: &Values) -> Validation {
         };
         insert_path(&mut root, f.path, value);
     }
-    if amp_given && !root.contains_key("amplifier") {
+    if text("amplifier") == AMP_GIVEN && !root.contains_key("amplifier") {
         root.insert("amplifier".into(), Value::Object(Map::new()));
     }
     out.json = Value::Object(root);
@@ -484,6 +539,17 @@ pub fn placeholder(f: &Field, design: Option<&rangefit_engine::Design>) -> Strin
             from_design(design.map(|d| d.request.source.band_high)).map(|t| format!("empty: a tenth of the sample rate ({t})")).unwrap_or_else(|| "empty: a tenth of the sample rate".into())
         }
         "name" => "Untitled design".into(),
+        "destination.modulator_rate" => "needed for an oversampling converter".into(),
+        "destination.acquisition_time" => {
+            let t = design.map(|d| units::format(d.request.destination.acquisition_time, Quantity::Time));
+            t.map(|t| format!("empty: a quarter of the sample period ({t})")).unwrap_or_else(|| "empty: a quarter of the sample period".into())
+        }
+        "filter.order" => match design.and_then(|d| d.filter.as_ref()) {
+            Some(f) => format!("empty: the lowest that meets the rejection ({})", f.order),
+            None => "empty: the lowest that meets the rejection".into(),
+        },
+        "filter.passband_error" => format!("empty: {} dB (steep: its 0.5 dB ripple)", DEFAULT_PASSBAND_ERROR_DB),
+        "filter.out_of_band_level" => "empty: full scale (0 dB)".into(),
         "amplifier.gbw" => assumed(amp.map(|a| a.gbw)),
         "amplifier.slew_rate" => assumed(amp.map(|a| a.slew_rate)),
         "amplifier.swing_low" => assumed(amp.map(|a| a.swing_low)),
@@ -675,6 +741,36 @@ mod tests {
         v.insert("source.measurand.at_max", "600".into());
         let req = validate(&v).request.expect("complete");
         assert_eq!(req.source.measurand.map(|m| m.at_max), Some(600.0));
+    }
+
+    #[test]
+    fn converter_and_filter_fields_apply_only_where_they_mean_something() {
+        let mut v = from_json(&demo_json(0));
+        // A modulator rate typed for a sampling converter is kept in the form, not sent.
+        v.insert("destination.modulator_rate", "3.072 MHz".into());
+        let r = validate(&v);
+        assert!(r.request.is_some(), "{:?}", r.errors);
+        assert!(r.json["destination"].get("modulator_rate").is_none());
+        v.insert("destination.converter", "oversampling".into());
+        let req = validate(&v).request.expect("complete");
+        assert_eq!(req.destination.modulator_rate, Some(3.072e6));
+        v.insert("destination.modulator_rate", String::new());
+        assert!(validate(&v).errors["destination.modulator_rate"].contains("required"), "the engine's rule lands under the field");
+        v.insert("destination.modulator_rate", "3.072 MHz".into());
+        // Levels go to the engine as typed; its message lands under the field.
+        v.insert("filter.out_of_band_level", "-40 dB".into());
+        v.insert("filter.passband_error", "0.2".into());
+        let req = validate(&v).request.expect("complete");
+        assert!((req.filter.out_of_band_level - 0.01).abs() < 1e-12, "{}", req.filter.out_of_band_level);
+        assert_eq!(req.filter.passband_error, 0.2);
+        v.insert("filter.out_of_band_level", "+6 dB".into());
+        assert!(validate(&v).errors.contains_key("filter.out_of_band_level"));
+        // No filter: its settings are left out, whatever they hold.
+        v.insert("filter.response", "none".into());
+        v.insert("filter.order", "99".into());
+        let r = validate(&v);
+        assert!(r.request.is_some(), "{:?}", r.errors);
+        assert_eq!(r.json["filter"], serde_json::json!({"response": "none"}));
     }
 
     #[test]

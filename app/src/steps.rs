@@ -198,8 +198,7 @@ pub fn FieldView(field: &'static Field) -> impl IntoView {
     let path = field.path;
     let error = Memo::new(move |_| ctx.validation.with(|v| v.errors.get(path).cloned()));
     let missing = Memo::new(move |_| ctx.validation.with(|v| v.missing.contains(&path)));
-    let amp_figure = field.is_amplifier_figure();
-    let hidden = move || amp_figure && ctx.value("amplifier").map(|s| s.get() != AMP_GIVEN).unwrap_or(true);
+    let hidden = move || !field.applies(|p| ctx.value(p).map(|s| s.get()).unwrap_or_default());
     let described = format!("{msg_id} {help_id}");
     let placeholder = move || ctx.shown.with(|s| fields::placeholder(field, s.as_ref().map(|s| &s.design)));
     let on_input = move |ev: leptos::ev::Event| value.set(event_target_value(&ev));

@@ -1,10 +1,13 @@
 //! The frequency response: magnitude and phase against log frequency, two panels sharing
-//! the frequency axis, with the band, the −3 dB points, f_s, f_s/2 and f_s − band_high marked.
+//! the frequency axis, with the band, the −3 dB points, f_s, f_s/2 and the first frequency
+//! that folds into the band (f_s − band_high, or the modulator rate − band_high) marked, and
+//! the anti-alias requirement drawn as a ceiling from that frequency up: the mid-band gain
+//! less the rejection the rule asks for (`analysis.alias`).
 
 use super::axis::{bounds_for, usable_range, Axis, Scale};
 use super::layout::{draw_title, extent, finite, interpolate, left_edge, min_panel_h, min_panel_w, right_edge, title, widen, Rows, Y_SPACING};
 use super::legend::{spread, Legend, Sample, Tag};
-use super::page::{fit, si, Page, Panel, ACCENT, DASH, DOT, GREY, INK, PAD, TINT};
+use super::page::{fit, si, Page, Panel, ACCENT, DASH, DOT, GREY, INK, PAD, TINT, WARN};
 use super::ticks::{TickSet, Unit};
 use super::{Plot, PlotConfig};
 use crate::analysis::Analysis;
@@ -63,6 +66,8 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     let mag = finite(pts.iter().map(|p| (p.0, p.1)));
     let f_ref = if s.coupling == Coupling::Ac && a.ac.f_mid > 0.0 { a.ac.f_mid } else { pts.first().map_or(1.0, |p| p.0) };
     let phase = unwrap_phase(&finite(pts.iter().map(|p| (p.0, p.2))), f_ref);
+    // The level content at the fold frequency must stay under, dB (mid-band gain − rejection).
+    let ceiling = a.alias.as_ref().map(|x| (a.ac.gain_mid_db - x.required_db, x)).filter(|(c, _)| c.is_finite());
 
     let (f0, f1) = match extent(pts.iter().map(|p| p.0)) {
         Some((a, b)) if b > a => (a, b),
@@ -73,7 +78,8 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     // frame. Both widened to their tick steps once the panel height is known.
     let (m0, m1) = match extent(mag.iter().map(|p| p.1)) {
         Some((lo, hi)) => {
-            let lo = lo.max(hi - 100.0).min(hi - 20.0);
+            let floor = ceiling.map_or(hi - 100.0, |(c, _)| (c - 10.0).max(hi - 140.0));
+            let lo = lo.max(floor.min(hi - 100.0)).min(hi - 20.0);
             (lo - 0.03 * (hi - lo), hi + 2.0)
         }
         None => (-40.0, 20.0),
@@ -87,7 +93,7 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     for &f in &corners {
         markers.push(Marker { f, tag: "−3 dB", colour: ACCENT, width: 1.2, dash: DASH });
     }
-    let fold = f_s - s.band_high;
+    let fold = a.alias.as_ref().map_or(f_s - s.band_high, |x| x.frequency);
     let nyq = 0.5 * f_s;
     if nyq.is_finite() && nyq > 0.0 {
         markers.push(Marker { f: nyq, tag: "fs/2", colour: GREY, width: 1.2, dash: DASH });
@@ -115,7 +121,14 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
         items.push((Sample::Line { colour: GREY, width: 1.0, dash: "" }, format!("fs = {} (sample rate){}", hz(f_s), off(f_s))));
     }
     if fold.is_finite() && fold > 0.0 {
-        items.push((Sample::Line { colour: GREY, width: 1.4, dash: DOT }, format!("fold: fs − band high = {}, the lowest frequency that aliases into the band{}", hz(fold), off(fold))));
+        let how = if a.alias.is_some() && (fold - (f_s - s.band_high)).abs() > 1e-9 * fold { "modulator rate − band high" } else { "fs − band high" };
+        items.push((Sample::Line { colour: GREY, width: 1.4, dash: DOT }, format!("fold: {how} = {}, the lowest frequency that aliases into the band{}", hz(fold), off(fold))));
+    }
+    if let Some((_, x)) = ceiling {
+        items.push((
+            Sample::Line { colour: WARN, width: 2.0, dash: "" },
+            format!("rejection needed from the fold up: {:.1} dB below mid-band (built: {:.1} dB)", x.required_db, x.achieved_db),
+        ));
     }
 
     // Geometry: twice, the second time with the y tick labels the first one found.
@@ -192,6 +205,15 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     }
     if mag.is_empty() {
         page.note(&mag_p, "no response computed");
+    }
+    if let Some((c, _)) = ceiling {
+        let from = fold.max(f0);
+        if from < f1 && c >= mag_p.y.lo.min(mag_p.y.hi) && c <= mag_p.y.lo.max(mag_p.y.hi) {
+            if let (Some(a), Some(b)) = (mag_p.px(from, c), mag_p.px(f1, c)) {
+                page.stroke(a, b, WARN, 2.0, "", "alias-ceiling");
+                page.stroke(a, (a.0, mag_p.top), WARN, 2.0, "", "alias-ceiling");
+            }
+        }
     }
     page.curve(&mag_p, &mag, ACCENT, 1.8, "", "magnitude");
     page.curve(&ph_p, &phase, ACCENT, 1.8, "", "phase");

@@ -24,6 +24,9 @@ pub(super) type Pt = (f64, f64);
 pub(super) const INK: &str = "#000000";
 pub(super) const ACCENT: &str = "#1f4e9c";
 pub(super) const GREY: &str = "#777777";
+/// Limits a curve must respect (the anti-alias ceiling): a dark orange that stays apart from
+/// the blue curves and reads on paper.
+pub(super) const WARN: &str = "#b34700";
 pub(super) const GRID: &str = "#e2e2e2";
 /// The accent lightened: shaded bands and histogram bars.
 pub(super) const TINT: &str = "#dce5f3";
