@@ -237,7 +237,9 @@ fn capacitor_row(p: &Part, s: &Stress) -> BomRow {
         rating: if rating.is_finite() { format!("≥ {}", format(rating, Quantity::Voltage)) } else { format!("≥ {}", format(RATING_MARGIN * v, Quantity::Voltage)) },
         construction,
         stress: v,
-        notes: format!("{} at rest", format(at_op, Quantity::Voltage)),
+        // Below a millivolt the DC across is the amplifiers' finite gain, not a bias: say so
+        // instead of printing microvolts that read like a design value.
+        notes: if at_op.abs() < 1e-3 { "about 0 V across at rest".to_string() } else { format!("{} across at rest", format(at_op, Quantity::Voltage)) },
     }
 }
 
