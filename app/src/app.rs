@@ -320,8 +320,11 @@ pub fn App() -> impl IntoView {
             return;
         }
         let serial = ctx.shown.with_untracked(|s| s.as_ref().map_or(0, |s| s.serial)) + 1;
-        let design = browser::timed("rangefit:design", || outputs::run_design(&req));
-        let shown = Arc::new(browser::timed("rangefit:outputs", || outputs::derive(design, serial)));
+        // The first design of a page load is shown without its Monte Carlo spread, which
+        // follows with the plots (see `outputs::run_design_quick`).
+        let quick = serial == 1 && req.analysis.monte_carlo_runs > 0;
+        let design = browser::timed("rangefit:design", || if quick { outputs::run_design_quick(&req) } else { outputs::run_design(&req) });
+        let shown = Arc::new(browser::timed("rangefit:outputs", || outputs::derive(design, serial, quick)));
         ctx.shown.set(Some(shown.clone()));
         // The plots follow once the browser has painted the rest, unless a newer design
         // has replaced this one by then.
@@ -330,6 +333,14 @@ pub fn App() -> impl IntoView {
                 if ctx.shown.with_untracked(|s| s.as_ref().map(|s| s.serial)) != Some(serial) {
                     return;
                 }
+                let shown = if quick {
+                    let design = browser::timed("rangefit:design", || outputs::run_design(&shown.design.request));
+                    let full = Arc::new(browser::timed("rangefit:outputs", || outputs::derive(design, serial, false)));
+                    ctx.shown.set(Some(full.clone()));
+                    full
+                } else {
+                    shown
+                };
                 let plots = browser::timed("rangefit:plots", || outputs::plots(&shown.design));
                 ctx.plots.set(Some((serial, Arc::new(plots))));
             },

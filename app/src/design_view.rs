@@ -213,6 +213,14 @@ fn checks_node(s: &Shown) -> Node {
             Severity::Warning => "Warning",
             Severity::Ok => "OK",
         };
+        // While the spread is computed, the engine's "switched off" sentence would mislead.
+        if s.spread_pending && c.id == "yield" {
+            let runs = s.design.request.analysis.monte_carlo_runs;
+            return el_c("li", "check sev-ok pending")
+                .attr("data-check", &c.id)
+                .child(el_c("span", "badge").text("…"))
+                .child(el_c("span", "check-text").text(&format!("Simulating {runs} builds within the part tolerances…")));
+        }
         el_c("li", &format!("check sev-{}", c.severity))
             .attr("data-check", &c.id)
             .child(el_c("span", "badge").text(label))
@@ -360,6 +368,7 @@ fn assumptions_node(s: &Shown) -> Node {
     let (runs, seed) = d
         .analysis
         .as_ref()
+        .filter(|_| !s.spread_pending)
         .map(|a| (a.tolerance.monte_carlo.runs, a.tolerance.monte_carlo.seed))
         .unwrap_or((d.request.analysis.monte_carlo_runs, d.request.analysis.seed));
     let rails = if d.rails.is_dual() { format!("{} and {}", volts(d.rails.pos), volts(d.rails.neg)) } else { format!("{} and ground", volts(d.rails.pos)) };
@@ -367,7 +376,7 @@ fn assumptions_node(s: &Shown) -> Node {
         ("Amplifier class", d.amplifier.class.clone(), "amp-class"),
         ("Amplifier rails", rails, ""),
         ("Temperature", format(d.request.analysis.temperature, Quantity::Temperature), "temperature"),
-        ("Monte Carlo", format!("{runs} builds, seed {seed}"), "monte-carlo"),
+        ("Monte Carlo", format!("{runs} builds, seed {seed}{}", if s.spread_pending { " (computing)" } else { "" }), "monte-carlo"),
     ];
     let facts = el_c("dl", "facts").children(facts.iter().map(|(k, v, id)| {
         let dd = el("dd").text(v);

@@ -7,6 +7,8 @@ use rangefit_engine::draw::plot::{self, PlotConfig};
 use rangefit_engine::draw::schematic::{self, SchematicConfig};
 use rangefit_engine::netlist::{netlist, NetlistConfig};
 use rangefit_engine::report;
+use rangefit_engine::analysis::AnalysisConfig;
+use rangefit_engine::design::design_with;
 use rangefit_engine::{design, share, Design, Request};
 
 /// The engine's answer for one request and everything drawn from it.
@@ -20,6 +22,8 @@ pub struct Shown {
     pub fragment: String,
     /// Counts designs shown, so plots drawn later find the design they belong to.
     pub serial: u64,
+    /// The design was made without its Monte Carlo spread, which is being computed.
+    pub spread_pending: bool,
 }
 
 /// One analysis plot.
@@ -36,13 +40,21 @@ pub fn run_design(req: &Request) -> Design {
     design(req)
 }
 
+/// The same design without the Monte Carlo spread (the worst case over tolerances is
+/// still computed): what a page load shows first. Freshly loaded WebAssembly runs its
+/// first calls unoptimised, and the 10,000 builds of the spread would hold the first
+/// paint back by tens of milliseconds; the full design follows right after.
+pub fn run_design_quick(req: &Request) -> Design {
+    design_with(req, &AnalysisConfig { monte_carlo_runs: 0, ..AnalysisConfig::from_request(req) })
+}
+
 /// Draws what the design view opens with from a finished design: schematic, part list
 /// and share link. The plots are drawn separately by [`plots`], after the first paint.
-pub fn derive(design: Design, serial: u64) -> Shown {
+pub fn derive(design: Design, serial: u64, spread_pending: bool) -> Shown {
     let schematic = schematic::of_design(&design, &SchematicConfig::default()).map(|s| s.svg);
     let bom = bom::bom(&design);
     let fragment = share::encode(&design.request);
-    Shown { design, schematic, bom, fragment, serial }
+    Shown { design, schematic, bom, fragment, serial, spread_pending }
 }
 
 /// The four analysis plots of a design, in page order.
@@ -147,7 +159,7 @@ mod tests {
     fn downloads_equal_what_the_command_prints() {
         for demo in demos::ALL {
             let req = Request::from_json(demo.json).expect("valid");
-            let shown = derive(run_design(&req), 1);
+            let shown = derive(run_design(&req), 1, false);
             assert!(shown.schematic.as_deref().is_some_and(|s| s.starts_with("<svg")), "{}", demo.id);
             let drawn = plots(&shown.design);
             assert_eq!(drawn.iter().map(|p| p.id).collect::<Vec<_>>(), ["response", "transfer", "tolerance", "noise"]);
@@ -177,7 +189,7 @@ mod tests {
         let mut json: serde_json::Value = serde_json::from_str(demos::ALL[1].json).expect("JSON");
         json["source"]["max"] = json["source"]["min"].clone();
         let req = Request::from_value(&json).expect("well formed");
-        let shown = derive(run_design(&req), 1);
+        let shown = derive(run_design(&req), 1, false);
         assert!(shown.design.circuit.is_none());
         for e in [Export::Schematic, Export::PartList, Export::Netlist] {
             assert_eq!(download(&shown, e), None);
