@@ -28,7 +28,9 @@
 use serde::Serialize;
 
 mod annotate;
+mod chain;
 mod plan;
+mod rows;
 mod sheet;
 
 use super::svg::{BoxRect, Segment};
@@ -36,6 +38,7 @@ use crate::circuit::{Circuit, Part, PartKind, GND};
 use crate::request::{Coupling, Request};
 use crate::solve::{DcSolution, Solver};
 use crate::units::{format, Quantity};
+use chain::Chain;
 use plan::Plan;
 use sheet::{Sheet, INK};
 
@@ -159,11 +162,17 @@ pub fn schematic(circuit: &Circuit, op: Option<&DcSolution>, ranges: &[TestPoint
     let x_term = sh.sensor();
     let x_line = sh.series(&plan, x_term);
     let out = sh.amp_stage(&plan, x_line);
-    sh.converter(out, &plan);
+    let at = out.map(|o| {
+        let mut used = sh.done.clone();
+        let chain = Chain::of(circuit, &o.2, &sh.rails, &mut used);
+        sh.chain_rows(&chain, o, plan.amp)
+    });
+    sh.converter(at, &plan);
     sh.fallback();
     for p in sh.svg.junctions() {
         sh.svg.circle(p, 3.2, INK, None);
     }
+    sh.captions();
     sh.part_labels();
     sh.marks();
     for tp in ranges {

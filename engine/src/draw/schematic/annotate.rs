@@ -75,6 +75,14 @@ impl Sheet<'_> {
                     }
                     spots.push((b.x - 8.0, b.y - h - 6.0, Anchor::End));
                     spots.push((b.x - 8.0, b.y + b.h + 6.0, Anchor::End));
+                    // A filter section's amplifier: above the symbol, short of the output
+                    // column; or right of the follower's link, under the output.
+                    for dy in [-8.0, -20.0] {
+                        spots.push((b.x + b.w + 25.0, b.y - h + dy, Anchor::End));
+                    }
+                    for dy in [10.0, 22.0] {
+                        spots.push((b.x + b.w + 22.0, cy + dy, Anchor::Start));
+                    }
                 }
             }
             if !self.put(&l.lines, &spots, fs, l.colour, "", None) {
@@ -184,7 +192,8 @@ impl Sheet<'_> {
         let h = 1.05 * fs;
         let mut nets: Vec<String> = Vec::new();
         for w in &self.svg.wires {
-            if !w.net.is_empty() && w.net != GND && w.net != "emf" && !self.rails.iter().any(|r| r.node == w.net) && !nets.contains(&w.net) {
+            let quiet = self.quiet.contains(&w.net);
+            if !w.net.is_empty() && w.net != GND && w.net != "emf" && !quiet && !self.rails.iter().any(|r| r.node == w.net) && !nets.contains(&w.net) {
                 nets.push(w.net.clone());
             }
         }

@@ -77,6 +77,14 @@ pub(super) struct Sheet<'a> {
     pub(super) polarised: bool,
     /// Part leads: runs a test point avoids (it would read as part of the symbol).
     pub(super) leads: Vec<Segment>,
+    /// Signal line of the row being drawn (labels of horizontal parts below it prefer below).
+    pub(super) row_y: f64,
+    /// Nodes inside filter sections: their DC level is the section input's, so not repeated.
+    pub(super) quiet: Vec<String>,
+    /// Height above the line of the row being drawn (its loops and captions).
+    pub(super) row_top: f64,
+    /// Section captions waiting for their spot: lines, left x, top.
+    pub(super) captions: Vec<(Vec<String>, f64, f64)>,
 }
 
 impl<'a> Sheet<'a> {
@@ -112,6 +120,10 @@ impl<'a> Sheet<'a> {
             notes: Vec::new(),
             polarised: false,
             leads: Vec::new(),
+            row_y: Y0,
+            row_top: 0.0,
+            quiet: Vec::new(),
+            captions: Vec::new(),
         }
     }
 
@@ -137,6 +149,7 @@ impl<'a> Sheet<'a> {
         let m = ((a.0 + b.0) / 2.0, (a.1 + b.1) / 2.0);
         let half = match p.kind {
             PartKind::Capacitor => 4.0,
+            PartKind::Diode => 9.0,
             PartKind::VoltageSource => 16.0,
             _ => 20.0,
         };
@@ -178,6 +191,22 @@ impl<'a> Sheet<'a> {
                 self.svg.text(c.0, c.1 + 0.35 * fs, "+", fs, Anchor::Middle, colour, "bold", "");
                 vec![(m.0 - 16.0, m.1 - 16.0), (m.0 + 16.0, m.1 + 16.0)]
             }
+            PartKind::Diode => {
+                // Triangle from the anode (the first node) to the bar at the cathode; the
+                // bar's hooked ends mark a Schottky diode.
+                let forward = p.nodes.first().map(|n| n == na).unwrap_or(true);
+                let (base, tip, d) = if forward { (s, e, (ux, uy)) } else { (e, s, (-ux, -uy)) };
+                let (b1, b2) = at(base, 9.0);
+                let (t1, t2) = at(tip, 9.0);
+                self.svg.polygon(&[b1, b2, tip], "#ffffff", pen);
+                self.svg.segment(t1, t2, "", pen);
+                let (h1, h2) = ((t1.0 - d.0 * 4.0, t1.1 - d.1 * 4.0), (t2.0 + d.0 * 4.0, t2.1 + d.1 * 4.0));
+                self.svg.line(t1, h1, pen);
+                self.svg.line(h1, (h1.0 + (t2.0 - t1.0) * 0.17, h1.1 + (t2.1 - t1.1) * 0.17), pen);
+                self.svg.line(t2, h2, pen);
+                self.svg.line(h2, (h2.0 - (t2.0 - t1.0) * 0.17, h2.1 - (t2.1 - t1.1) * 0.17), pen);
+                vec![b1, b2, t1, t2, h1, h2]
+            }
             _ => {
                 let (s1, s2) = at(s, 7.0);
                 let (e1, e2) = at(e, 7.0);
@@ -191,7 +220,7 @@ impl<'a> Sheet<'a> {
         let body = BoxRect::new(x0, y0, x1 - x0, y1 - y0);
         self.svg.keepout.push(body.clone());
         let shape = if vertical { Shape::Vertical } else { Shape::Horizontal };
-        let below_first = !vertical && m.1 > Y0 + 60.0;
+        let below_first = !vertical && m.1 > self.row_y + 60.0;
         self.labels.push(Label { lines: vec![p.reference.clone(), value_text(p)], body, shape, colour, below_first });
         self.done[i] = true;
     }
@@ -278,20 +307,7 @@ impl<'a> Sheet<'a> {
             if let Some(st) = leg.steps.first() {
                 self.two(st.part, (x, y), &st.from, (x, yr), &st.to, true);
             }
-            let (ups, mut downs): (Vec<&Step>, Vec<&Step>) = block.iter().partition(|s| self.positive_rail(&s.to));
-            downs.sort_by_key(|s| self.c.parts.get(s.part).map(|p| p.kind != PartKind::Resistor).unwrap_or(true));
-            let cols = ups.len().max(downs.len());
-            let xl = x - cols as f64 * PITCH;
-            self.wire((xl, yr), (x, yr), &leg.end, false);
-            for j in 0..cols {
-                let xc = xl + j as f64 * PITCH;
-                for (st, dir) in [(ups.get(j), -1.0), (downs.get(j), 1.0)] {
-                    if let Some(st) = st {
-                        self.two(st.part, (xc, yr), &st.from, (xc, yr + dir * SPAN), &st.to, true);
-                        self.terminal((xc, yr + dir * SPAN), &st.to, dir < 0.0);
-                    }
-                }
-            }
+            self.block(block, x, yr, &leg.end, false);
             return;
         }
         let up = top && self.positive_rail(&leg.end);
@@ -302,6 +318,26 @@ impl<'a> Sheet<'a> {
             yy += dir * SPAN;
         }
         self.terminal((x, yy), &leg.end, up);
+    }
+
+    /// A reference block on a bus at `yr` from `x` (leftward, or `rightward`): a column per
+    /// part, those to a positive rail up, the rest down (resistors first).
+    pub(super) fn block(&mut self, block: &[Step], x: f64, yr: f64, net: &str, rightward: bool) {
+        let (ups, mut downs): (Vec<&Step>, Vec<&Step>) = block.iter().partition(|s| self.positive_rail(&s.to));
+        downs.sort_by_key(|s| self.c.parts.get(s.part).map(|p| p.kind != PartKind::Resistor).unwrap_or(true));
+        let cols = ups.len().max(downs.len());
+        let xl = if rightward { x + 60.0 } else { x - cols as f64 * PITCH };
+        let xe = if rightward { xl + cols.saturating_sub(1) as f64 * PITCH } else { x };
+        self.wire((xl.min(x), yr), (xe, yr), net, false);
+        for j in 0..cols {
+            let xc = xl + j as f64 * PITCH;
+            for (st, dir) in [(ups.get(j), -1.0), (downs.get(j), 1.0)] {
+                if let Some(st) = st {
+                    self.two(st.part, (xc, yr), &st.from, (xc, yr + dir * SPAN), &st.to, true);
+                    self.terminal((xc, yr + dir * SPAN), &st.to, dir < 0.0);
+                }
+            }
+        }
     }
 
     /// The amplifier stage: legs, amplifier, feedback; returns the converter's input point.
@@ -358,32 +394,11 @@ impl<'a> Sheet<'a> {
             yr = yk;
         }
         // The amplifier.
-        let pen = self.pen(false);
-        let c = self.c;
-        let p = c.parts.get(u)?;
-        self.svg.open_group("part", &p.reference);
-        self.svg.polygon(&[(ux, Y0 - 20.0), (x_out, yo), (ux, Y0 + 60.0)], "#ffffff", pen);
-        for (y, plus) in [(yt, plan.top == plan.inp), (yb, plan.bottom == plan.inp && plan.top != plan.inp)] {
-            self.svg.line((ux + 7.0, y), (ux + 15.0, y), pen);
-            if plus {
-                self.svg.line((ux + 11.0, y - 4.0), (ux + 11.0, y + 4.0), pen);
-            }
+        if self.c.parts.get(u).is_none_or(|p| p.nodes.len() < 5) {
+            return None;
         }
-        self.svg.close_group();
-        self.svg.keepout.push(BoxRect::new(ux + 3.0, yt - 8.0, 16.0, 56.0));
-        let (vp, vn) = (p.nodes[2].clone(), p.nodes[3].clone());
-        self.wire((ux + 30.0, Y0 - 5.0), (ux + 30.0, Y0 - 40.0), &vp, false);
-        self.terminal((ux + 30.0, Y0 - 40.0), &vp, true);
-        self.wire((ux + 30.0, Y0 + 45.0), (ux + 30.0, Y0 + 75.0), &vn, false);
-        self.terminal((ux + 30.0, Y0 + 75.0), &vn, false);
-        self.labels.push(Label {
-            lines: vec![p.reference.clone(), value_text(p)],
-            body: BoxRect::new(ux, Y0 - 20.0, 80.0, 80.0),
-            shape: Shape::Amp,
-            colour: INK,
-            below_first: false,
-        });
-        self.done[u] = true;
+        self.opamp(u, ux, yt, [plan.top == plan.inp, plan.bottom == plan.inp && plan.top != plan.inp]);
+        self.supply_pins(u, ux, yt);
         let xa = x_out + OUT_RUN;
         self.wire((x_out, yo), (xa, yo), &plan.out, false);
         Some((xa, yo, plan.out.clone()))
