@@ -175,7 +175,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     checks.extend(design_checks(req, &s, &p, &amp, rails, &req_amp));
     let (analysis, analysis_checks) = analyse(req, &s.circuit, Nominal { gain: p.gain, f_low_3db: p.band_low, f_high_3db: p.band_high }, cfg);
     checks.extend(analysis_checks);
-    checks.extend(synth::chain::filter_checks(req, &s, analysis.alias.map(|a| a.achieved_db)));
+    checks.extend(synth::chain::filter_checks(req, &s, analysis.alias.map(|a| a.achieved_db), Some(analysis.ac.gain_band_high_db - analysis.ac.gain_mid_db)));
     out.analysis = Some(analysis);
     out.filter = s.filter.clone();
     out.drive = s.drive.clone();

@@ -421,6 +421,66 @@ fn attenuation_at_the_alias_frequency_matches_ngspice() {
     check(&rows);
 }
 
+/// Requests no other test holds, drawn from a seeded generator (rand_chacha ChaCha8Rng,
+/// seed 20261202): resolution, sample rate, band, response, topology, out-of-band level,
+/// coupling, rails and converter range at random. For each, the rejection the engine
+/// claims at the alias frequency and its gain at band_high relative to mid-band (the
+/// in-band flatness) must match ngspice on the exported netlist.
+#[test]
+fn random_requests_claim_what_ngspice_simulates() {
+    use rand::{Rng, SeedableRng};
+    const SRC: &str = "ngspice (Debian ngspice-39) AC analysis of the exported netlist";
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(20261202);
+    let mut rows = Vec::new();
+    let mut simulated = 0;
+    for i in 0..12 {
+        let bits = [10, 12, 14, 16][rng.random_range(0..4)];
+        let fs = 10f64.powf(rng.random_range(2.5..5.5));
+        let band_high = fs * rng.random_range(0.02..0.3);
+        let response = ["flat", "linear_phase", "steep"][rng.random_range(0..3)];
+        let topology = ["sallen_key", "multiple_feedback"][rng.random_range(0..2)];
+        let level = ["1", "0.1", "0.01"][rng.random_range(0..3)];
+        let (supplies, dest_max) = [("[3.3]", 3.3), ("[5]", 5.0), ("[12, -12]", 5.0)][rng.random_range(0..3)];
+        let min: f64 = rng.random_range(-1.0..1.0);
+        let max = min + rng.random_range(0.05..3.0);
+        let source = if rng.random_bool(0.3) {
+            let band_low = band_high * rng.random_range(0.001..0.05);
+            format!(r#"{{"min": {min:.4}, "max": {max:.4}, "coupling": "ac", "band_low": {band_low:.4}, "band_high": {band_high:.4}}}"#)
+        } else {
+            format!(r#"{{"min": {min:.4}, "max": {max:.4}, "band_high": {band_high:.4}}}"#)
+        };
+        let json = format!(
+            r#"{{"name": "Random bench {i}", "source": {source}, "destination": {{"min": 0, "max": {dest_max}, "bits": {bits}, "sample_rate": {fs:.3}}},
+            "supplies": {supplies}, "keep_polarity": false, "filter": {{"response": "{response}", "topology": "{topology}", "out_of_band_level": {level}}}}}"#
+        );
+        let req = request(&json);
+        let d = design(&req);
+        let (Some(a), Some(_)) = (d.analysis.as_ref(), d.circuit.as_ref()) else {
+            println!("case {i}: no circuit ({:?})", d.checks.iter().filter(|c| c.severity == Severity::Error).map(|c| &c.message).collect::<Vec<_>>());
+            continue;
+        };
+        simulated += 1;
+        let what = format!("case {i} ({bits} bits, fs {fs:.0} Hz, band {band_high:.0} Hz, {response}, {topology}, level {level}, rails {supplies})");
+        let g = spice_gain(&format!("random-{i}"), &req, &d, &[a.ac.f_mid, req.source.band_high]);
+        let flat_spice = 20.0 * (g[1] / g[0]).log10();
+        let flat_engine = a.ac.gain_band_high_db - a.ac.gain_mid_db;
+        rows.push(row(format!("{what}: gain at band_high relative to mid-band, dB"), flat_engine, flat_spice, 0.05, SRC));
+        if let Some(f) = &d.filter {
+            let warned = d.checks.iter().any(|c| c.id == "band_flatness" && c.severity == Severity::Warning);
+            let beyond = flat_spice.abs() > f.passband_allowed_db + 0.01;
+            rows.push(fact(format!("{what}: band_flatness warns exactly when ngspice's band-edge error {flat_spice:+.3} dB exceeds the {} dB allowed", f.passband_allowed_db), warned == beyond || (flat_spice.abs() - f.passband_allowed_db).abs() < 0.01, SRC));
+        }
+        if let Some(x) = a.alias {
+            let g = spice_gain(&format!("random-{i}-alias"), &req, &d, &[a.ac.f_mid, x.frequency]);
+            let spice_db = 20.0 * (g[0] / g[1]).log10();
+            println!("{what}: alias {:.0} Hz engine {:.2} dB ngspice {:.2} dB; band edge engine {flat_engine:.3} dB ngspice {flat_spice:.3} dB", x.frequency, x.achieved_db, spice_db);
+            rows.push(row(format!("{what}: rejection at the alias frequency, dB"), x.achieved_db, spice_db, 1.0, SRC));
+        }
+    }
+    rows.push(fact(format!("at least 9 of 12 random requests built and simulated ({simulated})"), simulated >= 9, "test design"));
+    check(&rows);
+}
+
 // ---------------------------------------------------------------------------------------
 // 6. Malformed and odd requests
 

@@ -324,8 +324,10 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
 }
 
 /// Checks of the filter against the alias rule, from the rounded design's response
-/// (`achieved_db`, from the solver; `None` when it could not be computed).
-pub fn filter_checks(req: &Request, s: &Synthesis, achieved_db: Option<f64>) -> Vec<Check> {
+/// (`achieved_db`, from the solver; `None` when it could not be computed), and of the
+/// built circuit's in-band error: `band_edge_db`, its gain at band_high relative to
+/// mid-band from the solver (amplifiers' gain-bandwidth and the gain stage included).
+pub fn filter_checks(req: &Request, s: &Synthesis, achieved_db: Option<f64>, band_edge_db: Option<f64>) -> Vec<Check> {
     let mut c = Vec::new();
     let hz = |x: f64| format(x, Quantity::Frequency);
     let bits = req.destination.bits;
@@ -375,6 +377,17 @@ pub fn filter_checks(req: &Request, s: &Synthesis, achieved_db: Option<f64>) -> 
                 c.push(Check::warning("passband_ripple", format!("The steep response ripples {} dB inside the band, more than the {} dB passband_error asked; a flat response keeps the error within it.", super::filter::prototype::CHEBYSHEV_RIPPLE_DB, req.filter.passband_error)));
             } else {
                 c.push(Check::ok("passband_error", format!("The rounded filter's in-band error up to {} is {:.3} dB (allowed {} dB).", hz(req.source.band_high), f.passband_error_db, f.passband_allowed_db)));
+            }
+            if let Some(e) = band_edge_db.filter(|e| e.is_finite()) {
+                // A few thousandths of a dB of slack: the solver's and the prototype's figures
+                // differ by that much without anything being wrong.
+                let allowed = f.passband_allowed_db;
+                let text = format!("With the amplifiers' gain-bandwidth and the gain stage, the built circuit is {e:+.3} dB from mid-band at {}", hz(req.source.band_high));
+                c.push(if e.abs() > allowed + 0.005 {
+                    Check::warning("band_flatness", format!("{text}, beyond the {allowed} dB allowed (the filter sections alone: {:.3} dB). A faster amplifier keeps the sections on their design values; a higher order moves the corner further from the band.", f.passband_error_db))
+                } else {
+                    Check::ok("band_flatness", format!("{text} (allowed {allowed} dB)."))
+                });
             }
             let worst = f.sections.iter().map(|x| x.f_n_error.abs().max(x.q_error.abs())).fold(0.0, f64::max);
             c.push(Check::ok("filter_rounding", format!("Rounding the filter parts moves a section's f_n or Q by at most {:.2} %; the response above uses the rounded values.", 100.0 * worst)));
