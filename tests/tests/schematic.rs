@@ -11,6 +11,7 @@ use rangefit_engine::draw::schematic::{schematic, test_points, Schematic, Schema
 use rangefit_engine::draw::svg::{BoxRect, Segment};
 use rangefit_engine::request::Request;
 use rangefit_engine::solve::Solver;
+use rangefit_engine::synth::filter::sections::SectionKind;
 use rangefit_engine::synth::{self, dc::Template, Limits};
 use rangefit_engine::units::{format, Quantity};
 use rangefit_engine::{demos, design};
@@ -23,6 +24,11 @@ fn request(name: &str, min: f64, max: f64, coupling: &str, band: (f64, f64), des
         "destination":{{"min":{},"max":{},"bits":12,"sample_rate":"100 kHz","impedance":"100k"}},"supplies":{supplies},"keep_polarity":{keep_polarity}}}"#,
         band.0, band.1, dest.0, dest.1
     )
+}
+
+/// The same request with an oversampling converter (modulator at 64 × the 100 kHz rate).
+fn oversampling(json: &str) -> String {
+    json.replace(r#""impedance":"100k"}"#, r#""impedance":"100k","converter":"oversampling","modulator_rate":"6.4 MHz"}"#)
 }
 
 /// The circuit `design` makes for `json`.
@@ -150,9 +156,18 @@ fn check(what: &str, c: &Circuit, s: &Schematic, req: Option<&Request>) {
             assert!(!a.value().contains("url("), "{what}: reference in {}", a.name());
         }
     }
-    // Readable printed on A4 or Letter (common practice): at most 1100 × 700 user units,
-    // text 12 px or more, strokes 1.5 px or more, a white background.
-    assert!(view[2] <= 1100.0 && view[3] <= 700.0, "{what}: viewBox {} × {} is larger than 1100 × 700", view[2], view[3]);
+    // Readable on screen and printed (common practice): text 12 px or more, strokes 1.5 px
+    // or more, a white background. Width at most 1100 user units, so the drawing fits a
+    // 1280-pixel-wide screen at full scale. Height: 700 for the gain stage's row (the limit
+    // before the filter rows existed), plus at most 450 per further row (loops and caption
+    // above a row's line, a reference divider hanging below it). The drawer puts at least
+    // two filter sections on a row (410 units each, within the 1100), and the drive with
+    // the converter box may take a row of its own: ⌈sections / 2⌉ + 1 rows at most.
+    let sections = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter).count();
+    let drive = c.parts.iter().any(|p| p.stage == StageRole::Drive);
+    let rows = if sections + drive as usize == 0 { 0 } else { sections.div_ceil(2) + 1 };
+    let tall = 700.0 + 450.0 * rows as f64;
+    assert!(view[2] <= 1100.0 && view[3] <= tall, "{what}: viewBox {} × {} is larger than 1100 × {tall}", view[2], view[3]);
     for n in doc.descendants().filter(|n| n.has_tag_name("text")) {
         let size = num(&n, "font-size");
         assert!((12.0..=18.0).contains(&size), "{what}: text {:?} at {size} px", n.text());
@@ -323,7 +338,16 @@ fn every_topology_draws_cleanly() {
             "attenuator and buffer",
             &["cin1", "ref"],
         ),
-        ("AC buffer", designed(&request("ac buffer", -1.485, 1.485, "ac", (10.0, 1000.0), (0.0, 3.3), "[3.3]", true)), "into a buffer", &["ref"]),
+        (
+            // An oversampling converter (its input is not a sampling capacitor) behind a
+            // rail-to-rail amplifier on the converter's own supply needs no drive (synth::drive):
+            // without the drive's DC loss the gain stays exactly one, and the filter's last
+            // section drives the pin directly.
+            "AC buffer, no drive",
+            designed(&oversampling(&request("ac buffer", -1.485, 1.485, "ac", (10.0, 1000.0), (0.0, 3.3), "[3.3]", true))),
+            "into a buffer",
+            &["ref", "adc"],
+        ),
         (
             "AC amplifier, bias to ground, dual supply",
             designed(&request("ac ground bias", 1.0, 1.2, "ac", (10.0, 1000.0), (-2.0, 2.0), "[5, -5]", true)),
@@ -518,5 +542,115 @@ fn odd_circuits_never_panic_and_parts_are_never_dropped() {
                 check(what, &c, &s, None);
             }
         }
+    }
+}
+
+/// What a design with a filter must show: the section kinds (`None`: whatever the design
+/// chose), whether a drive resistor and a clamp diode are there.
+struct Chain {
+    kinds: Option<Vec<SectionKind>>,
+    drive: bool,
+    clamp: bool,
+}
+
+/// The one check of the rows after the gain stage: the design's sections and drive match
+/// the expectation; every filter, filter-reference and drive part is drawn by role (its own
+/// group, no fallback area at all); each section's amplifier is a triangle; each section
+/// carries its caption; continuation flags come in pairs (end of one row, start of the next).
+fn check_chain(what: &str, req: &Request, c: &Circuit, s: &Schematic, want: &Chain) {
+    check(what, c, s, Some(req));
+    let d = design(req);
+    let f = d.filter.as_ref().unwrap_or_else(|| panic!("{what}: no filter"));
+    let kinds: Vec<SectionKind> = f.sections.iter().map(|x| x.kind).collect();
+    if let Some(k) = &want.kinds {
+        assert_eq!(&kinds, k, "{what}: section kinds");
+    }
+    assert_eq!(c.parts.iter().any(|p| p.stage == StageRole::Drive && p.kind == PartKind::Resistor), want.drive, "{what}: drive resistor");
+    assert_eq!(c.parts.iter().any(|p| p.kind == PartKind::Diode), want.clamp, "{what}: clamp diode");
+
+    let doc = roxmltree::Document::parse(&s.svg).unwrap();
+    let words = texts(&doc);
+    assert!(!words.iter().any(|t| t.starts_with("Not placed")), "{what}: a part fell back");
+    let group = |r: &str| doc.descendants().find(|n| n.has_tag_name("g") && n.attribute("class") == Some("part") && n.attribute("data-ref") == Some(r));
+    let triangle = |n: roxmltree::Node| n.children().any(|k| k.has_tag_name("polygon") && k.attribute("points").is_some_and(|p| p.split_whitespace().count() == 3));
+    let amps: Vec<&rangefit_engine::circuit::Part> = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter).collect();
+    assert_eq!(amps.len(), kinds.len(), "{what}: one amplifier per section");
+    let refs: Vec<&String> = amps.iter().filter_map(|u| u.nodes.first()).collect();
+    for p in c.parts.iter().filter(|p| !p.bench) {
+        let filter_ref = p.stage == StageRole::Reference && p.nodes.iter().any(|n| refs.contains(&n) && n != "0");
+        if matches!(p.stage, StageRole::Filter | StageRole::Drive) || filter_ref {
+            let g = group(&p.reference).unwrap_or_else(|| panic!("{what}: {} is not drawn by role", p.reference));
+            if matches!(p.kind, PartKind::OpAmp | PartKind::Diode) {
+                assert!(triangle(g), "{what}: {} has no triangle", p.reference);
+            }
+        }
+    }
+    for k in 1..=kinds.len() {
+        assert!(words.iter().any(|w| w.starts_with(&format!("section {k} · "))), "{what}: no caption for section {k}");
+    }
+    // Continuation flags: pentagons, each holding a node name that appears in exactly two.
+    let mut names: Vec<String> = Vec::new();
+    for p in doc.descendants().filter(|n| n.has_tag_name("polygon") && n.attribute("points").is_some_and(|p| p.split_whitespace().count() == 5)) {
+        let pts: Vec<(f64, f64)> = p.attribute("points").unwrap().split_whitespace().filter_map(|xy| xy.split_once(',')).map(|(x, y)| (x.parse().unwrap(), y.parse().unwrap())).collect();
+        let (x0, x1) = pts.iter().fold((f64::MAX, f64::MIN), |(a, b), q| (a.min(q.0), b.max(q.0)));
+        let (y0, y1) = pts.iter().fold((f64::MAX, f64::MIN), |(a, b), q| (a.min(q.1), b.max(q.1)));
+        let inside = doc.descendants().find(|t| t.has_tag_name("text") && (x0..x1).contains(&num(t, "x")) && (y0..y1).contains(&num(t, "y")));
+        names.push(inside.and_then(|t| t.text()).unwrap_or_else(|| panic!("{what}: an empty flag")).to_string());
+    }
+    for n in &names {
+        assert_eq!(names.iter().filter(|m| *m == n).count(), 2, "{what}: flag {n} is not one of a pair ({names:?})");
+        assert!(c.nodes().contains(n), "{what}: flag {n} names no node");
+    }
+}
+
+#[test]
+fn filter_and_drive_are_drawn_by_role() {
+    use SectionKind::{FirstOrder, MultipleFeedback, SallenKey};
+    let harbour = demos::ALL.iter().find(|d| d.id == "harbour-hydrophone").expect("harbour demo").json;
+    let with_filter = |filter: &str| harbour.replacen('{', &format!(r#"{{"filter": {filter},"#), 1);
+    let rows: Vec<(&str, String, Chain)> = vec![
+        // The demo: the default topology is Sallen-Key (request::FilterSpec); a converter of
+        // unknown kind samples its input, so the drive has a charge bucket behind a resistor
+        // (synth::drive); one 3.3 V supply cannot drive the pin below ground, so no clamp.
+        ("harbour hydrophone", harbour.to_string(), Chain { kinds: None, drive: true, clamp: false }),
+        // Multiple feedback with the polarity kept: an odd number of inverting sections would
+        // flip the output, so the lowest-Q section stays Sallen-Key (synth::chain's
+        // filter_topology note); the order (6) is the design's for the demo's alias rule.
+        (
+            "harbour, multiple feedback",
+            with_filter(r#"{"topology": "multiple_feedback"}"#),
+            Chain { kinds: Some(vec![SallenKey, MultipleFeedback, MultipleFeedback]), drive: true, clamp: false },
+        ),
+        // Multiple feedback throughout (polarity free): every section inverting, one reference.
+        (
+            "harbour, multiple feedback throughout",
+            with_filter(r#"{"topology": "multiple_feedback"}, "keep_polarity": false"#),
+            Chain { kinds: Some(vec![MultipleFeedback; 3]), drive: true, clamp: false },
+        ),
+        // Odd order: ⌈3/2⌉ sections, a first-order one and one of second order (a cascade of
+        // second-order sections, the odd pole alone; standard cascade design), lowest Q first.
+        ("harbour, order 3", with_filter(r#"{"order": 3}"#), Chain { kinds: Some(vec![FirstOrder, SallenKey]), drive: true, clamp: false }),
+        // Order 8, the request's largest (request::DEFAULT_MAX_ORDER): four sections, three rows.
+        ("harbour, order 8", with_filter(r#"{"order": 8}"#), Chain { kinds: Some(vec![SallenKey; 4]), drive: true, clamp: false }),
+        // ±5 V supplies into a 0 … 3.3 V converter: the amplifier can pull the pin 5 V below
+        // ground, more than the 0.3 V clamp drop, so a Schottky clamp from ground goes in
+        // (synth::drive).
+        (
+            "dual supply, clamp",
+            request("clamp", -1.0, 1.0, "dc", (0.0, 1000.0), (0.0, 3.3), "[5, -5]", true),
+            Chain { kinds: None, drive: true, clamp: true },
+        ),
+        // An oversampling converter needs no drive here (see every_topology_draws_cleanly):
+        // the last section's output is the pin.
+        (
+            "oversampling, no drive",
+            oversampling(&request("no drive", -1.485, 1.485, "ac", (10.0, 1000.0), (0.0, 3.3), "[3.3]", true)),
+            Chain { kinds: None, drive: false, clamp: false },
+        ),
+    ];
+    for (what, json, want) in &rows {
+        let (req, c, _) = designed(json);
+        let s = draw(&req, &c, what);
+        check_chain(what, &req, &c, &s, want);
     }
 }

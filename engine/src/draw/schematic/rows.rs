@@ -326,8 +326,13 @@ impl Sheet<'_> {
             x += HSPAN;
         }
         let taps: Vec<f64> = (0..chain.drive.at_pin.len()).map(|j| x + 45.0 + j as f64 * PITCH).collect();
-        let xa = taps.last().map_or(x, |t| *t) + PIN_RUN;
-        self.wire((x, y), (xa, y), &pin, false);
+        let last = taps.last().copied().unwrap_or(x);
+        let xa = last + PIN_RUN;
+        // Split at the last tap: the free run before the box is where the test point goes.
+        if last > x {
+            self.wire((x, y), (last, y), &pin, false);
+        }
+        self.wire((last, y), (xa, y), &pin, false);
         for (st, xt) in chain.drive.at_pin.iter().zip(taps) {
             let leg = Leg { steps: vec![st.clone()], end: st.to.clone(), block: None };
             self.leg(&leg, xt, y, true);
