@@ -79,7 +79,7 @@ pub fn bom(design: &Design) -> Vec<BomRow> {
             PartKind::Capacitor => capacitor_row(p, &stress),
             PartKind::OpAmp => amplifier_row(p, design),
             PartKind::Diode => diode_row(p, &stress),
-            PartKind::VoltageSource => continue,
+            PartKind::VoltageSource | PartKind::CurrentSource => continue,
         };
         // One row per distinct part: same kind, value, tolerance, rating and construction
         // (every amplifier of the design is the same part, meeting the same requirements).

@@ -32,6 +32,9 @@ pub enum PartKind {
     OpAmp,
     /// An independent voltage source; nodes are `[+, −]`.
     VoltageSource,
+    /// An independent current source; nodes are `[from, to]`: the current leaves node
+    /// `from` through the source and enters node `to` (the SPICE3 `I` element's direction).
+    CurrentSource,
     /// A clamp diode; nodes are `[anode, cathode]`, value its forward voltage (V). The
     /// solver treats it as open: it conducts only outside the converter's range.
     Diode,
@@ -44,9 +47,18 @@ impl PartKind {
             PartKind::Capacitor => "capacitor",
             PartKind::OpAmp => "amplifier",
             PartKind::VoltageSource => "source",
+            PartKind::CurrentSource => "current source",
             PartKind::Diode => "diode",
         }
     }
+}
+
+/// Designators of the bench sources that stand for the sensor's measured quantity.
+pub const SENSOR_SOURCES: [&str; 2] = ["VSENSE", "ISENSE"];
+
+/// True for the bench source that stands for the sensor (`VSENSE` or `ISENSE`).
+pub fn is_sensor_source(p: &Part) -> bool {
+    p.bench && SENSOR_SOURCES.contains(&p.reference.as_str())
 }
 
 /// What a part is for; the stage it belongs to.
@@ -57,6 +69,8 @@ pub enum StageRole {
     Sensor,
     /// The supplies.
     Supply,
+    /// The shunt that turns a loop current into a voltage.
+    Shunt,
     /// DC blocking and the bias that sets the DC level after it.
     Coupling,
     /// A reference voltage derived from a rail.
@@ -76,6 +90,7 @@ impl StageRole {
         match self {
             StageRole::Sensor => "sensor",
             StageRole::Supply => "supply",
+            StageRole::Shunt => "shunt",
             StageRole::Coupling => "coupling",
             StageRole::Reference => "reference",
             StageRole::Gain => "gain",
@@ -138,6 +153,12 @@ impl Circuit {
             }
         }
         out
+    }
+
+    /// The bench source that stands for the sensor: `VSENSE` (voltage kinds) or `ISENSE`
+    /// (current kinds). Analyses sweep it over `source.min … source.max`.
+    pub fn sensor_source(&self) -> Option<&Part> {
+        self.parts.iter().find(|p| is_sensor_source(p))
     }
 
     pub fn part(&self, reference: &str) -> Option<&Part> {
@@ -207,6 +228,7 @@ impl Builder {
             PartKind::Capacitor => 'C',
             PartKind::OpAmp => 'U',
             PartKind::VoltageSource => 'V',
+            PartKind::CurrentSource => 'I',
             PartKind::Diode => 'D',
         };
         let reference = self.next(letter);

@@ -52,6 +52,9 @@ pub struct Design {
     pub filter: Option<crate::synth::filter::FilterDesign>,
     /// The converter drive: charge bucket, isolation resistor, protection.
     pub drive: Option<crate::synth::drive::DriveDesign>,
+    /// Current loops: the shunt, its burden and where the fault bands land in codes.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub current_loop: Option<crate::synth::front::LoopDesign>,
     /// The circuit model every output derives from (absent when synthesis was impossible).
     #[serde(skip)]
     pub circuit: Option<Circuit>,
@@ -110,7 +113,16 @@ pub fn design(req: &Request) -> Design {
 pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     let rails = Rails::choose(req);
     let amp = Amplifier::resolve(&req.amplifier, rails);
-    let mut checks = feasibility(req, rails, &amp);
+    // The front end (a current loop's shunt) turns the sensor into the single-ended voltage
+    // source the gain stage is synthesised for (`syn`); analyses use the request itself.
+    let (syn, mut current_loop, front_error) = match synth::front::plan(req) {
+        None => (std::borrow::Cow::Borrowed(req), None, None),
+        Some(Ok(l)) => (std::borrow::Cow::Owned(synth::front::equivalent(req, &l)), Some(l), None),
+        Some(Err(check)) => (std::borrow::Cow::Borrowed(req), None, Some(check)),
+    };
+    let syn: &Request = &syn;
+    let mut checks = feasibility(syn, rails, &amp);
+    checks.extend(front_error);
     let mut out = Design {
         name: req.name.clone(),
         request: req.clone(),
@@ -130,13 +142,14 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         scaling: None,
         filter: None,
         drive: None,
+        current_loop: None,
         circuit: None,
     };
     if has_error(&checks) {
         out.checks = checks;
         return out;
     }
-    let Some(mut target) = synth::target(req, &amp, rails, &mut checks) else {
+    let Some(mut target) = synth::target(syn, &amp, rails, &mut checks) else {
         out.checks = checks;
         return out;
     };
@@ -147,10 +160,10 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     // headroom; pull the target in by that much and design again (at most a few times).
     let mut result = None;
     // The filter and the drive do not depend on the gain stage: plan them once.
-    let chain = synth::chain::plan(req, &amp, rails);
+    let chain = synth::chain::plan(syn, &amp, rails);
     for attempt in 0..6 {
-        let Some(s) = synth::synthesize_with_chain(req, &amp, rails, target, &chain) else { break };
-        let Some(p) = predict(req, &s.circuit) else { break };
+        let Some(s) = synth::synthesize_with_chain(syn, &amp, rails, target, &chain) else { break };
+        let Some(p) = predict(syn, &s.circuit) else { break };
         let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
         let under = (band_lo - lo).max(0.0);
         let over = (hi - band_hi).max(0.0);
@@ -161,9 +174,9 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         }
         // Rounding may jump to other values after a small shrink; widen the step each time.
         let nudge = [1e-4, 1e-3, 3e-3, 1e-2, 3e-2, 0.1][attempt] * span;
-        target = shrink(target, req, if under > 0.0 { under + nudge } else { 0.0 }, if over > 0.0 { over + nudge } else { 0.0 });
+        target = shrink(target, syn, if under > 0.0 { under + nudge } else { 0.0 }, if over > 0.0 { over + nudge } else { 0.0 });
     }
-    let Some((s, p)) = result else {
+    let Some((mut s, mut p)) = result else {
         checks.push(Check::error(
             "no_realisation",
             "No stage built from the requested series inside the resistor window realises this mapping; widen parts.resistor_min … resistor_max or choose a finer series.",
@@ -171,8 +184,25 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         out.checks = checks;
         return out;
     };
-    let req_amp = requirements(req, &s, &amp, rails);
-    checks.extend(design_checks(req, &s, &p, &amp, rails, &req_amp));
+    // Checks of the gain stage in the synthesis view (volts at `sense`).
+    let req_amp = requirements(syn, &s, &amp, rails);
+    checks.extend(design_checks(syn, &s, &p, &amp, rails, &req_amp));
+    if let Some(l) = current_loop.as_mut() {
+        // The equivalent sensor's impedance is the shunt, which the loop checks cover.
+        checks.retain(|c| c.id != "sensor_impedance");
+        synth::front::to_loop(&mut s.circuit, req, l);
+        let mut eqs = synth::front::equations(req, l);
+        eqs.append(&mut s.equations);
+        s.equations = eqs;
+        let Some(q) = predict(req, &s.circuit) else {
+            checks.push(Check::error("no_realisation", "The loop circuit does not solve; this is a fault in Rangefit, please report the request."));
+            out.checks = checks;
+            return out;
+        };
+        p = q;
+        l.bands = synth::front::bands(req, &s.circuit);
+        checks.extend(synth::front::checks(req, l));
+    }
     let (analysis, analysis_checks) = analyse(req, &s.circuit, Nominal { gain: p.gain, f_low_3db: p.band_low, f_high_3db: p.band_high }, cfg);
     checks.extend(analysis_checks);
     checks.extend(synth::chain::filter_checks(req, &s, analysis.alias.map(|a| a.achieved_db), Some(analysis.ac.gain_band_high_db - analysis.ac.gain_mid_db)));
@@ -190,6 +220,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     checks.sort_by(|a, b| b.severity.cmp(&a.severity));
     out.checks = checks;
     out.circuit = Some(s.circuit);
+    out.current_loop = current_loop;
     out.scaling = crate::scaling::scaling(&out);
     out
 }
@@ -274,6 +305,7 @@ fn row(p: &Part) -> PartRow {
         PartKind::Capacitor => Quantity::Capacitance,
         PartKind::OpAmp => Quantity::Frequency,
         PartKind::VoltageSource | PartKind::Diode => Quantity::Voltage,
+        PartKind::CurrentSource => Quantity::Current,
     };
     let display = match p.kind {
         PartKind::OpAmp => format!("amplifier, GBW ≥ {}", format(p.value, q)),
@@ -501,7 +533,11 @@ fn cautions(req: &Request, rails: Rails) -> Vec<String> {
         "Never exceed the converter's absolute maximum input, including during power-up, power-down and faults.".to_string(),
         "A design for safety- or medically-relevant use must be checked by a qualified person; follow local codes and licensed practice.".to_string(),
     ];
-    if rails.total() > 30.0 || req.source.max.abs().max(req.source.min.abs()) > 30.0 {
+    if req.source.kind == crate::request::SourceKind::CurrentLoop {
+        v.push("A current loop runs from its own supply, often 24 V: tie that supply's return to the converter's ground at one point (or use an isolated loop receiver), and make sure a miswired loop cannot put its supply across the shunt and the amplifier input.".to_string());
+    }
+    let volts = req.source.kind.quantity() == Quantity::Voltage;
+    if rails.total() > 30.0 || (volts && req.source.max.abs().max(req.source.min.abs()) > 30.0) {
         v.push("Voltages above 30 V are present; treat the circuit as hazardous when working on it.".to_string());
     }
     v

@@ -13,7 +13,7 @@
 //! middle of its range, `AC 1`) behind `RSENSE`; the rails are `VPOS` (and `VNEG`); the
 //! converter input node is `adc`, loaded by `RADC`.
 
-use crate::circuit::{Circuit, PartKind};
+use crate::circuit::{is_sensor_source, Circuit, PartKind};
 use crate::request::Request;
 use crate::solve::GM;
 
@@ -61,8 +61,10 @@ pub fn netlist(req: &Request, circuit: &Circuit, cfg: NetlistConfig) -> String {
         let line = match p.kind {
             PartKind::Resistor => format!("{} {} {}", p.reference, nodes, num(p.value)),
             PartKind::Capacitor => format!("{} {} {}", p.reference, nodes, num(p.value)),
-            PartKind::VoltageSource if p.reference == "VSENSE" => format!("{} {} DC {} AC 1", p.reference, nodes, num(p.value)),
+            PartKind::VoltageSource if is_sensor_source(p) => format!("{} {} DC {} AC 1", p.reference, nodes, num(p.value)),
             PartKind::VoltageSource => format!("{} {} DC {}", p.reference, nodes, num(p.value)),
+            PartKind::CurrentSource if is_sensor_source(p) => format!("{} {} DC {} AC 1", p.reference, nodes, num(p.value)),
+            PartKind::CurrentSource => format!("{} {} DC {}", p.reference, nodes, num(p.value)),
             PartKind::OpAmp => format!("X{} {} {}", p.reference, nodes, AMP_SUBCKT),
             PartKind::Diode => format!("{} {} {}", p.reference, nodes, SCHOTTKY_MODEL),
         };
@@ -78,7 +80,8 @@ pub fn netlist(req: &Request, circuit: &Circuit, cfg: NetlistConfig) -> String {
         // only the last analysis when several are in one deck).
         out.push_str(".save v(adc)\n.op\n");
         if step > 0.0 {
-            out.push_str(&format!(".dc VSENSE {} {} {}\n", num(s.min), num(s.max), num(step)));
+            let sweep = circuit.sensor_source().map_or("VSENSE", |p| p.reference.as_str());
+            out.push_str(&format!(".dc {sweep} {} {} {}\n", num(s.min), num(s.max), num(step)));
             out.push_str(".print dc v(adc)\n");
         }
         let f1 = if s.band_low > 0.0 { s.band_low / 100.0 } else { (s.band_high / 1e4).max(1e-2) };

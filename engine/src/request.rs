@@ -181,7 +181,39 @@ impl Default for AnalysisOptions {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum SourceKind {
+    /// A voltage against ground.
     SingleEnded,
+    /// A loop current (4–20 mA or another range) measured across a shunt.
+    CurrentLoop,
+}
+
+impl SourceKind {
+    /// The quantity of `source.min`/`max`: the measured quantity of this kind.
+    pub fn quantity(self) -> Quantity {
+        match self {
+            SourceKind::SingleEnded => Quantity::Voltage,
+            SourceKind::CurrentLoop => Quantity::Current,
+        }
+    }
+}
+
+/// Largest voltage a current loop allows across the measuring input when the request gives
+/// none: a 250 Ω receiver at 20 mA (common practice for 4–20 mA inputs).
+pub const DEFAULT_BURDEN_MAX: f64 = 5.0;
+/// NAMUR NE 43 for a 4–20 mA loop: below 3.6 mA and above 21 mA the transmitter signals a
+/// fault. For other ranges the same fractions of the span are used (−2.5 % and +6.25 %).
+pub const NAMUR_FAULT_LOW: f64 = 3.6e-3;
+pub const NAMUR_FAULT_HIGH: f64 = 21e-3;
+
+/// The current-loop figures (`source.kind = "current_loop"`).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct LoopSpec {
+    /// Largest voltage the loop allows across the measuring input, V.
+    pub burden_max: f64,
+    /// Below this current the transmitter signals a fault, A.
+    pub fault_low: f64,
+    /// Above this current the transmitter signals a fault, A.
+    pub fault_high: f64,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
@@ -207,6 +239,9 @@ pub struct Source {
     /// What the sensor measures, for scaling converter codes back to it.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub measurand: Option<Measurand>,
+    /// Current loops: burden and fault bands.
+    #[serde(default, flatten, skip_serializing_if = "Option::is_none")]
+    pub current_loop: Option<LoopSpec>,
 }
 
 /// The physical quantity behind the sensor's output: `at_min` at `source.min`, `at_max` at
@@ -388,15 +423,28 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
     let o = Obj::new("source", v)?;
     let kind = match o.string("kind")?.as_deref() {
         None | Some("single_ended") => SourceKind::SingleEnded,
+        Some("current_loop") => SourceKind::CurrentLoop,
         Some(other) => {
-            return Err(o.err("kind", &format!("'{other}' is not a sensor kind this version designs for; use \"single_ended\"")))
+            return Err(o.err("kind", &format!("'{other}' is not a sensor kind this version designs for; use \"single_ended\" or \"current_loop\"")))
         }
     };
-    let min = o.required_q("min", Quantity::Voltage)?;
-    let max = o.required_q("max", Quantity::Voltage)?;
+    let q = kind.quantity();
+    let min = o.required_q("min", q)?;
+    let max = o.required_q("max", q)?;
     if max < min {
-        return Err(o.err("max", &format!("{} is below source.min ({}); give the lower extreme as min", units::format(max, Quantity::Voltage), units::format(min, Quantity::Voltage))));
+        return Err(o.err("max", &format!("{} is below source.min ({}); give the lower extreme as min", units::format(max, q), units::format(min, q))));
     }
+    let current_loop = match kind {
+        SourceKind::CurrentLoop => Some(read_loop(&o, min, max)?),
+        _ => {
+            for key in ["burden_max", "fault_low", "fault_high"] {
+                if o.get(key).is_some() {
+                    return Err(o.err(key, "applies only to a current loop (source.kind = \"current_loop\")"));
+                }
+            }
+            None
+        }
+    };
     let coupling = match o.string("coupling")?.as_deref() {
         None | Some("dc") => Coupling::Dc,
         Some("ac") => Coupling::Ac,
@@ -421,8 +469,37 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
         None => None,
         Some(v) => Some(read_measurand(v)?),
     };
-    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand"])?;
-    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand })
+    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high"])?;
+    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand, current_loop })
+}
+
+/// The current-loop fields of `source`; the loop current flows into the measuring input.
+fn read_loop(o: &Obj, min: f64, max: f64) -> Result<LoopSpec, RequestError> {
+    if !(min >= 0.0) || !(max > min) {
+        return Err(o.err(if min < 0.0 { "min" } else { "max" }, "a loop current runs one way: give 0 A ≤ min < max, e.g. \"4 mA\" and \"20 mA\""));
+    }
+    if o.string("coupling")?.as_deref() == Some("ac") {
+        return Err(o.err("coupling", "a current loop carries its measurement as DC; use \"dc\""));
+    }
+    if o.get("impedance").is_some() {
+        return Err(o.err("impedance", "does not apply to a current loop: the loop drives its current into the shunt whatever the shunt's value (within burden_max)"));
+    }
+    let burden_max = o.q("burden_max", Quantity::Voltage)?.unwrap_or(DEFAULT_BURDEN_MAX);
+    if !(burden_max > 0.0) {
+        return Err(o.err("burden_max", "must be above 0 V: the largest voltage the loop allows across the measuring input, e.g. \"5 V\""));
+    }
+    let span = max - min;
+    let standard = (min - 4e-3).abs() < 1e-9 && (max - 20e-3).abs() < 1e-9;
+    let (low, high) = if standard { (NAMUR_FAULT_LOW, NAMUR_FAULT_HIGH) } else { (min - 0.025 * span, max + 0.0625 * span) };
+    let fault_low = o.q("fault_low", Quantity::Current)?.unwrap_or(low.max(0.0));
+    let fault_high = o.q("fault_high", Quantity::Current)?.unwrap_or(high);
+    if !(fault_low >= 0.0 && fault_low <= min) {
+        return Err(o.err("fault_low", "must lie between 0 A and source.min: below it the transmitter signals a fault (NAMUR NE 43: 3.6 mA)"));
+    }
+    if !(fault_high >= max) {
+        return Err(o.err("fault_high", "must be at least source.max: above it the transmitter signals a fault (NAMUR NE 43: 21 mA)"));
+    }
+    Ok(LoopSpec { burden_max, fault_low, fault_high })
 }
 
 fn read_measurand(v: &Value) -> Result<Measurand, RequestError> {

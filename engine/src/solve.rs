@@ -33,7 +33,7 @@ use num_complex::Complex;
 use serde::Serialize;
 use std::collections::HashMap;
 
-use crate::circuit::{Circuit, PartKind, GND};
+use crate::circuit::{is_sensor_source, Circuit, PartKind, GND};
 
 /// Transconductance of the amplifier macro-model's input stage, A/V.
 pub const GM: f64 = 1e-3;
@@ -88,6 +88,8 @@ enum Stamp {
     /// A textbook voltage-source stamp with branch current unknown `branch`: V(p) − V(n) =
     /// value of part `part` (or, with `part` None, the buffer V(p) − V(x_col) = 0).
     Branch { branch: usize, p: Loc, n: Loc, rp: Option<usize>, rn: Option<usize>, part: Option<usize> },
+    /// Current source `part`: its current leaves row `from` and enters row `to`.
+    Current { from: Option<usize>, to: Option<usize>, part: usize },
 }
 
 /// A circuit prepared for repeated solves.
@@ -177,6 +179,10 @@ impl<'a> Solver<'a> {
                     let value = if cap { p.value } else { 1.0 / p.value.max(1e-9) };
                     stamps.push(Stamp::Admittance { a: at(a), b: at(b), ra: row_of(a), rb: row_of(b), value, cap });
                 }
+                PartKind::CurrentSource if p.nodes.len() >= 2 => {
+                    let part = circuit.parts.iter().position(|q| std::ptr::eq(q, p)).unwrap_or(0);
+                    stamps.push(Stamp::Current { from: row_of(&p.nodes[0]), to: row_of(&p.nodes[1]), part });
+                }
                 PartKind::OpAmp if p.nodes.len() >= 5 => {
                     let k = amps.iter().position(|(r, ..)| *r == p.reference).unwrap_or(0);
                     let (inp, inn) = (at(&p.nodes[0]), at(&p.nodes[1]));
@@ -204,7 +210,7 @@ impl<'a> Solver<'a> {
         Solver { circuit, loc, row, names, amps, stamps, size }
     }
 
-    /// DC operating point with the sensor EMF (`VSENSE`) at `source` volts.
+    /// DC operating point with the sensor source (`VSENSE` volts or `ISENSE` amperes) at `source`.
     pub fn dc(&self, source: f64) -> Result<DcSolution, SolveError> {
         let amp = &self.circuit.amplifier;
         let lo = self.circuit.rail_neg + amp.swing_low;
@@ -303,9 +309,9 @@ impl<'a> Solver<'a> {
     fn source_value(&self, k: usize, excite: Excite) -> f64 {
         let Some(p) = self.circuit.parts.get(k) else { return 0.0 };
         match excite {
-            Excite::Dc(s) if p.reference == "VSENSE" => s,
+            Excite::Dc(s) if is_sensor_source(p) => s,
             Excite::Dc(_) => p.value,
-            Excite::Ac if p.reference == "VSENSE" => 1.0,
+            Excite::Ac if is_sensor_source(p) => 1.0,
             Excite::Ac => 0.0,
         }
     }
@@ -367,6 +373,15 @@ impl<'a> Solver<'a> {
                     let cap = GM / (2.0 * std::f64::consts::PI * amp.gbw);
                     a[x * n + x] += C64::new(1.0 / r, omega * cap);
                 }
+                Stamp::Current { from, to, part } => {
+                    let i = self.source_value(part, excite);
+                    if let Some(r) = to {
+                        z[r] += i;
+                    }
+                    if let Some(r) = from {
+                        z[r] -= i;
+                    }
+                }
                 Stamp::Branch { branch, p, n: m, rp, rn, part } => {
                     if let Some(r) = rp {
                         a[r * n + branch] += 1.0;
@@ -402,9 +417,9 @@ fn singular() -> SolveError {
 
 #[derive(Clone, Copy)]
 enum Excite {
-    /// DC operating point with VSENSE at this value.
+    /// DC operating point with the sensor source (`VSENSE` or `ISENSE`) at this value.
     Dc(f64),
-    /// Small signal: VSENSE is 1 V, every other source 0.
+    /// Small signal: the sensor source is 1 V (or 1 A), every other source 0.
     Ac,
 }
 

@@ -23,7 +23,7 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
     {
         c.push(Check::error(
             "clipping",
-            format!("The output sits at the amplifier's swing limit for sensor values {} … {} inside the sensor's range; widen the rails, choose a rail-to-rail output amplifier or give more headroom.", v(*first), v(*last)),
+            format!("The output sits at the amplifier's swing limit for sensor values {} … {} inside the sensor's range; widen the rails, choose a rail-to-rail output amplifier or give more headroom.", format(*first, req.source.kind.quantity()), format(*last, req.source.kind.quantity())),
         ));
     } else {
         c.push(Check::ok("clipping", format!("No clipping over the sensor's range; the output limits {} … {} are reached only beyond it.", v(a.dc.output_limits[0]), v(a.dc.output_limits[1]))));
@@ -89,6 +89,18 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
         "The sensor sees {}; its own impedance changes the gain by {:.3} % and the converter's input by {:.3} % (both already in the design equations).",
         format(l.input_impedance, Quantity::Resistance), 100.0 * l.sensor_gain_error, 100.0 * l.converter_gain_error
     );
+    if req.source.kind == crate::request::SourceKind::CurrentLoop {
+        // A loop's transmitter forces its current whatever it drives (within the burden):
+        // what matters is the measuring input it sees and how much current the network takes.
+        c.push(Check::ok(
+            "loading",
+            format!(
+                "The loop sees {} at the measuring input (the shunt in parallel with the amplifier's network, whose share of the loop current is in the design equations); the converter's input changes the gain by {:.3} %.",
+                format(l.input_impedance, Quantity::Resistance), 100.0 * l.converter_gain_error
+            ),
+        ));
+        return c;
+    }
     c.push(if l.sensor_gain_error.abs() > LOADING_LIMIT {
         Check::warning("loading", format!("{loading_msg} Any change of the sensor's impedance moves the gain in proportion; a buffer or higher input resistance makes it negligible."))
     } else {

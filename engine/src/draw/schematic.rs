@@ -193,6 +193,7 @@ fn value_text(p: &Part) -> String {
         PartKind::Resistor => format(p.value, Quantity::Resistance),
         PartKind::Capacitor => format(p.value, Quantity::Capacitance),
         PartKind::VoltageSource => format(p.value, Quantity::Voltage),
+        PartKind::CurrentSource => format(p.value, Quantity::Current),
         PartKind::OpAmp => format!("GBW ≥ {}", format(p.value, Quantity::Frequency)),
         PartKind::Diode => format!("Schottky {}", format(p.value, Quantity::Voltage)),
     }

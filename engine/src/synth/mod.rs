@@ -23,6 +23,7 @@ pub mod chain;
 pub mod dc;
 pub mod drive;
 pub mod filter;
+pub mod front;
 pub mod round;
 
 use serde::Serialize;

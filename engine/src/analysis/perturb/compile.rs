@@ -3,7 +3,7 @@
 //! stamps, and the elimination program reused by every build (see [`super`]).
 
 use super::{Col, Elem, KernelError, Src, Step, System};
-use crate::circuit::{Circuit, Part, PartKind, StageRole};
+use crate::circuit::{is_sensor_source, Circuit, Part, PartKind, StageRole};
 use crate::solve::{GM, GMIN};
 
 /// Compile-time context shared by both systems.
@@ -33,7 +33,7 @@ impl Ctx<'_> {
         let mut known: Vec<Option<(f64, f64)>> = vec![None; names.len()];
         known[0] = Some((0.0, 0.0));
         for p in c.parts.iter().filter(|p| p.kind == PartKind::VoltageSource) {
-            let (u, w) = match (p.reference == "VSENSE", short) {
+            let (u, w) = match (is_sensor_source(p), short) {
                 (true, _) => (1.0, 0.0),
                 (false, false) => (0.0, p.value),
                 (false, true) => (0.0, 0.0),
@@ -194,6 +194,21 @@ impl Ctx<'_> {
                         s.base_u[r] += cu * g;
                         s.base_w[r] += cw * g;
                     }
+                }
+            }
+        }
+        // Current sources inject into the right side: the sensor's as the swept value u,
+        // the others as constants (zero in the mid-band system, like the voltage sources).
+        for p in c.parts.iter().filter(|p| p.kind == PartKind::CurrentSource) {
+            let (u, w) = match (is_sensor_source(p), short) {
+                (true, _) => (1.0, 0.0),
+                (false, false) => (0.0, p.value),
+                (false, true) => (0.0, 0.0),
+            };
+            for (node, sign) in [(at(&p.nodes[1]), 1.0), (at(&p.nodes[0]), -1.0)] {
+                if let Some(r) = row(node) {
+                    s.base_u[r] += sign * u;
+                    s.base_w[r] += sign * w;
                 }
             }
         }
