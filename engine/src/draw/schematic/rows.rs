@@ -52,7 +52,7 @@ impl Sheet<'_> {
     /// Draws `chain` from the gain stage's output `start` (x, y, net); returns where the
     /// converter box goes. `u1`: the gain stage's amplifier (for the supply pins).
     pub(super) fn chain_rows(&mut self, chain: &Chain, start: (f64, f64, String), u1: Option<usize>) -> (f64, f64, String) {
-        if chain.is_empty() {
+        if chain.is_empty() && !chain.short() {
             return start;
         }
         let supply = u1.and_then(|u| self.c.parts.get(u)).and_then(|p| Some((p.nodes.get(2)?.clone(), p.nodes.get(3)?.clone())));
@@ -91,7 +91,7 @@ impl Sheet<'_> {
                     }
                     Block::Pin => {
                         x = self.pin(chain, &net, x, y);
-                        net = chain.end.clone();
+                        net = chain.pin.clone().unwrap_or_else(|| chain.end.clone());
                     }
                 }
             }
@@ -341,6 +341,14 @@ impl Sheet<'_> {
     /// The pin: drive resistor along the line from `net`, the parts at the pin hanging
     /// from it; returns where the converter box begins.
     fn pin(&mut self, chain: &Chain, net: &str, x0: f64, y: f64) -> f64 {
+        if let (true, Some(pin)) = (chain.short(), chain.pin.as_ref()) {
+            // The walk stopped short: the line ends at a named terminal, and the converter
+            // box gets its own, so no wire claims a connection the circuit does not have.
+            self.wire((x0, y), (x0 + 50.0, y), net, false);
+            self.terminal((x0 + 50.0, y), net, true);
+            self.terminal((x0 + 130.0, y), pin, true);
+            return x0 + 130.0;
+        }
         let mut x = x0;
         let pin = chain.end.clone();
         if let Some(r) = chain.drive.resistor {
