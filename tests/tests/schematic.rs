@@ -477,8 +477,14 @@ fn odd_circuits_never_panic_and_parts_are_never_dropped() {
         p.reference = name.to_string();
     }
     extra.parts.extend(b.parts);
+    // The filter chain broken in the middle: without section 2's amplifier the walk stops
+    // at section 1's output; the rest of the filter and the drive go to the fallback area.
+    let mut broken = harbour.clone();
+    let second = broken.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter).nth(1).map(|p| p.reference.clone());
+    broken.parts.retain(|p| Some(&p.reference) != second.as_ref());
     let rows: Vec<(&str, Circuit, bool)> = vec![
         ("extra parts off the roles", extra, true),
+        ("filter chain broken", broken, true),
         ("empty", odd(|_| {}), true),
         (
             "no amplifier",

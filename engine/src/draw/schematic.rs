@@ -2,22 +2,30 @@
 //!
 //! Symbols follow one convention, IEC 60617: a rectangle for a resistor; two plates for a
 //! capacitor, with a `+` beside the positive plate when it is polarised; a triangle for the
-//! amplifier (its simplified form) with `+` and `−` at the inputs; a circle with a line
+//! amplifier (its simplified form) with `+` and `−` at the inputs; a triangle with a bar at
+//! the cathode for a diode, the bar's ends hooked for a Schottky diode; a circle with a line
 //! through it along the terminals for the sensor's EMF; the earth symbol (three bars of
 //! falling width) for ground; a small circle for a terminal or test point; a dot at every
-//! junction. A supply rail is a short bar with the rail's name and voltage.
+//! junction. A supply rail is a short bar with the rail's name and voltage. A row that
+//! continues on the next ends, and the next begins, with a flag (a pentagon pointing along
+//! the signal) holding the node's name.
 //!
 //! Layout is by role, not by a generic graph layout. The signal flows left to right through
 //! a sequence of stage blocks: sensor (EMF behind its impedance, in a dashed box) → series
 //! path (coupling capacitor, series resistors) → amplifier stage (the + and − input networks
 //! as columns of legs hanging from the two input lines, a reference divider with its bypass
-//! below the leg it feeds, feedback looping round the amplifier) → converter input (a box
-//! with its input impedance). A new stage kind is a new block in that sequence. Any part
-//! the blocks cannot place by role goes into a fallback area below the drawing with its node
-//! names: never dropped. The bench (sensor, supplies, converter load) is drawn in grey.
+//! below the leg it feeds, feedback looping round the amplifier) → filter sections (each
+//! with its amplifier, captioned with the model's words) → drive (series resistor, charge
+//! bucket and clamp at the pin) → converter input (a box with its input impedance). The
+//! gain stage has the first row; what follows it goes on rows below, at least two sections
+//! to a row, within 1100 user units of width (see `rows`). A new stage kind is a new block
+//! in that sequence. Any part the blocks cannot place by role goes into a fallback area
+//! below the drawing with its node names: never dropped. The bench (sensor, supplies,
+//! converter load) is drawn in grey.
 //!
 //! Annotation: designator and value of every part, rail names and voltages, the DC level of
-//! every node that matters (from the operating point, blue italic) and the numbered test
+//! every node that matters (from the operating point, blue italic; not the nodes inside a
+//! filter section, which sit at the section input's level) and the numbered test
 //! points with the signal range there. Every text goes to the first free spot among a few
 //! candidates round its part or net, checked against every text, stroke and symbol placed
 //! so far (see [`super::svg`] for the text size estimate); a label with no free spot goes to

@@ -55,8 +55,10 @@ pub(super) struct Drive {
 pub(super) struct Chain {
     pub(super) sections: Vec<Section>,
     pub(super) drive: Drive,
-    /// The node the converter box is drawn on: the pin, or wherever the walk stopped.
+    /// Where the walk ended: the pin, unless it stopped short.
     pub(super) end: String,
+    /// The converter pin: the node of the bench's converter load, if there is one.
+    pub(super) pin: Option<String>,
 }
 
 impl Chain {
@@ -65,16 +67,17 @@ impl Chain {
         self.sections.is_empty() && self.drive.resistor.is_none() && self.drive.at_pin.is_empty()
     }
 
+    /// The walk ended on a node other than the converter pin (a chain it could not follow).
+    pub(super) fn short(&self) -> bool {
+        self.pin.as_ref().is_some_and(|p| *p != self.end)
+    }
+
     /// Walks from `from` (the gain stage's output); parts it takes are marked in `used`.
     pub(super) fn of(c: &Circuit, from: &str, rails: &[Rail], used: &mut [bool]) -> Chain {
         let terminal = |n: &str| n == GND || rails.iter().any(|r| r.node == n);
-        let pin = c
-            .parts
-            .iter()
-            .find(|p| p.bench && p.stage == StageRole::Converter && p.nodes.len() == 2 && has(p, GND))
-            .map(|p| other(p, GND))
-            .unwrap_or_else(|| "adc".to_string());
-        let mut chain = Chain { end: from.to_string(), ..Chain::default() };
+        let load = c.parts.iter().find(|p| p.bench && p.stage == StageRole::Converter && p.nodes.len() == 2 && has(p, GND)).map(|p| other(p, GND));
+        let pin = load.clone().unwrap_or_else(|| "adc".to_string());
+        let mut chain = Chain { end: from.to_string(), pin: load, ..Chain::default() };
         let mut drawn_refs: Vec<String> = Vec::new();
         for _ in 0..c.parts.len() {
             if chain.end == pin || terminal(&chain.end) {

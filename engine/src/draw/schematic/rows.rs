@@ -52,55 +52,47 @@ impl Sheet<'_> {
     /// Draws `chain` from the gain stage's output `start` (x, y, net); returns where the
     /// converter box goes. `u1`: the gain stage's amplifier (for the supply pins).
     pub(super) fn chain_rows(&mut self, chain: &Chain, start: (f64, f64, String), u1: Option<usize>) -> (f64, f64, String) {
-        if chain.is_empty() {
+        if chain.is_empty() && !chain.short() {
             return start;
         }
         let supply = u1.and_then(|u| self.c.parts.get(u)).and_then(|p| Some((p.nodes.get(2)?.clone(), p.nodes.get(3)?.clone())));
         let mut shared = Vec::new();
         let mut blocks: Vec<Block> = chain.sections.iter().map(Block::Section).collect();
         blocks.push(Block::Pin);
-        let total: f64 = blocks.iter().map(|b| self.width(*b, chain)).sum::<f64>() + GAP * (blocks.len() - 1) as f64;
         let (mut x, mut y, mut net) = start;
-        if x + total > X_MAX {
-            self.wire((x, y), (x + GAP, y), &net.clone(), false);
-            self.flag(x + GAP, y, &net);
-            (x, y) = self.new_row(&blocks, chain, &net);
-        } else {
-            self.row_top = blocks.iter().map(|b| self.top(*b)).fold(0.0, f64::max);
-        }
-        self.row_y = y;
-        for (k, b) in blocks.iter().enumerate() {
-            if k > 0 {
-                let rest = self.width(*b, chain)
-                    + match b {
-                        Block::Pin => 0.0,
-                        Block::Section(s) => GAP + self.flag_width(&s.out),
-                    };
-                if x + GAP + rest > X_MAX {
-                    self.wire((x, y), (x + GAP, y), &net.clone(), false);
-                    self.flag(x + GAP, y, &net);
-                    (x, y) = self.new_row(&blocks[k..], chain, &net);
-                    self.row_y = y;
-                } else {
+        let rows = self.pack(&blocks, chain, x, &net);
+        for (r, row) in rows.iter().enumerate() {
+            if r > 0 || x + self.run(row, chain) > X_MAX {
+                self.wire((x, y), (x + GAP, y), &net.clone(), false);
+                self.flag(x + GAP, y, &net);
+                (x, y) = self.new_row(row, &net);
+            } else {
+                self.row_top = row.iter().map(|b| self.top(*b)).fold(0.0, f64::max);
+                self.wire((x, y), (x + GAP, y), &net.clone(), false);
+                x += GAP;
+            }
+            self.row_y = y;
+            for (k, b) in row.iter().enumerate() {
+                if k > 0 {
                     self.wire((x, y), (x + GAP, y), &net.clone(), false);
                     x += GAP;
                 }
-            }
-            match b {
-                Block::Section(s) => {
-                    x = self.section(s, x, y);
-                    net = s.out.clone();
-                    let amp = &self.c.parts[s.amp];
-                    let pins = (amp.nodes[2].clone(), amp.nodes[3].clone());
-                    if supply.as_ref() == Some(&pins) {
-                        shared.push(amp.reference.clone());
-                    } else {
-                        self.supply_pins(s.amp, x - 115.0, y);
+                match b {
+                    Block::Section(s) => {
+                        x = self.section(s, x, y);
+                        net = s.out.clone();
+                        let amp = &self.c.parts[s.amp];
+                        let pins = (amp.nodes[2].clone(), amp.nodes[3].clone());
+                        if supply.as_ref() == Some(&pins) {
+                            shared.push(amp.reference.clone());
+                        } else {
+                            self.supply_pins(s.amp, x - 115.0, y);
+                        }
                     }
-                }
-                Block::Pin => {
-                    x = self.pin(chain, &net, x, y);
-                    net = chain.end.clone();
+                    Block::Pin => {
+                        x = self.pin(chain, &net, x, y);
+                        net = chain.pin.clone().unwrap_or_else(|| chain.end.clone());
+                    }
                 }
             }
         }
@@ -140,18 +132,48 @@ impl Sheet<'_> {
         }
     }
 
-    /// Starts a row below everything drawn, with a flag for `net`; returns the line's start.
-    fn new_row(&mut self, blocks: &[Block], chain: &Chain, net: &str) -> (f64, f64) {
-        let bottom = self.svg.bounds().map(|b| b.3).unwrap_or(0.0);
-        let mut top: f64 = 0.0;
-        let mut x = X0 + self.flag_width(net) + GAP;
-        for (k, b) in blocks.iter().enumerate() {
-            x += self.width(*b, chain) + GAP;
-            if k > 0 && x > X_MAX {
-                break;
-            }
-            top = top.max(self.top(*b));
+    /// The blocks row by row: everything on the gain stage's row when it fits after `x`
+    /// (where node `net` leaves the gain stage);
+    /// otherwise on new rows, a block going on the current row when it and what must follow
+    /// it there (a flag, unless it is the last) end within [`X_MAX`].
+    fn pack<'c>(&self, blocks: &[Block<'c>], chain: &Chain, x: f64, net: &str) -> Vec<Vec<Block<'c>>> {
+        if x + self.run(blocks, chain) <= X_MAX {
+            return vec![blocks.to_vec()];
         }
+        let mut rows: Vec<Vec<Block>> = Vec::new();
+        let mut row: Vec<Block> = Vec::new();
+        let mut net = net;
+        let mut x = 0.0;
+        for b in blocks {
+            let tail = match b {
+                Block::Pin => 0.0,
+                Block::Section(s) => GAP + self.flag_width(&s.out),
+            };
+            if !row.is_empty() && x + GAP + self.width(*b, chain) + tail > X_MAX {
+                rows.push(std::mem::take(&mut row));
+            }
+            if row.is_empty() {
+                x = X0 + self.flag_width(net);
+            }
+            x += GAP + self.width(*b, chain);
+            row.push(*b);
+            if let Block::Section(s) = b {
+                net = &s.out;
+            }
+        }
+        rows.push(row);
+        rows
+    }
+
+    /// Length of `blocks` on one line, the lead-in included.
+    fn run(&self, blocks: &[Block], chain: &Chain) -> f64 {
+        blocks.iter().map(|b| GAP + self.width(*b, chain)).sum()
+    }
+
+    /// Starts a row below everything drawn, with a flag for `net`; returns the line's start.
+    fn new_row(&mut self, row: &[Block], net: &str) -> (f64, f64) {
+        let bottom = self.svg.bounds().map(|b| b.3).unwrap_or(0.0);
+        let top = row.iter().map(|b| self.top(*b)).fold(0.0, f64::max);
         let y = bottom + ROW_GAP + top;
         self.row_top = top;
         let tip = self.flag(X0, y, net);
@@ -319,6 +341,14 @@ impl Sheet<'_> {
     /// The pin: drive resistor along the line from `net`, the parts at the pin hanging
     /// from it; returns where the converter box begins.
     fn pin(&mut self, chain: &Chain, net: &str, x0: f64, y: f64) -> f64 {
+        if let (true, Some(pin)) = (chain.short(), chain.pin.as_ref()) {
+            // The walk stopped short: the line ends at a named terminal, and the converter
+            // box gets its own, so no wire claims a connection the circuit does not have.
+            self.wire((x0, y), (x0 + 50.0, y), net, false);
+            self.terminal((x0 + 50.0, y), net, true);
+            self.terminal((x0 + 130.0, y), pin, true);
+            return x0 + 130.0;
+        }
         let mut x = x0;
         let pin = chain.end.clone();
         if let Some(r) = chain.drive.resistor {

@@ -1,5 +1,6 @@
 //! The sheet: symbols and the stage blocks, left to right along the signal — sensor, series
-//! path, amplifier stage, converter input — then the fallback area. Texts are queued here
+//! path, amplifier stage, converter input — then the fallback area; the filter and drive
+//! rows between the amplifier stage and the converter are in `rows`. Texts are queued here
 //! and placed afterwards (see `annotate`), once every stroke is down.
 
 use super::plan::{has, Leg, Plan, Rail, Step};
