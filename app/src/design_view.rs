@@ -244,20 +244,31 @@ fn mapping_node(s: &Shown) -> Node {
         (Some(low), None) => format!("from {}", hz(low)),
         (None, None) => "not limited".to_owned(),
     };
-    let rows = [("Sensor at its lowest", volts(r.source.min), volts(p.output_at_min)), ("Sensor at its highest", volts(r.source.max), volts(p.output_at_max))]
+    let sq = r.source.kind.quantity();
+    let rows = [("Sensor at its lowest", format(r.source.min, sq), volts(p.output_at_min)), ("Sensor at its highest", format(r.source.max, sq), volts(p.output_at_max))]
         .into_iter()
         .map(|(what, from, to)| el("tr").child(el("th").attr("scope", "row").text(what)).child(el_c("td", "num").text(&from)).child(el_c("td", "num").text(&to)));
     let offset_label = if r.source.coupling == Coupling::Ac { "Output DC level" } else { "Offset" };
     let facts = [
-        ("Gain", format!("{} V/V", format(p.gain, Quantity::Ratio))),
+        ("Gain", if sq == Quantity::Current { format!("{} V/A", format(p.gain, Quantity::Ratio)) } else { format!("{} V/V", format(p.gain, Quantity::Ratio)) }),
         (offset_label, volts(p.offset)),
         ("Converter range", format!("{} … {}", volts(r.destination.min), volts(r.destination.max))),
         ("Passband (−3 dB)", band),
     ];
-    el("div")
+    let mut out = el("div")
         .attr("data-testid", "mapping")
         .child(table("map-table", "", &["", "Sensor", "Converter input"], rows))
-        .child(el_c("dl", "mapping").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))))
+        .child(el_c("dl", "mapping").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
+    if let Some(l) = &s.design.current_loop {
+        let rows = l.bands.iter().map(|b| {
+            let (i, v, code) = (format(b.current, Quantity::Current), volts(b.output), b.code.to_string());
+            row(&[("", &b.label), ("num", &i), ("num", &v), ("num", &code)])
+        });
+        out = out
+            .child(el("h4").text(&format!("Loop: shunt {} = {}", l.shunt_ref, format(l.shunt, Quantity::Resistance))))
+            .child(table("loop-bands", "loop-bands", &["Loop state", "Current", "Converter input", "Code"], rows));
+    }
+    out
 }
 
 fn filter_node(s: &Shown) -> Node {

@@ -116,6 +116,15 @@ impl Field {
         self.path.starts_with("amplifier.")
     }
 
+    /// The field's kind for a sensor of kind `sensor` (the `source.kind` text): the
+    /// sensor's extremes are currents for a current loop.
+    pub fn kind_for(&self, sensor: &str) -> Kind {
+        match (self.path, self.kind) {
+            ("source.min" | "source.max", Kind::Quantity { percent, .. }) if sensor == "current_loop" => Kind::Quantity { q: Quantity::Current, percent },
+            _ => self.kind,
+        }
+    }
+
     /// Whether the field applies given the other fields' texts: the amplifier's figures
     /// only when the user gives them, the modulator rate only for an oversampling
     /// converter, the sampling figures only for a sampling one, the filter's settings only
@@ -123,7 +132,10 @@ impl Field {
     /// request, but its text is kept.
     pub fn applies(&self, text: impl Fn(&str) -> String) -> bool {
         let oversampling = || text("destination.converter") == "oversampling";
+        let current_loop = || text("source.kind") == "current_loop";
         match self.path {
+            "source.burden_max" | "source.fault_low" | "source.fault_high" => current_loop(),
+            "source.coupling" | "source.impedance" | "source.band_low" => !current_loop(),
             "destination.modulator_rate" => oversampling(),
             "destination.acquisition_time" | "destination.input_capacitance" => !oversampling(),
             "filter.response" => true,
@@ -139,7 +151,10 @@ pub const AMP_STATE: &str = "state";
 /// Value of the `amplifier` choice: the user gives the figures they know.
 pub const AMP_GIVEN: &str = "given";
 
-const KINDS: &[(&str, &str)] = &[("single_ended", "Single-ended voltage (one signal wire against ground)")];
+const KINDS: &[(&str, &str)] = &[
+    ("single_ended", "Single-ended voltage (one signal wire against ground)"),
+    ("current_loop", "Current loop (4–20 mA or another range), measured across a shunt"),
+];
 const COUPLINGS: &[(&str, &str)] = &[
     ("dc", "Pass DC: the lowest output maps to the bottom of the converter range, the highest to the top"),
     ("ac", "Block DC: only the swing passes, centred in the converter range"),
@@ -190,8 +205,11 @@ macro_rules! field {
 pub const FIELDS: &[Field] = &[
     // --- the sensor -------------------------------------------------------------------
     field!("source.kind", "Kind of output", Kind::Choice(KINDS), Sensor, "Its output", false, "How the sensor presents its signal."),
-    field!("source.min", "Lowest output", q(Quantity::Voltage), Sensor, "Its output", true, "The lowest instantaneous voltage, DC level included, e.g. 0.5 V or -2 V."),
-    field!("source.max", "Highest output", q(Quantity::Voltage), Sensor, "Its output", true, "The highest instantaneous voltage, DC level included, e.g. 4.5 V."),
+    field!("source.min", "Lowest output", q(Quantity::Voltage), Sensor, "Its output", true, "The lowest instantaneous voltage, DC level included, e.g. 0.5 V or -2 V; for a current loop the lowest loop current, e.g. 4 mA."),
+    field!("source.max", "Highest output", q(Quantity::Voltage), Sensor, "Its output", true, "The highest instantaneous voltage, DC level included, e.g. 4.5 V; for a current loop the highest loop current, e.g. 20 mA."),
+    field!("source.burden_max", "Largest voltage the loop allows across the input", q(Quantity::Voltage), Sensor, "Its output", false, "From the loop's supply and the transmitter's own drop, e.g. 5 V (a 250 Ω receiver at 20 mA)."),
+    field!("source.fault_low", "Fault signalled below", q(Quantity::Current), Sensor, "Its output", false, "NAMUR NE 43: 3.6 mA for a 4–20 mA loop."),
+    field!("source.fault_high", "Fault signalled above", q(Quantity::Current), Sensor, "Its output", false, "NAMUR NE 43: 21 mA for a 4–20 mA loop."),
     field!("source.coupling", "DC level", Kind::Choice(COUPLINGS), Sensor, "Its output", false, "Whether the sensor's DC level is part of the measurement."),
     field!("source.impedance", "Output impedance", q(Quantity::Resistance), Sensor, "Its output", false, "What the sensor has in series with its output; it enters the gain. 0 Ω for a stiff output."),
     field!("source.band_low", "Lowest frequency of interest", q(Quantity::Frequency), Sensor, "Band of interest", false, "Required when DC is blocked, e.g. 20 Hz. Leave empty to pass DC."),
@@ -342,6 +360,7 @@ fn lookup<'a>(json: &'a Value, path: &str) -> Option<&'a Value> {
 /// their JSON text so the engine reports them under the field.
 pub fn from_json(json: &Value) -> Values {
     let mut v = new_design();
+    let sensor = lookup(json, "source.kind").and_then(Value::as_str).unwrap_or("single_ended").to_string();
     for f in FIELDS {
         if f.path == "amplifier" {
             let given = json.get("amplifier").and_then(Value::as_object).is_some_and(|m| m.values().any(|x| !x.is_null()));
@@ -354,7 +373,7 @@ pub fn from_json(json: &Value) -> Values {
             }
             continue;
         };
-        let text = match (x, f.kind) {
+        let text = match (x, f.kind_for(&sensor)) {
             (Value::String(s), _) => s.clone(),
             (Value::Bool(b), _) => flag_text(*b),
             (Value::Number(n), kind) => match n.as_f64() {
@@ -458,7 +477,7 @@ pub fn validate(values: &Values) -> Validation {
             }
             continue;
         }
-        let value = match f.kind {
+        let value = match f.kind_for(text("source.kind")) {
             Kind::Quantity { q, .. } => {
                 if let Err(e) = units::parse(t, q) {
                     out.errors.insert(f.path, e.message(q));
@@ -540,6 +559,12 @@ pub fn placeholder(f: &Field, design: Option<&rangefit_engine::Design>) -> Strin
         }
         "name" => "Untitled design".into(),
         "destination.modulator_rate" => "needed for an oversampling converter".into(),
+        "source.burden_max" => "empty: 5 V".into(),
+        "source.fault_low" | "source.fault_high" => {
+            let spec = design.and_then(|d| d.request.source.current_loop.as_ref());
+            let v = spec.map(|s| if f.path == "source.fault_low" { s.fault_low } else { s.fault_high });
+            v.map(|x| format!("empty: {}", units::format(x, Quantity::Current))).unwrap_or_else(|| "empty: NAMUR NE 43 limits".into())
+        }
         "destination.acquisition_time" => {
             let t = design.map(|d| units::format(d.request.destination.acquisition_time, Quantity::Time));
             t.map(|t| format!("empty: a quarter of the sample period ({t})")).unwrap_or_else(|| "empty: a quarter of the sample period".into())

@@ -16,6 +16,7 @@ pub const ALL: &[Demo] = &[
     Demo { id: "harbour-hydrophone", title: "Harbour hydrophone into a 3.3 V converter", json: include_str!("../demos/harbour-hydrophone.json") },
     Demo { id: "boiler-pressure", title: "Boiler-loop pressure sensor, 0.5–4.5 V into 3.3 V", json: include_str!("../demos/boiler-pressure.json") },
     Demo { id: "mast-tilt", title: "Weather-mast tilt sensor, ±2 V into 0–5 V on one rail", json: include_str!("../demos/mast-tilt.json") },
+    Demo { id: "water-tank", title: "Rainwater tank level on a 4–20 mA loop", json: include_str!("../demos/water-tank.json") },
     Demo { id: "workshop-shunt", title: "Bench-supply monitor, ±10 V into ±5 V", json: include_str!("../demos/workshop-shunt.json") },
 ];
 

@@ -53,6 +53,7 @@ pub fn report_with(d: &Design, cfg: &ReportConfig) -> String {
     }
     checks(&mut h, d);
     mapping(&mut h, d);
+    current_loop(&mut h, d);
     filter_and_drive(&mut h, d);
     if cfg.plots {
         plots(&mut h, d);
@@ -108,12 +109,20 @@ fn summary(h: &mut String, d: &Design) {
         Coupling::Dc => "DC",
         Coupling::Ac => "AC",
     };
-    let sensor = kv(&[
-        ("Sensor output", format!("{} … {}", v(s.min), v(s.max))),
-        ("Coupling", coupling.to_string()),
-        ("Sensor impedance", format(s.impedance, Quantity::Resistance)),
-        ("Band", format!("{} … {}", hz(s.band_low), hz(s.band_high))),
-    ]);
+    let q = s.kind.quantity();
+    let mut rows = vec![("Sensor output", format!("{} … {}", format(s.min, q), format(s.max, q)))];
+    match &s.current_loop {
+        Some(l) => {
+            rows.push(("Loop burden allowed", v(l.burden_max)));
+            rows.push(("Fault bands (NAMUR NE 43)", format!("below {}, above {}", format(l.fault_low, Quantity::Current), format(l.fault_high, Quantity::Current))));
+        }
+        None => {
+            rows.push(("Coupling", coupling.to_string()));
+            rows.push(("Sensor impedance", format(s.impedance, Quantity::Resistance)));
+        }
+    }
+    rows.push(("Band", format!("{} … {}", hz(s.band_low), hz(s.band_high))));
+    let sensor = kv(&rows);
     let conv = kv(&[
         ("Converter input", format!("{} … {}, {} bits", v(t.min), v(t.max), t.bits)),
         ("Sample rate", hz(t.sample_rate)),
@@ -146,6 +155,26 @@ fn checks(h: &mut String, d: &Design) {
         .map(|c| format!("<tr><td><span class=\"sev sev-{s}\">{s}</span></td><td><code>{}</code></td><td>{}</td></tr>", escape(&c.id), escape(&c.message), s = c.severity))
         .collect();
     section(h, "Checks", &format!("<table><tr><th>Verdict</th><th>Check</th><th>Finding and what to change</th></tr>{rows}</table>"));
+}
+
+/// A current loop's shunt and where the loop's states land in converter codes.
+fn current_loop(h: &mut String, d: &Design) {
+    let Some(l) = &d.current_loop else { return };
+    let rows: String = l
+        .bands
+        .iter()
+        .map(|b| format!("<tr><td>{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td></tr>", escape(&b.label), escape(&format(b.current, Quantity::Current)), escape(&v(b.output)), b.code))
+        .collect();
+    let body = format!(
+        "<p>Shunt {} = {}: {} across it at {}, {} at the upper fault limit ({} dissipated).</p><table><tr><th>Loop state</th><th>Current</th><th>Converter input</th><th>Code</th></tr>{rows}</table>",
+        escape(&l.shunt_ref),
+        escape(&format(l.shunt, Quantity::Resistance)),
+        escape(&v(l.burden_at_max)),
+        escape(&format(d.request.source.max, Quantity::Current)),
+        escape(&v(l.burden_at_fault_high)),
+        escape(&format(l.power_at_fault_high, Quantity::Power))
+    );
+    section(h, "Current loop", &body);
 }
 
 /// The anti-alias filter (sections as designed and as rounded) and the converter drive.

@@ -481,7 +481,8 @@ fn read_loop(o: &Obj, min: f64, max: f64) -> Result<LoopSpec, RequestError> {
     if o.string("coupling")?.as_deref() == Some("ac") {
         return Err(o.err("coupling", "a current loop carries its measurement as DC; use \"dc\""));
     }
-    if o.get("impedance").is_some() {
+    // The normalised request carries impedance 0 and DC coupling: those read back.
+    if o.q("impedance", Quantity::Resistance)?.is_some_and(|z| z != 0.0) {
         return Err(o.err("impedance", "does not apply to a current loop: the loop drives its current into the shunt whatever the shunt's value (within burden_max)"));
     }
     let burden_max = o.q("burden_max", Quantity::Voltage)?.unwrap_or(DEFAULT_BURDEN_MAX);

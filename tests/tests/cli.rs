@@ -103,6 +103,7 @@ const PREDICTED_FIELDS: &[&str] = &[
 const PART_KINDS: &[&str] = &["resistor", "capacitor", "amplifier", "diode"];
 const STAGE_NAMES: &[&str] = &[
     "sensor",
+    "shunt",
     "supply",
     "coupling",
     "reference",
@@ -675,7 +676,8 @@ fn infeasible_requests_say_what_would_make_them_possible() {
 
 /// Element letters and dot-lines the netlist may use (SPICE3: R resistor, C capacitor,
 /// V voltage source, E VCVS, G VCCS, D diode, X subcircuit instance).
-const ELEMENTS: &[char] = &['R', 'C', 'V', 'E', 'G', 'D', 'X'];
+// SPICE3 element letters the netlist may use (I: the loop current of a current-loop sensor).
+const ELEMENTS: &[char] = &['R', 'C', 'V', 'I', 'E', 'G', 'D', 'X'];
 const DOT_LINES: &[&str] = &[".subckt", ".ends", ".model", ".end"];
 /// Lines only the test bench adds.
 const BENCH_LINES: &[&str] = &[".save", ".op", ".dc", ".ac", ".print"];
@@ -718,7 +720,10 @@ fn check_netlist(file: &str, testbench: bool, dual: bool) {
             .find(|l| l.split_whitespace().next() == Some(name))
             .copied()
     };
-    for name in ["VSENSE", "RSENSE", "VPOS", "RADC"] {
+    // The netlist contract: the measured quantity is one independent source, VSENSE
+    // (behind RSENSE) for voltage kinds, ISENSE into `sense` for current kinds.
+    let sensor = if element("ISENSE").is_some() { vec!["ISENSE"] } else { vec!["VSENSE", "RSENSE"] };
+    for name in sensor.into_iter().chain(["VPOS", "RADC"]) {
         assert!(element(name).is_some(), "{args:?}: no {name} element");
     }
     assert_eq!(
@@ -752,7 +757,7 @@ fn check_netlist(file: &str, testbench: bool, dual: bool) {
     );
     let has = |prefix: &str| lines.iter().any(|l| l.starts_with(prefix));
     if testbench {
-        assert!(has(".dc VSENSE "), "{args:?}: no .dc sweep of VSENSE");
+        assert!(has(".dc VSENSE ") || has(".dc ISENSE "), "{args:?}: no .dc sweep of the sensor source");
         assert!(has(".ac "), "{args:?}: no .ac analysis");
     } else {
         for cmd in BENCH_LINES.iter().chain(&[".tran", ".control", ".noise"]) {

@@ -187,6 +187,7 @@ fn check(what: &str, c: &Circuit, s: &Schematic, req: Option<&Request>) {
             PartKind::Capacitor => format(p.value, Quantity::Capacitance),
             PartKind::OpAmp => format(p.value, Quantity::Frequency),
             PartKind::VoltageSource | PartKind::Diode => format(p.value, Quantity::Voltage),
+            PartKind::CurrentSource => format(p.value, Quantity::Current),
         };
         assert!(words.iter().any(|w| w.contains(&value)), "{what}: no text with {value} for {}", p.reference);
     }

@@ -4,7 +4,8 @@
 //! capacitor, with a `+` beside the positive plate when it is polarised; a triangle for the
 //! amplifier (its simplified form) with `+` and `−` at the inputs; a triangle with a bar at
 //! the cathode for a diode, the bar's ends hooked for a Schottky diode; a circle with a line
-//! through it along the terminals for the sensor's EMF; the earth symbol (three bars of
+//! through it along the terminals for the sensor's EMF, and across them (with an arrow
+//! beside it for the direction) for a loop current; the earth symbol (three bars of
 //! falling width) for ground; a small circle for a terminal or test point; a dot at every
 //! junction. A supply rail is a short bar with the rail's name and voltage. A row that
 //! continues on the next ends, and the next begins, with a flag (a pentagon pointing along

@@ -102,7 +102,7 @@ impl<'a> Sheet<'a> {
         let pol = match op {
             Some(o) => Some(o.clone()),
             None if well_formed(c) => {
-                let x = c.part("VSENSE").map(|p| p.value).unwrap_or(0.0);
+                let x = c.sensor_source().map(|p| p.value).unwrap_or(0.0);
                 Solver::new(c).dc(x).ok()
             }
             None => None,
@@ -151,7 +151,7 @@ impl<'a> Sheet<'a> {
         let half = match p.kind {
             PartKind::Capacitor => 4.0,
             PartKind::Diode => 9.0,
-            PartKind::VoltageSource => 16.0,
+            PartKind::VoltageSource | PartKind::CurrentSource => 16.0,
             _ => 20.0,
         };
         let s = (m.0 - ux * half, m.1 - uy * half);
@@ -191,6 +191,21 @@ impl<'a> Sheet<'a> {
                 let c = (m.0 + 0.55 * (q.0 - m.0) + px * 24.0, m.1 + 0.55 * (q.1 - m.1) + py * 24.0);
                 self.svg.text(c.0, c.1 + 0.35 * fs, "+", fs, Anchor::Middle, colour, "bold", "");
                 vec![(m.0 - 16.0, m.1 - 16.0), (m.0 + 16.0, m.1 + 16.0)]
+            }
+            PartKind::CurrentSource => {
+                // A circle with a line across the terminals' direction, and an arrow beside
+                // it pointing the way the current flows (into the second node).
+                self.svg.circle(m, 16.0, "none", Some(pen));
+                let (c1, c2) = at(m, 16.0);
+                self.svg.line(c1, c2, pen);
+                let into_b = p.nodes.get(1).map(|n| n == nb).unwrap_or(true);
+                let (dx, dy) = if into_b { (ux, uy) } else { (-ux, -uy) };
+                let base = (m.0 + px * 26.0, m.1 + py * 26.0);
+                let (t0, t1) = ((base.0 - dx * 12.0, base.1 - dy * 12.0), (base.0 + dx * 12.0, base.1 + dy * 12.0));
+                self.svg.line(t0, t1, pen);
+                let head = [t1, (t1.0 - dx * 6.0 + px * 4.0, t1.1 - dy * 6.0 + py * 4.0), (t1.0 - dx * 6.0 - px * 4.0, t1.1 - dy * 6.0 - py * 4.0)];
+                self.svg.polygon(&head, colour, pen);
+                vec![(m.0 - 16.0, m.1 - 16.0), (m.0 + 16.0, m.1 + 16.0), (base.0 - 6.0, base.1 - 12.0), (base.0 + 6.0, base.1 + 12.0)]
             }
             PartKind::Diode => {
                 // Triangle from the anode (the first node) to the bar at the cathode; the
@@ -264,12 +279,20 @@ impl<'a> Sheet<'a> {
         let rs = emf
             .as_ref()
             .and_then(|e| c.parts.iter().position(|p| p.bench && p.kind == PartKind::Resistor && p.nodes.len() == 2 && has(p, e) && has(p, "sense")));
+        // A current sensor (a loop's current) feeds the terminal from ground.
+        let is = c.parts.iter().position(|p| p.bench && p.kind == PartKind::CurrentSource && p.stage == StageRole::Sensor && p.nodes.len() == 2 && p.nodes[0] == GND);
         if let (Some(v), Some(r), Some(emf)) = (vs, rs, emf) {
             let sx = X0 + 40.0;
             self.two(v, (sx, y), &emf, (sx, y + 100.0), GND, true);
             self.terminal((sx, y + 100.0), GND, false);
             self.two(r, (sx, y), &emf, (right - 20.0, y), "sense", true);
             self.wire((right - 20.0, y), (right, y), "sense", true);
+        } else if let Some(i) = is {
+            let sx = X0 + 40.0;
+            let to = c.parts[i].nodes[1].clone();
+            self.two(i, (sx, y + 100.0), GND, (sx, y), &to, true);
+            self.terminal((sx, y + 100.0), GND, false);
+            self.wire((sx, y), (right, y), &to, true);
         }
         let dashed = Pen { colour: GREY, width: 1.5, dashed: true };
         self.svg.rect(X0, y - 60.0, SENSOR_W, 190.0, "none", dashed);
