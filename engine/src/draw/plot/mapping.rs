@@ -38,6 +38,9 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     let (y0, y1) = (y0 - pad_y, y1 + pad_y);
 
     let v = |x: f64| si(x, Quantity::Voltage);
+    // The sensor axis is in the measured quantity: volts, or amperes for a current loop.
+    let sq = s.kind.quantity();
+    let sv = |x: f64| si(x, sq);
     let mut items: Vec<(Sample, String)> = Vec::new();
     let curve_text = if ac {
         let p = d.predicted.as_ref();
@@ -58,9 +61,9 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
         items.push((Sample::Fill { colour: HEADROOM, edge: "none" }, format!("headroom {} of the range at each end ({})", percent(dst.headroom), v(head))));
     }
     items.push((Sample::Line { colour: GREY, width: 1.2, dash: DASH }, format!("amplifier output limits {} and {}: the output clips there", v(lim_lo), v(lim_hi))));
-    items.push((Sample::Line { colour: GREY, width: 1.2, dash: DOT }, format!("sensor range {} … {}", v(s.min), v(s.max))));
+    items.push((Sample::Line { colour: GREY, width: 1.2, dash: DOT }, format!("sensor range {} … {}", sv(s.min), sv(s.max))));
     if let Some((c0, c1)) = extent(a.dc.clipped_in_range.iter().copied()) {
-        let at = if c1 > c0 { format!("{} … {}", v(c0), v(c1)) } else { v(c0) };
+        let at = if c1 > c0 { format!("{} … {}", sv(c0), sv(c1)) } else { sv(c0) };
         items.push((Sample::None, format!("Clips inside the sensor range, at sensor {at}")));
     }
 
@@ -75,8 +78,8 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
         for (x, t) in [(s.min, "sensor min"), (s.max, "sensor max")] {
             if let Some(px) = x_axis.px(x).filter(|_| x_axis.contains(x)) {
                 let text = match interpolate(&data, x, false) {
-                    Some(y) => format!("{t} {} → {}", v(x), v(y)),
-                    None => format!("{t} {}", v(x)),
+                    Some(y) => format!("{t} {} → {}", sv(x), v(y)),
+                    None => format!("{t} {}", sv(x)),
                 };
                 tags.push(Tag { x: px, text, leader: true, edge: 0 });
             }
@@ -99,7 +102,7 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
         }
     }
     let Some((p, yt, tags, placed, legend, height)) = geo else { return Page::new(w, cfg.height, fs).finish("") };
-    let xt = TickSet::linear(&p.x, Unit::Si(Quantity::Voltage), 3.0 * fs, fs, false, true);
+    let xt = TickSet::linear(&p.x, Unit::Si(sq), 3.0 * fs, fs, false, true);
 
     let what = if ac { "midband transfer (AC coupling)" } else { "DC transfer" };
     let (name, full) = title(&d.name, what, w, fs);
@@ -107,7 +110,8 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     draw_title(&mut page, &name);
     page.legend(&legend, rows.legend_top(p.bottom));
     page.vertical_text(PAD + 0.8 * fs, 0.5 * (p.top + p.bottom), &fit("Output (V)", p.height(), fs), INK);
-    page.text(0.5 * (p.left + p.right), rows.xtitle_base(p.bottom), "Sensor (V)", Anchor::Middle, INK, false);
+    let x_title = if sq == Quantity::Current { "Loop current (A)" } else { "Sensor (V)" };
+    page.text(0.5 * (p.left + p.right), rows.xtitle_base(p.bottom), x_title, Anchor::Middle, INK, false);
 
     let ypx = |v: f64| p.y.px(v).map(|y| y.clamp(p.top, p.bottom));
     if head > 0.0 {
