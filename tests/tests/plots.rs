@@ -81,7 +81,7 @@ type PlotFn = fn(&Design, &PlotConfig) -> Option<Plot>;
 /// Each plot with the axis titles it must carry (any one of the alternatives).
 const PLOTS: [(&str, PlotFn, &[&[&str]]); 4] = [
     ("response", plot::response, &[&["Frequency (Hz)"], &["Magnitude (dB)", "Gain (dB)"], &["Phase (°)"]]),
-    ("transfer", plot::transfer, &[&["Sensor (V)"], &["Output (V)"]]),
+    ("transfer", plot::transfer, &[&["Sensor (V)", "Loop current (A)"], &["Output (V)"]]),
     ("tolerance", plot::tolerance, &[&["Output (V)"], &["Builds per bin"]]),
     ("noise", plot::noise, &[&["Frequency (Hz)"], &["Noise density (V/√Hz)", "Noise (V/√Hz)"]]),
 ];
