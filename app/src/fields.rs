@@ -674,6 +674,17 @@ mod tests {
     }
 
     #[test]
+    fn every_demo_reads_back_through_a_link() {
+        for (i, demo) in demos::ALL.iter().enumerate() {
+            let req = Request::from_value(&demo_json(i)).expect("demo valid");
+            let linked = share::decode(&share::encode(&req)).expect("link decodes");
+            let v = validate(&from_request(&linked));
+            assert_eq!(v.errors, BTreeMap::new(), "demo {}", demo.id);
+            assert_eq!(v.request.as_ref(), Some(&linked), "demo {} through a link", demo.id);
+        }
+    }
+
+    #[test]
     fn value_text_round_trips_and_reads_well() {
         let cases = [
             (1.16, q(Quantity::Voltage), "1.16 V"),

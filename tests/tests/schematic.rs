@@ -452,8 +452,9 @@ fn test_points_follow_the_solver() {
         let out = tps.last().unwrap();
         let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
         assert!((out.min - lo).abs() < 1e-6 && (out.max - hi).abs() < 1e-6, "{}: converter range {} … {} vs predicted {lo} … {hi}", demo.id, out.min, out.max);
-        // The sensor terminal follows the sensor (loaded at most by a few per cent).
-        let span = req.source.max - req.source.min;
+        // The sensor terminal follows the sensor (loaded at most by a few per cent); a loop's
+        // terminal carries the loop current times the shunt (Ohm's law).
+        let span = (req.source.max - req.source.min) * d.current_loop.as_ref().map_or(1.0, |l| l.shunt);
         assert!((tps[0].max - tps[0].min - span).abs() < 0.05 * span, "{}: TP1 span {} vs sensor span {span}", demo.id, tps[0].max - tps[0].min);
     }
 }
