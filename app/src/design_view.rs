@@ -302,6 +302,7 @@ fn filter_node(s: &Shown) -> Node {
             out = out.child(el_c("dl", "facts").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
             let rows = f.sections.iter().enumerate().map(|(i, x)| {
                 let kind = match x.kind {
+                    SectionKind::FirstOrder if x.in_gain_stage => "first-order pole in the gain stage",
                     SectionKind::FirstOrder => "first-order RC and follower",
                     SectionKind::SallenKey => "Sallen-Key",
                     SectionKind::MultipleFeedback => "multiple feedback",

@@ -109,6 +109,10 @@ pub fn design(req: &Request) -> Design {
     design_with(req, &AnalysisConfig::from_request(req))
 }
 
+/// How far the target is pulled in beyond the miss on each further attempt, as a fraction
+/// of the converter span (rounding may jump to other values after a small pull).
+const NUDGES: [f64; 8] = [1e-4, 1e-3, 3e-3, 1e-2, 3e-2, 0.1, 0.2, 0.3];
+
 /// Designs the interface for `req` with explicit analysis options.
 pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     let rails = Rails::choose(req);
@@ -155,25 +159,34 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     };
     let d = &req.destination;
     let span = d.max - d.min;
-    let (band_lo, band_hi) = (d.min + d.headroom * span, d.max - d.headroom * span);
+    // Inside the headroom and inside the amplifier's swing (half the synthesis margin): a
+    // rounded stage whose extreme lands on the swing limit clips there.
+    let (out_lo, out_hi) = amp.output_limits(rails);
+    let (band_lo, band_hi) = ((d.min + d.headroom * span).max(out_lo + 0.5 * synth::SWING_MARGIN), (d.max - d.headroom * span).min(out_hi - 0.5 * synth::SWING_MARGIN));
     // Rounding and the amplifier's finite gain can move the extremes by a hair past the
     // headroom; pull the target in by that much and design again (at most a few times).
     let mut result = None;
     // The filter and the drive do not depend on the gain stage: plan them once.
     let chain = synth::chain::plan(syn, &amp, rails);
-    for attempt in 0..6 {
+    // The attempt that misses least is kept (an extreme held at the swing limit hides how far
+    // past it the stage would go, so a later, larger pull can be the one that fits).
+    let mut best = f64::INFINITY;
+    for attempt in 0..NUDGES.len() {
         let Some(s) = synth::synthesize_with_chain(syn, &amp, rails, target, &chain) else { break };
         let Some(p) = predict(syn, &s.circuit) else { break };
         let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
         let under = (band_lo - lo).max(0.0);
         let over = (hi - band_hi).max(0.0);
         let done = under <= synth::HEADROOM_SLACK * span && over <= synth::HEADROOM_SLACK * span;
-        result = Some((s, p));
+        if under + over < best {
+            best = under + over;
+            result = Some((s, p));
+        }
         if done {
             break;
         }
         // Rounding may jump to other values after a small shrink; widen the step each time.
-        let nudge = [1e-4, 1e-3, 3e-3, 1e-2, 3e-2, 0.1][attempt] * span;
+        let nudge = NUDGES[attempt] * span;
         target = shrink(target, syn, if under > 0.0 { under + nudge } else { 0.0 }, if over > 0.0 { over + nudge } else { 0.0 });
     }
     let Some((mut s, mut p)) = result else {

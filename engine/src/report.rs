@@ -188,6 +188,7 @@ fn filter_and_drive(h: &mut String, d: &Design) {
             .enumerate()
             .map(|(k, s)| {
                 let kind = match s.kind {
+                    SectionKind::FirstOrder if s.in_gain_stage => "first order, in the gain stage",
                     SectionKind::FirstOrder => "first order",
                     SectionKind::SallenKey => "Sallen-Key",
                     SectionKind::MultipleFeedback => "multiple feedback",

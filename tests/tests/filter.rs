@@ -421,6 +421,59 @@ fn attenuation_at_the_alias_frequency_matches_ngspice() {
     check(&rows);
 }
 
+/// Requests whose first-order pole goes into the gain stage: inverting stages (a capacitor
+/// across the feedback resistor) and a divider into the + input (a capacitor from the +
+/// input to ground).
+const MERGE_CASES: &[(&str, &str)] = &[
+    ("inverting, + on a divider", r#"{"name": "Quarry blast microphone", "source": {"min": -2, "max": 0, "band_high": "1 kHz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [3.3], "keep_polarity": false, "filter": {"order": 5}}"#),
+    ("inverting summer, split rails", r#"{"name": "Dam seepage probe", "source": {"min": 0, "max": 2, "band_high": "1 kHz"},
+        "destination": {"min": -2, "max": 2, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [5, -5], "keep_polarity": false, "filter": {"order": 5}}"#),
+    ("divider into the + input", r#"{"name": "Tram feeder monitor", "source": {"min": 0, "max": 10, "band_high": "1 kHz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [12, -12], "keep_polarity": false, "filter": {"order": 5}}"#),
+];
+
+#[test]
+fn the_first_pole_built_into_the_gain_stage_saves_an_amplifier_and_keeps_the_rule() {
+    const SRC: &str = "ngspice (Debian ngspice-39) AC analysis of the exported netlist";
+    let mut rows = Vec::new();
+    for (what, json) in MERGE_CASES {
+        let req = request(json);
+        let d = design(&req);
+        let f = d.filter.as_ref().expect("filter");
+        let c = d.circuit.as_ref().expect("circuit");
+        rows.push(fact(format!("{what}: section 1 is in the gain stage"), f.sections.first().is_some_and(|s| s.in_gain_stage && s.kind == SectionKind::FirstOrder), "design contract"));
+        let amps = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp).count();
+        let separate = f.sections.iter().filter(|s| !s.in_gain_stage).count();
+        rows.push(row(format!("{what}: amplifiers (gain stage + separate sections)"), amps as f64, (1 + separate) as f64, 0.0, "one amplifier saved"));
+        // The pole from the parts: 1/(2π·R·C) with R the feedback resistor across which the
+        // capacitor sits, or, for a capacitor from the + input to ground, the resistance the
+        // + input sees (its resistors in parallel, the sensor's impedance in series with the
+        // one from the sensor; Thévenin) — first-order RC, closed form.
+        let cap = c.parts.iter().find(|p| p.purpose.contains("built into the gain stage")).expect("the merged capacitor");
+        let resistors = || c.parts.iter().filter(|p| p.kind == PartKind::Resistor && !p.bench);
+        let r = if cap.nodes.iter().any(|n| n == "0") {
+            let node = cap.nodes.iter().find(|n| *n != "0").expect("node");
+            let rs = c.part("RSENSE").map_or(0.0, |p| p.value);
+            1.0 / resistors().filter(|p| p.nodes.contains(node)).map(|p| 1.0 / (p.value + if p.nodes.iter().any(|n| n == "sense") { rs } else { 0.0 })).sum::<f64>()
+        } else {
+            resistors().find(|p| p.nodes.iter().all(|n| cap.nodes.contains(n))).expect("feedback resistor").value
+        };
+        // 1e-6: the bench models an ideal sensor as 1 mΩ, which the design leaves out.
+        rows.push(row(format!("{what}: pole 1/(2π R C)"), f.sections[0].f_n_rounded, 1.0 / (2.0 * PI * r * cap.value), 1e-6 * f.sections[0].f_n_rounded, "first-order RC, closed form"));
+        let a = d.analysis.as_ref().expect("analysis");
+        let x = a.alias.expect("analysis.alias");
+        let g = spice_gain(&format!("merge-{what}"), &req, &d, &[a.ac.f_mid, x.frequency, req.source.band_high]);
+        let rejection = 20.0 * (g[0] / g[1]).log10();
+        let edge = 20.0 * (g[2] / g[0]).log10();
+        rows.push(row(format!("{what}: rejection at the alias frequency"), x.achieved_db, rejection, 1.0, SRC));
+        rows.push(fact(format!("{what}: ngspice's rejection {rejection:.1} dB meets the rule's {:.1} dB", x.required_db), rejection >= x.required_db, "the alias rule"));
+        rows.push(row(format!("{what}: gain at band_high relative to mid-band"), a.ac.gain_band_high_db - a.ac.gain_mid_db, edge, 0.05, SRC));
+        rows.push(fact(format!("{what}: ngspice's in-band error {edge:+.3} dB within the {} dB allowed", f.passband_allowed_db), edge.abs() <= f.passband_allowed_db + 0.01, SRC));
+    }
+    check(&rows);
+}
+
 /// Requests no other test holds, drawn from a seeded generator (rand_chacha ChaCha8Rng,
 /// seed 20261202): resolution, sample rate, band, response, topology, out-of-band level,
 /// coupling, rails and converter range at random. For each, the rejection the engine

@@ -117,18 +117,28 @@ impl Chain {
                 *n = "out1".to_string();
             }
         }
+        // The first-order pole goes into the gain stage where that costs nothing (`merge`).
+        let mut filter = s.filter.clone();
+        let merged = filter.as_mut().and_then(|f| super::merge::plan(&s.circuit, req, f, "out1"));
+        s.filter = filter.clone();
         let mut bld = Builder::resume(std::mem::take(&mut s.circuit.parts));
         let vneg = if rails.is_dual() { "vneg" } else { "0" };
         let rtol = Some(req.parts.resistor_tolerance);
         let ctol = Some(req.parts.capacitor_tolerance);
         let mut input = "out1".to_string();
         let hz = |x: f64| format(x, Quantity::Frequency);
-        if let Ok(f) = &self.filter {
+        if let Some(f) = &filter {
             let fref = reference.map_or("0", |r| if r.divider.is_some() { "fref" } else { "0" });
             let mut parts = Vec::new();
-            let n = f.realised.len();
-            for (i, r) in f.realised.iter().enumerate() {
-                let k = i + 1;
+            if let Some(m) = &merged {
+                let what = format!("section 1 (first order, f_c {}) built into the gain stage: {}", hz(m.f_p), m.how);
+                parts.push(bld.add(PartKind::Capacitor, m.capacitor, ctol, &[&m.nodes[0], &m.nodes[1]], StageRole::Filter, &what));
+            }
+            let skip = usize::from(merged.is_some());
+            let n = f.realised.len() - skip;
+            for (i, r) in f.realised.iter().skip(skip).enumerate() {
+                // Sections keep their numbers (and node names) when section 1 is merged.
+                let k = i + 1 + skip;
                 let out = if i + 1 == n && self.drive.is_none() { "adc".to_string() } else { format!("f{k}o") };
                 let (a, p, m) = (format!("f{k}a"), format!("f{k}p"), format!("f{k}n"));
                 let tag = match r.kind {
@@ -170,6 +180,7 @@ impl Chain {
                 input = next;
             }
             let kinds: Vec<&str> = f.sections.iter().map(|x| match x.kind {
+                SectionKind::FirstOrder if x.in_gain_stage => "a first-order pole in the gain stage",
                 SectionKind::FirstOrder => "a first-order RC with a follower",
                 SectionKind::SallenKey => "a unity-gain Sallen-Key section",
                 SectionKind::MultipleFeedback => "a unity-gain multiple-feedback section",

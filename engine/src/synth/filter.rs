@@ -105,6 +105,8 @@ pub struct SectionReport {
     /// Relative deviations after rounding.
     pub f_n_error: f64,
     pub q_error: f64,
+    /// Built into the gain stage (a first-order pole) instead of a section of its own.
+    pub in_gain_stage: bool,
 }
 
 /// What would make the rule feasible when no order up to the limit meets it.
@@ -217,6 +219,24 @@ pub fn design(req: &Request) -> Result<FilterDesign, NoFilter> {
 }
 
 impl FilterDesign {
+    /// The same filter with its corner moved to `corner`, every section realised again: used
+    /// when the first-order pole is fixed by parts outside the filter. `None` when the corner
+    /// lies outside the interval the rule allows, a section cannot be built, or the rounded
+    /// cascade misses the rejection or the in-band error there.
+    pub fn at_corner(&self, req: &Request, corner: f64) -> Option<FilterDesign> {
+        let [lo, hi] = self.corner_range;
+        if !(corner >= lo && corner <= hi) || self.shortfall.is_some() {
+            return None;
+        }
+        let proto = prototype(self.response, self.order)?;
+        let cfg = PartsConfig {
+            resistors: RoundConfig { series: req.parts.resistor_series, min: req.parts.resistor_min, max: req.parts.resistor_max },
+            capacitors: req.parts.capacitor_series,
+        };
+        let d = build(req, &proto, corner, self.corner_range, self.alias_frequency, self.required_db, self.ripple_exceeds_request, cfg)?;
+        (d.rounded_db >= d.required_db && d.passband_error_db <= d.passband_allowed_db + 1e-9).then_some(d)
+    }
+
     /// The cascade inverts (an odd number of multiple-feedback sections).
     pub fn inverts(&self) -> bool {
         self.sections.iter().filter(|s| s.kind == SectionKind::MultipleFeedback).count() % 2 == 1
@@ -232,6 +252,20 @@ impl FilterDesign {
         let (real, pairs) = rounded_cascade(&self.realised);
         cascade_loss_db(real, &pairs, f)
     }
+
+    /// Largest in-band error of the rounded cascade up to `band_high`, dB.
+    pub fn rounded_passband_error_db(&self, band_high: f64) -> f64 {
+        let (real, pairs) = rounded_cascade(&self.realised);
+        passband_error(real, &pairs, band_high)
+    }
+}
+
+/// Largest |loss| of a cascade over three decades up to `band_high`, dB.
+fn passband_error(real: Option<f64>, pairs: &[Pair], band_high: f64) -> f64 {
+    (0..=64)
+        .map(|i| band_high * 10f64.powf(-3.0 * (64 - i) as f64 / 64.0))
+        .map(|f| cascade_loss_db(real, pairs, f).abs())
+        .fold(0.0, f64::max)
 }
 
 /// Realises every section of `proto` at `corner` and evaluates the rounded cascade.
@@ -260,15 +294,11 @@ fn build(req: &Request, proto: &Prototype, corner: f64, range: [f64; 2], fa: f64
             SectionKind::SallenKey => SECTION_GBW_FACTOR * r.q * r.f_n,
             SectionKind::MultipleFeedback => SECTION_GBW_FACTOR * 2.0 * r.q * r.f_n,
         });
-        reports.push(SectionReport { kind, f_n: f, q, f_n_rounded: r.f_n, q_rounded: r.q, f_n_error: rel(r.f_n, f), q_error: rel(r.q, q) });
+        reports.push(SectionReport { kind, f_n: f, q, f_n_rounded: r.f_n, q_rounded: r.q, f_n_error: rel(r.f_n, f), q_error: rel(r.q, q), in_gain_stage: false });
         realised.push(r);
     }
     let (real, pairs) = rounded_cascade(&realised);
-    let bh = req.source.band_high;
-    let passband_error_db = (0..=64)
-        .map(|i| bh * 10f64.powf(-3.0 * (64 - i) as f64 / 64.0))
-        .map(|f| cascade_loss_db(real, &pairs, f).abs())
-        .fold(0.0, f64::max);
+    let passband_error_db = passband_error(real, &pairs, req.source.band_high);
     Some(FilterDesign {
         response: spec.response,
         order: proto.order,

@@ -24,6 +24,7 @@ pub mod dc;
 pub mod drive;
 pub mod filter;
 pub mod front;
+pub mod merge;
 pub mod round;
 
 use serde::Serialize;

@@ -423,7 +423,9 @@ impl<'a> Sheet<'a> {
         }
         self.opamp(u, ux, yt, [plan.top == plan.inp, plan.bottom == plan.inp && plan.top != plan.inp]);
         self.supply_pins(u, ux, yt);
-        let xa = x_out + OUT_RUN;
+        // Into the converter box the run carries the pin's test point; into a continuation
+        // flag (a filter follows) only the DC level, so it can be shorter.
+        let xa = x_out + if plan.out == "adc" { OUT_RUN } else { OUT_RUN - 60.0 };
         self.wire((x_out, yo), (xa, yo), &plan.out, false);
         Some((xa, yo, plan.out.clone()))
     }
