@@ -71,6 +71,8 @@ pub enum StageRole {
     Supply,
     /// The shunt that turns a loop current into a voltage.
     Shunt,
+    /// The follower in front of a high-impedance sensor and its bias path.
+    Buffer,
     /// DC blocking and the bias that sets the DC level after it.
     Coupling,
     /// A reference voltage derived from a rail.
@@ -91,6 +93,7 @@ impl StageRole {
             StageRole::Sensor => "sensor",
             StageRole::Supply => "supply",
             StageRole::Shunt => "shunt",
+            StageRole::Buffer => "buffer",
             StageRole::Coupling => "coupling",
             StageRole::Reference => "reference",
             StageRole::Gain => "gain",

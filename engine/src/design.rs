@@ -55,6 +55,9 @@ pub struct Design {
     /// Current loops: the shunt, its burden and where the fault bands land in codes.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub current_loop: Option<crate::synth::front::LoopDesign>,
+    /// High-impedance sensors: the follower's bias path, corners and bias-current offset.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub high_impedance: Option<crate::synth::buffer::BufferDesign>,
     /// The circuit model every output derives from (absent when synthesis was impossible).
     #[serde(skip)]
     pub circuit: Option<Circuit>,
@@ -119,10 +122,12 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     let amp = Amplifier::resolve(&req.amplifier, rails);
     // The front end (a current loop's shunt) turns the sensor into the single-ended voltage
     // source the gain stage is synthesised for (`syn`); analyses use the request itself.
-    let (syn, mut current_loop, front_error) = match synth::front::plan(req) {
-        None => (std::borrow::Cow::Borrowed(req), None, None),
-        Some(Ok(l)) => (std::borrow::Cow::Owned(synth::front::equivalent(req, &l)), Some(l), None),
-        Some(Err(check)) => (std::borrow::Cow::Borrowed(req), None, Some(check)),
+    let buffer = synth::buffer::plan(req, &amp, rails);
+    let (syn, mut current_loop, front_error) = match (synth::front::plan(req), &buffer) {
+        (Some(Ok(l)), _) => (std::borrow::Cow::Owned(synth::front::equivalent(req, &l)), Some(l), None),
+        (Some(Err(check)), _) => (std::borrow::Cow::Borrowed(req), None, Some(check)),
+        (None, Some(b)) => (std::borrow::Cow::Owned(synth::buffer::equivalent(req, b)), None, None),
+        (None, None) => (std::borrow::Cow::Borrowed(req), None, None),
     };
     let syn: &Request = &syn;
     let mut checks = feasibility(syn, rails, &amp);
@@ -147,6 +152,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         filter: None,
         drive: None,
         current_loop: None,
+        high_impedance: None,
         circuit: None,
     };
     if has_error(&checks) {
@@ -216,6 +222,21 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         l.bands = synth::front::bands(req, &s.circuit);
         checks.extend(synth::front::checks(req, l));
     }
+    if let Some(b) = &buffer {
+        // The gain stage's source is the follower, which the buffer checks cover.
+        checks.retain(|c| c.id != "sensor_impedance");
+        synth::buffer::insert(&mut s.circuit, req, b, rails);
+        let mut eqs = synth::buffer::equations(req, b);
+        eqs.append(&mut s.equations);
+        s.equations = eqs;
+        let Some(q) = predict(req, &s.circuit) else {
+            checks.push(Check::error("no_realisation", "The buffered circuit does not solve; this is a fault in Rangefit, please report the request."));
+            out.checks = checks;
+            return out;
+        };
+        p = q;
+        checks.extend(synth::buffer::checks(req, b, &amp));
+    }
     let (analysis, analysis_checks) = analyse(req, &s.circuit, Nominal { gain: p.gain, f_low_3db: p.band_low, f_high_3db: p.band_high }, cfg);
     checks.extend(analysis_checks);
     checks.extend(synth::chain::filter_checks(req, &s, analysis.alias.map(|a| a.achieved_db), Some(analysis.ac.gain_band_high_db - analysis.ac.gain_mid_db)));
@@ -234,6 +255,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     out.checks = checks;
     out.circuit = Some(s.circuit);
     out.current_loop = current_loop;
+    out.high_impedance = buffer;
     out.scaling = crate::scaling::scaling(&out);
     out
 }
@@ -546,6 +568,9 @@ fn cautions(req: &Request, rails: Rails) -> Vec<String> {
         "Never exceed the converter's absolute maximum input, including during power-up, power-down and faults.".to_string(),
         "A design for safety- or medically-relevant use must be checked by a qualified person; follow local codes and licensed practice.".to_string(),
     ];
+    if req.source.kind == crate::request::SourceKind::HighImpedance {
+        v.push("Above about 100 MΩ, leakage over the board decides the reading: keep the input node off solder mask and flux, surround it with a guard ring driven by the follower's output, and keep the assembly clean and dry.".to_string());
+    }
     if req.source.kind == crate::request::SourceKind::CurrentLoop {
         v.push("A current loop runs from its own supply, often 24 V: tie that supply's return to the converter's ground at one point (or use an isolated loop receiver), and make sure a miswired loop cannot put its supply across the shunt and the amplifier input.".to_string());
     }

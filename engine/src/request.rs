@@ -185,13 +185,16 @@ pub enum SourceKind {
     SingleEnded,
     /// A loop current (4–20 mA or another range) measured across a shunt.
     CurrentLoop,
+    /// A voltage behind a very high impedance (MΩ … TΩ): ion-selective electrodes, piezo
+    /// films, electret capsules without their own amplifier.
+    HighImpedance,
 }
 
 impl SourceKind {
     /// The quantity of `source.min`/`max`: the measured quantity of this kind.
     pub fn quantity(self) -> Quantity {
         match self {
-            SourceKind::SingleEnded => Quantity::Voltage,
+            SourceKind::SingleEnded | SourceKind::HighImpedance => Quantity::Voltage,
             SourceKind::CurrentLoop => Quantity::Current,
         }
     }
@@ -242,6 +245,10 @@ pub struct Source {
     /// Current loops: burden and fault bands.
     #[serde(default, flatten, skip_serializing_if = "Option::is_none")]
     pub current_loop: Option<LoopSpec>,
+    /// High-impedance sensors: the sensor's capacitance, F (DC coupling: electrode and cable
+    /// to ground; AC coupling: the capacitance the signal sits behind).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub capacitance: Option<f64>,
 }
 
 /// The physical quantity behind the sensor's output: `at_min` at `source.min`, `at_max` at
@@ -424,8 +431,9 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
     let kind = match o.string("kind")?.as_deref() {
         None | Some("single_ended") => SourceKind::SingleEnded,
         Some("current_loop") => SourceKind::CurrentLoop,
+        Some("high_impedance") => SourceKind::HighImpedance,
         Some(other) => {
-            return Err(o.err("kind", &format!("'{other}' is not a sensor kind this version designs for; use \"single_ended\" or \"current_loop\"")))
+            return Err(o.err("kind", &format!("'{other}' is not a sensor kind this version designs for; use \"single_ended\", \"current_loop\" or \"high_impedance\"")))
         }
     };
     let q = kind.quantity();
@@ -469,8 +477,24 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
         None => None,
         Some(v) => Some(read_measurand(v)?),
     };
-    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high"])?;
-    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand, current_loop })
+    let capacitance = o.q("capacitance", Quantity::Capacitance)?;
+    match (kind, capacitance) {
+        (SourceKind::HighImpedance, c) => {
+            if !(impedance > 0.0) {
+                return Err(o.err("impedance", "is required for a high-impedance sensor: its source resistance, e.g. \"1 GΩ\" for a glass electrode"));
+            }
+            if c.is_some_and(|c| !(c >= 0.0)) {
+                return Err(o.err("capacitance", "must not be negative"));
+            }
+            if coupling == Coupling::Ac && !c.is_some_and(|c| c > 0.0) {
+                return Err(o.err("capacitance", "is required for an AC-coupled high-impedance sensor: the capacitance its signal sits behind, e.g. \"1 nF\" for a piezo film"));
+            }
+        }
+        (_, Some(_)) => return Err(o.err("capacitance", "applies only to a high-impedance sensor (source.kind = \"high_impedance\")")),
+        _ => {}
+    }
+    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high", "capacitance"])?;
+    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand, current_loop, capacitance })
 }
 
 /// The current-loop fields of `source`; the loop current flows into the measuring input.

@@ -19,6 +19,7 @@
 //! others, then a neighbour-step descent on the mapping error of the rounded circuit.
 
 pub mod ac;
+pub mod buffer;
 pub mod chain;
 pub mod dc;
 pub mod drive;

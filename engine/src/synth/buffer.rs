@@ -1,0 +1,249 @@
+//! The input buffer of a high-impedance sensor (`source.kind = "high_impedance"`): an
+//! ion-selective electrode, a piezo film or an electret capsule without its own amplifier,
+//! with a source resistance from megohms to teraohms. Nothing may load it, so it feeds a
+//! unity-gain follower (U1) directly; the gain stage is then synthesised for the follower's
+//! output, a stiff voltage source (`equivalent`), and the follower is put in front of it
+//! (`insert`). The analyses run on the whole circuit with the sensor's own model.
+//!
+//! **Sensor model.** DC coupling (electrodes): the EMF behind `RSENSE` (the source
+//! resistance) with `CSENSE` (electrode and cable capacitance) from the input to ground; the
+//! two roll the signal off at 1/(2π·R_s·C_s), which the `input_corner` check compares with
+//! band_high. AC coupling (piezo film, electret capsule): the EMF behind `CSENSE` (the
+//! capacitance the signal sits behind) with `RSENSE` across it (leakage).
+//!
+//! **Bias path** (AC coupling): the follower's + input needs a DC path; a resistor R_b to a
+//! reference (ground with split rails, otherwise half the positive rail from a divider with
+//! a bypass capacitor) gives it, and with C_s sets the low corner
+//! f_L = 1/(2π·(R_b ∥ R_s)·C_s). R_b is the smallest series value that puts f_L at or below
+//! band_low / 10, the rule the coupling capacitors follow. It may lie far above the
+//! resistor window (gigaohms are common here).
+//!
+//! **Bias current.** The follower's input bias current flows through the source (DC) or
+//! through R_b (AC): an offset of I_b·R at the input, checked against the span and one
+//! LSB referred to the sensor. The worst case and Monte Carlo include it as they include
+//! every amplifier's bias current.
+
+use serde::Serialize;
+
+use crate::amplifier::{Amplifier, Rails};
+use crate::circuit::{Circuit, Part, PartKind, Stage, StageRole, GND};
+use crate::diag::Check;
+use crate::request::{Coupling, Request, SourceKind};
+use crate::units::{format, Quantity};
+use crate::values;
+
+/// Each leg of the reference divider for the bias resistor (single supply), Ω.
+pub const REF_LEG: f64 = 100e3;
+/// Bypass of that reference, F (common practice).
+pub const REF_BYPASS: f64 = 100e-9;
+
+/// The designed buffer (`high_impedance` in the design output).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BufferDesign {
+    /// AC coupling: the bias resistor, Ω.
+    pub bias_resistor: Option<f64>,
+    /// The DC level of the sensor's return (its reference terminal or shield), V: ground, or
+    /// half the positive rail on a single supply when the follower could not otherwise
+    /// follow the sensor (DC) or to hold the input mid-rail (AC, with R_b to the same level).
+    pub return_level: f64,
+    /// The follower's input at the middle of the sensor's range, V.
+    pub input_level: f64,
+    /// AC coupling: the low corner the bias resistor and the sensor's capacitance set, Hz.
+    pub low_corner: Option<f64>,
+    /// DC coupling: where the source resistance and the capacitance at the input roll the
+    /// signal off, Hz (absent without a capacitance).
+    pub input_corner: Option<f64>,
+    /// Input offset from the amplifier's bias current through the source or R_b, V.
+    pub bias_error: f64,
+}
+
+/// The buffer for a high-impedance request; `None` for other kinds.
+pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<BufferDesign> {
+    let s = &req.source;
+    if s.kind != SourceKind::HighImpedance {
+        return None;
+    }
+    let cs = s.capacitance.unwrap_or(0.0);
+    let r_s = s.impedance;
+    let mid_rail = if rails.is_dual() { 0.0 } else { 0.5 * rails.pos };
+    match s.coupling {
+        Coupling::Dc => {
+            // The follower must pass the sensor's range: inside its input range and its
+            // output swing (with the synthesis margin); otherwise the return is lifted.
+            let (out_lo, out_hi) = amp.output_limits(rails);
+            let (in_lo, in_hi) = amp.input_limits(rails);
+            let m = super::SWING_MARGIN;
+            let fits = s.min >= out_lo.max(in_lo) + m && s.max <= out_hi.min(in_hi) - m;
+            let level = if fits { 0.0 } else { mid_rail };
+            Some(BufferDesign {
+            bias_resistor: None,
+            return_level: level,
+            input_level: level + 0.5 * (s.min + s.max),
+            low_corner: None,
+            input_corner: (cs > 0.0).then(|| 1.0 / (2.0 * std::f64::consts::PI * r_s * cs)),
+            bias_error: amp.bias_current * r_s,
+            })
+        }
+        Coupling::Ac => {
+            let want = 10.0 / (2.0 * std::f64::consts::PI * cs * s.band_low.max(1e-6));
+            let r_b = values::step_up(req.parts.resistor_series, want).unwrap_or(want);
+            let r_par = r_b * r_s / (r_b + r_s);
+            Some(BufferDesign {
+                bias_resistor: Some(r_b),
+                return_level: mid_rail,
+                input_level: mid_rail,
+                low_corner: Some(1.0 / (2.0 * std::f64::consts::PI * r_par * cs)),
+                input_corner: None,
+                bias_error: amp.bias_current * r_par,
+            })
+        }
+    }
+}
+
+/// The request the gain stage is synthesised for: the follower's output, a stiff DC source
+/// (the signal around the input's DC level for AC coupling).
+pub fn equivalent(req: &Request, b: &BufferDesign) -> Request {
+    let mut eq = req.clone();
+    let s = &req.source;
+    let mid = 0.5 * (s.min + s.max);
+    eq.source.min = b.input_level + (s.min - mid);
+    eq.source.max = b.input_level + (s.max - mid);
+    eq.source.kind = SourceKind::SingleEnded;
+    eq.source.coupling = Coupling::Dc;
+    eq.source.band_low = 0.0;
+    eq.source.impedance = 0.0;
+    eq.source.capacitance = None;
+    eq.source.measurand = None;
+    eq
+}
+
+/// Puts the follower (U1; the gain stage's amplifiers move up by one) and the bias path in
+/// front of the gain stage synthesised for [`equivalent`], and replaces the bench's sensor
+/// with the high-impedance model.
+pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rails) {
+    let s = &req.source;
+    circuit.parts.retain(|p| !(p.bench && (p.reference == "VSENSE" || p.reference == "RSENSE")));
+    let renumber = |d: &str| match d.strip_prefix('U').and_then(|n| n.parse::<u32>().ok()) {
+        Some(n) => format!("U{}", n + 1),
+        None => d.to_string(),
+    };
+    for p in circuit.parts.iter_mut().filter(|p| !p.bench) {
+        if p.kind == PartKind::OpAmp {
+            p.reference = renumber(&p.reference);
+        }
+        for n in p.nodes.iter_mut().filter(|n| *n == "sense" || *n == "emf") {
+            *n = "buf".to_string();
+        }
+    }
+    for st in circuit.stages.iter_mut() {
+        for d in st.parts.iter_mut() {
+            *d = renumber(d);
+        }
+    }
+    let gbw = circuit.amplifier.gbw;
+    let vneg = if rails.is_dual() { "vneg" } else { GND };
+    let mut bld = crate::circuit::Builder::resume(std::mem::take(&mut circuit.parts));
+    let mut parts = vec!["U1".to_string()];
+    bld.parts.push(Part {
+        reference: "U1".to_string(),
+        kind: PartKind::OpAmp,
+        value: gbw,
+        tolerance: None,
+        nodes: ["sense", "buf", "vpos", vneg, "buf"].iter().map(|n| n.to_string()).collect(),
+        stage: StageRole::Buffer,
+        purpose: "follower: takes no current from the sensor and drives the rest".to_string(),
+        bench: false,
+    });
+    let rtol = Some(req.parts.resistor_tolerance);
+    let ret = if b.return_level != 0.0 { "bref" } else { GND };
+    if let Some(r_b) = b.bias_resistor {
+        parts.push(bld.add(PartKind::Resistor, r_b, rtol, &["sense", ret], StageRole::Buffer, "bias resistor: the input's DC path; sets the low corner with the sensor's capacitance"));
+    }
+    {
+        if ret != GND {
+            parts.push(bld.add(PartKind::Resistor, REF_LEG, rtol, &["vpos", "bref"], StageRole::Buffer, "sensor return reference divider, upper leg"));
+            parts.push(bld.add(PartKind::Resistor, REF_LEG, rtol, &["bref", GND], StageRole::Buffer, "sensor return reference divider, lower leg"));
+            parts.push(bld.add(PartKind::Capacitor, REF_BYPASS, Some(req.parts.capacitor_tolerance), &["bref", GND], StageRole::Buffer, "sensor return reference bypass"));
+        }
+    }
+    let mid = 0.5 * (s.min + s.max);
+    let cs = s.capacitance.unwrap_or(0.0);
+    bld.bench("VSENSE", PartKind::VoltageSource, mid, &["emf", ret], StageRole::Sensor, "sensor EMF against its return (swept over the source range)");
+    bld.bench("RSENSE", PartKind::Resistor, s.impedance, &["emf", "sense"], StageRole::Sensor, if s.coupling == Coupling::Ac { "sensor leakage resistance" } else { "sensor source resistance" });
+    match s.coupling {
+        Coupling::Ac => bld.bench("CSENSE", PartKind::Capacitor, cs, &["emf", "sense"], StageRole::Sensor, "sensor capacitance (the signal sits behind it)"),
+        Coupling::Dc if cs > 0.0 => bld.bench("CSENSE", PartKind::Capacitor, cs, &["sense", ret], StageRole::Sensor, "sensor and cable capacitance at the input"),
+        Coupling::Dc => {}
+    }
+    circuit.parts = bld.parts;
+    let what = match b.bias_resistor {
+        Some(r) => format!("follower with a {} bias resistor to {}", format(r, Quantity::Resistance), format(b.return_level, Quantity::Voltage)),
+        None if b.return_level != 0.0 => format!("follower, the sensor's return lifted to {}", format(b.return_level, Quantity::Voltage)),
+        None => "follower: the sensor sees only the amplifier's input".to_string(),
+    };
+    circuit.stages.insert(0, Stage { role: StageRole::Buffer, description: what, parts });
+}
+
+/// Design equations of the buffer, with the numbers substituted.
+pub fn equations(req: &Request, b: &BufferDesign) -> Vec<String> {
+    let s = &req.source;
+    let cs = s.capacitance.unwrap_or(0.0);
+    let hz = |x: f64| format(x, Quantity::Frequency);
+    let mut e = vec!["U1 follows the sensor (unity gain, no resistor in the signal path); the gain stage works on its output".to_string()];
+    if b.return_level != 0.0 {
+        e.push(format!("the sensor's return sits at {} (a divider with a bypass), so the follower works inside its range", format(b.return_level, Quantity::Voltage)));
+    }
+    if let (Some(r_b), Some(f_l)) = (b.bias_resistor, b.low_corner) {
+        e.push(format!(
+            "R_b ≥ 10 / (2π·C_s·band_low) = 10 / (2π·{}·{}) → {}; f_L = 1/(2π·(R_b ∥ R_s)·C_s) = {}",
+            format(cs, Quantity::Capacitance),
+            hz(s.band_low),
+            format(r_b, Quantity::Resistance),
+            hz(f_l)
+        ));
+    }
+    if let Some(f_c) = b.input_corner {
+        e.push(format!("input corner 1/(2π·R_s·C_s) = 1/(2π·{}·{}) = {}", format(s.impedance, Quantity::Resistance), format(cs, Quantity::Capacitance), hz(f_c)));
+    }
+    e
+}
+
+/// Checks of the buffer: bias-current offset, the input corner, the low corner.
+pub fn checks(req: &Request, b: &BufferDesign, amp: &Amplifier) -> Vec<Check> {
+    let s = &req.source;
+    let span = s.max - s.min;
+    let lsb = span / 2f64.powi(req.destination.bits as i32);
+    let v = |x: f64| format(x, Quantity::Voltage);
+    let mut c = Vec::new();
+    let through = if b.bias_resistor.is_some() { "the bias resistor" } else { "the sensor's source resistance" };
+    let text = format!(
+        "The amplifier's bias current {} through {through} offsets the input by {} ({:.2} % of the sensor's span, {:.1} LSB referred to the sensor)",
+        format(amp.bias_current, Quantity::Current),
+        v(b.bias_error),
+        100.0 * b.bias_error / span,
+        b.bias_error / lsb
+    );
+    let needed = 0.5 * lsb / if b.bias_resistor.is_some() { b.bias_error / amp.bias_current.max(1e-18) } else { s.impedance };
+    c.push(if b.bias_error > 0.1 * span {
+        Check::error("bias_current", format!("{text}; choose an amplifier with a bias current below {} (electrometer-grade inputs have femtoamperes).", format(needed, Quantity::Current)))
+    } else if b.bias_error > lsb {
+        Check::warning("bias_current", format!("{text}; a calibration removes it at one temperature, but it doubles about every 10 °C; an amplifier below {} keeps it under ½ LSB.", format(needed, Quantity::Current)))
+    } else {
+        Check::ok("bias_current", format!("{text}."))
+    });
+    if let Some(f_c) = b.input_corner {
+        let msg = format!("The source resistance and the capacitance at the input roll the signal off at {}", format(f_c, Quantity::Frequency));
+        c.push(if f_c < s.band_high {
+            Check::warning("input_corner", format!("{msg}, below the band's top {}: the sensor and its cable limit the band, not the circuit. A shorter or lower-capacitance cable, or a driven guard (shield at the follower's output), raises it.", format(s.band_high, Quantity::Frequency)))
+        } else {
+            Check::ok("input_corner", format!("{msg}, above the band's top {}.", format(s.band_high, Quantity::Frequency)))
+        });
+    }
+    if let (Some(r_b), Some(f_l)) = (b.bias_resistor, b.low_corner) {
+        c.push(Check::ok(
+            "low_corner",
+            format!("The {} bias resistor and the sensor's capacitance set the low corner at {}, a tenth of band_low or lower.", format(r_b, Quantity::Resistance), format(f_l, Quantity::Frequency)),
+        ));
+    }
+    c
+}
