@@ -268,6 +268,22 @@ fn mapping_node(s: &Shown) -> Node {
             .child(el("h4").text(&format!("Loop: shunt {} = {}", l.shunt_ref, format(l.shunt, Quantity::Resistance))))
             .child(table("loop-bands", "loop-bands", &["Loop state", "Current", "Converter input", "Code"], rows));
     }
+    if let Some(b) = &s.design.high_impedance {
+        let hz = |f: f64| format(f, Quantity::Frequency);
+        let mut facts = vec![("Sensor return at", volts(b.return_level)), ("Offset from the bias current", volts(b.bias_error))];
+        if let Some(r) = b.bias_resistor {
+            facts.push(("Bias resistor", format(r, Quantity::Resistance)));
+        }
+        if let Some(f) = b.low_corner {
+            facts.push(("Low corner", hz(f)));
+        }
+        if let Some(f) = b.input_corner {
+            facts.push(("Input corner (source R and C)", hz(f)));
+        }
+        out = out
+            .child(el("h4").text("Input follower U1"))
+            .child(el_c("dl", "mapping").attr("data-testid", "buffer").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
+    }
     out
 }
 

@@ -135,6 +135,7 @@ impl Field {
         let current_loop = || text("source.kind") == "current_loop";
         match self.path {
             "source.burden_max" | "source.fault_low" | "source.fault_high" => current_loop(),
+            "source.capacitance" => text("source.kind") == "high_impedance",
             "source.coupling" | "source.impedance" | "source.band_low" => !current_loop(),
             "destination.modulator_rate" => oversampling(),
             "destination.acquisition_time" | "destination.input_capacitance" => !oversampling(),
@@ -154,6 +155,7 @@ pub const AMP_GIVEN: &str = "given";
 const KINDS: &[(&str, &str)] = &[
     ("single_ended", "Single-ended voltage (one signal wire against ground)"),
     ("current_loop", "Current loop (4–20 mA or another range), measured across a shunt"),
+    ("high_impedance", "High-impedance voltage (MΩ to TΩ: pH or ion electrode, piezo film, bare electret)"),
 ];
 const COUPLINGS: &[(&str, &str)] = &[
     ("dc", "Pass DC: the lowest output maps to the bottom of the converter range, the highest to the top"),
@@ -207,11 +209,12 @@ pub const FIELDS: &[Field] = &[
     field!("source.kind", "Kind of output", Kind::Choice(KINDS), Sensor, "Its output", false, "How the sensor presents its signal."),
     field!("source.min", "Lowest output", q(Quantity::Voltage), Sensor, "Its output", true, "The lowest instantaneous voltage, DC level included, e.g. 0.5 V or -2 V; for a current loop the lowest loop current, e.g. 4 mA."),
     field!("source.max", "Highest output", q(Quantity::Voltage), Sensor, "Its output", true, "The highest instantaneous voltage, DC level included, e.g. 4.5 V; for a current loop the highest loop current, e.g. 20 mA."),
+    field!("source.capacitance", "Sensor capacitance", q(Quantity::Capacitance), Sensor, "Its output", false, "DC coupling: electrode and cable capacitance to ground; AC coupling: the capacitance the signal sits behind (a piezo film's, e.g. 1 nF)."),
     field!("source.burden_max", "Largest voltage the loop allows across the input", q(Quantity::Voltage), Sensor, "Its output", false, "From the loop's supply and the transmitter's own drop, e.g. 5 V (a 250 Ω receiver at 20 mA)."),
     field!("source.fault_low", "Fault signalled below", q(Quantity::Current), Sensor, "Its output", false, "NAMUR NE 43: 3.6 mA for a 4–20 mA loop."),
     field!("source.fault_high", "Fault signalled above", q(Quantity::Current), Sensor, "Its output", false, "NAMUR NE 43: 21 mA for a 4–20 mA loop."),
     field!("source.coupling", "DC level", Kind::Choice(COUPLINGS), Sensor, "Its output", false, "Whether the sensor's DC level is part of the measurement."),
-    field!("source.impedance", "Output impedance", q(Quantity::Resistance), Sensor, "Its output", false, "What the sensor has in series with its output; it enters the gain. 0 Ω for a stiff output."),
+    field!("source.impedance", "Output impedance", q(Quantity::Resistance), Sensor, "Its output", false, "What the sensor has in series with its output; it enters the gain. 0 Ω for a stiff output; for a high-impedance sensor its source resistance, e.g. 500 MΩ."),
     field!("source.band_low", "Lowest frequency of interest", q(Quantity::Frequency), Sensor, "Band of interest", false, "Required when DC is blocked, e.g. 20 Hz. Leave empty to pass DC."),
     field!("source.band_high", "Highest frequency of interest", q(Quantity::Frequency), Sensor, "Band of interest", false, "Leave empty for a tenth of the sample rate."),
     field!("source.measurand.name", "Quantity measured", Kind::Text, Sensor, "What it measures (optional)", false, "e.g. pressure; used to scale converter codes back to it."),

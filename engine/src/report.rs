@@ -119,6 +119,9 @@ fn summary(h: &mut String, d: &Design) {
         None => {
             rows.push(("Coupling", coupling.to_string()));
             rows.push(("Sensor impedance", format(s.impedance, Quantity::Resistance)));
+            if let Some(c) = s.capacitance {
+                rows.push(("Sensor capacitance", format(c, Quantity::Capacitance)));
+            }
         }
     }
     rows.push(("Band", format!("{} … {}", hz(s.band_low), hz(s.band_high))));

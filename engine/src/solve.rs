@@ -37,8 +37,10 @@ use crate::circuit::{is_sensor_source, Circuit, PartKind, GND};
 
 /// Transconductance of the amplifier macro-model's input stage, A/V.
 pub const GM: f64 = 1e-3;
-/// Conductance from every node to ground, S (the SPICE default gmin).
-pub const GMIN: f64 = 1e-12;
+/// Conductance from every node to ground, S: keeps every node tied to something without
+/// loading any real one. Far below the SPICE default gmin (1e-12 S, which SPICE puts across
+/// junctions, not on every node), because a node behind a teraohm sensor would feel that.
+pub const GMIN: f64 = 1e-18;
 
 type C64 = Complex<f64>;
 

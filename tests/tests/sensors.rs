@@ -183,3 +183,128 @@ fn loop_fields_are_read_and_refused_by_name() {
     rows.push(row("0–10 mA: fault_high", spec.fault_high, 10.625e-3, 1e-15, "README: NE 43 fractions"));
     check(&rows);
 }
+
+// ---------------------------------------------------------------------------------------
+// High-impedance sensors
+
+/// v(adc) from ngspice at DC for each sensor EMF (`VSENSE` altered, operating point).
+fn spice_dc(tag: &str, d: &Design, emfs: &[f64]) -> Vec<f64> {
+    let net = netlist(&d.request, d.circuit.as_ref().expect("circuit"), NetlistConfig { testbench: false });
+    let body = net.trim_end().strip_suffix(".end").expect("netlist ends with .end");
+    let mut control = String::new();
+    for v in emfs {
+        control.push_str(&format!("alter VSENSE dc = {v:e}\nop\nprint v(adc)\n"));
+    }
+    // Gigaohm nodes carry currents near ngspice's default abstol (1 pA) and its default
+    // reltol (1e-3) stops Newton early: tighter tolerances for this comparison.
+    let deck = format!("{body}.options reltol=1e-7 abstol=1e-18 vntol=1e-10\n.control\n{control}quit\n.endc\n.end\n");
+    let (ok, stdout, stderr) = run_ngspice(tag, &deck);
+    assert!(ok, "[{tag}] ngspice failed:\n{stderr}\n{deck}");
+    let v: Vec<f64> = stdout.lines().filter_map(|l| l.trim().strip_prefix("v(adc) = ").and_then(|x| x.trim().parse().ok())).collect();
+    assert_eq!(v.len(), emfs.len(), "[{tag}] ngspice printed:\n{stdout}");
+    v
+}
+
+/// |v(adc)| from ngspice for a 1 V AC sensor EMF at `f` Hz.
+fn spice_ac_gain(tag: &str, d: &Design, f: f64) -> f64 {
+    let net = netlist(&d.request, d.circuit.as_ref().expect("circuit"), NetlistConfig { testbench: false });
+    let body = net.trim_end().strip_suffix(".end").expect("netlist ends with .end");
+    let deck = format!("{body}.control\nac lin 1 {f:e} {f:e}\nprint vr(adc) vi(adc)\nquit\n.endc\n.end\n");
+    let (ok, stdout, stderr) = run_ngspice(tag, &deck);
+    assert!(ok, "[{tag}] ngspice failed:\n{stderr}\n{deck}");
+    let pick = |name: &str| stdout.lines().find_map(|l| l.trim().strip_prefix(name).and_then(|x| x.trim().parse::<f64>().ok())).unwrap_or_else(|| panic!("[{tag}] no {name}:\n{stdout}"));
+    pick("vr(adc) = ").hypot(pick("vi(adc) = "))
+}
+
+const PH: &str = r#"{"name": "Aquarium pH electrode", "source": {"kind": "high_impedance", "min": "-0.25 V", "max": "0.25 V", "impedance": "300 MΩ", "capacitance": "150 pF", "band_high": "0.2 Hz"},
+    "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "5 Hz"}, "supplies": [3.3], "parts": {"resistor_series": "E96"}}"#;
+const FILM: &str = r#"{"name": "Footbridge vibration film", "source": {"kind": "high_impedance", "min": -0.5, "max": 0.5, "coupling": "ac", "impedance": "10 GΩ", "capacitance": "1.5 nF", "band_low": "2 Hz", "band_high": "500 Hz"},
+    "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "5 kHz"}, "supplies": [3.3]}"#;
+
+#[test]
+fn the_buffer_follows_the_rules_and_ngspice() {
+    use std::f64::consts::PI;
+    const SRC: &str = "ngspice (Debian ngspice-39) on the exported netlist";
+    let mut rows = Vec::new();
+    // DC: an electrode that swings below ground on a single 3.3 V rail; its return is lifted.
+    let d = design(&request(PH));
+    let b = d.high_impedance.as_ref().expect("buffer design");
+    let amp = &d.amplifier;
+    rows.push(row("pH: return lifted to half the rail", b.return_level, 1.65, 1e-12, "design contract: the follower cannot go below its swing"));
+    rows.push(row("pH: input corner 1/(2π R_s C_s)", b.input_corner.unwrap_or(f64::NAN), 1.0 / (2.0 * PI * 300e6 * 150e-12), 1e-9, "first-order RC, closed form"));
+    rows.push(row("pH: bias offset I_b·R_s", b.bias_error, amp.bias_current * 300e6, 1e-15, "Ohm's law"));
+    let c = d.circuit.as_ref().expect("circuit");
+    let u1 = c.part("U1").expect("U1");
+    rows.push(fact("pH: U1 is a follower on the sensor terminal", u1.stage == StageRole::Buffer && u1.nodes[0] == "sense" && u1.nodes[1] == u1.nodes[4], "design contract"));
+    rows.push(fact("pH: nothing but U1 and the cable capacitance touches the sensor terminal", c.parts.iter().filter(|p| p.nodes.iter().any(|n| n == "sense")).all(|p| p.reference == "U1" || p.reference == "RSENSE" || p.reference == "CSENSE"), "design contract"));
+    let p = d.predicted.expect("predicted");
+    let spice = spice_dc("ph", &d, &[-0.25, 0.25]);
+    rows.push(row("pH: output at min", p.output_at_min, spice[0], 1e-4 * 3.3, SRC));
+    rows.push(row("pH: output at max", p.output_at_max, spice[1], 1e-4 * 3.3, SRC));
+    // AC: a piezo film behind 1.5 nF, bias resistor from the band_low/10 rule (IEC 60063 E24).
+    let d = design(&request(FILM));
+    let b = d.high_impedance.as_ref().expect("buffer design");
+    // R_b ∥ R_s ≥ 10/(2π C_s band_low): R_b ≥ want·R_s/(R_s − want), then E24 upwards.
+    let want = 10.0 / (2.0 * PI * 1.5e-9 * 2.0);
+    let need = want * 10e9 / (10e9 - want);
+    let r_b = rangefit_engine::values::step_up(rangefit_engine::values::Series::E24, need).expect("E24 value");
+    rows.push(row("film: bias resistor, smallest E24 value with R_b ∥ R_s ≥ 10/(2π C_s band_low)", b.bias_resistor.unwrap_or(f64::NAN), r_b, 1e-9 * r_b, "IEC 60063 E24; band_low/10 rule (README)"));
+    let par = r_b * 10e9 / (r_b + 10e9);
+    rows.push(row("film: low corner 1/(2π (R_b ∥ R_s) C_s)", b.low_corner.unwrap_or(f64::NAN), 1.0 / (2.0 * PI * par * 1.5e-9), 1e-9, "first-order RC, closed form"));
+    rows.push(fact("film: low corner at or below band_low / 10", b.low_corner.unwrap_or(f64::INFINITY) <= 0.2 + 1e-9, "README rule"));
+    let p = d.predicted.expect("predicted");
+    let f_mid = (2.0f64 * 500.0).sqrt();
+    let g = spice_ac_gain("film", &d, f_mid);
+    rows.push(row("film: mid-band gain", p.gain.abs(), g, 1e-3 * g, SRC));
+    check(&rows);
+}
+
+/// High-impedance sensors the other tests do not hold, from a seeded generator
+/// (rand_chacha ChaCha8Rng, seed 1e9): DC electrodes with and without a lifted return.
+#[test]
+fn random_electrodes_map_as_predicted() {
+    const SRC: &str = "ngspice (Debian ngspice-39) operating point of the exported netlist";
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(1_000_000_000);
+    let mut rows = Vec::new();
+    let mut simulated = 0;
+    for i in 0..8 {
+        let min: f64 = rng.random_range(-0.5..1.0);
+        let max = min + rng.random_range(0.05..1.0);
+        let r_s = 10f64.powf(rng.random_range(6.0..10.0));
+        let c_s = 10f64.powf(rng.random_range(-11.0..-9.0));
+        let (supplies, dmin, dmax) = [("[3.3]", 0.0, 3.3), ("[5]", 0.0, 5.0), ("[5, -5]", -2.5, 2.5)][rng.random_range(0..3)];
+        let json = format!(
+            r#"{{"name": "Random electrode {i}", "source": {{"kind": "high_impedance", "min": {min:.4}, "max": {max:.4}, "impedance": {r_s:.4e}, "capacitance": {c_s:.4e}, "band_high": 0.5}},
+            "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": 10}}, "supplies": {supplies}}}"#
+        );
+        let d = design(&request(&json));
+        let (Some(p), Some(_)) = (d.predicted, d.circuit.as_ref()) else { continue };
+        simulated += 1;
+        let what = format!("electrode {i} ({min:.3}…{max:.3} V, {r_s:.2e} Ω, rails {supplies})");
+        // The request holds the values as written (four decimals): simulate those.
+        let spice = spice_dc(&format!("electrode-{i}"), &d, &[d.request.source.min, d.request.source.max]);
+        println!("{what}: predicted {:.5} … {:.5} V, ngspice {:.5} … {:.5} V", p.output_at_min, p.output_at_max, spice[0], spice[1]);
+        let span = dmax - dmin;
+        rows.push(row(format!("{what}: output at min"), p.output_at_min, spice[0], 1e-4 * span, SRC));
+        rows.push(row(format!("{what}: output at max"), p.output_at_max, spice[1], 1e-4 * span, SRC));
+    }
+    rows.push(fact(format!("at least 6 of 8 random electrodes built ({simulated})"), simulated >= 6, "test design"));
+    check(&rows);
+}
+
+#[test]
+fn high_impedance_fields_are_read_and_refused_by_name() {
+    let base = |source: &str| format!(r#"{{"source": {source}, "destination": {{"min": 0, "max": 3.3, "sample_rate": 100}}, "supplies": [3.3]}}"#);
+    let cases = [
+        (r#"{"kind": "high_impedance", "min": 0, "max": 1}"#, "source.impedance"),
+        (r#"{"kind": "high_impedance", "min": 0, "max": 1, "impedance": "1G", "coupling": "ac", "band_low": 1}"#, "source.capacitance"),
+        (r#"{"kind": "high_impedance", "min": 0, "max": 1, "impedance": "1G", "capacitance": "-1 pF"}"#, "source.capacitance"),
+        (r#"{"min": 0, "max": 1, "capacitance": "1 nF"}"#, "source.capacitance"),
+    ];
+    let mut rows = Vec::new();
+    for (source, field) in cases {
+        let got = Request::from_json(&base(source)).err().map(|e| e.field);
+        rows.push(fact(format!("{source} → error on {field} (got {got:?})"), got.as_deref() == Some(field), "request contract"));
+    }
+    check(&rows);
+}

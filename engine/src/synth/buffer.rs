@@ -85,8 +85,11 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<BufferDesign
             })
         }
         Coupling::Ac => {
+            // R_b ∥ R_s must reach `want`: R_b ≥ want·R_s/(R_s − want) (when the leakage
+            // alone is lower than that, the largest series value is the best there is).
             let want = 10.0 / (2.0 * std::f64::consts::PI * cs * s.band_low.max(1e-6));
-            let r_b = values::step_up(req.parts.resistor_series, want).unwrap_or(want);
+            let need = if r_s > want { want * r_s / (r_s - want) } else { 1e12 };
+            let r_b = values::step_up(req.parts.resistor_series, need.min(1e12)).unwrap_or(need);
             let r_par = r_b * r_s / (r_b + r_s);
             Some(BufferDesign {
                 bias_resistor: Some(r_b),
