@@ -37,6 +37,7 @@
 use serde::Serialize;
 
 mod annotate;
+mod buffer;
 mod chain;
 mod plan;
 mod rows;
@@ -47,6 +48,7 @@ use crate::circuit::{Circuit, Part, PartKind, GND};
 use crate::request::{Coupling, Request};
 use crate::solve::{DcSolution, Solver};
 use crate::units::{format, Quantity};
+use buffer::Buffer;
 use chain::Chain;
 use plan::Plan;
 use sheet::{Sheet, INK};
@@ -167,9 +169,22 @@ pub fn schematic(circuit: &Circuit, op: Option<&DcSolution>, ranges: &[TestPoint
     cfg.font_size = if cfg.font_size.is_finite() { cfg.font_size.clamp(8.0, 24.0) } else { 13.0 };
     cfg.line_width = if cfg.line_width.is_finite() { cfg.line_width.clamp(1.5, 4.0) } else { 1.8 };
     let mut sh = Sheet::new(circuit, op, cfg);
-    let plan = Plan::of(circuit, &sh.rails);
+    let buffer = Buffer::of(circuit, &sh.rails);
+    let (start, skip) = match &buffer {
+        Some(b) => (b.out.clone(), b.parts()),
+        None => ("sense".to_string(), Vec::new()),
+    };
+    let plan = Plan::of(circuit, &sh.rails, &start, &skip);
     let x_term = sh.sensor();
-    let x_line = sh.series(&plan, x_term);
+    let x_line = match &buffer {
+        Some(b) => {
+            // The gain stage's own row: room above its line for the loops drawn there.
+            let top = if plan.bottom == plan.inn && plan.inn != plan.out { 80.0 } else { 140.0 };
+            let tip = sh.buffer_row(b, x_term, top);
+            sh.series(&plan, tip, sheet::TP_GAP / 2.0)
+        }
+        None => sh.series(&plan, x_term, sheet::TP_GAP),
+    };
     let out = sh.amp_stage(&plan, x_line);
     let at = out.map(|o| {
         let mut used = sh.done.clone();

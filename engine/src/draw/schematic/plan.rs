@@ -33,7 +33,9 @@ pub(super) struct Plan {
     /// The input the sensor feeds (drawn on the signal line) and the other one.
     pub(super) top: String,
     pub(super) bottom: String,
-    /// A series path joins the sensor terminal to `top`.
+    /// Where the series path starts: the sensor terminal, or a buffer's output.
+    pub(super) start: String,
+    /// A series path joins `start` to `top`.
     pub(super) connected: bool,
     pub(super) series: Vec<Step>,
     pub(super) top_legs: Vec<Leg>,
@@ -65,14 +67,21 @@ pub(super) fn plain(p: &Part) -> bool {
 
 
 impl Plan {
-    pub(super) fn of(c: &Circuit, rails: &[Rail]) -> Plan {
-        let Some(u) = c.parts.iter().position(|p| p.kind == PartKind::OpAmp && p.nodes.len() >= 5 && !p.bench) else {
-            return Plan::default();
+    /// The gain stage fed from node `start` (the sensor terminal, or a buffer's output);
+    /// parts `skip` belong to another block (the buffer) and are left alone.
+    pub(super) fn of(c: &Circuit, rails: &[Rail], start: &str, skip: &[usize]) -> Plan {
+        let Some(u) = c.parts.iter().enumerate().position(|(i, p)| p.kind == PartKind::OpAmp && p.nodes.len() >= 5 && !p.bench && !skip.contains(&i)) else {
+            return Plan { start: start.to_string(), ..Plan::default() };
         };
         let nodes = &c.parts[u].nodes;
-        let mut plan = Plan { amp: Some(u), inp: nodes[0].clone(), inn: nodes[1].clone(), out: nodes[4].clone(), ..Plan::default() };
+        let mut plan = Plan { amp: Some(u), inp: nodes[0].clone(), inn: nodes[1].clone(), out: nodes[4].clone(), start: start.to_string(), ..Plan::default() };
         let terminal = |n: &str| n == GND || rails.iter().any(|r| r.node == n);
         let mut used = vec![false; c.parts.len()];
+        for &i in skip {
+            if let Some(x) = used.get_mut(i) {
+                *x = true;
+            }
+        }
         used[u] = true;
         if plan.inn != plan.out {
             for (i, p) in c.parts.iter().enumerate() {
@@ -84,11 +93,11 @@ impl Plan {
         }
         let (inp, inn, out) = (plan.inp.clone(), plan.inn.clone(), plan.out.clone());
         let blocked = |n: &str, avoid: &str| terminal(n) || n == out || n == "emf" || n == avoid;
-        let (top, series, connected) = if inp == "sense" || inn == "sense" {
-            ("sense".to_string(), Vec::new(), true)
-        } else if let Some(s) = path(c, &inp, &|n| blocked(n, &inn), &used) {
+        let (top, series, connected) = if inp == start || inn == start {
+            (start.to_string(), Vec::new(), true)
+        } else if let Some(s) = path(c, start, &inp, &|n| blocked(n, &inn), &used) {
             (inp.clone(), s, true)
-        } else if let Some(s) = path(c, &inn, &|n| blocked(n, &inp), &used) {
+        } else if let Some(s) = path(c, start, &inn, &|n| blocked(n, &inp), &used) {
             (inn.clone(), s, true)
         } else {
             (inp.clone(), Vec::new(), false)
@@ -100,7 +109,7 @@ impl Plan {
         plan.top = top;
         plan.series = series;
         plan.connected = connected;
-        let special = [plan.inp.clone(), plan.inn.clone(), plan.out.clone(), "sense".to_string(), "emf".to_string()];
+        let special = [plan.inp.clone(), plan.inn.clone(), plan.out.clone(), "sense".to_string(), "emf".to_string(), start.to_string()];
         plan.top_legs = legs(c, &plan.top, true, &mut used, &terminal, &special);
         if plan.bottom != plan.out && plan.bottom != plan.top {
             plan.bottom_legs = legs(c, &plan.bottom, false, &mut used, &terminal, &special);
@@ -109,9 +118,9 @@ impl Plan {
     }
 }
 
-/// Shortest chain of unused parts from the sensor terminal to `target`.
-pub(super) fn path(c: &Circuit, target: &str, blocked: &dyn Fn(&str) -> bool, used: &[bool]) -> Option<Vec<Step>> {
-    let mut seen: Vec<(String, Option<(usize, String)>)> = vec![("sense".to_string(), None)];
+/// Shortest chain of unused parts from node `start` to `target`.
+pub(super) fn path(c: &Circuit, start: &str, target: &str, blocked: &dyn Fn(&str) -> bool, used: &[bool]) -> Option<Vec<Step>> {
+    let mut seen: Vec<(String, Option<(usize, String)>)> = vec![(start.to_string(), None)];
     let mut head = 0;
     while head < seen.len() {
         let at = seen[head].0.clone();

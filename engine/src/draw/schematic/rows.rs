@@ -30,7 +30,7 @@ pub(super) const X_MAX: f64 = 1080.0;
 /// Signal line between two blocks, and before a continuation flag.
 const GAP: f64 = 40.0;
 /// Room between the lowest stroke of a row and the top of the next (for labels under it).
-const ROW_GAP: f64 = 56.0;
+pub(super) const ROW_GAP: f64 = 56.0;
 /// Loops above the line: a Sallen-Key section's C_f; a multiple-feedback section's C_f and R2.
 const LOOP: f64 = 80.0;
 const MFB_INNER: f64 = 65.0;
@@ -186,7 +186,7 @@ impl Sheet<'_> {
     }
 
     /// A continuation flag from `x` pointing along the signal, holding `net`; returns its tip.
-    fn flag(&mut self, x: f64, y: f64, net: &str) -> f64 {
+    pub(super) fn flag(&mut self, x: f64, y: f64, net: &str) -> f64 {
         let fs = self.cfg.font_size;
         let w = self.flag_width(net) - 10.0;
         let pen = self.pen(false);

@@ -86,6 +86,13 @@ pub(super) struct Sheet<'a> {
     pub(super) row_top: f64,
     /// Section captions waiting for their spot: lines, left x, top.
     pub(super) captions: Vec<(Vec<String>, f64, f64)>,
+    /// Signal line of the gain stage: [`Y0`], or a row of its own below a buffer.
+    pub(super) line: f64,
+    /// Right end of what precedes the gain stage on its row (sensor box or flag): a
+    /// reference block hanging leftward stays clear of it.
+    pub(super) left: f64,
+    /// The sensor's return terminal when it is not ground (a lifted return): point and node.
+    pub(super) ret_at: Option<(Pt, String)>,
 }
 
 impl<'a> Sheet<'a> {
@@ -125,6 +132,9 @@ impl<'a> Sheet<'a> {
             row_top: 0.0,
             quiet: Vec::new(),
             captions: Vec::new(),
+            line: Y0,
+            left: X0 + SENSOR_W,
+            ret_at: None,
         }
     }
 
@@ -268,6 +278,9 @@ impl<'a> Sheet<'a> {
 
     /// The sensor block: EMF behind its impedance in a dashed box; returns the terminal's x.
     pub(super) fn sensor(&mut self) -> f64 {
+        if let Some(right) = self.high_impedance_sensor() {
+            return right;
+        }
         let right = X0 + SENSOR_W;
         let y = Y0;
         let c = self.c;
@@ -303,12 +316,13 @@ impl<'a> Sheet<'a> {
     }
 
     /// The series path along the signal line; returns where the input line begins.
-    pub(super) fn series(&mut self, plan: &Plan, x_term: f64) -> f64 {
-        let y = Y0;
-        let mut x = x_term + TP_GAP;
-        self.wire((x_term, y), (x, y), "sense", false);
+    /// `run`: the free line from `x_term` (where the sensor's test point goes).
+    pub(super) fn series(&mut self, plan: &Plan, x_term: f64, run: f64) -> f64 {
+        let y = self.line;
+        let mut x = x_term + run;
+        self.wire((x_term, y), (x, y), &plan.start, false);
         if !plan.connected {
-            self.terminal((x, y), "sense", true);
+            self.terminal((x, y), &plan.start, true);
             x += 50.0;
             self.terminal((x, y), &plan.top, true);
             return x;
@@ -367,13 +381,14 @@ impl<'a> Sheet<'a> {
     /// The amplifier stage: legs, amplifier, feedback; returns the converter's input point.
     pub(super) fn amp_stage(&mut self, plan: &Plan, x_line: f64) -> Option<(f64, f64, String)> {
         let u = plan.amp?;
-        let (yt, yb, yo) = (Y0, Y0 + 40.0, Y0 + 20.0);
+        let y0 = self.line;
+        let (yt, yb, yo) = (y0, y0 + 40.0, y0 + 20.0);
         let mut cols = Vec::new();
         let mut x = x_line + 45.0;
         for leg in &plan.top_legs {
             if let Some(b) = &leg.block {
                 let n = b.iter().filter(|s| self.positive_rail(&s.to)).count().max(b.iter().filter(|s| !self.positive_rail(&s.to)).count());
-                x = x.max(X0 + SENSOR_W + 70.0 + n as f64 * PITCH);
+                x = x.max(self.left + 70.0 + n as f64 * PITCH);
             }
             self.leg(leg, x, yt, true);
             cols.push(x);
@@ -402,7 +417,7 @@ impl<'a> Sheet<'a> {
             }
         }
         // Feedback loops: below the amplifier to the lower input, above it to the upper one.
-        let (dir, base, y_in) = if fb_bottom { (1.0, Y0 + 135.0, yb) } else { (-1.0, Y0 - 90.0, yt) };
+        let (dir, base, y_in) = if fb_bottom { (1.0, y0 + 135.0, yb) } else { (-1.0, y0 - 90.0, yt) };
         let xr = x_out + 30.0;
         let loops: Vec<Option<usize>> = if plan.inn == plan.out { vec![None] } else { plan.feedback.iter().map(|&i| Some(i)).collect() };
         let (mut yl, mut yr) = (y_in, yo);
@@ -436,7 +451,7 @@ impl<'a> Sheet<'a> {
             Some(a) => a,
             None => {
                 let right = self.svg.bounds().map(|b| b.2).unwrap_or(X0) + 80.0;
-                (right, Y0 + 20.0, if plan.out.is_empty() { "adc".to_string() } else { plan.out.clone() })
+                (right, self.line + 20.0, if plan.out.is_empty() { "adc".to_string() } else { plan.out.clone() })
             }
         };
         let area = BoxRect::new(xa, y - 45.0, 120.0, 180.0);
