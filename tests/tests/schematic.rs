@@ -165,7 +165,9 @@ fn check(what: &str, c: &Circuit, s: &Schematic, req: Option<&Request>) {
     // the converter box may take a row of its own: ⌈sections / 2⌉ + 1 rows at most.
     let sections = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter).count();
     let drive = c.parts.iter().any(|p| p.stage == StageRole::Drive);
-    let rows = if sections + drive as usize == 0 { 0 } else { sections.div_ceil(2) + 1 };
+    // A high-impedance sensor's follower takes a row of its own before the gain stage's.
+    let buffer = c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Buffer) as usize;
+    let rows = if sections + drive as usize == 0 { 0 } else { sections.div_ceil(2) + 1 } + buffer;
     let tall = 700.0 + 450.0 * rows as f64;
     assert!(view[2] <= 1100.0 && view[3] <= tall, "{what}: viewBox {} × {} is larger than 1100 × {tall}", view[2], view[3]);
     for n in doc.descendants().filter(|n| n.has_tag_name("text")) {
@@ -662,5 +664,105 @@ fn filter_and_drive_are_drawn_by_role() {
         let (req, c, _) = designed(json);
         let s = draw(&req, &c, what);
         check_chain(what, &req, &c, &s, want);
+    }
+}
+
+/// A high-impedance request of our own (sensor range, coupling, source resistance and
+/// capacitance, band, converter range, supplies).
+#[allow(clippy::too_many_arguments)]
+fn high_impedance(name: &str, min: f64, max: f64, coupling: &str, source: (&str, &str), band: (&str, &str), dest: (f64, f64), supplies: &str) -> String {
+    format!(
+        r#"{{"version":1,"name":"{name}","source":{{"kind":"high_impedance","min":{min},"max":{max},"coupling":"{coupling}","impedance":"{}","capacitance":"{}","band_low":"{}","band_high":"{}"}},
+        "destination":{{"min":{},"max":{},"bits":12,"sample_rate":"5 kHz"}},"supplies":{supplies}}}"#,
+        source.0, source.1, band.0, band.1, dest.0, dest.1
+    )
+}
+
+/// Every point a part's group draws through (lines, circles, polygons).
+fn group_points(g: roxmltree::Node) -> Vec<(f64, f64)> {
+    let mut v = Vec::new();
+    for n in g.descendants().filter(|n| n.is_element()) {
+        match n.tag_name().name() {
+            "line" => v.extend([(num(&n, "x1"), num(&n, "y1")), (num(&n, "x2"), num(&n, "y2"))]),
+            "circle" => v.push((num(&n, "cx"), num(&n, "cy"))),
+            "polygon" | "polyline" => v.extend(
+                n.attribute("points").unwrap_or("").split_whitespace().filter_map(|xy| xy.split_once(',')).map(|(x, y)| (x.parse().unwrap(), y.parse().unwrap())),
+            ),
+            _ => {}
+        }
+    }
+    v
+}
+
+/// The one check of a high-impedance front end: the drawing passes [`check`]; every part is
+/// drawn by role (no fallback area); the follower is a triangle and carries its designator
+/// and GBW line; the sensor box (the dashed rectangle) holds VSENSE, RSENSE and CSENSE; a
+/// lifted return shows its node's name, a return at ground none; the follower's output
+/// continues to the gain stage's row through a pair of flags.
+fn check_buffer(what: &str, req: &Request, c: &Circuit, s: &Schematic, lifted: bool) {
+    check(what, c, s, Some(req));
+    let doc = roxmltree::Document::parse(&s.svg).unwrap();
+    let words = texts(&doc);
+    // Design contract (synth::buffer::insert): U1 is the follower of the buffer stage, + at
+    // the sensor terminal, − tied to its output.
+    let u1 = c.parts.iter().find(|p| p.reference == "U1").unwrap_or_else(|| panic!("{what}: no U1"));
+    assert_eq!((u1.kind, u1.stage), (PartKind::OpAmp, StageRole::Buffer), "{what}: U1 is not the buffer");
+    assert_eq!((u1.nodes[0].as_str(), u1.nodes[1] == u1.nodes[4]), ("sense", true), "{what}: U1 is not a follower at sense");
+    // Every part placed by role: nothing in the fallback area.
+    assert!(!words.iter().any(|t| t.starts_with("Not placed")), "{what}: a part fell back");
+    let group = |r: &str| doc.descendants().find(|n| n.has_tag_name("g") && n.attribute("class") == Some("part") && n.attribute("data-ref") == Some(r));
+    for p in &c.parts {
+        if !(p.bench && p.stage == StageRole::Supply) {
+            assert!(group(&p.reference).is_some(), "{what}: {} not drawn", p.reference);
+        }
+    }
+    // IEC 60617: the amplifier is a triangle; labelled like the other amplifiers (common
+    // practice: designator and the requirement on it).
+    let g = group("U1").unwrap_or_else(|| panic!("{what}: U1 not drawn"));
+    assert!(g.children().any(|k| k.has_tag_name("polygon") && k.attribute("points").is_some_and(|p| p.split_whitespace().count() == 3)), "{what}: U1 has no triangle");
+    assert!(words.iter().any(|w| w == "U1") && words.iter().filter(|w| w.starts_with("GBW ≥")).count() >= 2, "{what}: U1 unlabelled");
+    // Design contract: the bench's sensor model is VSENSE, RSENSE and CSENSE; drawn inside
+    // the dashed sensor box (the bench shown apart from what is built, common practice).
+    let bx = doc.descendants().find(|n| n.attribute("stroke-dasharray").is_some()).expect("sensor box");
+    let corners = group_points(bx).into_iter();
+    let (x0, x1, y0, y1) = corners.fold((f64::MAX, f64::MIN, f64::MAX, f64::MIN), |(a, b, c, d), (x, y)| (a.min(x), b.max(x), c.min(y), d.max(y)));
+    let (w, h) = (x1 - x0, y1 - y0);
+    for r in ["VSENSE", "RSENSE", "CSENSE"] {
+        let g = group(r).unwrap_or_else(|| panic!("{what}: {r} not drawn"));
+        for (x, y) in group_points(g) {
+            assert!((x0 - 0.5..=x0 + w + 0.5).contains(&x) && (y0 - 0.5..=y0 + h + 0.5).contains(&y), "{what}: {r} outside the sensor box at ({x}, {y})");
+        }
+    }
+    // Design contract: the return is `bref` when lifted off ground, then named on the sheet.
+    assert_eq!(c.nodes().iter().any(|n| n == "bref"), lifted, "{what}: return lifted?");
+    assert_eq!(words.iter().any(|w| w == "bref"), lifted, "{what}: return terminal's name");
+    // Continuation: the follower's output leaves its row in a flag and the gain row starts
+    // from one (two flags holding "buf").
+    let flags = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("text") && n.text() == Some(u1.nodes[4].as_str()))
+        .count();
+    assert!(flags >= 2, "{what}: {} flags for the follower's output", flags);
+}
+
+#[test]
+fn high_impedance_front_ends_are_drawn_by_role() {
+    let ph = demos::ALL.iter().find(|d| d.id == "greenhouse-ph").expect("pH demo").json;
+    let rows: Vec<(&str, String, bool)> = vec![
+        // The demo: ±0.3 V about ground on one 3.3 V supply; the follower cannot reach ground,
+        // so the return is lifted to half the rail (synth::buffer::plan).
+        ("pH electrode, DC, return lifted", ph.to_string(), true),
+        // 0.2 … 1 V fits the follower on 3.3 V: the return stays at ground, CSENSE shunts the
+        // terminal to ground.
+        ("electrode, DC, return at ground", high_impedance("dc ground", 0.2, 1.0, "dc", ("100 MΩ", "100 pF"), ("0 Hz", "10 Hz"), (0.0, 3.3), "[3.3]"), false),
+        // A piezo film on one supply: R_b to the mid-rail return, divider with its bypass.
+        ("piezo film, AC, one supply", high_impedance("ac single", -0.5, 0.5, "ac", ("10 GΩ", "1.5 nF"), ("2 Hz", "500 Hz"), (0.0, 3.3), "[3.3]"), true),
+        // Split rails: R_b and the return to ground, no divider.
+        ("piezo film, AC, split rails", high_impedance("ac dual", -0.5, 0.5, "ac", ("10 GΩ", "1.5 nF"), ("2 Hz", "500 Hz"), (-2.0, 2.0), "[5, -5]"), false),
+    ];
+    for (what, json, lifted) in &rows {
+        let (req, c, _) = designed(json);
+        let s = draw(&req, &c, what);
+        check_buffer(what, &req, &c, &s, *lifted);
     }
 }
