@@ -18,7 +18,9 @@
 //! below the leg it feeds, feedback looping round the amplifier) → filter sections (each
 //! with its amplifier, captioned with the model's words) → drive (series resistor, charge
 //! bucket and clamp at the pin) → converter input (a box with its input impedance). The
-//! gain stage has the first row; what follows it goes on rows below, at least two sections
+//! gain stage has the first row (after a high-impedance sensor's follower, which takes the
+//! first row with the bias path and the lifted return, the gain stage starts the second
+//! from a flag; see `buffer`); what follows it goes on rows below, at least two sections
 //! to a row, within 1100 user units of width (see `rows`). A new stage kind is a new block
 //! in that sequence. Any part the blocks cannot place by role goes into a fallback area
 //! below the drawing with its node names: never dropped. The bench (sensor, supplies,

@@ -1,5 +1,6 @@
 //! Placement by role: for the first amplifier, which input the sensor feeds (drawn on the
-//! signal line) and which is the other; the series path from the sensor terminal to it; the
+//! signal line) and which is the other; the series path to it from the sensor terminal (or
+//! from a buffer's output); the
 //! legs hanging from each input line (a part or a chain of two to a rail or ground, or one
 //! part to a node tied to rails and ground by several parts — a reference divider with its
 //! bypass); the feedback parts. What matches no role is left for the fallback area.
