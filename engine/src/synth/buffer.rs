@@ -42,10 +42,12 @@ pub const REF_BYPASS: f64 = 100e-9;
 pub struct BufferDesign {
     /// AC coupling: the bias resistor, Ω.
     pub bias_resistor: Option<f64>,
-    /// The DC level of the sensor's return (its reference terminal or shield), V: ground, or
-    /// half the positive rail on a single supply when the follower could not otherwise
-    /// follow the sensor (DC) or to hold the input mid-rail (AC, with R_b to the same level).
+    /// The DC level R_b holds the input at (AC coupling), V: ground with split rails, half
+    /// the positive rail from a divider otherwise.
     pub return_level: f64,
+    /// DC coupling: whether the follower can pass the sensor's range on these rails (on a
+    /// single supply it cannot follow a sensor that swings below its reach).
+    pub follows: bool,
     /// The follower's input at the middle of the sensor's range, V.
     pub input_level: f64,
     /// AC coupling: the low corner the bias resistor and the sensor's capacitance set, Hz.
@@ -74,11 +76,11 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<BufferDesign
             let (in_lo, in_hi) = amp.input_limits(rails);
             let m = super::SWING_MARGIN;
             let fits = s.min >= out_lo.max(in_lo) + m && s.max <= out_hi.min(in_hi) - m;
-            let level = if fits { 0.0 } else { mid_rail };
             Some(BufferDesign {
             bias_resistor: None,
-            return_level: level,
-            input_level: level + 0.5 * (s.min + s.max),
+            return_level: 0.0,
+            follows: fits,
+            input_level: 0.5 * (s.min + s.max),
             low_corner: None,
             input_corner: (cs > 0.0).then(|| 1.0 / (2.0 * std::f64::consts::PI * r_s * cs)),
             bias_error: amp.bias_current * r_s,
@@ -91,10 +93,15 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<BufferDesign
             let need = if r_s > want { want * r_s / (r_s - want) } else { 1e12 };
             let r_b = values::step_up(req.parts.resistor_series, need.min(1e12)).unwrap_or(need);
             let r_par = r_b * r_s / (r_b + r_s);
+            // The leakage ties the input to the sensor's own DC (its return, ground, plus the
+            // EMF's middle): the input sits between that and the bias level.
+            let mid = 0.5 * (s.min + s.max);
+            let input_level = (mid_rail * r_s + mid * r_b) / (r_s + r_b);
             Some(BufferDesign {
                 bias_resistor: Some(r_b),
                 return_level: mid_rail,
-                input_level: mid_rail,
+                follows: true,
+                input_level,
                 low_corner: Some(1.0 / (2.0 * std::f64::consts::PI * r_par * cs)),
                 input_corner: None,
                 bias_error: amp.bias_current * r_par,
@@ -158,6 +165,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
         bench: false,
     });
     let rtol = Some(req.parts.resistor_tolerance);
+    // The bias reference (AC coupling on a single supply); the sensor's return is ground.
     let ret = if b.return_level != 0.0 { "bref" } else { GND };
     if let Some(r_b) = b.bias_resistor {
         parts.push(bld.add(PartKind::Resistor, r_b, rtol, &["sense", ret], StageRole::Buffer, "bias resistor: the input's DC path; sets the low corner with the sensor's capacitance"));
@@ -171,17 +179,16 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
     }
     let mid = 0.5 * (s.min + s.max);
     let cs = s.capacitance.unwrap_or(0.0);
-    bld.bench("VSENSE", PartKind::VoltageSource, mid, &["emf", ret], StageRole::Sensor, "sensor EMF against its return (swept over the source range)");
+    bld.bench("VSENSE", PartKind::VoltageSource, mid, &["emf", GND], StageRole::Sensor, "sensor EMF (swept over the source range)");
     bld.bench("RSENSE", PartKind::Resistor, s.impedance, &["emf", "sense"], StageRole::Sensor, if s.coupling == Coupling::Ac { "sensor leakage resistance" } else { "sensor source resistance" });
     match s.coupling {
         Coupling::Ac => bld.bench("CSENSE", PartKind::Capacitor, cs, &["emf", "sense"], StageRole::Sensor, "sensor capacitance (the signal sits behind it)"),
-        Coupling::Dc if cs > 0.0 => bld.bench("CSENSE", PartKind::Capacitor, cs, &["sense", ret], StageRole::Sensor, "sensor and cable capacitance at the input"),
+        Coupling::Dc if cs > 0.0 => bld.bench("CSENSE", PartKind::Capacitor, cs, &["sense", GND], StageRole::Sensor, "sensor and cable capacitance at the input"),
         Coupling::Dc => {}
     }
     circuit.parts = bld.parts;
     let what = match b.bias_resistor {
         Some(r) => format!("follower with a {} bias resistor to {}", format(r, Quantity::Resistance), format(b.return_level, Quantity::Voltage)),
-        None if b.return_level != 0.0 => format!("follower, the sensor's return lifted to {}", format(b.return_level, Quantity::Voltage)),
         None => "follower: the sensor sees only the amplifier's input".to_string(),
     };
     circuit.stages.insert(0, Stage { role: StageRole::Buffer, description: what, parts });
@@ -193,8 +200,8 @@ pub fn equations(req: &Request, b: &BufferDesign) -> Vec<String> {
     let cs = s.capacitance.unwrap_or(0.0);
     let hz = |x: f64| format(x, Quantity::Frequency);
     let mut e = vec!["U1 follows the sensor (unity gain, no resistor in the signal path); the gain stage works on its output".to_string()];
-    if b.return_level != 0.0 {
-        e.push(format!("the sensor's return sits at {} (a divider with a bypass), so the follower works inside its range", format(b.return_level, Quantity::Voltage)));
+    if b.bias_resistor.is_some() && b.return_level != 0.0 {
+        e.push(format!("R_b returns to {} (a divider with a bypass); with the sensor's leakage the input rests at {}", format(b.return_level, Quantity::Voltage), format(b.input_level, Quantity::Voltage)));
     }
     if let (Some(r_b), Some(f_l)) = (b.bias_resistor, b.low_corner) {
         e.push(format!(
@@ -218,6 +225,16 @@ pub fn checks(req: &Request, b: &BufferDesign, amp: &Amplifier) -> Vec<Check> {
     let lsb = span / 2f64.powi(req.destination.bits as i32);
     let v = |x: f64| format(x, Quantity::Voltage);
     let mut c = Vec::new();
+    if !b.follows {
+        c.push(Check::error(
+            "follower_range",
+            format!(
+                "The sensor swings {} … {}, which the follower cannot reach on these rails (it needs its input and output inside the rails' reach). Add a negative rail, or return the sensor to a reference above ground (its reference electrode or shield at mid-rail) and describe its range against that.",
+                v(s.min),
+                v(s.max)
+            ),
+        ));
+    }
     let through = if b.bias_resistor.is_some() { "the bias resistor" } else { "the sensor's source resistance" };
     let text = format!(
         "The amplifier's bias current {} through {through} offsets the input by {} ({:.2} % of the sensor's span, {:.1} LSB referred to the sensor)",

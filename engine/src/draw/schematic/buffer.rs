@@ -67,7 +67,15 @@ impl Buffer {
             .iter()
             .find(|p| p.bench && p.kind == PartKind::VoltageSource && p.stage == StageRole::Sensor && p.nodes.len() == 2)
             .map(|p| p.nodes[1].clone())
-            .filter(|n| !terminal(n) && n != input && *n != out && n != "emf");
+            .filter(|n| !terminal(n) && n != input && *n != out && n != "emf")
+            // Or the bias reference R_b returns to: a node the rails and ground hold.
+            .or_else(|| {
+                c.parts
+                    .iter()
+                    .filter(|p| plain(p) && has(p, input))
+                    .map(|p| other(p, input))
+                    .find(|n| !terminal(n) && *n != out && n != "emf" && c.parts.iter().any(|q| plain(q) && has(q, n) && terminal(&other(q, n))))
+            });
         let mut used = vec![false; c.parts.len()];
         used[amp] = true;
         let mut bias = Vec::new();
