@@ -73,6 +73,8 @@ pub enum StageRole {
     Shunt,
     /// The follower in front of a high-impedance sensor and its bias path.
     Buffer,
+    /// A photodiode's transimpedance stage and its bias.
+    Transimpedance,
     /// DC blocking and the bias that sets the DC level after it.
     Coupling,
     /// A reference voltage derived from a rail.
@@ -94,6 +96,7 @@ impl StageRole {
             StageRole::Supply => "supply",
             StageRole::Shunt => "shunt",
             StageRole::Buffer => "buffer",
+            StageRole::Transimpedance => "transimpedance",
             StageRole::Coupling => "coupling",
             StageRole::Reference => "reference",
             StageRole::Gain => "gain",

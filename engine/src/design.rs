@@ -58,6 +58,9 @@ pub struct Design {
     /// High-impedance sensors: the follower's bias path, corners and bias-current offset.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub high_impedance: Option<crate::synth::buffer::BufferDesign>,
+    /// Photodiodes: the transimpedance stage.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub photodiode: Option<crate::synth::tia::TiaDesign>,
     /// The circuit model every output derives from (absent when synthesis was impossible).
     #[serde(skip)]
     pub circuit: Option<Circuit>,
@@ -123,11 +126,13 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     // The front end (a current loop's shunt) turns the sensor into the single-ended voltage
     // source the gain stage is synthesised for (`syn`); analyses use the request itself.
     let buffer = synth::buffer::plan(req, &amp, rails);
-    let (syn, mut current_loop, front_error) = match (synth::front::plan(req), &buffer) {
-        (Some(Ok(l)), _) => (std::borrow::Cow::Owned(synth::front::equivalent(req, &l)), Some(l), None),
-        (Some(Err(check)), _) => (std::borrow::Cow::Borrowed(req), None, Some(check)),
-        (None, Some(b)) => (std::borrow::Cow::Owned(synth::buffer::equivalent(req, b)), None, None),
-        (None, None) => (std::borrow::Cow::Borrowed(req), None, None),
+    let tia = synth::tia::plan(req, &amp, rails);
+    let (syn, mut current_loop, front_error) = match (synth::front::plan(req), &buffer, &tia) {
+        (Some(Ok(l)), _, _) => (std::borrow::Cow::Owned(synth::front::equivalent(req, &l)), Some(l), None),
+        (Some(Err(check)), _, _) => (std::borrow::Cow::Borrowed(req), None, Some(check)),
+        (None, Some(b), _) => (std::borrow::Cow::Owned(synth::buffer::equivalent(req, b)), None, None),
+        (None, None, Some(t)) => (std::borrow::Cow::Owned(synth::tia::equivalent(req, t)), None, None),
+        (None, None, None) => (std::borrow::Cow::Borrowed(req), None, None),
     };
     let syn: &Request = &syn;
     let mut checks = feasibility(syn, rails, &amp);
@@ -153,6 +158,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         drive: None,
         current_loop: None,
         high_impedance: None,
+        photodiode: None,
         circuit: None,
     };
     if has_error(&checks) {
@@ -237,6 +243,20 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         p = q;
         checks.extend(synth::buffer::checks(req, b, &amp));
     }
+    if let Some(t) = &tia {
+        checks.retain(|c| c.id != "sensor_impedance");
+        synth::tia::insert(&mut s.circuit, req, t, rails);
+        let mut eqs = synth::tia::equations(req, t);
+        eqs.append(&mut s.equations);
+        s.equations = eqs;
+        let Some(q) = predict(req, &s.circuit) else {
+            checks.push(Check::error("no_realisation", "The transimpedance circuit does not solve; this is a fault in Rangefit, please report the request."));
+            out.checks = checks;
+            return out;
+        };
+        p = q;
+        checks.extend(synth::tia::checks(req, t, &amp));
+    }
     let (analysis, analysis_checks) = analyse(req, &s.circuit, Nominal { gain: p.gain, f_low_3db: p.band_low, f_high_3db: p.band_high }, cfg);
     checks.extend(analysis_checks);
     checks.extend(synth::chain::filter_checks(req, &s, analysis.alias.map(|a| a.achieved_db), Some(analysis.ac.gain_band_high_db - analysis.ac.gain_mid_db)));
@@ -256,6 +276,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     out.circuit = Some(s.circuit);
     out.current_loop = current_loop;
     out.high_impedance = buffer;
+    out.photodiode = tia;
     out.scaling = crate::scaling::scaling(&out);
     out
 }

@@ -188,6 +188,8 @@ pub enum SourceKind {
     /// A voltage behind a very high impedance (MΩ … TΩ): ion-selective electrodes, piezo
     /// films, electret capsules without their own amplifier.
     HighImpedance,
+    /// A photodiode's photocurrent, into a transimpedance stage.
+    Photodiode,
 }
 
 impl SourceKind {
@@ -195,7 +197,7 @@ impl SourceKind {
     pub fn quantity(self) -> Quantity {
         match self {
             SourceKind::SingleEnded | SourceKind::HighImpedance => Quantity::Voltage,
-            SourceKind::CurrentLoop => Quantity::Current,
+            SourceKind::CurrentLoop | SourceKind::Photodiode => Quantity::Current,
         }
     }
 }
@@ -249,6 +251,9 @@ pub struct Source {
     /// to ground; AC coupling: the capacitance the signal sits behind).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub capacitance: Option<f64>,
+    /// Photodiodes: the dark current, A (it adds to the photocurrent).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub dark_current: Option<f64>,
 }
 
 /// The physical quantity behind the sensor's output: `at_min` at `source.min`, `at_max` at
@@ -432,8 +437,9 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
         None | Some("single_ended") => SourceKind::SingleEnded,
         Some("current_loop") => SourceKind::CurrentLoop,
         Some("high_impedance") => SourceKind::HighImpedance,
+        Some("photodiode") => SourceKind::Photodiode,
         Some(other) => {
-            return Err(o.err("kind", &format!("'{other}' is not a sensor kind this version designs for; use \"single_ended\", \"current_loop\" or \"high_impedance\"")))
+            return Err(o.err("kind", &format!("'{other}' is not a sensor kind this version designs for; use \"single_ended\", \"current_loop\", \"high_impedance\" or \"photodiode\"")))
         }
     };
     let q = kind.quantity();
@@ -490,11 +496,31 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
                 return Err(o.err("capacitance", "is required for an AC-coupled high-impedance sensor: the capacitance its signal sits behind, e.g. \"1 nF\" for a piezo film"));
             }
         }
-        (_, Some(_)) => return Err(o.err("capacitance", "applies only to a high-impedance sensor (source.kind = \"high_impedance\")")),
+        (SourceKind::Photodiode, c) => {
+            if !(min >= 0.0) {
+                return Err(o.err("min", "a photocurrent runs one way: give 0 A ≤ min < max, e.g. 0 and \"10 µA\""));
+            }
+            if coupling == Coupling::Ac {
+                return Err(o.err("coupling", "a photodiode is read with its DC level here; use \"dc\""));
+            }
+            if impedance != 0.0 {
+                return Err(o.err("impedance", "does not apply to a photodiode: give its junction capacitance (capacitance) and dark current (dark_current)"));
+            }
+            if !c.is_some_and(|c| c > 0.0) {
+                return Err(o.err("capacitance", "is required for a photodiode: its junction capacitance at the bias used, e.g. \"20 pF\""));
+            }
+        }
+        (_, Some(_)) => return Err(o.err("capacitance", "applies only to high-impedance sensors and photodiodes")),
         _ => {}
     }
-    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high", "capacitance"])?;
-    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand, current_loop, capacitance })
+    let dark_current = o.q("dark_current", Quantity::Current)?;
+    match (kind, dark_current) {
+        (SourceKind::Photodiode, Some(d)) if !(d >= 0.0) => return Err(o.err("dark_current", "must not be negative")),
+        (SourceKind::Photodiode, _) | (_, None) => {}
+        (_, Some(_)) => return Err(o.err("dark_current", "applies only to a photodiode (source.kind = \"photodiode\")")),
+    }
+    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high", "capacitance", "dark_current"])?;
+    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand, current_loop, capacitance, dark_current })
 }
 
 /// The current-loop fields of `source`; the loop current flows into the measuring input.

@@ -27,6 +27,7 @@ pub mod filter;
 pub mod front;
 pub mod merge;
 pub mod round;
+pub mod tia;
 
 use serde::Serialize;
 
