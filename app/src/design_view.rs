@@ -284,6 +284,18 @@ fn mapping_node(s: &Shown) -> Node {
             .child(el("h4").text("Input follower U1"))
             .child(el_c("dl", "mapping").attr("data-testid", "buffer").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
     }
+    if let Some(t) = &s.design.photodiode {
+        let facts = [
+            ("Feedback R_f", format(t.feedback_resistor, Quantity::Resistance)),
+            ("Feedback C_f", format(t.feedback_capacitor, Quantity::Capacitance)),
+            ("Diode bias", volts(t.bias)),
+            ("Stage bandwidth (−3 dB)", format(t.bandwidth, Quantity::Frequency)),
+            ("Dark-current offset", volts(t.dark_offset)),
+        ];
+        out = out
+            .child(el("h4").text("Transimpedance stage U1"))
+            .child(el_c("dl", "mapping").attr("data-testid", "transimpedance").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
+    }
     out
 }
 

@@ -120,7 +120,7 @@ impl Field {
     /// sensor's extremes are currents for a current loop.
     pub fn kind_for(&self, sensor: &str) -> Kind {
         match (self.path, self.kind) {
-            ("source.min" | "source.max", Kind::Quantity { percent, .. }) if sensor == "current_loop" => Kind::Quantity { q: Quantity::Current, percent },
+            ("source.min" | "source.max", Kind::Quantity { percent, .. }) if sensor == "current_loop" || sensor == "photodiode" => Kind::Quantity { q: Quantity::Current, percent },
             _ => self.kind,
         }
     }
@@ -135,8 +135,9 @@ impl Field {
         let current_loop = || text("source.kind") == "current_loop";
         match self.path {
             "source.burden_max" | "source.fault_low" | "source.fault_high" => current_loop(),
-            "source.capacitance" => text("source.kind") == "high_impedance",
-            "source.coupling" | "source.impedance" | "source.band_low" => !current_loop(),
+            "source.capacitance" => matches!(text("source.kind").as_str(), "high_impedance" | "photodiode"),
+            "source.coupling" | "source.impedance" | "source.band_low" => !current_loop() && text("source.kind") != "photodiode",
+            "source.dark_current" => text("source.kind") == "photodiode",
             "destination.modulator_rate" => oversampling(),
             "destination.acquisition_time" | "destination.input_capacitance" => !oversampling(),
             "filter.response" => true,
@@ -156,6 +157,7 @@ const KINDS: &[(&str, &str)] = &[
     ("single_ended", "Single-ended voltage (one signal wire against ground)"),
     ("current_loop", "Current loop (4–20 mA or another range), measured across a shunt"),
     ("high_impedance", "High-impedance voltage (MΩ to TΩ: pH or ion electrode, piezo film, bare electret)"),
+    ("photodiode", "Photodiode: its photocurrent, into a transimpedance stage"),
 ];
 const COUPLINGS: &[(&str, &str)] = &[
     ("dc", "Pass DC: the lowest output maps to the bottom of the converter range, the highest to the top"),
@@ -209,7 +211,8 @@ pub const FIELDS: &[Field] = &[
     field!("source.kind", "Kind of output", Kind::Choice(KINDS), Sensor, "Its output", false, "How the sensor presents its signal."),
     field!("source.min", "Lowest output", q(Quantity::Voltage), Sensor, "Its output", true, "The lowest instantaneous voltage, DC level included, e.g. 0.5 V or -2 V; for a current loop the lowest loop current, e.g. 4 mA."),
     field!("source.max", "Highest output", q(Quantity::Voltage), Sensor, "Its output", true, "The highest instantaneous voltage, DC level included, e.g. 4.5 V; for a current loop the highest loop current, e.g. 20 mA."),
-    field!("source.capacitance", "Sensor capacitance", q(Quantity::Capacitance), Sensor, "Its output", false, "DC coupling: electrode and cable capacitance to ground; AC coupling: the capacitance the signal sits behind (a piezo film's, e.g. 1 nF)."),
+    field!("source.capacitance", "Sensor capacitance", q(Quantity::Capacitance), Sensor, "Its output", false, "High impedance, DC: electrode and cable capacitance; AC: the capacitance the signal sits behind (a piezo film's, e.g. 1 nF). Photodiode: its junction capacitance, e.g. 70 pF."),
+    field!("source.dark_current", "Dark current", q(Quantity::Current), Sensor, "Its output", false, "The diode's current in the dark at its bias, from its datasheet, e.g. 2 nA."),
     field!("source.burden_max", "Largest voltage the loop allows across the input", q(Quantity::Voltage), Sensor, "Its output", false, "From the loop's supply and the transmitter's own drop, e.g. 5 V (a 250 Ω receiver at 20 mA)."),
     field!("source.fault_low", "Fault signalled below", q(Quantity::Current), Sensor, "Its output", false, "NAMUR NE 43: 3.6 mA for a 4–20 mA loop."),
     field!("source.fault_high", "Fault signalled above", q(Quantity::Current), Sensor, "Its output", false, "NAMUR NE 43: 21 mA for a 4–20 mA loop."),

@@ -122,6 +122,9 @@ fn summary(h: &mut String, d: &Design) {
             if let Some(c) = s.capacitance {
                 rows.push(("Sensor capacitance", format(c, Quantity::Capacitance)));
             }
+            if let Some(i) = s.dark_current {
+                rows.push(("Dark current", format(i, Quantity::Current)));
+            }
         }
     }
     rows.push(("Band", format!("{} … {}", hz(s.band_low), hz(s.band_high))));

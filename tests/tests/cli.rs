@@ -105,6 +105,7 @@ const STAGE_NAMES: &[&str] = &[
     "sensor",
     "shunt",
     "buffer",
+    "transimpedance",
     "supply",
     "coupling",
     "reference",

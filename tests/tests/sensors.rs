@@ -316,3 +316,101 @@ fn high_impedance_fields_are_read_and_refused_by_name() {
     }
     check(&rows);
 }
+
+// ---------------------------------------------------------------------------------------
+// Photodiodes
+
+/// |v(node)| from ngspice for a 1 A AC photocurrent at `f` Hz.
+fn spice_ac_at(tag: &str, d: &Design, node: &str, f: f64) -> f64 {
+    let net = netlist(&d.request, d.circuit.as_ref().expect("circuit"), NetlistConfig { testbench: false });
+    let body = net.trim_end().strip_suffix(".end").expect("netlist ends with .end");
+    let deck = format!("{body}.control\nac lin 1 {f:e} {f:e}\nprint vr({node}) vi({node})\nquit\n.endc\n.end\n");
+    let (ok, stdout, stderr) = run_ngspice(tag, &deck);
+    assert!(ok, "[{tag}] ngspice failed:\n{stderr}\n{deck}");
+    let pick = |name: String| stdout.lines().find_map(|l| l.trim().strip_prefix(name.as_str()).and_then(|x| x.trim().parse::<f64>().ok())).unwrap_or_else(|| panic!("[{tag}] no {name}:\n{stdout}"));
+    pick(format!("vr({node}) = ")).hypot(pick(format!("vi({node}) = ")))
+}
+
+const LIGHT: &str = r#"{"name": "Orchard frost-night light sensor", "source": {"kind": "photodiode", "min": 0, "max": "25 µA", "capacitance": "50 pF", "dark_current": "1 nA", "band_high": "10 Hz"},
+    "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "100 Hz"}, "supplies": [3.3], "parts": {"resistor_series": "E96"}}"#;
+
+#[test]
+fn the_transimpedance_stage_follows_the_model_and_ngspice() {
+    use rangefit_engine::synth::tia;
+    const SRC: &str = "ngspice (Debian ngspice-39) on the exported netlist";
+    const REF: &str = "references.md: single-pole transimpedance model, 1 MΩ, 10 pF, 10 MHz (Graeme, Photodiode Amplifiers, 1996, from memory for the book; values re-checked by nodal analysis)";
+    let mut rows = vec![
+        // The worked values: maximally flat C_f = 0.5640 pF and −3 dB at 388.15 kHz.
+        row("flat C_f, 1 MΩ / 10 pF / 10 MHz", tia::flat_capacitor(1e6, 10e-12, 10e6), 0.5640e-12, 0.0005e-12, REF),
+        row("−3 dB with that C_f", tia::bandwidth(1e6, 0.5640e-12, 10e-12, 10e6), 388.15e3, 0.5e3, REF),
+    ];
+    let d = design(&request(LIGHT));
+    let errors: Vec<&str> = d.checks.iter().filter(|c| c.severity == Severity::Error).map(|c| c.message.as_str()).collect();
+    rows.push(fact(format!("light: no error checks {errors:?}"), errors.is_empty(), "design contract"));
+    let t = d.photodiode.as_ref().expect("transimpedance design");
+    let c = d.circuit.as_ref().expect("circuit");
+    let u1 = c.part("U1").expect("U1");
+    rows.push(fact("light: U1's − input holds the diode's cathode, its output is tia", u1.stage == StageRole::Transimpedance && u1.nodes[1] == "sense" && u1.nodes[4] == "tia", "design contract"));
+    rows.push(fact("light: one supply biases the diode above the output's lower limit", t.bias > d.amplifier.swing_low, "design contract"));
+    // DC mapping: outputs at 0 and 25 µA (the dark current is a constant bench source).
+    let p = d.predicted.expect("predicted");
+    let spice = spice_outputs("light", &d, &[0.0, 25e-6]);
+    rows.push(row("light: output at min", p.output_at_min, spice[0], 1e-4 * 3.3, SRC));
+    rows.push(row("light: output at max", p.output_at_max, spice[1], 1e-4 * 3.3, SRC));
+    // The stage's bandwidth: ngspice's |v(tia)| per ampere at the engine's −3 dB frequency.
+    let z = spice_ac_at("light-tia", &d, "tia", t.bandwidth);
+    rows.push(row("light: |Z| at the stage's −3 dB frequency, relative to R_f/√2", z / (t.feedback_resistor / 2f64.sqrt()), 1.0, 0.01, SRC));
+    check(&rows);
+}
+
+/// Photodiodes the other tests do not hold, from a seeded generator (rand_chacha
+/// ChaCha8Rng, seed 7): full-scale current, capacitance, dark current, band and rails.
+#[test]
+fn random_photodiodes_map_as_predicted() {
+    const SRC: &str = "ngspice (Debian ngspice-39) operating point of the exported netlist";
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(7);
+    let mut rows = Vec::new();
+    let mut simulated = 0;
+    for i in 0..8 {
+        let max = 10f64.powf(rng.random_range(-8.0..-3.5));
+        let min = if rng.random_bool(0.5) { 0.0 } else { max * rng.random_range(0.01..0.3) };
+        let cj = 10f64.powf(rng.random_range(-12.0..-9.5));
+        let dark = max * rng.random_range(0.0..0.01);
+        let band = 10f64.powf(rng.random_range(0.0..4.0));
+        let (supplies, dmin, dmax) = [("[3.3]", 0.0, 3.3), ("[5]", 0.0, 5.0), ("[5, -5]", -2.0, 2.0)][rng.random_range(0..3)];
+        let json = format!(
+            r#"{{"name": "Random photodiode {i}", "source": {{"kind": "photodiode", "min": {min:e}, "max": {max:e}, "capacitance": {cj:e}, "dark_current": {dark:e}, "band_high": {band:e}}},
+            "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": {}}}, "supplies": {supplies}}}"#,
+            20.0 * band
+        );
+        let d = design(&request(&json));
+        let (Some(p), Some(_)) = (d.predicted, d.circuit.as_ref()) else { continue };
+        simulated += 1;
+        let what = format!("photodiode {i} ({min:.2e}…{max:.2e} A, C_j {cj:.1e} F, rails {supplies})");
+        let spice = spice_outputs(&format!("photodiode-{i}"), &d, &[d.request.source.min, d.request.source.max]);
+        println!("{what}: predicted {:.5} … {:.5} V, ngspice {:.5} … {:.5} V", p.output_at_min, p.output_at_max, spice[0], spice[1]);
+        rows.push(row(format!("{what}: output at min"), p.output_at_min, spice[0], 1e-4 * (dmax - dmin), SRC));
+        rows.push(row(format!("{what}: output at max"), p.output_at_max, spice[1], 1e-4 * (dmax - dmin), SRC));
+    }
+    rows.push(fact(format!("at least 6 of 8 random photodiodes built ({simulated})"), simulated >= 6, "test design"));
+    check(&rows);
+}
+
+#[test]
+fn photodiode_fields_are_read_and_refused_by_name() {
+    let base = |source: &str| format!(r#"{{"source": {source}, "destination": {{"min": 0, "max": 3.3, "sample_rate": 100}}, "supplies": [3.3]}}"#);
+    let cases = [
+        (r#"{"kind": "photodiode", "min": 0, "max": "10 µA"}"#, "source.capacitance"),
+        (r#"{"kind": "photodiode", "min": "-1 µA", "max": "10 µA", "capacitance": "10 pF"}"#, "source.min"),
+        (r#"{"kind": "photodiode", "min": 0, "max": "10 µA", "capacitance": "10 pF", "impedance": "1M"}"#, "source.impedance"),
+        (r#"{"kind": "photodiode", "min": 0, "max": "10 µA", "capacitance": "10 pF", "dark_current": "-1 nA"}"#, "source.dark_current"),
+        (r#"{"min": 0, "max": 1, "dark_current": "1 nA"}"#, "source.dark_current"),
+        (r#"{"kind": "photodiode", "min": 0, "max": "10 V", "capacitance": "10 pF"}"#, "source.max"),
+    ];
+    let mut rows = Vec::new();
+    for (source, field) in cases {
+        let got = Request::from_json(&base(source)).err().map(|e| e.field);
+        rows.push(fact(format!("{source} → error on {field} (got {got:?})"), got.as_deref() == Some(field), "request contract"));
+    }
+    check(&rows);
+}

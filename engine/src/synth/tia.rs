@@ -65,9 +65,7 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<TiaDesign> {
     let r_ideal = room / (s.max + dark).max(1e-15);
     let r_f = values::step_down(req.parts.resistor_series, r_ideal).unwrap_or(r_ideal);
     let c_in = s.capacitance.unwrap_or(0.0);
-    let wt = 2.0 * PI * amp.gbw;
-    let arg = 2.0 * r_f * c_in / wt - 1.0 / (wt * wt);
-    let flat = if arg > 0.0 { arg.sqrt() / r_f } else { 0.0 };
+    let flat = flat_capacitor(r_f, c_in, amp.gbw);
     let quiet = 1.0 / (2.0 * PI * r_f * 10.0 * s.band_high.max(1e-9));
     let want = flat.max(quiet);
     let c_f = values::nearest(req.parts.capacitor_series, want).unwrap_or(want);
@@ -81,6 +79,14 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<TiaDesign> {
         gbw_needed: 2.0 * PI * r_f * (c_in + c_f) * f_need * f_need,
         dark_offset: dark * r_f,
     })
+}
+
+/// The maximally flat feedback capacitor (Q = 0.7071) of the single-pole model, F:
+/// √(2·R_f·C_in/ω_t − 1/ω_t²)/R_f; 0 when the amplifier is fast enough to need none.
+pub fn flat_capacitor(r_f: f64, c_in: f64, gbw: f64) -> f64 {
+    let wt = 2.0 * PI * gbw;
+    let arg = 2.0 * r_f * c_in / wt - 1.0 / (wt * wt);
+    if arg > 0.0 { arg.sqrt() / r_f } else { 0.0 }
 }
 
 /// −3 dB frequency of the single-pole transimpedance model, Hz (bisection on |Z|/R_f).
