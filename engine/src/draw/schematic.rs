@@ -44,6 +44,7 @@ mod chain;
 mod plan;
 mod rows;
 mod sheet;
+mod tia;
 
 use super::svg::{BoxRect, Segment};
 use crate::circuit::{Circuit, Part, PartKind, GND};
@@ -54,6 +55,7 @@ use buffer::Buffer;
 use chain::Chain;
 use plan::Plan;
 use sheet::{Sheet, INK};
+use tia::Tia;
 
 /// Options of the drawing; `Default` gives the documented defaults.
 #[derive(Debug, Clone, PartialEq)]
@@ -171,21 +173,29 @@ pub fn schematic(circuit: &Circuit, op: Option<&DcSolution>, ranges: &[TestPoint
     cfg.font_size = if cfg.font_size.is_finite() { cfg.font_size.clamp(8.0, 24.0) } else { 13.0 };
     cfg.line_width = if cfg.line_width.is_finite() { cfg.line_width.clamp(1.5, 4.0) } else { 1.8 };
     let mut sh = Sheet::new(circuit, op, cfg);
+    // A front end with a row of its own: a high-impedance sensor's follower, or a
+    // photodiode's transimpedance stage.
     let buffer = Buffer::of(circuit, &sh.rails);
-    let (start, skip) = match &buffer {
-        Some(b) => (b.out.clone(), b.parts()),
-        None => ("sense".to_string(), Vec::new()),
+    let tia = if buffer.is_none() { Tia::of(circuit, &sh.rails) } else { None };
+    let (start, skip) = match (&buffer, &tia) {
+        (Some(b), _) => (b.out.clone(), b.parts()),
+        (None, Some(t)) => (t.out.clone(), t.parts()),
+        (None, None) => ("sense".to_string(), Vec::new()),
     };
     let plan = Plan::of(circuit, &sh.rails, &start, &skip);
     let x_term = sh.sensor();
-    let x_line = match &buffer {
-        Some(b) => {
-            // The gain stage's own row: room above its line for the loops drawn there.
-            let top = if plan.bottom == plan.inn && plan.inn != plan.out { 80.0 } else { 140.0 };
+    // The gain stage's own row: room above its line for the loops drawn there.
+    let top = if plan.bottom == plan.inn && plan.inn != plan.out { 80.0 } else { 140.0 };
+    let x_line = match (&buffer, &tia) {
+        (Some(b), _) => {
             let tip = sh.buffer_row(b, x_term, top);
             sh.series(&plan, tip, sheet::TP_GAP / 2.0)
         }
-        None => sh.series(&plan, x_term, sheet::TP_GAP),
+        (None, Some(t)) => {
+            let tip = sh.tia_row(t, x_term, top);
+            sh.series(&plan, tip, sheet::TP_GAP / 2.0)
+        }
+        (None, None) => sh.series(&plan, x_term, sheet::TP_GAP),
     };
     let out = sh.amp_stage(&plan, x_line);
     let at = out.map(|o| {

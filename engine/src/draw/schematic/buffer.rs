@@ -236,12 +236,18 @@ impl Sheet<'_> {
         let x_flag = (x_r + 100.0).max(end + 60.0);
         self.wire((x_r, y), (x_flag, y), &out, false);
         self.flag(x_flag, y, &out);
-        // The gain stage's row.
-        let bottom = self.svg.bounds().map(|bb| bb.3).unwrap_or(y);
+        self.gain_row(&out, top)
+    }
+
+    /// Starts the gain stage's row below what is drawn (its line [`ROW_GAP`] plus `top`, the
+    /// room the gain stage needs above its line, below the lowest stroke so far) with a flag
+    /// holding `net`, and returns the flag's tip.
+    pub(super) fn gain_row(&mut self, net: &str, top: f64) -> f64 {
+        let bottom = self.svg.bounds().map(|bb| bb.3).unwrap_or(Y0);
         let y0 = bottom + ROW_GAP + top;
         self.line = y0;
         self.row_y = y0;
-        let tip = self.flag(X0, y0, &out);
+        let tip = self.flag(X0, y0, net);
         self.left = tip;
         tip
     }

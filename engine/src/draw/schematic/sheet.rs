@@ -278,7 +278,7 @@ impl<'a> Sheet<'a> {
 
     /// The sensor block: EMF behind its impedance in a dashed box; returns the terminal's x.
     pub(super) fn sensor(&mut self) -> f64 {
-        if let Some(right) = self.high_impedance_sensor() {
+        if let Some(right) = self.high_impedance_sensor().or_else(|| self.photodiode_sensor()) {
             return right;
         }
         let right = X0 + SENSOR_W;

@@ -1,0 +1,162 @@
+//! The transimpedance stage of a photodiode, and the photodiode's bench model.
+//!
+//! Recognised by the design contract of `synth::tia`: an amplifier of the transimpedance
+//! stage whose − input (the sensor terminal, the diode's cathode) is not its output, with
+//! the feedback parts (R_f, C_f) from the output back to the − input, and the + input at
+//! ground, at a rail, or at a bias node held by a divider with its bypass. It gets the first
+//! row to itself, as a high-impedance sensor's follower does (`buffer`): the sensor box, the
+//! free run of the sensor line (TP1) into the − input on the signal line, R_f and C_f as
+//! parallel loops above the amplifier from a tap on that line to the output column, the +
+//! input dropping to ground (or a rail) or to a bus carrying the bias divider and its bypass
+//! (the reference block, `Sheet::block`, hanging leftward under the line), the output
+//! running on to a continuation flag. The gain stage then starts its own row from that flag.
+//!
+//! The sensor model (bench, grey): each current source from the terminal to ground (the
+//! photocurrent `ISENSE`, the dark current `IDARK` beside it), drawn with its arrow the way
+//! the current leaves the terminal, and the junction capacitance `CSENSE` from the terminal
+//! to ground; their feet share one ground.
+
+use super::plan::{has, other, plain, Rail, Step};
+use super::sheet::{Sheet, GREY, PITCH, REF_DROP, TP_GAP, X0, Y0};
+use crate::circuit::{Circuit, PartKind, StageRole, GND};
+use crate::draw::svg::{Anchor, BoxRect, Pen};
+
+/// Spacing of the sensor model's columns (a source's arrow left of it, its label right),
+/// and the box's margin right of the last one (that one's label).
+const COL: f64 = 115.0;
+const MARGIN: f64 = 90.0;
+/// Feedback loops above the line: the first, and the step between them.
+const LOOP: f64 = 90.0;
+const LOOP_STEP: f64 = 60.0;
+
+/// The transimpedance amplifier and what hangs from it.
+#[derive(Debug, Clone)]
+pub(super) struct Tia {
+    pub(super) amp: usize,
+    /// The − input (the sensor terminal), the + input and the output.
+    pub(super) input: String,
+    pub(super) plus: String,
+    pub(super) out: String,
+    /// Parts from the output back to the − input (R_f, C_f).
+    pub(super) feedback: Vec<usize>,
+    /// Parts from the + input's bias node to rails and ground (divider legs, bypass).
+    pub(super) bias: Vec<Step>,
+}
+
+impl Tia {
+    /// The transimpedance stage of `c`, if it has one (see the module's doc).
+    pub(super) fn of(c: &Circuit, rails: &[Rail]) -> Option<Tia> {
+        let terminal = |n: &str| n == GND || rails.iter().any(|r| r.node == n);
+        let amp = c.parts.iter().position(|p| {
+            !p.bench
+                && p.kind == PartKind::OpAmp
+                && p.stage == StageRole::Transimpedance
+                && p.nodes.len() >= 5
+                && p.nodes[1] != p.nodes[4]
+                && p.nodes[0] != p.nodes[1]
+                && p.nodes[0] != p.nodes[4]
+                && !terminal(&p.nodes[1])
+                && !terminal(&p.nodes[4])
+        })?;
+        let nodes = &c.parts[amp].nodes;
+        let (plus, input, out) = (nodes[0].clone(), nodes[1].clone(), nodes[4].clone());
+        let feedback: Vec<usize> = (0..c.parts.len()).filter(|&i| plain(&c.parts[i]) && has(&c.parts[i], &input) && has(&c.parts[i], &out)).collect();
+        let bias = if terminal(&plus) {
+            Vec::new()
+        } else {
+            (0..c.parts.len())
+                .filter(|&i| plain(&c.parts[i]) && has(&c.parts[i], &plus) && terminal(&other(&c.parts[i], &plus)))
+                .map(|i| Step { part: i, from: plus.clone(), to: other(&c.parts[i], &plus) })
+                .collect()
+        };
+        Some(Tia { amp, input, plus, out, feedback, bias })
+    }
+
+    /// Every part the stage's block draws.
+    pub(super) fn parts(&self) -> Vec<usize> {
+        let mut v = vec![self.amp];
+        v.extend(&self.feedback);
+        v.extend(self.bias.iter().map(|s| s.part));
+        v
+    }
+}
+
+impl Sheet<'_> {
+    /// The photodiode model in a dashed box, when the bench has a current source from a
+    /// terminal to ground; returns the terminal's x. `None` leaves the sensor to the other
+    /// blocks.
+    pub(super) fn photodiode_sensor(&mut self) -> Option<f64> {
+        let c = self.c;
+        let sensor = |i: &usize| c.parts[*i].bench && c.parts[*i].stage == StageRole::Sensor && c.parts[*i].nodes.len() == 2;
+        let first = (0..c.parts.len()).filter(sensor).find(|&i| c.parts[i].kind == PartKind::CurrentSource && c.parts[i].nodes[1] == GND && c.parts[i].nodes[0] != GND)?;
+        let term = c.parts[first].nodes[0].clone();
+        // The current sources out of the terminal, then the capacitance across them.
+        let mut cols: Vec<usize> = (0..c.parts.len()).filter(sensor).filter(|&i| c.parts[i].kind == PartKind::CurrentSource && c.parts[i].nodes[0] == term && c.parts[i].nodes[1] == GND).collect();
+        cols.extend((0..c.parts.len()).filter(sensor).filter(|&i| c.parts[i].kind == PartKind::Capacitor && has(&c.parts[i], &term) && has(&c.parts[i], GND)));
+        let y = Y0;
+        let yg = y + 100.0;
+        let sx = X0 + 55.0;
+        let last = sx + (cols.len().max(1) - 1) as f64 * COL;
+        let box_w = last + MARGIN - X0;
+        let right = X0 + box_w;
+        for (k, &i) in cols.iter().enumerate() {
+            let x = sx + k as f64 * COL;
+            self.two(i, (x, y), &term, (x, yg), GND, true);
+        }
+        self.wire((sx, y), (right, y), &term, true);
+        if last > sx {
+            self.wire((sx, yg), (last, yg), GND, true);
+        }
+        self.terminal((sx, yg), GND, false);
+        let dashed = Pen { colour: GREY, width: 1.5, dashed: true };
+        self.svg.rect(X0, y - 60.0, box_w, 190.0, "none", dashed);
+        self.svg.text(X0 + 4.0, y - 66.0, "sensor", self.cfg.font_size, Anchor::Start, GREY, "", "italic");
+        self.bench_areas.push(BoxRect::new(X0, y - 60.0, box_w, 190.0));
+        self.svg.circle((right, y), 3.5, "#ffffff", Some(self.pen(true)));
+        Some(right)
+    }
+
+    /// The transimpedance row from the sensor terminal at `x_term`; then starts the gain
+    /// stage's row below it (see [`Sheet::gain_row`]) and returns the flag's tip.
+    pub(super) fn tia_row(&mut self, t: &Tia, x_term: f64, top: f64) -> f64 {
+        let y = Y0;
+        let (yb, yo) = (y + 40.0, y + 20.0);
+        let (ups, downs) = t.bias.iter().fold((0, 0), |(u, d), s| if self.positive_rail(&s.to) { (u + 1, d) } else { (u, d + 1) });
+        let cols = ups.max(downs);
+        // The bias block hangs leftward from the + input's drop: clear of the sensor box.
+        let ux = (x_term + TP_GAP + 100.0).max(x_term + 55.0 + cols as f64 * PITCH);
+        let xf = ux - 40.0;
+        // − input on the signal line, from the sensor terminal.
+        self.wire((x_term, y), (xf, y), &t.input, false);
+        self.wire((xf, y), (ux, y), &t.input, false);
+        // + input: to ground or a rail, or down to the bias block.
+        let xd = ux - 20.0;
+        self.wire((xd, yb), (ux, yb), &t.plus, false);
+        if t.bias.is_empty() {
+            self.wire((xd, yb), (xd, yb + 20.0), &t.plus, false);
+            self.terminal((xd, yb + 20.0), &t.plus, false);
+        } else {
+            let yr = y + REF_DROP;
+            self.wire((xd, yb), (xd, yr), &t.plus, false);
+            self.block(&t.bias, xd, yr, &t.plus, false);
+        }
+        // R_f and C_f: parallel loops above the amplifier, from the tap to the output column.
+        let x_out = ux + 80.0;
+        let xr = x_out + 30.0;
+        let (mut yl, mut yr) = (y, yo);
+        for (k, &i) in t.feedback.iter().enumerate() {
+            let yk = y - LOOP - LOOP_STEP * k as f64;
+            self.wire((xf, yl), (xf, yk), &t.input, false);
+            self.two(i, (xf, yk), &t.input, (xr, yk), &t.out, true);
+            self.wire((xr, yk), (xr, yr), &t.out, false);
+            yl = yk;
+            yr = yk;
+        }
+        self.opamp(t.amp, ux, y, [false, true]);
+        self.supply_pins(t.amp, ux, y);
+        let x_flag = xr + 90.0;
+        self.wire((x_out, yo), (x_flag, yo), &t.out, false);
+        self.flag(x_flag, yo, &t.out);
+        self.gain_row(&t.out.clone(), top)
+    }
+}
