@@ -165,8 +165,9 @@ fn check(what: &str, c: &Circuit, s: &Schematic, req: Option<&Request>) {
     // the converter box may take a row of its own: ⌈sections / 2⌉ + 1 rows at most.
     let sections = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter).count();
     let drive = c.parts.iter().any(|p| p.stage == StageRole::Drive);
-    // A high-impedance sensor's follower takes a row of its own before the gain stage's.
-    let buffer = c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Buffer) as usize;
+    // A high-impedance sensor's follower, or a photodiode's transimpedance amplifier, takes
+    // a row of its own before the gain stage's.
+    let buffer = c.parts.iter().any(|p| p.kind == PartKind::OpAmp && matches!(p.stage, StageRole::Buffer | StageRole::Transimpedance)) as usize;
     let rows = if sections + drive as usize == 0 { 0 } else { sections.div_ceil(2) + 1 } + buffer;
     let tall = 700.0 + 450.0 * rows as f64;
     assert!(view[2] <= 1100.0 && view[3] <= tall, "{what}: viewBox {} × {} is larger than 1100 × {tall}", view[2], view[3]);
@@ -456,6 +457,16 @@ fn test_points_follow_the_solver() {
         assert!((out.min - lo).abs() < 1e-6 && (out.max - hi).abs() < 1e-6, "{}: converter range {} … {} vs predicted {lo} … {hi}", demo.id, out.min, out.max);
         // The sensor terminal follows the sensor (loaded at most by a few per cent); a loop's
         // terminal carries the loop current times the shunt (Ohm's law).
+        if req.source.kind == rangefit_engine::request::SourceKind::Photodiode {
+            // A photodiode's terminal is the transimpedance amplifier's − input, held at the
+            // + input's bias (virtual earth, synth::tia): it barely moves while U1's output
+            // `tia` swings by the photocurrent times R_f.
+            let solver = Solver::new(&c);
+            let at = |x: f64| solver.dc(x).ok().and_then(|o| o.voltage("tia")).expect("tia level");
+            let swing = (at(req.source.max) - at(req.source.min)).abs();
+            assert!(tps[0].max - tps[0].min < 0.01 * swing, "{}: TP1 span {} vs U1's output swing {swing}", demo.id, tps[0].max - tps[0].min);
+            continue;
+        }
         let span = (req.source.max - req.source.min) * d.current_loop.as_ref().map_or(1.0, |l| l.shunt);
         assert!((tps[0].max - tps[0].min - span).abs() < 0.05 * span, "{}: TP1 span {} vs sensor span {span}", demo.id, tps[0].max - tps[0].min);
     }
@@ -520,6 +531,17 @@ fn odd_circuits_never_panic_and_parts_are_never_dropped() {
             odd(|b| {
                 b.add(PartKind::Resistor, 1e3, None, &["<a&b>", "\"q\""], StageRole::Gain, "");
                 b.add(PartKind::OpAmp, 1e6, None, &["<a&b>", "adc", "vpos", "0", "adc"], StageRole::Gain, "");
+            }),
+            true,
+        ),
+        (
+            // A transimpedance amplifier with no feedback, its + input at a node nothing
+            // holds, and a photocurrent into a terminal nothing else uses.
+            "transimpedance stage half built",
+            odd(|b| {
+                b.add(PartKind::OpAmp, 1e6, None, &["pdb", "sense", "vpos", "0", "tia"], StageRole::Transimpedance, "");
+                b.add(PartKind::Resistor, 1e3, None, &["tia", "adc"], StageRole::Gain, "");
+                b.bench("ISENSE", PartKind::CurrentSource, 1e-6, &["diode", "0"], StageRole::Sensor, "");
             }),
             true,
         ),
@@ -763,5 +785,83 @@ fn high_impedance_front_ends_are_drawn_by_role() {
         let (req, c, _) = designed(json);
         let s = draw(&req, &c, what);
         check_buffer(what, &req, &c, &s, *lifted);
+    }
+}
+
+/// The one check of a photodiode front end: the drawing passes [`check`]; every part is
+/// drawn by role (no fallback area); U1 is a triangle with its designator and GBW line; the
+/// sensor box holds ISENSE, IDARK when present, and CSENSE; the bias node `pdb` exists
+/// exactly when expected; U1's output continues to the gain stage's row through a pair of
+/// flags.
+fn check_photodiode(what: &str, req: &Request, c: &Circuit, s: &Schematic, dark: bool, biased: bool) {
+    check(what, c, s, Some(req));
+    let doc = roxmltree::Document::parse(&s.svg).unwrap();
+    let words = texts(&doc);
+    // Design contract (synth::tia::insert): U1 is the transimpedance amplifier, − input at
+    // the sensor terminal, output `tia`, + input at `pdb` (one supply) or ground (split rails).
+    let u1 = c.parts.iter().find(|p| p.reference == "U1").unwrap_or_else(|| panic!("{what}: no U1"));
+    assert_eq!((u1.kind, u1.stage), (PartKind::OpAmp, StageRole::Transimpedance), "{what}: U1 is not the transimpedance stage");
+    assert_eq!((u1.nodes[1].as_str(), u1.nodes[4].as_str()), ("sense", "tia"), "{what}: U1's − input or output");
+    assert_eq!(u1.nodes[0] == "pdb", biased, "{what}: U1's + input");
+    // Every part placed by role: nothing in the fallback area.
+    assert!(!words.iter().any(|t| t.starts_with("Not placed")), "{what}: a part fell back");
+    let group = |r: &str| doc.descendants().find(|n| n.has_tag_name("g") && n.attribute("class") == Some("part") && n.attribute("data-ref") == Some(r));
+    for p in &c.parts {
+        if !(p.bench && p.stage == StageRole::Supply) {
+            assert!(group(&p.reference).is_some(), "{what}: {} not drawn", p.reference);
+        }
+    }
+    // IEC 60617: the amplifier is a triangle; labelled like the other amplifiers (common
+    // practice: designator and the requirement on it).
+    let g = group("U1").unwrap_or_else(|| panic!("{what}: U1 not drawn"));
+    assert!(g.children().any(|k| k.has_tag_name("polygon") && k.attribute("points").is_some_and(|p| p.split_whitespace().count() == 3)), "{what}: U1 has no triangle");
+    assert!(words.iter().any(|w| w == "U1") && words.iter().filter(|w| w.starts_with("GBW ≥")).count() >= 2, "{what}: U1 unlabelled");
+    // Design contract: the bench's sensor model is ISENSE (and IDARK with a dark current)
+    // and CSENSE; drawn inside the dashed sensor box (the bench shown apart from what is
+    // built, common practice). IEC 60617: a current source is a circle with the arrow beside
+    // it, which lies outside the circle but inside the box.
+    let bx = doc.descendants().find(|n| n.attribute("stroke-dasharray").is_some()).expect("sensor box");
+    let corners = group_points(bx).into_iter();
+    let (x0, x1, y0, y1) = corners.fold((f64::MAX, f64::MIN, f64::MAX, f64::MIN), |(a, b, c, d), (x, y)| (a.min(x), b.max(x), c.min(y), d.max(y)));
+    let mut inside = vec!["ISENSE", "CSENSE"];
+    if dark {
+        inside.push("IDARK");
+    }
+    assert_eq!(c.parts.iter().any(|p| p.reference == "IDARK"), dark, "{what}: IDARK?");
+    for r in inside {
+        let g = group(r).unwrap_or_else(|| panic!("{what}: {r} not drawn"));
+        for (x, y) in group_points(g) {
+            assert!((x0 - 0.5..=x1 + 0.5).contains(&x) && (y0 - 0.5..=y1 + 0.5).contains(&y), "{what}: {r} outside the sensor box at ({x}, {y})");
+        }
+    }
+    // Design contract: no VSENSE or RSENSE in a photodiode's bench.
+    assert!(!c.parts.iter().any(|p| p.reference == "VSENSE" || p.reference == "RSENSE"), "{what}: a voltage sensor model");
+    // Continuation: U1's output leaves its row in a flag and the gain row starts from one
+    // (two flags holding "tia").
+    let flags = doc.descendants().filter(|n| n.has_tag_name("text") && n.text() == Some("tia")).count();
+    assert!(flags >= 2, "{what}: {} flags for U1's output", flags);
+}
+
+#[test]
+fn photodiode_front_ends_are_drawn_by_role() {
+    let light = demos::ALL.iter().find(|d| d.id == "greenhouse-light").expect("light demo").json;
+    let rows: Vec<(&str, String, bool, bool)> = vec![
+        // The demo: one 3.3 V supply, so the + input sits on the bias divider `pdb` with its
+        // bypass (synth::tia: the output kept off the lower rail); a dark current is stated.
+        ("greenhouse light, one supply, dark current", light.to_string(), true, true),
+        // Split rails: the + input at ground, no divider; no dark current stated, no IDARK.
+        (
+            "slit diode, split rails",
+            r#"{"name": "Spectrometer slit diode", "source": {"kind": "photodiode", "min": 0, "max": "2 µA", "capacitance": "15 pF", "band_high": "2 kHz"},
+                "destination": {"min": -2, "max": 2, "bits": 14, "sample_rate": "20 kHz"}, "supplies": [5, -5]}"#
+                .to_string(),
+            false,
+            false,
+        ),
+    ];
+    for (what, json, dark, biased) in &rows {
+        let (req, c, _) = designed(json);
+        let s = draw(&req, &c, what);
+        check_photodiode(what, &req, &c, &s, *dark, *biased);
     }
 }

@@ -126,8 +126,18 @@ impl Sheet<'_> {
         // The bias block hangs leftward from the + input's drop: clear of the sensor box.
         let ux = (x_term + TP_GAP + 100.0).max(x_term + 55.0 + cols as f64 * PITCH);
         let xf = ux - 40.0;
-        // − input on the signal line, from the sensor terminal.
-        self.wire((x_term, y), (xf, y), &t.input, false);
+        // − input on the signal line, from the sensor terminal; when the sensor's current
+        // goes elsewhere, the line starts at a terminal with the input's name instead, so no
+        // wire claims a connection the circuit does not have.
+        let c = self.c;
+        let fed = c.parts.iter().any(|p| p.bench && p.kind == PartKind::CurrentSource && p.stage == StageRole::Sensor && p.nodes.len() == 2 && p.nodes[0] == t.input && p.nodes[1] == GND);
+        if fed {
+            self.wire((x_term, y), (xf, y), &t.input, false);
+        } else {
+            let xs = x_term + 50.0;
+            self.terminal((xs, y), &t.input, true);
+            self.wire((xs, y), (xf, y), &t.input, false);
+        }
         self.wire((xf, y), (ux, y), &t.input, false);
         // + input: to ground or a rail, or down to the bias block.
         let xd = ux - 20.0;
