@@ -61,6 +61,15 @@ pub fn is_sensor_source(p: &Part) -> bool {
     p.bench && SENSOR_SOURCES.contains(&p.reference.as_str())
 }
 
+/// Capacitors that set a corner above the band and so stay open at mid-band: the filter's,
+/// the drive's, a transimpedance stage's C_f, and a sensor's capacitance to ground (a shunt,
+/// as a photodiode's junction or an electrode's cable). Every other capacitor (coupling,
+/// bypass, a sensor's series capacitance) is a short there.
+pub fn open_at_mid_band(p: &Part) -> bool {
+    p.kind == PartKind::Capacitor
+        && (matches!(p.stage, StageRole::Filter | StageRole::Drive | StageRole::Transimpedance) || (p.bench && p.stage == StageRole::Sensor && p.nodes.iter().any(|n| n == GND)))
+}
+
 /// What a part is for; the stage it belongs to.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]

@@ -200,7 +200,7 @@ fn reference_quantities(req: &Request, c: &Circuit, k: &Kernel, p: &[f64]) -> [f
 /// kernel's mid-band system has them.
 fn shorted(c: &Circuit) -> Circuit {
     let mut c = c.clone();
-    c.parts.retain(|q| !(q.kind == PartKind::Capacitor && matches!(q.stage, StageRole::Filter | StageRole::Drive)));
+    c.parts.retain(|q| !rangefit_engine::circuit::open_at_mid_band(q));
     while let Some(i) = c.parts.iter().position(|q| q.kind == PartKind::Capacitor) {
         let cap = c.parts.remove(i);
         let (keep, gone) = if cap.nodes[1] == "0" { (cap.nodes[1].clone(), cap.nodes[0].clone()) } else { (cap.nodes[0].clone(), cap.nodes[1].clone()) };

@@ -3,7 +3,7 @@
 //! stamps, and the elimination program reused by every build (see [`super`]).
 
 use super::{Col, Elem, KernelError, Src, Step, System};
-use crate::circuit::{is_sensor_source, Circuit, Part, PartKind, StageRole};
+use crate::circuit::{is_sensor_source, open_at_mid_band, Circuit, Part, PartKind};
 use crate::solve::{GM, GMIN};
 
 /// Compile-time context shared by both systems.
@@ -62,11 +62,7 @@ impl Ctx<'_> {
             i
         }
         // Filter and drive capacitors set corners above the band: open at mid-band.
-        for p in c.parts.iter().filter(|p| {
-            short
-                && p.kind == PartKind::Capacitor
-                && !matches!(p.stage, StageRole::Filter | StageRole::Drive)
-        }) {
+        for p in c.parts.iter().filter(|p| short && p.kind == PartKind::Capacitor && !open_at_mid_band(p)) {
             let (ra, rb) = (
                 root(&mut parent, at(&p.nodes[0])),
                 root(&mut parent, at(&p.nodes[1])),
