@@ -61,6 +61,9 @@ pub struct Design {
     /// Photodiodes: the transimpedance stage.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub photodiode: Option<crate::synth::tia::TiaDesign>,
+    /// Differential sensors: the difference amplifier and its common-mode rejection.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub differential: Option<crate::synth::diffamp::DiffDesign>,
     /// The circuit model every output derives from (absent when synthesis was impossible).
     #[serde(skip)]
     pub circuit: Option<Circuit>,
@@ -159,6 +162,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         current_loop: None,
         high_impedance: None,
         photodiode: None,
+        differential: None,
         circuit: None,
     };
     if has_error(&checks) {
@@ -242,6 +246,12 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         };
         p = q;
         checks.extend(synth::buffer::checks(req, b, &amp));
+    }
+    if req.source.kind == crate::request::SourceKind::Differential {
+        if let Some((dd, check)) = synth::diffamp::report(req, &s) {
+            out.differential = Some(dd);
+            checks.push(check);
+        }
     }
     if let Some(t) = &tia {
         checks.retain(|c| c.id != "sensor_impedance");
@@ -561,24 +571,34 @@ fn design_checks(req: &Request, s: &synth::Synthesis, p: &Predicted, amp: &Ampli
 /// injection current limited (the amplifier's datasheet governs its input current).
 fn input_protection(req: &Request, c: &Circuit, rails: Rails) -> Vec<Check> {
     let src = &req.source;
-    // AC coupling: the coupling capacitor keeps the sensor's DC level off the amplifier.
-    if src.coupling == Coupling::Ac {
+    // AC coupling: the coupling capacitor keeps the sensor's DC level off the amplifier; a
+    // current sensor sets no voltage of its own.
+    if src.coupling == Coupling::Ac || src.kind.quantity() != Quantity::Voltage {
         return Vec::new();
     }
-    let beyond = src.max > rails.pos + crate::synth::drive::CLAMP_DROP || src.min < rails.neg - crate::synth::drive::CLAMP_DROP;
+    // A differential pair's legs sit at the common mode ± half the signal.
+    let (lo, hi) = match (src.common_mode_min, src.common_mode_max) {
+        (Some(a), Some(b)) => {
+            let half = 0.5 * src.min.abs().max(src.max.abs());
+            (a - half, b + half)
+        }
+        _ => (src.min, src.max),
+    };
+    let beyond = hi > rails.pos + crate::synth::drive::CLAMP_DROP || lo < rails.neg - crate::synth::drive::CLAMP_DROP;
     if !beyond {
         return Vec::new();
     }
-    let direct = c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.nodes.iter().take(2).any(|n| n == "sense"));
-    let series = c.parts.iter().filter(|p| !p.bench && p.kind == PartKind::Resistor && p.nodes.iter().any(|n| n == "sense")).map(|p| p.value).fold(f64::INFINITY, f64::min);
+    let inputs = ["sense", "sensep", "sensen"];
+    let direct = c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.nodes.iter().take(2).any(|n| inputs.contains(&n.as_str())));
+    let series = c.parts.iter().filter(|p| !p.bench && p.kind == PartKind::Resistor && p.nodes.iter().any(|n| inputs.contains(&n.as_str()))).map(|p| p.value).fold(f64::INFINITY, f64::min);
     let limit = req.destination.injection_limit;
     if direct || !series.is_finite() {
-        return vec![Check::warning("input_protection", format!("The sensor reaches {} … {}, beyond the rails {} … {}, and meets an amplifier input with no series resistor; add one of at least (excess − 0.3 V)/{} in front of it.", v(src.min), v(src.max), v(rails.neg), v(rails.pos), format(limit, Quantity::Current)))];
+        return vec![Check::warning("input_protection", format!("The sensor reaches {} … {}, beyond the rails {} … {}, and meets an amplifier input with no series resistor; add one of at least (excess − 0.3 V)/{} in front of it.", v(lo), v(hi), v(rails.neg), v(rails.pos), format(limit, Quantity::Current)))];
     }
     let tolerated = series * limit + crate::synth::drive::CLAMP_DROP;
     vec![Check::ok(
         "input_protection",
-        format!("The sensor reaches {} … {}, beyond the rails {} … {}; the input network keeps the amplifier's inputs inside them over that range, and its {} series resistance keeps a fault up to {} beyond a rail under {} into the input's protection (the amplifier's datasheet governs).", v(src.min), v(src.max), v(rails.neg), v(rails.pos), format(series, Quantity::Resistance), v(tolerated), format(limit, Quantity::Current)),
+        format!("The sensor reaches {} … {}, beyond the rails {} … {}; the input network keeps the amplifier's inputs inside them over that range, and its {} series resistance keeps a fault up to {} beyond a rail under {} into the input's protection (the amplifier's datasheet governs).", v(lo), v(hi), v(rails.neg), v(rails.pos), format(series, Quantity::Resistance), v(tolerated), format(limit, Quantity::Current)),
     )]
 }
 

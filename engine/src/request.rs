@@ -190,13 +190,15 @@ pub enum SourceKind {
     HighImpedance,
     /// A photodiode's photocurrent, into a transimpedance stage.
     Photodiode,
+    /// A two-wire signal riding on a common-mode level.
+    Differential,
 }
 
 impl SourceKind {
     /// The quantity of `source.min`/`max`: the measured quantity of this kind.
     pub fn quantity(self) -> Quantity {
         match self {
-            SourceKind::SingleEnded | SourceKind::HighImpedance => Quantity::Voltage,
+            SourceKind::SingleEnded | SourceKind::HighImpedance | SourceKind::Differential => Quantity::Voltage,
             SourceKind::CurrentLoop | SourceKind::Photodiode => Quantity::Current,
         }
     }
@@ -254,6 +256,11 @@ pub struct Source {
     /// Photodiodes: the dark current, A (it adds to the photocurrent).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub dark_current: Option<f64>,
+    /// Differential sensors: the range of the pair's common-mode level, V.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub common_mode_min: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub common_mode_max: Option<f64>,
 }
 
 /// The physical quantity behind the sensor's output: `at_min` at `source.min`, `at_max` at
@@ -438,8 +445,9 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
         Some("current_loop") => SourceKind::CurrentLoop,
         Some("high_impedance") => SourceKind::HighImpedance,
         Some("photodiode") => SourceKind::Photodiode,
+        Some("differential") => SourceKind::Differential,
         Some(other) => {
-            return Err(o.err("kind", &format!("'{other}' is not a sensor kind this version designs for; use \"single_ended\", \"current_loop\", \"high_impedance\" or \"photodiode\"")))
+            return Err(o.err("kind", &format!("'{other}' is not a sensor kind this version designs for; use \"single_ended\", \"differential\", \"current_loop\", \"high_impedance\" or \"photodiode\"")))
         }
     };
     let q = kind.quantity();
@@ -519,8 +527,28 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
         (SourceKind::Photodiode, _) | (_, None) => {}
         (_, Some(_)) => return Err(o.err("dark_current", "applies only to a photodiode (source.kind = \"photodiode\")")),
     }
-    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high", "capacitance", "dark_current"])?;
-    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand, current_loop, capacitance, dark_current })
+    let (cm_lo, cm_hi) = (o.q("common_mode_min", Quantity::Voltage)?, o.q("common_mode_max", Quantity::Voltage)?);
+    let (common_mode_min, common_mode_max) = match kind {
+        SourceKind::Differential => {
+            if coupling == Coupling::Ac {
+                return Err(o.err("coupling", "a differential sensor is taken with its DC level here; use \"dc\""));
+            }
+            let lo = cm_lo.or(cm_hi).unwrap_or(0.0);
+            let hi = cm_hi.unwrap_or(lo);
+            if hi < lo {
+                return Err(o.err("common_mode_max", "is below common_mode_min; give the lower common-mode level as common_mode_min"));
+            }
+            (Some(lo), Some(hi))
+        }
+        _ => {
+            if cm_lo.is_some() || cm_hi.is_some() {
+                return Err(o.err(if cm_lo.is_some() { "common_mode_min" } else { "common_mode_max" }, "applies only to a differential sensor (source.kind = \"differential\")"));
+            }
+            (None, None)
+        }
+    };
+    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high", "capacitance", "dark_current", "common_mode_min", "common_mode_max"])?;
+    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand, current_loop, capacitance, dark_current, common_mode_min, common_mode_max })
 }
 
 /// The current-loop fields of `source`; the loop current flows into the measuring input.

@@ -47,17 +47,22 @@ pub fn loading(req: &Request, circuit: &Circuit) -> LoadingAnalysis {
         }
         c
     };
-    // 1 mΩ stands for an ideal source (as in the bench model), 1 PΩ for an open circuit.
+    // 1 mΩ stands for an ideal source (as in the bench model), 1 PΩ for an open circuit. A
+    // differential sensor has one impedance per leg; the + leg's input is reported.
+    let (legs, node): (&[&str], &str) = if circuit.part("RSENSEP").is_some() { (&["RSENSEP", "RSENSEN"], "sensep") } else { (&["RSENSE"], "sense") };
+    let set = |v: f64| legs.iter().map(|r| (*r, v)).collect::<Vec<_>>();
     let actual = gain(circuit);
-    let ideal_source = gain(&with(&[("RSENSE", 1e-3)]));
+    let ideal_source = gain(&with(&set(1e-3)));
     let unloaded = gain(&with(&[("RADC", 1e15)]));
-    let ideal = gain(&with(&[("RSENSE", 1e-3), ("RADC", 1e15)]));
-    let open = with(&[("RSENSE", 1e15)]);
+    let mut both = set(1e-3);
+    both.push(("RADC", 1e15));
+    let ideal = gain(&with(&both));
+    let open = with(&set(1e15));
     let solver = Solver::new(&open);
     let input_impedance = solver
-        .injection_transfers(f, "sense")
+        .injection_transfers(f, node)
         .ok()
-        .and_then(|z| solver.index_of("sense").map(|k| z[k].norm()))
+        .and_then(|z| solver.index_of(node).map(|k| z[k].norm()))
         .unwrap_or(f64::NAN);
     let rail_currents = rail_currents(req, circuit);
     let ratio = |a: f64, b: f64| if b > 0.0 && a.is_finite() && b.is_finite() { a / b - 1.0 } else { 0.0 };

@@ -22,6 +22,7 @@ pub mod ac;
 pub mod buffer;
 pub mod chain;
 pub mod dc;
+pub mod diffamp;
 pub mod drive;
 pub mod filter;
 pub mod front;
@@ -156,9 +157,10 @@ pub fn synthesize_with_chain(req: &Request, amp: &Amplifier, rails: Rails, targe
     let limits = Limits::of(amp, rails);
     let reference = chain.reference(req, rails, target);
     let t = chain.gain_target(req, target, reference.as_ref());
-    let mut s = match req.source.coupling {
-        Coupling::Dc => dc::synthesize(req, amp, rails, t, limits),
-        Coupling::Ac => ac::synthesize(req, amp, rails, t, limits),
+    let mut s = match (req.source.kind, req.source.coupling) {
+        (crate::request::SourceKind::Differential, _) => diffamp::synthesize(req, amp, rails, t, limits),
+        (_, Coupling::Dc) => dc::synthesize(req, amp, rails, t, limits),
+        (_, Coupling::Ac) => ac::synthesize(req, amp, rails, t, limits),
     }?;
     chain.attach(&mut s, req, rails, reference.as_ref());
     // Followers and Sallen-Key sections see the gain stage's output at their + inputs.

@@ -32,25 +32,37 @@ impl Ctx<'_> {
         // Known potentials: ground, and every node a source ties to ground.
         let mut known: Vec<Option<(f64, f64)>> = vec![None; names.len()];
         known[0] = Some((0.0, 0.0));
-        for p in c.parts.iter().filter(|p| p.kind == PartKind::VoltageSource) {
-            let (u, w) = match (is_sensor_source(p), short) {
-                (true, _) => (1.0, 0.0),
-                (false, false) => (0.0, p.value),
-                (false, true) => (0.0, 0.0),
-            };
-            let (node, val) = match (at(&p.nodes[0]), at(&p.nodes[1])) {
-                (a, 0) if a != 0 => (a, (u, w)),
-                (0, b) if b != 0 => (b, (-u, -w)),
-                _ => {
-                    return err(format!(
-                        "{} is not a source from a node to ground",
-                        p.reference
-                    ))
+        // A source fixes its + node from its − node (V+ − V− = value) once one of them is
+        // known; chains of sources (a differential sensor on its common-mode source) resolve
+        // over several passes.
+        let mut pending: Vec<(usize, usize, f64, f64, &str)> = c
+            .parts
+            .iter()
+            .filter(|p| p.kind == PartKind::VoltageSource)
+            .map(|p| {
+                let (u, w) = match (is_sensor_source(p), short) {
+                    (true, _) => (1.0, 0.0),
+                    (false, false) => (0.0, p.value),
+                    (false, true) => (0.0, 0.0),
+                };
+                (at(&p.nodes[0]), at(&p.nodes[1]), u, w, p.reference.as_str())
+            })
+            .collect();
+        while !pending.is_empty() {
+            let before = pending.len();
+            let mut rest = Vec::new();
+            for (a, b, u, w, r) in pending {
+                match (known[a], known[b]) {
+                    (None, Some((ku, kw))) => known[a] = Some((ku + u, kw + w)),
+                    (Some((ku, kw)), None) => known[b] = Some((ku - u, kw - w)),
+                    (Some(_), Some(_)) => return err(format!("node {} is fixed twice (by {r})", names[a])),
+                    (None, None) => rest.push((a, b, u, w, r)),
                 }
-            };
-            if known[node].replace(val).is_some() {
-                return err(format!("node {} is fixed twice", names[node]));
             }
+            if rest.len() == before {
+                return err(format!("{} is not a source from a node to ground", rest[0].4));
+            }
+            pending = rest;
         }
         // Shorted capacitors join nodes (one across two different known potentials stays open).
         let mut parent: Vec<usize> = (0..names.len()).collect();
