@@ -284,6 +284,18 @@ fn mapping_node(s: &Shown) -> Node {
             .child(el("h4").text("Input follower U1"))
             .child(el_c("dl", "mapping").attr("data-testid", "buffer").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
     }
+    if let Some(dd) = &s.design.differential {
+        let facts = [
+            ("R1 = R3", format(dd.r1, Quantity::Resistance)),
+            ("R2 = R4", format(dd.r2, Quantity::Resistance)),
+            ("Reference pin", volts(dd.reference)),
+            ("Worst-case CMRR", format!("{:.1} dB", dd.cmrr_worst_db)),
+            ("Output shift over the common-mode range", volts(dd.cm_error)),
+        ];
+        out = out
+            .child(el("h4").text("Difference amplifier"))
+            .child(el_c("dl", "mapping").attr("data-testid", "differential").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
+    }
     if let Some(t) = &s.design.photodiode {
         let facts = [
             ("Feedback R_f", format(t.feedback_resistor, Quantity::Resistance)),

@@ -138,6 +138,7 @@ impl Field {
             "source.capacitance" => matches!(text("source.kind").as_str(), "high_impedance" | "photodiode"),
             "source.coupling" | "source.impedance" | "source.band_low" => !current_loop() && text("source.kind") != "photodiode",
             "source.dark_current" => text("source.kind") == "photodiode",
+            "source.common_mode_min" | "source.common_mode_max" => text("source.kind") == "differential",
             "destination.modulator_rate" => oversampling(),
             "destination.acquisition_time" | "destination.input_capacitance" => !oversampling(),
             "filter.response" => true,
@@ -155,6 +156,7 @@ pub const AMP_GIVEN: &str = "given";
 
 const KINDS: &[(&str, &str)] = &[
     ("single_ended", "Single-ended voltage (one signal wire against ground)"),
+    ("differential", "Differential pair (two signal wires riding on a common-mode level)"),
     ("current_loop", "Current loop (4–20 mA or another range), measured across a shunt"),
     ("high_impedance", "High-impedance voltage (MΩ to TΩ: pH or ion electrode, piezo film, bare electret)"),
     ("photodiode", "Photodiode: its photocurrent, into a transimpedance stage"),
@@ -211,6 +213,8 @@ pub const FIELDS: &[Field] = &[
     field!("source.kind", "Kind of output", Kind::Choice(KINDS), Sensor, "Its output", false, "How the sensor presents its signal."),
     field!("source.min", "Lowest output", q(Quantity::Voltage), Sensor, "Its output", true, "The lowest instantaneous voltage, DC level included, e.g. 0.5 V or -2 V; for a current loop the lowest loop current, e.g. 4 mA."),
     field!("source.max", "Highest output", q(Quantity::Voltage), Sensor, "Its output", true, "The highest instantaneous voltage, DC level included, e.g. 4.5 V; for a current loop the highest loop current, e.g. 20 mA."),
+    field!("source.common_mode_min", "Lowest common-mode level", q(Quantity::Voltage), Sensor, "Its output", false, "The pair's average level against ground at its lowest, e.g. 2.2 V."),
+    field!("source.common_mode_max", "Highest common-mode level", q(Quantity::Voltage), Sensor, "Its output", false, "The pair's average level at its highest, e.g. 2.8 V."),
     field!("source.capacitance", "Sensor capacitance", q(Quantity::Capacitance), Sensor, "Its output", false, "High impedance, DC: electrode and cable capacitance; AC: the capacitance the signal sits behind (a piezo film's, e.g. 1 nF). Photodiode: its junction capacitance, e.g. 70 pF."),
     field!("source.dark_current", "Dark current", q(Quantity::Current), Sensor, "Its output", false, "The diode's current in the dark at its bias, from its datasheet, e.g. 2 nA."),
     field!("source.burden_max", "Largest voltage the loop allows across the input", q(Quantity::Voltage), Sensor, "Its output", false, "From the loop's supply and the transmitter's own drop, e.g. 5 V (a 250 Ω receiver at 20 mA)."),

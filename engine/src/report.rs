@@ -125,6 +125,9 @@ fn summary(h: &mut String, d: &Design) {
             if let Some(i) = s.dark_current {
                 rows.push(("Dark current", format(i, Quantity::Current)));
             }
+            if let (Some(a), Some(b)) = (s.common_mode_min, s.common_mode_max) {
+                rows.push(("Common-mode range", format!("{} … {}", v(a), v(b))));
+            }
         }
     }
     rows.push(("Band", format!("{} … {}", hz(s.band_low), hz(s.band_high))));
