@@ -43,6 +43,7 @@ use serde::Serialize;
 mod annotate;
 mod buffer;
 mod chain;
+mod diff;
 mod plan;
 mod rows;
 mod sheet;
@@ -55,6 +56,7 @@ use crate::solve::{DcSolution, Solver};
 use crate::units::{format, Quantity};
 use buffer::Buffer;
 use chain::Chain;
+use diff::Diff;
 use plan::Plan;
 use sheet::{Sheet, INK};
 use tia::Tia;
@@ -184,22 +186,16 @@ pub fn schematic(circuit: &Circuit, op: Option<&DcSolution>, ranges: &[TestPoint
         (None, Some(t)) => (t.out.clone(), t.parts()),
         (None, None) => ("sense".to_string(), Vec::new()),
     };
-    let plan = Plan::of(circuit, &sh.rails, &start, &skip);
-    let x_term = sh.sensor();
-    // The gain stage's own row: room above its line for the loops drawn there.
-    let top = if plan.bottom == plan.inn && plan.inn != plan.out { 80.0 } else { 140.0 };
-    let x_line = match (&buffer, &tia) {
-        (Some(b), _) => {
-            let tip = sh.buffer_row(b, x_term, top);
-            sh.series(&plan, tip, sheet::TP_GAP / 2.0)
+    // A differential sensor's difference amplifier draws its own first row, sensor included.
+    let diff = if buffer.is_none() && tia.is_none() { Diff::of(circuit, &sh.rails) } else { None };
+    let (plan, out) = match &diff {
+        Some(d) => (Plan { amp: Some(d.amp), out: d.out.clone(), start: start.clone(), ..Plan::default() }, sh.diff_row(d)),
+        None => {
+            let plan = Plan::of(circuit, &sh.rails, &start, &skip);
+            let out = front(&mut sh, &plan, buffer.as_ref(), tia.as_ref());
+            (plan, out)
         }
-        (None, Some(t)) => {
-            let tip = sh.tia_row(t, x_term, top);
-            sh.series(&plan, tip, sheet::TP_GAP / 2.0)
-        }
-        (None, None) => sh.series(&plan, x_term, sheet::TP_GAP),
     };
-    let out = sh.amp_stage(&plan, x_line);
     let at = out.map(|o| {
         let mut used = sh.done.clone();
         let chain = Chain::of(circuit, &o.2, &sh.rails, &mut used);
@@ -221,6 +217,26 @@ pub fn schematic(circuit: &Circuit, op: Option<&DcSolution>, ranges: &[TestPoint
     }
     sh.dc_levels();
     sh.finish(name)
+}
+
+/// The sensor, whatever front end has a row of its own, the series path and the
+/// single-ended gain stage; returns where the gain stage's output line ends.
+fn front(sh: &mut Sheet, plan: &Plan, buffer: Option<&Buffer>, tia: Option<&Tia>) -> Option<(f64, f64, String)> {
+    let x_term = sh.sensor();
+    // The gain stage's own row: room above its line for the loops drawn there.
+    let top = if plan.bottom == plan.inn && plan.inn != plan.out { 80.0 } else { 140.0 };
+    let x_line = match (buffer, tia) {
+        (Some(b), _) => {
+            let tip = sh.buffer_row(b, x_term, top);
+            sh.series(plan, tip, sheet::TP_GAP / 2.0)
+        }
+        (None, Some(t)) => {
+            let tip = sh.tia_row(t, x_term, top);
+            sh.series(plan, tip, sheet::TP_GAP / 2.0)
+        }
+        (None, None) => sh.series(plan, x_term, sheet::TP_GAP),
+    };
+    sh.amp_stage(plan, x_line)
 }
 
 /// Designator's companion: the value with its unit.

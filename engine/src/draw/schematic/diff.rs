@@ -1,0 +1,268 @@
+//! The difference amplifier of a differential sensor, and that sensor's bench model.
+//!
+//! Recognised by the design contract of `synth::diffamp`: a bench EMF between two legs
+//! (`VSENSE`, neither node ground), a source from its second leg to ground (`VCM`), a bench
+//! resistor from each leg to a terminal (`RSENSEP`, `RSENSEN`); an amplifier of the gain
+//! stage with one input resistor from each terminal to one of its inputs, feedback from the
+//! output to the − input, and one more part from the + input to its reference: ground, a
+//! rail, or a node driven by a follower whose + input sits on a divider with its bypass.
+//! Anything short of that is left to the other blocks.
+//!
+//! The layout takes the first row. The sensor box holds the legs: `VSENSE` upright between
+//! them, `VCM` from the lower leg to ground, the leg resistors along the two lines to the
+//! terminals (the upper line from the first node of `VSENSE`, the lower from its second).
+//! Each line runs through its input resistor to the amplifier input on its own side (the
+//! symbol's `+` and `−` follow), so the two lines never cross. The part to the reference
+//! hangs from the + line; the feedback runs from the − line to the output column: along the
+//! lower line under the amplifier when − is the lower input, as a loop above it when − is
+//! the upper one. A reference pin driven by a follower ends at a terminal with the node's
+//! name; the follower with its divider and bypass is a small block on a row of its own under
+//! the stage, ending at a terminal of the same name. The output then runs on as the
+//! single-ended gain stage's does (to the filter rows, or to the converter box).
+
+use super::plan::{has, other, plain, Leg, Rail, Step};
+use super::rows::ROW_GAP;
+use super::sheet::{Mark, Sheet, GREY, HSPAN, INK, OUT_RUN, PITCH, SPAN, X0, Y0};
+use crate::circuit::{Circuit, PartKind, StageRole, GND};
+use crate::draw::svg::{Anchor, BoxRect, Pen};
+
+/// Width of the sensor box, and the drop from the upper line to the lower one.
+const BOX_W: f64 = 200.0;
+const LOW: f64 = 130.0;
+/// Free run of each line from the sensor box to its input resistor.
+const RUN: f64 = 40.0;
+/// Feedback loops: the step between stacked loops, and the first loop above the line.
+const LOOP_STEP: f64 = 60.0;
+const LOOP_UP: f64 = 90.0;
+/// The follower's output-to-− link below its symbol, clear of its supply stub.
+const LINK: f64 = 105.0;
+
+/// The difference amplifier and what hangs from it.
+#[derive(Debug, Clone)]
+pub(super) struct Diff {
+    /// Bench: the EMF between the legs, the common-mode source, the leg resistors.
+    vsense: usize,
+    vcm: usize,
+    leg_up: usize,
+    leg_low: usize,
+    /// The two legs (upper, lower) and the terminals they end at (upper, lower).
+    emf: [String; 2],
+    term: [String; 2],
+    pub(super) amp: usize,
+    /// The input resistors from the upper and lower terminal, and the inputs they feed.
+    input: [usize; 2],
+    pin_node: [String; 2],
+    /// The amplifier's + and − inputs and its output.
+    inp: String,
+    inn: String,
+    pub(super) out: String,
+    feedback: Vec<usize>,
+    /// The part from the + input to the reference, and the reference node.
+    to_ref: usize,
+    reference: String,
+    /// A follower driving the reference: amplifier, its + input and the divider there.
+    follower: Option<(usize, String, Vec<Step>)>,
+}
+
+impl Diff {
+    /// The difference amplifier of `c`, if it has one (see the module's doc).
+    pub(super) fn of(c: &Circuit, rails: &[Rail]) -> Option<Diff> {
+        let terminal = |n: &str| n == GND || rails.iter().any(|r| r.node == n);
+        let bench = |i: usize, k: PartKind| c.parts[i].bench && c.parts[i].kind == k && c.parts[i].nodes.len() == 2;
+        let n = c.parts.len();
+        let vsense = (0..n).find(|&i| {
+            let p = &c.parts[i];
+            bench(i, PartKind::VoltageSource) && p.stage == StageRole::Sensor && !terminal(&p.nodes[0]) && !terminal(&p.nodes[1]) && p.nodes[0] != p.nodes[1]
+        })?;
+        let emf = [c.parts[vsense].nodes[0].clone(), c.parts[vsense].nodes[1].clone()];
+        let vcm = (0..n).find(|&i| bench(i, PartKind::VoltageSource) && c.parts[i].stage == StageRole::Sensor && c.parts[i].nodes[0] == emf[1] && c.parts[i].nodes[1] == GND)?;
+        let leg = |e: &str, away: &str| (0..n).find(|&i| bench(i, PartKind::Resistor) && has(&c.parts[i], e) && other(&c.parts[i], e) != away && other(&c.parts[i], e) != e);
+        let (leg_up, leg_low) = (leg(&emf[0], &emf[1])?, leg(&emf[1], &emf[0])?);
+        let term = [other(&c.parts[leg_up], &emf[0]), other(&c.parts[leg_low], &emf[1])];
+        if term[0] == term[1] || term.iter().any(|t| terminal(t) || emf.contains(t)) {
+            return None;
+        }
+        let amp = (0..n).find(|&i| {
+            let p = &c.parts[i];
+            !p.bench
+                && p.kind == PartKind::OpAmp
+                && p.stage == StageRole::Gain
+                && p.nodes.len() >= 5
+                && p.nodes[0] != p.nodes[1]
+                && p.nodes[4] != p.nodes[0]
+                && p.nodes[4] != p.nodes[1]
+                && !terminal(&p.nodes[4])
+                && !p.nodes[..2].iter().any(|x| terminal(x) || term.contains(x) || emf.contains(x))
+        })?;
+        let (inp, inn, out) = (c.parts[amp].nodes[0].clone(), c.parts[amp].nodes[1].clone(), c.parts[amp].nodes[4].clone());
+        let feed = |t: &str, skip: Option<usize>| (0..n).find(|&i| Some(i) != skip && plain(&c.parts[i]) && has(&c.parts[i], t) && [&inp, &inn].contains(&&other(&c.parts[i], t)));
+        let up = feed(&term[0], None)?;
+        let low = feed(&term[1], Some(up))?;
+        let pin_node = [other(&c.parts[up], &term[0]), other(&c.parts[low], &term[1])];
+        if pin_node[0] == pin_node[1] {
+            return None;
+        }
+        let feedback: Vec<usize> = (0..n).filter(|&i| plain(&c.parts[i]) && has(&c.parts[i], &inn) && has(&c.parts[i], &out)).collect();
+        let to_ref = (0..n).find(|&i| {
+            let p = &c.parts[i];
+            i != up && i != low && plain(p) && has(p, &inp) && ![&inp, &inn, &out].contains(&&other(p, &inp)) && !term.contains(&other(p, &inp))
+        })?;
+        if feedback.is_empty() {
+            return None;
+        }
+        let reference = other(&c.parts[to_ref], &inp);
+        let follower = if terminal(&reference) {
+            None
+        } else {
+            let f = (0..n).find(|&i| {
+                let p = &c.parts[i];
+                !p.bench && p.kind == PartKind::OpAmp && p.nodes.len() >= 5 && i != amp && p.nodes[4] == reference && p.nodes[1] == reference && p.nodes[0] != reference
+            })?;
+            let dref = c.parts[f].nodes[0].clone();
+            if terminal(&dref) || [&inp, &inn, &out].contains(&&dref) {
+                return None;
+            }
+            let divider: Vec<Step> = (0..n)
+                .filter(|&i| plain(&c.parts[i]) && has(&c.parts[i], &dref) && terminal(&other(&c.parts[i], &dref)))
+                .map(|i| Step { part: i, from: dref.clone(), to: other(&c.parts[i], &dref) })
+                .collect();
+            if divider.is_empty() {
+                return None;
+            }
+            Some((f, dref, divider))
+        };
+        Some(Diff { vsense, vcm, leg_up, leg_low, emf, term, amp, input: [up, low], pin_node, inp, inn, out, feedback, to_ref, reference, follower })
+    }
+}
+
+impl Sheet<'_> {
+    /// The two-leg sensor in a dashed box; returns the terminals' x.
+    fn diff_sensor(&mut self, d: &Diff) -> f64 {
+        let (y, yl) = (Y0, Y0 + LOW);
+        let sx = X0 + 40.0;
+        let right = X0 + BOX_W;
+        self.two(d.vsense, (sx, y), &d.emf[0], (sx, yl), &d.emf[1], true);
+        self.two(d.vcm, (sx, yl), &d.emf[1], (sx, yl + SPAN), GND, true);
+        self.terminal((sx, yl + SPAN), GND, false);
+        for (k, (part, yy)) in [(d.leg_up, y), (d.leg_low, yl)].into_iter().enumerate() {
+            self.two(part, (sx, yy), &d.emf[k], (sx + HSPAN, yy), &d.term[k], true);
+            self.wire((sx + HSPAN, yy), (right, yy), &d.term[k], true);
+        }
+        // The legs' inner nodes are the bench's own (their levels are the sources' values,
+        // written beside them), with no free run outside the box for a DC label.
+        self.quiet.extend(d.emf.iter().cloned());
+        let bottom = yl + SPAN + 30.0;
+        let dashed = Pen { colour: GREY, width: 1.5, dashed: true };
+        self.svg.rect(X0, y - 60.0, BOX_W, bottom - (y - 60.0), "none", dashed);
+        self.svg.text(X0 + 4.0, y - 66.0, "sensor", self.cfg.font_size, Anchor::Start, GREY, "", "italic");
+        self.bench_areas.push(BoxRect::new(X0, y - 60.0, BOX_W, bottom - (y - 60.0)));
+        for (k, yy) in [y, yl].into_iter().enumerate() {
+            self.svg.circle((right, yy), 3.5, "#ffffff", Some(self.pen(true)));
+            self.marks.push(Mark { text: d.term[k].clone(), at: (right + 4.0, yy), up: true, colour: INK });
+        }
+        right
+    }
+
+    /// The sensor, the difference amplifier and (on a row below) the follower driving its
+    /// reference; returns where the output line ends (x, y, net), as `amp_stage` does.
+    pub(super) fn diff_row(&mut self, d: &Diff) -> Option<(f64, f64, String)> {
+        let (y, yl) = (Y0, Y0 + LOW);
+        let (yo, yb) = (y + 20.0, y + 40.0);
+        let right = self.diff_sensor(d);
+        let x_r = right + RUN;
+        let x_in = x_r + HSPAN;
+        for (k, yy) in [y, yl].into_iter().enumerate() {
+            self.wire((right, yy), (x_r, yy), &d.term[k], false);
+            self.two(d.input[k], (x_r, yy), &d.term[k], (x_in, yy), &d.pin_node[k], true);
+        }
+        let plus_up = d.pin_node[0] == d.inp;
+        let x4 = x_in + 45.0;
+        let ux = x4 + 90.0;
+        let x_m = ux - 25.0;
+        let (x_out, xr) = (ux + 80.0, ux + 110.0);
+        let leg = Leg { steps: vec![Step { part: d.to_ref, from: d.inp.clone(), to: d.reference.clone() }], end: d.reference.clone(), block: None };
+        if plus_up {
+            // + on the upper line with the reference hanging from it; − on the lower line,
+            // rising to the lower input, the feedback along that line under the amplifier.
+            self.wire((x_in, y), (x4, y), &d.inp, false);
+            self.wire((x4, y), (ux, y), &d.inp, false);
+            self.leg(&leg, x4, y, true);
+            self.wire((x_in, yl), (x_m, yl), &d.inn, false);
+            self.wire((x_m, yl), (x_m, yb), &d.inn, false);
+            self.wire((x_m, yb), (ux, yb), &d.inn, false);
+            let (mut yp, mut yq, mut xp) = (yl, yo, x_m);
+            for (k, &f) in d.feedback.iter().enumerate() {
+                let yk = yl + LOOP_STEP * k as f64;
+                if k == 0 {
+                    self.wire((x_m, yl), (ux, yl), &d.inn, false);
+                    xp = ux;
+                } else {
+                    self.wire((xp, yp), (xp, yk), &d.inn, false);
+                }
+                self.two(f, (xp, yk), &d.inn, (xr, yk), &d.out, true);
+                if let Some(l) = self.labels.last_mut() {
+                    l.below_first = true;
+                }
+                self.wire((xr, yk), (xr, yq), &d.out, false);
+                yp = yk;
+                yq = yk;
+            }
+        } else {
+            // − on the upper line with the feedback looping above the amplifier; + on the
+            // lower line with the reference hanging from it, rising to the lower input.
+            let xf = ux - 40.0;
+            self.wire((x_in, y), (xf, y), &d.inn, false);
+            self.wire((xf, y), (ux, y), &d.inn, false);
+            let (mut yp, mut yq) = (y, yo);
+            for (k, &f) in d.feedback.iter().enumerate() {
+                let yk = y - LOOP_UP - LOOP_STEP * k as f64;
+                self.wire((xf, yp), (xf, yk), &d.inn, false);
+                self.two(f, (xf, yk), &d.inn, (xr, yk), &d.out, true);
+                self.wire((xr, yk), (xr, yq), &d.out, false);
+                yp = yk;
+                yq = yk;
+            }
+            self.wire((x_in, yl), (x4, yl), &d.inp, false);
+            self.wire((x4, yl), (x_m, yl), &d.inp, false);
+            self.leg(&leg, x4, yl, false);
+            self.wire((x_m, yl), (x_m, yb), &d.inp, false);
+            self.wire((x_m, yb), (ux, yb), &d.inp, false);
+        }
+        if self.c.parts.get(d.amp).is_none_or(|p| p.nodes.len() < 5) {
+            return None;
+        }
+        self.opamp(d.amp, ux, y, [plus_up, !plus_up]);
+        self.supply_pins(d.amp, ux, y);
+        let xa = x_out + if d.out == "adc" { OUT_RUN } else { OUT_RUN - 60.0 };
+        self.wire((x_out, yo), (xa, yo), &d.out, false);
+        if let Some((f, dref, divider)) = &d.follower {
+            self.reference_row(*f, dref, divider, &d.reference);
+        }
+        Some((xa, yo, d.out.clone()))
+    }
+
+    /// The follower `f` driving node `net` from the divider on `dref`, on a row of its own
+    /// under what is drawn: the divider and bypass hanging from a bus, the follower with its
+    /// − input looped round from the output below the symbol, the output ending at a
+    /// terminal named `net`.
+    fn reference_row(&mut self, f: usize, dref: &str, divider: &[Step], net: &str) {
+        let ups = divider.iter().filter(|s| self.positive_rail(&s.to)).count();
+        let cols = ups.max(divider.len() - ups).max(1);
+        let bottom = self.svg.bounds().map(|b| b.3).unwrap_or(Y0);
+        let yr = bottom + ROW_GAP + if ups > 0 { SPAN + 40.0 } else { 60.0 };
+        let x_b = X0 + 40.0 + cols as f64 * PITCH;
+        self.block(divider, x_b, yr, dref, false);
+        let ux = x_b + 60.0;
+        self.wire((x_b, yr), (ux, yr), dref, false);
+        self.opamp(f, ux, yr, [true, false]);
+        self.supply_pins(f, ux, yr);
+        let (xf, xt) = (ux + 95.0, ux + 190.0);
+        self.wire((ux + 80.0, yr + 20.0), (xf, yr + 20.0), net, false);
+        self.wire((xf, yr + 20.0), (xt, yr + 20.0), net, false);
+        self.wire((xf, yr + 20.0), (xf, yr + LINK), net, false);
+        self.wire((xf, yr + LINK), (ux - 15.0, yr + LINK), net, false);
+        self.wire((ux - 15.0, yr + LINK), (ux - 15.0, yr + 40.0), net, false);
+        self.wire((ux - 15.0, yr + 40.0), (ux, yr + 40.0), net, false);
+        self.terminal((xt, yr + 20.0), net, true);
+    }
+}
