@@ -100,7 +100,8 @@ pub struct TestPoint {
     pub max: f64,
 }
 
-/// Test points the design wants, numbered in signal order: the sensor terminal (`sense`);
+/// Test points the design wants, numbered in signal order: the sensor terminal (`sense`,
+/// or a differential pair's two terminals `sensep` and `sensen`);
 /// for AC coupling the amplifier's + input after the coupling; the converter input (`adc`:
 /// the amplifier output, or the end of the filter and drive that follow it). DC coupling: the node voltages at the sensor's minimum and
 /// maximum. AC coupling: the operating point (sensor at mid-range) ± the mid-band swing, the
@@ -111,7 +112,7 @@ pub fn test_points(req: &Request, circuit: &Circuit) -> Vec<TestPoint> {
     }
     let amp = circuit.parts.iter().find(|p| p.kind == PartKind::OpAmp);
     let s = &req.source;
-    let mut want = vec!["sense".to_string()];
+    let mut want: Vec<String> = ["sense", "sensep", "sensen"].iter().map(|n| n.to_string()).collect();
     if s.coupling == Coupling::Ac {
         want.extend(amp.and_then(|u| u.nodes.first()).cloned());
     }

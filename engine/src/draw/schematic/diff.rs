@@ -22,15 +22,15 @@
 
 use super::plan::{has, other, plain, Leg, Rail, Step};
 use super::rows::ROW_GAP;
-use super::sheet::{Mark, Sheet, GREY, HSPAN, INK, OUT_RUN, PITCH, SPAN, X0, Y0};
+use super::sheet::{Sheet, GREY, HSPAN, INK, OUT_RUN, PITCH, SPAN, X0, Y0};
 use crate::circuit::{Circuit, PartKind, StageRole, GND};
 use crate::draw::svg::{Anchor, BoxRect, Pen};
 
 /// Width of the sensor box, and the drop from the upper line to the lower one.
 const BOX_W: f64 = 200.0;
 const LOW: f64 = 130.0;
-/// Free run of each line from the sensor box to its input resistor.
-const RUN: f64 = 40.0;
+/// Free run of each line from the sensor box to its input resistor (where its test point goes).
+const RUN: f64 = 100.0;
 /// Feedback loops: the step between stacked loops, and the first loop above the line.
 const LOOP_STEP: f64 = 60.0;
 const LOOP_UP: f64 = 90.0;
@@ -158,7 +158,10 @@ impl Sheet<'_> {
         self.bench_areas.push(BoxRect::new(X0, y - 60.0, BOX_W, bottom - (y - 60.0)));
         for (k, yy) in [y, yl].into_iter().enumerate() {
             self.svg.circle((right, yy), 3.5, "#ffffff", Some(self.pen(true)));
-            self.marks.push(Mark { text: d.term[k].clone(), at: (right + 4.0, yy), up: true, colour: INK });
+            // The terminal's name inside the box, over its line: the run outside is left to
+            // the terminal's test point and DC level.
+            let fs = self.cfg.font_size;
+            self.svg.text(right - 8.0, yy - 7.0, &d.term[k], fs, Anchor::End, INK, "", "");
         }
         right
     }
