@@ -136,9 +136,10 @@ impl Field {
         match self.path {
             "source.burden_max" | "source.fault_low" | "source.fault_high" => current_loop(),
             "source.capacitance" => matches!(text("source.kind").as_str(), "high_impedance" | "photodiode"),
-            "source.coupling" | "source.impedance" | "source.band_low" => !current_loop() && text("source.kind") != "photodiode",
+            "source.coupling" | "source.impedance" | "source.band_low" => !current_loop() && !matches!(text("source.kind").as_str(), "photodiode" | "bridge"),
             "source.dark_current" => text("source.kind") == "photodiode",
             "source.common_mode_min" | "source.common_mode_max" => text("source.kind") == "differential",
+            "source.excitation" | "source.sensitivity" | "source.bridge_resistance" | "source.active_arms" | "source.ratiometric" => text("source.kind") == "bridge",
             "destination.modulator_rate" => oversampling(),
             "destination.acquisition_time" | "destination.input_capacitance" => !oversampling(),
             "filter.response" => true,
@@ -157,6 +158,7 @@ pub const AMP_GIVEN: &str = "given";
 const KINDS: &[(&str, &str)] = &[
     ("single_ended", "Single-ended voltage (one signal wire against ground)"),
     ("differential", "Differential pair (two signal wires riding on a common-mode level)"),
+    ("bridge", "Resistive bridge (load cell, strain gauge, pressure die) on its excitation"),
     ("current_loop", "Current loop (4–20 mA or another range), measured across a shunt"),
     ("high_impedance", "High-impedance voltage (MΩ to TΩ: pH or ion electrode, piezo film, bare electret)"),
     ("photodiode", "Photodiode: its photocurrent, into a transimpedance stage"),
@@ -213,6 +215,11 @@ pub const FIELDS: &[Field] = &[
     field!("source.kind", "Kind of output", Kind::Choice(KINDS), Sensor, "Its output", false, "How the sensor presents its signal."),
     field!("source.min", "Lowest output", q(Quantity::Voltage), Sensor, "Its output", true, "The lowest instantaneous voltage, DC level included, e.g. 0.5 V or -2 V; for a current loop the lowest loop current, e.g. 4 mA."),
     field!("source.max", "Highest output", q(Quantity::Voltage), Sensor, "Its output", true, "The highest instantaneous voltage, DC level included, e.g. 4.5 V; for a current loop the highest loop current, e.g. 20 mA."),
+    field!("source.excitation", "Bridge excitation", q(Quantity::Voltage), Sensor, "Its output", false, "The voltage across the bridge, e.g. 3.3 V."),
+    field!("source.sensitivity", "Bridge sensitivity (per volt of excitation)", Kind::Level, Sensor, "Its output", false, "Full-scale output per volt of excitation: 2 mV/V is 0.002 or \"2 m\"."),
+    field!("source.bridge_resistance", "Bridge resistance", q(Quantity::Resistance), Sensor, "Its output", false, "Each arm's resistance, e.g. 350 Ω."),
+    field!("source.active_arms", "Active arms", Kind::Whole, Sensor, "Its output", false, "1, 2 or 4 arms change with the measurand (a load cell has 4)."),
+    field!("source.ratiometric", "The converter's reference is the bridge's excitation", Kind::Flag, Sensor, "Its output", false, "Then a drift of the excitation cancels in the reading."),
     field!("source.common_mode_min", "Lowest common-mode level", q(Quantity::Voltage), Sensor, "Its output", false, "The pair's average level against ground at its lowest, e.g. 2.2 V."),
     field!("source.common_mode_max", "Highest common-mode level", q(Quantity::Voltage), Sensor, "Its output", false, "The pair's average level at its highest, e.g. 2.8 V."),
     field!("source.capacitance", "Sensor capacitance", q(Quantity::Capacitance), Sensor, "Its output", false, "High impedance, DC: electrode and cable capacitance; AC: the capacitance the signal sits behind (a piezo film's, e.g. 1 nF). Photodiode: its junction capacitance, e.g. 70 pF."),
@@ -482,7 +489,9 @@ pub fn validate(values: &Values) -> Validation {
             continue;
         }
         if t.is_empty() {
-            if f.required || (measurand_used && f.path.starts_with("source.measurand.") && !f.path.ends_with(".unit")) {
+            // A bridge's range follows from its sensitivity when left empty.
+            let optional_here = text("source.kind") == "bridge" && matches!(f.path, "source.min" | "source.max");
+            if (f.required && !optional_here) || (measurand_used && f.path.starts_with("source.measurand.") && !f.path.ends_with(".unit")) {
                 out.missing.push(f.path);
             }
             continue;

@@ -64,6 +64,9 @@ pub struct Design {
     /// Differential sensors: the difference amplifier and its common-mode rejection.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub differential: Option<crate::synth::diffamp::DiffDesign>,
+    /// Bridges: excitation current, self-heating, linearity.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub bridge: Option<crate::synth::diffamp::BridgeDesign>,
     /// The circuit model every output derives from (absent when synthesis was impossible).
     #[serde(skip)]
     pub circuit: Option<Circuit>,
@@ -130,7 +133,9 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     // source the gain stage is synthesised for (`syn`); analyses use the request itself.
     let buffer = synth::buffer::plan(req, &amp, rails);
     let tia = synth::tia::plan(req, &amp, rails);
+    let bridge = synth::diffamp::bridge_equivalent(req);
     let (syn, mut current_loop, front_error) = match (synth::front::plan(req), &buffer, &tia) {
+        _ if bridge.is_some() => (std::borrow::Cow::Owned(bridge.as_ref().map(|b| b.0.clone()).unwrap_or_else(|| req.clone())), None, None),
         (Some(Ok(l)), _, _) => (std::borrow::Cow::Owned(synth::front::equivalent(req, &l)), Some(l), None),
         (Some(Err(check)), _, _) => (std::borrow::Cow::Borrowed(req), None, Some(check)),
         (None, Some(b), _) => (std::borrow::Cow::Owned(synth::buffer::equivalent(req, b)), None, None),
@@ -163,8 +168,14 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         high_impedance: None,
         photodiode: None,
         differential: None,
+        bridge: None,
         circuit: None,
     };
+    // A bridge's own figures do not depend on the circuit after it.
+    if let Some((_, bd)) = &bridge {
+        checks.extend(synth::diffamp::bridge_checks(req, bd));
+        out.bridge = Some(bd.clone());
+    }
     if has_error(&checks) {
         out.checks = checks;
         return out;
@@ -247,11 +258,14 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         p = q;
         checks.extend(synth::buffer::checks(req, b, &amp));
     }
-    if req.source.kind == crate::request::SourceKind::Differential {
-        if let Some((dd, check)) = synth::diffamp::report(req, &s) {
+    if matches!(req.source.kind, crate::request::SourceKind::Differential | crate::request::SourceKind::Bridge) {
+        if let Some((dd, check)) = synth::diffamp::report(syn, &s) {
             out.differential = Some(dd);
             checks.push(check);
         }
+    }
+    if bridge.is_some() {
+        synth::diffamp::insert_bridge(&mut s.circuit, req);
     }
     if let Some(t) = &tia {
         checks.retain(|c| c.id != "sensor_impedance");

@@ -192,13 +192,15 @@ pub enum SourceKind {
     Photodiode,
     /// A two-wire signal riding on a common-mode level.
     Differential,
+    /// A resistive bridge (strain gauges, load cells, pressure dies) on its excitation.
+    Bridge,
 }
 
 impl SourceKind {
     /// The quantity of `source.min`/`max`: the measured quantity of this kind.
     pub fn quantity(self) -> Quantity {
         match self {
-            SourceKind::SingleEnded | SourceKind::HighImpedance | SourceKind::Differential => Quantity::Voltage,
+            SourceKind::SingleEnded | SourceKind::HighImpedance | SourceKind::Differential | SourceKind::Bridge => Quantity::Voltage,
             SourceKind::CurrentLoop | SourceKind::Photodiode => Quantity::Current,
         }
     }
@@ -261,6 +263,24 @@ pub struct Source {
     pub common_mode_min: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub common_mode_max: Option<f64>,
+    /// Bridges: the excitation and the bridge itself.
+    #[serde(default, flatten, skip_serializing_if = "Option::is_none")]
+    pub bridge: Option<BridgeSpec>,
+}
+
+/// A resistive bridge (`source.kind = "bridge"`).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct BridgeSpec {
+    /// Excitation across the bridge, V.
+    pub excitation: f64,
+    /// Output at full scale per volt of excitation, V/V (e.g. 2 mV/V = 0.002).
+    pub sensitivity: f64,
+    /// Resistance of each arm (and of the bridge across its excitation), Ω.
+    pub bridge_resistance: f64,
+    /// Arms that change with the measurand: 1, 2 or 4.
+    pub active_arms: u32,
+    /// The converter's reference is the bridge's excitation (ratiometric measurement).
+    pub ratiometric: bool,
 }
 
 /// The physical quantity behind the sensor's output: `at_min` at `source.min`, `at_max` at
@@ -446,13 +466,18 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
         Some("high_impedance") => SourceKind::HighImpedance,
         Some("photodiode") => SourceKind::Photodiode,
         Some("differential") => SourceKind::Differential,
+        Some("bridge") => SourceKind::Bridge,
         Some(other) => {
-            return Err(o.err("kind", &format!("'{other}' is not a sensor kind this version designs for; use \"single_ended\", \"differential\", \"current_loop\", \"high_impedance\" or \"photodiode\"")))
+            return Err(o.err("kind", &format!("'{other}' is not a sensor kind this version designs for; use \"single_ended\", \"differential\", \"bridge\", \"current_loop\", \"high_impedance\" or \"photodiode\"")))
         }
     };
     let q = kind.quantity();
-    let min = o.required_q("min", q)?;
-    let max = o.required_q("max", q)?;
+    let bridge = if kind == SourceKind::Bridge { Some(read_bridge(&o)?) } else { None };
+    let (min, max) = match &bridge {
+        // A bridge's range follows from its sensitivity unless given: 0 … S·V_exc.
+        Some(b) => (o.q("min", q)?.unwrap_or(0.0), o.q("max", q)?.unwrap_or(b.sensitivity * b.excitation)),
+        None => (o.required_q("min", q)?, o.required_q("max", q)?),
+    };
     if max < min {
         return Err(o.err("max", &format!("{} is below source.min ({}); give the lower extreme as min", units::format(max, q), units::format(min, q))));
     }
@@ -529,6 +554,15 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
     }
     let (cm_lo, cm_hi) = (o.q("common_mode_min", Quantity::Voltage)?, o.q("common_mode_max", Quantity::Voltage)?);
     let (common_mode_min, common_mode_max) = match kind {
+        // A bridge's legs sit at half its excitation.
+        SourceKind::Bridge => {
+            let half = 0.5 * bridge.as_ref().map_or(0.0, |b| b.excitation);
+            // The normalised request carries it: the same value reads back.
+            if [cm_lo, cm_hi].iter().flatten().any(|v| (v - half).abs() > 1e-9 * half.abs().max(1.0)) {
+                return Err(o.err("common_mode_min", "follows from the excitation for a bridge (half of it); leave it out"));
+            }
+            (Some(half), Some(half))
+        }
         SourceKind::Differential => {
             if coupling == Coupling::Ac {
                 return Err(o.err("coupling", "a differential sensor is taken with its DC level here; use \"dc\""));
@@ -547,8 +581,46 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
             (None, None)
         }
     };
-    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high", "capacitance", "dark_current", "common_mode_min", "common_mode_max"])?;
-    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand, current_loop, capacitance, dark_current, common_mode_min, common_mode_max })
+    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high", "capacitance", "dark_current", "common_mode_min", "common_mode_max", "excitation", "sensitivity", "bridge_resistance", "active_arms", "ratiometric"])?;
+    if bridge.is_none() {
+        for key in ["excitation", "sensitivity", "bridge_resistance", "active_arms", "ratiometric"] {
+            if o.get(key).is_some() {
+                return Err(o.err(key, "applies only to a bridge (source.kind = \"bridge\")"));
+            }
+        }
+    }
+    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand, current_loop, capacitance, dark_current, common_mode_min, common_mode_max, bridge })
+}
+
+/// The bridge fields of `source`.
+fn read_bridge(o: &Obj) -> Result<BridgeSpec, RequestError> {
+    let excitation = o.required_q("excitation", Quantity::Voltage)?;
+    if !(excitation > 0.0) {
+        return Err(o.err("excitation", "must be above 0 V, e.g. \"5 V\""));
+    }
+    let sensitivity = o.required_q("sensitivity", Quantity::Ratio)?;
+    if !(sensitivity > 0.0 && sensitivity < 0.5) {
+        return Err(o.err("sensitivity", "must be a full-scale output per volt of excitation between 0 and 0.5, e.g. 0.002 or \"2 m\" for 2 mV/V"));
+    }
+    let bridge_resistance = o.required_q("bridge_resistance", Quantity::Resistance)?;
+    if !(bridge_resistance > 0.0) {
+        return Err(o.err("bridge_resistance", "must be above 0 Ω, e.g. \"350\""));
+    }
+    let active_arms = match o.get("active_arms") {
+        None => 4,
+        Some(v) => match v.as_u64() {
+            Some(n @ (1 | 2 | 4)) => n as u32,
+            _ => return Err(o.err("active_arms", "must be 1, 2 or 4")),
+        },
+    };
+    if o.q("impedance", Quantity::Resistance)?.is_some_and(|z| z != 0.0) {
+        return Err(o.err("impedance", "follows from bridge_resistance for a bridge; leave it out"));
+    }
+    if o.string("coupling")?.as_deref() == Some("ac") {
+        return Err(o.err("coupling", "a bridge is taken with its DC level here; use \"dc\""));
+    }
+    let ratiometric = o.bool("ratiometric")?.unwrap_or(false);
+    Ok(BridgeSpec { excitation, sensitivity, bridge_resistance, active_arms, ratiometric })
 }
 
 /// The current-loop fields of `source`; the loop current flows into the measuring input.

@@ -537,3 +537,60 @@ fn differential_fields_are_read_and_refused_by_name() {
     }
     check(&rows);
 }
+
+// ---------------------------------------------------------------------------------------
+// Bridges
+
+#[test]
+fn bridges_follow_the_bridge_formula_and_ngspice() {
+    const REF: &str = "references.md: Wheatstone bridge, one active arm R(1+x): V_out = V_exc·x/(4+2x); 5 V, x = 0.002 → 2.4975 mV";
+    const SRC: &str = "ngspice (Debian ngspice-39) operating point of the exported netlist";
+    let mut rows = Vec::new();
+    // One active arm, x = 0.002 on 5 V: sensitivity S = x/(4 + 2x) per volt.
+    let s = 0.002 / (4.0 + 2.0 * 0.002);
+    let json = format!(
+        r#"{{"name": "Cold-room floor strain gauge", "source": {{"kind": "bridge", "excitation": 5, "sensitivity": {s:e}, "bridge_resistance": 120, "active_arms": 1, "band_high": 2}},
+        "destination": {{"min": 0, "max": 3.3, "bits": 16, "sample_rate": 20}}, "supplies": [5], "parts": {{"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}}}"#
+    );
+    let req = request(&json);
+    // The worked value is given to 0.1 µV: half of that as the tolerance.
+    rows.push(row("one arm, x 0.002, 5 V: full-scale output (source.max)", req.source.max, 2.4975e-3, 0.05e-6, REF));
+    let d = design(&req);
+    let b = d.bridge.as_ref().expect("bridge design");
+    rows.push(row("one arm: shortfall from the straight line at full scale, 2x/(4+2x)", b.nonlinearity, 0.004 / 4.004, 1e-12, REF));
+    rows.push(row("excitation current V/R", b.excitation_current, 5.0 / 120.0, 1e-15, "Ohm's law"));
+    rows.push(row("power per arm (V/2)²/R", b.arm_power, 2.5 * 2.5 / 120.0, 1e-15, "P = V²/R"));
+    rows.push(fact("120 Ω at 5 V heats each arm by 52 mW: a self-heating warning", d.checks.iter().any(|c| c.id == "self_heating" && c.severity == Severity::Warning), "common practice: a few mW per arm"));
+    // The demo-like full bridge through ngspice: the mapping at the ends of the range.
+    let req = request(r#"{"name": "Grain silo load cell", "source": {"kind": "bridge", "excitation": "5 V", "sensitivity": "3 m", "bridge_resistance": "700", "band_high": "1 Hz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 16, "sample_rate": "10 Hz"}, "supplies": [5], "parts": {"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}"#);
+    rows.push(row("full bridge 3 mV/V on 5 V: range 0 … 15 mV", req.source.max, 15e-3, 1e-12, "S × V_exc (the bridge's sensitivity definition)"));
+    let d = design(&req);
+    let c = d.circuit.as_ref().expect("circuit");
+    rows.push(fact("silo: VEXC on the bench", c.part("VEXC").is_some_and(|p| p.bench && p.value == 5.0), "README netlist contract"));
+    let p = d.predicted.expect("predicted");
+    let vcm = c.part("VCM").map_or(0.0, |p| p.value);
+    let spice = spice_pairs("silo", &d, &[(0.0, vcm), (15e-3, vcm)]);
+    rows.push(row("silo: output at 0", p.output_at_min, spice[0], 1e-4 * 3.3, SRC));
+    rows.push(row("silo: output at 15 mV", p.output_at_max, spice[1], 1e-4 * 3.3, SRC));
+    check(&rows);
+}
+
+#[test]
+fn bridge_fields_are_read_and_refused_by_name() {
+    let base = |source: &str| format!(r#"{{"source": {source}, "destination": {{"min": 0, "max": 3.3, "sample_rate": 100}}, "supplies": [5]}}"#);
+    let cases = [
+        (r#"{"kind": "bridge", "sensitivity": "2 m", "bridge_resistance": 350}"#, "source.excitation"),
+        (r#"{"kind": "bridge", "excitation": 5, "bridge_resistance": 350}"#, "source.sensitivity"),
+        (r#"{"kind": "bridge", "excitation": 5, "sensitivity": "2 m"}"#, "source.bridge_resistance"),
+        (r#"{"kind": "bridge", "excitation": 5, "sensitivity": "2 m", "bridge_resistance": 350, "active_arms": 3}"#, "source.active_arms"),
+        (r#"{"kind": "bridge", "excitation": 5, "sensitivity": "2 m", "bridge_resistance": 350, "common_mode_min": 1}"#, "source.common_mode_min"),
+        (r#"{"min": 0, "max": 1, "excitation": 5}"#, "source.excitation"),
+    ];
+    let mut rows = Vec::new();
+    for (source, field) in cases {
+        let got = Request::from_json(&base(source)).err().map(|e| e.field);
+        rows.push(fact(format!("{source} → error on {field} (got {got:?})"), got.as_deref() == Some(field), "request contract"));
+    }
+    check(&rows);
+}
