@@ -140,7 +140,10 @@ impl Sheet<'_> {
     fn diff_sensor(&mut self, d: &Diff) -> f64 {
         let (y, yl) = (Y0, Y0 + LOW);
         let sx = X0 + 40.0;
-        let right = X0 + BOX_W;
+        // A bridge's excitation under the pair needs room for its load's label.
+        let bridge = self.c.parts.iter().any(|p| p.bench && p.reference == "RBRIDGE");
+        let box_w = if bridge { BOX_W + 40.0 } else { BOX_W };
+        let right = X0 + box_w;
         self.two(d.vsense, (sx, y), &d.emf[0], (sx, yl), &d.emf[1], true);
         self.two(d.vcm, (sx, yl), &d.emf[1], (sx, yl + SPAN), GND, true);
         self.terminal((sx, yl + SPAN), GND, false);
@@ -151,11 +154,26 @@ impl Sheet<'_> {
         // The legs' inner nodes are the bench's own (their levels are the sources' values,
         // written beside them), with no free run outside the box for a DC label.
         self.quiet.extend(d.emf.iter().cloned());
-        let bottom = yl + SPAN + 30.0;
+        let mut bottom = yl + SPAN + 30.0;
+        // A bridge's excitation and its load on it (bench `VEXC`, `RBRIDGE` from `exc` to
+        // ground), side by side under the pair model.
+        let c = self.c;
+        let find = |r: &str| c.parts.iter().position(|p| p.bench && p.reference == r && p.nodes.len() == 2 && p.nodes[1] == GND);
+        if let (Some(ve), Some(rb)) = (find("VEXC"), find("RBRIDGE")) {
+            let (ye, xr) = (bottom + 30.0, sx + HSPAN);
+            let exc = c.parts[ve].nodes[0].clone();
+            self.two(ve, (sx, ye), &exc, (sx, ye + SPAN), GND, true);
+            self.two(rb, (xr, ye), &exc, (xr, ye + SPAN), GND, true);
+            self.wire((sx, ye), (xr, ye), &exc, true);
+            self.wire((sx, ye + SPAN), (xr, ye + SPAN), GND, true);
+            self.terminal((sx, ye + SPAN), GND, false);
+            self.quiet.push(exc);
+            bottom = ye + SPAN + 30.0;
+        }
         let dashed = Pen { colour: GREY, width: 1.5, dashed: true };
-        self.svg.rect(X0, y - 60.0, BOX_W, bottom - (y - 60.0), "none", dashed);
+        self.svg.rect(X0, y - 60.0, box_w, bottom - (y - 60.0), "none", dashed);
         self.svg.text(X0 + 4.0, y - 66.0, "sensor", self.cfg.font_size, Anchor::Start, GREY, "", "italic");
-        self.bench_areas.push(BoxRect::new(X0, y - 60.0, BOX_W, bottom - (y - 60.0)));
+        self.bench_areas.push(BoxRect::new(X0, y - 60.0, box_w, bottom - (y - 60.0)));
         for (k, yy) in [y, yl].into_iter().enumerate() {
             self.svg.circle((right, yy), 3.5, "#ffffff", Some(self.pen(true)));
             // The terminal's name inside the box, over its line: the run outside is left to
