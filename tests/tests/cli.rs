@@ -724,7 +724,8 @@ fn check_netlist(file: &str, testbench: bool, dual: bool) {
     };
     // The netlist contract: the measured quantity is one independent source, VSENSE
     // (behind RSENSE) for voltage kinds, ISENSE into `sense` for current kinds.
-    let sensor = if element("ISENSE").is_some() { vec!["ISENSE"] } else { vec!["VSENSE", "RSENSE"] };
+    // A differential pair or bridge has VCM and a resistor per leg.
+    let sensor = if element("ISENSE").is_some() { vec!["ISENSE"] } else if element("VCM").is_some() { vec!["VSENSE", "VCM", "RSENSEP", "RSENSEN"] } else { vec!["VSENSE", "RSENSE"] };
     for name in sensor.into_iter().chain(["VPOS", "RADC"]) {
         assert!(element(name).is_some(), "{args:?}: no {name} element");
     }
