@@ -263,7 +263,10 @@ async fn keeps_working_offline_and_fetches_only_its_own_files() {
         env.stop_server();
         // A demo, an edit and a save all work without the network.
         let last = demos::ALL.len() - 1;
-        client.find(Locator::Css(&format!("[data-demo='{}']", demos::ALL[last].id))).await.expect("demo button").click().await.expect("click");
+        // With nine demos the last button sits low in the list: bring it into view first.
+        let button = client.find(Locator::Css(&format!("[data-demo='{}']", demos::ALL[last].id))).await.expect("demo button");
+        eval(&client, "arguments[0].scrollIntoView({block: 'center'});", vec![serde_json::to_value(&button).expect("element reference")]).await;
+        button.click().await.expect("click");
         wait_for_parts(&client, "the last demo offline", &expected_rows(&demo(last))).await;
         go_to(&client, "sensor").await;
         type_into(&client, "source.max", "9 V").await;
