@@ -264,8 +264,9 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
             checks.push(check);
         }
     }
-    if bridge.is_some() {
+    if let Some((_, bd)) = &bridge {
         synth::diffamp::insert_bridge(&mut s.circuit, req);
+        checks.extend(synth::diffamp::zero_trim(req, bd, p.gain.abs()));
     }
     if let Some(t) = &tia {
         checks.retain(|c| c.id != "sensor_impedance");

@@ -281,7 +281,13 @@ pub struct BridgeSpec {
     pub active_arms: u32,
     /// The converter's reference is the bridge's excitation (ratiometric measurement).
     pub ratiometric: bool,
+    /// The bridge's output with nothing to measure, as a fraction of its full-scale output (±).
+    pub zero_balance: f64,
 }
+
+/// Zero balance assumed when the request gives none: ±2 % of the rated output, typical of
+/// load cells and strain-gauge bridges (common practice; the bridge's datasheet governs).
+pub const DEFAULT_ZERO_BALANCE: f64 = 0.02;
 
 /// The physical quantity behind the sensor's output: `at_min` at `source.min`, `at_max` at
 /// `source.max`, linear in between (e.g. pressure 0 … 600 kPa).
@@ -428,9 +434,9 @@ impl Request {
 
         let dest_v = top.required("destination")?;
         let destination = read_destination(dest_v)?;
-        let src_v = top.required("source")?;
-        let source = read_source(src_v, &destination)?;
         let supplies = read_supplies(top.required("supplies")?)?;
+        let src_v = top.required("source")?;
+        let source = read_source(src_v, &destination, &supplies)?;
         let parts = match top.get("parts") {
             None => Parts::default(),
             Some(v) => read_parts(v)?,
@@ -458,7 +464,7 @@ impl Request {
     }
 }
 
-fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
+fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Result<Source, RequestError> {
     let o = Obj::new("source", v)?;
     let kind = match o.string("kind")?.as_deref() {
         None | Some("single_ended") => SourceKind::SingleEnded,
@@ -472,7 +478,7 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
         }
     };
     let q = kind.quantity();
-    let bridge = if kind == SourceKind::Bridge { Some(read_bridge(&o)?) } else { None };
+    let bridge = if kind == SourceKind::Bridge { Some(read_bridge(&o, supplies)?) } else { None };
     let (min, max) = match &bridge {
         // A bridge's range follows from its sensitivity unless given: 0 … S·V_exc.
         Some(b) => (o.q("min", q)?.unwrap_or(0.0), o.q("max", q)?.unwrap_or(b.sensitivity * b.excitation)),
@@ -581,9 +587,9 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
             (None, None)
         }
     };
-    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high", "capacitance", "dark_current", "common_mode_min", "common_mode_max", "excitation", "sensitivity", "bridge_resistance", "active_arms", "ratiometric"])?;
+    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high", "capacitance", "dark_current", "common_mode_min", "common_mode_max", "excitation", "sensitivity", "bridge_resistance", "active_arms", "ratiometric", "zero_balance"])?;
     if bridge.is_none() {
-        for key in ["excitation", "sensitivity", "bridge_resistance", "active_arms", "ratiometric"] {
+        for key in ["excitation", "sensitivity", "bridge_resistance", "active_arms", "ratiometric", "zero_balance"] {
             if o.get(key).is_some() {
                 return Err(o.err(key, "applies only to a bridge (source.kind = \"bridge\")"));
             }
@@ -593,10 +599,14 @@ fn read_source(v: &Value, dest: &Destination) -> Result<Source, RequestError> {
 }
 
 /// The bridge fields of `source`.
-fn read_bridge(o: &Obj) -> Result<BridgeSpec, RequestError> {
-    let excitation = o.required_q("excitation", Quantity::Voltage)?;
+fn read_bridge(o: &Obj, supplies: &[f64]) -> Result<BridgeSpec, RequestError> {
+    // "supply": the bridge runs from the highest positive rail (the request keeps its value).
+    let excitation = match o.get("excitation") {
+        Some(Value::String(s)) if s.trim() == "supply" => supplies.iter().copied().filter(|v| *v > 0.0).fold(f64::NAN, f64::max),
+        _ => o.required_q("excitation", Quantity::Voltage)?,
+    };
     if !(excitation > 0.0) {
-        return Err(o.err("excitation", "must be above 0 V, e.g. \"5 V\""));
+        return Err(o.err("excitation", "must be above 0 V, e.g. \"5 V\", or \"supply\" for the highest positive rail"));
     }
     let sensitivity = o.required_q("sensitivity", Quantity::Ratio)?;
     if !(sensitivity > 0.0 && sensitivity < 0.5) {
@@ -620,7 +630,11 @@ fn read_bridge(o: &Obj) -> Result<BridgeSpec, RequestError> {
         return Err(o.err("coupling", "a bridge is taken with its DC level here; use \"dc\""));
     }
     let ratiometric = o.bool("ratiometric")?.unwrap_or(false);
-    Ok(BridgeSpec { excitation, sensitivity, bridge_resistance, active_arms, ratiometric })
+    let zero_balance = o.q("zero_balance", Quantity::Ratio)?.unwrap_or(DEFAULT_ZERO_BALANCE);
+    if !(zero_balance >= 0.0 && zero_balance < 1.0) {
+        return Err(o.err("zero_balance", "must be a fraction of the full-scale output from 0 to 1, e.g. \"2 %\""));
+    }
+    Ok(BridgeSpec { excitation, sensitivity, bridge_resistance, active_arms, ratiometric, zero_balance })
 }
 
 /// The current-loop fields of `source`; the loop current flows into the measuring input.

@@ -573,6 +573,15 @@ fn bridges_follow_the_bridge_formula_and_ngspice() {
     let spice = spice_pairs("silo", &d, &[(0.0, vcm), (15e-3, vcm)]);
     rows.push(row("silo: output at 0", p.output_at_min, spice[0], 1e-4 * 3.3, SRC));
     rows.push(row("silo: output at 15 mV", p.output_at_max, spice[1], 1e-4 * 3.3, SRC));
+    // Zero balance: ±2 % of the 15 mV full scale by default (common practice for load cells),
+    // times the stage's gain at the output.
+    let b = d.bridge.as_ref().expect("bridge");
+    rows.push(row("silo: zero balance at the bridge, 2 % of 15 mV", b.zero_offset, 0.02 * 15e-3, 1e-15, "rangefit-engine DEFAULT_ZERO_BALANCE (common practice)"));
+    let trim = d.checks.iter().find(|c| c.id == "zero_trim").expect("zero_trim check");
+    rows.push(fact(format!("silo: zero_trim names the output shift: {}", trim.message), trim.message.contains(&rangefit_engine::units::format(p.gain.abs() * 0.02 * 15e-3, rangefit_engine::units::Quantity::Voltage)), "design contract"));
+    // Excitation "supply": the highest positive rail.
+    let r = request(r#"{"source": {"kind": "bridge", "excitation": "supply", "sensitivity": "2 m", "bridge_resistance": 350}, "destination": {"min": 0, "max": 3.3, "sample_rate": 10}, "supplies": [12, 5, -5]}"#);
+    rows.push(row("excitation \"supply\" with rails 12, 5, −5 V", r.source.bridge.as_ref().map_or(f64::NAN, |b| b.excitation), 12.0, 0.0, "request contract"));
     check(&rows);
 }
 
@@ -586,6 +595,8 @@ fn bridge_fields_are_read_and_refused_by_name() {
         (r#"{"kind": "bridge", "excitation": 5, "sensitivity": "2 m", "bridge_resistance": 350, "active_arms": 3}"#, "source.active_arms"),
         (r#"{"kind": "bridge", "excitation": 5, "sensitivity": "2 m", "bridge_resistance": 350, "common_mode_min": 1}"#, "source.common_mode_min"),
         (r#"{"min": 0, "max": 1, "excitation": 5}"#, "source.excitation"),
+        (r#"{"kind": "bridge", "excitation": 5, "sensitivity": "2 m", "bridge_resistance": 350, "zero_balance": 2}"#, "source.zero_balance"),
+        (r#"{"kind": "bridge", "excitation": "mains", "sensitivity": "2 m", "bridge_resistance": 350}"#, "source.excitation"),
     ];
     let mut rows = Vec::new();
     for (source, field) in cases {

@@ -194,6 +194,8 @@ pub struct BridgeDesign {
     /// One active arm: how far the output at full scale falls short of a straight line,
     /// relative to full scale (0 for two or four arms in opposite pairs).
     pub nonlinearity: f64,
+    /// The bridge's zero balance at its output, ± V.
+    pub zero_offset: f64,
 }
 
 /// The differential pair a bridge presents: its legs at half the excitation, each behind
@@ -218,6 +220,7 @@ pub fn bridge_equivalent(req: &Request) -> Option<(Request, BridgeDesign)> {
         excitation_current: b.excitation / b.bridge_resistance,
         arm_power: (0.5 * b.excitation).powi(2) / b.bridge_resistance,
         nonlinearity,
+        zero_offset: b.zero_balance * b.sensitivity * b.excitation,
     };
     Some((eq, d))
 }
@@ -265,4 +268,23 @@ pub fn bridge_checks(req: &Request, d: &BridgeDesign) -> Vec<crate::diag::Check>
         Check::ok("ratiometric", format!("The excitation is not the converter's reference: a {} change of the excitation moves the reading by the same fraction; using the excitation as the converter's reference (ratiometric) cancels that.", "1 %"))
     });
     c
+}
+
+/// The zero-balance check of a bridge whose stage has gain `g`: the output shift against the
+/// headroom, and the trim range the reference pin needs when the headroom cannot take it.
+pub fn zero_trim(req: &Request, d: &BridgeDesign, g: f64) -> Option<crate::diag::Check> {
+    use crate::diag::Check;
+    let b = req.source.bridge.as_ref()?;
+    let d_out = g * d.zero_offset;
+    let room = req.destination.headroom * (req.destination.max - req.destination.min);
+    let text = format!(
+        "The bridge's zero balance (±{} of its full-scale output) moves the output by up to ±{}",
+        format!("{} %", crate::units::format_sig(100.0 * b.zero_balance, Quantity::Ratio, 3)),
+        format(d_out, Quantity::Voltage)
+    );
+    Some(if d_out > room {
+        Check::warning("zero_trim", format!("{text}, more than the {} of headroom: trim the reference pin over ±{} (±{} referred to the bridge), or give more headroom.", format(room, Quantity::Voltage), format(d_out, Quantity::Voltage), format(d.zero_offset, Quantity::Voltage)))
+    } else {
+        Check::ok("zero_trim", format!("{text}, inside the {} of headroom; a tare reading in firmware removes it, no trim needed.", format(room, Quantity::Voltage)))
+    })
 }
