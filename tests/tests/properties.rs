@@ -138,3 +138,61 @@ proptest! {
         }
     }
 }
+
+prop_compose! {
+    /// Requests of every sensor kind beyond single-ended, with values across (and beyond)
+    /// what the kinds are meant for.
+    fn kind_request()(
+        (supplies, dmin, dmax) in bench(),
+        which in 0usize..5,
+        a in 0.0f64..1.0,
+        b in 0.0f64..1.0,
+        c in 0.0f64..1.0,
+        band in 0.5f64..5e3,
+        keep in any::<bool>(),
+        ac in any::<bool>(),
+    ) -> String {
+        let source = match which {
+            // Current loop: 0 … 25 mA, burden 0.5 … 24 V.
+            0 => format!(r#"{{"kind": "current_loop", "min": {}, "max": {}, "burden_max": {}, "band_high": {band}}}"#, a * 5e-3, 5e-3 + b * 20e-3, 0.5 + c * 23.5),
+            // High impedance: 1 MΩ … 1 TΩ, 1 pF … 10 nF, DC or AC.
+            1 => {
+                let coupling = if ac { format!(r#""coupling": "ac", "band_low": {},"#, band / 100.0) } else { String::new() };
+                format!(r#"{{"kind": "high_impedance", "min": {}, "max": {}, {coupling} "impedance": {}, "capacitance": {}, "band_high": {band}}}"#, -1.0 + a, -1.0 + a + 0.01 + 2.0 * b, 10f64.powf(6.0 + 6.0 * c), 10f64.powf(-12.0 + 4.0 * b))
+            }
+            // Photodiode: 1 nA … 1 mA, 1 pF … 1 nF.
+            2 => format!(r#"{{"kind": "photodiode", "min": 0, "max": {}, "capacitance": {}, "dark_current": {}, "band_high": {band}}}"#, 10f64.powf(-9.0 + 6.0 * a), 10f64.powf(-12.0 + 3.0 * b), c * 1e-8),
+            // Differential pair: ±1 mV … ±3 V on a common mode of −2 … 4 V.
+            3 => format!(r#"{{"kind": "differential", "min": {}, "max": {}, "common_mode_min": {}, "common_mode_max": {}, "impedance": {}, "band_high": {band}}}"#, -1e-3 - 3.0 * a, 1e-3 + 3.0 * a, -2.0 + 4.0 * b, -1.9 + 4.0 * b + c, 1000.0 * c),
+            // Bridge: 0.5 … 10 V, 0.5 … 10 mV/V, 120 Ω … 5 kΩ, 1, 2 or 4 arms.
+            _ => format!(r#"{{"kind": "bridge", "excitation": {}, "sensitivity": {}, "bridge_resistance": {}, "active_arms": {}, "band_high": {band}}}"#, 0.5 + 9.5 * a, 0.5e-3 + 9.5e-3 * b, 120.0 + 4880.0 * c, [1, 2, 4][(3.0 * a) as usize % 3]),
+        };
+        format!(
+            r#"{{"name": "property kind", "source": {source}, "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": {}}},
+                "supplies": {supplies:?}, "keep_polarity": {keep}}}"#,
+            band * 20.0
+        )
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 48, .. ProptestConfig::default() })]
+
+    /// Every sensor kind: a well-formed request gives a design (perhaps with error checks),
+    /// never a panic, and a built design's predictions, analyses and outputs are finite and
+    /// drawable.
+    #[test]
+    fn every_kind_designs_without_panics(json in kind_request()) {
+        let Ok(req) = Request::from_json(&json) else { return Ok(()) };
+        let d = design(&req);
+        if let (Some(p), Some(a)) = (d.predicted, d.analysis.as_ref()) {
+            prop_assert!(p.output_at_min.is_finite() && p.output_at_max.is_finite() && p.gain.is_finite(), "prediction not finite for {}", json);
+            prop_assert!(a.noise.output_rms.is_finite(), "noise not finite for {}", json);
+            prop_assert!(a.tolerance.worst_case.output_at_min.iter().all(|v| v.is_finite()), "worst case not finite for {}", json);
+            let svg = rangefit_engine::draw::schematic::of_design(&d, &rangefit_engine::draw::schematic::SchematicConfig::default());
+            prop_assert!(svg.is_some(), "no schematic for {}", json);
+            let bom = rangefit_engine::bom::bom(&d);
+            prop_assert!(!bom.is_empty(), "no part list for {}", json);
+        }
+    }
+}
