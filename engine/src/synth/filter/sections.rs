@@ -29,9 +29,10 @@ use crate::values::{self, Series};
 /// bias-current error, high enough not to load the amplifiers; common practice).
 pub const R_PREFERRED: f64 = 10e3;
 /// Smallest and largest capacitor used in a filter section, F (below ~50 pF stray
-/// capacitance matters; above 10 µF only electrolytics remain; common practice).
+/// capacitance matters; from 10 µF the part list turns to electrolytics, whose leakage and
+/// drift have no place where a capacitor sets a corner; common practice).
 pub const C_MIN: f64 = 47e-12;
-pub const C_MAX: f64 = 10e-6;
+pub const C_MAX: f64 = 4.7e-6;
 /// The capacitor ratio is kept this much above the minimum for real resistors, so that
 /// rounding the resistors cannot cross it.
 pub const RATIO_MARGIN: f64 = 1.1;
