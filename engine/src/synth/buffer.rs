@@ -132,24 +132,7 @@ pub fn equivalent(req: &Request, b: &BufferDesign) -> Request {
 /// with the high-impedance model.
 pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rails) {
     let s = &req.source;
-    circuit.parts.retain(|p| !(p.bench && (p.reference == "VSENSE" || p.reference == "RSENSE")));
-    let renumber = |d: &str| match d.strip_prefix('U').and_then(|n| n.parse::<u32>().ok()) {
-        Some(n) => format!("U{}", n + 1),
-        None => d.to_string(),
-    };
-    for p in circuit.parts.iter_mut().filter(|p| !p.bench) {
-        if p.kind == PartKind::OpAmp {
-            p.reference = renumber(&p.reference);
-        }
-        for n in p.nodes.iter_mut().filter(|n| *n == "sense" || *n == "emf") {
-            *n = "buf".to_string();
-        }
-    }
-    for st in circuit.stages.iter_mut() {
-        for d in st.parts.iter_mut() {
-            *d = renumber(d);
-        }
-    }
+    super::make_room_in_front(circuit, "buf");
     let gbw = circuit.amplifier.gbw;
     let vneg = if rails.is_dual() { "vneg" } else { GND };
     let mut bld = crate::circuit::Builder::resume(std::mem::take(&mut circuit.parts));

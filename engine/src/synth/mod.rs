@@ -186,6 +186,31 @@ fn bench(bld: &mut Builder, req: &Request, rails: Rails) {
     bld.bench("RADC", PartKind::Resistor, req.destination.impedance, &["adc", "0"], StageRole::Converter, "converter input impedance");
 }
 
+/// Prepares a circuit synthesised for an equivalent stiff source to get a front-end
+/// amplifier as U1 (`buffer`, `tia`): drops the bench's `VSENSE`/`RSENSE`, moves every
+/// amplifier's designator up by one (in the parts and the stages), and moves the gain
+/// stage's input from the sensor terminal to `input`, the front end's output.
+pub(crate) fn make_room_in_front(circuit: &mut Circuit, input: &str) {
+    circuit.parts.retain(|p| !(p.bench && (p.reference == "VSENSE" || p.reference == "RSENSE")));
+    let renumber = |d: &str| match d.strip_prefix('U').and_then(|n| n.parse::<u32>().ok()) {
+        Some(n) => format!("U{}", n + 1),
+        None => d.to_string(),
+    };
+    for p in circuit.parts.iter_mut().filter(|p| !p.bench) {
+        if p.kind == PartKind::OpAmp {
+            p.reference = renumber(&p.reference);
+        }
+        for n in p.nodes.iter_mut().filter(|n| *n == "sense" || *n == "emf") {
+            *n = input.to_string();
+        }
+    }
+    for st in circuit.stages.iter_mut() {
+        for d in st.parts.iter_mut() {
+            *d = renumber(d);
+        }
+    }
+}
+
 /// Wraps the built parts into the circuit model.
 fn finish(bld: Builder, stages: Vec<Stage>, amp: &Amplifier, rails: Rails) -> Circuit {
     Circuit { parts: bld.parts, stages, amplifier: amp.clone(), rail_pos: rails.pos, rail_neg: rails.neg }

@@ -139,24 +139,7 @@ pub fn equivalent(req: &Request, t: &TiaDesign) -> Request {
 /// junction capacitance `CSENSE` from `sense` to ground.
 pub fn insert(circuit: &mut Circuit, req: &Request, t: &TiaDesign, rails: Rails) {
     let s = &req.source;
-    circuit.parts.retain(|p| !(p.bench && (p.reference == "VSENSE" || p.reference == "RSENSE")));
-    let renumber = |d: &str| match d.strip_prefix('U').and_then(|n| n.parse::<u32>().ok()) {
-        Some(n) => format!("U{}", n + 1),
-        None => d.to_string(),
-    };
-    for p in circuit.parts.iter_mut().filter(|p| !p.bench) {
-        if p.kind == PartKind::OpAmp {
-            p.reference = renumber(&p.reference);
-        }
-        for n in p.nodes.iter_mut().filter(|n| *n == "sense" || *n == "emf") {
-            *n = "tia".to_string();
-        }
-    }
-    for st in circuit.stages.iter_mut() {
-        for d in st.parts.iter_mut() {
-            *d = renumber(d);
-        }
-    }
+    super::make_room_in_front(circuit, "tia");
     let gbw = circuit.amplifier.gbw;
     let vneg = if rails.is_dual() { "vneg" } else { GND };
     let plus = if t.bias != 0.0 { "pdb" } else { GND };
