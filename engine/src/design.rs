@@ -231,14 +231,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         // The equivalent sensor's impedance is the shunt, which the loop checks cover.
         checks.retain(|c| c.id != "sensor_impedance");
         synth::front::to_loop(&mut s.circuit, req, l);
-        let mut eqs = synth::front::equations(req, l);
-        eqs.append(&mut s.equations);
-        s.equations = eqs;
-        let Some(q) = predict(req, &s.circuit) else {
-            checks.push(Check::error("no_realisation", "The loop circuit does not solve; this is a fault in Rangefit, please report the request."));
-            out.checks = checks;
-            return out;
-        };
+        let Some(q) = with_front(req, &mut s, synth::front::equations(req, l)) else { return unsolved(out, checks) };
         p = q;
         l.bands = synth::front::bands(req, &s.circuit);
         checks.extend(synth::front::checks(req, l));
@@ -247,14 +240,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         // The gain stage's source is the follower, which the buffer checks cover.
         checks.retain(|c| c.id != "sensor_impedance");
         synth::buffer::insert(&mut s.circuit, req, b, rails);
-        let mut eqs = synth::buffer::equations(req, b);
-        eqs.append(&mut s.equations);
-        s.equations = eqs;
-        let Some(q) = predict(req, &s.circuit) else {
-            checks.push(Check::error("no_realisation", "The buffered circuit does not solve; this is a fault in Rangefit, please report the request."));
-            out.checks = checks;
-            return out;
-        };
+        let Some(q) = with_front(req, &mut s, synth::buffer::equations(req, b)) else { return unsolved(out, checks) };
         p = q;
         checks.extend(synth::buffer::checks(req, b, &amp));
     }
@@ -271,14 +257,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     if let Some(t) = &tia {
         checks.retain(|c| c.id != "sensor_impedance");
         synth::tia::insert(&mut s.circuit, req, t, rails);
-        let mut eqs = synth::tia::equations(req, t);
-        eqs.append(&mut s.equations);
-        s.equations = eqs;
-        let Some(q) = predict(req, &s.circuit) else {
-            checks.push(Check::error("no_realisation", "The transimpedance circuit does not solve; this is a fault in Rangefit, please report the request."));
-            out.checks = checks;
-            return out;
-        };
+        let Some(q) = with_front(req, &mut s, synth::tia::equations(req, t)) else { return unsolved(out, checks) };
         p = q;
         checks.extend(synth::tia::checks(req, t, &amp));
     }
@@ -303,6 +282,21 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     out.high_impedance = buffer;
     out.photodiode = tia;
     out.scaling = crate::scaling::scaling(&out);
+    out
+}
+
+/// After a front end (shunt, follower, transimpedance stage) went in front of the gain
+/// stage: its equations first, then the mapping of the whole circuit for the request itself.
+fn with_front(req: &Request, s: &mut synth::Synthesis, mut eqs: Vec<String>) -> Option<Predicted> {
+    eqs.append(&mut s.equations);
+    s.equations = eqs;
+    predict(req, &s.circuit)
+}
+
+/// The design of a circuit that does not solve once its front end is in: an error check.
+fn unsolved(mut out: Design, mut checks: Vec<Check>) -> Design {
+    checks.push(Check::error("no_realisation", "The circuit with its sensor's front end does not solve; this is a fault in Rangefit, please report the request."));
+    out.checks = checks;
     out
 }
 

@@ -113,18 +113,9 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<BufferDesign
 /// The request the gain stage is synthesised for: the follower's output, a stiff DC source
 /// (the signal around the input's DC level for AC coupling).
 pub fn equivalent(req: &Request, b: &BufferDesign) -> Request {
-    let mut eq = req.clone();
     let s = &req.source;
     let mid = 0.5 * (s.min + s.max);
-    eq.source.min = b.input_level + (s.min - mid);
-    eq.source.max = b.input_level + (s.max - mid);
-    eq.source.kind = SourceKind::SingleEnded;
-    eq.source.coupling = Coupling::Dc;
-    eq.source.band_low = 0.0;
-    eq.source.impedance = 0.0;
-    eq.source.capacitance = None;
-    eq.source.measurand = None;
-    eq
+    super::stiff_source(req, b.input_level + (s.min - mid), b.input_level + (s.max - mid))
 }
 
 /// Puts the follower (U1; the gain stage's amplifiers move up by one) and the bias path in

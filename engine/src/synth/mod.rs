@@ -186,6 +186,22 @@ fn bench(bld: &mut Builder, req: &Request, rails: Rails) {
     bld.bench("RADC", PartKind::Resistor, req.destination.impedance, &["adc", "0"], StageRole::Converter, "converter input impedance");
 }
 
+/// `req` with its sensor replaced by a stiff single-ended DC source spanning `min … max`:
+/// what a front end's output presents to the gain stage.
+pub(crate) fn stiff_source(req: &Request, min: f64, max: f64) -> Request {
+    let mut eq = req.clone();
+    let s = &mut eq.source;
+    s.kind = crate::request::SourceKind::SingleEnded;
+    s.coupling = Coupling::Dc;
+    (s.min, s.max) = (min, max);
+    s.impedance = 0.0;
+    s.band_low = 0.0;
+    s.capacitance = None;
+    s.dark_current = None;
+    s.measurand = None;
+    eq
+}
+
 /// Prepares a circuit synthesised for an equivalent stiff source to get a front-end
 /// amplifier as U1 (`buffer`, `tia`): drops the bench's `VSENSE`/`RSENSE`, moves every
 /// amplifier's designator up by one (in the parts and the stages), and moves the gain

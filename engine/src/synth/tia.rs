@@ -27,7 +27,7 @@ use serde::Serialize;
 use crate::amplifier::{Amplifier, Rails};
 use crate::circuit::{Circuit, Part, PartKind, Stage, StageRole, GND};
 use crate::diag::Check;
-use crate::request::{Coupling, Request, SourceKind};
+use crate::request::{Request, SourceKind};
 use crate::units::{format, Quantity};
 use crate::values;
 
@@ -118,19 +118,9 @@ pub fn bandwidth(r_f: f64, c_f: f64, c_in: f64, gbw: f64) -> f64 {
 
 /// The request the gain stage is synthesised for: U1's output, a stiff DC source.
 pub fn equivalent(req: &Request, t: &TiaDesign) -> Request {
-    let mut eq = req.clone();
     let s = &req.source;
     let dark = s.dark_current.unwrap_or(0.0);
-    eq.source.kind = SourceKind::SingleEnded;
-    eq.source.coupling = Coupling::Dc;
-    eq.source.min = t.bias + (s.min + dark) * t.feedback_resistor;
-    eq.source.max = t.bias + (s.max + dark) * t.feedback_resistor;
-    eq.source.impedance = 0.0;
-    eq.source.band_low = 0.0;
-    eq.source.capacitance = None;
-    eq.source.dark_current = None;
-    eq.source.measurand = None;
-    eq
+    super::stiff_source(req, t.bias + (s.min + dark) * t.feedback_resistor, t.bias + (s.max + dark) * t.feedback_resistor)
 }
 
 /// Puts U1 (the gain stage's amplifiers move up by one) with R_f, C_f and the bias in front
