@@ -84,6 +84,8 @@ pub enum StageRole {
     Buffer,
     /// A photodiode's transimpedance stage and its bias.
     Transimpedance,
+    /// An instrumentation amplifier's input amplifiers, gain resistor and leg protection.
+    InputStage,
     /// DC blocking and the bias that sets the DC level after it.
     Coupling,
     /// A reference voltage derived from a rail.
@@ -106,6 +108,7 @@ impl StageRole {
             StageRole::Shunt => "shunt",
             StageRole::Buffer => "buffer",
             StageRole::Transimpedance => "transimpedance",
+            StageRole::InputStage => "input_stage",
             StageRole::Coupling => "coupling",
             StageRole::Reference => "reference",
             StageRole::Gain => "gain",

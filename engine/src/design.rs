@@ -67,6 +67,9 @@ pub struct Design {
     /// Bridges: excitation current, self-heating, linearity.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub bridge: Option<crate::synth::diffamp::BridgeDesign>,
+    /// Pairs and bridges behind an instrumentation amplifier: its first stage.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub instrumentation: Option<crate::synth::inamp::InampDesign>,
     /// The circuit model every output derives from (absent when synthesis was impossible).
     #[serde(skip)]
     pub circuit: Option<Circuit>,
@@ -142,6 +145,18 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         (None, None, Some(t)) => (std::borrow::Cow::Owned(synth::tia::equivalent(req, t)), None, None),
         (None, None, None) => (std::borrow::Cow::Borrowed(req), None, None),
     };
+    // A pair (a bridge as its Thévenin pair) behind an instrumentation amplifier: the first
+    // stage turns it into a stiff pair of G1 times its range, which the difference stage is
+    // synthesised for.
+    let pair: Request = syn.clone().into_owned();
+    let inamp = synth::target(&pair, &amp, rails, &mut Vec::new()).and_then(|t| {
+        let why = synth::inamp::wanted(req, t.gain)?;
+        Some(synth::inamp::plan(&pair, &amp, rails, t.gain, bridge.as_ref().map_or(0.0, |b| b.1.zero_offset), why))
+    });
+    let syn = match &inamp {
+        Some(d) => std::borrow::Cow::Owned(synth::inamp::equivalent(&pair, d)),
+        None => syn,
+    };
     let syn: &Request = &syn;
     let mut checks = feasibility(syn, rails, &amp);
     checks.extend(front_error);
@@ -169,6 +184,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         photodiode: None,
         differential: None,
         bridge: None,
+        instrumentation: None,
         circuit: None,
     };
     // A bridge's own figures do not depend on the circuit after it.
@@ -244,8 +260,17 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         p = q;
         checks.extend(synth::buffer::checks(req, b, &amp));
     }
+    if let Some(ia) = &inamp {
+        synth::inamp::insert(&mut s.circuit, &pair, ia, rails);
+        let Some(q) = with_front(&pair, &mut s, synth::inamp::equations(&pair, ia)) else { return unsolved(out, checks) };
+        p = q;
+        checks.extend(synth::inamp::checks(&pair, ia, &amp, rails));
+        // The legs now meet the protection resistors, not the difference stage.
+        checks.retain(|c| c.id != "input_protection");
+        checks.extend(input_protection(&pair, &s.circuit, rails));
+    }
     if matches!(req.source.kind, crate::request::SourceKind::Differential | crate::request::SourceKind::Bridge) {
-        if let Some((dd, check)) = synth::diffamp::report(syn, &s) {
+        if let Some((dd, check)) = synth::diffamp::report(&pair, &s.circuit, inamp.as_ref().map(|d| d.first_gain)) {
             out.differential = Some(dd);
             checks.push(check);
         }
@@ -281,6 +306,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     out.current_loop = current_loop;
     out.high_impedance = buffer;
     out.photodiode = tia;
+    out.instrumentation = inamp;
     out.scaling = crate::scaling::scaling(&out);
     out
 }

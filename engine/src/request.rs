@@ -225,6 +225,26 @@ pub struct LoopSpec {
     pub fault_high: f64,
 }
 
+/// The amplifier a differential pair or a bridge meets first (`source.front_end`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum FrontEnd {
+    /// The design chooses: an instrumentation amplifier for a bridge, for a gain above 10 or
+    /// for legs a difference amplifier would load; a difference amplifier otherwise.
+    #[default]
+    Auto,
+    /// One amplifier with four resistors (the legs see its input resistors).
+    Difference,
+    /// Two input amplifiers and a difference stage (the legs see only amplifier inputs).
+    Instrumentation,
+}
+
+impl FrontEnd {
+    pub fn is_auto(&self) -> bool {
+        *self == FrontEnd::Auto
+    }
+}
+
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Coupling {
@@ -263,6 +283,9 @@ pub struct Source {
     pub common_mode_min: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub common_mode_max: Option<f64>,
+    /// Differential pairs and bridges: the first amplifier (`auto` for other kinds).
+    #[serde(default, skip_serializing_if = "FrontEnd::is_auto")]
+    pub front_end: FrontEnd,
     /// Bridges: the excitation and the bridge itself.
     #[serde(default, flatten, skip_serializing_if = "Option::is_none")]
     pub bridge: Option<BridgeSpec>,
@@ -587,7 +610,16 @@ fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Result<Source
             (None, None)
         }
     };
-    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high", "capacitance", "dark_current", "common_mode_min", "common_mode_max", "excitation", "sensitivity", "bridge_resistance", "active_arms", "ratiometric", "zero_balance"])?;
+    let front_end = match (o.string("front_end")?.as_deref(), kind) {
+        (None | Some("auto"), _) => FrontEnd::Auto,
+        (Some(_), k) if !matches!(k, SourceKind::Differential | SourceKind::Bridge) => {
+            return Err(o.err("front_end", "applies only to a differential sensor or a bridge"));
+        }
+        (Some("difference"), _) => FrontEnd::Difference,
+        (Some("instrumentation"), _) => FrontEnd::Instrumentation,
+        (Some(other), _) => return Err(o.err("front_end", &format!("'{other}' is not a front end; use \"auto\", \"difference\" or \"instrumentation\""))),
+    };
+    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high", "capacitance", "dark_current", "common_mode_min", "common_mode_max", "front_end", "excitation", "sensitivity", "bridge_resistance", "active_arms", "ratiometric", "zero_balance"])?;
     if bridge.is_none() {
         for key in ["excitation", "sensitivity", "bridge_resistance", "active_arms", "ratiometric", "zero_balance"] {
             if o.get(key).is_some() {
@@ -595,7 +627,7 @@ fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Result<Source
             }
         }
     }
-    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand, current_loop, capacitance, dark_current, common_mode_min, common_mode_max, bridge })
+    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand, current_loop, capacitance, dark_current, common_mode_min, common_mode_max, front_end, bridge })
 }
 
 /// The bridge fields of `source`.

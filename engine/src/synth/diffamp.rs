@@ -32,11 +32,13 @@ pub struct DiffDesign {
     /// R1 (= R3) and R2 (= R4), Ω.
     pub r1: f64,
     pub r2: f64,
-    /// Differential gain with the rounded parts, V/V.
+    /// Differential gain of this stage with the rounded parts, V/V (behind an
+    /// instrumentation amplifier's first stage: G2).
     pub gain: f64,
     /// The reference pin's level, V.
     pub reference: f64,
-    /// Worst-case CMRR from the resistor tolerance, dB.
+    /// Worst-case CMRR from the resistor tolerance, dB (of the whole instrumentation
+    /// amplifier when there is one).
     pub cmrr_worst_db: f64,
     /// Output change over the common-mode range at that CMRR, V.
     pub cm_error: f64,
@@ -96,6 +98,15 @@ pub fn cmrr_monte_carlo(circuit: &Circuit, runs: usize, seed: u64) -> Option<f64
 /// ±`t`: (1 + G)/(4t), dB.
 pub fn cmrr_worst_db(g: f64, t: f64) -> f64 {
     20.0 * ((1.0 + g.abs()) / (4.0 * t.max(1e-12))).log10()
+}
+
+/// The smallest relative error of a ratio R2/R1 ≈ `g` with both from `series` (one decade of
+/// R1 covers every ratio the series offers).
+pub fn ratio_error(series: values::Series, g: f64) -> f64 {
+    values::values_between(series, 1e3, 9.99e3)
+        .into_iter()
+        .filter_map(|r1| values::nearest(series, g * r1).map(|r2| (r2 / r1 / g - 1.0).abs()))
+        .fold(f64::INFINITY, f64::min)
 }
 
 /// Synthesises the stage for target `t`; `None` when no pair fits the resistor window.
@@ -201,22 +212,28 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
     })
 }
 
-/// The design figures and the common-mode check.
-pub fn report(req: &Request, s: &Synthesis) -> Option<(DiffDesign, crate::diag::Check)> {
+/// The design figures and the common-mode check of the circuit `c` built for the pair
+/// `req`; `front_gain` is the gain of an instrumentation amplifier's first stage in front of
+/// the difference stage (which then sees no source impedance), `None` without one.
+pub fn report(req: &Request, c: &Circuit, front_gain: Option<f64>) -> Option<(DiffDesign, crate::diag::Check)> {
     let src = &req.source;
-    let c = &s.circuit;
     let r1 = c.parts.iter().find(|p| p.purpose.starts_with("input resistor R1"))?.value;
     let r2 = c.parts.iter().find(|p| p.purpose.starts_with("feedback resistor R2"))?.value;
-    let gain = r2 / (r1 + src.impedance);
+    let gain = r2 / (r1 + if front_gain.is_some() { 0.0 } else { src.impedance });
+    let g1 = front_gain.unwrap_or(1.0);
     let t = req.parts.resistor_tolerance;
-    let cmrr = cmrr_worst_db(gain, t);
+    let cmrr = super::inamp::cmrr_worst_db(g1, gain, t);
     let cm_span = src.common_mode_max.unwrap_or(0.0) - src.common_mode_min.unwrap_or(0.0);
-    let cm_error = gain * cm_span / 10f64.powf(cmrr / 20.0);
+    let cm_error = g1 * gain * cm_span / 10f64.powf(cmrr / 20.0);
     let d = &req.destination;
     let lsb = (d.max - d.min) / 2f64.powi(d.bits as i32);
+    let tol = format!("{} %", crate::units::format_sig(100.0 * t, Quantity::Ratio, 3));
+    let rule = match front_gain {
+        Some(g1) => format!("G1·(1 + G2)/(4t), the difference stage's (1 + G2)/(4t) times the first stage's gain {g1:.3}"),
+        None => "(1 + G)/(4t)".to_string(),
+    };
     let text = format!(
-        "With ±{} resistors the worst-case common-mode rejection is {:.1} dB ((1 + G)/(4t)); over the {} common-mode range the output may move by {} ({:.1} LSB)",
-        format!("{} %", crate::units::format_sig(100.0 * t, Quantity::Ratio, 3)),
+        "With ±{tol} resistors the worst-case common-mode rejection is {:.1} dB ({rule}); over the {} common-mode range the output may move by {} ({:.1} LSB)",
         cmrr,
         format(cm_span, Quantity::Voltage),
         format(cm_error, Quantity::Voltage),
@@ -227,11 +244,8 @@ pub fn report(req: &Request, s: &Synthesis) -> Option<(DiffDesign, crate::diag::
         Some(db) => format!("{text}; {} seeded builds: 99.9 % exceed {db:.1} dB", CMRR_RUNS),
         None => text,
     };
-    let check = if cm_error > lsb {
-        crate::diag::Check::warning("cmrr", format!("{text}. Tighter resistors (0.1 % or a matched network) or an instrumentation amplifier raise it."))
-    } else {
-        crate::diag::Check::ok("cmrr", format!("{text}."))
-    };
+    let remedy = if front_gain.is_some() { "Tighter resistors in the difference stage (0.1 % or a matched network) or more gain in the first stage raise it." } else { "Tighter resistors (0.1 % or a matched network) or an instrumentation amplifier (source.front_end) raise it." };
+    let check = if cm_error > lsb { crate::diag::Check::warning("cmrr", format!("{text}. {remedy}")) } else { crate::diag::Check::ok("cmrr", format!("{text}.")) };
     let reference = c.parts.iter().find(|p| p.purpose.starts_with("resistor R4")).map_or(0.0, |p| {
         let pin = p.nodes.iter().find(|n| *n != "inp1").cloned().unwrap_or_default();
         if pin == GND { 0.0 } else { crate::solve::Solver::new(c).dc(0.5 * (src.min + src.max)).ok().and_then(|o| o.voltage(&pin)).unwrap_or(0.0) }

@@ -26,6 +26,7 @@ pub mod diffamp;
 pub mod drive;
 pub mod filter;
 pub mod front;
+pub mod inamp;
 pub mod merge;
 pub mod round;
 pub mod tia;
@@ -208,17 +209,23 @@ pub(crate) fn stiff_source(req: &Request, min: f64, max: f64) -> Request {
 /// stage's input from the sensor terminal to `input`, the front end's output.
 pub(crate) fn make_room_in_front(circuit: &mut Circuit, input: &str) {
     circuit.parts.retain(|p| !(p.bench && (p.reference == "VSENSE" || p.reference == "RSENSE")));
-    let renumber = |d: &str| match d.strip_prefix('U').and_then(|n| n.parse::<u32>().ok()) {
-        Some(n) => format!("U{}", n + 1),
-        None => d.to_string(),
-    };
+    renumber_amplifiers(circuit, 1);
     for p in circuit.parts.iter_mut().filter(|p| !p.bench) {
-        if p.kind == PartKind::OpAmp {
-            p.reference = renumber(&p.reference);
-        }
         for n in p.nodes.iter_mut().filter(|n| *n == "sense" || *n == "emf") {
             *n = input.to_string();
         }
+    }
+}
+
+/// Moves every amplifier's designator up by `by` (in the parts and the stages), freeing
+/// U1 … U`by` for amplifiers put in front.
+pub(crate) fn renumber_amplifiers(circuit: &mut Circuit, by: u32) {
+    let renumber = |d: &str| match d.strip_prefix('U').and_then(|n| n.parse::<u32>().ok()) {
+        Some(n) => format!("U{}", n + by),
+        None => d.to_string(),
+    };
+    for p in circuit.parts.iter_mut().filter(|p| !p.bench && p.kind == PartKind::OpAmp) {
+        p.reference = renumber(&p.reference);
     }
     for st in circuit.stages.iter_mut() {
         for d in st.parts.iter_mut() {

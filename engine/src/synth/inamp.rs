@@ -1,0 +1,317 @@
+//! The instrumentation-amplifier front end of a differential pair or a bridge: two
+//! non-inverting amplifiers (U1 on the + leg, U2 on the − leg) whose inverting inputs share
+//! the gain resistor R_G, each with its feedback resistor R_F, followed by the difference
+//! amplifier of [`super::diffamp`]. The first stage passes the common mode at unity gain and
+//! multiplies the difference by G1 = 1 + 2·R_F/R_G; the difference stage takes G2 = R2/R1,
+//! so G = (1 + 2R_F/R_G)·(R2/R1) (references: three-op-amp instrumentation amplifier). The
+//! legs see only the amplifiers' + inputs: nothing loads the sensor.
+//!
+//! **How the gain is split.** The first stage takes as much of the gain as its outputs can
+//! swing: they sit at V_cm ± G1·V_d/2, so G1 ≤ 2·min(out_hi − V_cm,max, V_cm,min − out_lo)/|V_d|max
+//! (a bridge's zero balance counted in V_d). Gain in the first stage also multiplies the
+//! common-mode rejection: with resistor tolerance t the worst case is G1·(1 + G2)/(4t)
+//! (references: Kitchin & Counts, from memory; the tests reproduce it by brute force).
+//! R_F is the series value in 10 kΩ … 100 kΩ (common practice for this stage: low noise, a
+//! light load on the amplifiers) with the R_G from the series that gives G1 most closely
+//! without passing the swing limit. The difference stage is then synthesised for the first
+//! stage's outputs (`equivalent`): a stiff pair with G1 times the sensor's range.
+//!
+//! **Input protection.** Each leg reaches its amplifier through a series resistor R_P: a
+//! leg driven beyond a rail then pushes at most (excess − 0.3 V)/R_P into the amplifier's
+//! input protection. R_P is the largest series value whose thermal noise stays at or below
+//! half the amplifier's voltage noise density (√(4kT·R_P) ≤ e_n/2, so the pair adds at most
+//! about 12 % to the stage's input noise), capped at 10 kΩ (common practice); the check
+//! states the fault each leg then tolerates.
+
+use serde::Serialize;
+
+use crate::amplifier::{Amplifier, Rails};
+use crate::circuit::{Builder, Circuit, PartKind, Stage, StageRole, GND};
+use crate::diag::Check;
+use crate::request::{FrontEnd, Request, SourceKind};
+use crate::units::{format, Quantity};
+use crate::values;
+
+/// R_F's window, Ω (common practice for the first stage of an instrumentation amplifier).
+pub const FEEDBACK_MIN: f64 = 10e3;
+pub const FEEDBACK_MAX: f64 = 100e3;
+/// Largest protection resistor, Ω (common practice).
+pub const PROTECT_MAX: f64 = 10e3;
+/// Smallest protection resistor, Ω.
+pub const PROTECT_MIN: f64 = 10.0;
+/// Boltzmann constant, J/K (exact, SI 2019).
+const K_B: f64 = 1.380649e-23;
+
+/// The designed first stage (`instrumentation` in the design output).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct InampDesign {
+    /// Why the instrumentation amplifier was chosen.
+    pub reason: String,
+    /// R_F (each leg) and R_G, Ω; `None` when the first stage is a pair of followers.
+    pub feedback: Option<f64>,
+    pub gain_resistor: Option<f64>,
+    /// First-stage gain with the rounded parts, V/V.
+    pub first_gain: f64,
+    /// The largest first-stage gain the outputs can swing, V/V.
+    pub first_gain_limit: f64,
+    /// Series resistor in each leg, Ω.
+    pub protection: f64,
+    /// Thermal noise density of one protection resistor, V/√Hz.
+    pub protection_noise: f64,
+    /// How far beyond a rail a leg may go with the current into the amplifier's input
+    /// limited to `destination.injection_limit`, V.
+    pub fault_beyond_rail: f64,
+    /// The amplifiers' + inputs over the common-mode and signal range, V.
+    pub input_range: (f64, f64),
+    /// The first stage's outputs over that range, V.
+    pub output_range: (f64, f64),
+    /// The gain-bandwidth the first stage needs (100 × G1 × band_high), Hz.
+    pub gbw_needed: f64,
+}
+
+/// Whether `req` (a differential pair, or a bridge) gets the instrumentation amplifier:
+/// a bridge always unless the request asks for the difference amplifier; a pair when asked,
+/// or (`auto`) when the gain wanted is above 10 or the difference amplifier's input
+/// resistors could not stay at 100 × the legs' impedance (either would load the sensor or
+/// leave the common-mode rejection to one stage), and the reason in words.
+pub fn wanted(req: &Request, gain: f64) -> Option<String> {
+    let s = &req.source;
+    if !matches!(s.kind, SourceKind::Differential | SourceKind::Bridge) {
+        return None;
+    }
+    match s.front_end {
+        FrontEnd::Difference => None,
+        FrontEnd::Instrumentation => Some("requested (source.front_end)".to_string()),
+        FrontEnd::Auto if s.kind == SourceKind::Bridge => Some("a bridge: nothing may load its arms, and its millivolts need gain before the common mode is removed".to_string()),
+        FrontEnd::Auto if gain.abs() > 10.0 => Some(format!("a gain of {:.1}: the first stage takes it before the common mode is removed, which multiplies the rejection", gain.abs())),
+        FrontEnd::Auto if 100.0 * s.impedance * (1.0 + gain.abs()) > req.parts.resistor_max => {
+            Some(format!("the legs' {} impedance: a difference amplifier's input resistors would load them", format(s.impedance, Quantity::Resistance)))
+        }
+        FrontEnd::Auto => None,
+    }
+}
+
+/// Plans the first stage for the pair `req` (a bridge as its Thévenin pair) when the whole
+/// amplifier needs gain `gain`; `extra` widens the differential signal the stage must pass
+/// (a bridge's zero balance), V.
+pub fn plan(req: &Request, amp: &Amplifier, rails: Rails, gain: f64, extra: f64, reason: String) -> InampDesign {
+    let s = &req.source;
+    let m = super::SWING_MARGIN;
+    let (out_lo, out_hi) = amp.output_limits(rails);
+    let cm_lo = s.common_mode_min.unwrap_or(0.0);
+    let cm_hi = s.common_mode_max.unwrap_or(cm_lo);
+    let a = s.min.abs().max(s.max.abs()) + extra.abs();
+    let room = (out_hi - m - cm_hi).min(cm_lo - (out_lo + m));
+    let limit = if a > 0.0 { (2.0 * room / a).max(1.0) } else { f64::INFINITY };
+    let want = gain.abs().min(limit).max(1.0);
+    let series = req.parts.resistor_series;
+    // Candidate (R_F, R_G) pairs with G1 from a third of the wanted gain up to the limit;
+    // each is scored by the whole amplifier's gain error once the difference stage takes the
+    // rest with its best ratio from the series (`diffamp::ratio_error`), so the two
+    // roundings can cancel. Among equal errors the larger G1 (more common-mode rejection),
+    // then R_F nearest the geometric middle of its window.
+    let mut best: Option<(f64, f64, f64, f64)> = None;
+    let g = gain.abs();
+    if want > 1.0 + 1e-3 {
+        let mid = (FEEDBACK_MIN * FEEDBACK_MAX).sqrt();
+        let lo = FEEDBACK_MIN.max(req.parts.resistor_min);
+        let hi = FEEDBACK_MAX.min(req.parts.resistor_max).max(lo);
+        let mut seen: Vec<f64> = Vec::new();
+        for r_f in values::values_between(series, lo, hi) {
+            let g_lo = (want / 3.0).max(1.0 + 1e-3);
+            let (rg_lo, rg_hi) = (2.0 * r_f / (want - 1.0), 2.0 * r_f / (g_lo - 1.0));
+            for r_g in values::values_between(series, rg_lo.max(req.parts.resistor_min.min(10.0)), rg_hi) {
+                let g1 = 1.0 + 2.0 * r_f / r_g;
+                if g1 > limit * (1.0 + 1e-9) || seen.iter().any(|x| (x / g1 - 1.0).abs() < 1e-9) {
+                    continue;
+                }
+                seen.push(g1);
+                let err = super::diffamp::ratio_error(series, g / g1);
+                let better = match &best {
+                    None => true,
+                    Some(b) => err < b.3 - 1e-6 || (err <= b.3 + 1e-6 && (g1 > b.2 * (1.0 + 1e-9) || (g1 >= b.2 * (1.0 - 1e-9) && (r_f / mid).ln().abs() < (b.0 / mid).ln().abs()))),
+                };
+                if better {
+                    best = Some((r_f, r_g, g1, err));
+                }
+            }
+        }
+    }
+    let best = best.map(|b| (b.0, b.1, b.2));
+    let (feedback, gain_resistor, first_gain) = match best {
+        Some((r_f, r_g, g1)) => (Some(r_f), Some(r_g), g1),
+        None => (None, None, 1.0),
+    };
+    // Protection: √(4kT·R_P) ≤ e_n/2.
+    let four_kt = 4.0 * K_B * req.analysis.temperature;
+    let bound = ((0.5 * amp.noise_voltage).powi(2) / four_kt).clamp(PROTECT_MIN, PROTECT_MAX);
+    let protection = values::step_down(series, bound).unwrap_or(bound);
+    let half = 0.5 * s.min.abs().max(s.max.abs());
+    let input_range = (cm_lo - half, cm_hi + half);
+    let swing = 0.5 * first_gain * a;
+    InampDesign {
+        reason,
+        feedback,
+        gain_resistor,
+        first_gain,
+        first_gain_limit: limit,
+        protection,
+        protection_noise: (four_kt * protection).sqrt(),
+        fault_beyond_rail: protection * req.destination.injection_limit + super::drive::CLAMP_DROP,
+        input_range,
+        output_range: (cm_lo - swing, cm_hi + swing),
+        gbw_needed: 100.0 * first_gain * s.band_high,
+    }
+}
+
+/// The request the difference stage is synthesised for: the first stage's outputs, a stiff
+/// pair carrying G1 times the sensor's range at the same common mode.
+pub fn equivalent(req: &Request, d: &InampDesign) -> Request {
+    let mut eq = req.clone();
+    let s = &mut eq.source;
+    s.kind = SourceKind::Differential;
+    s.min *= d.first_gain;
+    s.max *= d.first_gain;
+    s.impedance = 0.0;
+    s.bridge = None;
+    s.measurand = None;
+    eq
+}
+
+/// Puts the first stage (U1, U2; the difference stage's amplifiers move up by two) and the
+/// protection resistors in front of the difference stage synthesised for [`equivalent`],
+/// and restores the bench to the pair `req` describes.
+pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rails) {
+    let s = &req.source;
+    super::renumber_amplifiers(circuit, 2);
+    for p in circuit.parts.iter_mut() {
+        if p.bench {
+            continue;
+        }
+        for n in p.nodes.iter_mut() {
+            match n.as_str() {
+                "sensep" => *n = "oa".to_string(),
+                "sensen" => *n = "ob".to_string(),
+                _ => {}
+            }
+        }
+    }
+    let mid = 0.5 * (s.min + s.max);
+    let cm_mid = 0.5 * (s.common_mode_min.unwrap_or(0.0) + s.common_mode_max.unwrap_or(0.0));
+    for p in circuit.parts.iter_mut().filter(|p| p.bench) {
+        match p.reference.as_str() {
+            "VSENSE" => p.value = mid,
+            "VCM" => p.value = cm_mid - 0.5 * mid,
+            "RSENSEP" | "RSENSEN" => p.value = s.impedance.max(1e-3),
+            _ => {}
+        }
+    }
+    let vneg = if rails.is_dual() { "vneg" } else { GND };
+    let gbw = circuit.amplifier.gbw;
+    let rtol = Some(req.parts.resistor_tolerance);
+    let mut bld = Builder::resume(std::mem::take(&mut circuit.parts));
+    let mut parts = Vec::new();
+    let push_amp = |bld: &mut Builder, designator: &str, nodes: [&str; 5], purpose: &str| {
+        bld.parts.push(crate::circuit::Part {
+            reference: designator.to_string(),
+            kind: PartKind::OpAmp,
+            value: gbw,
+            tolerance: None,
+            nodes: nodes.iter().map(|n| n.to_string()).collect(),
+            stage: StageRole::InputStage,
+            purpose: purpose.to_string(),
+            bench: false,
+        });
+    };
+    parts.push(bld.add(PartKind::Resistor, d.protection, rtol, &["sensep", "ipp"], StageRole::InputStage, "protection resistor, + leg: limits fault current into U1's input"));
+    parts.push(bld.add(PartKind::Resistor, d.protection, rtol, &["sensen", "ipn"], StageRole::InputStage, "protection resistor, − leg: limits fault current into U2's input"));
+    match (d.feedback, d.gain_resistor) {
+        (Some(r_f), Some(r_g)) => {
+            push_amp(&mut bld, "U1", ["ipp", "ga", "vpos", vneg, "oa"], "input amplifier, + leg: gain 1 + 2R_F/R_G for the difference, 1 for the common mode");
+            push_amp(&mut bld, "U2", ["ipn", "gb", "vpos", vneg, "ob"], "input amplifier, − leg: gain 1 + 2R_F/R_G for the difference, 1 for the common mode");
+            parts.extend(["U1".to_string(), "U2".to_string()]);
+            parts.push(bld.add(PartKind::Resistor, r_f, rtol, &["oa", "ga"], StageRole::InputStage, "first-stage feedback R_F, + leg"));
+            parts.push(bld.add(PartKind::Resistor, r_g, rtol, &["ga", "gb"], StageRole::InputStage, "gain resistor R_G: sets the first stage's gain"));
+            parts.push(bld.add(PartKind::Resistor, r_f, rtol, &["ob", "gb"], StageRole::InputStage, "first-stage feedback R_F, − leg"));
+        }
+        _ => {
+            push_amp(&mut bld, "U1", ["ipp", "oa", "vpos", vneg, "oa"], "input follower, + leg: the leg sees only its input");
+            push_amp(&mut bld, "U2", ["ipn", "ob", "vpos", vneg, "ob"], "input follower, − leg: the leg sees only its input");
+            parts.extend(["U1".to_string(), "U2".to_string()]);
+        }
+    }
+    circuit.parts = bld.parts;
+    let what = match d.gain_resistor {
+        Some(r_g) => format!("instrumentation-amplifier input stage, gain {:.3} (R_G {})", d.first_gain, format(r_g, Quantity::Resistance)),
+        None => "instrumentation-amplifier input stage: two followers".to_string(),
+    };
+    circuit.stages.insert(0, Stage { role: StageRole::InputStage, description: what, parts });
+}
+
+/// Design equations of the first stage, with the numbers substituted.
+pub fn equations(req: &Request, d: &InampDesign) -> Vec<String> {
+    let r = |x: f64| format(x, Quantity::Resistance);
+    let mut e = vec![format!("Instrumentation amplifier chosen for {}", d.reason)];
+    match (d.feedback, d.gain_resistor) {
+        (Some(r_f), Some(r_g)) => e.push(format!(
+            "G1 = 1 + 2R_F/R_G = 1 + 2·{}/{} = {:.5} (at most {:.3}, where the first stage's outputs reach the swing limit); the difference stage takes the rest",
+            r(r_f),
+            r(r_g),
+            d.first_gain,
+            d.first_gain_limit
+        )),
+        _ => e.push(format!("G1 = 1: two followers (the outputs cannot swing any gain, or none is wanted: limit {:.3})", d.first_gain_limit)),
+    }
+    e.push(format!(
+        "R_P = {} per leg: √(4kT·R_P) = {} ≤ e_n/2 at {} K",
+        r(d.protection),
+        format(d.protection_noise, Quantity::VoltageNoise),
+        crate::units::format_sig(req.analysis.temperature, Quantity::Ratio, 4)
+    ));
+    e
+}
+
+/// Checks of the first stage: its inputs and outputs against the amplifier's reach, its
+/// gain-bandwidth, and the protection the series resistors give.
+pub fn checks(req: &Request, d: &InampDesign, amp: &Amplifier, rails: Rails) -> Vec<Check> {
+    let v = |x: f64| format(x, Quantity::Voltage);
+    let hz = |x: f64| format(x, Quantity::Frequency);
+    let mut c = Vec::new();
+    let (in_lo, in_hi) = amp.input_limits(rails);
+    let (a, b) = d.input_range;
+    c.push(if a < in_lo - 1e-9 || b > in_hi + 1e-9 {
+        Check::error("input_stage_inputs", format!("The legs swing {} … {}, outside the input amplifiers' input range {} … {} on these rails; widen the rails or choose amplifiers whose inputs reach them.", v(a), v(b), v(in_lo), v(in_hi)))
+    } else {
+        Check::ok("input_stage_inputs", format!("The legs swing {} … {}, inside the input amplifiers' input range {} … {}.", v(a), v(b), v(in_lo), v(in_hi)))
+    });
+    let (out_lo, out_hi) = amp.output_limits(rails);
+    let (a, b) = d.output_range;
+    c.push(if a < out_lo - 1e-9 || b > out_hi + 1e-9 {
+        Check::error("input_stage_swing", format!("The first stage's outputs would swing {} … {}, beyond the amplifiers' {} … {}: the common mode leaves no room for even unity gain. Move the common mode toward mid-rail or widen the rails.", v(a), v(b), v(out_lo), v(out_hi)))
+    } else {
+        Check::ok("input_stage_swing", format!("The first stage's outputs swing {} … {} (the common mode ± G1 × half the difference), inside the amplifiers' {} … {}.", v(a), v(b), v(out_lo), v(out_hi)))
+    });
+    c.push(if d.gbw_needed > amp.gbw {
+        Check::warning("input_stage_gbw", format!("The first stage's gain {:.1} over a {} band needs a gain-bandwidth of {}, above the amplifiers' {}; its gain will droop toward the band edge. Move gain to the difference stage or choose faster amplifiers.", d.first_gain, hz(req.source.band_high), hz(d.gbw_needed), hz(amp.gbw)))
+    } else {
+        Check::ok("input_stage_gbw", format!("The amplifiers' gain-bandwidth {} covers the {} the first stage needs.", hz(amp.gbw), hz(d.gbw_needed)))
+    });
+    c.push(Check::ok(
+        "input_series",
+        format!(
+            "Each leg reaches its amplifier through {}: a leg driven up to {} beyond a rail pushes at most {} into the input's protection (the amplifier's datasheet governs the figure it tolerates); for larger faults add clamp diodes from each input to the rails. Each resistor adds {} of noise against the amplifier's {}.",
+            format(d.protection, Quantity::Resistance),
+            v(d.fault_beyond_rail),
+            format(req.destination.injection_limit, Quantity::Current),
+            format(d.protection_noise, Quantity::VoltageNoise),
+            format(amp.noise_voltage, Quantity::VoltageNoise)
+        ),
+    ));
+    c
+}
+
+/// Worst-case CMRR of the whole instrumentation amplifier, dB: the difference stage's
+/// (1 + G2)/(4t) multiplied by the first stage's gain.
+pub fn cmrr_worst_db(first_gain: f64, second_gain: f64, t: f64) -> f64 {
+    super::diffamp::cmrr_worst_db(second_gain, t) + 20.0 * first_gain.max(1.0).log10()
+}
