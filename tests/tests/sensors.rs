@@ -12,36 +12,8 @@ use rangefit_engine::netlist::{netlist, NetlistConfig};
 use rangefit_engine::{design, Design, Request};
 use rangefit_tests::run_ngspice;
 
-/// One expectation: what, the value, the reference, the tolerance and the reference's source.
-struct Row {
-    what: String,
-    got: f64,
-    want: f64,
-    tol: f64,
-    source: &'static str,
-}
-
-fn row(what: impl Into<String>, got: f64, want: f64, tol: f64, source: &'static str) -> Row {
-    Row { what: what.into(), got, want, tol, source }
-}
-
-fn fact(what: impl Into<String>, ok: bool, source: &'static str) -> Row {
-    row(what, if ok { 1.0 } else { 0.0 }, 1.0, 0.0, source)
-}
-
-/// The one check helper: every failing row is listed with its source.
-fn check(rows: &[Row]) {
-    let bad: Vec<String> = rows
-        .iter()
-        .filter(|r| !((r.got - r.want).abs() <= r.tol) || r.got.is_nan())
-        .map(|r| format!("{}: got {}, want {} ± {} [{}]", r.what, r.got, r.want, r.tol, r.source))
-        .collect();
-    assert!(bad.is_empty(), "{} of {} checks failed:\n{}", bad.len(), rows.len(), bad.join("\n"));
-}
-
-fn request(json: &str) -> Request {
-    Request::from_json(json).unwrap_or_else(|e| panic!("{e}\n{json}"))
-}
+mod rows;
+use rows::{check, fact, request, row, spice_pairs};
 
 /// v(adc) from ngspice for each loop current (`ISENSE` altered, operating point).
 fn spice_outputs(tag: &str, d: &Design, currents: &[f64]) -> Vec<f64> {
@@ -417,22 +389,6 @@ fn photodiode_fields_are_read_and_refused_by_name() {
 
 // ---------------------------------------------------------------------------------------
 // Differential sensors
-
-/// v(adc) from ngspice at DC for each (VSENSE, VCM) pair.
-fn spice_pairs(tag: &str, d: &Design, pairs: &[(f64, f64)]) -> Vec<f64> {
-    let net = netlist(&d.request, d.circuit.as_ref().expect("circuit"), NetlistConfig { testbench: false });
-    let body = net.trim_end().strip_suffix(".end").expect("netlist ends with .end");
-    let mut control = String::new();
-    for (v, cm) in pairs {
-        control.push_str(&format!("alter VSENSE dc = {v:e}\nalter VCM dc = {cm:e}\nop\nprint v(adc)\n"));
-    }
-    let deck = format!("{body}.control\n{control}quit\n.endc\n.end\n");
-    let (ok, stdout, stderr) = run_ngspice(tag, &deck);
-    assert!(ok, "[{tag}] ngspice failed:\n{stderr}\n{deck}");
-    let v: Vec<f64> = stdout.lines().filter_map(|l| l.trim().strip_prefix("v(adc) = ").and_then(|x| x.trim().parse().ok())).collect();
-    assert_eq!(v.len(), pairs.len(), "[{tag}] ngspice printed:\n{stdout}");
-    v
-}
 
 const PAIR: &str = r#"{"name": "Kiln draught differential sensor", "source": {"kind": "differential", "min": "-1.5 V", "max": "1.5 V", "common_mode_min": "2 V", "common_mode_max": "3 V", "impedance": "200", "band_high": "5 Hz"},
     "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "50 Hz"}, "supplies": [5], "parts": {"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}"#;
