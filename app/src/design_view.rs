@@ -284,17 +284,34 @@ fn mapping_node(s: &Shown) -> Node {
             .child(el("h4").text("Input follower U1"))
             .child(el_c("dl", "mapping").attr("data-testid", "buffer").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
     }
+    if let Some(ia) = &s.design.instrumentation {
+        let mut facts = vec![("Chosen for", ia.reason.clone())];
+        match (ia.feedback, ia.gain_resistor) {
+            (Some(r_f), Some(r_g)) => {
+                facts.push(("R_F (each leg)", format(r_f, Quantity::Resistance)));
+                facts.push(("R_G", format(r_g, Quantity::Resistance)));
+            }
+            _ => facts.push(("Input amplifiers", "followers (unity gain)".to_string())),
+        }
+        facts.push(("First-stage gain", format!("{:.3} (largest the outputs can swing: {:.1})", ia.first_gain, ia.first_gain_limit)));
+        facts.push(("First-stage outputs", format!("{} … {}", volts(ia.output_range.0), volts(ia.output_range.1))));
+        facts.push(("Protection resistor (each leg)", format(ia.protection, Quantity::Resistance)));
+        facts.push(("A leg may go beyond a rail by", volts(ia.fault_beyond_rail)));
+        out = out
+            .child(el("h4").text("Instrumentation amplifier: input stage U1, U2"))
+            .child(el_c("dl", "mapping").attr("data-testid", "instrumentation").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
+    }
     if let Some(dd) = &s.design.differential {
         let facts = [
             ("R1 = R3", format(dd.r1, Quantity::Resistance)),
             ("R2 = R4", format(dd.r2, Quantity::Resistance)),
             ("Reference pin", volts(dd.reference)),
-            ("Worst-case CMRR", format!("{:.1} dB", dd.cmrr_worst_db)),
+            ("Worst-case CMRR (whole amplifier)", format!("{:.1} dB", dd.cmrr_worst_db)),
             ("CMRR 99.9 % of builds exceed", dd.cmrr_monte_carlo_db.map_or("—".to_string(), |x| format!("{x:.1} dB"))),
             ("Output shift over the common-mode range", volts(dd.cm_error)),
         ];
         out = out
-            .child(el("h4").text("Difference amplifier"))
+            .child(el("h4").text(if s.design.instrumentation.is_some() { "Instrumentation amplifier: difference stage" } else { "Difference amplifier" }))
             .child(el_c("dl", "mapping").attr("data-testid", "differential").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
     }
     if let Some(t) = &s.design.photodiode {

@@ -139,6 +139,7 @@ impl Field {
             "source.coupling" | "source.impedance" | "source.band_low" => !current_loop() && !matches!(text("source.kind").as_str(), "photodiode" | "bridge"),
             "source.dark_current" => text("source.kind") == "photodiode",
             "source.common_mode_min" | "source.common_mode_max" => text("source.kind") == "differential",
+            "source.front_end" => matches!(text("source.kind").as_str(), "differential" | "bridge"),
             "source.excitation" | "source.sensitivity" | "source.bridge_resistance" | "source.active_arms" | "source.ratiometric" | "source.zero_balance" => text("source.kind") == "bridge",
             "destination.modulator_rate" => oversampling(),
             "destination.acquisition_time" | "destination.input_capacitance" => !oversampling(),
@@ -162,6 +163,11 @@ const KINDS: &[(&str, &str)] = &[
     ("current_loop", "Current loop (4–20 mA or another range), measured across a shunt"),
     ("high_impedance", "High-impedance voltage (MΩ to TΩ: pH or ion electrode, piezo film, bare electret)"),
     ("photodiode", "Photodiode: its photocurrent, into a transimpedance stage"),
+];
+const FRONT_ENDS: &[(&str, &str)] = &[
+    ("auto", "Let Rangefit choose (instrumentation amplifier for a bridge, a gain above 10 or high-impedance legs)"),
+    ("difference", "Difference amplifier: one amplifier, the legs see its input resistors"),
+    ("instrumentation", "Instrumentation amplifier: two input amplifiers, the legs see only their inputs"),
 ];
 const COUPLINGS: &[(&str, &str)] = &[
     ("dc", "Pass DC: the lowest output maps to the bottom of the converter range, the highest to the top"),
@@ -223,6 +229,7 @@ pub const FIELDS: &[Field] = &[
     field!("source.ratiometric", "The converter's reference is the bridge's excitation", Kind::Flag, Sensor, "Its output", false, "Then a drift of the excitation cancels in the reading."),
     field!("source.common_mode_min", "Lowest common-mode level", q(Quantity::Voltage), Sensor, "Its output", false, "The pair's average level against ground at its lowest, e.g. 2.2 V."),
     field!("source.common_mode_max", "Highest common-mode level", q(Quantity::Voltage), Sensor, "Its output", false, "The pair's average level at its highest, e.g. 2.8 V."),
+    field!("source.front_end", "First amplifier", Kind::Choice(FRONT_ENDS), Sensor, "Its output", false, "What the pair's two wires meet first: the instrumentation amplifier loads nothing and multiplies the common-mode rejection by its first stage's gain."),
     field!("source.capacitance", "Sensor capacitance", q(Quantity::Capacitance), Sensor, "Its output", false, "High impedance, DC: electrode and cable capacitance; AC: the capacitance the signal sits behind (a piezo film's, e.g. 1 nF). Photodiode: its junction capacitance, e.g. 70 pF."),
     field!("source.dark_current", "Dark current", q(Quantity::Current), Sensor, "Its output", false, "The diode's current in the dark at its bias, from its datasheet, e.g. 2 nA."),
     field!("source.burden_max", "Largest voltage the loop allows across the input", q(Quantity::Voltage), Sensor, "Its output", false, "From the loop's supply and the transmitter's own drop, e.g. 5 V (a 250 Ω receiver at 20 mA)."),
@@ -340,6 +347,7 @@ pub fn new_design() -> Values {
     put("name", "New design".into());
     put("source.kind", "single_ended".into());
     put("source.coupling", "dc".into());
+    put("source.front_end", "auto".into());
     put("source.impedance", value_text(0.0, q(Quantity::Resistance)));
     put("destination.headroom", value_text(DEFAULT_HEADROOM, pct()));
     put("destination.bits", DEFAULT_BITS.to_string());

@@ -299,6 +299,10 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     out.bench = s.circuit.parts.iter().filter(|p| p.bench).map(row).collect();
     out.predicted = Some(p);
     out.equations = s.equations.clone();
+    let mut req_amp = req_amp;
+    if let Some(ia) = &inamp {
+        widen_for_first_stage(&mut req_amp, ia, rails);
+    }
     out.requirements = Some(req_amp);
     checks.sort_by(|a, b| b.severity.cmp(&a.severity));
     out.checks = checks;
@@ -508,6 +512,22 @@ fn requirements(req: &Request, s: &synth::Synthesis, amp: &Amplifier, rails: Rai
         format!("slew rate ≥ {} V/µs for a full-swing sine at {}", sig3(slew_rate_min * 1e-6), hz(f_slew)),
     ];
     Requirements { supply: rails.total(), output_low: out_lo, output_high: out_hi, input_low: in_lo, input_high: in_hi, gbw_min, slew_rate_min, noise_gain: ng, summary }
+}
+
+/// Widens the amplifier requirements of the gain stage by what an instrumentation
+/// amplifier's first stage asks of the same amplifiers: its outputs' and inputs' ranges and
+/// its gain-bandwidth (the summary's output, input and gain-bandwidth lines follow).
+fn widen_for_first_stage(r: &mut Requirements, ia: &synth::inamp::InampDesign, rails: Rails) {
+    r.output_low = r.output_low.min(ia.output_range.0);
+    r.output_high = r.output_high.max(ia.output_range.1);
+    r.input_low = r.input_low.min(ia.input_range.0);
+    r.input_high = r.input_high.max(ia.input_range.1);
+    r.summary[1] = format!("output reaches {} … {} ({} from the lower rail, {} from the upper)", v(r.output_low), v(r.output_high), v(r.output_low - rails.neg), v(rails.pos - r.output_high));
+    r.summary[2] = format!("input common-mode range covers {} … {}", v(r.input_low), v(r.input_high));
+    if ia.gbw_needed > r.gbw_min {
+        r.gbw_min = ia.gbw_needed;
+        r.summary[3] = format!("gain-bandwidth ≥ {} for the instrumentation amplifier's first stage (100 × its gain {:.3} × {})", hz(r.gbw_min), ia.first_gain, hz(ia.gbw_needed / (100.0 * ia.first_gain)));
+    }
 }
 
 /// Noise gain of the (first) amplifier: 1 + R_f·Σ(1/R) over the other resistors at its − input

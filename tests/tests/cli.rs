@@ -106,6 +106,7 @@ const STAGE_NAMES: &[&str] = &[
     "shunt",
     "buffer",
     "transimpedance",
+    "input_stage",
     "supply",
     "coupling",
     "reference",

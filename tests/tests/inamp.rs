@@ -149,7 +149,9 @@ fn protection_resistors_follow_the_noise_rule() {
         // The next E96 value up would pass the bound (or R_P sits at its 10 kΩ cap).
         let next = rangefit_engine::values::step_up(req.parts.resistor_series, ia.protection * 1.001).expect("next value");
         rows.push(fact(format!("{tag}: R_P {} is the largest series value under the bound", ia.protection), ia.protection >= inamp::PROTECT_MAX * 0.99 || (kt4 * next).sqrt() > 0.5 * e_n, JN));
-        rows.push(row(format!("{tag}: fault tolerated beyond a rail R_P·I_limit + 0.3 V"), ia.fault_beyond_rail, ia.protection * req.destination.injection_limit + 0.3, 1e-9, "Ohm's law; 0.3 V input-protection diode drop (common practice)"));
+        let by_current = ia.protection * req.destination.injection_limit;
+        let by_power = (inamp::PROTECT_POWER * ia.protection).sqrt();
+        rows.push(row(format!("{tag}: fault tolerated beyond a rail min(R_P·I_limit, √(P·R_P)) + 0.3 V"), ia.fault_beyond_rail, by_current.min(by_power) + 0.3, 1e-9, "Ohm's law and P = V²/R; 0.3 V input-protection diode drop (common practice)"));
         let c = d.circuit.as_ref().expect("circuit");
         rows.push(fact(format!("{tag}: the legs meet only R_P, never an amplifier input"), c.parts.iter().filter(|p| !p.bench && p.nodes.iter().any(|n| n == "sensep" || n == "sensen")).all(|p| p.purpose.starts_with("protection resistor")), "design contract"));
     }
