@@ -1,5 +1,6 @@
 //! `design_refresh`: what the browser does on every edit — synthesis, the 400-point
-//! response, noise and a 10,000-build Monte Carlo — for three demo designs, plus the parts
+//! response, noise and a 10,000-build Monte Carlo — for four demo designs (the last with an
+//! instrumentation amplifier and its 4,000-build common-mode Monte Carlo), plus the parts
 //! on their own so a regression can be traced. Target: ≤ 4 ms median per design on the
 //! project's 2-core machine (one 16 ms frame leaves room for rendering).
 
@@ -9,7 +10,7 @@ use rangefit_engine::{demos, design, Request};
 use std::hint::black_box;
 
 fn bench(c: &mut Criterion) {
-    for id in ["harbour-hydrophone", "boiler-pressure", "mast-tilt"] {
+    for id in ["harbour-hydrophone", "boiler-pressure", "mast-tilt", "beehive-scale"] {
         let Some(demo) = demos::find(id) else { continue };
         let Ok(req) = Request::from_json(demo.json) else { continue };
         c.bench_function(&format!("design_refresh/{id}"), |b| b.iter(|| design(black_box(&req))));

@@ -233,3 +233,23 @@ fn random_instrumentation_front_ends_map_as_predicted() {
     rows.push(fact(format!("at least 8 of 10 random front ends built ({simulated})"), simulated >= 8, "test design"));
     check(&rows);
 }
+
+/// The gain split's ratio search (sorted ratios, binary search) against a naive search over
+/// every pair of E96 and E24 values across two decades (IEC 60063 series from the engine's
+/// table, itself checked against the standard in `values.rs`).
+#[test]
+fn the_ratio_search_matches_a_naive_search() {
+    use rangefit_engine::values::{values_between, Series};
+    let mut rows = Vec::new();
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(5);
+    for series in [Series::E96, Series::E24] {
+        let all = values_between(series, 1e3, 99.9e3);
+        let ratios = inamp::ratios_between(series, 0.4, 2.6);
+        for _ in 0..40 {
+            let g: f64 = rng.random_range(0.5..2.0);
+            let naive = all.iter().flat_map(|a| all.iter().map(move |b| (b / a / g - 1.0).abs())).fold(f64::INFINITY, f64::min);
+            rows.push(row(format!("{series:?}: best ratio error for {g:.5}"), inamp::nearest_ratio_error(&ratios, g), naive, 1e-12, "naive search over every pair"));
+        }
+    }
+    check(&rows);
+}

@@ -151,7 +151,9 @@ prop_compose! {
         band in 0.5f64..5e3,
         keep in any::<bool>(),
         ac in any::<bool>(),
+        front in 0usize..3,
     ) -> String {
+        let front = ["auto", "difference", "instrumentation"][front];
         let source = match which {
             // Current loop: 0 … 25 mA, burden 0.5 … 24 V.
             0 => format!(r#"{{"kind": "current_loop", "min": {}, "max": {}, "burden_max": {}, "band_high": {band}}}"#, a * 5e-3, 5e-3 + b * 20e-3, 0.5 + c * 23.5),
@@ -163,9 +165,10 @@ prop_compose! {
             // Photodiode: 1 nA … 1 mA, 1 pF … 1 nF.
             2 => format!(r#"{{"kind": "photodiode", "min": 0, "max": {}, "capacitance": {}, "dark_current": {}, "band_high": {band}}}"#, 10f64.powf(-9.0 + 6.0 * a), 10f64.powf(-12.0 + 3.0 * b), c * 1e-8),
             // Differential pair: ±1 mV … ±3 V on a common mode of −2 … 4 V.
-            3 => format!(r#"{{"kind": "differential", "min": {}, "max": {}, "common_mode_min": {}, "common_mode_max": {}, "impedance": {}, "band_high": {band}}}"#, -1e-3 - 3.0 * a, 1e-3 + 3.0 * a, -2.0 + 4.0 * b, -1.9 + 4.0 * b + c, 1000.0 * c),
-            // Bridge: 0.5 … 10 V, 0.5 … 10 mV/V, 120 Ω … 5 kΩ, 1, 2 or 4 arms.
-            _ => format!(r#"{{"kind": "bridge", "excitation": {}, "sensitivity": {}, "bridge_resistance": {}, "active_arms": {}, "band_high": {band}}}"#, 0.5 + 9.5 * a, 0.5e-3 + 9.5e-3 * b, 120.0 + 4880.0 * c, [1, 2, 4][(3.0 * a) as usize % 3]),
+            3 => format!(r#"{{"kind": "differential", "min": {}, "max": {}, "common_mode_min": {}, "common_mode_max": {}, "impedance": {}, "band_high": {band}, "front_end": "{front}"}}"#, -1e-3 - 3.0 * a, 1e-3 + 3.0 * a, -2.0 + 4.0 * b, -1.9 + 4.0 * b + c, 1000.0 * c),
+            // Bridge: 0.5 … 10 V, 0.5 … 10 mV/V, 120 Ω … 5 kΩ, 1, 2 or 4 arms (pairs and
+            // bridges with each front end).
+            _ => format!(r#"{{"kind": "bridge", "excitation": {}, "sensitivity": {}, "bridge_resistance": {}, "active_arms": {}, "band_high": {band}, "front_end": "{front}"}}"#, 0.5 + 9.5 * a, 0.5e-3 + 9.5e-3 * b, 120.0 + 4880.0 * c, [1, 2, 4][(3.0 * a) as usize % 3]),
         };
         format!(
             r#"{{"name": "property kind", "source": {source}, "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": {}}},

@@ -53,11 +53,16 @@ pub const CMRR_RUNS: usize = 4000;
 /// The CMRR that 99.9 % of `runs` seeded builds exceed, dB: each build draws every resistor
 /// uniformly within its tolerance (as the tolerance analysis does); its differential gain is
 /// the slope against `VSENSE`, its common-mode gain the slope against `VCM` (the same circuit
-/// with the two sources' roles swapped).
+/// with the two sources' roles swapped). Both are taken at the difference stage's output:
+/// the filter and drive after it scale both alike, so they are left out of the builds.
 pub fn cmrr_monte_carlo(circuit: &Circuit, runs: usize, seed: u64) -> Option<f64> {
     use crate::analysis::perturb::{Kernel, ParamKind};
     use rand::{RngCore, SeedableRng};
-    let dm = Kernel::compile(circuit, "adc").ok()?;
+    let out = circuit.parts.iter().find(|p| !p.bench && p.kind == PartKind::OpAmp && p.stage == StageRole::Gain)?.nodes[4].clone();
+    let mut circuit = circuit.clone();
+    circuit.parts.retain(|p| !matches!(p.stage, StageRole::Filter | StageRole::Drive | StageRole::Converter));
+    let circuit = &circuit;
+    let dm = Kernel::compile(circuit, &out).ok()?;
     let mut swapped = circuit.clone();
     for p in swapped.parts.iter_mut().filter(|p| p.bench) {
         match p.reference.as_str() {
@@ -66,7 +71,7 @@ pub fn cmrr_monte_carlo(circuit: &Circuit, runs: usize, seed: u64) -> Option<f64
             _ => {}
         }
     }
-    let cm = Kernel::compile(&swapped, "adc").ok()?;
+    let cm = Kernel::compile(&swapped, &out).ok()?;
     if dm.params() != cm.params() {
         return None;
     }
@@ -98,15 +103,6 @@ pub fn cmrr_monte_carlo(circuit: &Circuit, runs: usize, seed: u64) -> Option<f64
 /// ±`t`: (1 + G)/(4t), dB.
 pub fn cmrr_worst_db(g: f64, t: f64) -> f64 {
     20.0 * ((1.0 + g.abs()) / (4.0 * t.max(1e-12))).log10()
-}
-
-/// The smallest relative error of a ratio R2/R1 ≈ `g` with both from `series` (one decade of
-/// R1 covers every ratio the series offers).
-pub fn ratio_error(series: values::Series, g: f64) -> f64 {
-    values::values_between(series, 1e3, 9.99e3)
-        .into_iter()
-        .filter_map(|r1| values::nearest(series, g * r1).map(|r2| (r2 / r1 / g - 1.0).abs()))
-        .fold(f64::INFINITY, f64::min)
 }
 
 /// Synthesises the stage for target `t`; `None` when no pair fits the resistor window.

@@ -43,6 +43,9 @@ pub const PROTECT_MAX: f64 = 10e3;
 pub const PROTECT_POWER: f64 = 0.125;
 /// Smallest protection resistor, Ω.
 pub const PROTECT_MIN: f64 = 10.0;
+/// Gain errors this close to the smallest count as equal when the gain is split (well
+/// below a resistor's tolerance).
+pub const GAIN_SLACK: f64 = 2e-4;
 /// Boltzmann constant, J/K (exact, SI 2019).
 const K_B: f64 = 1.380649e-23;
 
@@ -109,35 +112,38 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails, gain: f64, extra: f64,
     let limit = if a > 0.0 { (2.0 * room / a).max(1.0) } else { f64::INFINITY };
     let want = gain.abs().min(limit).max(1.0);
     let series = req.parts.resistor_series;
-    // Candidate (R_F, R_G) pairs with G1 from a third of the wanted gain up to the limit;
-    // each is scored by the whole amplifier's gain error once the difference stage takes the
-    // rest with its best ratio from the series (`diffamp::ratio_error`), so the two
-    // roundings can cancel. Among equal errors the larger G1 (more common-mode rejection),
-    // then R_F nearest the geometric middle of its window.
+    // Candidate (R_F, R_G) pairs with G1 from half the wanted gain up to the limit; each is
+    // scored by the whole amplifier's gain error once the difference stage takes the rest
+    // with its best ratio R2/R1 from the series, so the two roundings can cancel. Of the
+    // candidates within GAIN_SLACK of the smallest error the largest G1 wins (more
+    // common-mode rejection), then R_F nearest the geometric middle of its window.
     let mut best: Option<(f64, f64, f64, f64)> = None;
     let g = gain.abs();
     if want > 1.0 + 1e-3 {
         let mid = (FEEDBACK_MIN * FEEDBACK_MAX).sqrt();
         let lo = FEEDBACK_MIN.max(req.parts.resistor_min);
         let hi = FEEDBACK_MAX.min(req.parts.resistor_max).max(lo);
-        let mut seen: Vec<f64> = Vec::new();
+        let g_lo = (0.5 * want).max(1.0 + 1e-3);
+        let mut cands: Vec<(f64, f64, f64)> = Vec::new();
         for r_f in values::values_between(series, lo, hi) {
-            let g_lo = (want / 3.0).max(1.0 + 1e-3);
             let (rg_lo, rg_hi) = (2.0 * r_f / (want - 1.0), 2.0 * r_f / (g_lo - 1.0));
-            for r_g in values::values_between(series, rg_lo.max(req.parts.resistor_min.min(10.0)), rg_hi) {
+            for r_g in values::values_between(series, (0.97 * rg_lo).max(req.parts.resistor_min.min(10.0)), rg_hi) {
                 let g1 = 1.0 + 2.0 * r_f / r_g;
-                if g1 > limit * (1.0 + 1e-9) || seen.iter().any(|x| (x / g1 - 1.0).abs() < 1e-9) {
-                    continue;
+                if g1 <= limit * (1.0 + 1e-9) {
+                    cands.push((g1, r_f, r_g));
                 }
-                seen.push(g1);
-                let err = super::diffamp::ratio_error(series, g / g1);
-                let better = match &best {
-                    None => true,
-                    Some(b) => err < b.3 - 1e-6 || (err <= b.3 + 1e-6 && (g1 > b.2 * (1.0 + 1e-9) || (g1 >= b.2 * (1.0 - 1e-9) && (r_f / mid).ln().abs() < (b.0 / mid).ln().abs()))),
-                };
-                if better {
-                    best = Some((r_f, r_g, g1, err));
-                }
+            }
+        }
+        let ratios = ratios_between(series, g / want.max(1.0) / 1.05, g / g_lo * 1.05);
+        let scored: Vec<(f64, f64, f64, f64)> = cands.iter().map(|&(g1, r_f, r_g)| (r_f, r_g, g1, nearest_ratio_error(&ratios, g / g1))).collect();
+        let least = scored.iter().map(|c| c.3).fold(f64::INFINITY, f64::min);
+        for c in scored.into_iter().filter(|c| c.3 <= least + GAIN_SLACK) {
+            let better = match &best {
+                None => true,
+                Some(b) => c.2 > b.2 * (1.0 + 1e-9) || (c.2 >= b.2 * (1.0 - 1e-9) && (c.0 / mid).ln().abs() < (b.0 / mid).ln().abs()),
+            };
+            if better {
+                best = Some(c);
             }
         }
     }
@@ -313,6 +319,23 @@ pub fn checks(req: &Request, d: &InampDesign, amp: &Amplifier, rails: Rails) -> 
         ),
     ));
     c
+}
+
+/// Every ratio R2/R1 in `lo … hi` with both resistors from `series` (R1 over one decade,
+/// which covers every ratio the series offers), ascending.
+pub fn ratios_between(series: values::Series, lo: f64, hi: f64) -> Vec<f64> {
+    let mut out = Vec::new();
+    for r1 in values::values_between(series, 1e3, 9.99e3) {
+        out.extend(values::values_between(series, r1 * lo, r1 * hi).into_iter().map(|r2| r2 / r1));
+    }
+    out.sort_by(|a, b| a.total_cmp(b));
+    out
+}
+
+/// The smallest relative error |r/g − 1| over the ascending `ratios` (binary search).
+pub fn nearest_ratio_error(ratios: &[f64], g: f64) -> f64 {
+    let i = ratios.partition_point(|&r| r < g);
+    [i.checked_sub(1), Some(i)].into_iter().flatten().filter_map(|k| ratios.get(k)).map(|r| (r / g - 1.0).abs()).fold(f64::INFINITY, f64::min)
 }
 
 /// Worst-case CMRR of the whole instrumentation amplifier, dB: the difference stage's
