@@ -838,6 +838,22 @@ mod tests {
     }
 
     #[test]
+    fn the_front_end_applies_to_pairs_and_bridges_only() {
+        let bee = rangefit_engine::demos::ALL.iter().position(|d| d.id == "beehive-scale").expect("beehive demo");
+        let mut v = from_json(&demo_json(bee));
+        assert_eq!(v["source.front_end"], "auto", "a bridge shows the front-end choice at its default");
+        v.insert("source.front_end", "difference".into());
+        let req = validate(&v).request.expect("complete");
+        assert_eq!(req.source.front_end, rangefit_engine::request::FrontEnd::Difference);
+        // A single-ended sensor keeps the text but does not send it (the engine refuses it there).
+        let mut v = from_json(&demo_json(0));
+        v.insert("source.front_end", "instrumentation".into());
+        let r = validate(&v);
+        assert!(r.request.is_some(), "{:?}", r.errors);
+        assert!(r.json["source"].get("front_end").is_none());
+    }
+
+    #[test]
     fn steps_go_forward_and_back() {
         assert_eq!(Step::Sensor.next(), Some(Step::Converter));
         assert_eq!(Step::Design.next(), None);
