@@ -165,9 +165,9 @@ fn check(what: &str, c: &Circuit, s: &Schematic, req: Option<&Request>) {
     // the converter box may take a row of its own: ⌈sections / 2⌉ + 1 rows at most.
     let sections = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter).count();
     let drive = c.parts.iter().any(|p| p.stage == StageRole::Drive);
-    // A high-impedance sensor's follower, or a photodiode's transimpedance amplifier, takes
-    // a row of its own before the gain stage's.
-    let buffer = c.parts.iter().any(|p| p.kind == PartKind::OpAmp && matches!(p.stage, StageRole::Buffer | StageRole::Transimpedance)) as usize;
+    // A high-impedance sensor's follower, a photodiode's transimpedance amplifier, or an
+    // instrumentation amplifier's first stage takes a row of its own before the gain stage's.
+    let buffer = c.parts.iter().any(|p| p.kind == PartKind::OpAmp && matches!(p.stage, StageRole::Buffer | StageRole::Transimpedance | StageRole::InputStage)) as usize;
     let rows = if sections + drive as usize == 0 { 0 } else { sections.div_ceil(2) + 1 } + buffer;
     let tall = 700.0 + 450.0 * rows as f64;
     assert!(view[2] <= 1100.0 && view[3] <= tall, "{what}: viewBox {} × {} is larger than 1100 × {tall}", view[2], view[3]);
@@ -447,9 +447,15 @@ fn test_points_follow_the_solver() {
         let tps = test_points(&req, &c);
         let ac = req.source.coupling == rangefit_engine::request::Coupling::Ac;
         // A differential pair (synth::diffamp: bench legs to `sensep` and `sensen`) has a
-        // test point on each terminal instead of the one `sense`.
+        // test point on each terminal instead of the one `sense`; behind an instrumentation
+        // amplifier (synth::inamp::insert: U1 drives `oa`, U2 `ob`) one on each of the
+        // first stage's outputs as well.
         let pair = c.nodes().iter().any(|n| n == "sensep");
-        let first: Vec<&str> = if pair { vec!["sensep", "sensen"] } else { vec!["sense"] };
+        let inamp = c.parts.iter().any(|p| p.stage == StageRole::InputStage);
+        let mut first: Vec<&str> = if pair { vec!["sensep", "sensen"] } else { vec!["sense"] };
+        if inamp {
+            first.extend(["oa", "ob"]);
+        }
         let want: Vec<&str> = first.into_iter().chain(if ac { vec!["inp1", "adc"] } else { vec!["adc"] }).collect();
         assert_eq!(tps.iter().map(|t| t.node.as_str()).collect::<Vec<_>>(), want, "{}", demo.id);
         for (k, t) in tps.iter().enumerate() {
