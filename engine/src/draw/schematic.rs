@@ -22,7 +22,9 @@
 //! first row with the bias path and the lifted return, the gain stage starts the second
 //! from a flag; see `buffer`; a photodiode's transimpedance amplifier takes the first row
 //! the same way, with R_f and C_f looping above it and its + input at ground or at the bias
-//! divider; see `tia`); what follows it goes on rows below, at least two sections
+//! divider; see `tia`; an instrumentation amplifier's first stage takes the first row with
+//! the pair's sensor box, in the three-amplifier arrangement, and its difference stage starts
+//! the second from a pair of flags; see `inamp`); what follows it goes on rows below, at least two sections
 //! to a row, within 1100 user units of width (see `rows`). A new stage kind is a new block
 //! in that sequence. Any part the blocks cannot place by role goes into a fallback area
 //! below the drawing with its node names: never dropped. The bench (sensor, supplies,

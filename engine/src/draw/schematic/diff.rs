@@ -19,6 +19,10 @@
 //! name; the follower with its divider and bypass is a small block on a row of its own under
 //! the stage, ending at a terminal of the same name. The output then runs on as the
 //! single-ended gain stage's does (to the filter rows, or to the converter box).
+//!
+//! The pair's bench model ([`Pair`]) and the stage ([`Stage`], fed from any two lines) are
+//! recognised and drawn apart, so that `inamp` draws the same box in front of its first
+//! stage and the same difference stage behind it, fed from that stage's outputs.
 
 use super::plan::{has, other, plain, Leg, Rail, Step};
 use super::rows::ROW_GAP;
