@@ -165,9 +165,9 @@ fn check(what: &str, c: &Circuit, s: &Schematic, req: Option<&Request>) {
     // the converter box may take a row of its own: ⌈sections / 2⌉ + 1 rows at most.
     let sections = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter).count();
     let drive = c.parts.iter().any(|p| p.stage == StageRole::Drive);
-    // A high-impedance sensor's follower, or a photodiode's transimpedance amplifier, takes
-    // a row of its own before the gain stage's.
-    let buffer = c.parts.iter().any(|p| p.kind == PartKind::OpAmp && matches!(p.stage, StageRole::Buffer | StageRole::Transimpedance)) as usize;
+    // A high-impedance sensor's follower, a photodiode's transimpedance amplifier, or an
+    // instrumentation amplifier's first stage takes a row of its own before the gain stage's.
+    let buffer = c.parts.iter().any(|p| p.kind == PartKind::OpAmp && matches!(p.stage, StageRole::Buffer | StageRole::Transimpedance | StageRole::InputStage)) as usize;
     let rows = if sections + drive as usize == 0 { 0 } else { sections.div_ceil(2) + 1 } + buffer;
     let tall = 700.0 + 450.0 * rows as f64;
     assert!(view[2] <= 1100.0 && view[3] <= tall, "{what}: viewBox {} × {} is larger than 1100 × {tall}", view[2], view[3]);
@@ -447,9 +447,15 @@ fn test_points_follow_the_solver() {
         let tps = test_points(&req, &c);
         let ac = req.source.coupling == rangefit_engine::request::Coupling::Ac;
         // A differential pair (synth::diffamp: bench legs to `sensep` and `sensen`) has a
-        // test point on each terminal instead of the one `sense`.
+        // test point on each terminal instead of the one `sense`; behind an instrumentation
+        // amplifier (synth::inamp::insert: U1 drives `oa`, U2 `ob`) one on each of the
+        // first stage's outputs as well.
         let pair = c.nodes().iter().any(|n| n == "sensep");
-        let first: Vec<&str> = if pair { vec!["sensep", "sensen"] } else { vec!["sense"] };
+        let inamp = c.parts.iter().any(|p| p.stage == StageRole::InputStage);
+        let mut first: Vec<&str> = if pair { vec!["sensep", "sensen"] } else { vec!["sense"] };
+        if inamp {
+            first.extend(["oa", "ob"]);
+        }
         let want: Vec<&str> = first.into_iter().chain(if ac { vec!["inp1", "adc"] } else { vec!["adc"] }).collect();
         assert_eq!(tps.iter().map(|t| t.node.as_str()).collect::<Vec<_>>(), want, "{}", demo.id);
         for (k, t) in tps.iter().enumerate() {
@@ -501,9 +507,16 @@ fn odd_circuits_never_panic_and_parts_are_never_dropped() {
     let mut broken = harbour.clone();
     let second = broken.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter).nth(1).map(|p| p.reference.clone());
     broken.parts.retain(|p| Some(&p.reference) != second.as_ref());
+    // An instrumentation amplifier without its gain resistor R_G (synth::inamp::insert):
+    // not the first stage the drawing recognises, so it draws as before, parts not placed
+    // by role in the fallback area.
+    let beehive = demos::ALL.iter().find(|d| d.id == "beehive-scale").expect("beehive demo").json;
+    let (_, mut no_rg, _) = designed(beehive);
+    no_rg.parts.retain(|p| !p.purpose.starts_with("gain resistor R_G"));
     let rows: Vec<(&str, Circuit, bool)> = vec![
         ("extra parts off the roles", extra, true),
         ("filter chain broken", broken, true),
+        ("instrumentation amplifier without R_G", no_rg, true),
         ("empty", odd(|_| {}), true),
         (
             "no amplifier",
@@ -947,5 +960,103 @@ fn differential_front_ends_are_drawn_by_role() {
         let (req, c, _) = designed(json);
         let s = draw(&req, &c, what);
         check_differential(what, &req, &c, &s, *follower);
+    }
+}
+
+/// A differential pair of our own with `front_end` set (`source.front_end`: auto,
+/// difference or instrumentation) on one supply into a 0 … 3.3 V converter.
+fn pair(name: &str, range: (&str, &str), common_mode: (f64, f64), impedance: &str, band_high: &str, supply: f64) -> String {
+    format!(
+        r#"{{"version":1,"name":"{name}","source":{{"kind":"differential","min":"{}","max":"{}","common_mode_min":{},"common_mode_max":{},"impedance":"{impedance}","band_high":"{band_high}","front_end":"instrumentation"}},
+        "destination":{{"min":0,"max":3.3,"bits":12,"sample_rate":"10 kHz"}},"supplies":[{supply}]}}"#,
+        range.0, range.1, common_mode.0, common_mode.1
+    )
+}
+
+/// The one check of an instrumentation amplifier: the drawing passes [`check`]; every part
+/// is drawn by role (no fallback area); U1 on the upper leg above U2 on the lower, each a
+/// triangle with its designator, U3 (the difference amplifier) as well; with gain in the
+/// first stage R_G stands upright between the two amplifiers and each R_F lies between
+/// them, followers have neither; the first stage's outputs carry test points and continue
+/// to the difference stage's row through a pair of flags each; the caption is the model's
+/// description of the stage.
+fn check_instrumentation(what: &str, req: &Request, c: &Circuit, s: &Schematic, followers: bool) {
+    check(what, c, s, Some(req));
+    let doc = roxmltree::Document::parse(&s.svg).unwrap();
+    let words = texts(&doc);
+    // Design contract (synth::inamp::insert): U1 and U2 are the input stage, + inputs `ipp`
+    // and `ipn` behind the protection resistors, outputs `oa` and `ob`; followers tie the
+    // − input to the output, otherwise R_F joins each output to its − input and R_G the two
+    // − inputs; U3 is the difference amplifier, fed from `oa` and `ob`.
+    let part = |r: &str| c.parts.iter().find(|p| p.reference == r).unwrap_or_else(|| panic!("{what}: no {r}"));
+    let (u1, u2, u3) = (part("U1"), part("U2"), part("U3"));
+    assert_eq!((u1.stage, u2.stage, u3.stage), (StageRole::InputStage, StageRole::InputStage, StageRole::Gain), "{what}: U1, U2, U3 roles");
+    assert_eq!((u1.nodes[0].as_str(), u1.nodes[4].as_str(), u2.nodes[0].as_str(), u2.nodes[4].as_str()), ("ipp", "oa", "ipn", "ob"), "{what}: U1's and U2's nodes");
+    assert_eq!(u1.nodes[1] == u1.nodes[4] && u2.nodes[1] == u2.nodes[4], followers, "{what}: followers?");
+    let between = |a: &str, b: &str| c.parts.iter().find(|p| p.kind == PartKind::Resistor && p.nodes.iter().any(|n| n == a) && p.nodes.iter().any(|n| n == b));
+    assert!(between("sensep", "ipp").is_some() && between("sensen", "ipn").is_some(), "{what}: no protection resistor in a leg");
+    assert!(between("oa", "inp1").is_some() || between("oa", "inn1").is_some(), "{what}: U3 not fed from oa");
+    // Every part placed by role: nothing in the fallback area.
+    assert!(!words.iter().any(|t| t.starts_with("Not placed")), "{what}: a part fell back");
+    let group = |r: &str| doc.descendants().find(|n| n.has_tag_name("g") && n.attribute("class") == Some("part") && n.attribute("data-ref") == Some(r));
+    for p in &c.parts {
+        if !(p.bench && p.stage == StageRole::Supply) {
+            assert!(group(&p.reference).is_some(), "{what}: {} not drawn", p.reference);
+        }
+    }
+    // IEC 60617: an amplifier is a triangle; each labelled (common practice: designator).
+    let span = |r: &str| {
+        let pts = group_points(group(r).unwrap_or_else(|| panic!("{what}: {r} not drawn")));
+        pts.iter().fold((f64::MAX, f64::MIN, f64::MAX, f64::MIN), |(a, b, c, d), &(x, y)| (a.min(x), b.max(x), c.min(y), d.max(y)))
+    };
+    for u in ["U1", "U2", "U3"] {
+        let g = group(u).unwrap();
+        assert!(g.children().any(|k| k.has_tag_name("polygon") && k.attribute("points").is_some_and(|p| p.split_whitespace().count() == 3)), "{what}: {u} has no triangle");
+        assert!(words.iter().any(|w| w == u), "{what}: {u} unlabelled");
+    }
+    // The three-amplifier arrangement (common practice): U1 above U2 in one column; R_G
+    // upright between them, each R_F lying between them too.
+    let (a, b) = (span("U1"), span("U2"));
+    assert!(a.3 < b.2 && (a.0 - b.0).abs() < 1e-6, "{what}: U1 {a:?} is not straight above U2 {b:?}");
+    let gain: Vec<&rangefit_engine::circuit::Part> = c.parts.iter().filter(|p| p.stage == StageRole::InputStage && p.kind == PartKind::Resistor && !p.nodes.iter().any(|n| n.starts_with("sense"))).collect();
+    assert_eq!(gain.len(), if followers { 0 } else { 3 }, "{what}: R_F, R_G, R_F");
+    for p in gain {
+        let r = span(&p.reference);
+        assert!(r.2 > a.2 && r.3 < b.3, "{what}: {} {r:?} is not between U1 and U2", p.reference);
+        let upright = r.3 - r.2 > r.1 - r.0;
+        assert_eq!(upright, p.nodes.iter().all(|n| n != "oa" && n != "ob"), "{what}: {} upright?", p.reference);
+    }
+    // Test points on both outputs (checked on the drawing by [`check`]), each output in a
+    // pair of flags.
+    let tps: Vec<String> = test_points(req, c).into_iter().map(|t| t.node).collect();
+    assert!(tps.contains(&"oa".to_string()) && tps.contains(&"ob".to_string()), "{what}: test points {tps:?}");
+    for net in ["oa", "ob"] {
+        let flags = doc.descendants().filter(|n| n.has_tag_name("text") && n.text() == Some(net)).count();
+        assert_eq!(flags, 2, "{what}: {flags} flags for {net}");
+    }
+    // The caption: the circuit model's own description of the stage, its first line.
+    let stage = c.stages.iter().find(|st| st.role == StageRole::InputStage).unwrap_or_else(|| panic!("{what}: no input stage"));
+    let head = stage.description.split([',', ':']).next().unwrap_or("");
+    assert!(!head.is_empty() && words.iter().any(|w| w == head), "{what}: no caption {head:?}");
+}
+
+#[test]
+fn instrumentation_front_ends_are_drawn_by_role() {
+    let beehive = demos::ALL.iter().find(|d| d.id == "beehive-scale").expect("beehive demo").json;
+    let rows: Vec<(&str, String, bool)> = vec![
+        // The demo: a load-cell bridge always gets the instrumentation amplifier
+        // (synth::inamp::wanted), with most of its gain of about 450 in the first stage.
+        ("beehive scale, bridge", beehive.to_string(), false),
+        // A soil-moisture probe's pair, ±40 mV on a 1.1 … 1.5 V common mode: a gain of about
+        // 40 wanted, of which the first stage's outputs can swing most.
+        ("soil-moisture probe pair", pair("Soil-moisture probe pair", ("-40 mV", "40 mV"), (1.1, 1.5), "2k", "5 Hz", 3.3), false),
+        // ±2 V about 2.5 V into 3.3 V wants a gain below one, so the first stage stays at
+        // unity: two followers, no R_F or R_G (synth::inamp::plan).
+        ("valve coil sense, followers", pair("Valve coil sense", ("-2", "2"), (2.4, 2.6), "500", "200 Hz", 5.0), true),
+    ];
+    for (what, json, followers) in &rows {
+        let (req, c, _) = designed(json);
+        let s = draw(&req, &c, what);
+        check_instrumentation(what, &req, &c, &s, *followers);
     }
 }

@@ -22,7 +22,9 @@
 //! first row with the bias path and the lifted return, the gain stage starts the second
 //! from a flag; see `buffer`; a photodiode's transimpedance amplifier takes the first row
 //! the same way, with R_f and C_f looping above it and its + input at ground or at the bias
-//! divider; see `tia`); what follows it goes on rows below, at least two sections
+//! divider; see `tia`; an instrumentation amplifier's first stage takes the first row with
+//! the pair's sensor box, in the three-amplifier arrangement, and its difference stage starts
+//! the second from a pair of flags; see `inamp`); what follows it goes on rows below, at least two sections
 //! to a row, within 1100 user units of width (see `rows`). A new stage kind is a new block
 //! in that sequence. Any part the blocks cannot place by role goes into a fallback area
 //! below the drawing with its node names: never dropped. The bench (sensor, supplies,
@@ -44,19 +46,21 @@ mod annotate;
 mod buffer;
 mod chain;
 mod diff;
+mod inamp;
 mod plan;
 mod rows;
 mod sheet;
 mod tia;
 
 use super::svg::{BoxRect, Segment};
-use crate::circuit::{Circuit, Part, PartKind, GND};
+use crate::circuit::{Circuit, Part, PartKind, StageRole, GND};
 use crate::request::{Coupling, Request};
 use crate::solve::{DcSolution, Solver};
-use crate::units::{format, Quantity};
+use crate::units::{format, format_sig, Quantity};
 use buffer::Buffer;
 use chain::Chain;
 use diff::Diff;
+use inamp::Inamp;
 use plan::Plan;
 use sheet::{Sheet, INK};
 use tia::Tia;
@@ -101,7 +105,8 @@ pub struct TestPoint {
 }
 
 /// Test points the design wants, numbered in signal order: the sensor terminal (`sense`,
-/// or a differential pair's two terminals `sensep` and `sensen`);
+/// or a differential pair's two terminals `sensep` and `sensen`); the outputs of an
+/// instrumentation amplifier's first stage (its input-stage amplifiers);
 /// for AC coupling the amplifier's + input after the coupling; the converter input (`adc`:
 /// the amplifier output, or the end of the filter and drive that follow it). DC coupling: the node voltages at the sensor's minimum and
 /// maximum. AC coupling: the operating point (sensor at mid-range) ± the mid-band swing, the
@@ -110,9 +115,11 @@ pub fn test_points(req: &Request, circuit: &Circuit) -> Vec<TestPoint> {
     if !well_formed(circuit) {
         return Vec::new();
     }
-    let amp = circuit.parts.iter().find(|p| p.kind == PartKind::OpAmp);
+    let amp = circuit.parts.iter().find(|p| p.kind == PartKind::OpAmp && p.stage != StageRole::InputStage);
     let s = &req.source;
     let mut want: Vec<String> = ["sense", "sensep", "sensen"].iter().map(|n| n.to_string()).collect();
+    let first = circuit.parts.iter().filter(|p| !p.bench && p.kind == PartKind::OpAmp && p.stage == StageRole::InputStage);
+    want.extend(first.filter_map(|p| p.nodes.get(4).cloned()));
     if s.coupling == Coupling::Ac {
         want.extend(amp.and_then(|u| u.nodes.first()).cloned());
     }
@@ -187,11 +194,16 @@ pub fn schematic(circuit: &Circuit, op: Option<&DcSolution>, ranges: &[TestPoint
         (None, Some(t)) => (t.out.clone(), t.parts()),
         (None, None) => ("sense".to_string(), Vec::new()),
     };
-    // A differential sensor's difference amplifier draws its own first row, sensor included.
-    let diff = if buffer.is_none() && tia.is_none() { Diff::of(circuit, &sh.rails) } else { None };
-    let (plan, out) = match &diff {
-        Some(d) => (Plan { amp: Some(d.amp), out: d.out.clone(), start: start.clone(), ..Plan::default() }, sh.diff_row(d)),
-        None => {
+    // A differential sensor's instrumentation amplifier, or its difference amplifier, draws
+    // its own first row, sensor included (the instrumentation amplifier's difference stage
+    // on the second).
+    let inamp = if buffer.is_none() && tia.is_none() { Inamp::of(circuit, &sh.rails) } else { None };
+    let diff = if buffer.is_none() && tia.is_none() && inamp.is_none() { Diff::of(circuit, &sh.rails) } else { None };
+    let stage = |s: &diff::Stage| Plan { amp: Some(s.amp), out: s.out.clone(), start: start.clone(), ..Plan::default() };
+    let (plan, out) = match (&inamp, &diff) {
+        (Some(a), _) => (stage(&a.stage), sh.inamp_rows(a)),
+        (None, Some(d)) => (stage(&d.stage), sh.diff_row(d)),
+        (None, None) => {
             let plan = Plan::of(circuit, &sh.rails, &start, &skip);
             let out = front(&mut sh, &plan, buffer.as_ref(), tia.as_ref());
             (plan, out)
@@ -255,11 +267,20 @@ fn value_text(p: &Part) -> String {
 }
 
 /// "1.16 … 1.24 V", or "-250 mV … 1.2 V" when the prefixes differ; an end within 0.1 % of
-/// the range's size from zero prints as 0 (solver residue at a virtual ground).
+/// the range's size from zero prints as 0 (solver residue at a virtual ground). Ends that
+/// differ get up to six significant digits until they print apart ("1.648 … 1.652 V": a
+/// bridge's leg moving by millivolts on half its excitation).
 fn range_text(min: f64, max: f64) -> String {
     let tiny = 1e-3 * min.abs().max(max.abs());
     let snap = |v: f64| if v.abs() < tiny { 0.0 } else { v };
-    let (a, b) = (format(snap(min), Quantity::Voltage), format(snap(max), Quantity::Voltage));
+    let at = |sig: usize| (format_sig(snap(min), Quantity::Voltage, sig), format_sig(snap(max), Quantity::Voltage, sig));
+    let (mut a, mut b) = at(3);
+    for sig in 4..=6 {
+        if a != b || snap(min) == snap(max) {
+            break;
+        }
+        (a, b) = at(sig);
+    }
     match (a.rsplit_once(' '), b.rsplit_once(' ')) {
         (Some((na, ua)), Some((nb, ub))) if ua == ub => format!("{na} … {nb} {ua}"),
         _ => format!("{a} … {b}"),

@@ -19,6 +19,10 @@
 //! name; the follower with its divider and bypass is a small block on a row of its own under
 //! the stage, ending at a terminal of the same name. The output then runs on as the
 //! single-ended gain stage's does (to the filter rows, or to the converter box).
+//!
+//! The pair's bench model ([`Pair`]) and the stage ([`Stage`], fed from any two lines) are
+//! recognised and drawn apart, so that `inamp` draws the same box in front of its first
+//! stage and the same difference stage behind it, fed from that stage's outputs.
 
 use super::plan::{has, other, plain, Leg, Rail, Step};
 use super::rows::ROW_GAP;
@@ -28,7 +32,7 @@ use crate::draw::svg::{Anchor, BoxRect, Pen};
 
 /// Width of the sensor box, and the drop from the upper line to the lower one.
 const BOX_W: f64 = 200.0;
-const LOW: f64 = 130.0;
+pub(super) const LOW: f64 = 130.0;
 /// Free run of each line from the sensor box to its input resistor (where its test point goes).
 const RUN: f64 = 100.0;
 /// Feedback loops: the step between stacked loops, and the first loop above the line.
@@ -37,19 +41,27 @@ const LOOP_UP: f64 = 90.0;
 /// The follower's output-to-− link below its symbol, clear of its supply stub.
 const LINK: f64 = 105.0;
 
-/// The difference amplifier and what hangs from it.
+/// The bench model of a differential pair: the EMF between the legs, the common-mode
+/// source, the leg resistors, and the terminals the legs end at.
 #[derive(Debug, Clone)]
-pub(super) struct Diff {
-    /// Bench: the EMF between the legs, the common-mode source, the leg resistors.
+pub(super) struct Pair {
     vsense: usize,
     vcm: usize,
     leg_up: usize,
     leg_low: usize,
     /// The two legs (upper, lower) and the terminals they end at (upper, lower).
-    emf: [String; 2],
-    term: [String; 2],
+    pub(super) emf: [String; 2],
+    pub(super) term: [String; 2],
+}
+
+/// The difference amplifier and what hangs from it, fed from two lines.
+#[derive(Debug, Clone)]
+pub(super) struct Stage {
+    /// The nodes of the two lines (upper, lower): the pair's terminals, or the outputs of an
+    /// instrumentation amplifier's first stage.
+    lines: [String; 2],
     pub(super) amp: usize,
-    /// The input resistors from the upper and lower terminal, and the inputs they feed.
+    /// The input resistors from the upper and lower line, and the inputs they feed.
     input: [usize; 2],
     pin_node: [String; 2],
     /// The amplifier's + and − inputs and its output.
@@ -64,9 +76,26 @@ pub(super) struct Diff {
     follower: Option<(usize, String, Vec<Step>)>,
 }
 
+/// A differential sensor straight into the difference amplifier.
+#[derive(Debug, Clone)]
+pub(super) struct Diff {
+    pub(super) pair: Pair,
+    pub(super) stage: Stage,
+}
+
 impl Diff {
-    /// The difference amplifier of `c`, if it has one (see the module's doc).
+    /// The difference amplifier of `c` fed from the pair's terminals, if it has one (see
+    /// the module's doc).
     pub(super) fn of(c: &Circuit, rails: &[Rail]) -> Option<Diff> {
+        let pair = Pair::of(c, rails)?;
+        let stage = Stage::of(c, rails, &pair.term, &pair.emf)?;
+        Some(Diff { pair, stage })
+    }
+}
+
+impl Pair {
+    /// The pair's bench model in `c`, if it has one (see the module's doc).
+    pub(super) fn of(c: &Circuit, rails: &[Rail]) -> Option<Pair> {
         let terminal = |n: &str| n == GND || rails.iter().any(|r| r.node == n);
         let bench = |i: usize, k: PartKind| c.parts[i].bench && c.parts[i].kind == k && c.parts[i].nodes.len() == 2;
         let n = c.parts.len();
@@ -82,6 +111,26 @@ impl Diff {
         if term[0] == term[1] || term.iter().any(|t| terminal(t) || emf.contains(t)) {
             return None;
         }
+        Some(Pair { vsense, vcm, leg_up, leg_low, emf, term })
+    }
+}
+
+impl Stage {
+    /// The − input is fed from the upper line (its feedback loops above the amplifier).
+    pub(super) fn minus_up(&self) -> bool {
+        self.pin_node[0] != self.inp
+    }
+
+    /// The difference amplifier of the gain stage with an input resistor from each of
+    /// `lines` (upper, lower) to one of its inputs; neither input may sit on `lines` or on
+    /// `avoid` (the pair's inner nodes).
+    pub(super) fn of(c: &Circuit, rails: &[Rail], lines: &[String; 2], avoid: &[String; 2]) -> Option<Stage> {
+        let terminal = |n: &str| n == GND || rails.iter().any(|r| r.node == n);
+        let n = c.parts.len();
+        let term = lines;
+        if term[0] == term[1] {
+            return None;
+        }
         let amp = (0..n).find(|&i| {
             let p = &c.parts[i];
             !p.bench
@@ -92,7 +141,7 @@ impl Diff {
                 && p.nodes[4] != p.nodes[0]
                 && p.nodes[4] != p.nodes[1]
                 && !terminal(&p.nodes[4])
-                && !p.nodes[..2].iter().any(|x| terminal(x) || term.contains(x) || emf.contains(x))
+                && !p.nodes[..2].iter().any(|x| terminal(x) || term.contains(x) || avoid.contains(x))
         })?;
         let (inp, inn, out) = (c.parts[amp].nodes[0].clone(), c.parts[amp].nodes[1].clone(), c.parts[amp].nodes[4].clone());
         let feed = |t: &str, skip: Option<usize>| (0..n).find(|&i| Some(i) != skip && plain(&c.parts[i]) && has(&c.parts[i], t) && [&inp, &inn].contains(&&other(&c.parts[i], t)));
@@ -131,14 +180,15 @@ impl Diff {
             }
             Some((f, dref, divider))
         };
-        Some(Diff { vsense, vcm, leg_up, leg_low, emf, term, amp, input: [up, low], pin_node, inp, inn, out, feedback, to_ref, reference, follower })
+        Some(Stage { lines: lines.clone(), amp, input: [up, low], pin_node, inp, inn, out, feedback, to_ref, reference, follower })
     }
 }
 
 impl Sheet<'_> {
-    /// The two-leg sensor in a dashed box; returns the terminals' x.
-    fn diff_sensor(&mut self, d: &Diff) -> f64 {
-        let (y, yl) = (Y0, Y0 + LOW);
+    /// The two-leg sensor in a dashed box, the lower leg `low` under the upper one (the
+    /// signal line [`Y0`]); returns the terminals' x.
+    pub(super) fn pair_sensor(&mut self, d: &Pair, low: f64) -> f64 {
+        let (y, yl) = (Y0, Y0 + low);
         let sx = X0 + 40.0;
         // A bridge's excitation under the pair needs room for its load's label.
         let bridge = self.c.parts.iter().any(|p| p.bench && p.reference == "RBRIDGE");
@@ -188,13 +238,22 @@ impl Sheet<'_> {
     /// reference; returns where the output line ends (x, y, net), as `amp_stage` does.
     pub(super) fn diff_row(&mut self, d: &Diff) -> Option<(f64, f64, String)> {
         let (y, yl) = (Y0, Y0 + LOW);
-        let (yo, yb) = (y + 20.0, y + 40.0);
-        let right = self.diff_sensor(d);
+        let right = self.pair_sensor(&d.pair, LOW);
         let x_r = right + RUN;
+        for (k, yy) in [y, yl].into_iter().enumerate() {
+            self.wire((right, yy), (x_r, yy), &d.pair.term[k], false);
+        }
+        self.diff_stage(&d.stage, x_r, y, yl)
+    }
+
+    /// The difference amplifier from its input resistors, which start at `x_r` on the upper
+    /// line `y` and the lower line `yl` (at least [`LOW`] below it); then the follower
+    /// driving its reference (a row below). Returns where the output line ends.
+    pub(super) fn diff_stage(&mut self, d: &Stage, x_r: f64, y: f64, yl: f64) -> Option<(f64, f64, String)> {
+        let (yo, yb) = (y + 20.0, y + 40.0);
         let x_in = x_r + HSPAN;
         for (k, yy) in [y, yl].into_iter().enumerate() {
-            self.wire((right, yy), (x_r, yy), &d.term[k], false);
-            self.two(d.input[k], (x_r, yy), &d.term[k], (x_in, yy), &d.pin_node[k], true);
+            self.two(d.input[k], (x_r, yy), &d.lines[k], (x_in, yy), &d.pin_node[k], true);
         }
         let plus_up = d.pin_node[0] == d.inp;
         let x4 = x_in + 45.0;
