@@ -255,7 +255,7 @@ fn mapping_node(s: &Shown) -> Node {
         ("Converter range", format!("{} … {}", volts(r.destination.min), volts(r.destination.max))),
         ("Passband (−3 dB)", band),
     ];
-    let mut out = el("div")
+    let mut out = el_c("div", "mapping-col")
         .attr("data-testid", "mapping")
         .child(table("map-table", "", &["", "Sensor", "Converter input"], rows))
         .child(el_c("dl", "mapping").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
@@ -285,7 +285,7 @@ fn mapping_node(s: &Shown) -> Node {
             .child(el_c("dl", "mapping").attr("data-testid", "buffer").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
     }
     if let Some(ia) = &s.design.instrumentation {
-        let mut facts = vec![("Chosen for", ia.reason.clone())];
+        let mut facts = Vec::new();
         match (ia.feedback, ia.gain_resistor) {
             (Some(r_f), Some(r_g)) => {
                 facts.push(("R_F (each leg)", format(r_f, Quantity::Resistance)));
@@ -299,6 +299,7 @@ fn mapping_node(s: &Shown) -> Node {
         facts.push(("A leg may go beyond a rail by", volts(ia.fault_beyond_rail)));
         out = out
             .child(el("h4").text("Instrumentation amplifier: input stage U1, U2"))
+            .child(el_c("p", "block-note").text(&format!("Chosen for {}.", ia.reason)))
             .child(el_c("dl", "mapping").attr("data-testid", "instrumentation").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
     }
     if let Some(dd) = &s.design.differential {

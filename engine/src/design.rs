@@ -262,6 +262,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     }
     if let Some(ia) = &inamp {
         synth::inamp::insert(&mut s.circuit, &pair, ia, rails);
+        s.topology = synth::inamp::topology(ia, &s.topology);
         let Some(q) = with_front(&pair, &mut s, synth::inamp::equations(&pair, ia)) else { return unsolved(out, checks) };
         p = q;
         checks.extend(synth::inamp::checks(&pair, ia, &amp, rails));

@@ -258,6 +258,14 @@ pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rail
     circuit.stages.insert(0, Stage { role: StageRole::InputStage, description: what, parts });
 }
 
+/// The whole amplifier's topology in words, given the difference stage's.
+pub fn topology(d: &InampDesign, difference_stage: &str) -> String {
+    match d.gain_resistor {
+        Some(_) => format!("instrumentation amplifier: input stage of gain {:.1}, then a {difference_stage}", d.first_gain),
+        None => format!("instrumentation amplifier: two input followers, then a {difference_stage}"),
+    }
+}
+
 /// Design equations of the first stage, with the numbers substituted.
 pub fn equations(req: &Request, d: &InampDesign) -> Vec<String> {
     let r = |x: f64| format(x, Quantity::Resistance);
