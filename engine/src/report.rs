@@ -54,6 +54,7 @@ pub fn report_with(d: &Design, cfg: &ReportConfig) -> String {
     checks(&mut h, d);
     mapping(&mut h, d);
     current_loop(&mut h, d);
+    front_end(&mut h, d);
     filter_and_drive(&mut h, d);
     if cfg.plots {
         plots(&mut h, d);
@@ -184,6 +185,47 @@ fn current_loop(h: &mut String, d: &Design) {
         escape(&format(l.power_at_fault_high, Quantity::Power))
     );
     section(h, "Current loop", &body);
+}
+
+/// The sensor's front end: the follower, the transimpedance stage, the instrumentation
+/// amplifier's first stage, the difference stage and the bridge, as the design holds them.
+fn front_end(h: &mut String, d: &Design) {
+    let r = |x: f64| format(x, Quantity::Resistance);
+    let mut rows: Vec<(&str, String)> = Vec::new();
+    if let Some(b) = &d.high_impedance {
+        rows.push(("Follower input offset from the bias current", v(b.bias_error)));
+        if let Some(rb) = b.bias_resistor {
+            rows.push(("Bias resistor", format!("{} to {}", r(rb), v(b.return_level))));
+        }
+        if let Some(f) = b.low_corner.or(b.input_corner) {
+            rows.push(("Corner set at the input", hz(f)));
+        }
+    }
+    if let Some(t) = &d.photodiode {
+        rows.push(("Transimpedance R_f ∥ C_f", format!("{} ∥ {}", r(t.feedback_resistor), format(t.feedback_capacitor, Quantity::Capacitance))));
+        rows.push(("Diode bias; stage bandwidth (−3 dB)", format!("{}; {}", v(t.bias), hz(t.bandwidth))));
+        rows.push(("Dark-current offset", v(t.dark_offset)));
+    }
+    if let Some(b) = &d.bridge {
+        rows.push(("Bridge excitation current; power per arm", format!("{}; {}", format(b.excitation_current, Quantity::Current), format(b.arm_power, Quantity::Power))));
+        rows.push(("Bridge zero balance at its output", format!("± {}", v(b.zero_offset))));
+    }
+    if let Some(ia) = &d.instrumentation {
+        rows.push(("Instrumentation amplifier chosen for", ia.reason.clone()));
+        rows.push(("First stage R_F, R_G; gain", match (ia.feedback, ia.gain_resistor) {
+            (Some(f), Some(g)) => format!("{}, {}; {:.3} (swing allows {:.1})", r(f), r(g), ia.first_gain, ia.first_gain_limit),
+            _ => format!("followers; 1 (swing allows {:.1})", ia.first_gain_limit),
+        }));
+        rows.push(("First-stage outputs", format!("{} … {}", v(ia.output_range.0), v(ia.output_range.1))));
+        rows.push(("Protection resistor per leg; fault tolerated beyond a rail", format!("{}; {}", r(ia.protection), v(ia.fault_beyond_rail))));
+    }
+    if let Some(dd) = &d.differential {
+        rows.push(("Difference stage R1 = R3, R2 = R4; reference pin", format!("{}, {}; {}", r(dd.r1), r(dd.r2), v(dd.reference))));
+        rows.push(("CMRR worst case; 99.9 % of builds exceed", format!("{:.1} dB; {}", dd.cmrr_worst_db, dd.cmrr_monte_carlo_db.map_or("—".to_string(), |x| format!("{x:.1} dB")))));
+    }
+    if !rows.is_empty() {
+        section(h, "Sensor front end", &kv(&rows));
+    }
 }
 
 /// The anti-alias filter (sections as designed and as rounded) and the converter drive.

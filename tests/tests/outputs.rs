@@ -700,6 +700,28 @@ fn check_report(f: &mut Fails, id: &str, d: &Design) {
         }
         None => f.expect("report", &format!("{id}: has a Checks section"), false, "none"),
     }
+    // The sensor's front end, where it has one: its parts as the design holds them.
+    let front = section(&doc, "Sensor front end").map(rows_of).unwrap_or_default().iter().map(|c| c.join(" | ")).collect::<Vec<_>>().join("\n");
+    let fmt_r = |x: f64| rangefit_engine::units::format(x, rangefit_engine::units::Quantity::Resistance);
+    let mut wanted: Vec<String> = Vec::new();
+    if let Some(ia) = &d.instrumentation {
+        wanted.extend([ia.feedback, ia.gain_resistor, Some(ia.protection)].into_iter().flatten().map(fmt_r));
+        wanted.push(ia.reason.clone());
+    }
+    if let Some(dd) = &d.differential {
+        wanted.extend([fmt_r(dd.r1), fmt_r(dd.r2), format!("{:.1} dB", dd.cmrr_worst_db)]);
+    }
+    if let Some(t) = &d.photodiode {
+        wanted.push(fmt_r(t.feedback_resistor));
+    }
+    if let Some(b) = &d.high_impedance {
+        wanted.extend(b.bias_resistor.map(fmt_r));
+    }
+    let has_front = d.instrumentation.is_some() || d.differential.is_some() || d.photodiode.is_some() || d.high_impedance.is_some() || d.bridge.is_some();
+    f.expect("report", &format!("{id}: a Sensor front end section exactly when the design has a front end"), has_front == !front.is_empty(), &front);
+    for w in wanted {
+        f.expect("report", &format!("{id}: front end shows {w}"), front.contains(&w), &front);
+    }
     // Assumptions: Monte Carlo count and seed, temperature.
     match section(&doc, "Assumptions") {
         Some(s) => {
