@@ -70,6 +70,13 @@ fn the_gain_follows_the_three_amplifier_formula() {
     let (r_f, r_g) = (ia.feedback.expect("R_F"), ia.gain_resistor.expect("R_G"));
     rows.push(row("probe: G1 = 1 + 2R_F/R_G from the parts", ia.first_gain, 1.0 + 2.0 * r_f / r_g, 1e-12, REF));
     rows.push(row("probe: G2 = R2/R1 from the parts (the legs see no resistance)", dd.gain, dd.r2 / dd.r1, 1e-12, REF));
+    // The swing limit: outputs at V_cm ± G1·(|V_d|max + 2·V_os)/2 stay 10 mV inside the
+    // amplifier's reach (rule stated in README; the 10 mV margin is common practice).
+    let (lo, hi) = d.amplifier.output_limits(d.rails);
+    let room = (hi - 0.01 - 1.8f64).min(1.2 - (lo + 0.01));
+    let limit = 2.0 * room / (40e-3 + 2.0 * d.amplifier.offset);
+    rows.push(row("probe: first-stage gain limit from the swing", ia.first_gain_limit, limit, 1e-9 * limit, "closed form of the swing rule"));
+    rows.push(fact(format!("probe: G1 {} within its limit {}", ia.first_gain, ia.first_gain_limit), ia.first_gain <= ia.first_gain_limit * (1.0 + 1e-9), "design rule"));
     let g = ia.first_gain * dd.gain;
     let p = d.predicted.expect("predicted");
     // The amplifiers' finite open-loop gain (1e5) and the converter load take about G/1e5.

@@ -8,7 +8,7 @@
 //!
 //! **How the gain is split.** The first stage takes as much of the gain as its outputs can
 //! swing: they sit at V_cm ± G1·V_d/2, so G1 ≤ 2·min(out_hi − V_cm,max, V_cm,min − out_lo)/|V_d|max
-//! (a bridge's zero balance counted in V_d). Gain in the first stage also multiplies the
+//! (a bridge's zero balance and the two amplifiers' offsets counted in V_d). Gain in the first stage also multiplies the
 //! common-mode rejection: with resistor tolerance t the worst case is G1·(1 + G2)/(4t)
 //! (references: Kitchin & Counts, from memory; the tests reproduce it by brute force).
 //! R_F is the series value in 10 kΩ … 100 kΩ (common practice for this stage: low noise, a
@@ -107,7 +107,8 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails, gain: f64, extra: f64,
     let (out_lo, out_hi) = amp.output_limits(rails);
     let cm_lo = s.common_mode_min.unwrap_or(0.0);
     let cm_hi = s.common_mode_max.unwrap_or(cm_lo);
-    let a = s.min.abs().max(s.max.abs()) + extra.abs();
+    // Each input amplifier's offset adds to the difference the stage multiplies.
+    let a = s.min.abs().max(s.max.abs()) + extra.abs() + 2.0 * amp.offset.abs();
     let room = (out_hi - m - cm_hi).min(cm_lo - (out_lo + m));
     let limit = if a > 0.0 { (2.0 * room / a).max(1.0) } else { f64::INFINITY };
     let want = gain.abs().min(limit).max(1.0);
