@@ -7,17 +7,19 @@
 # the miss and fails only above a ceiling that guards against unnoticed growth. The ceiling
 # moved from 480 KB to 500 KB when the anti-alias filter and three sensor kinds (current
 # loop, high impedance, photodiode) landed (480,256 bytes then), and to 510 KB with the
-# instrumentation-amplifier front end and its schematic (503,539 bytes then); lower it as
-# the bundle shrinks, raise it only with the feature that needs it.
+# instrumentation-amplifier front end and its schematic (503,539 bytes then), and down to
+# 470 KB after size-only work (one shared sort, no Unicode case tables, wasm-opt flags:
+# 469,082 bytes then); lower it as the bundle shrinks, raise it only with the feature that
+# needs it.
 # Builds nothing: run `trunk build --release` first (.ci/test.sh does).
 #
-#   .ci/bundle-size.sh [DIST_DIR]   target TARGET_BYTES (250 KB), ceiling CEILING_BYTES (510 KB)
+#   .ci/bundle-size.sh [DIST_DIR]   target TARGET_BYTES (250 KB), ceiling CEILING_BYTES (470 KB)
 set -euo pipefail
 
 ROOT="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
 DIST="${1:-$ROOT/dist}"
 TARGET_BYTES="${TARGET_BYTES:-250000}"     # 250 KB, counted as 1 KB = 1000 bytes
-CEILING_BYTES="${CEILING_BYTES:-510000}"   # growth guard while the target is missed
+CEILING_BYTES="${CEILING_BYTES:-470000}"   # growth guard while the target is missed
 
 if [ ! -f "$DIST/index.html" ]; then
     echo "bundle-size: $DIST/index.html is missing; build the bundle first (trunk build --release)" >&2

@@ -85,7 +85,12 @@ impl Ctx {
         let values: &'static [RwSignal<String>] =
             Box::leak(FIELDS.iter().map(|f| RwSignal::new(initial.get(f.path).cloned().unwrap_or_default())).collect::<Vec<_>>().into_boxed_slice());
         let validation = Memo::new(move |_| {
-            let texts: Values = FIELDS.iter().zip(values.iter()).map(|(f, s)| (f.path, s.get())).collect();
+            // Inserted one by one: collecting into a BTreeMap sorts the pairs first, with a
+            // copy of the standard sort of its own in the bundle (engine::order has the shared one).
+            let mut texts = Values::new();
+            for (f, s) in FIELDS.iter().zip(values.iter()) {
+                texts.insert(f.path, s.get());
+            }
             fields::validate(&texts)
         });
         let meta = RwSignal::new(Meta { saved_id: None, baseline: Value::Null, from_link: false });

@@ -154,7 +154,7 @@ fn saved_at(entry: &Value) -> f64 {
 pub fn list(b: &mut dyn Backend) -> Listing {
     let mut out = Listing::default();
     let mut keys: Vec<String> = b.keys().into_iter().filter(|k| k.starts_with(DESIGN_PREFIX)).collect();
-    keys.sort();
+    rangefit_engine::order::sort_by(&mut keys, String::cmp);
     for key in keys {
         let id = key[DESIGN_PREFIX.len()..].to_string();
         let Some(text) = b.get(&key) else { continue };
@@ -181,7 +181,7 @@ pub fn list(b: &mut dyn Backend) -> Listing {
             Err(why) => out.problems.push(Problem { key, message: why }),
         }
     }
-    out.designs.sort_by(|a, b| b.saved.total_cmp(&a.saved).then_with(|| a.id.cmp(&b.id)));
+    rangefit_engine::order::sort_by(&mut out.designs, |a, b| b.saved.total_cmp(&a.saved).then_with(|| a.id.cmp(&b.id)));
     out
 }
 

@@ -34,7 +34,7 @@ impl Rails {
     /// negative rail is used when the request lists one.
     pub fn choose(req: &Request) -> Rails {
         let mut pos: Vec<f64> = req.supplies.iter().copied().filter(|&v| v > 0.0 && v.is_finite()).collect();
-        pos.sort_by(|a, b| a.total_cmp(b));
+        crate::order::sort_by(&mut pos, |a, b| a.total_cmp(b));
         let reach = req.destination.max;
         let p = pos.iter().copied().find(|&v| v >= reach).or_else(|| pos.last().copied()).unwrap_or(0.0);
         let n = req.supplies.iter().copied().filter(|&v| v < 0.0 && v.is_finite()).fold(0.0, f64::min);

@@ -190,7 +190,7 @@ impl Circuit {
     /// Parts to build (the bench excluded), in designator order.
     pub fn build_parts(&self) -> Vec<&Part> {
         let mut v: Vec<&Part> = self.parts.iter().filter(|p| !p.bench).collect();
-        v.sort_by(|a, b| designator_key(&a.reference).cmp(&designator_key(&b.reference)));
+        crate::order::sort_by(&mut v, |a, b| designator_key(&a.reference).cmp(&designator_key(&b.reference)));
         v
     }
 }

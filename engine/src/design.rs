@@ -305,7 +305,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         widen_for_first_stage(&mut req_amp, ia, rails);
     }
     out.requirements = Some(req_amp);
-    checks.sort_by(|a, b| b.severity.cmp(&a.severity));
+    crate::order::sort_by(&mut checks, |a, b| b.severity.cmp(&a.severity));
     out.checks = checks;
     out.circuit = Some(s.circuit);
     out.current_loop = current_loop;

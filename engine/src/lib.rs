@@ -3,7 +3,7 @@
 //! The pipeline reads top-down in the module tree:
 //! [`units`] → [`values`] → [`diag`] → [`request`] → [`amplifier`] → [`synth`] → [`circuit`] →
 //! [`solve`] → [`analysis`] → [`design`] (checks and the design result) → [`netlist`], [`bom`], [`scaling`], [`share`], [`draw`], [`report`] (exports) →
-//! [`cli`] (the `rangefit` command).
+//! [`cli`] (the `rangefit` command). [`order`] is a shared stable sort the others use.
 //!
 //! The engine knows nothing of browsers, the DOM or storage; it builds for the host and
 //! for `wasm32-unknown-unknown`. Every output is derived from the one [`circuit::Circuit`]
@@ -27,6 +27,7 @@ pub mod share;
 pub mod report;
 pub mod cli;
 pub mod demos;
+pub mod order;
 
 pub use design::{design, Design};
 pub use request::{Request, RequestError};

@@ -445,7 +445,7 @@ fn scan(s: &str) -> Result<Scanned<'_>, UnitError> {
         negative = c != '+';
         rest = rest.get(c.len_utf8()..).unwrap_or("").trim_start();
     }
-    let lower = rest.to_lowercase();
+    let lower = fold_case(rest);
     if lower.starts_with("nan") || lower.starts_with("inf") || lower.starts_with('∞') {
         return Err(UnitError::NotFinite);
     }
@@ -541,13 +541,29 @@ impl Unit {
     }
 }
 
+/// Lower case for matching the words this module knows (`nan`, `inf`, `hz`, `ohms`, `µs`, …):
+/// gives the same match as `str::to_lowercase` for every text, without linking the full
+/// Unicode case tables into the browser bundle (several KB compressed). Besides ASCII, the
+/// only characters whose lower case is a character of those words are the kelvin sign
+/// (lower case `k`) and the Greek capital mu (lower case `μ`); every other character keeps
+/// a form that matches no word either way.
+fn fold_case(s: &str) -> String {
+    s.chars()
+        .map(|c| match c {
+            '\u{212A}' => 'k',
+            '\u{039C}' => '\u{03BC}',
+            _ => c.to_ascii_lowercase(),
+        })
+        .collect()
+}
+
 /// Look up a unit spelling. `prefixed` says whether a prefix preceded it: a bare "K" is
 /// kelvin only when a temperature is expected, "f" is a farad only after a prefix
 /// ("100nf"), and °C takes no prefix.
 fn lookup_unit(u: &str, expected: Quantity, prefixed: bool) -> Option<Unit> {
     use Quantity::*;
     if let Some((num, den)) = u.split_once('/') {
-        let den = den.to_lowercase();
+        let den = fold_case(den);
         let volts = matches!(num, "V" | "v");
         let amps = matches!(num, "A" | "a");
         let root_hz =
@@ -584,7 +600,7 @@ fn lookup_unit(u: &str, expected: Quantity, prefixed: bool) -> Option<Unit> {
         "%" => Unit::of(Ratio, -2),
         "ppm" => Unit::of(Ratio, -6),
         "ppb" => Unit::of(Ratio, -9),
-        _ => match u.to_lowercase().as_str() {
+        _ => match fold_case(u).as_str() {
             "volt" | "volts" => Unit::of(Voltage, 0),
             "amp" | "amps" => Unit::of(Current, 0),
             "ohm" | "ohms" => Unit::of(Resistance, 0),
@@ -714,5 +730,27 @@ fn plain_number(digits: &str, exp: i32) -> String {
         join_number("0", &format!("{zeros}{digits}"))
     } else {
         scientific(digits, exp)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::fold_case;
+
+    /// Every character either folds as `to_lowercase` does or, both ways, gives no
+    /// character of a known word (so no match can differ). U+0130 is the one character
+    /// whose lower case is two characters; the second (a combining dot) is in no word.
+    #[test]
+    fn fold_case_matches_like_to_lowercase() {
+        let in_words = |c: char| c.is_ascii_lowercase() || "√()∞µμ".contains(c);
+        for c in (0..=0x10FFFFu32).filter_map(char::from_u32) {
+            let full: String = c.to_lowercase().collect();
+            let folded = fold_case(c.encode_utf8(&mut [0; 4]));
+            if folded != full {
+                let f = folded.chars().next().unwrap();
+                assert!(!in_words(f) && !full.chars().all(in_words), "{c:?}: {folded:?} vs {full:?}");
+            }
+        }
+        assert_eq!(fold_case("1 KΩ V/ΜS NaN"), "1 kΩ v/μs nan");
     }
 }

@@ -149,7 +149,7 @@ pub fn noise(req: &Request, circuit: &Circuit, mid_gain: f64, f_high_3db: Option
 
     let mut contributors: Vec<Contributor> =
         sources.iter().zip(&power).map(|(s, p)| Contributor { part: s.name(), output_rms: trapezoid(&freqs, p).sqrt() }).collect();
-    contributors.sort_by(|a, b| b.output_rms.total_cmp(&a.output_rms));
+    crate::order::sort_by(&mut contributors, |a, b| b.output_rms.total_cmp(&a.output_rms));
     let output_rms = contributors.iter().map(|c| c.output_rms * c.output_rms).sum::<f64>().sqrt();
     let density = freqs
         .iter()

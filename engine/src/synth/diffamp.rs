@@ -95,7 +95,7 @@ pub fn cmrr_monte_carlo(circuit: &Circuit, runs: usize, seed: u64) -> Option<f64
     if out.is_empty() {
         return None;
     }
-    out.sort_by(|a, b| a.total_cmp(b));
+    crate::order::sort_by(&mut out, |a, b| a.total_cmp(b));
     Some(out[(out.len() / 1000).min(out.len() - 1)])
 }
 

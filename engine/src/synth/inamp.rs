@@ -337,7 +337,7 @@ pub fn ratios_between(series: values::Series, lo: f64, hi: f64) -> Vec<f64> {
     for r1 in values::values_between(series, 1e3, 9.99e3) {
         out.extend(values::values_between(series, r1 * lo, r1 * hi).into_iter().map(|r2| r2 / r1));
     }
-    out.sort_by(|a, b| a.total_cmp(b));
+    crate::order::sort_by(&mut out, |a, b| a.total_cmp(b));
     out
 }
 

@@ -77,7 +77,7 @@ pub fn plan(c: &Circuit, req: &Request, f: &mut FilterDesign, out: &str) -> Opti
     let ideal = 1.0 / (2.0 * PI * resistance * want);
     let (below, above) = values::bracket(req.parts.capacitor_series, ideal)?;
     let mut candidates = vec![below, above];
-    candidates.sort_by(|a, b| (a / ideal).ln().abs().total_cmp(&(b / ideal).ln().abs()));
+    crate::order::sort_by(&mut candidates, |a, b| (a / ideal).ln().abs().total_cmp(&(b / ideal).ln().abs()));
     candidates.dedup();
     for capacitor in candidates.into_iter().filter(|x| (C_MIN..=C_MAX).contains(x)) {
         let f_p = 1.0 / (2.0 * PI * resistance * capacitor);

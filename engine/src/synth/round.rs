@@ -120,7 +120,7 @@ pub fn pairs(cfg: RoundConfig, ratio: f64, offset: f64, n: usize) -> Vec<(f64, f
             }
         }
     }
-    all.sort_by(|x, y| x.2.total_cmp(&y.2));
+    crate::order::sort_by(&mut all, |x, y| x.2.total_cmp(&y.2));
     // Keep every scaling of the best ratios, half of them at or below the wanted ratio and
     // half at or above: the other values of a stage may fit the window at one scale only,
     // and keeping both ends inside the range can need a ratio on one particular side.

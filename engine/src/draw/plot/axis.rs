@@ -193,7 +193,7 @@ pub fn log_ticks(lo: f64, hi: f64) -> LogTicks {
         return LogTicks { major: decades, minor };
     }
     let mut ones: Vec<f64> = decades.iter().copied().chain(subs).collect();
-    ones.sort_by(f64::total_cmp);
+    crate::order::sort_by(&mut ones, f64::total_cmp);
     if ones.len() >= 2 {
         return LogTicks { major: ones, minor: Vec::new() };
     }

@@ -17,7 +17,7 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     let n = &a.noise;
     let [f_lo, f_hi] = n.band;
     let mut data: Vec<(f64, f64)> = n.density.iter().map(|p| (p.f, p.output)).filter(|(f, v)| f.is_finite() && *f > 0.0 && v.is_finite() && *v > 0.0).collect();
-    data.sort_by(|p, q| p.0.total_cmp(&q.0));
+    crate::order::sort_by(&mut data, |p, q| p.0.total_cmp(&q.0));
     let band_ok = f_lo.is_finite() && f_hi.is_finite() && f_lo > 0.0 && f_hi > f_lo;
     let lsb_level = if band_ok && n.lsb.is_finite() && n.lsb > 0.0 { Some(n.lsb / (f_hi - f_lo).sqrt()) } else { None };
     let (x0, x1) = if band_ok {

@@ -62,7 +62,7 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     let s = &d.request.source;
     let f_s = d.request.destination.sample_rate;
     let mut pts: Vec<(f64, f64, f64)> = a.ac.points.iter().filter(|p| p.f.is_finite() && p.f > 0.0).map(|p| (p.f, p.mag_db, p.phase_deg)).collect();
-    pts.sort_by(|x, y| x.0.total_cmp(&y.0));
+    crate::order::sort_by(&mut pts, |x, y| x.0.total_cmp(&y.0));
     let mag = finite(pts.iter().map(|p| (p.0, p.1)));
     let f_ref = if s.coupling == Coupling::Ac && a.ac.f_mid > 0.0 { a.ac.f_mid } else { pts.first().map_or(1.0, |p| p.0) };
     let phase = unwrap_phase(&finite(pts.iter().map(|p| (p.0, p.2))), f_ref);

@@ -88,7 +88,7 @@ fn shown_title(name: &str, what: &str, width: f64, fs: f64) -> String {
     if name.is_empty() {
         let mut w = what.to_string();
         if let Some(c) = w.get(..1) {
-            w = format!("{}{}", c.to_uppercase(), w.get(1..).unwrap_or(""));
+            w = format!("{}{}", c.to_ascii_uppercase(), w.get(1..).unwrap_or(""));
         }
         return fit(&w, avail, size);
     }

@@ -124,7 +124,7 @@ pub(super) fn spread(tags: &[Tag], lo: f64, hi: f64, fs: f64) -> Vec<Option<f64>
     while !keep.is_empty() && keep.iter().map(|&i| w[i] + gap).sum::<f64>() - gap > hi - lo {
         keep.pop();
     }
-    keep.sort_by(|&a, &b| tags[a].edge.cmp(&tags[b].edge).then(tags[a].x.total_cmp(&tags[b].x)));
+    crate::order::sort_by(&mut keep, |&a, &b| tags[a].edge.cmp(&tags[b].edge).then(tags[a].x.total_cmp(&tags[b].x)));
     // Clusters: members, left edge, width.
     let mut clusters: Vec<(Vec<usize>, f64, f64)> = Vec::new();
     let place = |members: &[usize], width: f64| -> f64 {

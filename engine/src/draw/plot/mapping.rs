@@ -19,7 +19,7 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     let dst = &d.request.destination;
     let ac = a.dc.kind == "midband";
     let mut data = finite(a.dc.transfer.iter().map(|p| (p.x, p.y)));
-    data.sort_by(|p, q| p.0.total_cmp(&q.0));
+    crate::order::sort_by(&mut data, |p, q| p.0.total_cmp(&q.0));
     let [lim_lo, lim_hi] = a.dc.output_limits;
     let span = dst.max - dst.min;
     let head = dst.headroom * span;

@@ -120,7 +120,7 @@ impl Sheet<'_> {
         let h = 1.05 * fs;
         let mut runs: Vec<Segment> =
             self.svg.wires.iter().filter(|w| w.net == node && (w.y1 - w.y2).abs() < 1e-9 && (w.x2 - w.x1).abs() >= 30.0).cloned().collect();
-        runs.sort_by(|a, b| self.leads.contains(a).cmp(&self.leads.contains(b)).then(b.len().total_cmp(&a.len())));
+        crate::order::sort_by(&mut runs, |a, b| self.leads.contains(a).cmp(&self.leads.contains(b)).then(b.len().total_cmp(&a.len())));
         let mut taps_at: Vec<Vec<(f64, f64)>> = Vec::new();
         for s in &runs {
             let mut here = Vec::new();
@@ -204,7 +204,7 @@ impl Sheet<'_> {
             let text = format(if v.abs() < tiny { 0.0 } else { v }, Quantity::Voltage);
             let mut spots = Vec::new();
             let mut runs: Vec<Segment> = self.svg.wires.iter().filter(|w| w.net == net && w.len() >= 12.0).cloned().collect();
-            runs.sort_by(|a, b| self.leads.contains(a).cmp(&self.leads.contains(b)).then(b.len().total_cmp(&a.len())));
+            crate::order::sort_by(&mut runs, |a, b| self.leads.contains(a).cmp(&self.leads.contains(b)).then(b.len().total_cmp(&a.len())));
             for horizontal in [true, false] {
                 for s in runs.iter().filter(|s| ((s.y1 - s.y2).abs() < 1e-9) == horizontal) {
                     // From the middle of the run outward, every 6 px.

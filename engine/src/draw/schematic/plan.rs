@@ -189,6 +189,6 @@ pub(super) fn legs(c: &Circuit, node: &str, allow_block: bool, used: &mut [bool]
             used[j] = true;
         }
     }
-    out.sort_by_key(|l| l.block.is_none());
+    crate::order::sort_by_key(&mut out, |l| l.block.is_none());
     out
 }

@@ -362,7 +362,7 @@ impl<'a> Sheet<'a> {
     /// part, those to a positive rail up, the rest down (resistors first).
     pub(super) fn block(&mut self, block: &[Step], x: f64, yr: f64, net: &str, rightward: bool) {
         let (ups, mut downs): (Vec<&Step>, Vec<&Step>) = block.iter().partition(|s| self.positive_rail(&s.to));
-        downs.sort_by_key(|s| self.c.parts.get(s.part).map(|p| p.kind != PartKind::Resistor).unwrap_or(true));
+        crate::order::sort_by_key(&mut downs, |s| self.c.parts.get(s.part).map(|p| p.kind != PartKind::Resistor).unwrap_or(true));
         let cols = ups.len().max(downs.len());
         let xl = if rightward { x + 60.0 } else { x - cols as f64 * PITCH };
         let xe = if rightward { xl + cols.saturating_sub(1) as f64 * PITCH } else { x };

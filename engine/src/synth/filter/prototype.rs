@@ -89,7 +89,7 @@ pub fn prototype(response: ResponseKind, order: u32) -> Option<Prototype> {
     if pairs.len() != n / 2 || real.is_some() != (n % 2 == 1) {
         return None;
     }
-    pairs.sort_by(|a, b| a.q.total_cmp(&b.q));
+    crate::order::sort_by(&mut pairs, |a, b| a.q.total_cmp(&b.q));
     let ripple_db = if response == ResponseKind::Steep { CHEBYSHEV_RIPPLE_DB } else { 0.0 };
     let mut p = Prototype { response, order, real, pairs, ripple_db };
     if response == ResponseKind::LinearPhase {

@@ -161,7 +161,7 @@ pub fn realise(kind: SectionKind, f_n: f64, q: f64, cfg: PartsConfig) -> Option<
             }
         }
     }
-    cands.sort_by(|a, b| a.0.total_cmp(&b.0));
+    crate::order::sort_by(&mut cands, |a, b| a.0.total_cmp(&b.0));
     cands.truncate(PAIRS_TRIED);
     let mut best: Option<(f64, Realised)> = None;
     for (_, c, r) in cands {
