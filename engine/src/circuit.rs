@@ -263,6 +263,22 @@ impl Builder {
         reference
     }
 
+    /// Adds a front end's amplifier under a designator freed for it (U1, U2 after
+    /// `synth::renumber_amplifiers`): nodes +, −, V+, V−, output; its value is the GBW.
+    pub fn front_amplifier(&mut self, designator: &str, gbw: f64, nodes: [&str; 5], stage: StageRole, purpose: &str) -> String {
+        self.parts.push(Part {
+            reference: designator.to_string(),
+            kind: PartKind::OpAmp,
+            value: gbw,
+            tolerance: None,
+            nodes: nodes.iter().map(|s| s.to_string()).collect(),
+            stage,
+            purpose: purpose.to_string(),
+            bench: false,
+        });
+        designator.to_string()
+    }
+
     /// Adds a bench part with a fixed name (VSENSE, RSENSE, VPOS, VNEG, RADC).
     pub fn bench(&mut self, reference: &str, kind: PartKind, value: f64, nodes: &[&str], stage: StageRole, purpose: &str) {
         self.parts.push(Part {

@@ -26,7 +26,7 @@
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Circuit, Part, PartKind, Stage, StageRole, GND};
+use crate::circuit::{Circuit, PartKind, Stage, StageRole, GND};
 use crate::diag::Check;
 use crate::request::{Coupling, Request, SourceKind};
 use crate::units::{format, Quantity};
@@ -127,17 +127,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
     let gbw = circuit.amplifier.gbw;
     let vneg = if rails.is_dual() { "vneg" } else { GND };
     let mut bld = crate::circuit::Builder::resume(std::mem::take(&mut circuit.parts));
-    let mut parts = vec!["U1".to_string()];
-    bld.parts.push(Part {
-        reference: "U1".to_string(),
-        kind: PartKind::OpAmp,
-        value: gbw,
-        tolerance: None,
-        nodes: ["sense", "buf", "vpos", vneg, "buf"].iter().map(|n| n.to_string()).collect(),
-        stage: StageRole::Buffer,
-        purpose: "follower: takes no current from the sensor and drives the rest".to_string(),
-        bench: false,
-    });
+    let mut parts = vec![bld.front_amplifier("U1", gbw, ["sense", "buf", "vpos", vneg, "buf"], StageRole::Buffer, "follower: takes no current from the sensor and drives the rest")];
     let rtol = Some(req.parts.resistor_tolerance);
     // The bias reference (AC coupling on a single supply); the sensor's return is ground.
     let ret = if b.return_level != 0.0 { "bref" } else { GND };

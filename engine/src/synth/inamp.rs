@@ -222,33 +222,19 @@ pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rail
     let rtol = Some(req.parts.resistor_tolerance);
     let mut bld = Builder::resume(std::mem::take(&mut circuit.parts));
     let mut parts = Vec::new();
-    let push_amp = |bld: &mut Builder, designator: &str, nodes: [&str; 5], purpose: &str| {
-        bld.parts.push(crate::circuit::Part {
-            reference: designator.to_string(),
-            kind: PartKind::OpAmp,
-            value: gbw,
-            tolerance: None,
-            nodes: nodes.iter().map(|n| n.to_string()).collect(),
-            stage: StageRole::InputStage,
-            purpose: purpose.to_string(),
-            bench: false,
-        });
-    };
     parts.push(bld.add(PartKind::Resistor, d.protection, rtol, &["sensep", "ipp"], StageRole::InputStage, "protection resistor, + leg: limits fault current into U1's input"));
     parts.push(bld.add(PartKind::Resistor, d.protection, rtol, &["sensen", "ipn"], StageRole::InputStage, "protection resistor, − leg: limits fault current into U2's input"));
     match (d.feedback, d.gain_resistor) {
         (Some(r_f), Some(r_g)) => {
-            push_amp(&mut bld, "U1", ["ipp", "ga", "vpos", vneg, "oa"], "input amplifier, + leg: gain 1 + 2R_F/R_G for the difference, 1 for the common mode");
-            push_amp(&mut bld, "U2", ["ipn", "gb", "vpos", vneg, "ob"], "input amplifier, − leg: gain 1 + 2R_F/R_G for the difference, 1 for the common mode");
-            parts.extend(["U1".to_string(), "U2".to_string()]);
+            parts.push(bld.front_amplifier("U1", gbw, ["ipp", "ga", "vpos", vneg, "oa"], StageRole::InputStage, "input amplifier, + leg: gain 1 + 2R_F/R_G for the difference, 1 for the common mode"));
+            parts.push(bld.front_amplifier("U2", gbw, ["ipn", "gb", "vpos", vneg, "ob"], StageRole::InputStage, "input amplifier, − leg: gain 1 + 2R_F/R_G for the difference, 1 for the common mode"));
             parts.push(bld.add(PartKind::Resistor, r_f, rtol, &["oa", "ga"], StageRole::InputStage, "first-stage feedback R_F, + leg"));
             parts.push(bld.add(PartKind::Resistor, r_g, rtol, &["ga", "gb"], StageRole::InputStage, "gain resistor R_G: sets the first stage's gain"));
             parts.push(bld.add(PartKind::Resistor, r_f, rtol, &["ob", "gb"], StageRole::InputStage, "first-stage feedback R_F, − leg"));
         }
         _ => {
-            push_amp(&mut bld, "U1", ["ipp", "oa", "vpos", vneg, "oa"], "input follower, + leg: the leg sees only its input");
-            push_amp(&mut bld, "U2", ["ipn", "ob", "vpos", vneg, "ob"], "input follower, − leg: the leg sees only its input");
-            parts.extend(["U1".to_string(), "U2".to_string()]);
+            parts.push(bld.front_amplifier("U1", gbw, ["ipp", "oa", "vpos", vneg, "oa"], StageRole::InputStage, "input follower, + leg: the leg sees only its input"));
+            parts.push(bld.front_amplifier("U2", gbw, ["ipn", "ob", "vpos", vneg, "ob"], StageRole::InputStage, "input follower, − leg: the leg sees only its input"));
         }
     }
     circuit.parts = bld.parts;

@@ -25,7 +25,7 @@ use std::f64::consts::PI;
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Circuit, Part, PartKind, Stage, StageRole, GND};
+use crate::circuit::{Circuit, PartKind, Stage, StageRole, GND};
 use crate::diag::Check;
 use crate::request::{Request, SourceKind};
 use crate::units::{format, Quantity};
@@ -134,17 +134,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, t: &TiaDesign, rails: Rails)
     let vneg = if rails.is_dual() { "vneg" } else { GND };
     let plus = if t.bias != 0.0 { "pdb" } else { GND };
     let mut bld = crate::circuit::Builder::resume(std::mem::take(&mut circuit.parts));
-    let mut parts = vec!["U1".to_string()];
-    bld.parts.push(Part {
-        reference: "U1".to_string(),
-        kind: PartKind::OpAmp,
-        value: gbw,
-        tolerance: None,
-        nodes: [plus, "sense", "vpos", vneg, "tia"].iter().map(|n| n.to_string()).collect(),
-        stage: StageRole::Transimpedance,
-        purpose: "transimpedance amplifier: holds the diode at the bias and turns its current into a voltage".to_string(),
-        bench: false,
-    });
+    let mut parts = vec![bld.front_amplifier("U1", gbw, [plus, "sense", "vpos", vneg, "tia"], StageRole::Transimpedance, "transimpedance amplifier: holds the diode at the bias and turns its current into a voltage")];
     let rtol = Some(req.parts.resistor_tolerance);
     parts.push(bld.add(PartKind::Resistor, t.feedback_resistor, rtol, &["tia", "sense"], StageRole::Transimpedance, "feedback resistor R_f: volts per ampere of photocurrent"));
     parts.push(bld.add(PartKind::Capacitor, t.feedback_capacitor, Some(req.parts.capacitor_tolerance), &["tia", "sense"], StageRole::Transimpedance, "feedback capacitor C_f: keeps the stage stable and flat against the diode's capacitance"));
