@@ -302,7 +302,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     out.equations = s.equations.clone();
     let mut req_amp = req_amp;
     if let Some(ia) = &inamp {
-        widen_for_first_stage(&mut req_amp, ia, rails);
+        widen_for_first_stage(&mut req_amp, ia, rails, req.source.band_high);
     }
     out.requirements = Some(req_amp);
     crate::order::sort_by(&mut checks, |a, b| b.severity.cmp(&a.severity));
@@ -518,7 +518,7 @@ fn requirements(req: &Request, s: &synth::Synthesis, amp: &Amplifier, rails: Rai
 /// Widens the amplifier requirements of the gain stage by what an instrumentation
 /// amplifier's first stage asks of the same amplifiers: its outputs' and inputs' ranges and
 /// its gain-bandwidth (the summary's output, input and gain-bandwidth lines follow).
-fn widen_for_first_stage(r: &mut Requirements, ia: &synth::inamp::InampDesign, rails: Rails) {
+fn widen_for_first_stage(r: &mut Requirements, ia: &synth::inamp::InampDesign, rails: Rails, band_high: f64) {
     r.output_low = r.output_low.min(ia.output_range.0);
     r.output_high = r.output_high.max(ia.output_range.1);
     r.input_low = r.input_low.min(ia.input_range.0);
@@ -527,7 +527,7 @@ fn widen_for_first_stage(r: &mut Requirements, ia: &synth::inamp::InampDesign, r
     r.summary[2] = format!("input common-mode range covers {} … {}", v(r.input_low), v(r.input_high));
     if ia.gbw_needed > r.gbw_min {
         r.gbw_min = ia.gbw_needed;
-        r.summary[3] = format!("gain-bandwidth ≥ {} for the instrumentation amplifier's first stage (100 × its gain {:.3} × {})", hz(r.gbw_min), ia.first_gain, hz(ia.gbw_needed / (100.0 * ia.first_gain)));
+        r.summary[3] = format!("gain-bandwidth ≥ {} for the instrumentation amplifier's first stage (100 × its gain {:.3} × {})", hz(r.gbw_min), ia.first_gain, hz(band_high));
     }
 }
 
