@@ -620,8 +620,7 @@ fn check_chain(what: &str, req: &Request, c: &Circuit, s: &Schematic, want: &Cha
     let doc = roxmltree::Document::parse(&s.svg).unwrap();
     let words = texts(&doc);
     assert!(!words.iter().any(|t| t.starts_with("Not placed")), "{what}: a part fell back");
-    let group = |r: &str| doc.descendants().find(|n| n.has_tag_name("g") && n.attribute("class") == Some("part") && n.attribute("data-ref") == Some(r));
-    let triangle = |n: roxmltree::Node| n.children().any(|k| k.has_tag_name("polygon") && k.attribute("points").is_some_and(|p| p.split_whitespace().count() == 3));
+    let group = |r: &str| part_group(&doc, r);
     let amps: Vec<&rangefit_engine::circuit::Part> = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter).collect();
     // A first-order pole built into the gain stage has no amplifier of its own.
     let separate = f.sections.iter().filter(|x| !x.in_gain_stage).count();
@@ -632,7 +631,7 @@ fn check_chain(what: &str, req: &Request, c: &Circuit, s: &Schematic, want: &Cha
         if matches!(p.stage, StageRole::Filter | StageRole::Drive) || filter_ref {
             let g = group(&p.reference).unwrap_or_else(|| panic!("{what}: {} is not drawn by role", p.reference));
             if matches!(p.kind, PartKind::OpAmp | PartKind::Diode) {
-                assert!(triangle(g), "{what}: {} has no triangle", p.reference);
+                assert!(is_triangle(g), "{what}: {} has no triangle", p.reference);
             }
         }
     }
@@ -718,6 +717,27 @@ fn high_impedance(name: &str, min: f64, max: f64, coupling: &str, source: (&str,
 }
 
 /// Every point a part's group draws through (lines, circles, polygons).
+/// The drawn group of part `r` (`<g class="part" data-ref="r">`).
+fn part_group<'a, 'i>(doc: &'a roxmltree::Document<'i>, r: &str) -> Option<roxmltree::Node<'a, 'i>> {
+    doc.descendants().find(|n| n.has_tag_name("g") && n.attribute("class") == Some("part") && n.attribute("data-ref") == Some(r))
+}
+
+/// IEC 60617: an amplifier's symbol is a triangle (a three-point polygon in its group).
+fn is_triangle(g: roxmltree::Node) -> bool {
+    g.children().any(|k| k.has_tag_name("polygon") && k.attribute("points").is_some_and(|p| p.split_whitespace().count() == 3))
+}
+
+/// Every part placed by role: nothing in the fallback area, every part but the supplies
+/// drawn as its own group.
+fn placed_by_role(what: &str, doc: &roxmltree::Document, words: &[String], c: &Circuit) {
+    assert!(!words.iter().any(|t| t.starts_with("Not placed")), "{what}: a part fell back");
+    for p in &c.parts {
+        if !(p.bench && p.stage == StageRole::Supply) {
+            assert!(part_group(doc, &p.reference).is_some(), "{what}: {} not drawn", p.reference);
+        }
+    }
+}
+
 fn group_points(g: roxmltree::Node) -> Vec<(f64, f64)> {
     let mut v = Vec::new();
     for n in g.descendants().filter(|n| n.is_element()) {
@@ -747,18 +767,12 @@ fn check_buffer(what: &str, req: &Request, c: &Circuit, s: &Schematic, lifted: b
     let u1 = c.parts.iter().find(|p| p.reference == "U1").unwrap_or_else(|| panic!("{what}: no U1"));
     assert_eq!((u1.kind, u1.stage), (PartKind::OpAmp, StageRole::Buffer), "{what}: U1 is not the buffer");
     assert_eq!((u1.nodes[0].as_str(), u1.nodes[1] == u1.nodes[4]), ("sense", true), "{what}: U1 is not a follower at sense");
-    // Every part placed by role: nothing in the fallback area.
-    assert!(!words.iter().any(|t| t.starts_with("Not placed")), "{what}: a part fell back");
-    let group = |r: &str| doc.descendants().find(|n| n.has_tag_name("g") && n.attribute("class") == Some("part") && n.attribute("data-ref") == Some(r));
-    for p in &c.parts {
-        if !(p.bench && p.stage == StageRole::Supply) {
-            assert!(group(&p.reference).is_some(), "{what}: {} not drawn", p.reference);
-        }
-    }
+    placed_by_role(what, &doc, &words, c);
+    let group = |r: &str| part_group(&doc, r);
     // IEC 60617: the amplifier is a triangle; labelled like the other amplifiers (common
     // practice: designator and the requirement on it).
     let g = group("U1").unwrap_or_else(|| panic!("{what}: U1 not drawn"));
-    assert!(g.children().any(|k| k.has_tag_name("polygon") && k.attribute("points").is_some_and(|p| p.split_whitespace().count() == 3)), "{what}: U1 has no triangle");
+    assert!(is_triangle(g), "{what}: U1 has no triangle");
     assert!(words.iter().any(|w| w == "U1") && words.iter().filter(|w| w.starts_with("GBW ≥")).count() >= 2, "{what}: U1 unlabelled");
     // Design contract: the bench's sensor model is VSENSE, RSENSE and CSENSE; drawn inside
     // the dashed sensor box (the bench shown apart from what is built, common practice).
@@ -820,18 +834,12 @@ fn check_photodiode(what: &str, req: &Request, c: &Circuit, s: &Schematic, dark:
     assert_eq!((u1.kind, u1.stage), (PartKind::OpAmp, StageRole::Transimpedance), "{what}: U1 is not the transimpedance stage");
     assert_eq!((u1.nodes[1].as_str(), u1.nodes[4].as_str()), ("sense", "tia"), "{what}: U1's − input or output");
     assert_eq!(u1.nodes[0] == "pdb", biased, "{what}: U1's + input");
-    // Every part placed by role: nothing in the fallback area.
-    assert!(!words.iter().any(|t| t.starts_with("Not placed")), "{what}: a part fell back");
-    let group = |r: &str| doc.descendants().find(|n| n.has_tag_name("g") && n.attribute("class") == Some("part") && n.attribute("data-ref") == Some(r));
-    for p in &c.parts {
-        if !(p.bench && p.stage == StageRole::Supply) {
-            assert!(group(&p.reference).is_some(), "{what}: {} not drawn", p.reference);
-        }
-    }
+    placed_by_role(what, &doc, &words, c);
+    let group = |r: &str| part_group(&doc, r);
     // IEC 60617: the amplifier is a triangle; labelled like the other amplifiers (common
     // practice: designator and the requirement on it).
     let g = group("U1").unwrap_or_else(|| panic!("{what}: U1 not drawn"));
-    assert!(g.children().any(|k| k.has_tag_name("polygon") && k.attribute("points").is_some_and(|p| p.split_whitespace().count() == 3)), "{what}: U1 has no triangle");
+    assert!(is_triangle(g), "{what}: U1 has no triangle");
     assert!(words.iter().any(|w| w == "U1") && words.iter().filter(|w| w.starts_with("GBW ≥")).count() >= 2, "{what}: U1 unlabelled");
     // Design contract: the bench's sensor model is ISENSE (and IDARK with a dark current)
     // and CSENSE; drawn inside the dashed sensor box (the bench shown apart from what is
@@ -898,14 +906,8 @@ fn check_differential(what: &str, req: &Request, c: &Circuit, s: &Schematic, fol
     assert_eq!((u1.kind, u1.stage), (PartKind::OpAmp, StageRole::Gain), "{what}: U1 is not the gain stage");
     assert_eq!((u1.nodes[0].as_str(), u1.nodes[1].as_str()), ("inp1", "inn1"), "{what}: U1's inputs");
     assert_eq!(c.nodes().iter().any(|n| n == "ref"), follower, "{what}: reference follower?");
-    // Every part placed by role: nothing in the fallback area.
-    assert!(!words.iter().any(|t| t.starts_with("Not placed")), "{what}: a part fell back");
-    let group = |r: &str| doc.descendants().find(|n| n.has_tag_name("g") && n.attribute("class") == Some("part") && n.attribute("data-ref") == Some(r));
-    for p in &c.parts {
-        if !(p.bench && p.stage == StageRole::Supply) {
-            assert!(group(&p.reference).is_some(), "{what}: {} not drawn", p.reference);
-        }
-    }
+    placed_by_role(what, &doc, &words, c);
+    let group = |r: &str| part_group(&doc, r);
     // IEC 60617: an amplifier is a triangle; labelled like the other amplifiers (common
     // practice: designator and the requirement on it), U2 as well when it is there.
     let mut amps = vec!["U1"];
@@ -916,7 +918,7 @@ fn check_differential(what: &str, req: &Request, c: &Circuit, s: &Schematic, fol
     }
     for u in &amps {
         let g = group(u).unwrap_or_else(|| panic!("{what}: {u} not drawn"));
-        assert!(g.children().any(|k| k.has_tag_name("polygon") && k.attribute("points").is_some_and(|p| p.split_whitespace().count() == 3)), "{what}: {u} has no triangle");
+        assert!(is_triangle(g), "{what}: {u} has no triangle");
         assert!(words.iter().any(|w| w == u), "{what}: {u} unlabelled");
     }
     let amplifiers = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp).count();
@@ -996,14 +998,8 @@ fn check_instrumentation(what: &str, req: &Request, c: &Circuit, s: &Schematic, 
     let between = |a: &str, b: &str| c.parts.iter().find(|p| p.kind == PartKind::Resistor && p.nodes.iter().any(|n| n == a) && p.nodes.iter().any(|n| n == b));
     assert!(between("sensep", "ipp").is_some() && between("sensen", "ipn").is_some(), "{what}: no protection resistor in a leg");
     assert!(between("oa", "inp1").is_some() || between("oa", "inn1").is_some(), "{what}: U3 not fed from oa");
-    // Every part placed by role: nothing in the fallback area.
-    assert!(!words.iter().any(|t| t.starts_with("Not placed")), "{what}: a part fell back");
-    let group = |r: &str| doc.descendants().find(|n| n.has_tag_name("g") && n.attribute("class") == Some("part") && n.attribute("data-ref") == Some(r));
-    for p in &c.parts {
-        if !(p.bench && p.stage == StageRole::Supply) {
-            assert!(group(&p.reference).is_some(), "{what}: {} not drawn", p.reference);
-        }
-    }
+    placed_by_role(what, &doc, &words, c);
+    let group = |r: &str| part_group(&doc, r);
     // IEC 60617: an amplifier is a triangle; each labelled (common practice: designator).
     let span = |r: &str| {
         let pts = group_points(group(r).unwrap_or_else(|| panic!("{what}: {r} not drawn")));
@@ -1011,7 +1007,7 @@ fn check_instrumentation(what: &str, req: &Request, c: &Circuit, s: &Schematic, 
     };
     for u in ["U1", "U2", "U3"] {
         let g = group(u).unwrap();
-        assert!(g.children().any(|k| k.has_tag_name("polygon") && k.attribute("points").is_some_and(|p| p.split_whitespace().count() == 3)), "{what}: {u} has no triangle");
+        assert!(is_triangle(g), "{what}: {u} has no triangle");
         assert!(words.iter().any(|w| w == u), "{what}: {u} unlabelled");
     }
     // The three-amplifier arrangement (common practice): U1 above U2 in one column; R_G
