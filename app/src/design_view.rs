@@ -259,7 +259,7 @@ fn mapping_node(s: &Shown) -> Node {
         .attr("data-testid", "mapping")
         .child(table("map-table", "", &["", "Sensor", "Converter input"], rows))
         .child(el_c("dl", "mapping").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
-    if let Some(l) = &s.design.current_loop {
+    if let Some(l) = &s.design.current_loop() {
         let rows = l.bands.iter().map(|b| {
             let (i, v, code) = (format(b.current, Quantity::Current), volts(b.output), b.code.to_string());
             row(&[("", &b.label), ("num", &i), ("num", &v), ("num", &code)])
@@ -268,7 +268,7 @@ fn mapping_node(s: &Shown) -> Node {
             .child(el("h4").text(&format!("Loop: shunt {} = {}", l.shunt_ref, format(l.shunt, Quantity::Resistance))))
             .child(table("loop-bands", "loop-bands", &["Loop state", "Current", "Converter input", "Code"], rows));
     }
-    if let Some(b) = &s.design.high_impedance {
+    if let Some(b) = &s.design.high_impedance() {
         let hz = |f: f64| format(f, Quantity::Frequency);
         let mut facts = vec![("Sensor return at", volts(b.return_level)), ("Offset from the bias current", volts(b.bias_error))];
         if let Some(r) = b.bias_resistor {
@@ -284,7 +284,7 @@ fn mapping_node(s: &Shown) -> Node {
             .child(el("h4").text("Input follower U1"))
             .child(el_c("dl", "mapping").attr("data-testid", "buffer").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
     }
-    if let Some(ia) = &s.design.instrumentation {
+    if let Some(ia) = &s.design.instrumentation() {
         let mut facts = Vec::new();
         match (ia.feedback, ia.gain_resistor) {
             (Some(r_f), Some(r_g)) => {
@@ -302,7 +302,7 @@ fn mapping_node(s: &Shown) -> Node {
             .child(el_c("p", "block-note").text(&format!("Chosen for {}.", ia.reason)))
             .child(el_c("dl", "mapping").attr("data-testid", "instrumentation").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
     }
-    if let Some(dd) = &s.design.differential {
+    if let Some(dd) = &s.design.differential() {
         let facts = [
             ("R1 = R3", format(dd.r1, Quantity::Resistance)),
             ("R2 = R4", format(dd.r2, Quantity::Resistance)),
@@ -312,10 +312,10 @@ fn mapping_node(s: &Shown) -> Node {
             ("Output shift over the common-mode range", volts(dd.cm_error)),
         ];
         out = out
-            .child(el("h4").text(if s.design.instrumentation.is_some() { "Instrumentation amplifier: difference stage" } else { "Difference amplifier" }))
+            .child(el("h4").text(if s.design.instrumentation().is_some() { "Instrumentation amplifier: difference stage" } else { "Difference amplifier" }))
             .child(el_c("dl", "mapping").attr("data-testid", "differential").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
     }
-    if let Some(t) = &s.design.photodiode {
+    if let Some(t) = &s.design.photodiode() {
         let facts = [
             ("Feedback R_f", format(t.feedback_resistor, Quantity::Resistance)),
             ("Feedback C_f", format(t.feedback_capacitor, Quantity::Capacitance)),

@@ -91,7 +91,7 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
             }
             if cmd == "scaling" {
                 if let Some(sc) = &d.scaling {
-                    return ok(if flags.contains(&"--c") { crate::scaling::c_header(&d, sc) } else { serde_json::to_string_pretty(sc).unwrap_or_default() + "\n" });
+                    return ok(if flags.contains(&"--c") { crate::scaling::c_header(&d.request, sc) } else { serde_json::to_string_pretty(sc).unwrap_or_default() + "\n" });
                 }
             }
             if cmd == "report" {

@@ -1,8 +1,8 @@
 //! Rangefit engine: designs the analog interface between a sensor and an ADC input.
 //!
 //! The pipeline reads top-down in the module tree:
-//! [`units`] → [`values`] → [`diag`] → [`request`] → [`amplifier`] → [`synth`] → [`circuit`] →
-//! [`solve`] → [`analysis`] → [`design`] (checks and the design result) → [`netlist`], [`bom`], [`scaling`], [`share`], [`draw`], [`report`] (exports) →
+//! [`units`] → [`figures`] → [`values`] → [`diag`] → [`request`] → [`amplifier`] → [`synth`] → [`circuit`] →
+//! [`solve`] → [`predict`] → [`analysis`] → [`design`] (checks and the design result) → [`netlist`], [`bom`], [`scaling`], [`share`], [`draw`], [`report`] (exports) →
 //! [`cli`] (the `rangefit` command). [`order`] is a shared stable sort the others use.
 //!
 //! The engine knows nothing of browsers, the DOM or storage; it builds for the host and
@@ -10,6 +10,7 @@
 //! that synthesis produces.
 
 pub mod units;
+pub mod figures;
 pub mod values;
 pub mod diag;
 pub mod request;
@@ -17,6 +18,7 @@ pub mod amplifier;
 pub mod synth;
 pub mod circuit;
 pub mod solve;
+pub mod predict;
 pub mod analysis;
 pub mod design;
 pub mod draw;

@@ -13,7 +13,7 @@ use crate::diag::Severity;
 use crate::draw::schematic::{self, SchematicConfig};
 use crate::draw::svg::escape;
 use crate::request::Coupling;
-use crate::synth::filter::sections::SectionKind;
+use crate::figures::Block;
 use crate::units::{format, Quantity};
 
 /// Options of the report.
@@ -53,9 +53,7 @@ pub fn report_with(d: &Design, cfg: &ReportConfig) -> String {
     }
     checks(&mut h, d);
     mapping(&mut h, d);
-    current_loop(&mut h, d);
-    front_end(&mut h, d);
-    filter_and_drive(&mut h, d);
+    figures(&mut h, d);
     if cfg.plots {
         plots(&mut h, d);
     }
@@ -71,7 +69,7 @@ pub fn report_with(d: &Design, cfg: &ReportConfig) -> String {
 
 const CSS: &str = "
 body{font:14px/1.45 system-ui,-apple-system,'Segoe UI',sans-serif;color:#1b1f24;max-width:1100px;margin:24px auto;padding:0 16px}
-h1{font-size:24px;margin:0}h2{font-size:17px;border-bottom:2px solid #1f6f5c;padding-bottom:3px;margin:26px 0 10px}
+h1{font-size:24px;margin:0}h3{font-size:14px;margin:14px 0 4px}h2{font-size:17px;border-bottom:2px solid #1f6f5c;padding-bottom:3px;margin:26px 0 10px}
 .sub{color:#555;margin:2px 0}.notes{font-style:italic}
 table{border-collapse:collapse;width:100%;font-size:13px}th,td{border-bottom:1px solid #ddd;padding:4px 6px;text-align:left;vertical-align:top}
 th{background:#f2f4f3}td.num{text-align:right;font-variant-numeric:tabular-nums}
@@ -167,121 +165,37 @@ fn checks(h: &mut String, d: &Design) {
     section(h, "Checks", &format!("<table><tr><th>Verdict</th><th>Check</th><th>Finding and what to change</th></tr>{rows}</table>"));
 }
 
-/// A current loop's shunt and where the loop's states land in converter codes.
-fn current_loop(h: &mut String, d: &Design) {
-    let Some(l) = &d.current_loop else { return };
-    let rows: String = l
-        .bands
-        .iter()
-        .map(|b| format!("<tr><td>{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td></tr>", escape(&b.label), escape(&format(b.current, Quantity::Current)), escape(&v(b.output)), b.code))
-        .collect();
-    let body = format!(
-        "<p>Shunt {} = {}: {} across it at {}, {} at the upper fault limit ({} dissipated).</p><table><tr><th>Loop state</th><th>Current</th><th>Converter input</th><th>Code</th></tr>{rows}</table>",
-        escape(&l.shunt_ref),
-        escape(&format(l.shunt, Quantity::Resistance)),
-        escape(&v(l.burden_at_max)),
-        escape(&format(d.request.source.max, Quantity::Current)),
-        escape(&v(l.burden_at_fault_high)),
-        escape(&format(l.power_at_fault_high, Quantity::Power))
-    );
-    section(h, "Current loop", &body);
-}
-
-/// The sensor's front end: the follower, the transimpedance stage, the instrumentation
-/// amplifier's first stage, the difference stage and the bridge, as the design holds them.
-fn front_end(h: &mut String, d: &Design) {
-    let r = |x: f64| format(x, Quantity::Resistance);
-    let mut rows: Vec<(&str, String)> = Vec::new();
-    if let Some(b) = &d.high_impedance {
-        rows.push(("Follower input offset from the bias current", v(b.bias_error)));
-        if let Some(rb) = b.bias_resistor {
-            rows.push(("Bias resistor", format!("{} to {}", r(rb), v(b.return_level))));
-        }
-        if let Some(f) = b.low_corner.or(b.input_corner) {
-            rows.push(("Corner set at the input", hz(f)));
-        }
+/// The figures of the sensor's front end, and of the filter and the converter drive, as
+/// the design holds them ([`crate::figures`]): one table of rows per block, and its table.
+fn figures(h: &mut String, d: &Design) {
+    let f = &d.figures;
+    if !f.front.is_empty() {
+        section(h, &f.front_section, &blocks(&f.front));
     }
-    if let Some(t) = &d.photodiode {
-        rows.push(("Transimpedance R_f ∥ C_f", format!("{} ∥ {}", r(t.feedback_resistor), format(t.feedback_capacitor, Quantity::Capacitance))));
-        rows.push(("Diode bias; stage bandwidth (−3 dB)", format!("{}; {}", v(t.bias), hz(t.bandwidth))));
-        rows.push(("Dark-current offset", v(t.dark_offset)));
-    }
-    if let Some(b) = &d.bridge {
-        rows.push(("Bridge excitation current; power per arm", format!("{}; {}", format(b.excitation_current, Quantity::Current), format(b.arm_power, Quantity::Power))));
-        rows.push(("Bridge zero balance at its output", format!("± {}", v(b.zero_offset))));
-    }
-    if let Some(ia) = &d.instrumentation {
-        rows.push(("Instrumentation amplifier chosen for", ia.reason.clone()));
-        rows.push(("First stage R_F, R_G; gain", match (ia.feedback, ia.gain_resistor) {
-            (Some(f), Some(g)) => format!("{}, {}; {:.3} (swing allows {:.1})", r(f), r(g), ia.first_gain, ia.first_gain_limit),
-            _ => format!("followers; 1 (swing allows {:.1})", ia.first_gain_limit),
-        }));
-        rows.push(("First-stage outputs", format!("{} … {}", v(ia.output_range.0), v(ia.output_range.1))));
-        rows.push(("Protection resistor per leg; fault tolerated beyond a rail", format!("{}; {}", r(ia.protection), v(ia.fault_beyond_rail))));
-    }
-    if let Some(dd) = &d.differential {
-        rows.push(("Difference stage R1 = R3, R2 = R4; reference pin", format!("{}, {}; {}", r(dd.r1), r(dd.r2), v(dd.reference))));
-        rows.push(("CMRR worst case; 99.9 % of builds exceed", format!("{:.1} dB; {}", dd.cmrr_worst_db, dd.cmrr_monte_carlo_db.map_or("—".to_string(), |x| format!("{x:.1} dB")))));
-    }
-    if !rows.is_empty() {
-        section(h, "Sensor front end", &kv(&rows));
+    if !f.chain.is_empty() {
+        section(h, "Anti-alias filter and converter drive", &blocks(&f.chain));
     }
 }
 
-/// The anti-alias filter (sections as designed and as rounded) and the converter drive.
-fn filter_and_drive(h: &mut String, d: &Design) {
+fn blocks(list: &[Block]) -> String {
     let mut body = String::new();
-    let alias = d.analysis.as_ref().and_then(|a| a.alias);
-    if let Some(f) = &d.filter {
-        let rows: String = f
-            .sections
-            .iter()
-            .enumerate()
-            .map(|(k, s)| {
-                let kind = match s.kind {
-                    SectionKind::FirstOrder if s.in_gain_stage => "first order, in the gain stage",
-                    SectionKind::FirstOrder => "first order",
-                    SectionKind::SallenKey => "Sallen-Key",
-                    SectionKind::MultipleFeedback => "multiple feedback",
-                };
-                let q = |x: f64| if s.kind == SectionKind::FirstOrder { "—".to_string() } else { format!("{x:.4}") };
-                format!(
-                    "<tr><td>{}</td><td>{kind}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{:+.2} %</td></tr>",
-                    k + 1, escape(&hz(s.f_n)), q(s.q), escape(&hz(s.f_n_rounded)), q(s.q_rounded), 100.0 * s.f_n_error
-                )
-            })
-            .collect();
-        body.push_str(&format!(
-            "<p>{} low-pass of order {}, corner {}.</p><table><tr><th>Section</th><th>Kind</th><th>f_n wanted</th><th>Q wanted</th><th>f_n rounded</th><th>Q rounded</th><th>f_n change</th></tr>{rows}</table>",
-            escape(f.response.name()), f.order, escape(&hz(f.corner))
-        ));
-    }
-    if let Some(a) = alias {
-        body.push_str(&kv(&[
-            ("First alias frequency", hz(a.frequency)),
-            ("Rejection required there", format!("{:.1} dB", a.required_db)),
-            ("Rejection of the rounded circuit", format!("{:.1} dB", a.achieved_db)),
-        ]));
-    }
-    if let Some(dr) = &d.drive {
-        let mut rows = vec![("Drive resistor", format(dr.resistor, Quantity::Resistance))];
-        if let Some(c) = dr.capacitor {
-            rows.push(("Charge bucket", format(c, Quantity::Capacitance)));
+    for b in list {
+        body.push_str(&format!("<h3>{}</h3>", escape(&b.title)));
+        let rows: Vec<(&str, String)> = b.rows.iter().map(|r| (r.label.as_str(), r.text.clone())).collect();
+        if !rows.is_empty() {
+            body.push_str(&kv(&rows));
         }
-        if let Some(t) = dr.settling_time {
-            rows.push(("Settling to ½ LSB", format!("{} of {} acquisition time", format(t, Quantity::Time), format(dr.acquisition_time, Quantity::Time))));
+        if let Some(t) = &b.table {
+            let head: String = t.header.iter().map(|c| format!("<th>{}</th>", escape(c))).collect();
+            let cell = |k: usize, c: &String| {
+                let class = if t.numeric.get(k).copied().unwrap_or(false) { " class=\"num\"" } else { "" };
+                format!("<td{class}>{}</td>", escape(c))
+            };
+            let rows: String = t.rows.iter().map(|r| format!("<tr>{}</tr>", r.iter().enumerate().map(|(k, c)| cell(k, c)).collect::<String>())).collect();
+            body.push_str(&format!("<table><tr>{head}</tr>{rows}</table>"));
         }
-        if dr.fault_current > 0.0 {
-            rows.push(("Fault current into the pin", format!("{} (limit {})", format(dr.fault_current, Quantity::Current), format(dr.injection_limit, Quantity::Current))));
-        }
-        if dr.clamp_to_ground {
-            rows.push(("Clamp", "Schottky from ground".to_string()));
-        }
-        body.push_str(&kv(&rows));
     }
-    if !body.is_empty() {
-        section(h, "Anti-alias filter and converter drive", &body);
-    }
+    body
 }
 
 fn mapping(h: &mut String, d: &Design) {

@@ -17,8 +17,9 @@
 
 use serde::Serialize;
 
-use crate::design::Design;
-use crate::request::Coupling;
+use crate::analysis::Analysis;
+use crate::predict::Predicted;
+use crate::request::{Coupling, Request};
 
 /// Scaling of one quantity: `value = (code − c0) × k`.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -56,9 +57,7 @@ pub struct Scaling {
 }
 
 /// The scaling of a design, when it has a prediction.
-pub fn scaling(d: &Design) -> Option<Scaling> {
-    let p = d.predicted?;
-    let req = &d.request;
+pub fn scaling(req: &Request, p: &Predicted, analysis: Option<&Analysis>) -> Option<Scaling> {
     let dst = &req.destination;
     let s = &req.source;
     let bits = dst.bits;
@@ -102,7 +101,7 @@ pub fn scaling(d: &Design) -> Option<Scaling> {
             resolution: kq.abs(),
         }
     });
-    let (uncal, noise) = match &d.analysis {
+    let (uncal, noise) = match analysis {
         Some(a) => {
             let wc = &a.tolerance.worst_case;
             let e_min = (wc.output_at_min[0] - p.output_at_min).abs().max((wc.output_at_min[1] - p.output_at_min).abs());
@@ -122,13 +121,13 @@ pub fn scaling(d: &Design) -> Option<Scaling> {
 }
 
 /// A C header with plain `#define`s for the firmware.
-pub fn c_header(d: &Design, sc: &Scaling) -> String {
+pub fn c_header(req: &Request, sc: &Scaling) -> String {
     let guard = "RANGEFIT_SCALING_H";
-    let name = comment_safe(&d.name);
+    let name = comment_safe(&req.name);
     let mut out = format!(
         "/* Converter code to sensor quantity: value = (code - C0) * K.\n * Design: {name}\n * Produced by rangefit-engine {} from a version-{} request.\n * Calibrate by measuring two known inputs and replacing C0 and K. */\n#ifndef {guard}\n#define {guard}\n\n",
         env!("CARGO_PKG_VERSION"),
-        d.request.version
+        req.version
     );
     out.push_str(&format!("#define RANGEFIT_BITS {}\n#define RANGEFIT_LSB_VOLTS {:e}\n", sc.bits, sc.lsb));
     let mut block = |prefix: &str, l: &Linear| {

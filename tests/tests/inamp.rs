@@ -13,7 +13,7 @@ use rangefit_engine::circuit::Circuit;
 use rangefit_engine::diag::Severity;
 use rangefit_engine::netlist::{netlist, NetlistConfig};
 use rangefit_engine::solve::Solver;
-use rangefit_engine::synth::inamp;
+use rangefit_engine::synth::front::instrumentation as inamp;
 use rangefit_engine::{design, Design, Request};
 use rangefit_tests::run_ngspice;
 
@@ -64,8 +64,8 @@ fn the_gain_follows_the_three_amplifier_formula() {
     let d = design(&req);
     let errors: Vec<&str> = d.checks.iter().filter(|c| c.severity == Severity::Error).map(|c| c.message.as_str()).collect();
     rows.push(fact(format!("probe: no error checks {errors:?}"), errors.is_empty(), "design contract"));
-    let ia = d.instrumentation.as_ref().expect("instrumentation amplifier");
-    let dd = d.differential.as_ref().expect("difference stage");
+    let ia = d.instrumentation().expect("instrumentation amplifier");
+    let dd = d.differential().expect("difference stage");
     let c = d.circuit.as_ref().expect("circuit").clone();
     let (r_f, r_g) = (ia.feedback.expect("R_F"), ia.gain_resistor.expect("R_G"));
     rows.push(row("probe: G1 = 1 + 2R_F/R_G from the parts", ia.first_gain, 1.0 + 2.0 * r_f / r_g, 1e-12, REF));
@@ -104,8 +104,8 @@ fn common_mode_rejection_follows_the_tolerance_rule() {
     let mut rows = Vec::new();
     let req = request(PROBE);
     let d = design(&req);
-    let ia = d.instrumentation.as_ref().expect("instrumentation amplifier");
-    let dd = d.differential.as_ref().expect("difference stage");
+    let ia = d.instrumentation().expect("instrumentation amplifier");
+    let dd = d.differential().expect("difference stage");
     let t = req.parts.resistor_tolerance;
     rows.push(row("whole-amplifier rule", dd.cmrr_worst_db, inamp::cmrr_worst_db(ia.first_gain, dd.gain, t), 1e-9, KC));
     rows.push(row("rule: G1 10, G2 1, 1 % → 20·log10(10·2/0.04)", inamp::cmrr_worst_db(10.0, 1.0, 0.01), 20.0 * (10.0f64 * 2.0 / 0.04).log10(), 1e-9, KC));
@@ -135,7 +135,7 @@ fn common_mode_rejection_follows_the_tolerance_rule() {
     let mc = dd.cmrr_monte_carlo_db.expect("Monte Carlo CMRR");
     rows.push(fact(format!("probe: Monte Carlo quantile {mc:.2} dB ≥ worst case {:.2} dB", dd.cmrr_worst_db), mc >= dd.cmrr_worst_db - 1e-6, "the worst case bounds every build"));
     // The first stage adds 20·log10(G1) over a difference amplifier alone with the same G2.
-    rows.push(row("probe: gain of the rule over the difference stage alone", dd.cmrr_worst_db - rangefit_engine::synth::diffamp::cmrr_worst_db(dd.gain, t), 20.0 * ia.first_gain.log10(), 1e-9, KC));
+    rows.push(row("probe: gain of the rule over the difference stage alone", dd.cmrr_worst_db - rangefit_engine::synth::front::difference::cmrr_worst_db(dd.gain, t), 20.0 * ia.first_gain.log10(), 1e-9, KC));
     check(&rows);
 }
 
@@ -148,7 +148,7 @@ fn protection_resistors_follow_the_noise_rule() {
     for (tag, json) in [("probe", PROBE.to_string()), ("probe on 12 V", PROBE.replace(r#""supplies": [3.3]"#, r#""supplies": [12]"#))] {
         let req = request(&json);
         let d = design(&req);
-        let ia = d.instrumentation.as_ref().expect("instrumentation amplifier");
+        let ia = d.instrumentation().expect("instrumentation amplifier");
         let e_n = d.amplifier.noise_voltage;
         let kt4 = 4.0 * 1.380649e-23 * req.analysis.temperature;
         rows.push(row(format!("{tag}: R_P noise density"), ia.protection_noise, (kt4 * ia.protection).sqrt(), 1e-15, JN));
@@ -174,7 +174,7 @@ fn the_front_end_is_chosen_and_read_by_name() {
             r#"{{"source": {{"kind": "differential", "min": "{min}", "max": "{max}", "common_mode_min": 2, "common_mode_max": 3, "impedance": "{imp}", "band_high": 5{front}}}, "destination": {{"min": 0, "max": 3.3, "sample_rate": 100}}, "supplies": [5]}}"#
         )))
     };
-    let has = |d: &Design| d.instrumentation.is_some();
+    let has = |d: &Design| d.instrumentation().is_some();
     rows.push(fact("auto, gain about 1, 200 Ω legs: difference amplifier", !has(&pair("-1.5", "1.5", "200", "")), "rule: in-amp above gain 10 or for legs the difference amplifier would load"));
     rows.push(fact("auto, gain about 33: instrumentation amplifier", has(&pair("-50m", "50m", "200", "")), "rule: gain above 10"));
     rows.push(fact("auto, 100 kΩ legs: instrumentation amplifier", has(&pair("-1.5", "1.5", "100k", "")), "rule: 100 × legs' impedance beyond the resistor window"));
@@ -185,7 +185,7 @@ fn the_front_end_is_chosen_and_read_by_name() {
     rows.push(fact("bridge, difference requested: difference amplifier", !has(&bridge(r#", "front_end": "difference""#)), "request contract"));
     // Gain 1 wanted with the instrumentation amplifier: two followers (no R_G).
     let d = pair("-1.5", "1.5", "200", "instrumentation");
-    let ia = d.instrumentation.as_ref().expect("in-amp");
+    let ia = d.instrumentation().expect("in-amp");
     rows.push(fact(format!("gain about 1: followers (G1 {})", ia.first_gain), ia.gain_resistor.is_none() && ia.first_gain == 1.0, "G = 1 + 2R_F/R_G with R_G open"));
     let base = |source: &str| format!(r#"{{"source": {source}, "destination": {{"min": 0, "max": 3.3, "sample_rate": 100}}, "supplies": [5]}}"#);
     for (source, field) in [(r#"{"min": 0, "max": 1, "front_end": "instrumentation"}"#, "source.front_end"), (r#"{"kind": "differential", "min": 0, "max": 1, "front_end": "triple"}"#, "source.front_end")] {
@@ -225,7 +225,7 @@ fn random_instrumentation_front_ends_map_as_predicted() {
             )
         };
         let d = design(&request(&json));
-        let (Some(p), Some(c), Some(ia)) = (d.predicted, d.circuit.as_ref(), d.instrumentation.as_ref()) else { continue };
+        let (Some(p), Some(c), Some(ia)) = (d.predicted, d.circuit.as_ref(), d.instrumentation()) else { continue };
         simulated += 1;
         let src = &d.request.source;
         let vcm = c.part("VCM").map_or(0.0, |p| p.value);

@@ -423,7 +423,7 @@ fn converter_figures_are_consistent_and_demos_finite() {
             row(format!("{id}: contributors"), a.contributors.len() as f64, (resistors + 2 * amplifiers) as f64, 0.0, 0.0, "every resistor and each amplifier's two sources"),
             // The sensor's own resistance: RSENSE for voltage kinds; a loop's shunt is a part.
             // (a photodiode has none: its current source and capacitance are noiseless here).
-            row(format!("{id}: sensor resistance listed"), if req.source.current_loop.is_some() { has(&d.current_loop.as_ref().map_or(String::new(), |l| l.shunt_ref.clone())) } else if d.photodiode.is_some() { 1.0 } else if d.differential.is_some() { has("RSENSEP") * has("RSENSEN") } else { has("RSENSE") }, 1.0, 0.0, 0.0, "API"),
+            row(format!("{id}: sensor resistance listed"), if req.source.current_loop.is_some() { has(&d.current_loop().map_or(String::new(), |l| l.shunt_ref.clone())) } else if d.photodiode().is_some() { 1.0 } else if d.differential().is_some() { has("RSENSEP") * has("RSENSEN") } else { has("RSENSE") }, 1.0, 0.0, 0.0, "API"),
             row(format!("{id}: RADC listed"), has("RADC"), 1.0, 0.0, 0.0, "API"),
             row(format!("{id}: U1 voltage noise listed"), has("U1 voltage noise"), 1.0, 0.0, 0.0, "API"),
             row(format!("{id}: U1 current noise listed"), has("U1 current noise"), 1.0, 0.0, 0.0, "API"),

@@ -28,7 +28,7 @@ use rangefit_engine::draw::plot::{self, PlotConfig};
 use rangefit_engine::draw::schematic::{self, SchematicConfig};
 use rangefit_engine::report::report;
 use rangefit_engine::request::Coupling;
-use rangefit_engine::scaling::{c_header, scaling};
+use rangefit_engine::scaling::c_header;
 use rangefit_engine::solve::Solver;
 use rangefit_engine::{cli, demos, design, Design, Request};
 use serde_json::{json, Value};
@@ -704,20 +704,20 @@ fn check_report(f: &mut Fails, id: &str, d: &Design) {
     let front = section(&doc, "Sensor front end").map(rows_of).unwrap_or_default().iter().map(|c| c.join(" | ")).collect::<Vec<_>>().join("\n");
     let fmt_r = |x: f64| rangefit_engine::units::format(x, rangefit_engine::units::Quantity::Resistance);
     let mut wanted: Vec<String> = Vec::new();
-    if let Some(ia) = &d.instrumentation {
+    if let Some(ia) = &d.instrumentation() {
         wanted.extend([ia.feedback, ia.gain_resistor, Some(ia.protection)].into_iter().flatten().map(fmt_r));
         wanted.push(ia.reason.clone());
     }
-    if let Some(dd) = &d.differential {
+    if let Some(dd) = &d.differential() {
         wanted.extend([fmt_r(dd.r1), fmt_r(dd.r2), format!("{:.1} dB", dd.cmrr_worst_db)]);
     }
-    if let Some(t) = &d.photodiode {
+    if let Some(t) = &d.photodiode() {
         wanted.push(fmt_r(t.feedback_resistor));
     }
-    if let Some(b) = &d.high_impedance {
+    if let Some(b) = &d.high_impedance() {
         wanted.extend(b.bias_resistor.map(fmt_r));
     }
-    let has_front = d.instrumentation.is_some() || d.differential.is_some() || d.photodiode.is_some() || d.high_impedance.is_some() || d.bridge.is_some();
+    let has_front = d.instrumentation().is_some() || d.differential().is_some() || d.photodiode().is_some() || d.high_impedance().is_some() || d.bridge().is_some();
     f.expect("report", &format!("{id}: a Sensor front end section exactly when the design has a front end"), has_front == !front.is_empty(), &front);
     for w in wanted {
         f.expect("report", &format!("{id}: front end shows {w}"), front.contains(&w), &front);
@@ -797,7 +797,7 @@ fn report_escapes_request_text() {
 /// resolution step, and the codes are where the design's predicted output lands on an
 /// ideal straight-binary converter (code c ↔ min + c·span/2^bits).
 fn check_scaling(f: &mut Fails, id: &str, d: &Design) {
-    let Some(sc) = scaling(d) else {
+    let Some(sc) = d.scaling.clone() else {
         f.expect("own scenario", &format!("{id}: has a scaling"), false, "none");
         return;
     };
@@ -845,7 +845,7 @@ fn scaling_reproduces_the_sensor_extremes() {
         }
     }
     // The vineyard transmitter: 0 … 600 kPa in that unit.
-    let sc = scaling(designed("vineyard")).expect("vineyard scaling");
+    let sc = designed("vineyard").scaling.clone().expect("vineyard scaling");
     let q = sc.measurand.expect("vineyard measurand");
     f.expect("own scenario", "vineyard: measurand in kPa", q.unit == "kPa" && q.at_min == 0.0 && q.at_max == 600.0, (&q.unit, q.at_min, q.at_max));
     f.finish();
@@ -885,7 +885,7 @@ fn check_c_header(f: &mut Fails, what: &str, d: &Design) {
         f.expect("own scenario", &format!("{what}: has a scaling"), false, "none");
         return;
     };
-    let header = c_header(d, sc);
+    let header = c_header(&d.request, sc);
     let dir = scratch(what);
     std::fs::write(dir.join("rangefit_scaling.h"), &header).expect("write header");
     std::fs::write(dir.join("main.c"), C_PROGRAM).expect("write program");

@@ -477,7 +477,7 @@ fn test_points_follow_the_solver() {
             assert!(tps[0].max - tps[0].min < 0.01 * swing, "{}: TP1 span {} vs U1's output swing {swing}", demo.id, tps[0].max - tps[0].min);
             continue;
         }
-        let span = (req.source.max - req.source.min) * d.current_loop.as_ref().map_or(1.0, |l| l.shunt);
+        let span = (req.source.max - req.source.min) * d.current_loop().map_or(1.0, |l| l.shunt);
         assert!((tps[0].max - tps[0].min - span).abs() < 0.05 * span, "{}: TP1 span {} vs sensor span {span}", demo.id, tps[0].max - tps[0].min);
     }
 }
@@ -1086,7 +1086,7 @@ fn random_instrumentation_front_ends_draw_cleanly() {
         };
         let req = Request::from_json(&json).unwrap_or_else(|e| panic!("{e}\n{json}"));
         let d = design(&req);
-        let (Some(c), Some(ia)) = (d.circuit.clone(), d.instrumentation.as_ref()) else { continue };
+        let (Some(c), Some(ia)) = (d.circuit.clone(), d.instrumentation()) else { continue };
         drawn += 1;
         let what = format!("{} (G1 {:.2}, rails {supplies})", req.name, ia.first_gain);
         let s = draw(&req, &c, &what);

@@ -48,7 +48,7 @@ fn the_shunt_follows_the_burden_and_the_series() {
         (&TANK.replace("\"3 V\"", "\"5.5 V\"").replace("E96", "E24") as &str, 240.0, "IEC 60063 E24: 5.5 V / 21 mA = 261.9 Ω → 240 Ω"),
     ] {
         let d = design(&request(json));
-        let l = d.current_loop.as_ref().expect("a loop design");
+        let l = d.current_loop().expect("a loop design");
         rows.push(row(format!("shunt for {src}"), l.shunt, want, 1e-9, src));
         let shunt = d.circuit.as_ref().and_then(|c| c.part(&l.shunt_ref)).expect("shunt part");
         rows.push(fact(format!("{src}: the shunt is a part from sense to ground in the shunt stage"), shunt.kind == PartKind::Resistor && !shunt.bench && shunt.stage == StageRole::Shunt && shunt.nodes == ["sense", "0"], "design contract"));
@@ -70,7 +70,7 @@ fn loop_states_land_where_ngspice_puts_them() {
     let errors: Vec<&str> = d.checks.iter().filter(|c| c.severity == Severity::Error).map(|c| c.message.as_str()).collect();
     let mut rows = vec![fact(format!("no error checks {errors:?}"), errors.is_empty(), "design contract")];
     let p = d.predicted.expect("predicted");
-    let l = d.current_loop.as_ref().expect("loop");
+    let l = d.current_loop().expect("loop");
     let span = 3.3;
     let currents: Vec<f64> = l.bands.iter().map(|b| b.current).collect();
     let spice = spice_outputs("tank", &d, &[4e-3, 20e-3]);
@@ -200,7 +200,7 @@ fn the_buffer_follows_the_rules_and_ngspice() {
     let mut rows = Vec::new();
     // DC: an electrode that swings below ground, on split rails the follower can follow.
     let d = design(&request(PH));
-    let b = d.high_impedance.as_ref().expect("buffer design");
+    let b = d.high_impedance().expect("buffer design");
     let amp = &d.amplifier;
     rows.push(fact("pH: the follower passes the range on ±2.5 V", b.follows, "design contract"));
     // On a single 3.3 V rail it cannot: an error check, not a clipped design presented as good.
@@ -218,7 +218,7 @@ fn the_buffer_follows_the_rules_and_ngspice() {
     rows.push(row("pH: output at max", p.output_at_max, spice[1], 1e-4 * 2.5, SRC));
     // AC: a piezo film behind 1.5 nF, bias resistor from the band_low/10 rule (IEC 60063 E24).
     let d = design(&request(FILM));
-    let b = d.high_impedance.as_ref().expect("buffer design");
+    let b = d.high_impedance().expect("buffer design");
     // R_b ∥ R_s ≥ 10/(2π C_s band_low): R_b ≥ want·R_s/(R_s − want), then E24 upwards.
     let want = 10.0 / (2.0 * PI * 1.5e-9 * 2.0);
     let need = want * 10e9 / (10e9 - want);
@@ -308,7 +308,7 @@ const LIGHT: &str = r#"{"name": "Orchard frost-night light sensor", "source": {"
 
 #[test]
 fn the_transimpedance_stage_follows_the_model_and_ngspice() {
-    use rangefit_engine::synth::tia;
+    use rangefit_engine::synth::front::transimpedance as tia;
     const SRC: &str = "ngspice (Debian ngspice-39) on the exported netlist";
     const REF: &str = "references.md: single-pole transimpedance model, 1 MΩ, 10 pF, 10 MHz (Graeme, Photodiode Amplifiers, 1996, from memory for the book; values re-checked by nodal analysis)";
     let mut rows = vec![
@@ -319,7 +319,7 @@ fn the_transimpedance_stage_follows_the_model_and_ngspice() {
     let d = design(&request(LIGHT));
     let errors: Vec<&str> = d.checks.iter().filter(|c| c.severity == Severity::Error).map(|c| c.message.as_str()).collect();
     rows.push(fact(format!("light: no error checks {errors:?}"), errors.is_empty(), "design contract"));
-    let t = d.photodiode.as_ref().expect("transimpedance design");
+    let t = d.photodiode().expect("transimpedance design");
     let c = d.circuit.as_ref().expect("circuit");
     let u1 = c.part("U1").expect("U1");
     rows.push(fact("light: U1's − input holds the diode's cathode, its output is tia", u1.stage == StageRole::Transimpedance && u1.nodes[1] == "sense" && u1.nodes[4] == "tia", "design contract"));
@@ -395,7 +395,8 @@ const PAIR: &str = r#"{"name": "Kiln draught differential sensor", "source": {"k
 
 #[test]
 fn the_difference_amplifier_follows_the_references_and_ngspice() {
-    use rangefit_engine::synth::diffamp;
+    use rangefit_engine::synth::front::difference as diffamp;
+    use rangefit_engine::analysis::cmrr;
     use rangefit_engine::solve::Solver;
     const SRC: &str = "ngspice (Debian ngspice-39) operating point of the exported netlist";
     // references.md: worst-case CMRR (1 + G)/(4t), G = 1, 1 % → 33.98 dB (Kitchin & Counts,
@@ -405,7 +406,7 @@ fn the_difference_amplifier_follows_the_references_and_ngspice() {
     let d = design(&req);
     let errors: Vec<&str> = d.checks.iter().filter(|c| c.severity == Severity::Error).map(|c| c.message.as_str()).collect();
     rows.push(fact(format!("pair: no error checks {errors:?}"), errors.is_empty(), "design contract"));
-    let dd = d.differential.as_ref().expect("difference amplifier design");
+    let dd = d.differential().expect("difference amplifier design");
     // The gain from the parts: R2/(R1 + R_s) (references.md, difference amplifier).
     rows.push(row("pair: gain R2/(R1 + R_s)", dd.gain, dd.r2 / (dd.r1 + 200.0), 1e-12, "references.md: difference amplifier"));
     let c = d.circuit.as_ref().expect("circuit").clone();
@@ -436,7 +437,7 @@ fn the_difference_amplifier_follows_the_references_and_ngspice() {
     let mc = dd.cmrr_monte_carlo_db.expect("Monte Carlo CMRR");
     rows.push(fact(format!("pair: Monte Carlo CMRR quantile {mc:.2} dB ≥ worst case {:.2} dB", dd.cmrr_worst_db), mc >= dd.cmrr_worst_db - 1e-6, "the worst case bounds every build"));
     rows.push(fact(format!("pair: brute-force worst {worst:.2} dB ≤ Monte Carlo quantile {mc:.2} dB"), worst <= mc + 1e-6, "the corners bound the uniform draws"));
-    rows.push(row("pair: the same seed gives the same Monte Carlo CMRR", diffamp::cmrr_monte_carlo(&c, diffamp::CMRR_RUNS, req.analysis.seed).unwrap_or(f64::NAN), mc, 0.0, "seeded ChaCha8 (rand_chacha)"));
+    rows.push(row("pair: the same seed gives the same Monte Carlo CMRR", cmrr::cmrr_monte_carlo(&c, cmrr::CMRR_RUNS, req.analysis.seed).unwrap_or(f64::NAN), mc, 0.0, "seeded ChaCha8 (rand_chacha)"));
     // ngspice: the mapping at the signal's ends and the common mode's ends.
     let p = d.predicted.expect("predicted");
     let vcm = |cm: f64, v: f64| cm - 0.5 * v; // VCM holds the − leg: the pair's middle is VCM + VSENSE/2
@@ -518,7 +519,7 @@ fn bridges_follow_the_bridge_formula_and_ngspice() {
     // The worked value is given to 0.1 µV: half of that as the tolerance.
     rows.push(row("one arm, x 0.002, 5 V: full-scale output (source.max)", req.source.max, 2.4975e-3, 0.05e-6, REF));
     let d = design(&req);
-    let b = d.bridge.as_ref().expect("bridge design");
+    let b = d.bridge().expect("bridge design");
     rows.push(row("one arm: shortfall from the straight line at full scale, 2x/(4+2x)", b.nonlinearity, 0.004 / 4.004, 1e-12, REF));
     rows.push(row("excitation current V/R", b.excitation_current, 5.0 / 120.0, 1e-15, "Ohm's law"));
     rows.push(row("power per arm (V/2)²/R", b.arm_power, 2.5 * 2.5 / 120.0, 1e-15, "P = V²/R"));
@@ -537,7 +538,7 @@ fn bridges_follow_the_bridge_formula_and_ngspice() {
     rows.push(row("silo: output at 15 mV", p.output_at_max, spice[1], 1e-4 * 3.3, SRC));
     // Zero balance: ±2 % of the 15 mV full scale by default (common practice for load cells),
     // times the stage's gain at the output.
-    let b = d.bridge.as_ref().expect("bridge");
+    let b = d.bridge().expect("bridge");
     rows.push(row("silo: zero balance at the bridge, 2 % of 15 mV", b.zero_offset, 0.02 * 15e-3, 1e-15, "rangefit-engine DEFAULT_ZERO_BALANCE (common practice)"));
     let trim = d.checks.iter().find(|c| c.id == "zero_trim").expect("zero_trim check");
     rows.push(fact(format!("silo: zero_trim names the output shift: {}", trim.message), trim.message.contains(&rangefit_engine::units::format(p.gain.abs() * 0.02 * 15e-3, rangefit_engine::units::Quantity::Voltage)), "design contract"));

@@ -14,6 +14,7 @@ pub mod loading;
 pub mod response;
 pub mod alias;
 pub mod checks;
+pub mod cmrr;
 
 use crate::request::Request;
 
@@ -64,6 +65,9 @@ pub struct Analysis {
     pub loading: loading::LoadingAnalysis,
     /// Required and achieved rejection at the first frequency that folds into the band.
     pub alias: Option<alias::AliasAnalysis>,
+    /// Pairs and bridges: the common-mode rejection over seeded builds.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub cmrr: Option<cmrr::CmrrAnalysis>,
 }
 
 /// What the analyses need to know of the prediction.
@@ -104,14 +108,8 @@ pub fn analyse(
     let tolerance = tolerance::tolerance(req, circuit, &tol_cfg);
     let loading = loading::loading(req, circuit);
     let alias = alias::alias(req, circuit);
-    let a = Analysis {
-        dc,
-        ac,
-        noise,
-        tolerance,
-        loading,
-        alias,
-    };
+    let cmrr = cmrr::cmrr(circuit, cfg.seed);
+    let a = Analysis { dc, ac, noise, tolerance, loading, alias, cmrr };
     let checks = checks::checks(req, &a, nominal);
     (a, checks)
 }

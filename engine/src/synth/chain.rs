@@ -424,3 +424,9 @@ pub fn filter_checks(req: &Request, s: &Synthesis, achieved_db: Option<f64>, ban
     }
     c
 }
+
+/// The figures of the filter and the converter drive after the gain stage; `alias` is the
+/// (required, achieved) rejection the analyses found on the whole rounded circuit.
+pub fn figures(s: &Synthesis, alias: Option<(f64, f64)>) -> Vec<crate::figures::Block> {
+    s.filter.iter().map(|f| f.figures(alias)).chain(s.drive.iter().map(|d| d.figures())).collect()
+}

@@ -34,7 +34,9 @@
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
+use crate::figures::Block;
 use crate::request::Request;
+use crate::units::{format, Quantity};
 use crate::values;
 
 /// Charge-bucket capacitor at least this many times the sampling capacitance.
@@ -159,5 +161,33 @@ impl DriveDesign {
         } else {
             1.0
         }
+    }
+}
+
+impl DriveDesign {
+    /// The converter pin's figures.
+    pub fn figures(&self) -> Block {
+        let mut b = Block::new("drive", "At the converter pin").quantity("Series resistor from the last amplifier", self.resistor, Quantity::Resistance);
+        if let Some(c) = self.capacitor {
+            b = b.quantity("Charge reservoir from the pin to ground", c, Quantity::Capacitance);
+        }
+        if let Some(t) = self.settling_time {
+            let text = format!(
+                "{} of the {} acquisition time ({} time constants)",
+                format(t, Quantity::Time),
+                format(self.acquisition_time, Quantity::Time),
+                crate::figures::format_sig_fixed(self.settling_time_constants, 2)
+            );
+            b = b.text("Settling to ½ LSB", text);
+        }
+        if self.clamp_to_ground {
+            b = b.text("Clamp", "a Schottky diode from ground to the pin takes fault current below ground");
+        }
+        let fault = format!(
+            "{} (limit used {}; the converter's datasheet governs)",
+            format(self.fault_current, Quantity::Current),
+            format(self.injection_limit, Quantity::Current)
+        );
+        b.text("Fault current into the pin at most", fault)
     }
 }

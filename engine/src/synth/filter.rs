@@ -41,7 +41,9 @@ pub mod sections;
 
 use serde::Serialize;
 
+use crate::figures::Block;
 use crate::request::{FilterTopology, Request, ResponseKind};
+use crate::units::{format, Quantity};
 use crate::synth::round::RoundConfig;
 use prototype::{cascade_loss_db, prototype, Pair, Prototype};
 use sections::{realise, PartsConfig, Realised, SectionKind};
@@ -358,5 +360,48 @@ fn shortfall(req: &Request, proto: &Prototype, fa: f64, required: f64) -> Shortf
         rate_needed,
         order_with_oversampling,
         level_db_needed: reached_db - full_range_db(req.destination.bits),
+    }
+}
+
+impl FilterDesign {
+    /// The filter's figures and its sections as designed and as built; `alias` is the
+    /// (required, achieved) rejection the analyses found on the whole rounded circuit, which
+    /// replaces the sections' own figures when present.
+    pub fn figures(&self, alias: Option<(f64, f64)>) -> Block {
+        use crate::figures::{format_sig_fixed, Table};
+        let (required, achieved) = alias.unwrap_or((self.required_db, self.rounded_db));
+        let hz = |x: f64| format(x, Quantity::Frequency);
+        let rows = self
+            .sections
+            .iter()
+            .enumerate()
+            .map(|(k, s)| {
+                let kind = match s.kind {
+                    SectionKind::FirstOrder if s.in_gain_stage => "first-order pole in the gain stage",
+                    SectionKind::FirstOrder => "first-order RC and follower",
+                    SectionKind::SallenKey => "Sallen-Key",
+                    SectionKind::MultipleFeedback => "multiple feedback",
+                };
+                let q = |x: f64| if s.kind == SectionKind::FirstOrder { "—".to_string() } else { format_sig_fixed(x, 3) };
+                let change = format!("{:+.2} %", 100.0 * s.f_n_error);
+                vec![(k + 1).to_string(), kind.to_string(), hz(s.f_n), hz(s.f_n_rounded), q(s.q), q(s.q_rounded), change]
+            })
+            .collect();
+        let header = ["Section", "Built as", "f_n wanted", "f_n as built", "Q wanted", "Q as built", "f_n change"];
+        let table = Table { header: header.map(String::from).to_vec(), numeric: vec![true, false, true, true, true, true, true], rows };
+        let error = format!(
+            "{} dB of {} dB allowed",
+            format_sig_fixed(self.passband_error_db, 2),
+            format_sig_fixed(self.passband_allowed_db, 2)
+        );
+        Block::new("filter", "Anti-alias filter")
+            .text("Response", self.response.name())
+            .text("Order", self.order.to_string())
+            .quantity("Corner", self.corner, Quantity::Frequency)
+            .quantity("First frequency folding into the band", self.alias_frequency, Quantity::Frequency)
+            .decibels("Rejection needed there", Some(required))
+            .decibels("Rejection of the built filter there", Some(achieved))
+            .text("In-band error at the band's top", error)
+            .table(table)
     }
 }

@@ -19,17 +19,13 @@
 //! others, then a neighbour-step descent on the mapping error of the rounded circuit.
 
 pub mod ac;
-pub mod buffer;
 pub mod chain;
 pub mod dc;
-pub mod diffamp;
 pub mod drive;
 pub mod filter;
 pub mod front;
-pub mod inamp;
 pub mod merge;
 pub mod round;
-pub mod tia;
 
 use serde::Serialize;
 
@@ -159,7 +155,7 @@ pub fn synthesize_with_chain(req: &Request, amp: &Amplifier, rails: Rails, targe
     let reference = chain.reference(req, rails, target);
     let t = chain.gain_target(req, target, reference.as_ref());
     let mut s = match (req.source.kind, req.source.coupling) {
-        (crate::request::SourceKind::Differential, _) => diffamp::synthesize(req, amp, rails, t, limits),
+        (crate::request::SourceKind::Differential, _) => front::difference::synthesize(req, amp, rails, t, limits),
         (_, Coupling::Dc) => dc::synthesize(req, amp, rails, t, limits),
         (_, Coupling::Ac) => ac::synthesize(req, amp, rails, t, limits),
     }?;
@@ -187,54 +183,7 @@ fn bench(bld: &mut Builder, req: &Request, rails: Rails) {
     bld.bench("RADC", PartKind::Resistor, req.destination.impedance, &["adc", "0"], StageRole::Converter, "converter input impedance");
 }
 
-/// `req` with its sensor replaced by a stiff single-ended DC source spanning `min … max`:
-/// what a front end's output presents to the gain stage.
-pub(crate) fn stiff_source(req: &Request, min: f64, max: f64) -> Request {
-    let mut eq = req.clone();
-    let s = &mut eq.source;
-    s.kind = crate::request::SourceKind::SingleEnded;
-    s.coupling = Coupling::Dc;
-    (s.min, s.max) = (min, max);
-    s.impedance = 0.0;
-    s.band_low = 0.0;
-    s.capacitance = None;
-    s.dark_current = None;
-    s.measurand = None;
-    eq
-}
-
-/// Prepares a circuit synthesised for an equivalent stiff source to get a front-end
-/// amplifier as U1 (`buffer`, `tia`): drops the bench's `VSENSE`/`RSENSE`, moves every
-/// amplifier's designator up by one (in the parts and the stages), and moves the gain
-/// stage's input from the sensor terminal to `input`, the front end's output.
-pub(crate) fn make_room_in_front(circuit: &mut Circuit, input: &str) {
-    circuit.parts.retain(|p| !(p.bench && (p.reference == "VSENSE" || p.reference == "RSENSE")));
-    renumber_amplifiers(circuit, 1);
-    for p in circuit.parts.iter_mut().filter(|p| !p.bench) {
-        for n in p.nodes.iter_mut().filter(|n| *n == "sense" || *n == "emf") {
-            *n = input.to_string();
-        }
-    }
-}
-
-/// Moves every amplifier's designator up by `by` (in the parts and the stages), freeing
-/// U1 … U`by` for amplifiers put in front.
-pub(crate) fn renumber_amplifiers(circuit: &mut Circuit, by: u32) {
-    let renumber = |d: &str| match d.strip_prefix('U').and_then(|n| n.parse::<u32>().ok()) {
-        Some(n) => format!("U{}", n + by),
-        None => d.to_string(),
-    };
-    for p in circuit.parts.iter_mut().filter(|p| !p.bench && p.kind == PartKind::OpAmp) {
-        p.reference = renumber(&p.reference);
-    }
-    for st in circuit.stages.iter_mut() {
-        for d in st.parts.iter_mut() {
-            *d = renumber(d);
-        }
-    }
-}
-
 /// Wraps the built parts into the circuit model.
-fn finish(bld: Builder, stages: Vec<Stage>, amp: &Amplifier, rails: Rails) -> Circuit {
+pub(crate) fn finish(bld: Builder, stages: Vec<Stage>, amp: &Amplifier, rails: Rails) -> Circuit {
     Circuit { parts: bld.parts, stages, amplifier: amp.clone(), rail_pos: rails.pos, rail_neg: rails.neg }
 }

@@ -29,6 +29,7 @@ use crate::circuit::{Circuit, PartKind, Stage, StageRole, GND};
 use crate::diag::Check;
 use crate::request::{Request, SourceKind};
 use crate::units::{format, Quantity};
+use crate::figures::Block;
 use crate::values;
 
 /// Each leg of the bias divider (one supply), Ω, and its bypass, F (common practice).
@@ -61,7 +62,7 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<TiaDesign> {
     let (out_lo, out_hi) = amp.output_limits(rails);
     let bias = if rails.is_dual() { 0.0 } else { out_lo + (0.05 * (out_hi - out_lo)).max(0.1) };
     let dark = s.dark_current.unwrap_or(0.0);
-    let room = 0.9 * (out_hi - super::SWING_MARGIN - bias);
+    let room = 0.9 * (out_hi - crate::synth::SWING_MARGIN - bias);
     let r_ideal = room / (s.max + dark).max(1e-15);
     let r_f = values::step_down(req.parts.resistor_series, r_ideal).unwrap_or(r_ideal);
     let c_in = s.capacitance.unwrap_or(0.0);
@@ -202,4 +203,36 @@ pub fn checks(req: &Request, t: &TiaDesign, amp: &Amplifier) -> Vec<Check> {
         ));
     }
     c
+}
+
+impl super::Steps for TiaDesign {
+    fn equivalent(&self, ctx: &super::Context) -> Request {
+        equivalent(ctx.req, self)
+    }
+
+    /// The gain stage's source is the stage's output, which its own checks cover.
+    fn supersedes(&self) -> &'static [&'static str] {
+        &["sensor_impedance"]
+    }
+
+    fn insert(&mut self, circuit: &mut Circuit, ctx: &super::Context) {
+        insert(circuit, ctx.req, self, ctx.rails);
+    }
+
+    fn equations(&self, ctx: &super::Context) -> Vec<String> {
+        equations(ctx.req, self)
+    }
+
+    fn checks(&mut self, _c: &Circuit, _p: &crate::predict::Predicted, ctx: &super::Context) -> Vec<Check> {
+        checks(ctx.req, self, ctx.amp)
+    }
+
+    fn figures(&self, _ctx: &super::Context) -> Vec<Block> {
+        vec![Block::new("transimpedance", "Transimpedance stage U1")
+            .quantity("Feedback R_f", self.feedback_resistor, Quantity::Resistance)
+            .quantity("Feedback C_f", self.feedback_capacitor, Quantity::Capacitance)
+            .quantity("Diode bias", self.bias, Quantity::Voltage)
+            .quantity("Stage bandwidth (−3 dB)", self.bandwidth, Quantity::Frequency)
+            .quantity("Dark-current offset", self.dark_offset, Quantity::Voltage)]
+    }
 }

@@ -25,6 +25,7 @@ use crate::circuit::{Circuit, PartKind, Stage, StageRole, GND};
 use crate::diag::Check;
 use crate::request::{Request, SourceKind};
 use crate::units::{format, Quantity};
+use crate::figures::{Block, Table};
 use crate::values;
 
 /// Smallest shunt accepted, Ω: below it the wiring and contacts are part of the shunt.
@@ -216,4 +217,53 @@ pub fn code_of(req: &Request, v: f64) -> u64 {
     let levels = 2f64.powi(d.bits as i32);
     let x = ((v - d.min) / (d.max - d.min) * levels).floor();
     x.clamp(0.0, levels - 1.0) as u64
+}
+
+impl super::Steps for LoopDesign {
+    fn equivalent(&self, ctx: &super::Context) -> Request {
+        equivalent(ctx.req, self)
+    }
+
+    /// The equivalent sensor's impedance is the shunt, which the loop's checks cover.
+    fn supersedes(&self) -> &'static [&'static str] {
+        &["sensor_impedance"]
+    }
+
+    fn insert(&mut self, circuit: &mut Circuit, ctx: &super::Context) {
+        to_loop(circuit, ctx.req, self);
+    }
+
+    fn equations(&self, ctx: &super::Context) -> Vec<String> {
+        equations(ctx.req, self)
+    }
+
+    fn checks(&mut self, circuit: &Circuit, _p: &crate::predict::Predicted, ctx: &super::Context) -> Vec<Check> {
+        self.bands = bands(ctx.req, circuit);
+        checks(ctx.req, self)
+    }
+
+    fn section(&self) -> &'static str {
+        "Current loop"
+    }
+
+    fn figures(&self, ctx: &super::Context) -> Vec<Block> {
+        let r = |x: f64| format(x, Quantity::Resistance);
+        let rows = self
+            .bands
+            .iter()
+            .map(|b| vec![b.label.clone(), format(b.current, Quantity::Current), format(b.output, Quantity::Voltage), b.code.to_string()])
+            .collect();
+        let table = Table {
+            header: ["Loop state", "Current", "Converter input", "Code"].map(String::from).to_vec(),
+            numeric: vec![false, true, true, true],
+            rows,
+        };
+        let at_max = format!("Burden at {}", format(ctx.req.source.max, Quantity::Current));
+        vec![Block::new("loop-bands", format!("Loop: shunt {} = {}", self.shunt_ref, r(self.shunt)))
+            .quantity("Shunt", self.shunt, Quantity::Resistance)
+            .quantity(&at_max, self.burden_at_max, Quantity::Voltage)
+            .quantity("Burden at the upper fault limit", self.burden_at_fault_high, Quantity::Voltage)
+            .quantity("Shunt power at the upper fault limit", self.power_at_fault_high, Quantity::Power)
+            .table(table)]
+    }
 }

@@ -1,7 +1,7 @@
 //! The instrumentation-amplifier front end of a differential pair or a bridge: two
 //! non-inverting amplifiers (U1 on the + leg, U2 on the − leg) whose inverting inputs share
 //! the gain resistor R_G, each with its feedback resistor R_F, followed by the difference
-//! amplifier of [`super::diffamp`]. The first stage passes the common mode at unity gain and
+//! amplifier of [`super::difference`]. The first stage passes the common mode at unity gain and
 //! multiplies the difference by G1 = 1 + 2·R_F/R_G; the difference stage takes G2 = R2/R1,
 //! so G = (1 + 2R_F/R_G)·(R2/R1) (references: three-op-amp instrumentation amplifier). The
 //! legs see only the amplifiers' + inputs: nothing loads the sensor.
@@ -31,6 +31,7 @@ use crate::circuit::{Builder, Circuit, PartKind, Stage, StageRole, GND};
 use crate::diag::Check;
 use crate::request::{FrontEnd, Request, SourceKind};
 use crate::units::{format, Quantity};
+use crate::figures::Block;
 use crate::values;
 
 /// R_F's window, Ω (common practice for the first stage of an instrumentation amplifier).
@@ -103,7 +104,7 @@ pub fn wanted(req: &Request, gain: f64) -> Option<String> {
 /// (a bridge's zero balance), V.
 pub fn plan(req: &Request, amp: &Amplifier, rails: Rails, gain: f64, extra: f64, reason: String) -> InampDesign {
     let s = &req.source;
-    let m = super::SWING_MARGIN;
+    let m = crate::synth::SWING_MARGIN;
     let (out_lo, out_hi) = amp.output_limits(rails);
     let cm_lo = s.common_mode_min.unwrap_or(0.0);
     let cm_hi = s.common_mode_max.unwrap_or(cm_lo);
@@ -168,7 +169,7 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails, gain: f64, extra: f64,
         first_gain_limit: limit,
         protection,
         protection_noise: (four_kt * protection).sqrt(),
-        fault_beyond_rail: (protection * req.destination.injection_limit).min((PROTECT_POWER * protection).sqrt()) + super::drive::CLAMP_DROP,
+        fault_beyond_rail: (protection * req.destination.injection_limit).min((PROTECT_POWER * protection).sqrt()) + crate::synth::drive::CLAMP_DROP,
         input_range,
         output_range: (cm_lo - swing, cm_hi + swing),
         gbw_needed: 100.0 * first_gain * s.band_high,
@@ -336,5 +337,92 @@ pub fn nearest_ratio_error(ratios: &[f64], g: f64) -> f64 {
 /// Worst-case CMRR of the whole instrumentation amplifier, dB: the difference stage's
 /// (1 + G2)/(4t) multiplied by the first stage's gain.
 pub fn cmrr_worst_db(first_gain: f64, second_gain: f64, t: f64) -> f64 {
-    super::diffamp::cmrr_worst_db(second_gain, t) + 20.0 * first_gain.max(1.0).log10()
+    super::difference::cmrr_worst_db(second_gain, t) + 20.0 * first_gain.max(1.0).log10()
+}
+
+/// A pair (or a bridge's pair) behind the instrumentation amplifier's first stage, with
+/// the difference stage after it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Instrumentation {
+    pub first: InampDesign,
+    pub diff: super::difference::Difference,
+}
+
+/// The front end of a differential pair or a bridge: the instrumentation amplifier when
+/// [`wanted`] for the gain the whole amplifier needs, otherwise the difference amplifier.
+pub fn plan_pair(req: &Request, amp: &Amplifier, rails: Rails) -> super::FrontEnd {
+    let diff = super::difference::Difference::of(req);
+    let pair = &diff.pair;
+    let first = crate::synth::target(pair, amp, rails, &mut Vec::new()).and_then(|t| {
+        let why = wanted(req, t.gain)?;
+        let extra = diff.bridge.as_ref().map_or(0.0, |b| b.zero_offset);
+        Some(plan(pair, amp, rails, t.gain, extra, why))
+    });
+    match first {
+        Some(first) => super::FrontEnd::Instrumentation(Instrumentation { first, diff }),
+        None => super::FrontEnd::Difference(diff),
+    }
+}
+
+impl super::Steps for Instrumentation {
+    fn equivalent(&self, _ctx: &super::Context) -> Request {
+        equivalent(&self.diff.pair, &self.first)
+    }
+
+    fn early_checks(&self, ctx: &super::Context) -> Vec<Check> {
+        self.diff.early_checks(ctx)
+    }
+
+    /// The legs now meet the protection resistors, not the difference stage.
+    fn supersedes(&self) -> &'static [&'static str] {
+        &["input_protection"]
+    }
+
+    fn insert(&mut self, circuit: &mut Circuit, ctx: &super::Context) {
+        insert(circuit, &self.diff.pair, &self.first, ctx.rails);
+        self.diff.build(circuit, ctx.req, Some(self.first.first_gain));
+    }
+
+    fn topology(&self, gain_stage: &str) -> String {
+        topology(&self.first, gain_stage)
+    }
+
+    fn equations(&self, _ctx: &super::Context) -> Vec<String> {
+        equations(&self.diff.pair, &self.first)
+    }
+
+    fn checks(&mut self, circuit: &Circuit, p: &crate::predict::Predicted, ctx: &super::Context) -> Vec<Check> {
+        let pair = &self.diff.pair;
+        let mut c = checks(pair, &self.first, ctx.amp, ctx.rails);
+        c.extend(super::input_protection(pair, circuit, ctx.rails));
+        c.extend(self.diff.zero_trim(ctx.req, p));
+        c
+    }
+
+    fn analysed(&mut self, cmrr: Option<(usize, f64)>, ctx: &super::Context) -> Vec<Check> {
+        self.diff.analysed(cmrr, ctx)
+    }
+
+    fn needs(&self) -> Option<super::Needs> {
+        let d = &self.first;
+        Some(super::Needs { output_range: d.output_range, input_range: d.input_range, gbw: d.gbw_needed, gain: d.first_gain })
+    }
+
+    fn figures(&self, _ctx: &super::Context) -> Vec<Block> {
+        let ia = &self.first;
+        let mut b = Block::new("instrumentation", "Instrumentation amplifier: input stage U1, U2").text("Chosen for", ia.reason.clone());
+        b = match (ia.feedback, ia.gain_resistor) {
+            (Some(r_f), Some(r_g)) => b.quantity("R_F (each leg)", r_f, Quantity::Resistance).quantity("R_G", r_g, Quantity::Resistance),
+            _ => b.text("Input amplifiers", "followers (unity gain)"),
+        };
+        let limit = format!("largest the outputs can swing: {}", crate::units::format_sig(ia.first_gain_limit, Quantity::Ratio, 3));
+        b = b
+            .ratio("First-stage gain", ia.first_gain, 4, &limit)
+            .range("First-stage outputs", ia.output_range.0, ia.output_range.1, Quantity::Voltage)
+            .quantity("Protection resistor (each leg)", ia.protection, Quantity::Resistance)
+            .quantity("A leg may go beyond a rail by", ia.fault_beyond_rail, Quantity::Voltage);
+        let mut out = vec![b];
+        out.extend(self.diff.blocks(true));
+        out
+    }
 }

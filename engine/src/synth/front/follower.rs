@@ -30,6 +30,7 @@ use crate::circuit::{Circuit, PartKind, Stage, StageRole, GND};
 use crate::diag::Check;
 use crate::request::{Coupling, Request, SourceKind};
 use crate::units::{format, Quantity};
+use crate::figures::Block;
 use crate::values;
 
 /// Each leg of the reference divider for the bias resistor (single supply), Ω.
@@ -74,7 +75,7 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<BufferDesign
             // output swing (with the synthesis margin); otherwise the return is lifted.
             let (out_lo, out_hi) = amp.output_limits(rails);
             let (in_lo, in_hi) = amp.input_limits(rails);
-            let m = super::SWING_MARGIN;
+            let m = crate::synth::SWING_MARGIN;
             let fits = s.min >= out_lo.max(in_lo) + m && s.max <= out_hi.min(in_hi) - m;
             Some(BufferDesign {
             bias_resistor: None,
@@ -230,4 +231,43 @@ pub fn checks(req: &Request, b: &BufferDesign, amp: &Amplifier) -> Vec<Check> {
         ));
     }
     c
+}
+
+impl super::Steps for BufferDesign {
+    fn equivalent(&self, ctx: &super::Context) -> Request {
+        equivalent(ctx.req, self)
+    }
+
+    /// The gain stage's source is the follower, which the follower's checks cover.
+    fn supersedes(&self) -> &'static [&'static str] {
+        &["sensor_impedance"]
+    }
+
+    fn insert(&mut self, circuit: &mut Circuit, ctx: &super::Context) {
+        insert(circuit, ctx.req, self, ctx.rails);
+    }
+
+    fn equations(&self, ctx: &super::Context) -> Vec<String> {
+        equations(ctx.req, self)
+    }
+
+    fn checks(&mut self, _c: &Circuit, _p: &crate::predict::Predicted, ctx: &super::Context) -> Vec<Check> {
+        checks(ctx.req, self, ctx.amp)
+    }
+
+    fn figures(&self, _ctx: &super::Context) -> Vec<Block> {
+        let mut b = Block::new("buffer", "Input follower U1")
+            .quantity("Sensor return at", self.return_level, Quantity::Voltage)
+            .quantity("Offset from the bias current", self.bias_error, Quantity::Voltage);
+        if let Some(r) = self.bias_resistor {
+            b = b.quantity("Bias resistor", r, Quantity::Resistance);
+        }
+        if let Some(f) = self.low_corner {
+            b = b.quantity("Low corner", f, Quantity::Frequency);
+        }
+        if let Some(f) = self.input_corner {
+            b = b.quantity("Input corner (source R and C)", f, Quantity::Frequency);
+        }
+        vec![b]
+    }
 }
