@@ -93,7 +93,9 @@ pub fn now() -> f64 {
 pub fn copy_text(text: &str, done: impl FnOnce(bool) + 'static) {
     let Some(window) = web_sys::window() else { return done(false) };
     let navigator = window.navigator();
-    let has_clipboard = js_sys::Reflect::get(&navigator, &JsValue::from_str("clipboard")).map(|c| !c.is_undefined() && !c.is_null()).unwrap_or(false);
+    let has_clipboard = js_sys::Reflect::get(&navigator, &JsValue::from_str("clipboard"))
+        .map(|c| !c.is_undefined() && !c.is_null())
+        .unwrap_or(false);
     if !has_clipboard {
         return done(false);
     }
@@ -114,29 +116,44 @@ pub fn download(file_name: &str, mime: &str, content: &str) -> Result<(), String
     bag.set_type(&format!("{mime};charset=utf-8"));
     let blob = web_sys::Blob::new_with_str_sequence_and_options(&parts, &bag).map_err(|_| fail("blob"))?;
     let url = web_sys::Url::create_object_url_with_blob(&blob).map_err(|_| fail("object URL"))?;
-    let anchor = document.create_element("a").map_err(|_| fail("link"))?.dyn_into::<web_sys::HtmlAnchorElement>().map_err(|_| fail("link"))?;
+    let anchor = document
+        .create_element("a")
+        .map_err(|_| fail("link"))?
+        .dyn_into::<web_sys::HtmlAnchorElement>()
+        .map_err(|_| fail("link"))?;
     anchor.set_href(&url);
     anchor.set_download(file_name);
     let body = document.body().ok_or_else(|| fail("no body"))?;
     let _ = body.append_child(&anchor);
     anchor.click();
     let _ = body.remove_child(&anchor);
-    leptos::prelude::set_timeout(move || {
-        let _ = web_sys::Url::revoke_object_url(&url);
-    }, std::time::Duration::from_secs(10));
+    leptos::prelude::set_timeout(
+        move || {
+            let _ = web_sys::Url::revoke_object_url(&url);
+        },
+        std::time::Duration::from_secs(10),
+    );
     Ok(())
 }
 
 /// The address-bar fragment without `#` (empty when there is none).
 pub fn fragment() -> String {
-    web_sys::window().and_then(|w| w.location().hash().ok()).map(|h| h.trim_start_matches('#').to_string()).unwrap_or_default()
+    web_sys::window()
+        .and_then(|w| w.location().hash().ok())
+        .map(|h| h.trim_start_matches('#').to_string())
+        .unwrap_or_default()
 }
 
 /// The page's address without fragment, e.g. `http://127.0.0.1:8080/`.
 pub fn page_address() -> String {
     let Some(w) = web_sys::window() else { return String::new() };
     let loc = w.location();
-    format!("{}{}{}", loc.origin().unwrap_or_default(), loc.pathname().unwrap_or_default(), loc.search().unwrap_or_default())
+    format!(
+        "{}{}{}",
+        loc.origin().unwrap_or_default(),
+        loc.pathname().unwrap_or_default(),
+        loc.search().unwrap_or_default()
+    )
 }
 
 /// Removes the fragment from the address bar without a new history entry.

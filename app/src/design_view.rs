@@ -1,24 +1,20 @@
-//! The design step: schematic, checks, predicted mapping, part list, analysis plots,
-//! assumptions, safety cautions, downloads and the share link. Everything shown comes from
-//! the engine. The read-only report part is built with [`crate::dom`] (text nodes only; the
-//! engine's SVG, which the engine escapes, is inserted as markup); the interactive toolbar
-//! is a Leptos view.
+//! The design step: the panel with its note when the form has moved on from the design on
+//! show, the read-only report (see [`crate::report_view`]), the toolbar (downloads, print,
+//! the share link) as a Leptos view, and the analysis plots filled in once they are drawn.
+//! Everything shown comes from the engine.
 
 use std::sync::Arc;
 
 use leptos::prelude::*;
-use rangefit_engine::diag::Severity;
-use rangefit_engine::request::{Coupling, ResponseKind};
-use rangefit_engine::synth::filter::sections::SectionKind;
-use rangefit_engine::units::{format, Quantity};
 
-use crate::app::{Ctx, NoticeKind};
 use crate::browser;
-use crate::dom::{el, el_c, row, table, Node};
-use crate::fields::{self, Step};
+use crate::dom::{el, el_c};
+use crate::fields::Step;
 use crate::outputs::{self, Export, Shown};
-use crate::steps::{plural, tally};
+use crate::report_view::{body_node, head_node};
+use crate::state::{go, step_of, Ctx, NoticeKind};
 
+/// The design step's panel.
 #[component]
 pub fn DesignStep() -> impl IntoView {
     let ctx = expect_context::<Ctx>();
@@ -28,14 +24,14 @@ pub fn DesignStep() -> impl IntoView {
                 return None;
             }
             let (step, what) = if let Some((path, _)) = v.errors.iter().next() {
-                (crate::app::step_of(path), "has a value with a problem")
+                (step_of(path), "has a value with a problem")
             } else {
-                (v.missing.first().map(|p| crate::app::step_of(p)).unwrap_or(Step::Sensor), "is missing a value")
+                (v.missing.first().map(|p| step_of(p)).unwrap_or(Step::Sensor), "is missing a value")
             };
             Some(view! {
                 <p class="stale-note" data-testid="stale-note">
                     {format!("Step {} ({}) {what}; this is the last good design. ", step.number(), step.title())}
-                    <button type="button" class="link" on:click=move |_| crate::steps::go(ctx, step, true)>"Go there"</button>
+                    <button type="button" class="link" on:click=move |_| go(ctx, step, true)>"Go there"</button>
                 </p>
             })
         })
@@ -52,7 +48,9 @@ pub fn DesignStep() -> impl IntoView {
                     fill_plots(ctx);
                 }
                 None => {
-                    el_c("p", "empty").text("No design yet: complete the request in the first three steps.").replace_contents_of(&h);
+                    el_c("p", "empty")
+                        .text("No design yet: complete the request in the first three steps.")
+                        .replace_contents_of(&h);
                     b.set_text_content(None);
                 }
             }
@@ -63,7 +61,8 @@ pub fn DesignStep() -> impl IntoView {
         fill_plots(ctx);
     });
     view! {
-        <section class="panel design-panel" role="tabpanel" id="panel-design" aria-labelledby="tab-design" hidden=move || ctx.step.get() != Step::Design>
+        <section class="panel design-panel" role="tabpanel" id="panel-design" aria-labelledby="tab-design"
+            hidden=move || ctx.step.get() != Step::Design>
             {stale}
             <div class="design-body" data-testid="design">
                 <div node_ref=head></div>
@@ -78,15 +77,23 @@ pub fn DesignStep() -> impl IntoView {
 fn fill_plots(ctx: Ctx) {
     let serial = ctx.shown.with_untracked(|s| s.as_ref().map(|s| s.serial));
     let Some(host) = document().get_element_by_id("plots") else { return };
-    let Some(plots) = ctx.plots.with_untracked(|p| p.as_ref().filter(|(n, _)| Some(*n) == serial).map(|(_, p)| p.clone())) else { return };
+    let Some(plots) =
+        ctx.plots.with_untracked(|p| p.as_ref().filter(|(n, _)| Some(*n) == serial).map(|(_, p)| p.clone()))
+    else {
+        return;
+    };
     el("div")
         .attr("class", "plots-inner")
-        .children(plots.iter().map(|p| match &p.svg {
-            Some(svg) => el_c("figure", "plot")
-                .attr("data-testid", &format!("plot-{}", p.id))
-                .child(el_c("div", "plot-svg").attr("role", "img").attr("aria-label", p.title).svg(svg))
-                .child(el("figcaption").text(p.title)),
-            None => el_c("p", "empty").attr("data-testid", &format!("plot-{}", p.id)).text(&format!("{}: not available, the design has no circuit to analyse.", p.title)),
+        .children(plots.iter().map(|p| {
+            match &p.svg {
+                Some(svg) => el_c("figure", "plot")
+                    .attr("data-testid", &format!("plot-{}", p.id))
+                    .child(el_c("div", "plot-svg").attr("role", "img").attr("aria-label", p.title).svg(svg))
+                    .child(el("figcaption").text(p.title)),
+                None => el_c("p", "empty")
+                    .attr("data-testid", &format!("plot-{}", p.id))
+                    .text(&format!("{}: not available, the design has no circuit to analyse.", p.title)),
+            }
         }))
         .replace_contents_of(&host);
     static MARKED: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
@@ -95,63 +102,7 @@ fn fill_plots(ctx: Ctx) {
     }
 }
 
-fn badge(class: &str, text: &str) -> Node {
-    el_c("span", &format!("badge {class}")).text(text)
-}
-
-fn head_node(s: &Shown) -> Node {
-    let d = &s.design;
-    let (e, w) = tally(&d.checks);
-    let mut tally_node = el_c("a", "tally").attr("href", "#checks");
-    if e > 0 {
-        tally_node = tally_node.child(badge("sev-error", &plural(e, "error")));
-    }
-    if w > 0 {
-        tally_node = tally_node.child(badge("sev-warning", &plural(w, "warning")));
-    }
-    if e + w == 0 {
-        tally_node = tally_node.child(badge("sev-ok", "checks pass"));
-    }
-    let mut left = el("div")
-        .child(el("h2").attr("data-testid", "design-name").text(&d.name))
-        .child(el_c("p", "topology").text(if d.topology.is_empty() { "No circuit could be built" } else { &d.topology }));
-    if !d.request.notes.trim().is_empty() {
-        left = left.child(el_c("p", "design-notes").text(&d.request.notes));
-    }
-    el_c("header", "design-head").child(left).child(tally_node)
-}
-
-fn block(id: &str, title: &str) -> Node {
-    el_c("section", "block").attr("aria-labelledby", &format!("h-{id}")).child(el("h3").attr("id", &format!("h-{id}")).text(title))
-}
-
-fn body_node(s: &Shown) -> Node {
-    let d = &s.design;
-    let schematic = match &s.schematic {
-        Some(svg) => el_c("div", "schematic").attr("data-testid", "schematic").attr("role", "img").attr("aria-label", &format!("Schematic of {}", d.name)).svg(svg),
-        None => el_c("p", "empty").attr("data-testid", "schematic").text("No schematic: the design has no circuit; the checks say why."),
-    };
-    let plots = el_c("div", "plots").attr("id", "plots").child(el_c("p", "empty").text("Drawing the plots…"));
-    let cautions = el_c("section", "block cautions")
-        .attr("data-testid", "cautions")
-        .attr("aria-labelledby", "h-cautions")
-        .child(el("h3").attr("id", "h-cautions").text("Safety"))
-        .child(el("ul").children(d.cautions.iter().map(|c| el("li").text(c))));
-    el("div")
-        .child(block("schematic", "Schematic").child(schematic))
-        .child(
-            el_c("div", "two-col")
-                .child(block("checks", "Checks").attr("id", "checks").child(checks_node(s)))
-                .child(block("mapping", "Predicted mapping").child(mapping_node(s))),
-        )
-        .child(block("parts", "Part list").child(parts_node(s)))
-        .child(block("filter", "Anti-alias filter and converter pin").child(filter_node(s)))
-        .child(block("plots", "Analyses").child(plots))
-        .child(block("roles", "What each part does").child(roles_node(s)))
-        .child(block("assumptions", "Assumptions").child(assumptions_node(s)))
-        .child(cautions)
-}
-
+/// Downloads, print and the share link of the design on show.
 #[component]
 fn Toolbar(shown: Arc<Shown>) -> impl IntoView {
     let ctx = expect_context::<Ctx>();
@@ -163,7 +114,8 @@ fn Toolbar(shown: Arc<Shown>) -> impl IntoView {
         .into_iter()
         .map(|export| {
             view! {
-                <button type="button" class="btn" data-testid=format!("download-{}", export.id()) disabled=!has_circuit && export != Export::Report
+                <button type="button" class="btn" data-testid=format!("download-{}", export.id())
+                    disabled=!has_circuit && export != Export::Report
                     on:click=move |_| {
                         let file = stored.with_value(|s| outputs::download(s, export));
                         let result = match file {
@@ -171,7 +123,11 @@ fn Toolbar(shown: Arc<Shown>) -> impl IntoView {
                             None => Err("the design has no circuit".into()),
                         };
                         if let Err(why) = result {
-                            ctx.notify(NoticeKind::Error, "notice-download-error", format!("The file could not be made: {why}."));
+                            ctx.notify(
+                                NoticeKind::Error,
+                                "notice-download-error",
+                                format!("The file could not be made: {why}."),
+                            );
                         }
                     }>
                     {export.label()}
@@ -204,264 +160,4 @@ fn Toolbar(shown: Arc<Shown>) -> impl IntoView {
             </div>
         </div>
     }
-}
-
-fn checks_node(s: &Shown) -> Node {
-    el_c("ul", "checks").attr("data-testid", "checks").children(s.design.checks.iter().map(|c| {
-        let label = match c.severity {
-            Severity::Error => "Error",
-            Severity::Warning => "Warning",
-            Severity::Ok => "OK",
-        };
-        // While the spread is computed, the engine's "switched off" sentence would mislead.
-        if s.spread_pending && c.id == "yield" {
-            let runs = s.design.request.analysis.monte_carlo_runs;
-            return el_c("li", "check sev-ok pending")
-                .attr("data-check", &c.id)
-                .child(el_c("span", "badge").text("…"))
-                .child(el_c("span", "check-text").text(&format!("Simulating {runs} builds within the part tolerances…")));
-        }
-        el_c("li", &format!("check sev-{}", c.severity))
-            .attr("data-check", &c.id)
-            .child(el_c("span", "badge").text(label))
-            .child(el_c("span", "check-text").text(&c.message))
-    }))
-}
-
-fn volts(x: f64) -> String {
-    format(x, Quantity::Voltage)
-}
-
-fn mapping_node(s: &Shown) -> Node {
-    let Some(p) = s.design.predicted else {
-        return el_c("p", "empty").attr("data-testid", "mapping").text("No mapping: the design could not be completed; the checks say why.");
-    };
-    let r = &s.design.request;
-    let hz = |f: f64| format(f, Quantity::Frequency);
-    let band = match (p.band_low, p.band_high) {
-        (Some(low), Some(high)) => format!("{} … {}", hz(low), hz(high)),
-        (None, Some(high)) => format!("DC … {}", hz(high)),
-        (Some(low), None) => format!("from {}", hz(low)),
-        (None, None) => "not limited".to_owned(),
-    };
-    let sq = r.source.kind.quantity();
-    let rows = [("Sensor at its lowest", format(r.source.min, sq), volts(p.output_at_min)), ("Sensor at its highest", format(r.source.max, sq), volts(p.output_at_max))]
-        .into_iter()
-        .map(|(what, from, to)| el("tr").child(el("th").attr("scope", "row").text(what)).child(el_c("td", "num").text(&from)).child(el_c("td", "num").text(&to)));
-    let offset_label = if r.source.coupling == Coupling::Ac { "Output DC level" } else { "Offset" };
-    let facts = [
-        ("Gain", if sq == Quantity::Current { format!("{} V/A", format(p.gain, Quantity::Ratio)) } else { format!("{} V/V", format(p.gain, Quantity::Ratio)) }),
-        (offset_label, volts(p.offset)),
-        ("Converter range", format!("{} … {}", volts(r.destination.min), volts(r.destination.max))),
-        ("Passband (−3 dB)", band),
-    ];
-    let mut out = el_c("div", "mapping-col")
-        .attr("data-testid", "mapping")
-        .child(table("map-table", "", &["", "Sensor", "Converter input"], rows))
-        .child(el_c("dl", "mapping").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
-    if let Some(l) = &s.design.current_loop() {
-        let rows = l.bands.iter().map(|b| {
-            let (i, v, code) = (format(b.current, Quantity::Current), volts(b.output), b.code.to_string());
-            row(&[("", &b.label), ("num", &i), ("num", &v), ("num", &code)])
-        });
-        out = out
-            .child(el("h4").text(&format!("Loop: shunt {} = {}", l.shunt_ref, format(l.shunt, Quantity::Resistance))))
-            .child(table("loop-bands", "loop-bands", &["Loop state", "Current", "Converter input", "Code"], rows));
-    }
-    if let Some(b) = &s.design.high_impedance() {
-        let hz = |f: f64| format(f, Quantity::Frequency);
-        let mut facts = vec![("Sensor return at", volts(b.return_level)), ("Offset from the bias current", volts(b.bias_error))];
-        if let Some(r) = b.bias_resistor {
-            facts.push(("Bias resistor", format(r, Quantity::Resistance)));
-        }
-        if let Some(f) = b.low_corner {
-            facts.push(("Low corner", hz(f)));
-        }
-        if let Some(f) = b.input_corner {
-            facts.push(("Input corner (source R and C)", hz(f)));
-        }
-        out = out
-            .child(el("h4").text("Input follower U1"))
-            .child(el_c("dl", "mapping").attr("data-testid", "buffer").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
-    }
-    if let Some(ia) = &s.design.instrumentation() {
-        let mut facts = Vec::new();
-        match (ia.feedback, ia.gain_resistor) {
-            (Some(r_f), Some(r_g)) => {
-                facts.push(("R_F (each leg)", format(r_f, Quantity::Resistance)));
-                facts.push(("R_G", format(r_g, Quantity::Resistance)));
-            }
-            _ => facts.push(("Input amplifiers", "followers (unity gain)".to_string())),
-        }
-        facts.push(("First-stage gain", format!("{:.3} (largest the outputs can swing: {:.1})", ia.first_gain, ia.first_gain_limit)));
-        facts.push(("First-stage outputs", format!("{} … {}", volts(ia.output_range.0), volts(ia.output_range.1))));
-        facts.push(("Protection resistor (each leg)", format(ia.protection, Quantity::Resistance)));
-        facts.push(("A leg may go beyond a rail by", volts(ia.fault_beyond_rail)));
-        out = out
-            .child(el("h4").text("Instrumentation amplifier: input stage U1, U2"))
-            .child(el_c("p", "block-note").text(&format!("Chosen for {}.", ia.reason)))
-            .child(el_c("dl", "mapping").attr("data-testid", "instrumentation").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
-    }
-    if let Some(dd) = &s.design.differential() {
-        let facts = [
-            ("R1 = R3", format(dd.r1, Quantity::Resistance)),
-            ("R2 = R4", format(dd.r2, Quantity::Resistance)),
-            ("Reference pin", volts(dd.reference)),
-            ("Worst-case CMRR (whole amplifier)", format!("{:.1} dB", dd.cmrr_worst_db)),
-            ("CMRR 99.9 % of builds exceed", dd.cmrr_monte_carlo_db.map_or("—".to_string(), |x| format!("{x:.1} dB"))),
-            ("Output shift over the common-mode range", volts(dd.cm_error)),
-        ];
-        out = out
-            .child(el("h4").text(if s.design.instrumentation().is_some() { "Instrumentation amplifier: difference stage" } else { "Difference amplifier" }))
-            .child(el_c("dl", "mapping").attr("data-testid", "differential").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
-    }
-    if let Some(t) = &s.design.photodiode() {
-        let facts = [
-            ("Feedback R_f", format(t.feedback_resistor, Quantity::Resistance)),
-            ("Feedback C_f", format(t.feedback_capacitor, Quantity::Capacitance)),
-            ("Diode bias", volts(t.bias)),
-            ("Stage bandwidth (−3 dB)", format(t.bandwidth, Quantity::Frequency)),
-            ("Dark-current offset", volts(t.dark_offset)),
-        ];
-        out = out
-            .child(el("h4").text("Transimpedance stage U1"))
-            .child(el_c("dl", "mapping").attr("data-testid", "transimpedance").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
-    }
-    out
-}
-
-fn filter_node(s: &Shown) -> Node {
-    let d = &s.design;
-    let hz = |f: f64| format(f, Quantity::Frequency);
-    let db = |x: f64| format!("{x:.1} dB");
-    let mut out = el("div").attr("data-testid", "filter");
-    match &d.filter {
-        None => {
-            let why = if d.request.filter.response == ResponseKind::None {
-                "No anti-alias filter was asked for (response: none); the checks say what rejection that gives up."
-            } else {
-                "No filter was designed; the checks say why."
-            };
-            out = out.child(el_c("p", "empty").text(why));
-        }
-        Some(f) => {
-            let (required, achieved) = match d.analysis.as_ref().and_then(|a| a.alias.as_ref()) {
-                Some(a) => (a.required_db, a.achieved_db),
-                None => (f.required_db, f.rounded_db),
-            };
-            let facts = [
-                ("Response", f.response.name().to_string()),
-                ("Order", f.order.to_string()),
-                ("Corner", hz(f.corner)),
-                ("First frequency folding into the band", hz(f.alias_frequency)),
-                ("Rejection needed there", db(required)),
-                ("Rejection of the built filter there", db(achieved)),
-                ("In-band error at the band's top", format!("{:.2} dB of {:.2} dB allowed", f.passband_error_db, f.passband_allowed_db)),
-            ];
-            out = out.child(el_c("dl", "facts").children(facts.iter().map(|(k, v)| el("div").child(el("dt").text(k)).child(el("dd").text(v)))));
-            let rows = f.sections.iter().enumerate().map(|(i, x)| {
-                let kind = match x.kind {
-                    SectionKind::FirstOrder if x.in_gain_stage => "first-order pole in the gain stage",
-                    SectionKind::FirstOrder => "first-order RC and follower",
-                    SectionKind::SallenKey => "Sallen-Key",
-                    SectionKind::MultipleFeedback => "multiple feedback",
-                };
-                let q = |q: f64| if x.kind == SectionKind::FirstOrder { "—".to_string() } else { format!("{q:.3}") };
-                let n = (i + 1).to_string();
-                let (fw, fr, qw, qr) = (hz(x.f_n), hz(x.f_n_rounded), q(x.q), q(x.q_rounded));
-                row(&[("num", &n), ("", kind), ("num", &fw), ("num", &fr), ("num", &qw), ("num", &qr)])
-            });
-            out = out.child(table("sections", "filter-sections", &["Section", "Built as", "f_n wanted", "f_n as built", "Q wanted", "Q as built"], rows));
-        }
-    }
-    if let Some(dr) = &d.drive {
-        let mut items = vec![format!("Series resistor {} from the last amplifier to the pin.", format(dr.resistor, Quantity::Resistance))];
-        if let Some(c) = dr.capacitor {
-            items.push(format!("Charge reservoir {} from the pin to ground.", format(c, Quantity::Capacitance)));
-        }
-        if let Some(t) = dr.settling_time {
-            items.push(format!(
-                "Settles to ½ LSB ({:.2} time constants) in {} of the {} acquisition time.",
-                dr.settling_time_constants,
-                format(t, Quantity::Time),
-                format(dr.acquisition_time, Quantity::Time)
-            ));
-        }
-        if dr.clamp_to_ground {
-            items.push("A Schottky clamp from ground to the pin takes fault current below ground.".to_string());
-        }
-        items.push(format!(
-            "Fault current into the pin at most {} (limit used {}; the converter's datasheet governs).",
-            format(dr.fault_current, Quantity::Current),
-            format(dr.injection_limit, Quantity::Current)
-        ));
-        out = out.child(el("h4").text("At the converter pin")).child(el_c("ul", "drive").attr("data-testid", "drive").children(items.iter().map(|t| el("li").text(t))));
-    }
-    out
-}
-
-fn parts_node(s: &Shown) -> Node {
-    if s.bom.is_empty() {
-        return el_c("p", "empty").attr("data-testid", "parts").text("No parts: the design has no circuit.");
-    }
-    let rows = s.bom.iter().map(|r| {
-        let refs = r.designators.join(" ");
-        let qty = r.quantity.to_string();
-        row(&[("ref", &refs), ("num", &qty), ("", &r.kind), ("value", &r.value), ("num", &r.tolerance), ("", &r.rating), ("", &r.construction), ("notes", &r.notes)])
-    });
-    table("parts", "parts", &["Designators", "Qty", "Part", "Value", "Tolerance", "Rating", "Construction", "Notes"], rows)
-}
-
-fn roles_node(s: &Shown) -> Node {
-    let rows = s.design.parts.iter().map(|p| {
-        let nodes = p.nodes.join(" · ");
-        row(&[("ref", &p.reference), ("value", &p.display), ("", &p.purpose), ("nodes", &nodes)])
-    });
-    table("roles", "", &["Part", "Value", "Purpose", "Connects"], rows)
-}
-
-const AMP_FIGURES: [&str; 14] = [
-    "gbw", "slew_rate", "swing_low", "swing_high", "cm_low", "cm_high", "supply_min", "supply_max", "offset", "bias_current", "noise_voltage", "noise_current", "noise_corner", "open_loop_gain",
-];
-
-fn assumptions_node(s: &Shown) -> Node {
-    let d = &s.design;
-    let amp = serde_json::to_value(&d.amplifier).unwrap_or_default();
-    let figure = |name: &str| {
-        let f = fields::field(&format!("amplifier.{name}"));
-        let label = f.map(|f| f.label).unwrap_or("");
-        let q = f.and_then(|f| f.quantity()).unwrap_or(Quantity::Ratio);
-        let value = amp.get(name).and_then(|v| v.as_f64()).map(|x| format(x, q)).unwrap_or_default();
-        el("li").child(el("span").text(label)).text(" ").child(el_c("strong", "num").text(&value))
-    };
-    let assumed = &d.amplifier.assumed;
-    let given: Vec<&str> = AMP_FIGURES.iter().copied().filter(|n| !assumed.contains(n)).collect();
-    let (runs, seed) = d
-        .analysis
-        .as_ref()
-        .filter(|_| !s.spread_pending)
-        .map(|a| (a.tolerance.monte_carlo.runs, a.tolerance.monte_carlo.seed))
-        .unwrap_or((d.request.analysis.monte_carlo_runs, d.request.analysis.seed));
-    let rails = if d.rails.is_dual() { format!("{} and {}", volts(d.rails.pos), volts(d.rails.neg)) } else { format!("{} and ground", volts(d.rails.pos)) };
-    let facts = [
-        ("Amplifier class", d.amplifier.class.clone(), "amp-class"),
-        ("Amplifier rails", rails, ""),
-        ("Temperature", format(d.request.analysis.temperature, Quantity::Temperature), "temperature"),
-        ("Monte Carlo", format!("{runs} builds, seed {seed}{}", if s.spread_pending { " (computing)" } else { "" }), "monte-carlo"),
-    ];
-    let facts = el_c("dl", "facts").children(facts.iter().map(|(k, v, id)| {
-        let dd = el("dd").text(v);
-        el("div").child(el("dt").text(k)).child(if id.is_empty() { dd } else { dd.attr("data-testid", id) })
-    }));
-    let column = |title: &str, items: Node| el("div").child(el("h4").text(title)).child(items);
-    let mut cols = el_c("div", "amp-cols").child(column(
-        if assumed.is_empty() { "No figure was assumed" } else { "Figures assumed from the class" },
-        el_c("ul", "figures").children(assumed.iter().map(|n| figure(n))),
-    ));
-    if !given.is_empty() {
-        cols = cols.child(column("Figures you gave", el_c("ul", "figures").children(given.iter().map(|n| figure(n)))));
-    }
-    let reqs = d.requirements.as_ref().map(|r| r.summary.clone()).unwrap_or_default();
-    cols = cols.child(column("What the amplifier must provide", el_c("ul", "requirements").children(reqs.iter().map(|r| el("li").text(r)))));
-    el_c("div", "assumptions").attr("data-testid", "assumptions").child(facts).child(cols)
 }

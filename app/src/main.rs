@@ -5,10 +5,21 @@
 mod app;
 mod browser;
 mod design_view;
+mod designs_list;
 mod dom;
+mod engine_run;
+mod field_table;
 mod fields;
+mod form_load;
+mod form_read;
+mod form_step;
+mod opening;
 mod outputs;
-mod steps;
+mod preview;
+mod report_view;
+mod saving;
+mod state;
+mod stepper;
 mod store;
 
 fn main() {

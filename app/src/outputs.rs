@@ -2,13 +2,13 @@
 //! schematic, the part list and the share-link fragment. The downloads are made on
 //! demand from the same design, with the same calls as the `rangefit` command.
 
+use rangefit_engine::analysis::AnalysisConfig;
 use rangefit_engine::bom::{self, BomRow};
+use rangefit_engine::design::design_with;
 use rangefit_engine::draw::plot::{self, PlotConfig};
 use rangefit_engine::draw::schematic::{self, SchematicConfig};
 use rangefit_engine::netlist::{netlist, NetlistConfig};
 use rangefit_engine::report;
-use rangefit_engine::analysis::AnalysisConfig;
-use rangefit_engine::design::design_with;
 use rangefit_engine::{design, share, Design, Request};
 
 /// The engine's answer for one request and everything drawn from it.
@@ -122,7 +122,11 @@ pub fn file_stem(name: &str) -> String {
     }
     let stem = stem.trim_end_matches('-');
     let stem: String = stem.chars().take(60).collect();
-    if stem.is_empty() { "rangefit-design".into() } else { stem }
+    if stem.is_empty() {
+        "rangefit-design".into()
+    } else {
+        stem
+    }
 }
 
 /// The file for `export`, or `None` when the design has nothing to export (no circuit; the
@@ -131,14 +135,24 @@ pub fn download(shown: &Shown, export: Export) -> Option<Download> {
     let d = &shown.design;
     let stem = file_stem(&d.name);
     match export {
-        Export::Schematic => shown.schematic.as_ref().map(|svg| Download { file_name: format!("{stem}-schematic.svg"), mime: "image/svg+xml", content: svg.clone() }),
-        Export::PartList => d.circuit.as_ref().map(|_| Download { file_name: format!("{stem}-parts.csv"), mime: "text/csv", content: bom::to_csv(&shown.bom) }),
+        Export::Schematic => shown.schematic.as_ref().map(|svg| Download {
+            file_name: format!("{stem}-schematic.svg"),
+            mime: "image/svg+xml",
+            content: svg.clone(),
+        }),
+        Export::PartList => d.circuit.as_ref().map(|_| Download {
+            file_name: format!("{stem}-parts.csv"),
+            mime: "text/csv",
+            content: bom::to_csv(&shown.bom),
+        }),
         Export::Netlist => d.circuit.as_ref().map(|c| Download {
             file_name: format!("{stem}.cir"),
             mime: "text/plain",
             content: netlist(&d.request, c, NetlistConfig { testbench: true }),
         }),
-        Export::Report => Some(Download { file_name: format!("{stem}-report.html"), mime: "text/html", content: report::report(d) }),
+        Export::Report => {
+            Some(Download { file_name: format!("{stem}-report.html"), mime: "text/html", content: report::report(d) })
+        }
     }
 }
 

@@ -39,8 +39,12 @@ pub enum StoreError {
 impl StoreError {
     pub fn message(&self) -> String {
         match self {
-            StoreError::Full => "the browser's storage for this page is full. Delete saved designs you no longer need (or download their files) and try again.".into(),
-            StoreError::Unavailable(why) => format!("the browser refused to store it ({why}). Storage may be switched off for this page."),
+            StoreError::Full => "the browser's storage for this page is full. Delete saved designs you no longer need \
+                (or download their files) and try again."
+                .into(),
+            StoreError::Unavailable(why) => {
+                format!("the browser refused to store it ({why}). Storage may be switched off for this page.")
+            }
         }
     }
 }
@@ -64,7 +68,7 @@ pub struct Saved {
 
 impl Saved {
     pub fn name(&self) -> String {
-        crate::fields::name_of(&self.request)
+        crate::form_load::name_of(&self.request)
     }
 }
 
@@ -108,7 +112,8 @@ fn upgrade(text: &str) -> Result<Read, String> {
         None => {
             // Format 0.
             let text = map.get("text").and_then(Value::as_str).ok_or("it has no format number and no request text")?;
-            let mut request: Value = serde_json::from_str(text).map_err(|e| format!("its request text is not valid JSON ({e})"))?;
+            let mut request: Value =
+                serde_json::from_str(text).map_err(|e| format!("its request text is not valid JSON ({e})"))?;
             let Value::Object(req) = &mut request else { return Err("its request is not a JSON object".into()) };
             if let Some(title) = map.get("title").and_then(Value::as_str).filter(|t| !t.trim().is_empty()) {
                 req.insert("name".into(), Value::String(title.to_string()));
@@ -126,7 +131,10 @@ fn upgrade(text: &str) -> Result<Read, String> {
         }
         Some(f) => match f.as_u64() {
             Some(FORMAT) => Ok(Read::Current(value)),
-            Some(n) if n > FORMAT => Err(format!("it was saved by a newer version of Rangefit (storage format {n}; this page reads up to {FORMAT}); it is left untouched")),
+            Some(n) if n > FORMAT => Err(format!(
+                "it was saved by a newer version of Rangefit (storage format {n}; this page reads up to {FORMAT}); \
+                it is left untouched"
+            )),
             _ => Err(format!("its format number {f} is not one Rangefit ever wrote")),
         },
     }
@@ -281,7 +289,8 @@ impl Backend for MemoryBackend {
     }
     fn set(&mut self, key: &str, value: &str) -> Result<(), StoreError> {
         if let Some(quota) = self.quota {
-            let used: usize = self.items.iter().filter(|(k, _)| k.as_str() != key).map(|(k, v)| k.len() + v.len()).sum();
+            let used: usize =
+                self.items.iter().filter(|(k, _)| k.as_str() != key).map(|(k, v)| k.len() + v.len()).sum();
             if used + key.len() + value.len() > quota {
                 return Err(StoreError::Full);
             }
@@ -353,7 +362,7 @@ mod tests {
         let mut b = MemoryBackend::default();
         b.items.insert(CURRENT_KEY.into(), json!({"title": "Draft", "text": demos::ALL[1].json}).to_string());
         let w = read_working(&mut b).expect("readable").expect("present");
-        assert_eq!(crate::fields::name_of(&w.request), "Draft");
+        assert_eq!(crate::form_load::name_of(&w.request), "Draft");
         assert_eq!(w.saved_id, None);
         assert_eq!(w.baseline, w.request);
     }
@@ -370,7 +379,10 @@ mod tests {
         let l = list(&mut b);
         assert_eq!(l.designs.iter().map(|d| d.id.as_str()).collect::<Vec<_>>(), ["good"]);
         let reported: Vec<&str> = l.problems.iter().map(|p| p.key.as_str()).collect();
-        assert_eq!(reported, ["rangefit:design:broken", "rangefit:design:future", "rangefit:design:newreq", "rangefit:design:notobj"]);
+        assert_eq!(
+            reported,
+            ["rangefit:design:broken", "rangefit:design:future", "rangefit:design:newreq", "rangefit:design:notobj"]
+        );
         assert!(l.problems[0].message.contains("not valid JSON"));
         assert!(l.problems[1].message.contains("newer version"));
         // Nothing is deleted behind the user's back.
