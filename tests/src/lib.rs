@@ -1,4 +1,6 @@
-//! Shared helpers for Rangefit's browser tests.
+//! Shared helpers for Rangefit's workspace tests: the one row/check helper of the
+//! data-driven tests ([`rows`]), the ngspice runner ([`run_ngspice`]) and the browser-test
+//! machinery.
 //!
 //! A test serves the release bundle in `dist/` with `python3 -m http.server`, starts
 //! `chromedriver`, and drives headless Chromium through WebDriver (fantoccini). Both
@@ -16,6 +18,8 @@ use fantoccini::elements::Element;
 use fantoccini::{Client, ClientBuilder, Locator};
 use hyper_util::client::legacy::connect::HttpConnector;
 use serde_json::{json, Value};
+
+pub mod rows;
 
 /// Chromium binary used by the tests (Debian's `chromium` package).
 pub const CHROMIUM: &str = "/usr/bin/chromium";

@@ -21,38 +21,7 @@ use rangefit_engine::synth::filter::{self, full_range_db, required_rejection_db}
 use rangefit_engine::synth::round::RoundConfig;
 use rangefit_engine::values::Series;
 use rangefit_engine::{design, Design, Request};
-
-// ---------------------------------------------------------------------------------------
-// One check helper for every table.
-
-/// One expectation: what is measured, the reference, the tolerance and where the reference
-/// comes from.
-struct Row {
-    what: String,
-    got: f64,
-    want: f64,
-    tol: f64,
-    source: &'static str,
-}
-
-fn row(what: impl Into<String>, got: f64, want: f64, tol: f64, source: &'static str) -> Row {
-    Row { what: what.into(), got, want, tol, source }
-}
-
-/// A yes/no fact as a row (1 = true).
-fn fact(what: impl Into<String>, ok: bool, source: &'static str) -> Row {
-    row(what, ok as u8 as f64, 1.0, 0.0, source)
-}
-
-fn check(rows: &[Row]) {
-    let failed: Vec<String> = rows
-        .iter()
-        .filter(|r| !((r.got - r.want).abs() <= r.tol))
-        .map(|r| format!("{}: got {}, want {} ± {} — {}", r.what, r.got, r.want, r.tol, r.source))
-        .collect();
-    assert!(!rows.is_empty(), "no checks ran");
-    assert!(failed.is_empty(), "{} of {} checks failed:\n{}", failed.len(), rows.len(), failed.join("\n"));
-}
+use rangefit_tests::rows::{check, fact, row, Row};
 
 fn request(json: &str) -> Request {
     Request::from_json(json).unwrap_or_else(|e| panic!("request does not read: {e}\n{json}"))

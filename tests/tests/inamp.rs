@@ -17,8 +17,9 @@ use rangefit_engine::synth::front::instrumentation as inamp;
 use rangefit_engine::{design, Design, Request};
 use rangefit_tests::run_ngspice;
 
-mod rows;
-use rows::{check, fact, request, row, spice_pairs};
+mod bench;
+use bench::{request, spice_pairs};
+use rangefit_tests::rows::{check, fact, row};
 
 const SPICE: &str = "ngspice (Debian ngspice-39) operating point of the exported netlist";
 

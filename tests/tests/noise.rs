@@ -25,6 +25,7 @@ use rangefit_engine::diag::Severity;
 use rangefit_engine::netlist::{netlist, NetlistConfig};
 use rangefit_engine::request::AmplifierSpec;
 use rangefit_engine::{demos, design, Request};
+use rangefit_tests::rows::{check, row_rel};
 
 /// Boltzmann constant, J/K, exact since the 2019 SI redefinition.
 const K_B: f64 = 1.380649e-23;
@@ -34,37 +35,6 @@ const NGSPICE_KELVIN: f64 = 300.15;
 
 /// The contract against ngspice: integrated output noise within 5 %.
 const SPICE_TOL: f64 = 0.05;
-
-// ---------------------------------------------------------------------------------------
-// The one check helper
-
-/// One comparison: what the engine gave, what the source says, and how close it must be.
-struct Row {
-    what: String,
-    got: f64,
-    want: f64,
-    /// Passes when |got − want| ≤ rel·|want| + abs.
-    rel: f64,
-    abs: f64,
-    source: &'static str,
-}
-
-fn row(what: impl Into<String>, got: f64, want: f64, rel: f64, abs: f64, source: &'static str) -> Row {
-    Row { what: what.into(), got, want, rel, abs, source }
-}
-
-/// Prints every row and fails once, listing every row outside its tolerance.
-fn check(rows: &[Row]) {
-    let mut failures = Vec::new();
-    for r in rows {
-        let ok = (r.got - r.want).abs() <= r.rel * r.want.abs() + r.abs && r.got.is_finite();
-        println!("{} {:<60} got {:<14.6e} want {:<14.6e} [{}]", if ok { "ok  " } else { "FAIL" }, r.what, r.got, r.want, r.source);
-        if !ok {
-            failures.push(format!("{}: got {:e}, want {:e} (±{} rel + {:e} abs) [{}]", r.what, r.got, r.want, r.rel, r.abs, r.source));
-        }
-    }
-    assert!(failures.is_empty(), "{} of {} checks failed:\n{}", failures.len(), rows.len(), failures.join("\n"));
-}
 
 // ---------------------------------------------------------------------------------------
 // Hand-built circuits
@@ -146,20 +116,20 @@ fn johnson_noise_and_conversion_match_references() {
     let ideal = noise::noise(&probe_request(100.0), &resistor_into_buffer(10e3, quiet_amp(0.0, 0.0, 0.0)), 1.0, None, &cfg(0.0, 160, false));
 
     check(&[
-        row("√(4kTR), 1 kΩ, 300 K (V/√Hz)", noise::johnson_density(1e3, 300.0), 4.0704e-9, 1e-4, 0.0, REF_C),
-        row("√(4kTR·Δf), 10 kΩ, 300 K, 10 kHz (V rms)", noise::johnson_density(10e3, 300.0) * 1e4f64.sqrt(), 1.2872e-6, 1e-4, 0.0, REF_C),
-        row("Boltzmann constant (J/K)", noise::BOLTZMANN, 1.380649e-23, 0.0, 0.0, REF_C),
-        row("kT/C from the analysis, 10 kΩ and 10 pF, 300 K (V rms)", ktc.output_rms, 20.352e-6, 0.005, 0.0, REF_KTC),
-        row("ideal SNR, 12 bits (dB)", noise::ideal_snr_db(12), 74.01, 0.0, 0.005, REF_ADC),
-        row("ideal SNR, 16 bits (dB)", noise::ideal_snr_db(16), 98.09, 0.0, 0.005, REF_ADC),
-        row("LSB, 3.3 V, 12 bits (V)", noise::lsb(3.3, 12), 805.66e-6, 1e-5, 0.0, REF_ADC),
-        row("q/√12, 3.3 V, 12 bits (V rms)", noise::quantization_rms(noise::lsb(3.3, 12)), 232.58e-6, 3e-5, 0.0, REF_ADC),
-        row("ENOB of a 74.01 dB SINAD (bits)", noise::enob(74.01), 12.0, 0.0, 0.005, REF_ENOB),
-        row("noiseless 3.3 V 12-bit design: output noise (V)", ideal.output_rms, 0.0, 0.0, 0.0, REF_ADC),
-        row("noiseless 3.3 V 12-bit design: lsb (V)", ideal.lsb, 805.66e-6, 1e-5, 0.0, REF_ADC),
-        row("noiseless 3.3 V 12-bit design: quantization_rms (V)", ideal.quantization_rms, 232.58e-6, 3e-5, 0.0, REF_ADC),
-        row("noiseless 3.3 V 12-bit design: snr_db (dB)", ideal.snr_db, 74.01, 0.0, 0.005, REF_ADC),
-        row("noiseless 3.3 V 12-bit design: enob (bits)", ideal.enob, 12.0, 0.0, 0.005, REF_ENOB),
+        row_rel("√(4kTR), 1 kΩ, 300 K (V/√Hz)", noise::johnson_density(1e3, 300.0), 4.0704e-9, 1e-4, 0.0, REF_C),
+        row_rel("√(4kTR·Δf), 10 kΩ, 300 K, 10 kHz (V rms)", noise::johnson_density(10e3, 300.0) * 1e4f64.sqrt(), 1.2872e-6, 1e-4, 0.0, REF_C),
+        row_rel("Boltzmann constant (J/K)", noise::BOLTZMANN, 1.380649e-23, 0.0, 0.0, REF_C),
+        row_rel("kT/C from the analysis, 10 kΩ and 10 pF, 300 K (V rms)", ktc.output_rms, 20.352e-6, 0.005, 0.0, REF_KTC),
+        row_rel("ideal SNR, 12 bits (dB)", noise::ideal_snr_db(12), 74.01, 0.0, 0.005, REF_ADC),
+        row_rel("ideal SNR, 16 bits (dB)", noise::ideal_snr_db(16), 98.09, 0.0, 0.005, REF_ADC),
+        row_rel("LSB, 3.3 V, 12 bits (V)", noise::lsb(3.3, 12), 805.66e-6, 1e-5, 0.0, REF_ADC),
+        row_rel("q/√12, 3.3 V, 12 bits (V rms)", noise::quantization_rms(noise::lsb(3.3, 12)), 232.58e-6, 3e-5, 0.0, REF_ADC),
+        row_rel("ENOB of a 74.01 dB SINAD (bits)", noise::enob(74.01), 12.0, 0.0, 0.005, REF_ENOB),
+        row_rel("noiseless 3.3 V 12-bit design: output noise (V)", ideal.output_rms, 0.0, 0.0, 0.0, REF_ADC),
+        row_rel("noiseless 3.3 V 12-bit design: lsb (V)", ideal.lsb, 805.66e-6, 1e-5, 0.0, REF_ADC),
+        row_rel("noiseless 3.3 V 12-bit design: quantization_rms (V)", ideal.quantization_rms, 232.58e-6, 3e-5, 0.0, REF_ADC),
+        row_rel("noiseless 3.3 V 12-bit design: snr_db (dB)", ideal.snr_db, 74.01, 0.0, 0.005, REF_ADC),
+        row_rel("noiseless 3.3 V 12-bit design: enob (bits)", ideal.enob, 12.0, 0.0, 0.005, REF_ENOB),
     ]);
 }
 
@@ -189,17 +159,17 @@ fn resistor_into_buffer_gives_johnson_noise() {
     let want_total = (johnson.powi(2) + want_v.powi(2) + want_i.powi(2)).sqrt();
 
     check(&[
-        row("band low (Hz)", f_lo, 0.1, 0.0, 0.0, RULE),
-        row("band high (Hz)", f_hi, 10e3, 0.0, 0.0, RULE),
-        row("10 kΩ into a buffer, resistors only (V rms)", quiet.output_rms, johnson, 0.005, 0.0, REF_C),
-        row("10 kΩ over 10 kHz, 300 K (V rms)", quiet.output_rms, 1.2872e-6, 0.005, 0.0, "references.md: 10 kΩ at 300 K over 10 kHz → 1.2872 µV rms"),
-        row("RSENSE contribution (V rms)", contributor(&quiet, "RSENSE"), johnson, 0.005, 0.0, REF_C),
-        row("RADC contribution, driven by the buffer (V rms)", contributor(&quiet, "RADC"), 0.0, 0.0, 1e-12, "a resistor across an ideal voltage source makes no noise there"),
-        row("input-referred, gain 1 (V rms)", quiet.input_rms, johnson, 0.005, 0.0, REF_C),
-        row("with amplifier: U1 voltage noise (V rms)", contributor(&noisy, "U1 voltage noise"), want_v, 0.005, 0.0, REF_SUM),
-        row("with amplifier: U1 current noise through 10 kΩ (V rms)", contributor(&noisy, "U1 current noise"), want_i, 0.005, 0.0, REF_SUM),
-        row("with amplifier: total (V rms)", noisy.output_rms, want_total, 0.005, 0.0, REF_SUM),
-        row("with amplifier: contributors", noisy.contributors.len() as f64, 4.0, 0.0, 0.0, "two resistors and the amplifier's two sources"),
+        row_rel("band low (Hz)", f_lo, 0.1, 0.0, 0.0, RULE),
+        row_rel("band high (Hz)", f_hi, 10e3, 0.0, 0.0, RULE),
+        row_rel("10 kΩ into a buffer, resistors only (V rms)", quiet.output_rms, johnson, 0.005, 0.0, REF_C),
+        row_rel("10 kΩ over 10 kHz, 300 K (V rms)", quiet.output_rms, 1.2872e-6, 0.005, 0.0, "references.md: 10 kΩ at 300 K over 10 kHz → 1.2872 µV rms"),
+        row_rel("RSENSE contribution (V rms)", contributor(&quiet, "RSENSE"), johnson, 0.005, 0.0, REF_C),
+        row_rel("RADC contribution, driven by the buffer (V rms)", contributor(&quiet, "RADC"), 0.0, 0.0, 1e-12, "a resistor across an ideal voltage source makes no noise there"),
+        row_rel("input-referred, gain 1 (V rms)", quiet.input_rms, johnson, 0.005, 0.0, REF_C),
+        row_rel("with amplifier: U1 voltage noise (V rms)", contributor(&noisy, "U1 voltage noise"), want_v, 0.005, 0.0, REF_SUM),
+        row_rel("with amplifier: U1 current noise through 10 kΩ (V rms)", contributor(&noisy, "U1 current noise"), want_i, 0.005, 0.0, REF_SUM),
+        row_rel("with amplifier: total (V rms)", noisy.output_rms, want_total, 0.005, 0.0, REF_SUM),
+        row_rel("with amplifier: contributors", noisy.contributors.len() as f64, 4.0, 0.0, 0.0, "two resistors and the amplifier's two sources"),
     ]);
 }
 
@@ -353,15 +323,15 @@ fn resistor_noise_matches_ngspice() {
         if dev > worst.0 {
             worst = (dev, s.name);
         }
-        rows.push(row(format!("{}: output noise", s.name), a.output_rms, total, SPICE_TOL, 0.0, SRC));
+        rows.push(row_rel(format!("{}: output noise", s.name), a.output_rms, total, SPICE_TOL, 0.0, SRC));
         // Part by part, for the parts that matter (≥ 0.1 % of the total).
         for c in &a.contributors {
             let key = format!("onoise_total_{}", c.part.to_ascii_lowercase());
             let Some(&want) = spice.get(&key) else {
-                rows.push(row(format!("{}: {} missing in ngspice", s.name, c.part), 1.0, 0.0, 0.0, 0.0, SRC));
+                rows.push(row_rel(format!("{}: {} missing in ngspice", s.name, c.part), 1.0, 0.0, 0.0, 0.0, SRC));
                 continue;
             };
-            rows.push(row(format!("{}: {}", s.name, c.part), c.output_rms, want, SPICE_TOL, 1e-3 * total, SRC));
+            rows.push(row_rel(format!("{}: {}", s.name, c.part), c.output_rms, want, SPICE_TOL, 1e-3 * total, SRC));
         }
         // What ngspice counts that the engine leaves out: the amplifier model's internal
         // resistor and clamp diodes. Their share of the output noise power must be negligible.
@@ -378,7 +348,7 @@ fn resistor_noise_matches_ngspice() {
         if share > worst_internal.0 {
             worst_internal = (share, s.name);
         }
-        rows.push(row(format!("{}: amplifier-internal share of noise power", s.name), share, 0.0, 0.0, 1e-4, "ngspice per-device summary"));
+        rows.push(row_rel(format!("{}: amplifier-internal share of noise power", s.name), share, 0.0, 0.0, 1e-4, "ngspice per-device summary"));
     }
     println!("worst deviation from ngspice: {:.2e} ({})", worst.0, worst.1);
     println!("largest amplifier-internal noise power share: {:.3e} ({})", worst_internal.0, worst_internal.1);
@@ -410,25 +380,25 @@ fn converter_figures_are_consistent_and_demos_finite() {
         let amplifiers = circuit.parts.iter().filter(|q| q.kind == PartKind::OpAmp).count();
         let has = |name: &str| a.contributors.iter().any(|c| c.part == name) as u8 as f64;
         rows.extend([
-            row(format!("{id}: non-finite numbers"), bad as f64, 0.0, 0.0, 0.0, "never NaN"),
-            row(format!("{id}: output noise is positive"), (a.output_rms > 0.0) as u8 as f64, 1.0, 0.0, 0.0, "resistors are noisy above 0 K"),
-            row(format!("{id}: lsb_ratio"), a.lsb_ratio, a.output_rms / a.lsb, 1e-12, 0.0, DEF),
-            row(format!("{id}: lsb"), a.lsb, span / 2f64.powi(req.destination.bits as i32), 1e-12, 0.0, "references.md: LSB = FSR/2^N"),
-            row(format!("{id}: snr_db"), a.snr_db, 20.0 * (fs_rms / a.output_rms.hypot(a.lsb / 12f64.sqrt())).log10(), 1e-12, 0.0, DEF),
-            row(format!("{id}: snr_db below the ideal"), (a.snr_db < noise::ideal_snr_db(req.destination.bits)) as u8 as f64, 1.0, 0.0, 0.0, "noise only adds"),
-            row(format!("{id}: enob"), a.enob, (a.snr_db - 1.76) / 6.02, 1e-12, 0.0, "references.md: ENOB = (SINAD − 1.76)/6.02"),
-            row(format!("{id}: input_rms × |gain|"), a.input_rms * p.gain.abs(), a.output_rms, 1e-12, 0.0, DEF),
-            row(format!("{id}: contributors add in power"), rss, a.output_rms, 1e-12, 0.0, "uncorrelated sources"),
-            row(format!("{id}: contributors sorted"), sorted as u8 as f64, 1.0, 0.0, 0.0, "API"),
-            row(format!("{id}: contributors"), a.contributors.len() as f64, (resistors + 2 * amplifiers) as f64, 0.0, 0.0, "every resistor and each amplifier's two sources"),
+            row_rel(format!("{id}: non-finite numbers"), bad as f64, 0.0, 0.0, 0.0, "never NaN"),
+            row_rel(format!("{id}: output noise is positive"), (a.output_rms > 0.0) as u8 as f64, 1.0, 0.0, 0.0, "resistors are noisy above 0 K"),
+            row_rel(format!("{id}: lsb_ratio"), a.lsb_ratio, a.output_rms / a.lsb, 1e-12, 0.0, DEF),
+            row_rel(format!("{id}: lsb"), a.lsb, span / 2f64.powi(req.destination.bits as i32), 1e-12, 0.0, "references.md: LSB = FSR/2^N"),
+            row_rel(format!("{id}: snr_db"), a.snr_db, 20.0 * (fs_rms / a.output_rms.hypot(a.lsb / 12f64.sqrt())).log10(), 1e-12, 0.0, DEF),
+            row_rel(format!("{id}: snr_db below the ideal"), (a.snr_db < noise::ideal_snr_db(req.destination.bits)) as u8 as f64, 1.0, 0.0, 0.0, "noise only adds"),
+            row_rel(format!("{id}: enob"), a.enob, (a.snr_db - 1.76) / 6.02, 1e-12, 0.0, "references.md: ENOB = (SINAD − 1.76)/6.02"),
+            row_rel(format!("{id}: input_rms × |gain|"), a.input_rms * p.gain.abs(), a.output_rms, 1e-12, 0.0, DEF),
+            row_rel(format!("{id}: contributors add in power"), rss, a.output_rms, 1e-12, 0.0, "uncorrelated sources"),
+            row_rel(format!("{id}: contributors sorted"), sorted as u8 as f64, 1.0, 0.0, 0.0, "API"),
+            row_rel(format!("{id}: contributors"), a.contributors.len() as f64, (resistors + 2 * amplifiers) as f64, 0.0, 0.0, "every resistor and each amplifier's two sources"),
             // The sensor's own resistance: RSENSE for voltage kinds; a loop's shunt is a part.
             // (a photodiode has none: its current source and capacitance are noiseless here).
-            row(format!("{id}: sensor resistance listed"), if req.source.current_loop.is_some() { has(&d.current_loop().map_or(String::new(), |l| l.shunt_ref.clone())) } else if d.photodiode().is_some() { 1.0 } else if d.differential().is_some() { has("RSENSEP") * has("RSENSEN") } else { has("RSENSE") }, 1.0, 0.0, 0.0, "API"),
-            row(format!("{id}: RADC listed"), has("RADC"), 1.0, 0.0, 0.0, "API"),
-            row(format!("{id}: U1 voltage noise listed"), has("U1 voltage noise"), 1.0, 0.0, 0.0, "API"),
-            row(format!("{id}: U1 current noise listed"), has("U1 current noise"), 1.0, 0.0, 0.0, "API"),
-            row(format!("{id}: density points"), a.density.len() as f64, 160.0, 0.0, 0.0, "NoiseConfig::points"),
-            row(format!("{id}: band high ≤ Nyquist"), (a.band[1] <= 0.5 * req.destination.sample_rate) as u8 as f64, 1.0, 0.0, 0.0, "band rule"),
+            row_rel(format!("{id}: sensor resistance listed"), if req.source.current_loop.is_some() { has(&d.current_loop().map_or(String::new(), |l| l.shunt_ref.clone())) } else if d.photodiode().is_some() { 1.0 } else if d.differential().is_some() { has("RSENSEP") * has("RSENSEN") } else { has("RSENSE") }, 1.0, 0.0, 0.0, "API"),
+            row_rel(format!("{id}: RADC listed"), has("RADC"), 1.0, 0.0, 0.0, "API"),
+            row_rel(format!("{id}: U1 voltage noise listed"), has("U1 voltage noise"), 1.0, 0.0, 0.0, "API"),
+            row_rel(format!("{id}: U1 current noise listed"), has("U1 current noise"), 1.0, 0.0, 0.0, "API"),
+            row_rel(format!("{id}: density points"), a.density.len() as f64, 160.0, 0.0, 0.0, "NoiseConfig::points"),
+            row_rel(format!("{id}: band high ≤ Nyquist"), (a.band[1] <= 0.5 * req.destination.sample_rate) as u8 as f64, 1.0, 0.0, 0.0, "band rule"),
         ]);
     }
 
@@ -446,7 +416,7 @@ fn converter_figures_are_consistent_and_demos_finite() {
         let a = noise::noise(&demo, circuit, gain, corner, &c);
         let numbers = [a.band[0], a.band[1], a.output_rms, a.input_rms, a.lsb, a.quantization_rms, a.lsb_ratio, a.snr_db, a.enob, a.temperature];
         let bad = numbers.iter().chain(a.contributors.iter().map(|c| &c.output_rms)).chain(a.density.iter().flat_map(|p| [&p.f, &p.output])).filter(|x| !x.is_finite()).count();
-        rows.push(row(format!("odd input ({what}): non-finite numbers"), bad as f64, 0.0, 0.0, 0.0, "never NaN"));
+        rows.push(row_rel(format!("odd input ({what}): non-finite numbers"), bad as f64, 0.0, 0.0, 0.0, "never NaN"));
     }
     check(&rows);
 }

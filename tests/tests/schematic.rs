@@ -446,9 +446,9 @@ fn test_points_follow_the_solver() {
         let p = d.predicted.expect("predicted");
         let tps = test_points(&req, &c);
         let ac = req.source.coupling == rangefit_engine::request::Coupling::Ac;
-        // A differential pair (synth::diffamp: bench legs to `sensep` and `sensen`) has a
+        // A differential pair (synth::front::difference: bench legs to `sensep` and `sensen`) has a
         // test point on each terminal instead of the one `sense`; behind an instrumentation
-        // amplifier (synth::inamp::insert: U1 drives `oa`, U2 `ob`) one on each of the
+        // amplifier (synth::front::instrumentation::insert: U1 drives `oa`, U2 `ob`) one on each of the
         // first stage's outputs as well.
         let pair = c.nodes().iter().any(|n| n == "sensep");
         let inamp = c.parts.iter().any(|p| p.stage == StageRole::InputStage);
@@ -469,7 +469,7 @@ fn test_points_follow_the_solver() {
         // terminal carries the loop current times the shunt (Ohm's law).
         if req.source.kind == rangefit_engine::request::SourceKind::Photodiode {
             // A photodiode's terminal is the transimpedance amplifier's − input, held at the
-            // + input's bias (virtual earth, synth::tia): it barely moves while U1's output
+            // + input's bias (virtual earth, synth::front::transimpedance): it barely moves while U1's output
             // `tia` swings by the photocurrent times R_f.
             let solver = Solver::new(&c);
             let at = |x: f64| solver.dc(x).ok().and_then(|o| o.voltage("tia")).expect("tia level");
@@ -507,7 +507,7 @@ fn odd_circuits_never_panic_and_parts_are_never_dropped() {
     let mut broken = harbour.clone();
     let second = broken.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter).nth(1).map(|p| p.reference.clone());
     broken.parts.retain(|p| Some(&p.reference) != second.as_ref());
-    // An instrumentation amplifier without its gain resistor R_G (synth::inamp::insert):
+    // An instrumentation amplifier without its gain resistor R_G (synth::front::instrumentation::insert):
     // not the first stage the drawing recognises, so it draws as before, parts not placed
     // by role in the fallback area.
     let beehive = demos::ALL.iter().find(|d| d.id == "beehive-scale").expect("beehive demo").json;
@@ -762,7 +762,7 @@ fn check_buffer(what: &str, req: &Request, c: &Circuit, s: &Schematic, lifted: b
     check(what, c, s, Some(req));
     let doc = roxmltree::Document::parse(&s.svg).unwrap();
     let words = texts(&doc);
-    // Design contract (synth::buffer::insert): U1 is the follower of the buffer stage, + at
+    // Design contract (synth::front::follower::insert): U1 is the follower of the buffer stage, + at
     // the sensor terminal, − tied to its output.
     let u1 = c.parts.iter().find(|p| p.reference == "U1").unwrap_or_else(|| panic!("{what}: no U1"));
     assert_eq!((u1.kind, u1.stage), (PartKind::OpAmp, StageRole::Buffer), "{what}: U1 is not the buffer");
@@ -828,7 +828,7 @@ fn check_photodiode(what: &str, req: &Request, c: &Circuit, s: &Schematic, dark:
     check(what, c, s, Some(req));
     let doc = roxmltree::Document::parse(&s.svg).unwrap();
     let words = texts(&doc);
-    // Design contract (synth::tia::insert): U1 is the transimpedance amplifier, − input at
+    // Design contract (synth::front::transimpedance::insert): U1 is the transimpedance amplifier, − input at
     // the sensor terminal, output `tia`, + input at `pdb` (one supply) or ground (split rails).
     let u1 = c.parts.iter().find(|p| p.reference == "U1").unwrap_or_else(|| panic!("{what}: no U1"));
     assert_eq!((u1.kind, u1.stage), (PartKind::OpAmp, StageRole::Transimpedance), "{what}: U1 is not the transimpedance stage");
@@ -872,7 +872,7 @@ fn photodiode_front_ends_are_drawn_by_role() {
     let light = demos::ALL.iter().find(|d| d.id == "greenhouse-light").expect("light demo").json;
     let rows: Vec<(&str, String, bool, bool)> = vec![
         // The demo: one 3.3 V supply, so the + input sits on the bias divider `pdb` with its
-        // bypass (synth::tia: the output kept off the lower rail); a dark current is stated.
+        // bypass (synth::front::transimpedance: the output kept off the lower rail); a dark current is stated.
         ("greenhouse light, one supply, dark current", light.to_string(), true, true),
         // Split rails: the + input at ground, no divider; no dark current stated, no IDARK.
         (
@@ -899,7 +899,7 @@ fn check_differential(what: &str, req: &Request, c: &Circuit, s: &Schematic, fol
     check(what, c, s, Some(req));
     let doc = roxmltree::Document::parse(&s.svg).unwrap();
     let words = texts(&doc);
-    // Design contract (synth::diffamp::synthesize): U1 is the difference amplifier of the
+    // Design contract (synth::front::difference::synthesize): U1 is the difference amplifier of the
     // gain stage, + input `inp1`, − input `inn1`; with a non-zero reference U2 follows the
     // divider node `dref` and drives `ref`, where R4 of the amplifier ends.
     let u1 = c.parts.iter().find(|p| p.reference == "U1").unwrap_or_else(|| panic!("{what}: no U1"));
@@ -947,7 +947,7 @@ fn differential_front_ends_are_drawn_by_role() {
     let rows: Vec<(&str, String, bool)> = vec![
         // The demo: ±2 V riding near 2.5 V into a 0 … 3.3 V converter on one 5 V supply, so
         // the output needs an offset: R4 ends at `ref`, driven by U2 from a divider with its
-        // bypass (synth::diffamp: a divider alone would add its resistance to R4).
+        // bypass (synth::front::difference: a divider alone would add its resistance to R4).
         ("polytunnel airflow, one supply, buffered reference", airflow.to_string(), true),
         // Split rails, ±1 V into ±2.5 V: no offset, so R4 goes to ground and there is no U2.
         (
@@ -986,7 +986,7 @@ fn check_instrumentation(what: &str, req: &Request, c: &Circuit, s: &Schematic, 
     check(what, c, s, Some(req));
     let doc = roxmltree::Document::parse(&s.svg).unwrap();
     let words = texts(&doc);
-    // Design contract (synth::inamp::insert): U1 and U2 are the input stage, + inputs `ipp`
+    // Design contract (synth::front::instrumentation::insert): U1 and U2 are the input stage, + inputs `ipp`
     // and `ipn` behind the protection resistors, outputs `oa` and `ob`; followers tie the
     // − input to the output, otherwise R_F joins each output to its − input and R_G the two
     // − inputs; U3 is the difference amplifier, fed from `oa` and `ob`.
@@ -1041,13 +1041,13 @@ fn instrumentation_front_ends_are_drawn_by_role() {
     let beehive = demos::ALL.iter().find(|d| d.id == "beehive-scale").expect("beehive demo").json;
     let rows: Vec<(&str, String, bool)> = vec![
         // The demo: a load-cell bridge always gets the instrumentation amplifier
-        // (synth::inamp::wanted), with most of its gain of about 450 in the first stage.
+        // (synth::front::instrumentation::wanted), with most of its gain of about 450 in the first stage.
         ("beehive scale, bridge", beehive.to_string(), false),
         // A soil-moisture probe's pair, ±40 mV on a 1.1 … 1.5 V common mode: a gain of about
         // 40 wanted, of which the first stage's outputs can swing most.
         ("soil-moisture probe pair", pair("Soil-moisture probe pair", ("-40 mV", "40 mV"), (1.1, 1.5), "2k", "5 Hz", 3.3), false),
         // ±2 V about 2.5 V into 3.3 V wants a gain below one, so the first stage stays at
-        // unity: two followers, no R_F or R_G (synth::inamp::plan).
+        // unity: two followers, no R_F or R_G (synth::front::instrumentation::plan).
         ("valve coil sense, followers", pair("Valve coil sense", ("-2", "2"), (2.4, 2.6), "500", "200 Hz", 5.0), true),
     ];
     for (what, json, followers) in &rows {

@@ -12,8 +12,9 @@ use rangefit_engine::netlist::{netlist, NetlistConfig};
 use rangefit_engine::{design, Design, Request};
 use rangefit_tests::run_ngspice;
 
-mod rows;
-use rows::{check, fact, request, row, spice_pairs};
+mod bench;
+use bench::{request, spice_pairs};
+use rangefit_tests::rows::{check, fact, row};
 
 /// v(adc) from ngspice for each loop current (`ISENSE` altered, operating point).
 fn spice_outputs(tag: &str, d: &Design, currents: &[f64]) -> Vec<f64> {

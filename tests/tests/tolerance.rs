@@ -11,50 +11,7 @@ use rangefit_engine::circuit::{Builder, Circuit, PartKind, StageRole};
 use rangefit_engine::request::{AmplifierSpec, Coupling, Request};
 use rangefit_engine::solve::{Solver, GM, GMIN};
 use rangefit_engine::{demos, design};
-
-// ---------------------------------------------------------------------------------------
-// One check helper for every table.
-
-#[derive(Clone, Copy, Debug)]
-enum Cmp {
-    /// |got − want| ≤ tol.
-    Near(f64),
-    /// got ≤ want + tol.
-    AtMost(f64),
-    /// got ≥ want − tol.
-    AtLeast(f64),
-}
-
-/// One expectation: what is measured, the reference value, how it compares, and where the
-/// reference comes from.
-struct Check {
-    what: String,
-    got: f64,
-    want: f64,
-    cmp: Cmp,
-    source: &'static str,
-}
-
-fn near(what: impl Into<String>, got: f64, want: f64, tol: f64, source: &'static str) -> Check {
-    Check { what: what.into(), got, want, cmp: Cmp::Near(tol), source }
-}
-
-fn check(checks: &[Check]) {
-    let failed: Vec<String> = checks
-        .iter()
-        .filter(|c| {
-            let ok = match c.cmp {
-                Cmp::Near(t) => (c.got - c.want).abs() <= t,
-                Cmp::AtMost(t) => c.got <= c.want + t,
-                Cmp::AtLeast(t) => c.got >= c.want - t,
-            };
-            !ok
-        })
-        .map(|c| format!("{}: got {:e}, reference {:e} ({:?}) — {}", c.what, c.got, c.want, c.cmp, c.source))
-        .collect();
-    assert!(checks.len() > 0, "no checks ran");
-    assert!(failed.is_empty(), "{} of {} checks failed:\n{}", failed.len(), checks.len(), failed.join("\n"));
-}
+use rangefit_tests::rows::{at_least, at_most, check, row as near};
 
 // ---------------------------------------------------------------------------------------
 // Scenarios of our own.
@@ -377,7 +334,7 @@ fn kernel_agrees_on_seeded_random_circuits() {
             }
         }
     }
-    checks.push(Check { what: "random builds compared".into(), got: compared as f64, want: 100.0, cmp: Cmp::AtLeast(0.0), source: "at least half the random builds have an operating point inside the rails" });
+    checks.push(at_least("random builds compared", compared as f64, 100.0, 0.0, "at least half the random builds have an operating point inside the rails"));
     check(&checks);
 }
 
@@ -496,8 +453,8 @@ fn worst_case_contains_every_monte_carlo_build() {
         let (wc, mc) = (wc_of(&t), mc_of(&t));
         for j in 0..4 {
             let eps = 1e-12 * (1.0 + wc[j][0].abs().max(wc[j][1].abs()));
-            checks.push(Check { what: format!("{label} {} builds' min", Q[j]), got: mc[j].min, want: wc[j][0], cmp: Cmp::AtLeast(eps), source: "worst case bounds the box" });
-            checks.push(Check { what: format!("{label} {} builds' max", Q[j]), got: mc[j].max, want: wc[j][1], cmp: Cmp::AtMost(eps), source: "worst case bounds the box" });
+            checks.push(at_least(format!("{label} {} builds' min", Q[j]), mc[j].min, wc[j][0], eps, "worst case bounds the box"));
+            checks.push(at_most(format!("{label} {} builds' max", Q[j]), mc[j].max, wc[j][1], eps, "worst case bounds the box"));
         }
     }
     check(&checks);
@@ -621,8 +578,8 @@ fn odd_inputs_do_not_panic() {
         near("unbounded bins: capped", wide.monte_carlo.histograms.output_at_min.counts.len() as f64, MAX_BINS as f64, 0.0, "ToleranceConfig::bins limit"),
         // A NaN resistance falls to the solvers' 1 nΩ floor (as in the general solver), so
         // the builds still solve; the yield is a share, whatever it is.
-        Check { what: "NaN part values: yield is a share".into(), got: nan.monte_carlo.yield_, want: 0.0, cmp: Cmp::AtLeast(0.0), source: "yield counts builds" },
-        Check { what: "NaN part values: yield is a share".into(), got: nan.monte_carlo.yield_, want: 1.0, cmp: Cmp::AtMost(0.0), source: "yield counts builds" },
+        at_least("NaN part values: yield is a share", nan.monte_carlo.yield_, 0.0, 0.0, "yield counts builds"),
+        at_most("NaN part values: yield is a share", nan.monte_carlo.yield_, 1.0, 0.0, "yield counts builds"),
         near("no builds: yield is NaN (JSON null)", none.monte_carlo.yield_.is_nan() as u8 as f64, 1.0, 0.0, "no builds, nothing to count"),
         near("no builds: worst case still computed", none.worst_case.gain[0].is_finite() as u8 as f64, 1.0, 0.0, "worst case needs no builds"),
         near("unsupported circuit: stated as not available", refused.worst_case.method.starts_with("not available") as u8 as f64, 1.0, 0.0, "kernel refuses floating sources"),

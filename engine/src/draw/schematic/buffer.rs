@@ -1,6 +1,6 @@
 //! The input buffer of a high-impedance sensor, and that sensor's bench model.
 //!
-//! Recognised by the design contract of `synth::buffer`: an amplifier of the buffer stage
+//! Recognised by the design contract of `synth::front::follower`: an amplifier of the buffer stage
 //! wired as a follower (− input tied to the output), its + input at the sensor terminal
 //! `sense`. It gets the first row to itself: the sensor box, the free run of the sensor line
 //! (TP1), the legs hanging from that line (the bias resistor: to ground or a rail as a leg,

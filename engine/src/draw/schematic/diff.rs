@@ -1,6 +1,6 @@
 //! The difference amplifier of a differential sensor, and that sensor's bench model.
 //!
-//! Recognised by the design contract of `synth::diffamp`: a bench EMF between two legs
+//! Recognised by the design contract of `synth::front::difference`: a bench EMF between two legs
 //! (`VSENSE`, neither node ground), a source from its second leg to ground (`VCM`), a bench
 //! resistor from each leg to a terminal (`RSENSEP`, `RSENSEN`); an amplifier of the gain
 //! stage with one input resistor from each terminal to one of its inputs, feedback from the

@@ -1,7 +1,7 @@
 //! The instrumentation amplifier of a differential pair or a bridge: a first stage of two
 //! input amplifiers, then the difference amplifier that `diff` draws.
 //!
-//! Recognised by the design contract of `synth::inamp`: the pair's bench model (as `diff`
+//! Recognised by the design contract of `synth::front::instrumentation`: the pair's bench model (as `diff`
 //! recognises it); from each terminal one resistor of the input stage (the leg's protection
 //! resistor) to the + input of an input-stage amplifier, the upper leg's amplifier first;
 //! either both amplifiers followers (− input tied to the output), or each with its − input
@@ -215,7 +215,7 @@ fn caption(description: &str) -> Vec<String> {
 mod tests {
     use super::caption;
 
-    // Source: synth::inamp::insert, the stage descriptions it writes.
+    // Source: synth::front::instrumentation::insert, the stage descriptions it writes.
     #[test]
     fn caption_splits_the_model_text() {
         assert_eq!(caption("instrumentation-amplifier input stage, gain 441.000 (R_G 75 Ω)"), ["instrumentation-amplifier input stage", "gain 441.000 (R_G 75 Ω)"]);

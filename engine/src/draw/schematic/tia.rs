@@ -1,6 +1,6 @@
 //! The transimpedance stage of a photodiode, and the photodiode's bench model.
 //!
-//! Recognised by the design contract of `synth::tia`: an amplifier of the transimpedance
+//! Recognised by the design contract of `synth::front::transimpedance`: an amplifier of the transimpedance
 //! stage whose − input (the sensor terminal, the diode's cathode) is not its output, with
 //! the feedback parts (R_f, C_f) from the output back to the − input, and the + input at
 //! ground, at a rail, or at a bias node held by a divider with its bypass. It gets the first

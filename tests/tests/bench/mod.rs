@@ -1,38 +1,10 @@
-//! The data-driven check helper of the sensor tests (one row per expectation, each naming
-//! its source) and the ngspice bench for differential pairs, shared by `sensors.rs` and
-//! `inamp.rs`.
+//! The request reader and the ngspice bench for differential pairs, shared by `sensors.rs`
+//! and `inamp.rs`. The row/check helper they use is `rangefit_tests::rows`.
 #![allow(dead_code)]
 
 use rangefit_engine::netlist::{netlist, NetlistConfig};
 use rangefit_engine::{Design, Request};
 use rangefit_tests::run_ngspice;
-
-/// One expectation: what, the value, the reference, the tolerance and the reference's source.
-pub struct Row {
-    what: String,
-    got: f64,
-    want: f64,
-    tol: f64,
-    source: &'static str,
-}
-
-pub fn row(what: impl Into<String>, got: f64, want: f64, tol: f64, source: &'static str) -> Row {
-    Row { what: what.into(), got, want, tol, source }
-}
-
-pub fn fact(what: impl Into<String>, ok: bool, source: &'static str) -> Row {
-    row(what, if ok { 1.0 } else { 0.0 }, 1.0, 0.0, source)
-}
-
-/// The one check helper: every failing row is listed with its source.
-pub fn check(rows: &[Row]) {
-    let bad: Vec<String> = rows
-        .iter()
-        .filter(|r| !((r.got - r.want).abs() <= r.tol) || r.got.is_nan())
-        .map(|r| format!("{}: got {}, want {} ± {} [{}]", r.what, r.got, r.want, r.tol, r.source))
-        .collect();
-    assert!(bad.is_empty(), "{} of {} checks failed:\n{}", bad.len(), rows.len(), bad.join("\n"));
-}
 
 pub fn request(json: &str) -> Request {
     Request::from_json(json).unwrap_or_else(|e| panic!("{e}\n{json}"))
