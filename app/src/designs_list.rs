@@ -124,10 +124,7 @@ pub fn Sidebar() -> impl IntoView {
 /// One saved design in the list, with its actions.
 #[component]
 fn SavedEntry<F>(
-    saved: Saved,
-    is_current: bool,
-    renaming: RwSignal<Option<(String, String)>>,
-    deleting: RwSignal<Option<String>>,
+    saved: Saved, is_current: bool, renaming: RwSignal<Option<(String, String)>>, deleting: RwSignal<Option<String>>,
     rename_done: F,
 ) -> impl IntoView
 where

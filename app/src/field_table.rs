@@ -271,12 +271,7 @@ const AMP_MODES: &[(&str, &str)] = &[
 
 /// One row of [`FIELDS`].
 const fn entry(
-    path: &'static str,
-    label: &'static str,
-    kind: Kind,
-    step: Step,
-    group: &'static str,
-    required: bool,
+    path: &'static str, label: &'static str, kind: Kind, step: Step, group: &'static str, required: bool,
     help: &'static str,
 ) -> Field {
     Field { path, label, kind, step, group, required, help }

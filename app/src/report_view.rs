@@ -288,11 +288,10 @@ fn assumptions_node(s: &Shown) -> Node {
 pub fn block_node(b: &rangefit_engine::figures::Block) -> Node {
     let mut out = el("div").child(el("h4").text(&b.title));
     if !b.rows.is_empty() {
-        out = out.child(
-            el_c("dl", "mapping")
-                .attr("data-testid", &b.id)
-                .children(b.rows.iter().map(|r| el("div").child(el("dt").text(&r.label)).child(el("dd").text(&r.text)))),
-        );
+        out =
+            out.child(el_c("dl", "mapping").attr("data-testid", &b.id).children(
+                b.rows.iter().map(|r| el("div").child(el("dt").text(&r.label)).child(el("dd").text(&r.text))),
+            ));
     }
     if let Some(t) = &b.table {
         let heads: Vec<&str> = t.header.iter().map(String::as_str).collect();

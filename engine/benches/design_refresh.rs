@@ -22,10 +22,14 @@ fn bench(c: &mut Criterion) {
         let rails = rangefit_engine::amplifier::Rails::choose(&req);
         let amp = rangefit_engine::amplifier::Amplifier::resolve(&req.amplifier, rails);
         if let Some(t) = d.target {
-            c.bench_function(&format!("synthesis/{id}"), |b| b.iter(|| rangefit_engine::synth::synthesize(black_box(&req), &amp, rails, t)));
+            c.bench_function(&format!("synthesis/{id}"), |b| {
+                b.iter(|| rangefit_engine::synth::synthesize(black_box(&req), &amp, rails, t))
+            });
         }
         let no_mc = AnalysisConfig { monte_carlo_runs: 0, ..cfg.clone() };
-        c.bench_function(&format!("design_without_monte_carlo/{id}"), |b| b.iter(|| rangefit_engine::design::design_with(black_box(&req), &no_mc)));
+        c.bench_function(&format!("design_without_monte_carlo/{id}"), |b| {
+            b.iter(|| rangefit_engine::design::design_with(black_box(&req), &no_mc))
+        });
     }
 }
 

@@ -83,7 +83,13 @@ pub fn bom(design: &Design) -> Vec<BomRow> {
         };
         // One row per distinct part: same kind, value, tolerance, rating and construction
         // (every amplifier of the design is the same part, meeting the same requirements).
-        match rows.iter_mut().find(|r| r.kind == row.kind && r.value == row.value && r.tolerance == row.tolerance && r.rating == row.rating && r.construction == row.construction) {
+        match rows.iter_mut().find(|r| {
+            r.kind == row.kind
+                && r.value == row.value
+                && r.tolerance == row.tolerance
+                && r.rating == row.rating
+                && r.construction == row.construction
+        }) {
             Some(r) => {
                 r.designators.extend(row.designators);
                 r.quantity += 1;
@@ -101,12 +107,24 @@ pub fn bom(design: &Design) -> Vec<BomRow> {
 /// CSV per RFC 4180 with a header line.
 pub fn to_csv(rows: &[BomRow]) -> String {
     let mut out = String::new();
-    let header = ["designators", "quantity", "kind", "value", "tolerance", "tolerance_code", "rating", "construction", "notes"];
+    let header =
+        ["designators", "quantity", "kind", "value", "tolerance", "tolerance_code", "rating", "construction", "notes"];
     push_record(&mut out, header.iter().map(|s| s.to_string()));
     for r in rows {
         push_record(
             &mut out,
-            [r.designators.join(" "), r.quantity.to_string(), r.kind.clone(), r.value.clone(), r.tolerance.clone(), r.tolerance_code.clone(), r.rating.clone(), r.construction.clone(), r.notes.clone()].into_iter(),
+            [
+                r.designators.join(" "),
+                r.quantity.to_string(),
+                r.kind.clone(),
+                r.value.clone(),
+                r.tolerance.clone(),
+                r.tolerance_code.clone(),
+                r.rating.clone(),
+                r.construction.clone(),
+                r.notes.clone(),
+            ]
+            .into_iter(),
         );
     }
     out
@@ -175,7 +193,8 @@ fn tolerance_text(t: Option<f64>) -> (String, String) {
     match t {
         Some(t) => {
             let pct = t * 100.0;
-            let text = if (pct - pct.round()).abs() < 1e-9 { format!("±{} %", pct.round()) } else { format!("±{pct} %") };
+            let text =
+                if (pct - pct.round()).abs() < 1e-9 { format!("±{} %", pct.round()) } else { format!("±{pct} %") };
             (text, values::tolerance_letter(t).map(|c| c.to_string()).unwrap_or_default())
         }
         None => (String::new(), String::new()),
@@ -196,7 +215,11 @@ fn resistor_row(p: &Part, s: &Stress) -> BomRow {
         value_si: p.value,
         tolerance,
         tolerance_code,
-        rating: if rating.is_finite() { format!("≥ {}", format(rating, Quantity::Power)) } else { format!("≥ {} (use a power resistor)", format(RATING_MARGIN * power, Quantity::Power)) },
+        rating: if rating.is_finite() {
+            format!("≥ {}", format(rating, Quantity::Power))
+        } else {
+            format!("≥ {} (use a power resistor)", format(RATING_MARGIN * power, Quantity::Power))
+        },
         construction: "thin-film or metal-film".to_string(),
         stress: power,
         notes: String::new(),
@@ -218,7 +241,11 @@ fn capacitor_row(p: &Part, s: &Stress) -> BomRow {
     } else if p.value <= 10e-9 {
         "C0G/NP0 ceramic".to_string()
     } else if !large {
-        if in_signal_path { "film (polyester or polypropylene)".to_string() } else { "X7R ceramic".to_string() }
+        if in_signal_path {
+            "film (polyester or polypropylene)".to_string()
+        } else {
+            "X7R ceramic".to_string()
+        }
     } else if one_sign {
         let plus = if at_op >= 0.0 { &p.nodes[0] } else { &p.nodes[1] };
         format!("aluminium electrolytic, polarised: + to node {plus}")
@@ -234,12 +261,20 @@ fn capacitor_row(p: &Part, s: &Stress) -> BomRow {
         value_si: p.value,
         tolerance,
         tolerance_code,
-        rating: if rating.is_finite() { format!("≥ {}", format(rating, Quantity::Voltage)) } else { format!("≥ {}", format(RATING_MARGIN * v, Quantity::Voltage)) },
+        rating: if rating.is_finite() {
+            format!("≥ {}", format(rating, Quantity::Voltage))
+        } else {
+            format!("≥ {}", format(RATING_MARGIN * v, Quantity::Voltage))
+        },
         construction,
         stress: v,
         // Below a millivolt the DC across is the amplifiers' finite gain, not a bias: say so
         // instead of printing microvolts that read like a design value.
-        notes: if at_op.abs() < 1e-3 { "about 0 V across at rest".to_string() } else { format!("{} across at rest", format(at_op, Quantity::Voltage)) },
+        notes: if at_op.abs() < 1e-3 {
+            "about 0 V across at rest".to_string()
+        } else {
+            format!("{} across at rest", format(at_op, Quantity::Voltage))
+        },
     }
 }
 
@@ -254,10 +289,20 @@ fn diode_row(p: &Part, s: &Stress) -> BomRow {
         value_si: p.value,
         tolerance: String::new(),
         tolerance_code: String::new(),
-        rating: format!("reverse ≥ {}, ≥ 10 mA", format(VOLTAGE_RATINGS.iter().copied().find(|&r| r >= RATING_MARGIN * reverse).unwrap_or(6.3), Quantity::Voltage)),
+        rating: format!(
+            "reverse ≥ {}, ≥ 10 mA",
+            format(
+                VOLTAGE_RATINGS.iter().copied().find(|&r| r >= RATING_MARGIN * reverse).unwrap_or(6.3),
+                Quantity::Voltage
+            )
+        ),
         construction: "small-signal Schottky, low leakage".to_string(),
         stress: reverse,
-        notes: format!("anode {}, cathode {}", p.nodes.first().map(String::as_str).unwrap_or(""), p.nodes.get(1).map(String::as_str).unwrap_or("")),
+        notes: format!(
+            "anode {}, cathode {}",
+            p.nodes.first().map(String::as_str).unwrap_or(""),
+            p.nodes.get(1).map(String::as_str).unwrap_or("")
+        ),
     }
 }
 
@@ -267,7 +312,10 @@ fn amplifier_row(p: &Part, d: &Design) -> BomRow {
         designators: vec![p.reference.clone()],
         quantity: 1,
         kind: "amplifier".to_string(),
-        value: format!("GBW ≥ {}", format(d.requirements.as_ref().map(|r| r.gbw_min).unwrap_or(p.value), Quantity::Frequency)),
+        value: format!(
+            "GBW ≥ {}",
+            format(d.requirements.as_ref().map(|r| r.gbw_min).unwrap_or(p.value), Quantity::Frequency)
+        ),
         value_si: p.value,
         tolerance: String::new(),
         tolerance_code: String::new(),

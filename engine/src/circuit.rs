@@ -67,7 +67,8 @@ pub fn is_sensor_source(p: &Part) -> bool {
 /// bypass, a sensor's series capacitance) is a short there.
 pub fn open_at_mid_band(p: &Part) -> bool {
     p.kind == PartKind::Capacitor
-        && (matches!(p.stage, StageRole::Filter | StageRole::Drive | StageRole::Transimpedance) || (p.bench && p.stage == StageRole::Sensor && p.nodes.iter().any(|n| n == GND)))
+        && (matches!(p.stage, StageRole::Filter | StageRole::Drive | StageRole::Transimpedance)
+            || (p.bench && p.stage == StageRole::Sensor && p.nodes.iter().any(|n| n == GND)))
 }
 
 /// What a part is for; the stage it belongs to.
@@ -240,7 +241,9 @@ impl Builder {
     }
 
     /// Adds a part to build and returns its designator.
-    pub fn add(&mut self, kind: PartKind, value: f64, tolerance: Option<f64>, nodes: &[&str], stage: StageRole, purpose: &str) -> String {
+    pub fn add(
+        &mut self, kind: PartKind, value: f64, tolerance: Option<f64>, nodes: &[&str], stage: StageRole, purpose: &str,
+    ) -> String {
         let letter = match kind {
             PartKind::Resistor => 'R',
             PartKind::Capacitor => 'C',
@@ -265,7 +268,9 @@ impl Builder {
 
     /// Adds a front end's amplifier under a designator freed for it (U1, U2 after
     /// `synth::renumber_amplifiers`): nodes +, −, V+, V−, output; its value is the GBW.
-    pub fn front_amplifier(&mut self, designator: &str, gbw: f64, nodes: [&str; 5], stage: StageRole, purpose: &str) -> String {
+    pub fn front_amplifier(
+        &mut self, designator: &str, gbw: f64, nodes: [&str; 5], stage: StageRole, purpose: &str,
+    ) -> String {
         self.parts.push(Part {
             reference: designator.to_string(),
             kind: PartKind::OpAmp,
@@ -280,7 +285,9 @@ impl Builder {
     }
 
     /// Adds a bench part with a fixed name (VSENSE, RSENSE, VPOS, VNEG, RADC).
-    pub fn bench(&mut self, reference: &str, kind: PartKind, value: f64, nodes: &[&str], stage: StageRole, purpose: &str) {
+    pub fn bench(
+        &mut self, reference: &str, kind: PartKind, value: f64, nodes: &[&str], stage: StageRole, purpose: &str,
+    ) {
         self.parts.push(Part {
             reference: reference.to_string(),
             kind,

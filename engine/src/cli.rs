@@ -46,7 +46,8 @@ REQUEST.json may be - for standard input.";
 
 /// Runs the command with `args` (without the program name); `read` loads a path or `-`.
 pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Outcome {
-    let fail = |msg: String| Outcome { status: EXIT_USAGE, stdout: String::new(), stderr: format!("rangefit: {msg}\n") };
+    let fail =
+        |msg: String| Outcome { status: EXIT_USAGE, stdout: String::new(), stderr: format!("rangefit: {msg}\n") };
     let ok = |text: String| Outcome { status: 0, stdout: text, stderr: String::new() };
     let Some(cmd) = args.first() else { return fail(format!("no command given\n{USAGE}")) };
     let rest: Vec<&String> = args[1..].iter().collect();
@@ -58,7 +59,11 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
             let (which, files): (Option<&str>, Vec<&str>) = if cmd == "plot" {
                 match files.split_first() {
                     Some((w, rest)) => (Some(*w), rest.to_vec()),
-                    None => return fail(format!("plot needs a plot name (response, transfer, tolerance or noise) and a request file\n{USAGE}")),
+                    None => {
+                        return fail(format!(
+                        "plot needs a plot name (response, transfer, tolerance or noise) and a request file\n{USAGE}"
+                    ))
+                    }
                 }
             } else {
                 (None, files.clone())
@@ -76,7 +81,9 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
             if let Some(bad) = flags.iter().find(|f| !allowed.contains(f)) {
                 return fail(format!("unknown option {bad} for {cmd}\n{USAGE}"));
             }
-            let [path] = files.as_slice() else { return fail(format!("{cmd} needs exactly one request file\n{USAGE}")) };
+            let [path] = files.as_slice() else {
+                return fail(format!("{cmd} needs exactly one request file\n{USAGE}"));
+            };
             let text = match read(path) {
                 Ok(t) => t,
                 Err(e) => return fail(format!("cannot read {path}: {e}")),
@@ -91,7 +98,11 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
             }
             if cmd == "scaling" {
                 if let Some(sc) = &d.scaling {
-                    return ok(if flags.contains(&"--c") { crate::scaling::c_header(&d.request, sc) } else { serde_json::to_string_pretty(sc).unwrap_or_default() + "\n" });
+                    return ok(if flags.contains(&"--c") {
+                        crate::scaling::c_header(&d.request, sc)
+                    } else {
+                        serde_json::to_string_pretty(sc).unwrap_or_default() + "\n"
+                    });
                 }
             }
             if cmd == "report" {
@@ -111,7 +122,9 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
                 }
             }
             if cmd == "schematic" {
-                if let Some(s) = crate::draw::schematic::of_design(&d, &crate::draw::schematic::SchematicConfig::default()) {
+                if let Some(s) =
+                    crate::draw::schematic::of_design(&d, &crate::draw::schematic::SchematicConfig::default())
+                {
                     return ok(s.svg);
                 }
             }
@@ -121,8 +134,17 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
             match &d.circuit {
                 Some(c) => ok(netlist(&req, c, NetlistConfig { testbench: flags.contains(&"--testbench") })),
                 None => {
-                    let why: Vec<String> = d.checks.iter().filter(|c| c.severity == crate::diag::Severity::Error).map(|c| c.message.clone()).collect();
-                    Outcome { status: 1, stdout: String::new(), stderr: format!("rangefit: no circuit for this request: {}\n", why.join(" ")) }
+                    let why: Vec<String> = d
+                        .checks
+                        .iter()
+                        .filter(|c| c.severity == crate::diag::Severity::Error)
+                        .map(|c| c.message.clone())
+                        .collect();
+                    Outcome {
+                        status: 1,
+                        stdout: String::new(),
+                        stderr: format!("rangefit: no circuit for this request: {}\n", why.join(" ")),
+                    }
                 }
             }
         }
@@ -138,7 +160,9 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
             }
         }
         "open" => {
-            let [fragment] = files.as_slice() else { return fail(format!("open needs exactly one link or fragment\n{USAGE}")) };
+            let [fragment] = files.as_slice() else {
+                return fail(format!("open needs exactly one link or fragment\n{USAGE}"));
+            };
             match crate::share::decode(fragment) {
                 Ok(r) => ok(r.to_json() + "\n"),
                 Err(e) => fail(e.to_string()),

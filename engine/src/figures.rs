@@ -49,7 +49,12 @@ impl Block {
 
     /// A physical value, formatted with its prefix and unit.
     pub fn quantity(mut self, label: &str, value: f64, q: Quantity) -> Block {
-        self.rows.push(Row { label: label.to_string(), value: Some(value), unit: unit_of(q).to_string(), text: format(value, q) });
+        self.rows.push(Row {
+            label: label.to_string(),
+            value: Some(value),
+            unit: unit_of(q).to_string(),
+            text: format(value, q),
+        });
         self
     }
 

@@ -9,27 +9,27 @@
 //! for `wasm32-unknown-unknown`. Every output is derived from the one [`circuit::Circuit`]
 //! that synthesis produces.
 
-pub mod units;
-pub mod figures;
-pub mod values;
-pub mod diag;
-pub mod request;
 pub mod amplifier;
-pub mod synth;
-pub mod circuit;
-pub mod solve;
-pub mod predict;
 pub mod analysis;
-pub mod design;
-pub mod draw;
-pub mod netlist;
 pub mod bom;
-pub mod scaling;
-pub mod share;
-pub mod report;
+pub mod circuit;
 pub mod cli;
 pub mod demos;
+pub mod design;
+pub mod diag;
+pub mod draw;
+pub mod figures;
+pub mod netlist;
 pub mod order;
+pub mod predict;
+pub mod report;
+pub mod request;
+pub mod scaling;
+pub mod share;
+pub mod solve;
+pub mod synth;
+pub mod units;
+pub mod values;
 
 pub use design::{design, Design};
 pub use request::{Request, RequestError};

@@ -61,9 +61,13 @@ pub fn netlist(req: &Request, circuit: &Circuit, cfg: NetlistConfig) -> String {
         let line = match p.kind {
             PartKind::Resistor => format!("{} {} {}", p.reference, nodes, num(p.value)),
             PartKind::Capacitor => format!("{} {} {}", p.reference, nodes, num(p.value)),
-            PartKind::VoltageSource if is_sensor_source(p) => format!("{} {} DC {} AC 1", p.reference, nodes, num(p.value)),
+            PartKind::VoltageSource if is_sensor_source(p) => {
+                format!("{} {} DC {} AC 1", p.reference, nodes, num(p.value))
+            }
             PartKind::VoltageSource => format!("{} {} DC {}", p.reference, nodes, num(p.value)),
-            PartKind::CurrentSource if is_sensor_source(p) => format!("{} {} DC {} AC 1", p.reference, nodes, num(p.value)),
+            PartKind::CurrentSource if is_sensor_source(p) => {
+                format!("{} {} DC {} AC 1", p.reference, nodes, num(p.value))
+            }
             PartKind::CurrentSource => format!("{} {} DC {}", p.reference, nodes, num(p.value)),
             PartKind::OpAmp => format!("X{} {} {}", p.reference, nodes, AMP_SUBCKT),
             PartKind::Diode => format!("{} {} {}", p.reference, nodes, SCHOTTKY_MODEL),

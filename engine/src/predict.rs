@@ -34,7 +34,14 @@ pub fn predict(req: &Request, c: &Circuit) -> Option<Predicted> {
             let gain = (y2 - y1) / (s.max - s.min);
             let h0 = solver.transfer(0.0, "adc").ok()?.norm();
             let (_, band_high) = corners(&solver, h0, None, s.band_high.max(1.0));
-            Some(Predicted { gain, offset: y1 - gain * s.min, output_at_min: y1, output_at_max: y2, band_low: None, band_high })
+            Some(Predicted {
+                gain,
+                offset: y1 - gain * s.min,
+                output_at_min: y1,
+                output_at_max: y2,
+                band_low: None,
+                band_high,
+            })
         }
         Coupling::Ac => {
             let mid = 0.5 * (s.min + s.max);
@@ -85,4 +92,3 @@ fn corners(solver: &Solver, reference: f64, low_from: Option<f64>, high_from: f6
     let low = low_from.and_then(|f| search(f, -1.0, 8.0));
     (low, search(high_from, 1.0, 10.0))
 }
-

@@ -12,8 +12,8 @@ use crate::design::Design;
 use crate::diag::Severity;
 use crate::draw::schematic::{self, SchematicConfig};
 use crate::draw::svg::escape;
-use crate::request::Coupling;
 use crate::figures::Block;
+use crate::request::Coupling;
 use crate::units::{format, Quantity};
 
 /// Options of the report.
@@ -96,7 +96,8 @@ fn hz(x: f64) -> String {
 }
 
 fn kv(rows: &[(&str, String)]) -> String {
-    let body: String = rows.iter().map(|(k, val)| format!("<tr><td>{}</td><td>{}</td></tr>", escape(k), escape(val))).collect();
+    let body: String =
+        rows.iter().map(|(k, val)| format!("<tr><td>{}</td><td>{}</td></tr>", escape(k), escape(val))).collect();
     format!("<table class=\"kv\">{body}</table>")
 }
 
@@ -113,7 +114,14 @@ fn summary(h: &mut String, d: &Design) {
     match &s.current_loop {
         Some(l) => {
             rows.push(("Loop burden allowed", v(l.burden_max)));
-            rows.push(("Fault bands (NAMUR NE 43)", format!("below {}, above {}", format(l.fault_low, Quantity::Current), format(l.fault_high, Quantity::Current))));
+            rows.push((
+                "Fault bands (NAMUR NE 43)",
+                format!(
+                    "below {}, above {}",
+                    format(l.fault_low, Quantity::Current),
+                    format(l.fault_high, Quantity::Current)
+                ),
+            ));
         }
         None => {
             rows.push(("Coupling", coupling.to_string()));
@@ -137,7 +145,16 @@ fn summary(h: &mut String, d: &Design) {
         ("Input impedance", format(t.impedance, Quantity::Resistance)),
         ("Headroom", format!("{:.1} % of the span at each end", t.headroom * 100.0)),
         ("Supplies", r.supplies.iter().map(|x| v(*x)).collect::<Vec<_>>().join(", ")),
-        ("Parts", format!("resistors {} ±{} %, capacitors {} ±{} %", r.parts.resistor_series.name(), r.parts.resistor_tolerance * 100.0, r.parts.capacitor_series.name(), r.parts.capacitor_tolerance * 100.0)),
+        (
+            "Parts",
+            format!(
+                "resistors {} ±{} %, capacitors {} ±{} %",
+                r.parts.resistor_series.name(),
+                r.parts.resistor_tolerance * 100.0,
+                r.parts.capacitor_series.name(),
+                r.parts.capacitor_tolerance * 100.0
+            ),
+        ),
     ]);
     section(h, "Request", &format!("<div class=\"grid\"><div>{sensor}</div><div>{conv}</div></div>"));
 }
@@ -152,7 +169,8 @@ fn verdicts(h: &mut String, d: &Design) {
     } else {
         "Every check passed.".to_string()
     };
-    let topology = if d.topology.is_empty() { String::new() } else { format!("<p>Topology: {}.</p>", escape(&d.topology)) };
+    let topology =
+        if d.topology.is_empty() { String::new() } else { format!("<p>Topology: {}.</p>", escape(&d.topology)) };
     section(h, "Verdict", &format!("<p><strong>{}</strong></p>{topology}", escape(&text)));
 }
 
@@ -160,9 +178,20 @@ fn checks(h: &mut String, d: &Design) {
     let rows: String = d
         .checks
         .iter()
-        .map(|c| format!("<tr><td><span class=\"sev sev-{s}\">{s}</span></td><td><code>{}</code></td><td>{}</td></tr>", escape(&c.id), escape(&c.message), s = c.severity))
+        .map(|c| {
+            format!(
+                "<tr><td><span class=\"sev sev-{s}\">{s}</span></td><td><code>{}</code></td><td>{}</td></tr>",
+                escape(&c.id),
+                escape(&c.message),
+                s = c.severity
+            )
+        })
         .collect();
-    section(h, "Checks", &format!("<table><tr><th>Verdict</th><th>Check</th><th>Finding and what to change</th></tr>{rows}</table>"));
+    section(
+        h,
+        "Checks",
+        &format!("<table><tr><th>Verdict</th><th>Check</th><th>Finding and what to change</th></tr>{rows}</table>"),
+    );
 }
 
 /// The figures of the sensor's front end, and of the filter and the converter drive, as
@@ -191,7 +220,11 @@ fn blocks(list: &[Block]) -> String {
                 let class = if t.numeric.get(k).copied().unwrap_or(false) { " class=\"num\"" } else { "" };
                 format!("<td{class}>{}</td>", escape(c))
             };
-            let rows: String = t.rows.iter().map(|r| format!("<tr>{}</tr>", r.iter().enumerate().map(|(k, c)| cell(k, c)).collect::<String>())).collect();
+            let rows: String = t
+                .rows
+                .iter()
+                .map(|r| format!("<tr>{}</tr>", r.iter().enumerate().map(|(k, c)| cell(k, c)).collect::<String>()))
+                .collect();
             body.push_str(&format!("<table><tr>{head}</tr>{rows}</table>"));
         }
     }
@@ -205,16 +238,48 @@ fn mapping(h: &mut String, d: &Design) {
         ("Output at sensor maximum", v(p.output_at_max)),
         ("Gain", format!("{:.5} V/V", p.gain)),
         (if d.request.source.coupling == Coupling::Ac { "Output DC level" } else { "Offset (intercept)" }, v(p.offset)),
-        ("−3 dB points", format!("{} … {}", p.band_low.map(hz).unwrap_or_else(|| "DC".to_string()), p.band_high.map(hz).unwrap_or_else(|| "—".to_string()))),
+        (
+            "−3 dB points",
+            format!(
+                "{} … {}",
+                p.band_low.map(hz).unwrap_or_else(|| "DC".to_string()),
+                p.band_high.map(hz).unwrap_or_else(|| "—".to_string())
+            ),
+        ),
     ];
     if let Some(a) = &d.analysis {
         let n = &a.noise;
         let mc = &a.tolerance.monte_carlo;
         let wc = &a.tolerance.worst_case;
-        rows.push(("Added noise", format!("{} rms over {} … {} = {:.2} LSB; SNR {:.1} dB, {:.2} effective bits", v(n.output_rms), hz(n.band[0]), hz(n.band[1]), n.lsb_ratio, n.snr_db, n.enob)));
-        rows.push(("Worst case, output at sensor min", format!("{} … {}", v(wc.output_at_min[0]), v(wc.output_at_min[1]))));
-        rows.push(("Worst case, output at sensor max", format!("{} … {}", v(wc.output_at_max[0]), v(wc.output_at_max[1]))));
-        rows.push(("Monte Carlo yield", format!("{:.2} % of {} builds inside the converter range ({:.2} % keep the full headroom)", mc.yield_ * 100.0, mc.runs, mc.yield_headroom * 100.0)));
+        rows.push((
+            "Added noise",
+            format!(
+                "{} rms over {} … {} = {:.2} LSB; SNR {:.1} dB, {:.2} effective bits",
+                v(n.output_rms),
+                hz(n.band[0]),
+                hz(n.band[1]),
+                n.lsb_ratio,
+                n.snr_db,
+                n.enob
+            ),
+        ));
+        rows.push((
+            "Worst case, output at sensor min",
+            format!("{} … {}", v(wc.output_at_min[0]), v(wc.output_at_min[1])),
+        ));
+        rows.push((
+            "Worst case, output at sensor max",
+            format!("{} … {}", v(wc.output_at_max[0]), v(wc.output_at_max[1])),
+        ));
+        rows.push((
+            "Monte Carlo yield",
+            format!(
+                "{:.2} % of {} builds inside the converter range ({:.2} % keep the full headroom)",
+                mc.yield_ * 100.0,
+                mc.runs,
+                mc.yield_headroom * 100.0
+            ),
+        ));
         rows.push(("Impedance seen by the sensor", format(a.loading.input_impedance, Quantity::Resistance)));
         rows.push(("In-band ripple", format!("{:.3} dB", a.ac.ripple_db)));
     }
@@ -223,10 +288,15 @@ fn mapping(h: &mut String, d: &Design) {
 
 fn plots(h: &mut String, d: &Design) {
     let cfg = crate::draw::plot::PlotConfig::default();
-    let figures: Vec<String> = [crate::draw::plot::response, crate::draw::plot::transfer, crate::draw::plot::tolerance, crate::draw::plot::noise]
-        .iter()
-        .filter_map(|f| f(d, &cfg).map(|p| p.svg))
-        .collect();
+    let figures: Vec<String> = [
+        crate::draw::plot::response,
+        crate::draw::plot::transfer,
+        crate::draw::plot::tolerance,
+        crate::draw::plot::noise,
+    ]
+    .iter()
+    .filter_map(|f| f(d, &cfg).map(|p| p.svg))
+    .collect();
     if figures.is_empty() {
         return;
     }
@@ -277,8 +347,14 @@ fn scaling(h: &mut String, d: &Design) {
     if let Some(m) = &sc.measurand {
         rows.push(("Measurand from code", format!("{} = (code − {:.4}) × {:.6e} {}", m.name, m.c0, m.k, m.unit)));
     }
-    rows.push(("Before calibration", format!("up to {:.1} codes of gain and offset error (worst case)", sc.uncalibrated_error_codes)));
-    rows.push(("After a two-point calibration", format!("{:.3} codes rms of noise remain, plus drift", sc.calibrated_noise_codes)));
+    rows.push((
+        "Before calibration",
+        format!("up to {:.1} codes of gain and offset error (worst case)", sc.uncalibrated_error_codes),
+    ));
+    rows.push((
+        "After a two-point calibration",
+        format!("{:.3} codes rms of noise remain, plus drift", sc.calibrated_noise_codes),
+    ));
     let notes: String = sc.notes.iter().map(|n| format!("<li>{}</li>", escape(n))).collect();
     section(h, "Scaling for the firmware", &format!("{}<ul>{notes}</ul>", kv(&rows)));
 }
@@ -288,7 +364,18 @@ fn assumptions(h: &mut String, d: &Design) {
     let mut rows = vec![
         ("Amplifier assumed", a.class.clone()),
         ("Figures taken from that class", if a.assumed.is_empty() { "none".to_string() } else { a.assumed.join(", ") }),
-        ("Amplifier model", format!("GBW {}, open-loop gain {:.0}, output within {} / {} of the rails, offset {}, bias {}", hz(a.gbw), a.open_loop_gain, v(a.swing_low), v(a.swing_high), v(a.offset), format(a.bias_current, Quantity::Current))),
+        (
+            "Amplifier model",
+            format!(
+                "GBW {}, open-loop gain {:.0}, output within {} / {} of the rails, offset {}, bias {}",
+                hz(a.gbw),
+                a.open_loop_gain,
+                v(a.swing_low),
+                v(a.swing_high),
+                v(a.offset),
+                format(a.bias_current, Quantity::Current)
+            ),
+        ),
         ("Temperature for noise", format!("{} K", d.request.analysis.temperature)),
         ("Monte Carlo", format!("{} builds, seed {}", d.request.analysis.monte_carlo_runs, d.request.analysis.seed)),
     ];
@@ -297,7 +384,8 @@ fn assumptions(h: &mut String, d: &Design) {
     }
     let mut body = kv(&rows);
     if let Some(an) = &d.analysis {
-        let items: String = an.tolerance.monte_carlo.distributions.iter().map(|x| format!("<li>{}</li>", escape(x))).collect();
+        let items: String =
+            an.tolerance.monte_carlo.distributions.iter().map(|x| format!("<li>{}</li>", escape(x))).collect();
         body.push_str(&format!("<p>Spreads drawn:</p><ul>{items}</ul>"));
     }
     section(h, "Assumptions", &body);

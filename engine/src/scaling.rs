@@ -104,8 +104,10 @@ pub fn scaling(req: &Request, p: &Predicted, analysis: Option<&Analysis>) -> Opt
     let (uncal, noise) = match analysis {
         Some(a) => {
             let wc = &a.tolerance.worst_case;
-            let e_min = (wc.output_at_min[0] - p.output_at_min).abs().max((wc.output_at_min[1] - p.output_at_min).abs());
-            let e_max = (wc.output_at_max[0] - p.output_at_max).abs().max((wc.output_at_max[1] - p.output_at_max).abs());
+            let e_min =
+                (wc.output_at_min[0] - p.output_at_min).abs().max((wc.output_at_min[1] - p.output_at_min).abs());
+            let e_max =
+                (wc.output_at_max[0] - p.output_at_max).abs().max((wc.output_at_max[1] - p.output_at_max).abs());
             (e_min.max(e_max) / lsb, a.noise.output_rms / lsb)
         }
         None => (f64::NAN, f64::NAN),
@@ -117,7 +119,16 @@ pub fn scaling(req: &Request, p: &Predicted, analysis: Option<&Analysis>) -> Opt
     if s.coupling == Coupling::Ac {
         notes.push("AC coupling: the sensor's DC level is blocked; c0 maps the rest code to the middle of the sensor's range, and only excursions from it are measured.".to_string());
     }
-    Some(Scaling { bits, lsb, max_code, sensor, measurand, uncalibrated_error_codes: uncal, calibrated_noise_codes: noise, notes })
+    Some(Scaling {
+        bits,
+        lsb,
+        max_code,
+        sensor,
+        measurand,
+        uncalibrated_error_codes: uncal,
+        calibrated_noise_codes: noise,
+        notes,
+    })
 }
 
 /// A C header with plain `#define`s for the firmware.
@@ -131,9 +142,16 @@ pub fn c_header(req: &Request, sc: &Scaling) -> String {
     );
     out.push_str(&format!("#define RANGEFIT_BITS {}\n#define RANGEFIT_LSB_VOLTS {:e}\n", sc.bits, sc.lsb));
     let mut block = |prefix: &str, l: &Linear| {
-        out.push_str(&format!("\n/* {} in {} */\n", comment_safe(&l.name), if l.unit.is_empty() { "its unit".to_string() } else { comment_safe(&l.unit) }));
+        out.push_str(&format!(
+            "\n/* {} in {} */\n",
+            comment_safe(&l.name),
+            if l.unit.is_empty() { "its unit".to_string() } else { comment_safe(&l.unit) }
+        ));
         out.push_str(&format!("#define {prefix}_C0 {:e}\n#define {prefix}_K {:e}\n", l.c0, l.k));
-        out.push_str(&format!("#define {prefix}_CODE_AT_MIN {}\n#define {prefix}_CODE_AT_MAX {}\n", l.code_at_min, l.code_at_max));
+        out.push_str(&format!(
+            "#define {prefix}_CODE_AT_MIN {}\n#define {prefix}_CODE_AT_MAX {}\n",
+            l.code_at_min, l.code_at_max
+        ));
     };
     block("RANGEFIT_SENSOR", &sc.sensor);
     if let Some(m) = &sc.measurand {
@@ -146,5 +164,10 @@ pub fn c_header(req: &Request, sc: &Scaling) -> String {
 /// Text safe inside a C block comment.
 fn comment_safe(s: &str) -> String {
     // Break comment delimiters and trigraphs (C99 reads "??/" as a backslash).
-    s.replace("*/", "* /").replace("/*", "/ *").replace("??", "? ?").chars().map(|c| if c.is_control() { ' ' } else { c }).collect()
+    s.replace("*/", "* /")
+        .replace("/*", "/ *")
+        .replace("??", "? ?")
+        .chars()
+        .map(|c| if c.is_control() { ' ' } else { c })
+        .collect()
 }

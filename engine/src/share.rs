@@ -48,13 +48,19 @@ pub fn decode(fragment: &str) -> Result<Request, RequestError> {
     match version.strip_prefix('r').and_then(|v| v.parse::<u32>().ok()) {
         Some(LINK_VERSION) => {}
         Some(v) if v > LINK_VERSION => {
-            return Err(bad(&format!("this link was made by a newer Rangefit (link format {v}); this page reads format {LINK_VERSION}")))
+            return Err(bad(&format!(
+                "this link was made by a newer Rangefit (link format {v}); this page reads format {LINK_VERSION}"
+            )))
         }
         _ => return Err(bad("this is not a Rangefit design link (unknown format marker)")),
     }
-    let packed = URL_SAFE_NO_PAD.decode(payload.as_bytes()).map_err(|_| bad("the link is damaged (not valid base64url); was it cut off when copied?"))?;
-    let json = miniz_oxide::inflate::decompress_to_vec_with_limit(&packed, MAX_INFLATED).map_err(|_| bad("the link is damaged or truncated (it does not inflate); was it cut off when copied?"))?;
-    let value: Value = serde_json::from_slice(&json).map_err(|_| bad("the link is damaged (its content is not a request)"))?;
+    let packed = URL_SAFE_NO_PAD
+        .decode(payload.as_bytes())
+        .map_err(|_| bad("the link is damaged (not valid base64url); was it cut off when copied?"))?;
+    let json = miniz_oxide::inflate::decompress_to_vec_with_limit(&packed, MAX_INFLATED)
+        .map_err(|_| bad("the link is damaged or truncated (it does not inflate); was it cut off when copied?"))?;
+    let value: Value =
+        serde_json::from_slice(&json).map_err(|_| bad("the link is damaged (its content is not a request)"))?;
     Request::from_value(&value)
 }
 

@@ -130,7 +130,13 @@ impl<'a> Solver<'a> {
             }
         }
         // Free nodes get a column and a row; amplifier outputs take their internal node's.
-        let amp_parts: Vec<usize> = circuit.parts.iter().enumerate().filter(|(_, p)| p.kind == PartKind::OpAmp && p.nodes.len() >= 5).map(|(i, _)| i).collect();
+        let amp_parts: Vec<usize> = circuit
+            .parts
+            .iter()
+            .enumerate()
+            .filter(|(_, p)| p.kind == PartKind::OpAmp && p.nodes.len() >= 5)
+            .map(|(i, _)| i)
+            .collect();
         let outputs: Vec<&str> = amp_parts.iter().map(|&i| circuit.parts[i].nodes[4].as_str()).collect();
         let mut row: HashMap<String, usize> = HashMap::new();
         let mut size = 0;
@@ -201,7 +207,14 @@ impl<'a> Solver<'a> {
             let p = &circuit.parts[i];
             let branch = size;
             size += 1;
-            stamps.push(Stamp::Branch { branch, p: at(&p.nodes[0]), n: at(&p.nodes[1]), rp: row_of(&p.nodes[0]), rn: row_of(&p.nodes[1]), part: Some(i) });
+            stamps.push(Stamp::Branch {
+                branch,
+                p: at(&p.nodes[0]),
+                n: at(&p.nodes[1]),
+                rp: row_of(&p.nodes[0]),
+                rn: row_of(&p.nodes[1]),
+                part: Some(i),
+            });
         }
         for (i, x) in buffers {
             let out = &circuit.parts[i].nodes[4];

@@ -121,25 +121,11 @@ impl Quantity {
 #[derive(Debug, Clone, PartialEq)]
 pub enum UnitError {
     Empty,
-    NotANumber {
-        text: String,
-    },
-    UnknownUnit {
-        unit: String,
-        expected: Quantity,
-    },
-    WrongQuantity {
-        unit: String,
-        found: Quantity,
-        expected: Quantity,
-    },
+    NotANumber { text: String },
+    UnknownUnit { unit: String, expected: Quantity },
+    WrongQuantity { unit: String, found: Quantity, expected: Quantity },
     NotFinite,
-    OutOfRange {
-        value: f64,
-        quantity: Quantity,
-        min: f64,
-        max: f64,
-    },
+    OutOfRange { value: f64, quantity: Quantity, min: f64, max: f64 },
 }
 
 impl UnitError {
@@ -149,11 +135,7 @@ impl UnitError {
         match self {
             UnitError::Empty => format!("value is empty; expected {}", describe(expected)),
             UnitError::NotANumber { text } => {
-                format!(
-                    "'{}' is not a number; expected {}",
-                    text,
-                    describe(expected)
-                )
+                format!("'{}' is not a number; expected {}", text, describe(expected))
             }
             other => other.to_string(),
         }
@@ -163,45 +145,20 @@ impl UnitError {
 impl fmt::Display for UnitError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            UnitError::Empty => write!(
-                f,
-                "value is empty; expected a number such as 4.7 kΩ or 100 nF"
-            ),
-            UnitError::NotANumber { text } => write!(
-                f,
-                "'{}' is not a number; write a value such as 4.7k, 4k7, 100 nF or 1e-6",
-                text
-            ),
-            UnitError::UnknownUnit { unit, expected } => write!(
-                f,
-                "unknown unit '{}'; expected {} or {}",
-                unit,
-                describe(*expected),
-                examples(*expected).1
-            ),
-            UnitError::WrongQuantity {
-                unit,
-                found,
-                expected,
-            } => write!(
-                f,
-                "'{}' is a {} unit; expected {}",
-                unit,
-                found.name(),
-                describe(*expected)
-            ),
-            UnitError::NotFinite => {
-                write!(
-                    f,
-                    "value is not a finite number (NaN, infinity or too large to represent)"
-                )
+            UnitError::Empty => write!(f, "value is empty; expected a number such as 4.7 kΩ or 100 nF"),
+            UnitError::NotANumber { text } => {
+                write!(f, "'{}' is not a number; write a value such as 4.7k, 4k7, 100 nF or 1e-6", text)
             }
-            UnitError::OutOfRange {
-                value,
-                quantity,
-                min,
-                max,
-            } => write!(
+            UnitError::UnknownUnit { unit, expected } => {
+                write!(f, "unknown unit '{}'; expected {} or {}", unit, describe(*expected), examples(*expected).1)
+            }
+            UnitError::WrongQuantity { unit, found, expected } => {
+                write!(f, "'{}' is a {} unit; expected {}", unit, found.name(), describe(*expected))
+            }
+            UnitError::NotFinite => {
+                write!(f, "value is not a finite number (NaN, infinity or too large to represent)")
+            }
+            UnitError::OutOfRange { value, quantity, min, max } => write!(
                 f,
                 "{} is outside the plausible range for {} ({} … {})",
                 format(*value, *quantity),
@@ -221,9 +178,7 @@ pub fn parse(text: &str, expected: Quantity) -> Result<f64, UnitError> {
     if s.is_empty() {
         return Err(UnitError::Empty);
     }
-    let not_a_number = || UnitError::NotANumber {
-        text: s.to_string(),
-    };
+    let not_a_number = || UnitError::NotANumber { text: s.to_string() };
     let sc = scan(s)?;
 
     let (prefix_exp, unit) = match sc.rkm {
@@ -234,23 +189,14 @@ pub fn parse(text: &str, expected: Quantity) -> Result<f64, UnitError> {
         None => resolve_suffix(&sc.suffix, expected)?,
     };
     if unit.quantity != expected {
-        return Err(UnitError::WrongQuantity {
-            unit: sc.suffix,
-            found: unit.quantity,
-            expected,
-        });
+        return Err(UnitError::WrongQuantity { unit: sc.suffix, found: unit.quantity, expected });
     }
 
     let int = if sc.int.is_empty() { "0" } else { sc.int };
     let frac = if sc.frac.is_empty() { "0" } else { sc.frac };
-    let exp = sc
-        .exp
-        .saturating_add(i64::from(prefix_exp))
-        .saturating_add(i64::from(unit.exp10));
+    let exp = sc.exp.saturating_add(i64::from(prefix_exp)).saturating_add(i64::from(unit.exp10));
     let sign = if sc.negative { "-" } else { "" };
-    let mut value: f64 = format!("{sign}{int}.{frac}e{exp}")
-        .parse()
-        .map_err(|_| not_a_number())?;
+    let mut value: f64 = format!("{sign}{int}.{frac}e{exp}").parse().map_err(|_| not_a_number())?;
     if !value.is_finite() {
         return Err(UnitError::NotFinite);
     }
@@ -260,17 +206,8 @@ pub fn parse(text: &str, expected: Quantity) -> Result<f64, UnitError> {
     } else if value == 0.0 && nonzero_digits {
         // Underflowed to zero: far below any plausible magnitude.
         let (min, max) = expected.plausible_range();
-        let tiny = if sc.negative {
-            -f64::MIN_POSITIVE
-        } else {
-            f64::MIN_POSITIVE
-        };
-        return Err(UnitError::OutOfRange {
-            value: tiny,
-            quantity: expected,
-            min,
-            max,
-        });
+        let tiny = if sc.negative { -f64::MIN_POSITIVE } else { f64::MIN_POSITIVE };
+        return Err(UnitError::OutOfRange { value: tiny, quantity: expected, min, max });
     }
     check_range(value, expected)
 }
@@ -361,11 +298,7 @@ fn examples(q: Quantity) -> (&'static str, &'static str) {
 
 fn with_article(q: Quantity) -> String {
     let name = q.name();
-    let article = if name.starts_with(['a', 'e', 'i', 'o', 'u']) {
-        "an"
-    } else {
-        "a"
-    };
+    let article = if name.starts_with(['a', 'e', 'i', 'o', 'u']) { "an" } else { "a" };
     format!("{article} {name}")
 }
 
@@ -388,12 +321,7 @@ fn check_range(value: f64, q: Quantity) -> Result<f64, UnitError> {
     if inside && !negative_kelvin {
         Ok(value)
     } else {
-        Err(UnitError::OutOfRange {
-            value,
-            quantity: q,
-            min,
-            max,
-        })
+        Err(UnitError::OutOfRange { value, quantity: q, min, max })
     }
 }
 
@@ -432,16 +360,10 @@ fn digit_run(s: &str) -> usize {
 }
 
 fn scan(s: &str) -> Result<Scanned<'_>, UnitError> {
-    let not_a_number = || UnitError::NotANumber {
-        text: s.to_string(),
-    };
+    let not_a_number = || UnitError::NotANumber { text: s.to_string() };
     let mut rest = s;
     let mut negative = false;
-    if let Some(c) = rest
-        .chars()
-        .next()
-        .filter(|c| matches!(c, '+' | '-' | '\u{2212}'))
-    {
+    if let Some(c) = rest.chars().next().filter(|c| matches!(c, '+' | '-' | '\u{2212}')) {
         negative = c != '+';
         rest = rest.get(c.len_utf8()..).unwrap_or("").trim_start();
     }
@@ -501,26 +423,11 @@ fn scan(s: &str) -> Result<Scanned<'_>, UnitError> {
         }
     }
 
-    let suffix: String = rest
-        .get(pos..)
-        .unwrap_or("")
-        .chars()
-        .filter(|c| !c.is_whitespace())
-        .collect();
-    if suffix
-        .chars()
-        .any(|c| c.is_ascii_digit() || matches!(c, '.' | '+' | '-' | ','))
-    {
+    let suffix: String = rest.get(pos..).unwrap_or("").chars().filter(|c| !c.is_whitespace()).collect();
+    if suffix.chars().any(|c| c.is_ascii_digit() || matches!(c, '.' | '+' | '-' | ',')) {
         return Err(not_a_number());
     }
-    Ok(Scanned {
-        negative,
-        int,
-        frac,
-        exp,
-        rkm,
-        suffix,
-    })
+    Ok(Scanned { negative, int, frac, exp, rkm, suffix })
 }
 
 /// A recognised unit: its quantity, a power-of-ten scale to SI, and whether it is °C.
@@ -533,11 +440,7 @@ struct Unit {
 
 impl Unit {
     fn of(quantity: Quantity, exp10: i32) -> Unit {
-        Unit {
-            quantity,
-            exp10,
-            celsius: false,
-        }
+        Unit { quantity, exp10, celsius: false }
     }
 }
 
@@ -566,8 +469,7 @@ fn lookup_unit(u: &str, expected: Quantity, prefixed: bool) -> Option<Unit> {
         let den = fold_case(den);
         let volts = matches!(num, "V" | "v");
         let amps = matches!(num, "A" | "a");
-        let root_hz =
-            ["√hz", "√(hz)", "rthz", "rt(hz)", "sqrthz", "sqrt(hz)"].contains(&den.as_str());
+        let root_hz = ["√hz", "√(hz)", "rthz", "rt(hz)", "sqrthz", "sqrt(hz)"].contains(&den.as_str());
         return match (volts, amps) {
             (true, _) if root_hz => Some(Unit::of(VoltageNoise, 0)),
             (_, true) if root_hz => Some(Unit::of(CurrentNoise, 0)),
@@ -592,11 +494,7 @@ fn lookup_unit(u: &str, expected: Quantity, prefixed: bool) -> Option<Unit> {
         "W" | "w" => Unit::of(Power, 0),
         "K" if prefixed || expected == Temperature => Unit::of(Temperature, 0),
         "°K" => Unit::of(Temperature, 0),
-        "°C" | "℃" | "C" | "degC" if !prefixed => Unit {
-            quantity: Temperature,
-            exp10: 0,
-            celsius: true,
-        },
+        "°C" | "℃" | "C" | "degC" if !prefixed => Unit { quantity: Temperature, exp10: 0, celsius: true },
         "%" => Unit::of(Ratio, -2),
         "ppm" => Unit::of(Ratio, -6),
         "ppb" => Unit::of(Ratio, -9),
@@ -630,46 +528,22 @@ fn resolve_suffix(u: &str, expected: Quantity) -> Result<(i32, Unit), UnitError>
             }
         }
     }
-    Err(UnitError::UnknownUnit {
-        unit: u.to_string(),
-        expected,
-    })
+    Err(UnitError::UnknownUnit { unit: u.to_string(), expected })
 }
 
 /// The unit after an RKM number such as "4k7" or "4R7Ω": no second prefix allowed.
-fn resolve_after_rkm(
-    letter: char,
-    u: &str,
-    expected: Quantity,
-    text: &str,
-) -> Result<Unit, UnitError> {
+fn resolve_after_rkm(letter: char, u: &str, expected: Quantity, text: &str) -> Result<Unit, UnitError> {
     let unit = if u.is_empty() {
-        Unit::of(
-            if letter == 'R' {
-                Quantity::Resistance
-            } else {
-                expected
-            },
-            0,
-        )
+        Unit::of(if letter == 'R' { Quantity::Resistance } else { expected }, 0)
     } else if let Some(unit) = lookup_unit(u, expected, letter != 'R') {
         unit
     } else if matches!(resolve_suffix(u, expected), Ok((e, _)) if e != 0) {
-        return Err(UnitError::NotANumber {
-            text: text.to_string(),
-        });
+        return Err(UnitError::NotANumber { text: text.to_string() });
     } else {
-        return Err(UnitError::UnknownUnit {
-            unit: u.to_string(),
-            expected,
-        });
+        return Err(UnitError::UnknownUnit { unit: u.to_string(), expected });
     };
     if letter == 'R' && expected != Quantity::Resistance {
-        return Err(UnitError::WrongQuantity {
-            unit: "R".to_string(),
-            found: Quantity::Resistance,
-            expected,
-        });
+        return Err(UnitError::WrongQuantity { unit: "R".to_string(), found: Quantity::Resistance, expected });
     }
     Ok(unit)
 }
@@ -710,10 +584,7 @@ fn scientific(digits: &str, exp: i32) -> String {
 fn si_number(digits: &str, exp: i32) -> (String, &'static str) {
     let group = exp.div_euclid(3);
     let index = group + 5;
-    match usize::try_from(index)
-        .ok()
-        .and_then(|i| FORMAT_PREFIXES.get(i))
-    {
+    match usize::try_from(index).ok().and_then(|i| FORMAT_PREFIXES.get(i)) {
         Some(prefix) => {
             let lead = (exp - group * 3) as usize + 1; // 1..=3 digits before the point
             (place_point(digits, lead), *prefix)

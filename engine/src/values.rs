@@ -55,24 +55,14 @@ pub enum Series {
 
 impl Series {
     /// Every series, coarsest first.
-    pub const ALL: [Series; 7] = [
-        Series::E3,
-        Series::E6,
-        Series::E12,
-        Series::E24,
-        Series::E48,
-        Series::E96,
-        Series::E192,
-    ];
+    pub const ALL: [Series; 7] =
+        [Series::E3, Series::E6, Series::E12, Series::E24, Series::E48, Series::E96, Series::E192];
 
     /// Parses a series name such as `"E24"`, `"e24"` or `" E96 "` (case-insensitive,
     /// surrounding whitespace ignored).
     pub fn parse(text: &str) -> Option<Series> {
         let text = text.trim();
-        Series::ALL
-            .iter()
-            .copied()
-            .find(|series| series.name().eq_ignore_ascii_case(text))
+        Series::ALL.iter().copied().find(|series| series.name().eq_ignore_ascii_case(text))
     }
 
     /// The series name, e.g. `"E24"`.
@@ -128,10 +118,7 @@ pub fn tolerance_letter(tol: f64) -> Option<char> {
     if !tol.is_finite() || tol <= 0.0 {
         return None;
     }
-    TOLERANCE_LETTERS
-        .iter()
-        .find(|(value, _)| ((tol - value) / value).abs() <= REL_EQ)
-        .map(|&(_, letter)| letter)
+    TOLERANCE_LETTERS.iter().find(|(value, _)| ((tol - value) / value).abs() <= REL_EQ).map(|&(_, letter)| letter)
 }
 
 /// The series value nearest `value` on a logarithmic scale, in any decade.
@@ -210,12 +197,7 @@ pub struct DividerChoice {
 /// `None` when `ratio` is not in (0, 1), the window is invalid or holds no series value,
 /// `thevenin` is not a finite positive value, or `ratio` lies outside what two values from
 /// the window can produce.
-pub fn best_divider(
-    series: Series,
-    ratio: f64,
-    thevenin: Option<f64>,
-    window: Window,
-) -> Option<DividerChoice> {
+pub fn best_divider(series: Series, ratio: f64, thevenin: Option<f64>, window: Window) -> Option<DividerChoice> {
     if !(ratio.is_finite() && ratio > 0.0 && ratio < 1.0) {
         return None;
     }
@@ -251,10 +233,7 @@ pub fn best_divider(
         }
     }
 
-    let best_error = candidates
-        .iter()
-        .map(|c| c.ratio_error)
-        .fold(f64::INFINITY, f64::min);
+    let best_error = candidates.iter().map(|c| c.ratio_error).fold(f64::INFINITY, f64::min);
     let centre = (vmin * vmax).sqrt();
     let (limit, target) = match thevenin {
         Some(r) => ((1.5 * best_error).max(best_error + TIE_SLACK), r),
@@ -270,17 +249,10 @@ pub fn best_divider(
             };
             ((position / target).ln().abs(), c)
         })
-        .fold(
-            None,
-            |best: Option<(f64, DividerChoice)>, (distance, c)| match best {
-                Some((d, b))
-                    if d < distance || (d == distance && b.ratio_error <= c.ratio_error) =>
-                {
-                    Some((d, b))
-                }
-                _ => Some((distance, c)),
-            },
-        )
+        .fold(None, |best: Option<(f64, DividerChoice)>, (distance, c)| match best {
+            Some((d, b)) if d < distance || (d == distance && b.ratio_error <= c.ratio_error) => Some((d, b)),
+            _ => Some((distance, c)),
+        })
         .map(|(_, c)| c)
 }
 
@@ -323,21 +295,10 @@ pub fn best_ratio(series: Series, ratio: f64, window: Window) -> Option<RatioCho
             let distance = ((a * b).sqrt() / centre).ln().abs();
             let better = match best {
                 None => true,
-                Some((e, d, _)) => {
-                    error < e - TIE_SLACK || (error <= e + TIE_SLACK && distance < d)
-                }
+                Some((e, d, _)) => error < e - TIE_SLACK || (error <= e + TIE_SLACK && distance < d),
             };
             if better {
-                best = Some((
-                    error,
-                    distance,
-                    RatioChoice {
-                        a,
-                        b,
-                        ratio: achieved,
-                        ratio_error: error,
-                    },
-                ));
+                best = Some((error, distance, RatioChoice { a, b, ratio: achieved, ratio_error: error }));
             }
         }
     }
@@ -363,16 +324,8 @@ static E96_CELL: OnceLock<Vec<f64>> = OnceLock::new();
 static E192_CELL: OnceLock<Vec<f64>> = OnceLock::new();
 
 /// IEC 60062 tolerance letters, tolerance as a fraction.
-const TOLERANCE_LETTERS: [(f64, char); 8] = [
-    (0.001, 'B'),
-    (0.0025, 'C'),
-    (0.005, 'D'),
-    (0.01, 'F'),
-    (0.02, 'G'),
-    (0.05, 'J'),
-    (0.1, 'K'),
-    (0.2, 'M'),
-];
+const TOLERANCE_LETTERS: [(f64, char); 8] =
+    [(0.001, 'B'), (0.0025, 'C'), (0.005, 'D'), (0.01, 'F'), (0.02, 'G'), (0.05, 'J'), (0.1, 'K'), (0.2, 'M')];
 
 /// Relative tolerance for "this value is in the series".
 const REL_EQ: f64 = 1e-9;

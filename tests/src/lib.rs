@@ -32,10 +32,7 @@ const TEST_LIMIT: Duration = Duration::from_secs(180);
 
 /// The repository root (the parent of this crate's directory).
 pub fn repo_root() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .parent()
-        .expect("tests crate sits inside the repository")
-        .to_path_buf()
+    Path::new(env!("CARGO_MANIFEST_DIR")).parent().expect("tests crate sits inside the repository").to_path_buf()
 }
 
 /// The built bundle directory. Panics (fails the test) when the bundle is missing.
@@ -141,10 +138,7 @@ impl Chromedriver {
             "{CHROMIUM} not found: install the `chromium` and `chromium-driver` packages (.ci/install.sh does)"
         );
         let port = free_port();
-        let mut process = ChildGuard::spawn(
-            "chromedriver",
-            Command::new("chromedriver").arg(format!("--port={port}")),
-        );
+        let mut process = ChildGuard::spawn("chromedriver", Command::new("chromedriver").arg(format!("--port={port}")));
         process.wait_for_port(port);
         Chromedriver { _process: process, port }
     }
@@ -326,12 +320,19 @@ where
     let dist = dist_dir();
     let server = StaticServer::start(&dist);
     let driver = Chromedriver::start();
-    let env = Arc::new(Env { url: server.url(), driver, server: Mutex::new(Some(server)), sessions: Mutex::new(Vec::new()) });
+    let env =
+        Arc::new(Env { url: server.url(), driver, server: Mutex::new(Some(server)), sessions: Mutex::new(Vec::new()) });
 
     let task = tokio::spawn(body(env.clone()));
     let abort = task.abort_handle();
     let outcome = match tokio::time::timeout(TEST_LIMIT, task).await {
-        Ok(joined) => joined.map_err(|e| if e.is_panic() { Failure::Panic(e.into_panic()) } else { Failure::Message(format!("browser test task failed: {e}")) }),
+        Ok(joined) => joined.map_err(|e| {
+            if e.is_panic() {
+                Failure::Panic(e.into_panic())
+            } else {
+                Failure::Message(format!("browser test task failed: {e}"))
+            }
+        }),
         Err(_) => {
             abort.abort();
             Err(Failure::Message(format!("browser test did not finish within {TEST_LIMIT:?}")))
@@ -381,7 +382,10 @@ pub async fn eval(client: &Client, script: &str, args: Vec<Value>) -> Value {
 
 /// The element with `data-testid` equal to `id`.
 pub async fn by_testid(client: &Client, id: &str) -> Element {
-    client.find(Locator::Css(&format!("[data-testid='{id}']"))).await.unwrap_or_else(|e| panic!("no element [data-testid='{id}']: {e}"))
+    client
+        .find(Locator::Css(&format!("[data-testid='{id}']")))
+        .await
+        .unwrap_or_else(|e| panic!("no element [data-testid='{id}']: {e}"))
 }
 
 /// Clicks the element with `data-testid` equal to `id`.
@@ -428,7 +432,12 @@ pub async fn wait_for_parts(client: &Client, what: &str, rows: &[Vec<String>]) {
 
 /// The user-timing entries named `name` as (startTime, duration) in ms.
 pub async fn timings(client: &Client, name: &str) -> Vec<(f64, f64)> {
-    let v = eval(client, "return performance.getEntriesByName(arguments[0]).map(e => [e.startTime, e.duration]);", vec![json!(name)]).await;
+    let v = eval(
+        client,
+        "return performance.getEntriesByName(arguments[0]).map(e => [e.startTime, e.duration]);",
+        vec![json!(name)],
+    )
+    .await;
     serde_json::from_value(v).unwrap_or_default()
 }
 
@@ -439,7 +448,11 @@ pub fn run_ngspice(tag: &str, deck: &str) -> (bool, String, String) {
     use std::sync::atomic::{AtomicUsize, Ordering};
     static RUN: AtomicUsize = AtomicUsize::new(0);
     let safe: String = tag.chars().map(|c| if c.is_ascii_alphanumeric() { c } else { '-' }).collect();
-    let path = std::env::temp_dir().join(format!("rangefit-spice-{}-{}-{safe}.cir", std::process::id(), RUN.fetch_add(1, Ordering::SeqCst)));
+    let path = std::env::temp_dir().join(format!(
+        "rangefit-spice-{}-{}-{safe}.cir",
+        std::process::id(),
+        RUN.fetch_add(1, Ordering::SeqCst)
+    ));
     std::fs::write(&path, deck).unwrap_or_else(|e| panic!("cannot write {}: {e}", path.display()));
     let run = std::process::Command::new("ngspice").arg("-b").arg(&path).output();
     let _ = std::fs::remove_file(&path);
@@ -451,5 +464,9 @@ pub fn run_ngspice(tag: &str, deck: &str) -> (bool, String, String) {
         ),
         Err(e) => panic!("cannot run ngspice: {e}"),
     };
-    (out.status.success(), String::from_utf8_lossy(&out.stdout).into_owned(), String::from_utf8_lossy(&out.stderr).into_owned())
+    (
+        out.status.success(),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
 }

@@ -23,10 +23,8 @@ use serde_json::Value;
 
 /// Files the command can read in these tests: every demo as `<id>.json`, plus `extra`.
 fn files(extra: &[(&str, &str)]) -> HashMap<String, String> {
-    let mut m: HashMap<String, String> = demos::ALL
-        .iter()
-        .map(|d| (format!("{}.json", d.id), d.json.to_string()))
-        .collect();
+    let mut m: HashMap<String, String> =
+        demos::ALL.iter().map(|d| (format!("{}.json", d.id), d.json.to_string())).collect();
     for (name, text) in extra {
         m.insert(name.to_string(), text.to_string());
     }
@@ -36,28 +34,20 @@ fn files(extra: &[(&str, &str)]) -> HashMap<String, String> {
 /// Runs `rangefit ARGS` through `cli::run` with `extra` files besides the demos.
 fn call(args: &[&str], extra: &[(&str, &str)]) -> Outcome {
     let fs = files(extra);
-    let read = |path: &str| {
-        fs.get(path)
-            .cloned()
-            .ok_or_else(|| "No such file or directory".to_string())
-    };
+    let read = |path: &str| fs.get(path).cloned().ok_or_else(|| "No such file or directory".to_string());
     let args: Vec<String> = args.iter().map(|s| s.to_string()).collect();
     run(&args, &read)
 }
 
 fn json_of(out: &Outcome, what: &str) -> Value {
-    serde_json::from_str(&out.stdout)
-        .unwrap_or_else(|e| panic!("{what}: stdout is not JSON ({e}):\n{}", out.stdout))
+    serde_json::from_str(&out.stdout).unwrap_or_else(|e| panic!("{what}: stdout is not JSON ({e}):\n{}", out.stdout))
 }
 
 /// A request with one change applied at a JSON pointer (`None` removes the field).
 fn variant(base: &str, pointer: &str, value: Option<Value>) -> String {
     let mut v: Value = serde_json::from_str(base).expect("base request is JSON");
     let (parent, key) = pointer.rsplit_once('/').expect("pointer has a parent");
-    let obj = v
-        .pointer_mut(parent)
-        .and_then(Value::as_object_mut)
-        .unwrap_or_else(|| panic!("no object at {parent}"));
+    let obj = v.pointer_mut(parent).and_then(Value::as_object_mut).unwrap_or_else(|| panic!("no object at {parent}"));
     match value {
         Some(x) => {
             obj.insert(key.to_string(), x);
@@ -92,14 +82,7 @@ const AC_FREE: &str = r#"{
 // ---------------------------------------------------------------------------------------
 // design
 
-const PREDICTED_FIELDS: &[&str] = &[
-    "gain",
-    "offset",
-    "output_at_min",
-    "output_at_max",
-    "band_low",
-    "band_high",
-];
+const PREDICTED_FIELDS: &[&str] = &["gain", "offset", "output_at_min", "output_at_max", "band_low", "band_high"];
 const PART_KINDS: &[&str] = &["resistor", "capacitor", "amplifier", "diode"];
 const STAGE_NAMES: &[&str] = &[
     "sensor",
@@ -119,81 +102,36 @@ const STAGE_NAMES: &[&str] = &[
 /// `design FILE` prints the whole result with the documented shape.
 fn check_design_shape(file: &str, extra: &[(&str, &str)]) {
     let out = call(&["design", file], extra);
-    assert_eq!(
-        out.status, 0,
-        "design {file}: status {} stderr {}",
-        out.status, out.stderr
-    );
-    assert!(
-        out.stderr.is_empty(),
-        "design {file}: stderr {:?}",
-        out.stderr
-    );
+    assert_eq!(out.status, 0, "design {file}: status {} stderr {}", out.status, out.stderr);
+    assert!(out.stderr.is_empty(), "design {file}: stderr {:?}", out.stderr);
     let v = json_of(&out, file);
     for key in ["request", "stages", "parts", "predicted", "checks"] {
-        assert!(
-            v.get(key).is_some(),
-            "design {file}: no `{key}` in the output"
-        );
+        assert!(v.get(key).is_some(), "design {file}: no `{key}` in the output");
     }
-    assert!(
-        v["request"].is_object(),
-        "design {file}: request is not an object"
-    );
+    assert!(v["request"].is_object(), "design {file}: request is not an object");
 
-    let stages = v["stages"]
-        .as_array()
-        .unwrap_or_else(|| panic!("design {file}: stages is not a list"));
+    let stages = v["stages"].as_array().unwrap_or_else(|| panic!("design {file}: stages is not a list"));
     assert!(!stages.is_empty(), "design {file}: no stages");
-    let parts = v["parts"]
-        .as_array()
-        .unwrap_or_else(|| panic!("design {file}: parts is not a list"));
+    let parts = v["parts"].as_array().unwrap_or_else(|| panic!("design {file}: parts is not a list"));
     assert!(!parts.is_empty(), "design {file}: no parts");
     for p in parts {
-        let r = p["ref"]
-            .as_str()
-            .unwrap_or_else(|| panic!("design {file}: part without ref: {p}"));
+        let r = p["ref"].as_str().unwrap_or_else(|| panic!("design {file}: part without ref: {p}"));
+        assert!(PART_KINDS.contains(&p["kind"].as_str().unwrap_or("")), "design {file}: {r} has kind {}", p["kind"]);
+        let value = p["value"].as_f64().unwrap_or_else(|| panic!("design {file}: {r} value {}", p["value"]));
+        assert!(value > 0.0 && value.is_finite(), "design {file}: {r} value {value}");
         assert!(
-            PART_KINDS.contains(&p["kind"].as_str().unwrap_or("")),
-            "design {file}: {r} has kind {}",
-            p["kind"]
-        );
-        let value = p["value"]
-            .as_f64()
-            .unwrap_or_else(|| panic!("design {file}: {r} value {}", p["value"]));
-        assert!(
-            value > 0.0 && value.is_finite(),
-            "design {file}: {r} value {value}"
-        );
-        assert!(
-            p["tolerance"].is_null()
-                || p["tolerance"]
-                    .as_f64()
-                    .is_some_and(|t| (0.0..=0.5).contains(&t)),
+            p["tolerance"].is_null() || p["tolerance"].as_f64().is_some_and(|t| (0.0..=0.5).contains(&t)),
             "design {file}: {r} tolerance {}",
             p["tolerance"]
         );
-        let nodes = p["nodes"]
-            .as_array()
-            .unwrap_or_else(|| panic!("design {file}: {r} nodes {}", p["nodes"]));
+        let nodes = p["nodes"].as_array().unwrap_or_else(|| panic!("design {file}: {r} nodes {}", p["nodes"]));
         assert!(
-            nodes.len() >= 2
-                && nodes
-                    .iter()
-                    .all(|n| n.as_str().is_some_and(|s| !s.is_empty())),
+            nodes.len() >= 2 && nodes.iter().all(|n| n.as_str().is_some_and(|s| !s.is_empty())),
             "design {file}: {r} nodes {nodes:?}"
         );
-        assert!(
-            STAGE_NAMES.contains(&p["stage"].as_str().unwrap_or("")),
-            "design {file}: {r} stage {}",
-            p["stage"]
-        );
+        assert!(STAGE_NAMES.contains(&p["stage"].as_str().unwrap_or("")), "design {file}: {r} stage {}", p["stage"]);
         // Every part belongs to the stage list under the stage it names.
-        let listed = stages.iter().any(|s| {
-            s["parts"]
-                .as_array()
-                .is_some_and(|l| l.iter().any(|x| x == r))
-        });
+        let listed = stages.iter().any(|s| s["parts"].as_array().is_some_and(|l| l.iter().any(|x| x == r)));
         assert!(listed, "design {file}: {r} is in no stage's part list");
     }
 
@@ -203,28 +141,17 @@ fn check_design_shape(file: &str, extra: &[(&str, &str)]) {
         let ok = x.as_f64().is_some_and(f64::is_finite) || (f.starts_with("band_") && x.is_null());
         assert!(ok, "design {file}: predicted.{f} = {x}");
     }
-    let checks = v["checks"]
-        .as_array()
-        .unwrap_or_else(|| panic!("design {file}: checks is not a list"));
+    let checks = v["checks"].as_array().unwrap_or_else(|| panic!("design {file}: checks is not a list"));
     assert!(!checks.is_empty(), "design {file}: no checks");
     for c in checks {
-        assert!(
-            c["id"].as_str().is_some_and(|s| !s.is_empty()),
-            "design {file}: check without id: {c}"
-        );
+        assert!(c["id"].as_str().is_some_and(|s| !s.is_empty()), "design {file}: check without id: {c}");
         assert!(
             ["ok", "warning", "error"].contains(&c["severity"].as_str().unwrap_or("")),
             "design {file}: severity {c}"
         );
-        assert!(
-            c["message"].as_str().is_some_and(|s| !s.is_empty()),
-            "design {file}: check without message: {c}"
-        );
+        assert!(c["message"].as_str().is_some_and(|s| !s.is_empty()), "design {file}: check without message: {c}");
     }
-    assert!(
-        !checks.iter().any(|c| c["severity"] == "error"),
-        "design {file}: error checks: {checks:?}"
-    );
+    assert!(!checks.iter().any(|c| c["severity"] == "error"), "design {file}: error checks: {checks:?}");
 }
 
 #[test]
@@ -239,23 +166,15 @@ fn design_prints_the_documented_result() {
 /// `design` prints the request normalised: values in SI base units and defaults filled in.
 /// Rows: (file, JSON pointer into the output, expected value).
 fn check_normalised(file: &str, pointer: &str, expected: Value) {
-    let out = call(
-        &["design", file],
-        &[("base.json", BASE), ("ac.json", AC_FREE)],
-    );
+    let out = call(&["design", file], &[("base.json", BASE), ("ac.json", AC_FREE)]);
     assert_eq!(out.status, 0, "design {file}: {}", out.stderr);
     let v = json_of(&out, file);
-    let got = v
-        .pointer(pointer)
-        .unwrap_or_else(|| panic!("design {file}: nothing at {pointer}"));
+    let got = v.pointer(pointer).unwrap_or_else(|| panic!("design {file}: nothing at {pointer}"));
     let same = match (got.as_f64(), expected.as_f64()) {
         (Some(a), Some(b)) => (a - b).abs() <= 1e-12 * b.abs().max(1e-300),
         _ => *got == expected,
     };
-    assert!(
-        same,
-        "design {file}: {pointer} = {got}, expected {expected}"
-    );
+    assert!(same, "design {file}: {pointer} = {got}, expected {expected}");
 }
 
 #[test]
@@ -263,153 +182,45 @@ fn design_normalises_the_request() {
     use serde_json::json;
     let rows: &[(&str, &str, Value)] = &[
         // harbour-hydrophone.json: "1k", "20 Hz", "20 kHz", "192 kHz", "10k".
-        (
-            "harbour-hydrophone.json",
-            "/request/source/impedance",
-            json!(1000.0),
-        ),
-        (
-            "harbour-hydrophone.json",
-            "/request/source/band_low",
-            json!(20.0),
-        ),
-        (
-            "harbour-hydrophone.json",
-            "/request/source/band_high",
-            json!(20000.0),
-        ),
-        (
-            "harbour-hydrophone.json",
-            "/request/destination/sample_rate",
-            json!(192000.0),
-        ),
-        (
-            "harbour-hydrophone.json",
-            "/request/destination/impedance",
-            json!(10000.0),
-        ),
-        (
-            "harbour-hydrophone.json",
-            "/request/source/coupling",
-            json!("ac"),
-        ),
+        ("harbour-hydrophone.json", "/request/source/impedance", json!(1000.0)),
+        ("harbour-hydrophone.json", "/request/source/band_low", json!(20.0)),
+        ("harbour-hydrophone.json", "/request/source/band_high", json!(20000.0)),
+        ("harbour-hydrophone.json", "/request/destination/sample_rate", json!(192000.0)),
+        ("harbour-hydrophone.json", "/request/destination/impedance", json!(10000.0)),
+        ("harbour-hydrophone.json", "/request/source/coupling", json!("ac")),
         // Defaults the file leaves out (the engine's stated defaults).
-        (
-            "harbour-hydrophone.json",
-            "/request/destination/headroom",
-            json!(rangefit_engine::request::DEFAULT_HEADROOM),
-        ),
-        (
-            "harbour-hydrophone.json",
-            "/request/keep_polarity",
-            json!(true),
-        ),
+        ("harbour-hydrophone.json", "/request/destination/headroom", json!(rangefit_engine::request::DEFAULT_HEADROOM)),
+        ("harbour-hydrophone.json", "/request/keep_polarity", json!(true)),
         // boiler-pressure.json: "0.5 V", "4.5 V", "100", "50 Hz", "1 kHz", "50k", "1 %", "10 %".
         ("boiler-pressure.json", "/request/source/min", json!(0.5)),
         ("boiler-pressure.json", "/request/source/max", json!(4.5)),
-        (
-            "boiler-pressure.json",
-            "/request/source/impedance",
-            json!(100.0),
-        ),
-        (
-            "boiler-pressure.json",
-            "/request/source/band_high",
-            json!(50.0),
-        ),
-        (
-            "boiler-pressure.json",
-            "/request/source/band_low",
-            json!(0.0),
-        ),
-        (
-            "boiler-pressure.json",
-            "/request/destination/max",
-            json!(3.3),
-        ),
-        (
-            "boiler-pressure.json",
-            "/request/destination/sample_rate",
-            json!(1000.0),
-        ),
-        (
-            "boiler-pressure.json",
-            "/request/destination/impedance",
-            json!(50000.0),
-        ),
-        (
-            "boiler-pressure.json",
-            "/request/parts/resistor_tolerance",
-            json!(0.01),
-        ),
-        (
-            "boiler-pressure.json",
-            "/request/parts/capacitor_tolerance",
-            json!(0.1),
-        ),
-        (
-            "boiler-pressure.json",
-            "/request/supplies",
-            json!([5.0, 3.3]),
-        ),
+        ("boiler-pressure.json", "/request/source/impedance", json!(100.0)),
+        ("boiler-pressure.json", "/request/source/band_high", json!(50.0)),
+        ("boiler-pressure.json", "/request/source/band_low", json!(0.0)),
+        ("boiler-pressure.json", "/request/destination/max", json!(3.3)),
+        ("boiler-pressure.json", "/request/destination/sample_rate", json!(1000.0)),
+        ("boiler-pressure.json", "/request/destination/impedance", json!(50000.0)),
+        ("boiler-pressure.json", "/request/parts/resistor_tolerance", json!(0.01)),
+        ("boiler-pressure.json", "/request/parts/capacitor_tolerance", json!(0.1)),
+        ("boiler-pressure.json", "/request/supplies", json!([5.0, 3.3])),
         // mast-tilt.json: "-2 V", "470", "1M", "100 Hz".
         ("mast-tilt.json", "/request/source/min", json!(-2.0)),
         ("mast-tilt.json", "/request/source/impedance", json!(470.0)),
-        (
-            "mast-tilt.json",
-            "/request/destination/impedance",
-            json!(1e6),
-        ),
-        (
-            "mast-tilt.json",
-            "/request/destination/sample_rate",
-            json!(100.0),
-        ),
-        (
-            "mast-tilt.json",
-            "/request/parts/resistor_series",
-            json!("E96"),
-        ),
+        ("mast-tilt.json", "/request/destination/impedance", json!(1e6)),
+        ("mast-tilt.json", "/request/destination/sample_rate", json!(100.0)),
+        ("mast-tilt.json", "/request/parts/resistor_series", json!("E96")),
         // workshop-shunt.json: "1 kHz", "20 kHz"; capacitor series and window by default.
-        (
-            "workshop-shunt.json",
-            "/request/source/band_high",
-            json!(1000.0),
-        ),
-        (
-            "workshop-shunt.json",
-            "/request/destination/sample_rate",
-            json!(20000.0),
-        ),
-        (
-            "workshop-shunt.json",
-            "/request/destination/headroom",
-            json!(0.02),
-        ),
-        (
-            "workshop-shunt.json",
-            "/request/parts/capacitor_series",
-            json!("E6"),
-        ),
-        (
-            "workshop-shunt.json",
-            "/request/parts/resistor_min",
-            json!(1000.0),
-        ),
-        (
-            "workshop-shunt.json",
-            "/request/parts/resistor_max",
-            json!(1e6),
-        ),
+        ("workshop-shunt.json", "/request/source/band_high", json!(1000.0)),
+        ("workshop-shunt.json", "/request/destination/sample_rate", json!(20000.0)),
+        ("workshop-shunt.json", "/request/destination/headroom", json!(0.02)),
+        ("workshop-shunt.json", "/request/parts/capacitor_series", json!("E6")),
+        ("workshop-shunt.json", "/request/parts/resistor_min", json!(1000.0)),
+        ("workshop-shunt.json", "/request/parts/resistor_max", json!(1e6)),
         // Our own requests: "0.8 V", "1k", "5 Hz", "100k"; "1.9 V", "220", "8 kHz", "47k", "3 %", "0.1 %".
         ("base.json", "/request/source/max", json!(0.8)),
         ("base.json", "/request/source/impedance", json!(1000.0)),
         ("base.json", "/request/source/band_high", json!(5.0)),
-        (
-            "base.json",
-            "/request/destination/impedance",
-            json!(100000.0),
-        ),
+        ("base.json", "/request/destination/impedance", json!(100000.0)),
         ("ac.json", "/request/source/min", json!(1.9)),
         ("ac.json", "/request/source/impedance", json!(220.0)),
         ("ac.json", "/request/destination/sample_rate", json!(8000.0)),
@@ -433,29 +244,15 @@ fn check_read_back(file: &str, original: &str) {
     let normalised = serde_json::to_string_pretty(&v["request"]).unwrap();
 
     let a = Request::from_json(original).unwrap_or_else(|e| panic!("{file}: {e}"));
-    let b = Request::from_json(&normalised).unwrap_or_else(|e| {
-        panic!("{file}: normalised request does not read back: {e}\n{normalised}")
-    });
-    assert_eq!(
-        a, b,
-        "{file}: the normalised request reads back to a different request"
-    );
+    let b = Request::from_json(&normalised)
+        .unwrap_or_else(|e| panic!("{file}: normalised request does not read back: {e}\n{normalised}"));
+    assert_eq!(a, b, "{file}: the normalised request reads back to a different request");
 
-    let second = call(
-        &["design", "normalised.json"],
-        &[("normalised.json", &normalised)],
-    );
-    assert_eq!(
-        second.status, 0,
-        "design of the normalised {file}: {}",
-        second.stderr
-    );
+    let second = call(&["design", "normalised.json"], &[("normalised.json", &normalised)]);
+    assert_eq!(second.status, 0, "design of the normalised {file}: {}", second.stderr);
     let w = json_of(&second, file);
     for key in ["parts", "predicted", "stages", "checks"] {
-        assert_eq!(
-            v[key], w[key],
-            "{file}: `{key}` differs after reading the normalised request back"
-        );
+        assert_eq!(v[key], w[key], "{file}: `{key}` differs after reading the normalised request back");
     }
 }
 
@@ -476,22 +273,10 @@ fn normalised_request_reads_back_to_the_same_design() {
 fn check_refused(what: &str, text: &str, field: &str, problem: &[&str]) {
     for cmd in ["design", "netlist"] {
         let out = call(&[cmd, "bad.json"], &[("bad.json", text)]);
-        assert_eq!(
-            out.status, EXIT_USAGE,
-            "{cmd} ({what}): status {}, stderr {:?}",
-            out.status, out.stderr
-        );
+        assert_eq!(out.status, EXIT_USAGE, "{cmd} ({what}): status {}, stderr {:?}", out.status, out.stderr);
         assert_eq!(out.status, 2, "the usage status is 2");
-        assert!(
-            out.stdout.is_empty(),
-            "{cmd} ({what}): stdout not empty: {:?}",
-            out.stdout
-        );
-        assert!(
-            out.stderr.starts_with("rangefit: "),
-            "{cmd} ({what}): stderr {:?}",
-            out.stderr
-        );
+        assert!(out.stdout.is_empty(), "{cmd} ({what}): stdout not empty: {:?}", out.stdout);
+        assert!(out.stderr.starts_with("rangefit: "), "{cmd} ({what}): stderr {:?}", out.stderr);
         if !field.is_empty() {
             assert!(
                 out.stderr.contains(&format!("{field}: ")),
@@ -500,11 +285,7 @@ fn check_refused(what: &str, text: &str, field: &str, problem: &[&str]) {
             );
         }
         for word in problem {
-            assert!(
-                out.stderr.contains(word),
-                "{cmd} ({what}): stderr {:?} lacks {word:?}",
-                out.stderr
-            );
+            assert!(out.stderr.contains(word), "{cmd} ({what}): stderr {:?} lacks {word:?}", out.stderr);
         }
     }
 }
@@ -513,18 +294,8 @@ fn check_refused(what: &str, text: &str, field: &str, problem: &[&str]) {
 fn malformed_requests_are_refused_with_the_field_named() {
     use serde_json::json;
     let rows: Vec<(&str, String, &str, &[&str])> = vec![
-        (
-            "not JSON",
-            "source: 0 … 1 V".to_string(),
-            "",
-            &["not valid JSON"],
-        ),
-        (
-            "missing destination",
-            variant(BASE, "/destination", None),
-            "destination",
-            &["required"],
-        ),
+        ("not JSON", "source: 0 … 1 V".to_string(), "", &["not valid JSON"]),
+        ("missing destination", variant(BASE, "/destination", None), "destination", &["required"]),
         (
             "source.min not a number",
             variant(BASE, "/source/min", Some(json!("abc"))),
@@ -537,48 +308,23 @@ fn malformed_requests_are_refused_with_the_field_named() {
             "source.min",
             &["frequency", "voltage"],
         ),
-        (
-            "zero bits",
-            variant(BASE, "/destination/bits", Some(json!(0))),
-            "destination.bits",
-            &["1 to 32"],
-        ),
-        (
-            "unknown field",
-            variant(BASE, "/source/colour", Some(json!("green"))),
-            "source.colour",
-            &["unknown field"],
-        ),
+        ("zero bits", variant(BASE, "/destination/bits", Some(json!(0))), "destination.bits", &["1 to 32"]),
+        ("unknown field", variant(BASE, "/source/colour", Some(json!("green"))), "source.colour", &["unknown field"]),
         (
             "unknown series",
             variant(BASE, "/parts/resistor_series", Some(json!("E25"))),
             "parts.resistor_series",
             &["E25", "E24"],
         ),
-        (
-            "no supplies",
-            variant(BASE, "/supplies", Some(json!([]))),
-            "supplies",
-            &["at least one rail"],
-        ),
-        (
-            "future version",
-            variant(BASE, "/version", Some(json!(99))),
-            "version",
-            &["99"],
-        ),
+        ("no supplies", variant(BASE, "/supplies", Some(json!([]))), "supplies", &["at least one rail"]),
+        ("future version", variant(BASE, "/version", Some(json!(99))), "version", &["99"]),
         (
             "AC without band_low",
             variant(BASE, "/source/coupling", Some(json!("ac"))),
             "source.band_low",
             &["required", "AC"],
         ),
-        (
-            "max below min",
-            variant(BASE, "/source/max", Some(json!("-0.5 V"))),
-            "source.max",
-            &["below", "source.min"],
-        ),
+        ("max below min", variant(BASE, "/source/max", Some(json!("-0.5 V"))), "source.max", &["below", "source.min"]),
     ];
     for (what, text, field, problem) in &rows {
         check_refused(what, text, field, problem);
@@ -592,15 +338,9 @@ fn malformed_requests_are_refused_with_the_field_named() {
 /// message says what would make it possible; `netlist` has no circuit (status 1).
 fn check_infeasible(what: &str, text: &str, id: &str, remedy: &[&str]) {
     let out = call(&["design", "r.json"], &[("r.json", text)]);
-    assert_eq!(
-        out.status, 0,
-        "design ({what}): status {}, stderr {:?}",
-        out.status, out.stderr
-    );
+    assert_eq!(out.status, 0, "design ({what}): status {}, stderr {:?}", out.status, out.stderr);
     let v = json_of(&out, what);
-    let checks = v["checks"]
-        .as_array()
-        .unwrap_or_else(|| panic!("{what}: no checks"));
+    let checks = v["checks"].as_array().unwrap_or_else(|| panic!("{what}: no checks"));
     let check = checks
         .iter()
         .find(|c| c["id"] == id)
@@ -608,10 +348,7 @@ fn check_infeasible(what: &str, text: &str, id: &str, remedy: &[&str]) {
     assert_eq!(check["severity"], "error", "design ({what}): {check}");
     let message = check["message"].as_str().unwrap_or("");
     for word in remedy {
-        assert!(
-            message.contains(word),
-            "design ({what}): message {message:?} does not say {word:?}"
-        );
+        assert!(message.contains(word), "design ({what}): message {message:?} does not say {word:?}");
     }
     assert!(
         v["parts"].as_array().is_some_and(|p| p.is_empty()),
@@ -620,21 +357,9 @@ fn check_infeasible(what: &str, text: &str, id: &str, remedy: &[&str]) {
     );
 
     let net = call(&["netlist", "r.json"], &[("r.json", text)]);
-    assert_eq!(
-        net.status, 1,
-        "netlist ({what}): status {}, stderr {:?}",
-        net.status, net.stderr
-    );
-    assert!(
-        net.stdout.is_empty(),
-        "netlist ({what}): stdout {:?}",
-        net.stdout
-    );
-    assert!(
-        net.stderr.starts_with("rangefit: "),
-        "netlist ({what}): stderr {:?}",
-        net.stderr
-    );
+    assert_eq!(net.status, 1, "netlist ({what}): status {}, stderr {:?}", net.status, net.stderr);
+    assert!(net.stdout.is_empty(), "netlist ({what}): stdout {:?}", net.stdout);
+    assert!(net.stderr.starts_with("rangefit: "), "netlist ({what}): stderr {:?}", net.stderr);
     assert!(
         net.stderr.contains(message),
         "netlist ({what}): stderr {:?} does not carry the reason {message:?}",
@@ -646,12 +371,7 @@ fn check_infeasible(what: &str, text: &str, id: &str, remedy: &[&str]) {
 fn infeasible_requests_say_what_would_make_them_possible() {
     use serde_json::json;
     let rows: Vec<(&str, String, &str, &[&str])> = vec![
-        (
-            "zero span",
-            variant(BASE, "/source/max", Some(json!(0))),
-            "zero_span",
-            &["lowest and highest"],
-        ),
+        ("zero span", variant(BASE, "/source/max", Some(json!(0))), "zero_span", &["lowest and highest"]),
         (
             "band above Nyquist",
             variant(
@@ -693,18 +413,10 @@ fn check_netlist(file: &str, testbench: bool, dual: bool) {
     }
     args.push(file);
     let out = call(&args, &[]);
-    assert_eq!(
-        out.status, 0,
-        "{args:?}: status {}, stderr {:?}",
-        out.status, out.stderr
-    );
+    assert_eq!(out.status, 0, "{args:?}: status {}, stderr {:?}", out.status, out.stderr);
     assert!(out.stderr.is_empty(), "{args:?}: stderr {:?}", out.stderr);
     let lines: Vec<&str> = out.stdout.lines().collect();
-    assert_eq!(
-        lines.last(),
-        Some(&".end"),
-        "{args:?}: the last line is not .end"
-    );
+    assert_eq!(lines.last(), Some(&".end"), "{args:?}: the last line is not .end");
     for line in &lines {
         let first = line.split_whitespace().next().unwrap_or("");
         let ok = line.is_empty()
@@ -712,21 +424,19 @@ fn check_netlist(file: &str, testbench: bool, dual: bool) {
             || ELEMENTS.contains(&first.chars().next().unwrap_or(' '))
             || DOT_LINES.contains(&first)
             || (testbench && BENCH_LINES.contains(&first));
-        assert!(
-            ok,
-            "{args:?}: line {line:?} is not an allowed element or control line"
-        );
+        assert!(ok, "{args:?}: line {line:?} is not an allowed element or control line");
     }
-    let element = |name: &str| {
-        lines
-            .iter()
-            .find(|l| l.split_whitespace().next() == Some(name))
-            .copied()
-    };
+    let element = |name: &str| lines.iter().find(|l| l.split_whitespace().next() == Some(name)).copied();
     // The netlist contract: the measured quantity is one independent source, VSENSE
     // (behind RSENSE) for voltage kinds, ISENSE into `sense` for current kinds.
     // A differential pair or bridge has VCM and a resistor per leg.
-    let sensor = if element("ISENSE").is_some() { vec!["ISENSE"] } else if element("VCM").is_some() { vec!["VSENSE", "VCM", "RSENSEP", "RSENSEN"] } else { vec!["VSENSE", "RSENSE"] };
+    let sensor = if element("ISENSE").is_some() {
+        vec!["ISENSE"]
+    } else if element("VCM").is_some() {
+        vec!["VSENSE", "VCM", "RSENSEP", "RSENSEN"]
+    } else {
+        vec!["VSENSE", "RSENSE"]
+    };
     for name in sensor.into_iter().chain(["VPOS", "RADC"]) {
         assert!(element(name).is_some(), "{args:?}: no {name} element");
     }
@@ -737,38 +447,25 @@ fn check_netlist(file: &str, testbench: bool, dual: bool) {
         element("VNEG").is_some()
     );
     let radc = element("RADC").unwrap();
-    assert_eq!(
-        radc.split_whitespace().nth(1),
-        Some("adc"),
-        "{args:?}: RADC does not load node adc: {radc}"
-    );
+    assert_eq!(radc.split_whitespace().nth(1), Some("adc"), "{args:?}: RADC does not load node adc: {radc}");
     // An amplifier drives adc, directly or through the drive resistor (R between an
     // amplifier's output and adc).
-    let amp_outputs: Vec<&str> = lines
-        .iter()
-        .filter(|l| l.starts_with('X'))
-        .filter_map(|l| l.split_whitespace().nth(5))
-        .collect();
+    let amp_outputs: Vec<&str> =
+        lines.iter().filter(|l| l.starts_with('X')).filter_map(|l| l.split_whitespace().nth(5)).collect();
     let through_resistor = lines.iter().any(|l| {
         let t: Vec<&str> = l.split_whitespace().collect();
         l.starts_with('R')
             && t.len() >= 3
             && ((t[1] == "adc" && amp_outputs.contains(&t[2])) || (t[2] == "adc" && amp_outputs.contains(&t[1])))
     });
-    assert!(
-        amp_outputs.contains(&"adc") || through_resistor,
-        "{args:?}: no amplifier drives node adc"
-    );
+    assert!(amp_outputs.contains(&"adc") || through_resistor, "{args:?}: no amplifier drives node adc");
     let has = |prefix: &str| lines.iter().any(|l| l.starts_with(prefix));
     if testbench {
         assert!(has(".dc VSENSE ") || has(".dc ISENSE "), "{args:?}: no .dc sweep of the sensor source");
         assert!(has(".ac "), "{args:?}: no .ac analysis");
     } else {
         for cmd in BENCH_LINES.iter().chain(&[".tran", ".control", ".noise"]) {
-            assert!(
-                !has(cmd),
-                "{args:?}: analysis command {cmd} without --testbench"
-            );
+            assert!(!has(cmd), "{args:?}: analysis command {cmd} without --testbench");
         }
     }
 }
@@ -790,42 +487,22 @@ fn netlist_is_plain_spice3_with_the_bench_names() {
 /// Bad usage: status 2, nothing on stdout, and stderr says what is wrong.
 fn check_usage(args: &[&str], words: &[&str]) {
     let out = call(args, &[]);
-    assert_eq!(
-        out.status, EXIT_USAGE,
-        "{args:?}: status {}, stderr {:?}",
-        out.status, out.stderr
-    );
+    assert_eq!(out.status, EXIT_USAGE, "{args:?}: status {}, stderr {:?}", out.status, out.stderr);
     assert!(out.stdout.is_empty(), "{args:?}: stdout {:?}", out.stdout);
     for w in words {
-        assert!(
-            out.stderr.contains(w),
-            "{args:?}: stderr {:?} lacks {w:?}",
-            out.stderr
-        );
+        assert!(out.stderr.contains(w), "{args:?}: stderr {:?} lacks {w:?}", out.stderr);
     }
 }
 
 #[test]
 fn bad_usage_exits_with_status_2() {
     let rows: &[(&[&str], &[&str])] = &[
-        (
-            &["netlist", "--bogus", "mast-tilt.json"],
-            &["unknown option --bogus", "usage:"],
-        ),
-        (
-            &["design", "--testbench", "mast-tilt.json"],
-            &["unknown option --testbench"],
-        ),
+        (&["netlist", "--bogus", "mast-tilt.json"], &["unknown option --bogus", "usage:"]),
+        (&["design", "--testbench", "mast-tilt.json"], &["unknown option --testbench"]),
         (&[], &["no command", "usage:"]),
-        (
-            &["simulate", "mast-tilt.json"],
-            &["unknown command simulate"],
-        ),
+        (&["simulate", "mast-tilt.json"], &["unknown command simulate"]),
         (&["design"], &["exactly one request file"]),
-        (
-            &["design", "mast-tilt.json", "boiler-pressure.json"],
-            &["exactly one request file"],
-        ),
+        (&["design", "mast-tilt.json", "boiler-pressure.json"], &["exactly one request file"]),
         (&["design", "missing.json"], &["cannot read missing.json"]),
         (&["demo", "no-such-demo"], &["no demo named no-such-demo"]),
         (&["demo", "mast-tilt", "boiler-pressure"], &["at most one"]),
@@ -842,23 +519,11 @@ fn bad_usage_exits_with_status_2() {
 fn demo_lists_and_prints_the_demos() {
     let out = call(&["demo"], &[]);
     assert_eq!(out.status, 0, "demo: {}", out.stderr);
-    let listed: Vec<(&str, &str)> = out
-        .stdout
-        .lines()
-        .map(|l| l.split_once('\t').unwrap_or((l, "")))
-        .collect();
+    let listed: Vec<(&str, &str)> = out.stdout.lines().map(|l| l.split_once('\t').unwrap_or((l, ""))).collect();
     let want: Vec<(&str, &str)> = demos::ALL.iter().map(|d| (d.id, d.title)).collect();
     assert_eq!(listed, want, "demo lists other demos than demos::ALL");
-    for id in [
-        "harbour-hydrophone",
-        "boiler-pressure",
-        "mast-tilt",
-        "workshop-shunt",
-    ] {
-        assert!(
-            listed.iter().any(|(i, _)| *i == id),
-            "demo does not list {id}"
-        );
+    for id in ["harbour-hydrophone", "boiler-pressure", "mast-tilt", "workshop-shunt"] {
+        assert!(listed.iter().any(|(i, _)| *i == id), "demo does not list {id}");
     }
 
     // `demo ID` prints the demo file as shipped, which parses and reads as a request.
@@ -870,18 +535,10 @@ fn demo_lists_and_prints_the_demos() {
         let on_disk = std::fs::read_to_string(demo_dir.join(format!("{}.json", d.id)))
             .unwrap_or_else(|e| panic!("engine/demos/{}.json: {e}", d.id));
         let on_disk: Value = serde_json::from_str(&on_disk).unwrap();
-        assert_eq!(
-            printed, on_disk,
-            "demo {} differs from engine/demos/{}.json",
-            d.id, d.id
-        );
-        Request::from_json(&out.stdout)
-            .unwrap_or_else(|e| panic!("demo {} does not read as a request: {e}", d.id));
+        assert_eq!(printed, on_disk, "demo {} differs from engine/demos/{}.json", d.id, d.id);
+        Request::from_json(&out.stdout).unwrap_or_else(|e| panic!("demo {} does not read as a request: {e}", d.id));
     }
-    let harbour = json_of(
-        &call(&["demo", "harbour-hydrophone"], &[]),
-        "harbour-hydrophone",
-    );
+    let harbour = json_of(&call(&["demo", "harbour-hydrophone"], &[]), "harbour-hydrophone");
     assert_eq!(harbour["source"]["coupling"], "ac");
 }
 
@@ -889,10 +546,7 @@ fn demo_lists_and_prints_the_demos() {
 // The real binary
 
 fn repo_root() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .parent()
-        .expect("tests/ has a parent")
-        .to_path_buf()
+    Path::new(env!("CARGO_MANIFEST_DIR")).parent().expect("tests/ has a parent").to_path_buf()
 }
 
 /// Builds the `rangefit` binary with the cargo running these tests and returns its path
@@ -901,14 +555,7 @@ fn binary() -> &'static Path {
     static BIN: OnceLock<PathBuf> = OnceLock::new();
     BIN.get_or_init(|| {
         let out = Command::new(env!("CARGO"))
-            .args([
-                "build",
-                "-p",
-                "rangefit-engine",
-                "--bin",
-                "rangefit",
-                "--message-format=json-render-diagnostics",
-            ])
+            .args(["build", "-p", "rangefit-engine", "--bin", "rangefit", "--message-format=json-render-diagnostics"])
             .current_dir(repo_root())
             .output()
             .expect("cannot run cargo to build the rangefit binary");
@@ -937,11 +584,7 @@ fn exec(args: &[&str], stdin: &str) -> Outcome {
         .spawn()
         .expect("cannot start the rangefit binary");
     // A run that never reads its input may close the pipe first; its output still counts.
-    let _ = child
-        .stdin
-        .take()
-        .expect("stdin is piped")
-        .write_all(stdin.as_bytes());
+    let _ = child.stdin.take().expect("stdin is piped").write_all(stdin.as_bytes());
     let out = child.wait_with_output().unwrap();
     Outcome {
         status: out.status.code().expect("rangefit ended by a signal"),
@@ -957,34 +600,20 @@ fn binary_passes_files_stdin_streams_and_status_through() {
     // print exactly what `cli::run` returns for the same request and exit with its status.
     let rows: &[(&[&str], &str, &[&str])] = &[
         // A demo file read from disk.
-        (
-            &["design", "engine/demos/boiler-pressure.json"],
-            "",
-            &["design", "boiler-pressure.json"],
-        ),
+        (&["design", "engine/demos/boiler-pressure.json"], "", &["design", "boiler-pressure.json"]),
         // A request on standard input.
-        (
-            &["netlist", "--testbench", "-"],
-            BASE,
-            &["netlist", "--testbench", "base.json"],
-        ),
+        (&["netlist", "--testbench", "-"], BASE, &["netlist", "--testbench", "base.json"]),
         // A malformed request on standard input: status 2, message on stderr.
         (&["design", "-"], &bad, &["design", "bad.json"]),
     ];
     for (args, stdin, lib_args) in rows {
         let real = exec(args, stdin);
         let lib = call(lib_args, &[("base.json", BASE), ("bad.json", &bad)]);
-        assert_eq!(
-            real, lib,
-            "rangefit {args:?} differs from cli::run {lib_args:?}"
-        );
+        assert_eq!(real, lib, "rangefit {args:?} differs from cli::run {lib_args:?}");
     }
     let bad_run = exec(&["design", "-"], &bad);
     assert_eq!(bad_run.status, 2);
-    assert!(
-        bad_run.stdout.is_empty() && bad_run.stderr.contains("destination.bits: "),
-        "{bad_run:?}"
-    );
+    assert!(bad_run.stdout.is_empty() && bad_run.stderr.contains("destination.bits: "), "{bad_run:?}");
     let ok_run = exec(&["design", "engine/demos/boiler-pressure.json"], "");
     assert_eq!(ok_run.status, 0);
     json_of(&ok_run, "binary design");

@@ -134,7 +134,12 @@ async fn bad_links_show_a_message_and_the_page_works() {
             let mut json: Value = serde_json::from_str(demos::ALL[0].json).expect("JSON");
             json["destination"]["max"] = json!("3 V");
             click(&client, "step-design").await;
-            wait_for_parts(&client, &format!("{what}: the page still designs"), &expected_rows(&Request::from_value(&json).expect("valid"))).await;
+            wait_for_parts(
+                &client,
+                &format!("{what}: the page still designs"),
+                &expected_rows(&Request::from_value(&json).expect("valid")),
+            )
+            .await;
         }
     })
     .await;
@@ -158,7 +163,11 @@ async fn a_design_named_like_markup_stays_text() {
             vec![],
         )
         .await;
-        assert_eq!(report, json!({"img": 0, "b": 0, "handlers": 0, "pwned": "undefined", "svgs": 0}), "injected markup found");
+        assert_eq!(
+            report,
+            json!({"img": 0, "b": 0, "handlers": 0, "pwned": "undefined", "svgs": 0}),
+            "injected markup found"
+        );
         assert!(client.get_alert_text().await.is_err(), "an alert is open");
     }
 
@@ -168,26 +177,48 @@ async fn a_design_named_like_markup_stays_text() {
         assert_eq!(texts(&client, "[data-testid='design-name']").await, [NAME]);
         assert_eq!(texts(&client, "[data-testid='current-name']").await, [NAME]);
         assert_eq!(texts(&client, ".design-notes").await, [NOTES]);
-        let title = eval(&client, "return document.querySelector(\"[data-testid='schematic'] svg title\").textContent;", vec![]).await;
+        let title = eval(
+            &client,
+            "return document.querySelector(\"[data-testid='schematic'] svg title\").textContent;",
+            vec![],
+        )
+        .await;
         assert_eq!(title, json!(NAME), "the schematic's title is the name as text");
         assert!(texts(&client, "[data-testid='notice-link'] p").await.concat().contains(NAME));
         clean(&client).await;
         screenshot(&client, "hostile-name").await;
 
         click(&client, "save-design").await;
-        poll(&client, "the hostile design saved", LIMIT, || async { (saved_names(&client).await == [NAME]).then_some(()) }).await;
+        poll(&client, "the hostile design saved", LIMIT, || async {
+            (saved_names(&client).await == [NAME]).then_some(())
+        })
+        .await;
         client.refresh().await.expect("reload");
-        poll(&client, "the saved list after reload", LIMIT, || async { (saved_names(&client).await == [NAME]).then_some(()) }).await;
+        poll(&client, "the saved list after reload", LIMIT, || async {
+            (saved_names(&client).await == [NAME]).then_some(())
+        })
+        .await;
         wait_for_parts(&client, "the hostile design after reload", &expected_rows(&req)).await;
         assert_eq!(field_value(&client, "name").await, NAME);
         clean(&client).await;
 
         // Renamed through the page to another hostile string: still text.
-        let entry = client.find(Locator::Css("[data-testid='design-entry'] [data-action='rename']")).await.expect("rename");
+        let entry =
+            client.find(Locator::Css("[data-testid='design-entry'] [data-action='rename']")).await.expect("rename");
         entry.click().await.expect("click");
-        by_testid(&client, "rename-input").await.send_keys(&format!("\u{e009}a\u{e000}\u{e003}{RENAMED}\u{e007}")).await.expect("type");
-        poll(&client, "the renamed design", LIMIT, || async { (saved_names(&client).await == [RENAMED]).then_some(()) }).await;
-        poll(&client, "the name on show", LIMIT, || async { (texts(&client, "[data-testid='design-name']").await == [RENAMED]).then_some(()) }).await;
+        by_testid(&client, "rename-input")
+            .await
+            .send_keys(&format!("\u{e009}a\u{e000}\u{e003}{RENAMED}\u{e007}"))
+            .await
+            .expect("type");
+        poll(&client, "the renamed design", LIMIT, || async {
+            (saved_names(&client).await == [RENAMED]).then_some(())
+        })
+        .await;
+        poll(&client, "the name on show", LIMIT, || async {
+            (texts(&client, "[data-testid='design-name']").await == [RENAMED]).then_some(())
+        })
+        .await;
         clean(&client).await;
     })
     .await;

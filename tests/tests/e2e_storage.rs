@@ -27,7 +27,10 @@ async fn saved_names(client: &Client) -> Vec<String> {
 
 async fn wait_for_saved(client: &Client, names: &[&str]) {
     let want: Vec<String> = names.iter().map(|s| s.to_string()).collect();
-    poll(client, &format!("saved designs {want:?}"), LIMIT, || async { (saved_names(client).await == want).then_some(()) }).await;
+    poll(client, &format!("saved designs {want:?}"), LIMIT, || async {
+        (saved_names(client).await == want).then_some(())
+    })
+    .await;
 }
 
 /// Clicks the action button `action` of the saved design named `name`.
@@ -36,7 +39,13 @@ async fn entry_action(client: &Client, name: &str, action: &str) {
         let open = entry.find(Locator::Css("[data-action='open']")).await;
         if let Ok(open) = open {
             if open.text().await.unwrap_or_default() == name {
-                entry.find(Locator::Css(&format!("[data-action='{action}']"))).await.expect("action button").click().await.expect("click action");
+                entry
+                    .find(Locator::Css(&format!("[data-action='{action}']")))
+                    .await
+                    .expect("action button")
+                    .click()
+                    .await
+                    .expect("click action");
                 return;
             }
         }
@@ -54,7 +63,10 @@ async fn stored(client: &Client, key: &str) -> Value {
 
 async fn reload(client: &Client) {
     client.refresh().await.expect("reload");
-    poll(client, "the app after reload", LIMIT, || async { client.find(Locator::Css("[data-testid='step-sensor']")).await.ok().map(|_| ()) }).await;
+    poll(client, "the app after reload", LIMIT, || async {
+        client.find(Locator::Css("[data-testid='step-sensor']")).await.ok().map(|_| ())
+    })
+    .await;
 }
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
@@ -73,7 +85,10 @@ async fn save_reload_rename_duplicate_delete_open() {
         // Edit, then save again: the same entry is updated, not a second one made.
         click(&client, "step-sensor").await;
         type_into(&client, "name", "Pier 7 hydrophone").await;
-        poll(&client, "the unsaved mark", LIMIT, || async { (texts(&client, "[data-testid='save-status']").await == ["Unsaved changes"]).then_some(()) }).await;
+        poll(&client, "the unsaved mark", LIMIT, || async {
+            (texts(&client, "[data-testid='save-status']").await == ["Unsaved changes"]).then_some(())
+        })
+        .await;
         click(&client, "save-design").await;
         wait_for_saved(&client, &["Pier 7 hydrophone"]).await;
 
@@ -88,7 +103,11 @@ async fn save_reload_rename_duplicate_delete_open() {
         wait_for_saved(&client, &["Pier 7 hydrophone"]).await;
         wait_for_parts(&client, "the edited design after reload", &edited_rows).await;
         assert_eq!(texts(&client, "[data-testid='current-name']").await, ["Pier 7 hydrophone"]);
-        assert_eq!(texts(&client, "[data-testid='save-status']").await, ["Unsaved changes"], "the unsaved edit is still marked as such");
+        assert_eq!(
+            texts(&client, "[data-testid='save-status']").await,
+            ["Unsaved changes"],
+            "the unsaved edit is still marked as such"
+        );
         screenshot(&client, "saved-after-reload").await;
 
         // Opening another design with unsaved changes asks first.
@@ -96,7 +115,10 @@ async fn save_reload_rename_duplicate_delete_open() {
         by_testid(&client, "confirm-discard").await;
         screenshot(&client, "confirm-unsaved").await;
         click(&client, "confirm-discard-yes").await;
-        poll(&client, "the new design", LIMIT, || async { (texts(&client, "[data-testid='current-name']").await == ["New design"]).then_some(()) }).await;
+        poll(&client, "the new design", LIMIT, || async {
+            (texts(&client, "[data-testid='current-name']").await == ["New design"]).then_some(())
+        })
+        .await;
 
         // Open the saved design from the list: its saved state, without the discarded edit.
         entry_action(&client, "Pier 7 hydrophone", "open").await;
@@ -114,14 +136,27 @@ async fn save_reload_rename_duplicate_delete_open() {
         wait_for_saved(&client, &["Spare for the lab", "Pier 7 hydrophone"]).await;
         screenshot(&client, "saved-list").await;
         entry_action(&client, "Spare for the lab", "delete").await;
-        client.find(Locator::Css("[data-action='confirm-delete']")).await.expect("confirm").click().await.expect("click");
+        client
+            .find(Locator::Css("[data-action='confirm-delete']"))
+            .await
+            .expect("confirm")
+            .click()
+            .await
+            .expect("click");
         wait_for_saved(&client, &["Pier 7 hydrophone"]).await;
 
         // Renaming the open design renames what is on show, without marking it unsaved.
         entry_action(&client, "Pier 7 hydrophone", "rename").await;
-        by_testid(&client, "rename-input").await.send_keys("\u{e009}a\u{e000}\u{e003}Pier 8 hydrophone\u{e007}").await.expect("type");
+        by_testid(&client, "rename-input")
+            .await
+            .send_keys("\u{e009}a\u{e000}\u{e003}Pier 8 hydrophone\u{e007}")
+            .await
+            .expect("type");
         wait_for_saved(&client, &["Pier 8 hydrophone"]).await;
-        poll(&client, "the new name on show", LIMIT, || async { (texts(&client, "[data-testid='current-name']").await == ["Pier 8 hydrophone"]).then_some(()) }).await;
+        poll(&client, "the new name on show", LIMIT, || async {
+            (texts(&client, "[data-testid='current-name']").await == ["Pier 8 hydrophone"]).then_some(())
+        })
+        .await;
         assert_eq!(texts(&client, "[data-testid='save-status']").await, ["Saved"]);
         reload(&client).await;
         wait_for_saved(&client, &["Pier 8 hydrophone"]).await;

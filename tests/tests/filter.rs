@@ -16,7 +16,9 @@ use rangefit_engine::netlist::{netlist, NetlistConfig};
 use rangefit_engine::request::{Coupling, ResponseKind};
 use rangefit_engine::synth::drive;
 use rangefit_engine::synth::filter::prototype::{prototype, reverse_bessel, Prototype};
-use rangefit_engine::synth::filter::sections::{multiple_feedback, realise, response_of, sallen_key, PartsConfig, SectionKind};
+use rangefit_engine::synth::filter::sections::{
+    multiple_feedback, realise, response_of, sallen_key, PartsConfig, SectionKind,
+};
 use rangefit_engine::synth::filter::{self, full_range_db, required_rejection_db};
 use rangefit_engine::synth::round::RoundConfig;
 use rangefit_engine::values::Series;
@@ -30,7 +32,8 @@ fn request(json: &str) -> Request {
 // ---------------------------------------------------------------------------------------
 // 1. Prototypes
 
-const CM_TABLES: &str = "Carter & Mancini, Op Amps for Everyone, 5th ed. (2018), §16.9, Tables 16.6 (Bessel) / 16.7 (Butterworth) [C]";
+const CM_TABLES: &str =
+    "Carter & Mancini, Op Amps for Everyone, 5th ed. (2018), §16.9, Tables 16.6 (Bessel) / 16.7 (Butterworth) [C]";
 const BUTTER_CLOSED: &str = "Butterworth closed form Q_k = 1/(2·sin((2k−1)π/(2n))), k = 1 … ⌊n/2⌋, f_n = 1, real pole at 1 for odd n (textbook; agrees with Carter & Mancini Table 16.7) [C]";
 const BESSEL_EIG: &str = "nalgebra complex_eigenvalues of the companion matrix of the reverse Bessel polynomial, −3 dB normalised by bisection here [C]";
 
@@ -51,7 +54,8 @@ fn bessel_reference(n: usize) -> (Option<f64>, Vec<(f64, f64)>) {
         m[(i, n - 1)] = -a[i];
     }
     let poles: Vec<Complex<f64>> = m.complex_eigenvalues().iter().copied().collect();
-    let mag2 = |w: f64| poles.iter().map(|p| 1.0 / (Complex::new(0.0, w) - p).norm_sqr() * p.norm_sqr()).product::<f64>();
+    let mag2 =
+        |w: f64| poles.iter().map(|p| 1.0 / (Complex::new(0.0, w) - p).norm_sqr() * p.norm_sqr()).product::<f64>();
     let (mut lo, mut hi) = (1e-3f64, 1e3f64);
     for _ in 0..200 {
         let mid = (lo * hi).sqrt();
@@ -75,7 +79,10 @@ fn bessel_reference(n: usize) -> (Option<f64>, Vec<(f64, f64)>) {
     (real, pairs)
 }
 
-fn compare_sections(rows: &mut Vec<Row>, what: &str, got: (Option<f64>, Vec<(f64, f64)>), want: (Option<f64>, Vec<(f64, f64)>), tol: f64, source: &'static str) {
+fn compare_sections(
+    rows: &mut Vec<Row>, what: &str, got: (Option<f64>, Vec<(f64, f64)>), want: (Option<f64>, Vec<(f64, f64)>),
+    tol: f64, source: &'static str,
+) {
     rows.push(row(format!("{what}: number of sections"), got.1.len() as f64, want.1.len() as f64, 0.0, source));
     rows.push(fact(format!("{what}: real pole present alike"), got.0.is_some() == want.0.is_some(), source));
     if let (Some(a), Some(b)) = (got.0, want.0) {
@@ -92,16 +99,43 @@ fn prototypes_match_the_published_tables() {
     let mut rows = Vec::new();
     for n in 2..=8u32 {
         let p = prototype(ResponseKind::Flat, n).expect("Butterworth prototype");
-        let want_pairs: Vec<(f64, f64)> = (1..=n / 2).map(|k| (1.0, 1.0 / (2.0 * ((2 * k - 1) as f64 * PI / (2 * n) as f64).sin()))).collect();
+        let want_pairs: Vec<(f64, f64)> =
+            (1..=n / 2).map(|k| (1.0, 1.0 / (2.0 * ((2 * k - 1) as f64 * PI / (2 * n) as f64).sin()))).collect();
         let mut want_pairs = want_pairs;
         want_pairs.sort_by(|x, y| x.1.total_cmp(&y.1));
-        compare_sections(&mut rows, &format!("Butterworth n={n}"), sections_of(&p), ((n % 2 == 1).then_some(1.0), want_pairs), 1e-9, BUTTER_CLOSED);
+        compare_sections(
+            &mut rows,
+            &format!("Butterworth n={n}"),
+            sections_of(&p),
+            ((n % 2 == 1).then_some(1.0), want_pairs),
+            1e-9,
+            BUTTER_CLOSED,
+        );
         // Every Butterworth prototype is −3 dB at its corner (definition).
-        rows.push(row(format!("Butterworth n={n}: loss at the corner"), p.loss_db(1.0), 10.0 * 2f64.log10(), 1e-9, "definition of the −3 dB normalisation"));
+        rows.push(row(
+            format!("Butterworth n={n}: loss at the corner"),
+            p.loss_db(1.0),
+            10.0 * 2f64.log10(),
+            1e-9,
+            "definition of the −3 dB normalisation",
+        ));
 
         let b = prototype(ResponseKind::LinearPhase, n).expect("Bessel prototype");
-        compare_sections(&mut rows, &format!("Bessel n={n}"), sections_of(&b), bessel_reference(n as usize), 1e-6, BESSEL_EIG);
-        rows.push(row(format!("Bessel n={n}: loss at the corner"), b.loss_db(1.0), 10.0 * 2f64.log10(), 1e-9, "table normalisation: −3 dB at 1"));
+        compare_sections(
+            &mut rows,
+            &format!("Bessel n={n}"),
+            sections_of(&b),
+            bessel_reference(n as usize),
+            1e-6,
+            BESSEL_EIG,
+        );
+        rows.push(row(
+            format!("Bessel n={n}: loss at the corner"),
+            b.loss_db(1.0),
+            10.0 * 2f64.log10(),
+            1e-9,
+            "table normalisation: −3 dB at 1",
+        ));
     }
     // Key rows printed in the tables (four digits).
     let key: &[(ResponseKind, u32, usize, f64, f64)] = &[
@@ -119,14 +153,44 @@ fn prototypes_match_the_published_tables() {
     }
     // The n = 7 real section of the Bessel table (printed 1.648, a misprint for 1.684).
     let b7 = prototype(ResponseKind::LinearPhase, 7).unwrap();
-    rows.push(row("Bessel n=7 real section FSF", b7.real.unwrap_or(0.0), 1.684, 1e-3, "Carter & Mancini Table 16.6, corrected per references.md [C]"));
+    rows.push(row(
+        "Bessel n=7 real section FSF",
+        b7.real.unwrap_or(0.0),
+        1.684,
+        1e-3,
+        "Carter & Mancini Table 16.6, corrected per references.md [C]",
+    ));
     // Chebyshev 0.5 dB, n = 2: pole −0.713 ± j1.004 (ripple-edge normalised).
     let c2 = prototype(ResponseKind::Steep, 2).unwrap();
     let pole = Complex::new(-0.713, 1.004);
-    rows.push(row("Chebyshev 0.5 dB n=2 f_n", c2.pairs[0].fsf, pole.norm(), 1e-3, "S. Winder, Analog and Digital Filter Design, 2nd ed. (2002), pole table; scipy cheby1 [C]"));
-    rows.push(row("Chebyshev 0.5 dB n=2 Q", c2.pairs[0].q, pole.norm() / (2.0 * 0.713), 2e-3, "S. Winder, Analog and Digital Filter Design, 2nd ed. (2002), pole table; scipy cheby1 [C]"));
-    rows.push(row("Chebyshev 0.5 dB n=2: loss at the ripple edge", c2.loss_db(1.0), 0.0, 1e-9, "even order, unity-gain sections: back at the DC level at the ripple edge (definition)"));
-    rows.push(row("Chebyshev 0.5 dB n=3: loss at the ripple edge", prototype(ResponseKind::Steep, 3).unwrap().loss_db(1.0), 0.5, 1e-9, "odd order: the ripple depth below DC at the ripple edge (definition)"));
+    rows.push(row(
+        "Chebyshev 0.5 dB n=2 f_n",
+        c2.pairs[0].fsf,
+        pole.norm(),
+        1e-3,
+        "S. Winder, Analog and Digital Filter Design, 2nd ed. (2002), pole table; scipy cheby1 [C]",
+    ));
+    rows.push(row(
+        "Chebyshev 0.5 dB n=2 Q",
+        c2.pairs[0].q,
+        pole.norm() / (2.0 * 0.713),
+        2e-3,
+        "S. Winder, Analog and Digital Filter Design, 2nd ed. (2002), pole table; scipy cheby1 [C]",
+    ));
+    rows.push(row(
+        "Chebyshev 0.5 dB n=2: loss at the ripple edge",
+        c2.loss_db(1.0),
+        0.0,
+        1e-9,
+        "even order, unity-gain sections: back at the DC level at the ripple edge (definition)",
+    ));
+    rows.push(row(
+        "Chebyshev 0.5 dB n=3: loss at the ripple edge",
+        prototype(ResponseKind::Steep, 3).unwrap().loss_db(1.0),
+        0.5,
+        1e-9,
+        "odd order: the ripple depth below DC at the ripple edge (definition)",
+    ));
     check(&rows);
 }
 
@@ -138,13 +202,18 @@ fn section_formulas_match_worked_values() {
     const SRC: &str = "references.md, circuit formulas with worked values (each re-checked by nodal analysis) [C]";
     let mut rows = Vec::new();
     // Sallen-Key: (R1, R2, C_f, C_g) → f_n, Q.
-    for &(r1, r2, cf, cg, f, q) in &[(10e3, 10e3, 20e-9, 10e-9, 1125.395, 0.70711), (4.7e3, 15e3, 22e-9, 4.7e-9, 1864.083, 0.92213)] {
+    for &(r1, r2, cf, cg, f, q) in
+        &[(10e3, 10e3, 20e-9, 10e-9, 1125.395, 0.70711), (4.7e3, 15e3, 22e-9, 4.7e-9, 1864.083, 0.92213)]
+    {
         let (gf, gq) = sallen_key(r1, r2, cf, cg);
         rows.push(row(format!("Sallen-Key {r1}/{r2}/{cf}/{cg} f_n"), gf, f, 1e-3, SRC));
         rows.push(row(format!("Sallen-Key {r1}/{r2}/{cf}/{cg} Q"), gq, q, 1e-5, SRC));
     }
     // Multiple feedback: (R1, R2, R3, C_g, C_f) → gain, f_n, Q.
-    for &(r1, r2, r3, cg, cf, g, f, q) in &[(10e3, 10e3, 10e3, 10e-9, 1e-9, -1.0, 5032.92, 1.05409), (10e3, 20e3, 10e3, 47e-9, 2.2e-9, -2.0, 1106.738, 1.30732)] {
+    for &(r1, r2, r3, cg, cf, g, f, q) in &[
+        (10e3, 10e3, 10e3, 10e-9, 1e-9, -1.0, 5032.92, 1.05409),
+        (10e3, 20e3, 10e3, 47e-9, 2.2e-9, -2.0, 1106.738, 1.30732),
+    ] {
         let (gg, gf, gq) = multiple_feedback(r1, r2, r3, cg, cf);
         rows.push(row(format!("MFB {r1}/{r2}/{r3}/{cg}/{cf} gain"), gg, g, 1e-12, SRC));
         rows.push(row(format!("MFB {r1}/{r2}/{r3}/{cg}/{cf} f_n"), gf, f, 1e-2, SRC));
@@ -158,7 +227,8 @@ fn section_formulas_match_worked_values() {
     // formulas above recompute the rounded figures (common practice: E24 rounding moves f_n
     // by at most about ½ step).
     const STD: &str = "IEC 60063 series membership; rounding within half a series step (common practice)";
-    let cfg = PartsConfig { resistors: RoundConfig { series: Series::E24, min: 1e3, max: 1e6 }, capacitors: Series::E6 };
+    let cfg =
+        PartsConfig { resistors: RoundConfig { series: Series::E24, min: 1e3, max: 1e6 }, capacitors: Series::E6 };
     for &(kind, f, q) in &[
         (SectionKind::SallenKey, 1e3, 0.7071),
         (SectionKind::SallenKey, 15e3, 2.5629),
@@ -194,29 +264,70 @@ fn section_formulas_match_worked_values() {
 
 #[test]
 fn alias_and_settling_rules_give_the_published_values() {
-    const KESTER: &str = "Kester, Data Conversion Handbook (2005), anti-alias rule; references.md worked values [M rule, C values]";
+    const KESTER: &str =
+        "Kester, Data Conversion Handbook (2005), anti-alias rule; references.md worked values [M rule, C values]";
     let mut rows = vec![
         row("full range 12 bits", full_range_db(12), 74.01, 0.005, "6.02N + 1.76 dB (Kester MT-001) [C]"),
         row("full range 16 bits", full_range_db(16), 98.09, 0.005, "6.02N + 1.76 dB (Kester MT-001) [C]"),
         row("required, 12 bits, full-scale content", required_rejection_db(12, 1.0), 74.0, 0.05, KESTER),
-        row("required, 12 bits, content at −40 dBFS", required_rejection_db(12, 0.01), 34.01, 0.005, "the rule reduced by the out-of-band level"),
+        row(
+            "required, 12 bits, content at −40 dBFS",
+            required_rejection_db(12, 0.01),
+            34.01,
+            0.005,
+            "the rule reduced by the out-of-band level",
+        ),
         // 4th-order Butterworth with its corner at 10 kHz, at f_s − band_high = 90 kHz.
-        row("4th-order Butterworth at 9 × corner", prototype(ResponseKind::Flat, 4).unwrap().loss_db(9.0), 76.34, 0.01, KESTER),
-        row("settling, 12 bits", drive::settling_time_constants(12), 9.01, 0.005, "ln(2^(N+1)); Silicon Labs AN119 gives ln(2^N·M) for 1/M LSB [C]"),
-        row("settling, 16 bits", drive::settling_time_constants(16), 11.78, 0.005, "ln(2^(N+1)); Silicon Labs AN119 [C]"),
+        row(
+            "4th-order Butterworth at 9 × corner",
+            prototype(ResponseKind::Flat, 4).unwrap().loss_db(9.0),
+            76.34,
+            0.01,
+            KESTER,
+        ),
+        row(
+            "settling, 12 bits",
+            drive::settling_time_constants(12),
+            9.01,
+            0.005,
+            "ln(2^(N+1)); Silicon Labs AN119 gives ln(2^N·M) for 1/M LSB [C]",
+        ),
+        row(
+            "settling, 16 bits",
+            drive::settling_time_constants(16),
+            11.78,
+            0.005,
+            "ln(2^(N+1)); Silicon Labs AN119 [C]",
+        ),
     ];
     // The 12-bit, 100 kHz, 10 kHz-band case: the alias frequency and the rule in a design.
-    let req = request(r#"{"name": "Greenhouse anemometer pulse counter", "source": {"min": 0, "max": 1, "band_high": "10 kHz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "100 kHz"}, "supplies": [3.3]}"#);
-    rows.push(row("alias frequency, 100 kHz − 10 kHz", filter::alias_frequency(&req).unwrap_or(0.0), 90e3, 1e-9, "f_s − band_high (definition)"));
+    let req = request(
+        r#"{"name": "Greenhouse anemometer pulse counter", "source": {"min": 0, "max": 1, "band_high": "10 kHz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "100 kHz"}, "supplies": [3.3]}"#,
+    );
+    rows.push(row(
+        "alias frequency, 100 kHz − 10 kHz",
+        filter::alias_frequency(&req).unwrap_or(0.0),
+        90e3,
+        1e-9,
+        "f_s − band_high (definition)",
+    ));
     let d = design(&req);
     let a = d.analysis.as_ref().and_then(|a| a.alias).expect("analysis.alias");
     rows.push(row("analysis.alias.required_db", a.required_db, 74.0, 0.05, KESTER));
     rows.push(fact("analysis.alias.achieved_db meets it", a.achieved_db >= a.required_db, KESTER));
     // Oversampling converters: the modulator rate minus band_high.
-    let os = request(r#"{"name": "Kiln thermocouple logger", "source": {"min": 0, "max": 0.05, "band_high": "10 Hz"},
-        "destination": {"min": 0, "max": 2.5, "bits": 24, "sample_rate": "50 Hz", "converter": "oversampling", "modulator_rate": "256 kHz"}, "supplies": [5]}"#);
-    rows.push(row("alias frequency, oversampling", filter::alias_frequency(&os).unwrap_or(0.0), 256e3 - 10.0, 1e-9, "modulator rate − band_high (definition)"));
+    let os = request(
+        r#"{"name": "Kiln thermocouple logger", "source": {"min": 0, "max": 0.05, "band_high": "10 Hz"},
+        "destination": {"min": 0, "max": 2.5, "bits": 24, "sample_rate": "50 Hz", "converter": "oversampling", "modulator_rate": "256 kHz"}, "supplies": [5]}"#,
+    );
+    rows.push(row(
+        "alias frequency, oversampling",
+        filter::alias_frequency(&os).unwrap_or(0.0),
+        256e3 - 10.0,
+        1e-9,
+        "modulator rate − band_high (definition)",
+    ));
     check(&rows);
 }
 
@@ -225,9 +336,12 @@ fn alias_and_settling_rules_give_the_published_values() {
 
 #[test]
 fn an_impossible_rule_gives_the_best_filter_and_a_way_out() {
-    const SRC: &str = "references.md: 16 bits at 48 kHz with a 20 kHz band needs a 34th-order Butterworth at the band edge [C]";
-    let req = request(r#"{"name": "Chapel organ recording", "source": {"min": -1, "max": 1, "coupling": "ac", "band_low": "20 Hz", "band_high": "20 kHz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 16, "sample_rate": "48 kHz"}, "supplies": [3.3]}"#);
+    const SRC: &str =
+        "references.md: 16 bits at 48 kHz with a 20 kHz band needs a 34th-order Butterworth at the band edge [C]";
+    let req = request(
+        r#"{"name": "Chapel organ recording", "source": {"min": -1, "max": 1, "coupling": "ac", "band_low": "20 Hz", "band_high": "20 kHz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 16, "sample_rate": "48 kHz"}, "supplies": [3.3]}"#,
+    );
     let d = design(&req);
     let f = d.filter.as_ref().expect("a filter is still designed");
     let alias = d.checks.iter().find(|c| c.id == "alias_rejection").expect("alias_rejection check");
@@ -235,10 +349,22 @@ fn an_impossible_rule_gives_the_best_filter_and_a_way_out() {
     let rows = vec![
         fact("the alias check is an error", alias.severity == Severity::Error, SRC),
         row("order stays at max_order", f.order as f64, 8.0, 0.0, "filter.max_order default"),
-        fact("no section is absurd (Q < 5)", f.sections.iter().all(|s| s.q < 5.0), "Butterworth n = 8 has Q ≤ 2.56 (Carter & Mancini Table 16.7)"),
-        fact("a sample rate that works is named", alias.message.contains("sample rate of") && sf.rate_needed > 48e3 && sf.rate_needed.is_finite(), SRC),
+        fact(
+            "no section is absurd (Q < 5)",
+            f.sections.iter().all(|s| s.q < 5.0),
+            "Butterworth n = 8 has Q ≤ 2.56 (Carter & Mancini Table 16.7)",
+        ),
+        fact(
+            "a sample rate that works is named",
+            alias.message.contains("sample rate of") && sf.rate_needed > 48e3 && sf.rate_needed.is_finite(),
+            SRC,
+        ),
         fact("an oversampling converter is proposed", alias.message.contains("oversampling"), SRC),
-        fact("a lower out-of-band level is proposed", alias.message.contains("out_of_band_level") && sf.level_db_needed < 0.0, SRC),
+        fact(
+            "a lower out-of-band level is proposed",
+            alias.message.contains("out_of_band_level") && sf.level_db_needed < 0.0,
+            SRC,
+        ),
         // The named sample rate really makes the rule feasible at order 8.
         {
             let mut r2 = req.clone();
@@ -259,15 +385,27 @@ fn filter_and_drive_parts_carry_stable_names() {
     const API: &str = "circuit module documentation (node names)";
     let mut rows = Vec::new();
     for (what, json, mfb) in [
-        ("Sallen-Key", r#"{"name": "Orchard irrigation flow meter", "source": {"min": 0, "max": 1, "band_high": "100 Hz"}, "destination": {"min": 0, "max": 3.3, "sample_rate": "2 kHz"}, "supplies": [3.3]}"#, false),
-        ("multiple feedback", r#"{"name": "Lighthouse lamp current", "source": {"min": 0, "max": 1, "band_high": "100 Hz"}, "destination": {"min": 0, "max": 3.3, "sample_rate": "2 kHz"}, "supplies": [3.3], "filter": {"topology": "multiple_feedback", "order": 4}}"#, true),
+        (
+            "Sallen-Key",
+            r#"{"name": "Orchard irrigation flow meter", "source": {"min": 0, "max": 1, "band_high": "100 Hz"}, "destination": {"min": 0, "max": 3.3, "sample_rate": "2 kHz"}, "supplies": [3.3]}"#,
+            false,
+        ),
+        (
+            "multiple feedback",
+            r#"{"name": "Lighthouse lamp current", "source": {"min": 0, "max": 1, "band_high": "100 Hz"}, "destination": {"min": 0, "max": 3.3, "sample_rate": "2 kHz"}, "supplies": [3.3], "filter": {"topology": "multiple_feedback", "order": 4}}"#,
+            true,
+        ),
     ] {
         let d = design(&request(json));
         let c = d.circuit.as_ref().expect("circuit");
         let nodes = c.nodes();
         let has = |n: &str| nodes.iter().any(|m| m == n);
         let f = d.filter.as_ref().expect("filter");
-        rows.push(fact(format!("{what}: gain stage ends at out1"), c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Gain && p.nodes[4] == "out1"), API));
+        rows.push(fact(
+            format!("{what}: gain stage ends at out1"),
+            c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Gain && p.nodes[4] == "out1"),
+            API,
+        ));
         for k in 1..=f.sections.len() {
             let kind = f.sections[k - 1].kind;
             let mut want = vec![format!("f{k}p"), format!("f{k}o")];
@@ -284,32 +422,74 @@ fn filter_and_drive_parts_carry_stable_names() {
         }
         rows.push(fact(format!("{what}: fref present"), has("fref") == mfb, API));
         let drive_r = c.parts.iter().find(|p| p.stage == StageRole::Drive && p.kind == PartKind::Resistor);
-        rows.push(fact(format!("{what}: drive resistor from the last section to adc"), drive_r.is_some_and(|p| p.nodes == [format!("f{}o", f.sections.len()), "adc".to_string()]), API));
-        rows.push(fact(format!("{what}: charge bucket at adc"), c.parts.iter().any(|p| p.stage == StageRole::Drive && p.kind == PartKind::Capacitor && p.nodes == ["adc", "0"]), API));
-        rows.push(fact(format!("{what}: stage list has filter and drive"), d.stages.iter().any(|s| s.role == StageRole::Filter) && d.stages.iter().any(|s| s.role == StageRole::Drive), API));
+        rows.push(fact(
+            format!("{what}: drive resistor from the last section to adc"),
+            drive_r.is_some_and(|p| p.nodes == [format!("f{}o", f.sections.len()), "adc".to_string()]),
+            API,
+        ));
+        rows.push(fact(
+            format!("{what}: charge bucket at adc"),
+            c.parts
+                .iter()
+                .any(|p| p.stage == StageRole::Drive && p.kind == PartKind::Capacitor && p.nodes == ["adc", "0"]),
+            API,
+        ));
+        rows.push(fact(
+            format!("{what}: stage list has filter and drive"),
+            d.stages.iter().any(|s| s.role == StageRole::Filter) && d.stages.iter().any(|s| s.role == StageRole::Drive),
+            API,
+        ));
         // Part list: capacitors that set a corner are C0G/NP0 (or film above 100 nF).
         for r in bom(&d).iter().filter(|r| r.kind == "capacitor") {
-            let in_filter = r.designators.iter().any(|des| c.part(des).is_some_and(|p| matches!(p.stage, StageRole::Filter | StageRole::Drive)));
+            let in_filter = r
+                .designators
+                .iter()
+                .any(|des| c.part(des).is_some_and(|p| matches!(p.stage, StageRole::Filter | StageRole::Drive)));
             if in_filter {
-                let ok = if r.value_si <= 100e-9 { r.construction.starts_with("C0G/NP0") } else { r.construction.starts_with("film") };
-                rows.push(fact(format!("{what}: {} ({}) is {}", r.designators.join(" "), r.value, r.construction), ok, "EIA-198 class 1 for filter corners (references.md, common practice)"));
+                let ok = if r.value_si <= 100e-9 {
+                    r.construction.starts_with("C0G/NP0")
+                } else {
+                    r.construction.starts_with("film")
+                };
+                rows.push(fact(
+                    format!("{what}: {} ({}) is {}", r.designators.join(" "), r.value, r.construction),
+                    ok,
+                    "EIA-198 class 1 for filter corners (references.md, common practice)",
+                ));
             }
         }
     }
     // Without a drive (oversampling converter) the last section drives adc; without filter
     // or drive the gain stage does.
     // (The amplifier's rail equals the converter's range, so no protection resistor is needed.)
-    let os = design(&request(r#"{"name": "Kiln thermocouple logger", "source": {"min": 0, "max": 0.05, "band_high": "10 Hz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 24, "sample_rate": "50 Hz", "converter": "oversampling", "modulator_rate": "256 kHz"}, "supplies": [3.3]}"#));
+    let os = design(&request(
+        r#"{"name": "Kiln thermocouple logger", "source": {"min": 0, "max": 0.05, "band_high": "10 Hz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 24, "sample_rate": "50 Hz", "converter": "oversampling", "modulator_rate": "256 kHz"}, "supplies": [3.3]}"#,
+    ));
     let c = os.circuit.as_ref().expect("circuit");
     rows.push(fact("oversampling: no drive", os.drive.is_none(), API));
-    rows.push(fact("oversampling: an amplifier drives adc", c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter && p.nodes[4] == "adc"), API));
-    let none = design(&request(r#"{"name": "Kiln thermocouple logger", "source": {"min": 0, "max": 0.05, "band_high": "10 Hz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 24, "sample_rate": "50 Hz", "converter": "oversampling", "modulator_rate": "256 kHz"}, "supplies": [3.3], "filter": {"response": "none"}}"#));
+    rows.push(fact(
+        "oversampling: an amplifier drives adc",
+        c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter && p.nodes[4] == "adc"),
+        API,
+    ));
+    let none = design(&request(
+        r#"{"name": "Kiln thermocouple logger", "source": {"min": 0, "max": 0.05, "band_high": "10 Hz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 24, "sample_rate": "50 Hz", "converter": "oversampling", "modulator_rate": "256 kHz"}, "supplies": [3.3], "filter": {"response": "none"}}"#,
+    ));
     let c = none.circuit.as_ref().expect("circuit");
-    rows.push(fact("no filter, no drive: the gain stage drives adc", c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.nodes[4] == "adc") && !c.nodes().iter().any(|n| n == "out1"), API));
+    rows.push(fact(
+        "no filter, no drive: the gain stage drives adc",
+        c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.nodes[4] == "adc")
+            && !c.nodes().iter().any(|n| n == "out1"),
+        API,
+    ));
     let warn = none.checks.iter().find(|c| c.id == "alias_rejection");
-    rows.push(fact("response none: a warning states the rejection given up", warn.is_some_and(|c| c.severity == Severity::Warning && c.message.contains("given up")), "the issue: stated in the checks as a warning"));
+    rows.push(fact(
+        "response none: a warning states the rejection given up",
+        warn.is_some_and(|c| c.severity == Severity::Warning && c.message.contains("given up")),
+        "the issue: stated in the checks as a warning",
+    ));
     check(&rows);
 }
 
@@ -319,27 +499,51 @@ fn filter_and_drive_parts_carry_stable_names() {
 /// Requests whose filter attenuation is compared with ngspice: every response, both
 /// topologies, AC and DC coupling, single and dual rails, a clamp at the pin.
 const SPICE_CASES: &[(&str, &str)] = &[
-    ("flat, Sallen-Key", r#"{"name": "Greenhouse anemometer", "source": {"min": 0, "max": 1, "band_high": "10 kHz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "100 kHz"}, "supplies": [3.3]}"#),
-    ("flat, multiple feedback", r#"{"name": "Harbour crane load pin", "source": {"min": 0, "max": 1, "band_high": "10 kHz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "100 kHz"}, "supplies": [3.3], "filter": {"topology": "multiple_feedback"}}"#),
-    ("linear phase", r#"{"name": "Beehive weight pulses", "source": {"min": 0, "max": 1, "band_high": "1 kHz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "50 kHz"}, "supplies": [3.3], "filter": {"response": "linear_phase", "passband_error": "0.5 dB"}}"#),
-    ("steep, AC", r#"{"name": "Mill-race hydrophone", "source": {"min": 1.0, "max": 1.4, "coupling": "ac", "impedance": "600", "band_low": "50 Hz", "band_high": "4 kHz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "32 kHz", "impedance": "20k"}, "supplies": [3.3], "filter": {"response": "steep"}}"#),
-    ("inverting multiple feedback, dual rails", r#"{"name": "Signal-box track circuit", "source": {"min": -1, "max": 1, "coupling": "ac", "band_low": "10 Hz", "band_high": "1 kHz"},
-        "destination": {"min": -5, "max": 5, "bits": 12, "sample_rate": "10 kHz"}, "supplies": [12, -12], "keep_polarity": false, "filter": {"topology": "multiple_feedback", "order": 6}}"#),
-    ("clamp to ground, ±12 V into 0–3.3 V", r#"{"name": "Pumping-station level", "source": {"min": -10, "max": 10, "band_high": "100 Hz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "1 kHz"}, "supplies": [12, -12]}"#),
+    (
+        "flat, Sallen-Key",
+        r#"{"name": "Greenhouse anemometer", "source": {"min": 0, "max": 1, "band_high": "10 kHz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "100 kHz"}, "supplies": [3.3]}"#,
+    ),
+    (
+        "flat, multiple feedback",
+        r#"{"name": "Harbour crane load pin", "source": {"min": 0, "max": 1, "band_high": "10 kHz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "100 kHz"}, "supplies": [3.3], "filter": {"topology": "multiple_feedback"}}"#,
+    ),
+    (
+        "linear phase",
+        r#"{"name": "Beehive weight pulses", "source": {"min": 0, "max": 1, "band_high": "1 kHz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "50 kHz"}, "supplies": [3.3], "filter": {"response": "linear_phase", "passband_error": "0.5 dB"}}"#,
+    ),
+    (
+        "steep, AC",
+        r#"{"name": "Mill-race hydrophone", "source": {"min": 1.0, "max": 1.4, "coupling": "ac", "impedance": "600", "band_low": "50 Hz", "band_high": "4 kHz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "32 kHz", "impedance": "20k"}, "supplies": [3.3], "filter": {"response": "steep"}}"#,
+    ),
+    (
+        "inverting multiple feedback, dual rails",
+        r#"{"name": "Signal-box track circuit", "source": {"min": -1, "max": 1, "coupling": "ac", "band_low": "10 Hz", "band_high": "1 kHz"},
+        "destination": {"min": -5, "max": 5, "bits": 12, "sample_rate": "10 kHz"}, "supplies": [12, -12], "keep_polarity": false, "filter": {"topology": "multiple_feedback", "order": 6}}"#,
+    ),
+    (
+        "clamp to ground, ±12 V into 0–3.3 V",
+        r#"{"name": "Pumping-station level", "source": {"min": -10, "max": 10, "band_high": "100 Hz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "1 kHz"}, "supplies": [12, -12]}"#,
+    ),
 ];
 
 /// Runs a deck in ngspice and returns every `name = value` that `print` wrote.
 fn ngspice(tag: &str, deck: &str) -> Vec<(String, f64)> {
-    let path = std::env::temp_dir().join(format!("rangefit-filter-{}-{}.cir", std::process::id(), tag.replace(|c: char| !c.is_ascii_alphanumeric(), "-")));
+    let path = std::env::temp_dir().join(format!(
+        "rangefit-filter-{}-{}.cir",
+        std::process::id(),
+        tag.replace(|c: char| !c.is_ascii_alphanumeric(), "-")
+    ));
     std::fs::write(&path, deck).expect("write deck");
     let out = Command::new("ngspice").arg("-b").arg(&path).output();
     let _ = std::fs::remove_file(&path);
-    let out = out.unwrap_or_else(|e| panic!("ngspice is needed as the independent simulator (Debian: apt-get install ngspice): {e}"));
+    let out = out.unwrap_or_else(|e| {
+        panic!("ngspice is needed as the independent simulator (Debian: apt-get install ngspice): {e}")
+    });
     String::from_utf8_lossy(&out.stdout)
         .lines()
         .filter_map(|l| {
@@ -372,7 +576,12 @@ fn attenuation_at_the_alias_frequency_matches_ngspice() {
     for (what, json) in SPICE_CASES {
         let req = request(json);
         let d = design(&req);
-        let errors: Vec<&str> = d.checks.iter().filter(|c| c.severity == Severity::Error && c.id != "yield").map(|c| c.message.as_str()).collect();
+        let errors: Vec<&str> = d
+            .checks
+            .iter()
+            .filter(|c| c.severity == Severity::Error && c.id != "yield")
+            .map(|c| c.message.as_str())
+            .collect();
         rows.push(fact(format!("{what}: no error checks {errors:?}"), errors.is_empty(), "design contract"));
         let a = d.analysis.as_ref().and_then(|a| a.alias).expect("analysis.alias");
         let s = &req.source;
@@ -380,7 +589,10 @@ fn attenuation_at_the_alias_frequency_matches_ngspice() {
         let f_ref = if s.coupling == Coupling::Ac { (s.band_low * s.band_high).sqrt() } else { s.band_high * 1e-3 };
         let g = spice_gain(what, &req, &d, &[f_ref, a.frequency]);
         let spice_db = 20.0 * (g[0] / g[1]).log10();
-        println!("{what:<45} alias {:>9.1} Hz: engine {:7.2} dB, ngspice {:7.2} dB (required {:.2} dB)", a.frequency, a.achieved_db, spice_db, a.required_db);
+        println!(
+            "{what:<45} alias {:>9.1} Hz: engine {:7.2} dB, ngspice {:7.2} dB (required {:.2} dB)",
+            a.frequency, a.achieved_db, spice_db, a.required_db
+        );
         rows.push(row(format!("{what}: rejection at {} Hz", a.frequency), a.achieved_db, spice_db, 1.0, SRC));
         // The rounded sections' own figure (ideal amplifiers) tells the same story.
         let f = d.filter.as_ref().expect("filter");
@@ -394,12 +606,21 @@ fn attenuation_at_the_alias_frequency_matches_ngspice() {
 /// across the feedback resistor) and a divider into the + input (a capacitor from the +
 /// input to ground).
 const MERGE_CASES: &[(&str, &str)] = &[
-    ("inverting, + on a divider", r#"{"name": "Quarry blast microphone", "source": {"min": -2, "max": 0, "band_high": "1 kHz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [3.3], "keep_polarity": false, "filter": {"order": 5}}"#),
-    ("inverting summer, split rails", r#"{"name": "Dam seepage probe", "source": {"min": 0, "max": 2, "band_high": "1 kHz"},
-        "destination": {"min": -2, "max": 2, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [5, -5], "keep_polarity": false, "filter": {"order": 5}}"#),
-    ("divider into the + input", r#"{"name": "Tram feeder monitor", "source": {"min": 0, "max": 10, "band_high": "1 kHz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [12, -12], "keep_polarity": false, "filter": {"order": 5}}"#),
+    (
+        "inverting, + on a divider",
+        r#"{"name": "Quarry blast microphone", "source": {"min": -2, "max": 0, "band_high": "1 kHz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [3.3], "keep_polarity": false, "filter": {"order": 5}}"#,
+    ),
+    (
+        "inverting summer, split rails",
+        r#"{"name": "Dam seepage probe", "source": {"min": 0, "max": 2, "band_high": "1 kHz"},
+        "destination": {"min": -2, "max": 2, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [5, -5], "keep_polarity": false, "filter": {"order": 5}}"#,
+    ),
+    (
+        "divider into the + input",
+        r#"{"name": "Tram feeder monitor", "source": {"min": 0, "max": 10, "band_high": "1 kHz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [12, -12], "keep_polarity": false, "filter": {"order": 5}}"#,
+    ),
 ];
 
 #[test]
@@ -411,34 +632,68 @@ fn the_first_pole_built_into_the_gain_stage_saves_an_amplifier_and_keeps_the_rul
         let d = design(&req);
         let f = d.filter.as_ref().expect("filter");
         let c = d.circuit.as_ref().expect("circuit");
-        rows.push(fact(format!("{what}: section 1 is in the gain stage"), f.sections.first().is_some_and(|s| s.in_gain_stage && s.kind == SectionKind::FirstOrder), "design contract"));
+        rows.push(fact(
+            format!("{what}: section 1 is in the gain stage"),
+            f.sections.first().is_some_and(|s| s.in_gain_stage && s.kind == SectionKind::FirstOrder),
+            "design contract",
+        ));
         let amps = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp).count();
         let separate = f.sections.iter().filter(|s| !s.in_gain_stage).count();
-        rows.push(row(format!("{what}: amplifiers (gain stage + separate sections)"), amps as f64, (1 + separate) as f64, 0.0, "one amplifier saved"));
+        rows.push(row(
+            format!("{what}: amplifiers (gain stage + separate sections)"),
+            amps as f64,
+            (1 + separate) as f64,
+            0.0,
+            "one amplifier saved",
+        ));
         // The pole from the parts: 1/(2π·R·C) with R the feedback resistor across which the
         // capacitor sits, or, for a capacitor from the + input to ground, the resistance the
         // + input sees (its resistors in parallel, the sensor's impedance in series with the
         // one from the sensor; Thévenin) — first-order RC, closed form.
-        let cap = c.parts.iter().find(|p| p.purpose.contains("built into the gain stage")).expect("the merged capacitor");
+        let cap =
+            c.parts.iter().find(|p| p.purpose.contains("built into the gain stage")).expect("the merged capacitor");
         let resistors = || c.parts.iter().filter(|p| p.kind == PartKind::Resistor && !p.bench);
         let r = if cap.nodes.iter().any(|n| n == "0") {
             let node = cap.nodes.iter().find(|n| *n != "0").expect("node");
             let rs = c.part("RSENSE").map_or(0.0, |p| p.value);
-            1.0 / resistors().filter(|p| p.nodes.contains(node)).map(|p| 1.0 / (p.value + if p.nodes.iter().any(|n| n == "sense") { rs } else { 0.0 })).sum::<f64>()
+            1.0 / resistors()
+                .filter(|p| p.nodes.contains(node))
+                .map(|p| 1.0 / (p.value + if p.nodes.iter().any(|n| n == "sense") { rs } else { 0.0 }))
+                .sum::<f64>()
         } else {
             resistors().find(|p| p.nodes.iter().all(|n| cap.nodes.contains(n))).expect("feedback resistor").value
         };
         // 1e-6: the bench models an ideal sensor as 1 mΩ, which the design leaves out.
-        rows.push(row(format!("{what}: pole 1/(2π R C)"), f.sections[0].f_n_rounded, 1.0 / (2.0 * PI * r * cap.value), 1e-6 * f.sections[0].f_n_rounded, "first-order RC, closed form"));
+        rows.push(row(
+            format!("{what}: pole 1/(2π R C)"),
+            f.sections[0].f_n_rounded,
+            1.0 / (2.0 * PI * r * cap.value),
+            1e-6 * f.sections[0].f_n_rounded,
+            "first-order RC, closed form",
+        ));
         let a = d.analysis.as_ref().expect("analysis");
         let x = a.alias.expect("analysis.alias");
         let g = spice_gain(&format!("merge-{what}"), &req, &d, &[a.ac.f_mid, x.frequency, req.source.band_high]);
         let rejection = 20.0 * (g[0] / g[1]).log10();
         let edge = 20.0 * (g[2] / g[0]).log10();
         rows.push(row(format!("{what}: rejection at the alias frequency"), x.achieved_db, rejection, 1.0, SRC));
-        rows.push(fact(format!("{what}: ngspice's rejection {rejection:.1} dB meets the rule's {:.1} dB", x.required_db), rejection >= x.required_db, "the alias rule"));
-        rows.push(row(format!("{what}: gain at band_high relative to mid-band"), a.ac.gain_band_high_db - a.ac.gain_mid_db, edge, 0.05, SRC));
-        rows.push(fact(format!("{what}: ngspice's in-band error {edge:+.3} dB within the {} dB allowed", f.passband_allowed_db), edge.abs() <= f.passband_allowed_db + 0.01, SRC));
+        rows.push(fact(
+            format!("{what}: ngspice's rejection {rejection:.1} dB meets the rule's {:.1} dB", x.required_db),
+            rejection >= x.required_db,
+            "the alias rule",
+        ));
+        rows.push(row(
+            format!("{what}: gain at band_high relative to mid-band"),
+            a.ac.gain_band_high_db - a.ac.gain_mid_db,
+            edge,
+            0.05,
+            SRC,
+        ));
+        rows.push(fact(
+            format!("{what}: ngspice's in-band error {edge:+.3} dB within the {} dB allowed", f.passband_allowed_db),
+            edge.abs() <= f.passband_allowed_db + 0.01,
+            SRC,
+        ));
     }
     check(&rows);
 }
@@ -467,7 +722,9 @@ fn random_requests_claim_what_ngspice_simulates() {
         let max = min + rng.random_range(0.05..3.0);
         let source = if rng.random_bool(0.3) {
             let band_low = band_high * rng.random_range(0.001..0.05);
-            format!(r#"{{"min": {min:.4}, "max": {max:.4}, "coupling": "ac", "band_low": {band_low:.4}, "band_high": {band_high:.4}}}"#)
+            format!(
+                r#"{{"min": {min:.4}, "max": {max:.4}, "coupling": "ac", "band_low": {band_low:.4}, "band_high": {band_high:.4}}}"#
+            )
         } else {
             format!(r#"{{"min": {min:.4}, "max": {max:.4}, "band_high": {band_high:.4}}}"#)
         };
@@ -478,7 +735,10 @@ fn random_requests_claim_what_ngspice_simulates() {
         let req = request(&json);
         let d = design(&req);
         let (Some(a), Some(_)) = (d.analysis.as_ref(), d.circuit.as_ref()) else {
-            println!("case {i}: no circuit ({:?})", d.checks.iter().filter(|c| c.severity == Severity::Error).map(|c| &c.message).collect::<Vec<_>>());
+            println!(
+                "case {i}: no circuit ({:?})",
+                d.checks.iter().filter(|c| c.severity == Severity::Error).map(|c| &c.message).collect::<Vec<_>>()
+            );
             continue;
         };
         simulated += 1;
@@ -486,7 +746,13 @@ fn random_requests_claim_what_ngspice_simulates() {
         let g = spice_gain(&format!("random-{i}"), &req, &d, &[a.ac.f_mid, req.source.band_high]);
         let flat_spice = 20.0 * (g[1] / g[0]).log10();
         let flat_engine = a.ac.gain_band_high_db - a.ac.gain_mid_db;
-        rows.push(row(format!("{what}: gain at band_high relative to mid-band, dB"), flat_engine, flat_spice, 0.05, SRC));
+        rows.push(row(
+            format!("{what}: gain at band_high relative to mid-band, dB"),
+            flat_engine,
+            flat_spice,
+            0.05,
+            SRC,
+        ));
         if let Some(f) = &d.filter {
             let warned = d.checks.iter().any(|c| c.id == "band_flatness" && c.severity == Severity::Warning);
             let beyond = flat_spice.abs() > f.passband_allowed_db + 0.01;
@@ -499,7 +765,11 @@ fn random_requests_claim_what_ngspice_simulates() {
             rows.push(row(format!("{what}: rejection at the alias frequency, dB"), x.achieved_db, spice_db, 1.0, SRC));
         }
     }
-    rows.push(fact(format!("at least 9 of 12 random requests built and simulated ({simulated})"), simulated >= 9, "test design"));
+    rows.push(fact(
+        format!("at least 9 of 12 random requests built and simulated ({simulated})"),
+        simulated >= 9,
+        "test design",
+    ));
     check(&rows);
 }
 
@@ -530,15 +800,34 @@ fn filter_fields_are_read_and_refused_by_name() {
     for (dest, filter, field) in refused {
         let text = with(dest, filter);
         let got = Request::from_json(&text).err().map(|e| e.field).unwrap_or_default();
-        rows.push(fact(format!("{dest}{filter}: refused naming {field} (got {got:?})"), got == *field, "request contract: errors name the field"));
+        rows.push(fact(
+            format!("{dest}{filter}: refused naming {field} (got {got:?})"),
+            got == *field,
+            "request contract: errors name the field",
+        ));
     }
     // Accepted forms normalise to SI numbers and fractions.
-    let r = request(&with(r#", "converter": "sar", "acquisition_time": "2 µs", "input_capacitance": "30 pF""#, r#", "filter": {"response": "steep", "passband_error": "0.2 dB", "out_of_band_level": "-40 dB"}"#));
+    let r = request(&with(
+        r#", "converter": "sar", "acquisition_time": "2 µs", "input_capacitance": "30 pF""#,
+        r#", "filter": {"response": "steep", "passband_error": "0.2 dB", "out_of_band_level": "-40 dB"}"#,
+    ));
     rows.push(row("out_of_band_level −40 dB", r.filter.out_of_band_level, 0.01, 1e-12, "20·log10(0.01) = −40"));
     rows.push(row("passband_error 0.2 dB", r.filter.passband_error, 0.2, 1e-12, "request contract"));
     rows.push(row("acquisition_time 2 µs", r.destination.acquisition_time, 2e-6, 1e-18, "request contract"));
-    rows.push(row("steep default passband error", request(&with("", r#", "filter": {"response": "steep"}"#)).filter.passband_error, 0.5, 0.0, "README: the steep response's ripple"));
-    rows.push(row("default acquisition time, a quarter period", request(&with("", "")).destination.acquisition_time, 0.25 / 2000.0, 1e-15, "README default"));
+    rows.push(row(
+        "steep default passband error",
+        request(&with("", r#", "filter": {"response": "steep"}"#)).filter.passband_error,
+        0.5,
+        0.0,
+        "README: the steep response's ripple",
+    ));
+    rows.push(row(
+        "default acquisition time, a quarter period",
+        request(&with("", "")).destination.acquisition_time,
+        0.25 / 2000.0,
+        1e-15,
+        "README default",
+    ));
     check(&rows);
 }
 
@@ -549,7 +838,12 @@ fn odd_filter_requests_never_panic() {
     let mut done = 0;
     for response in ["flat", "linear_phase", "steep", "none"] {
         for (band, fs) in [("0.01 Hz", "1 Hz"), ("10 Hz", "1 kHz"), ("200 kHz", "1 MHz"), ("5 MHz", "40 MHz")] {
-            for filter in [r#""max_order": 1"#, r#""order": 12, "max_order": 12"#, r#""passband_error": "3 dB""#, r#""passband_error": 0.001, "topology": "multiple_feedback""#] {
+            for filter in [
+                r#""max_order": 1"#,
+                r#""order": 12, "max_order": 12"#,
+                r#""passband_error": "3 dB""#,
+                r#""passband_error": 0.001, "topology": "multiple_feedback""#,
+            ] {
                 for coupling in [r#""coupling": "dc""#, r#""coupling": "ac", "band_low": "0.001 Hz""#] {
                     let json = format!(
                         r#"{{"name": "odd", "source": {{"min": -0.5, "max": 0.5, {coupling}, "band_high": "{band}"}}, "destination": {{"min": 0, "max": 3.3, "bits": 16, "sample_rate": "{fs}"}}, "supplies": [5, -5], "keep_polarity": false, "filter": {{"response": "{response}", {filter}}}, "analysis": {{"monte_carlo_runs": 10}}}}"#
@@ -557,7 +851,12 @@ fn odd_filter_requests_never_panic() {
                     let Ok(req) = Request::from_json(&json) else { continue };
                     let d = design(&req);
                     if let Some(f) = &d.filter {
-                        assert!(f.order >= 1 && f.order <= 12 && f.sections.iter().all(|s| s.f_n.is_finite() && s.q.is_finite()), "{json}");
+                        assert!(
+                            f.order >= 1
+                                && f.order <= 12
+                                && f.sections.iter().all(|s| s.f_n.is_finite() && s.q.is_finite()),
+                            "{json}"
+                        );
                     }
                     let _ = serde_json::to_string(&d).expect("serialises");
                     done += 1;

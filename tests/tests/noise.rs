@@ -113,21 +113,55 @@ fn johnson_noise_and_conversion_match_references() {
     let ktc = noise::noise(&probe_request(5e9), &rc(10e6, 10e-12), 1.0, None, &cfg(300.0, 2000, false));
 
     // A circuit with no noise at all (0 K, amplifier left out): the converter's own figures.
-    let ideal = noise::noise(&probe_request(100.0), &resistor_into_buffer(10e3, quiet_amp(0.0, 0.0, 0.0)), 1.0, None, &cfg(0.0, 160, false));
+    let ideal = noise::noise(
+        &probe_request(100.0),
+        &resistor_into_buffer(10e3, quiet_amp(0.0, 0.0, 0.0)),
+        1.0,
+        None,
+        &cfg(0.0, 160, false),
+    );
 
     check(&[
         row_rel("√(4kTR), 1 kΩ, 300 K (V/√Hz)", noise::johnson_density(1e3, 300.0), 4.0704e-9, 1e-4, 0.0, REF_C),
-        row_rel("√(4kTR·Δf), 10 kΩ, 300 K, 10 kHz (V rms)", noise::johnson_density(10e3, 300.0) * 1e4f64.sqrt(), 1.2872e-6, 1e-4, 0.0, REF_C),
+        row_rel(
+            "√(4kTR·Δf), 10 kΩ, 300 K, 10 kHz (V rms)",
+            noise::johnson_density(10e3, 300.0) * 1e4f64.sqrt(),
+            1.2872e-6,
+            1e-4,
+            0.0,
+            REF_C,
+        ),
         row_rel("Boltzmann constant (J/K)", noise::BOLTZMANN, 1.380649e-23, 0.0, 0.0, REF_C),
-        row_rel("kT/C from the analysis, 10 kΩ and 10 pF, 300 K (V rms)", ktc.output_rms, 20.352e-6, 0.005, 0.0, REF_KTC),
+        row_rel(
+            "kT/C from the analysis, 10 kΩ and 10 pF, 300 K (V rms)",
+            ktc.output_rms,
+            20.352e-6,
+            0.005,
+            0.0,
+            REF_KTC,
+        ),
         row_rel("ideal SNR, 12 bits (dB)", noise::ideal_snr_db(12), 74.01, 0.0, 0.005, REF_ADC),
         row_rel("ideal SNR, 16 bits (dB)", noise::ideal_snr_db(16), 98.09, 0.0, 0.005, REF_ADC),
         row_rel("LSB, 3.3 V, 12 bits (V)", noise::lsb(3.3, 12), 805.66e-6, 1e-5, 0.0, REF_ADC),
-        row_rel("q/√12, 3.3 V, 12 bits (V rms)", noise::quantization_rms(noise::lsb(3.3, 12)), 232.58e-6, 3e-5, 0.0, REF_ADC),
+        row_rel(
+            "q/√12, 3.3 V, 12 bits (V rms)",
+            noise::quantization_rms(noise::lsb(3.3, 12)),
+            232.58e-6,
+            3e-5,
+            0.0,
+            REF_ADC,
+        ),
         row_rel("ENOB of a 74.01 dB SINAD (bits)", noise::enob(74.01), 12.0, 0.0, 0.005, REF_ENOB),
         row_rel("noiseless 3.3 V 12-bit design: output noise (V)", ideal.output_rms, 0.0, 0.0, 0.0, REF_ADC),
         row_rel("noiseless 3.3 V 12-bit design: lsb (V)", ideal.lsb, 805.66e-6, 1e-5, 0.0, REF_ADC),
-        row_rel("noiseless 3.3 V 12-bit design: quantization_rms (V)", ideal.quantization_rms, 232.58e-6, 3e-5, 0.0, REF_ADC),
+        row_rel(
+            "noiseless 3.3 V 12-bit design: quantization_rms (V)",
+            ideal.quantization_rms,
+            232.58e-6,
+            3e-5,
+            0.0,
+            REF_ADC,
+        ),
         row_rel("noiseless 3.3 V 12-bit design: snr_db (dB)", ideal.snr_db, 74.01, 0.0, 0.005, REF_ADC),
         row_rel("noiseless 3.3 V 12-bit design: enob (bits)", ideal.enob, 12.0, 0.0, 0.005, REF_ENOB),
     ]);
@@ -139,7 +173,8 @@ fn johnson_noise_and_conversion_match_references() {
 #[test]
 fn resistor_into_buffer_gives_johnson_noise() {
     const REF_C: &str = "references.md: Johnson–Nyquist √(4kTR·Δf), k exact (SI 2019)";
-    const REF_SUM: &str = "uncorrelated sources add in power; 1/f density e²(1 + f_c/f) integrates to e²(Δf + f_c·ln(f_hi/f_lo))";
+    const REF_SUM: &str =
+        "uncorrelated sources add in power; 1/f density e²(1 + f_c/f) integrates to e²(Δf + f_c·ln(f_hi/f_lo))";
     const RULE: &str = "band rule of analysis::noise: DC coupling 0.1 Hz … Nyquist";
     let t = 300.0;
     let r = 10e3;
@@ -162,14 +197,49 @@ fn resistor_into_buffer_gives_johnson_noise() {
         row_rel("band low (Hz)", f_lo, 0.1, 0.0, 0.0, RULE),
         row_rel("band high (Hz)", f_hi, 10e3, 0.0, 0.0, RULE),
         row_rel("10 kΩ into a buffer, resistors only (V rms)", quiet.output_rms, johnson, 0.005, 0.0, REF_C),
-        row_rel("10 kΩ over 10 kHz, 300 K (V rms)", quiet.output_rms, 1.2872e-6, 0.005, 0.0, "references.md: 10 kΩ at 300 K over 10 kHz → 1.2872 µV rms"),
+        row_rel(
+            "10 kΩ over 10 kHz, 300 K (V rms)",
+            quiet.output_rms,
+            1.2872e-6,
+            0.005,
+            0.0,
+            "references.md: 10 kΩ at 300 K over 10 kHz → 1.2872 µV rms",
+        ),
         row_rel("RSENSE contribution (V rms)", contributor(&quiet, "RSENSE"), johnson, 0.005, 0.0, REF_C),
-        row_rel("RADC contribution, driven by the buffer (V rms)", contributor(&quiet, "RADC"), 0.0, 0.0, 1e-12, "a resistor across an ideal voltage source makes no noise there"),
+        row_rel(
+            "RADC contribution, driven by the buffer (V rms)",
+            contributor(&quiet, "RADC"),
+            0.0,
+            0.0,
+            1e-12,
+            "a resistor across an ideal voltage source makes no noise there",
+        ),
         row_rel("input-referred, gain 1 (V rms)", quiet.input_rms, johnson, 0.005, 0.0, REF_C),
-        row_rel("with amplifier: U1 voltage noise (V rms)", contributor(&noisy, "U1 voltage noise"), want_v, 0.005, 0.0, REF_SUM),
-        row_rel("with amplifier: U1 current noise through 10 kΩ (V rms)", contributor(&noisy, "U1 current noise"), want_i, 0.005, 0.0, REF_SUM),
+        row_rel(
+            "with amplifier: U1 voltage noise (V rms)",
+            contributor(&noisy, "U1 voltage noise"),
+            want_v,
+            0.005,
+            0.0,
+            REF_SUM,
+        ),
+        row_rel(
+            "with amplifier: U1 current noise through 10 kΩ (V rms)",
+            contributor(&noisy, "U1 current noise"),
+            want_i,
+            0.005,
+            0.0,
+            REF_SUM,
+        ),
         row_rel("with amplifier: total (V rms)", noisy.output_rms, want_total, 0.005, 0.0, REF_SUM),
-        row_rel("with amplifier: contributors", noisy.contributors.len() as f64, 4.0, 0.0, 0.0, "two resistors and the amplifier's two sources"),
+        row_rel(
+            "with amplifier: contributors",
+            noisy.contributors.len() as f64,
+            4.0,
+            0.0,
+            0.0,
+            "two resistors and the amplifier's two sources",
+        ),
     ]);
 }
 
@@ -310,7 +380,8 @@ fn resistor_noise_matches_ngspice() {
     for s in SCENARIOS {
         let req = request(s.json);
         let d = design(&req);
-        let errors: Vec<&str> = d.checks.iter().filter(|c| c.severity == Severity::Error).map(|c| c.message.as_str()).collect();
+        let errors: Vec<&str> =
+            d.checks.iter().filter(|c| c.severity == Severity::Error).map(|c| c.message.as_str()).collect();
         assert!(errors.is_empty(), "[{}] design has errors: {errors:?}", s.name);
         let (Some(circuit), Some(p)) = (d.circuit.as_ref(), d.predicted) else { panic!("[{}] no circuit", s.name) };
         let a = noise::noise(&req, circuit, p.gain, p.band_high, &cfg(NGSPICE_KELVIN, 160, false));
@@ -319,7 +390,10 @@ fn resistor_noise_matches_ngspice() {
         let spice = ngspice_noise(s.name, &net, f_lo, f_hi);
         let total = spice["onoise_total"];
         let dev = (a.output_rms / total - 1.0).abs();
-        println!("{:<45} gain {:>8.3}, band {:.4e} … {:.4e} Hz: engine {:.5e} V, ngspice {:.5e} V, deviation {:.2e}", s.name, p.gain, f_lo, f_hi, a.output_rms, total, dev);
+        println!(
+            "{:<45} gain {:>8.3}, band {:.4e} … {:.4e} Hz: engine {:.5e} V, ngspice {:.5e} V, deviation {:.2e}",
+            s.name, p.gain, f_lo, f_hi, a.output_rms, total, dev
+        );
         if dev > worst.0 {
             worst = (dev, s.name);
         }
@@ -348,7 +422,14 @@ fn resistor_noise_matches_ngspice() {
         if share > worst_internal.0 {
             worst_internal = (share, s.name);
         }
-        rows.push(row_rel(format!("{}: amplifier-internal share of noise power", s.name), share, 0.0, 0.0, 1e-4, "ngspice per-device summary"));
+        rows.push(row_rel(
+            format!("{}: amplifier-internal share of noise power", s.name),
+            share,
+            0.0,
+            0.0,
+            1e-4,
+            "ngspice per-device summary",
+        ));
     }
     println!("worst deviation from ngspice: {:.2e} ({})", worst.0, worst.1);
     println!("largest amplifier-internal noise power share: {:.3e} ({})", worst_internal.0, worst_internal.1);
@@ -367,13 +448,43 @@ fn converter_figures_are_consistent_and_demos_finite() {
         let d = design(&req);
         let (Some(circuit), Some(p)) = (d.circuit.as_ref(), d.predicted) else { panic!("[{}] no circuit", demo.id) };
         let start = Instant::now();
-        let a = noise::noise(&req, circuit, p.gain, p.band_high, &NoiseConfig { temperature: req.analysis.temperature, ..NoiseConfig::default() });
-        println!("[{}] one noise analysis took {:?}; output {:.4e} V rms = {:.3} LSB, SNR {:.2} dB, ENOB {:.2}", demo.id, start.elapsed(), a.output_rms, a.lsb_ratio, a.snr_db, a.enob);
+        let a = noise::noise(
+            &req,
+            circuit,
+            p.gain,
+            p.band_high,
+            &NoiseConfig { temperature: req.analysis.temperature, ..NoiseConfig::default() },
+        );
+        println!(
+            "[{}] one noise analysis took {:?}; output {:.4e} V rms = {:.3} LSB, SNR {:.2} dB, ENOB {:.2}",
+            demo.id,
+            start.elapsed(),
+            a.output_rms,
+            a.lsb_ratio,
+            a.snr_db,
+            a.enob
+        );
         let id = demo.id;
         let span = req.destination.max - req.destination.min;
         let fs_rms = span / (2.0 * 2f64.sqrt());
-        let numbers = [a.band[0], a.band[1], a.output_rms, a.input_rms, a.lsb, a.quantization_rms, a.lsb_ratio, a.snr_db, a.enob, a.temperature];
-        let bad = numbers.iter().chain(a.contributors.iter().map(|c| &c.output_rms)).chain(a.density.iter().flat_map(|p| [&p.f, &p.output])).filter(|x| !x.is_finite()).count();
+        let numbers = [
+            a.band[0],
+            a.band[1],
+            a.output_rms,
+            a.input_rms,
+            a.lsb,
+            a.quantization_rms,
+            a.lsb_ratio,
+            a.snr_db,
+            a.enob,
+            a.temperature,
+        ];
+        let bad = numbers
+            .iter()
+            .chain(a.contributors.iter().map(|c| &c.output_rms))
+            .chain(a.density.iter().flat_map(|p| [&p.f, &p.output]))
+            .filter(|x| !x.is_finite())
+            .count();
         let rss = a.contributors.iter().map(|c| c.output_rms.powi(2)).sum::<f64>().sqrt();
         let sorted = a.contributors.windows(2).all(|w| w[0].output_rms >= w[1].output_rms);
         let resistors = circuit.parts.iter().filter(|q| q.kind == PartKind::Resistor).count();
@@ -381,24 +492,88 @@ fn converter_figures_are_consistent_and_demos_finite() {
         let has = |name: &str| a.contributors.iter().any(|c| c.part == name) as u8 as f64;
         rows.extend([
             row_rel(format!("{id}: non-finite numbers"), bad as f64, 0.0, 0.0, 0.0, "never NaN"),
-            row_rel(format!("{id}: output noise is positive"), (a.output_rms > 0.0) as u8 as f64, 1.0, 0.0, 0.0, "resistors are noisy above 0 K"),
+            row_rel(
+                format!("{id}: output noise is positive"),
+                (a.output_rms > 0.0) as u8 as f64,
+                1.0,
+                0.0,
+                0.0,
+                "resistors are noisy above 0 K",
+            ),
             row_rel(format!("{id}: lsb_ratio"), a.lsb_ratio, a.output_rms / a.lsb, 1e-12, 0.0, DEF),
-            row_rel(format!("{id}: lsb"), a.lsb, span / 2f64.powi(req.destination.bits as i32), 1e-12, 0.0, "references.md: LSB = FSR/2^N"),
-            row_rel(format!("{id}: snr_db"), a.snr_db, 20.0 * (fs_rms / a.output_rms.hypot(a.lsb / 12f64.sqrt())).log10(), 1e-12, 0.0, DEF),
-            row_rel(format!("{id}: snr_db below the ideal"), (a.snr_db < noise::ideal_snr_db(req.destination.bits)) as u8 as f64, 1.0, 0.0, 0.0, "noise only adds"),
-            row_rel(format!("{id}: enob"), a.enob, (a.snr_db - 1.76) / 6.02, 1e-12, 0.0, "references.md: ENOB = (SINAD − 1.76)/6.02"),
+            row_rel(
+                format!("{id}: lsb"),
+                a.lsb,
+                span / 2f64.powi(req.destination.bits as i32),
+                1e-12,
+                0.0,
+                "references.md: LSB = FSR/2^N",
+            ),
+            row_rel(
+                format!("{id}: snr_db"),
+                a.snr_db,
+                20.0 * (fs_rms / a.output_rms.hypot(a.lsb / 12f64.sqrt())).log10(),
+                1e-12,
+                0.0,
+                DEF,
+            ),
+            row_rel(
+                format!("{id}: snr_db below the ideal"),
+                (a.snr_db < noise::ideal_snr_db(req.destination.bits)) as u8 as f64,
+                1.0,
+                0.0,
+                0.0,
+                "noise only adds",
+            ),
+            row_rel(
+                format!("{id}: enob"),
+                a.enob,
+                (a.snr_db - 1.76) / 6.02,
+                1e-12,
+                0.0,
+                "references.md: ENOB = (SINAD − 1.76)/6.02",
+            ),
             row_rel(format!("{id}: input_rms × |gain|"), a.input_rms * p.gain.abs(), a.output_rms, 1e-12, 0.0, DEF),
             row_rel(format!("{id}: contributors add in power"), rss, a.output_rms, 1e-12, 0.0, "uncorrelated sources"),
             row_rel(format!("{id}: contributors sorted"), sorted as u8 as f64, 1.0, 0.0, 0.0, "API"),
-            row_rel(format!("{id}: contributors"), a.contributors.len() as f64, (resistors + 2 * amplifiers) as f64, 0.0, 0.0, "every resistor and each amplifier's two sources"),
+            row_rel(
+                format!("{id}: contributors"),
+                a.contributors.len() as f64,
+                (resistors + 2 * amplifiers) as f64,
+                0.0,
+                0.0,
+                "every resistor and each amplifier's two sources",
+            ),
             // The sensor's own resistance: RSENSE for voltage kinds; a loop's shunt is a part.
             // (a photodiode has none: its current source and capacitance are noiseless here).
-            row_rel(format!("{id}: sensor resistance listed"), if req.source.current_loop.is_some() { has(&d.current_loop().map_or(String::new(), |l| l.shunt_ref.clone())) } else if d.photodiode().is_some() { 1.0 } else if d.differential().is_some() { has("RSENSEP") * has("RSENSEN") } else { has("RSENSE") }, 1.0, 0.0, 0.0, "API"),
+            row_rel(
+                format!("{id}: sensor resistance listed"),
+                if req.source.current_loop.is_some() {
+                    has(&d.current_loop().map_or(String::new(), |l| l.shunt_ref.clone()))
+                } else if d.photodiode().is_some() {
+                    1.0
+                } else if d.differential().is_some() {
+                    has("RSENSEP") * has("RSENSEN")
+                } else {
+                    has("RSENSE")
+                },
+                1.0,
+                0.0,
+                0.0,
+                "API",
+            ),
             row_rel(format!("{id}: RADC listed"), has("RADC"), 1.0, 0.0, 0.0, "API"),
             row_rel(format!("{id}: U1 voltage noise listed"), has("U1 voltage noise"), 1.0, 0.0, 0.0, "API"),
             row_rel(format!("{id}: U1 current noise listed"), has("U1 current noise"), 1.0, 0.0, 0.0, "API"),
             row_rel(format!("{id}: density points"), a.density.len() as f64, 160.0, 0.0, 0.0, "NoiseConfig::points"),
-            row_rel(format!("{id}: band high ≤ Nyquist"), (a.band[1] <= 0.5 * req.destination.sample_rate) as u8 as f64, 1.0, 0.0, 0.0, "band rule"),
+            row_rel(
+                format!("{id}: band high ≤ Nyquist"),
+                (a.band[1] <= 0.5 * req.destination.sample_rate) as u8 as f64,
+                1.0,
+                0.0,
+                0.0,
+                "band rule",
+            ),
         ]);
     }
 
@@ -414,8 +589,24 @@ fn converter_figures_are_consistent_and_demos_finite() {
         ("NaN temperature", f64::NAN, Some(f64::NAN), cfg(f64::NAN, 3, true)),
     ] {
         let a = noise::noise(&demo, circuit, gain, corner, &c);
-        let numbers = [a.band[0], a.band[1], a.output_rms, a.input_rms, a.lsb, a.quantization_rms, a.lsb_ratio, a.snr_db, a.enob, a.temperature];
-        let bad = numbers.iter().chain(a.contributors.iter().map(|c| &c.output_rms)).chain(a.density.iter().flat_map(|p| [&p.f, &p.output])).filter(|x| !x.is_finite()).count();
+        let numbers = [
+            a.band[0],
+            a.band[1],
+            a.output_rms,
+            a.input_rms,
+            a.lsb,
+            a.quantization_rms,
+            a.lsb_ratio,
+            a.snr_db,
+            a.enob,
+            a.temperature,
+        ];
+        let bad = numbers
+            .iter()
+            .chain(a.contributors.iter().map(|c| &c.output_rms))
+            .chain(a.density.iter().flat_map(|p| [&p.f, &p.output]))
+            .filter(|x| !x.is_finite())
+            .count();
         rows.push(row_rel(format!("odd input ({what}): non-finite numbers"), bad as f64, 0.0, 0.0, 0.0, "never NaN"));
     }
     check(&rows);

@@ -61,7 +61,10 @@ fn request(v: &Value) -> Request {
 
 /// A DC-coupled request; `extra` entries are merged into the top level (parts, analysis…).
 #[allow(clippy::too_many_arguments)]
-fn dc(name: &str, min: f64, max: f64, impedance: &str, band_high: &str, dest: (f64, f64), bits: u32, fs: &str, supplies: Value, extra: Value) -> Value {
+fn dc(
+    name: &str, min: f64, max: f64, impedance: &str, band_high: &str, dest: (f64, f64), bits: u32, fs: &str,
+    supplies: Value, extra: Value,
+) -> Value {
     let mut v = json!({
         "version": 1, "name": name,
         "source": {"kind": "single_ended", "min": min, "max": max, "coupling": "dc", "impedance": impedance, "band_high": band_high},
@@ -75,7 +78,10 @@ fn dc(name: &str, min: f64, max: f64, impedance: &str, band_high: &str, dest: (f
 
 /// An AC-coupled request with band `band_low … band_high`.
 #[allow(clippy::too_many_arguments)]
-fn ac(name: &str, min: f64, max: f64, impedance: &str, band: (&str, &str), dest: (f64, f64), bits: u32, fs: &str, supplies: Value, extra: Value) -> Value {
+fn ac(
+    name: &str, min: f64, max: f64, impedance: &str, band: (&str, &str), dest: (f64, f64), bits: u32, fs: &str,
+    supplies: Value, extra: Value,
+) -> Value {
     let mut v = json!({
         "version": 1, "name": name,
         "source": {"kind": "single_ended", "min": min, "max": max, "coupling": "ac", "impedance": impedance, "band_low": band.0, "band_high": band.1},
@@ -105,30 +111,165 @@ fn merge(v: &mut Value, extra: Value) {
 fn scenario_requests() -> Vec<(&'static str, Value)> {
     vec![
         // A beekeeper's hive scale: its bridge amplifier gives 0.25 … 2.75 V for 0 … 150 kg.
-        ("hive", dc("Beekeeper's hive-weight scale", 0.25, 2.75, "100", "2 Hz", (0.0, 3.3), 12, "50 Hz", json!([3.3]),
-            json!({"source": {"measurand": {"name": "hive weight", "unit": "kg", "at_min": 0, "at_max": 150}}}))),
+        (
+            "hive",
+            dc(
+                "Beekeeper's hive-weight scale",
+                0.25,
+                2.75,
+                "100",
+                "2 Hz",
+                (0.0, 3.3),
+                12,
+                "50 Hz",
+                json!([3.3]),
+                json!({"source": {"measurand": {"name": "hive weight", "unit": "kg", "at_min": 0, "at_max": 150}}}),
+            ),
+        ),
         // A sauna thermistor divider: 0.4 V when hot (120 °C), 2.9 V when cold (15 °C).
-        ("sauna", dc("Sauna bench thermistor divider", 0.4, 2.9, "10k", "1 Hz", (0.0, 2.5), 16, "10 Hz", json!([3.3]),
-            json!({"source": {"measurand": {"name": "bench temperature", "unit": "°C", "at_min": 120, "at_max": 15}}}))),
+        (
+            "sauna",
+            dc(
+                "Sauna bench thermistor divider",
+                0.4,
+                2.9,
+                "10k",
+                "1 Hz",
+                (0.0, 2.5),
+                16,
+                "10 Hz",
+                json!([3.3]),
+                json!({"source": {"measurand": {"name": "bench temperature", "unit": "°C", "at_min": 120, "at_max": 15}}}),
+            ),
+        ),
         // A vineyard irrigation main: pressure transmitter 0.5 … 4.5 V for 0 … 600 kPa.
-        ("vineyard", dc("Vineyard irrigation main pressure", 0.5, 4.5, "250", "20 Hz", (0.0, 3.3), 14, "500 Hz", json!([5]),
-            json!({"source": {"measurand": {"name": "line pressure", "unit": "kPa", "at_min": 0, "at_max": 600}}}))),
+        (
+            "vineyard",
+            dc(
+                "Vineyard irrigation main pressure",
+                0.5,
+                4.5,
+                "250",
+                "20 Hz",
+                (0.0, 3.3),
+                14,
+                "500 Hz",
+                json!([5]),
+                json!({"source": {"measurand": {"name": "line pressure", "unit": "kPa", "at_min": 0, "at_max": 600}}}),
+            ),
+        ),
         // A ferry engine-room vibration pickup resting at 2.0 V, into a stage biased at 1.65 V.
-        ("ferry", ac("Ferry engine-room vibration pickup", 1.7, 2.3, "500", ("10 Hz", "5 kHz"), (0.0, 3.3), 12, "50 kHz", json!([3.3]), json!({}))),
+        (
+            "ferry",
+            ac(
+                "Ferry engine-room vibration pickup",
+                1.7,
+                2.3,
+                "500",
+                ("10 Hz", "5 kHz"),
+                (0.0, 3.3),
+                12,
+                "50 kHz",
+                json!([3.3]),
+                json!({}),
+            ),
+        ),
         // A grain-silo sway sensor resting at 2.5 V, band down to 0.1 Hz: electrolytic coupling.
-        ("silo", ac("Grain-silo sway sensor", 2.2, 2.8, "2k", ("0.1 Hz", "20 Hz"), (0.0, 3.3), 16, "200 Hz", json!([3.3]), json!({}))),
+        (
+            "silo",
+            ac(
+                "Grain-silo sway sensor",
+                2.2,
+                2.8,
+                "2k",
+                ("0.1 Hz", "20 Hz"),
+                (0.0, 3.3),
+                16,
+                "200 Hz",
+                json!([3.3]),
+                json!({}),
+            ),
+        ),
         // An orchard wind-machine vibration tap resting at 0.8 V, below the 1.65 V bias.
-        ("orchard", ac("Orchard wind-machine vibration tap", 0.6, 1.0, "1k", ("0.1 Hz", "50 Hz"), (0.0, 3.3), 12, "500 Hz", json!([3.3]), json!({}))),
+        (
+            "orchard",
+            ac(
+                "Orchard wind-machine vibration tap",
+                0.6,
+                1.0,
+                "1k",
+                ("0.1 Hz", "50 Hz"),
+                (0.0, 3.3),
+                12,
+                "500 Hz",
+                json!([3.3]),
+                json!({}),
+            ),
+        ),
         // A ferry propeller-shaft accelerometer on a 10 V bias, into ±5 V on ±15 V rails.
-        ("shaft", ac("Ferry propeller-shaft accelerometer", 8.0, 12.0, "100", ("0.1 Hz", "1 kHz"), (-5.0, 5.0), 16, "10 kHz", json!([15, -15]), json!({}))),
+        (
+            "shaft",
+            ac(
+                "Ferry propeller-shaft accelerometer",
+                8.0,
+                12.0,
+                "100",
+                ("0.1 Hz", "1 kHz"),
+                (-5.0, 5.0),
+                16,
+                "10 kHz",
+                json!([15, -15]),
+                json!({}),
+            ),
+        ),
         // A greenhouse vent anemometer resting right at the 1.65 V bias: no DC across the coupling.
-        ("vent", ac("Greenhouse vent anemometer ripple", 1.45, 1.85, "1k", ("0.1 Hz", "20 Hz"), (0.0, 3.3), 12, "200 Hz", json!([3.3]), json!({}))),
+        (
+            "vent",
+            ac(
+                "Greenhouse vent anemometer ripple",
+                1.45,
+                1.85,
+                "1k",
+                ("0.1 Hz", "20 Hz"),
+                (0.0, 3.3),
+                12,
+                "200 Hz",
+                json!([3.3]),
+                json!({}),
+            ),
+        ),
         // A marina battery-bank monitor, 0 … 24 V through a low-ohm divider window.
-        ("marina", dc("Marina battery-bank monitor", 0.0, 24.0, "0.1", "5 Hz", (0.0, 3.3), 12, "100 Hz", json!([5]),
-            json!({"parts": {"resistor_min": "100", "resistor_max": "10k"}}))),
+        (
+            "marina",
+            dc(
+                "Marina battery-bank monitor",
+                0.0,
+                24.0,
+                "0.1",
+                "5 Hz",
+                (0.0, 3.3),
+                12,
+                "100 Hz",
+                json!([5]),
+                json!({"parts": {"resistor_min": "100", "resistor_max": "10k"}}),
+            ),
+        ),
         // A tram-depot charger sense line, 0 … 28 V, with a 10 Ω … 1 kΩ window: watts to burn.
-        ("tram", dc("Tram-depot charger sense line", 0.0, 28.0, "0.1", "5 Hz", (0.0, 3.3), 12, "100 Hz", json!([5]),
-            json!({"parts": {"resistor_min": "10", "resistor_max": "1k"}}))),
+        (
+            "tram",
+            dc(
+                "Tram-depot charger sense line",
+                0.0,
+                28.0,
+                "0.1",
+                "5 Hz",
+                (0.0, 3.3),
+                12,
+                "100 Hz",
+                json!([5]),
+                json!({"parts": {"resistor_min": "10", "resistor_max": "1k"}}),
+            ),
+        ),
     ]
 }
 
@@ -159,10 +300,21 @@ fn circuit<'a>(id: &str, d: &'a Design) -> &'a Circuit {
 // ---------------------------------------------------------------------------------------
 // 1. The part list as CSV (RFC 4180).
 
-const CSV_HEADER: [&str; 9] = ["designators", "quantity", "kind", "value", "tolerance", "tolerance_code", "rating", "construction", "notes"];
+const CSV_HEADER: [&str; 9] =
+    ["designators", "quantity", "kind", "value", "tolerance", "tolerance_code", "rating", "construction", "notes"];
 
 fn fields(r: &BomRow) -> [String; 9] {
-    [r.designators.join(" "), r.quantity.to_string(), r.kind.clone(), r.value.clone(), r.tolerance.clone(), r.tolerance_code.clone(), r.rating.clone(), r.construction.clone(), r.notes.clone()]
+    [
+        r.designators.join(" "),
+        r.quantity.to_string(),
+        r.kind.clone(),
+        r.value.clone(),
+        r.tolerance.clone(),
+        r.tolerance_code.clone(),
+        r.rating.clone(),
+        r.construction.clone(),
+        r.notes.clone(),
+    ]
 }
 
 /// `to_csv(rows)` reads back through an RFC 4180 reader to the same header and fields, one
@@ -190,22 +342,47 @@ fn check_csv(f: &mut Fails, what: &str, rows: &[BomRow]) {
             }
         }
     }
-    f.expect("RFC 4180", &format!("{what}: one record per part-list row"), records.len() == rows.len(), (records.len(), rows.len()));
+    f.expect(
+        "RFC 4180",
+        &format!("{what}: one record per part-list row"),
+        records.len() == rows.len(),
+        (records.len(), rows.len()),
+    );
     for (rec, row) in records.iter().zip(rows) {
         let got: Vec<&str> = rec.iter().collect();
         let want = fields(row);
-        f.expect("RFC 4180", &format!("{what}: {} reads back field for field", row.designators.join(" ")), got == want, (&got, &want));
+        f.expect(
+            "RFC 4180",
+            &format!("{what}: {} reads back field for field", row.designators.join(" ")),
+            got == want,
+            (&got, &want),
+        );
         // RFC 4180 §2 rule 1: records are delimited by CRLF, so each record after the first
         // starts right after one.
         if let Some(pos) = rec.position() {
             // The reader counts a record as starting at the LF of the CRLF before it.
             let start = pos.byte() as usize + usize::from(text[pos.byte() as usize..].starts_with('\n'));
-            f.expect("RFC 4180 §2 rule 1", &format!("{what}: CRLF before the record of {}", row.designators.join(" ")), text[..start].ends_with("\r\n"), &text[start.saturating_sub(4)..start]);
+            f.expect(
+                "RFC 4180 §2 rule 1",
+                &format!("{what}: CRLF before the record of {}", row.designators.join(" ")),
+                text[..start].ends_with("\r\n"),
+                &text[start.saturating_sub(4)..start],
+            );
         }
     }
-    f.expect("RFC 4180 §2 rule 2 (the optional final CRLF, which bom.rs promises)", &format!("{what}: the last record ends with CRLF"), text.ends_with("\r\n"), text.chars().rev().take(4).collect::<String>());
+    f.expect(
+        "RFC 4180 §2 rule 2 (the optional final CRLF, which bom.rs promises)",
+        &format!("{what}: the last record ends with CRLF"),
+        text.ends_with("\r\n"),
+        text.chars().rev().take(4).collect::<String>(),
+    );
     let bare_lf = text.match_indices('\n').filter(|(i, _)| !text[..*i].ends_with('\r')).count();
-    f.expect("RFC 4180 §2 rule 1", &format!("{what}: no bare LF line end"), bare_lf == 0 || rows.iter().any(|r| fields(r).iter().any(|x| x.contains('\n'))), bare_lf);
+    f.expect(
+        "RFC 4180 §2 rule 1",
+        &format!("{what}: no bare LF line end"),
+        bare_lf == 0 || rows.iter().any(|r| fields(r).iter().any(|x| x.contains('\n'))),
+        bare_lf,
+    );
 }
 
 fn hand_made(designators: &[&str], value: &str, construction: &str, notes: &str) -> BomRow {
@@ -234,11 +411,21 @@ fn part_list_csv_reads_back_per_rfc_4180() {
         // The command prints the same text.
         if let Some(demo) = demos::find(id) {
             let out = cli::run(&["bom".to_string(), "in.json".to_string()], &|_| Ok(demo.json.to_string()));
-            f.expect("rangefit bom", &format!("{id}: `rangefit bom` prints to_csv(bom(design))"), out.status == 0 && out.stdout == to_csv(&rows), &out.stderr);
+            f.expect(
+                "rangefit bom",
+                &format!("{id}: `rangefit bom` prints to_csv(bom(design))"),
+                out.status == 0 && out.stdout == to_csv(&rows),
+                &out.stderr,
+            );
         }
     }
     // Real part lists need quoting too (requirements and constructions carry commas).
-    f.expect("RFC 4180 §2 rule 6", "some design's part list has a quoted field", designs().iter().any(|(_, d)| to_csv(&bom(d)).contains('"')), "no quotes");
+    f.expect(
+        "RFC 4180 §2 rule 6",
+        "some design's part list has a quoted field",
+        designs().iter().any(|(_, d)| to_csv(&bom(d)).contains('"')),
+        "no quotes",
+    );
     // Fields that must be quoted: comma, double quote, line breaks (LF and CRLF); and a
     // leading space, which is part of the field (RFC 4180 §2 rule 4).
     let awkward = [
@@ -251,14 +438,36 @@ fn part_list_csv_reads_back_per_rfc_4180() {
     // and a double quote inside is escaped by another double quote.
     let text = to_csv(&awkward);
     let lines: Vec<&str> = text.split_inclusive("\r\n").collect();
-    let want_first = "R1 R7,2,resistor,\"1,5 kΩ\",±1 %,F,≥ 63 mW,\"thin-film, \"\"low noise\"\"\",\"line one\nline two\"\r\n";
-    f.expect("RFC 4180 §2 rules 6–7", "hand-made row with comma, quotes and LF is quoted exactly", lines.get(1) == Some(&want_first), lines.get(1));
-    let want_second = "R2,1,resistor,\"\"\"quoted\"\"\",±1 %,F,≥ 63 mW,\"a\r\nb\",\" leading space, trailing space \"\r\n";
+    let want_first =
+        "R1 R7,2,resistor,\"1,5 kΩ\",±1 %,F,≥ 63 mW,\"thin-film, \"\"low noise\"\"\",\"line one\nline two\"\r\n";
+    f.expect(
+        "RFC 4180 §2 rules 6–7",
+        "hand-made row with comma, quotes and LF is quoted exactly",
+        lines.get(1) == Some(&want_first),
+        lines.get(1),
+    );
+    let want_second =
+        "R2,1,resistor,\"\"\"quoted\"\"\",±1 %,F,≥ 63 mW,\"a\r\nb\",\" leading space, trailing space \"\r\n";
     let second = format!("{}{}", lines.get(2).copied().unwrap_or(""), lines.get(3).copied().unwrap_or(""));
-    f.expect("RFC 4180 §2 rules 6–7", "hand-made row with quotes and CRLF inside is quoted exactly", second == want_second, &second);
-    f.expect("RFC 4180 §2 rule 5 (quotes only where needed, as bom.rs documents)", "an ordinary row is left unquoted", lines.get(4) == Some(&"R3,1,resistor,plain,±1 %,F,≥ 63 mW,,\r\n"), lines.get(4));
+    f.expect(
+        "RFC 4180 §2 rules 6–7",
+        "hand-made row with quotes and CRLF inside is quoted exactly",
+        second == want_second,
+        &second,
+    );
+    f.expect(
+        "RFC 4180 §2 rule 5 (quotes only where needed, as bom.rs documents)",
+        "an ordinary row is left unquoted",
+        lines.get(4) == Some(&"R3,1,resistor,plain,±1 %,F,≥ 63 mW,,\r\n"),
+        lines.get(4),
+    );
     // An empty list is the header alone.
-    f.expect("RFC 4180 §2 rules 1 and 3", "empty part list is the header line", to_csv(&[]) == format!("{}\r\n", CSV_HEADER.join(",")), to_csv(&[]));
+    f.expect(
+        "RFC 4180 §2 rules 1 and 3",
+        "empty part list is the header line",
+        to_csv(&[]) == format!("{}\r\n", CSV_HEADER.join(",")),
+        to_csv(&[]),
+    );
     f.finish();
 }
 
@@ -280,18 +489,43 @@ fn check_rows(f: &mut Fails, id: &str, d: &Design) -> usize {
     };
     let parts: Vec<&Part> = c.build_parts().into_iter().filter(|p| p.kind != PartKind::VoltageSource).collect();
     let total: usize = rows.iter().map(|r| r.quantity).sum();
-    f.expect("part list", &format!("{id}: quantities add up to the parts to build"), total == parts.len(), (total, parts.len()));
+    f.expect(
+        "part list",
+        &format!("{id}: quantities add up to the parts to build"),
+        total == parts.len(),
+        (total, parts.len()),
+    );
     let mut seen = BTreeSet::new();
     for r in &rows {
-        f.expect("part list", &format!("{id}: quantity equals the designators listed in {:?}", r.designators), r.quantity == r.designators.len(), r.quantity);
+        f.expect(
+            "part list",
+            &format!("{id}: quantity equals the designators listed in {:?}", r.designators),
+            r.quantity == r.designators.len(),
+            r.quantity,
+        );
         for x in &r.designators {
             f.expect("part list", &format!("{id}: designator {x} appears once"), seen.insert(x.clone()), x);
             match parts.iter().find(|p| &p.reference == x) {
                 Some(p) => {
-                    f.expect("part list", &format!("{id}: {x} is listed as a {}", p.kind.name()), r.kind == p.kind.name(), &r.kind);
+                    f.expect(
+                        "part list",
+                        &format!("{id}: {x} is listed as a {}", p.kind.name()),
+                        r.kind == p.kind.name(),
+                        &r.kind,
+                    );
                     if p.kind != PartKind::OpAmp {
-                        f.expect("part list", &format!("{id}: {x} has its row's value"), (p.value - r.value_si).abs() <= 1e-9 * p.value.abs(), (p.value, r.value_si));
-                        f.expect("part list", &format!("{id}: {x} has a tolerance iff its row states one"), p.tolerance.is_some() == !r.tolerance.is_empty(), (p.tolerance, &r.tolerance));
+                        f.expect(
+                            "part list",
+                            &format!("{id}: {x} has its row's value"),
+                            (p.value - r.value_si).abs() <= 1e-9 * p.value.abs(),
+                            (p.value, r.value_si),
+                        );
+                        f.expect(
+                            "part list",
+                            &format!("{id}: {x} has a tolerance iff its row states one"),
+                            p.tolerance.is_some() == !r.tolerance.is_empty(),
+                            (p.tolerance, &r.tolerance),
+                        );
                     }
                 }
                 None => f.expect("part list", &format!("{id}: {x} is a part to build"), false, x),
@@ -311,7 +545,12 @@ fn check_rows(f: &mut Fails, id: &str, d: &Design) -> usize {
             let (Some(ra), Some(rb)) = (row_of(&rows, &a.reference), row_of(&rows, &b.reference)) else { continue };
             if ra.rating == rb.rating && ra.construction == rb.construction {
                 pairs += 1;
-                f.expect("part list", &format!("{id}: identical {} and {} share a row", a.reference, b.reference), std::ptr::eq(ra, rb), (&ra.designators, &rb.designators));
+                f.expect(
+                    "part list",
+                    &format!("{id}: identical {} and {} share a row", a.reference, b.reference),
+                    std::ptr::eq(ra, rb),
+                    (&ra.designators, &rb.designators),
+                );
             }
         }
     }
@@ -328,9 +567,25 @@ fn part_list_has_one_row_per_distinct_part() {
     // The AC stages bias at 1.65 V from 3.3 V with two equal divider legs.
     f.expect("own scenario", "some design has identical parts that share a row", pairs > 0, pairs);
     let ferry = bom(designed("ferry"));
-    f.expect("own scenario", "ferry: fewer rows than parts (equal divider legs merged)", ferry.iter().any(|r| r.quantity >= 2 && r.kind == "resistor"), ferry.iter().map(|r| &r.designators).collect::<Vec<_>>());
+    f.expect(
+        "own scenario",
+        "ferry: fewer rows than parts (equal divider legs merged)",
+        ferry.iter().any(|r| r.quantity >= 2 && r.kind == "resistor"),
+        ferry.iter().map(|r| &r.designators).collect::<Vec<_>>(),
+    );
     // A request that cannot be built has no circuit and an empty list.
-    let zero_span = design(&request(&dc("Hive scale with a stuck bridge", 1.2, 1.2, "100", "2 Hz", (0.0, 3.3), 12, "50 Hz", json!([3.3]), json!({}))));
+    let zero_span = design(&request(&dc(
+        "Hive scale with a stuck bridge",
+        1.2,
+        1.2,
+        "100",
+        "2 Hz",
+        (0.0, 3.3),
+        12,
+        "50 Hz",
+        json!([3.3]),
+        json!({}),
+    )));
     check_rows(&mut f, "zero-span", &zero_span);
     f.finish();
 }
@@ -362,14 +617,34 @@ fn check_schematic_labels(f: &mut Fails, id: &str, d: &Design) {
     for r in bom(d) {
         for x in &r.designators {
             // The label itself, or a note under the drawing that names the part with its value.
-            let labelled = texts.iter().any(|t| t == x) || texts.iter().any(|t| t.split_whitespace().any(|w| w == x) && t.contains(&r.value));
-            f.expect("part list ↔ schematic", &format!("{id}: designator {x} is labelled on the schematic"), labelled, x);
+            let labelled = texts.iter().any(|t| t == x)
+                || texts.iter().any(|t| t.split_whitespace().any(|w| w == x) && t.contains(&r.value));
+            f.expect(
+                "part list ↔ schematic",
+                &format!("{id}: designator {x} is labelled on the schematic"),
+                labelled,
+                x,
+            );
         }
         // A diode's row says "Schottky, V_F ≈ 300 mV at 1 mA"; the drawing, short of room at
         // the pin, says "Schottky 300 mV": the same type and forward voltage.
-        let diode = r.kind == "diode" && r.value.split("≈ ").nth(1).and_then(|v| v.split(" at").next()).is_some_and(|vf| texts.iter().any(|t| t.starts_with("Schottky") && t.contains(vf)));
-        let valued = diode || texts.iter().any(|t| t == &r.value) || texts.iter().any(|t| t.contains(&r.value) && r.designators.iter().any(|x| t.split_whitespace().any(|w| w == x)));
-        f.expect("part list ↔ schematic", &format!("{id}: value {:?} of {} is on the schematic", r.value, r.designators.join(" ")), valued, texts.iter().filter(|t| t.contains("GBW") || t.contains(&r.value)).collect::<Vec<_>>());
+        let diode = r.kind == "diode"
+            && r.value
+                .split("≈ ")
+                .nth(1)
+                .and_then(|v| v.split(" at").next())
+                .is_some_and(|vf| texts.iter().any(|t| t.starts_with("Schottky") && t.contains(vf)));
+        let valued = diode
+            || texts.iter().any(|t| t == &r.value)
+            || texts
+                .iter()
+                .any(|t| t.contains(&r.value) && r.designators.iter().any(|x| t.split_whitespace().any(|w| w == x)));
+        f.expect(
+            "part list ↔ schematic",
+            &format!("{id}: value {:?} of {} is on the schematic", r.value, r.designators.join(" ")),
+            valued,
+            texts.iter().filter(|t| t.contains("GBW") || t.contains(&r.value)).collect::<Vec<_>>(),
+        );
     }
 }
 
@@ -388,7 +663,8 @@ fn schematic_shows_every_part_list_designator_and_value() {
 /// IEC 60062 letter codes for the tolerances requested here; `None` where the standard has
 /// no letter.
 fn iec_60062(percent: f64) -> Option<&'static str> {
-    const TABLE: [(f64, &str); 8] = [(0.1, "B"), (0.25, "C"), (0.5, "D"), (1.0, "F"), (2.0, "G"), (5.0, "J"), (10.0, "K"), (20.0, "M")];
+    const TABLE: [(f64, &str); 8] =
+        [(0.1, "B"), (0.25, "C"), (0.5, "D"), (1.0, "F"), (2.0, "G"), (5.0, "J"), (10.0, "K"), (20.0, "M")];
     TABLE.iter().find(|(p, _)| (p - percent).abs() < 1e-9).map(|(_, l)| *l)
 }
 
@@ -413,13 +689,28 @@ fn check_tolerance(f: &mut Fails, resistor_pct: f64, capacitor_pct: f64) {
         f.expect("own scenario", &format!("{what}: the design has {kind}s"), !of_kind.is_empty(), rows.len());
         for r in of_kind {
             let letter = iec_60062(pct).unwrap_or("");
-            f.expect("IEC 60062", &format!("{what}: {} letter for ±{pct} %", r.designators.join(" ")), r.tolerance_code == letter, (&r.tolerance_code, letter));
+            f.expect(
+                "IEC 60062",
+                &format!("{what}: {} letter for ±{pct} %", r.designators.join(" ")),
+                r.tolerance_code == letter,
+                (&r.tolerance_code, letter),
+            );
             let text = format!("±{pct} %");
-            f.expect("IEC 60062 (tolerance as ± percent)", &format!("{what}: {} tolerance text", r.designators.join(" ")), r.tolerance == text, (&r.tolerance, &text));
+            f.expect(
+                "IEC 60062 (tolerance as ± percent)",
+                &format!("{what}: {} tolerance text", r.designators.join(" ")),
+                r.tolerance == text,
+                (&r.tolerance, &text),
+            );
         }
     }
     let amp: Vec<&BomRow> = rows.iter().filter(|r| r.kind == "amplifier").collect();
-    f.expect("IEC 60062", &format!("{what}: an amplifier has no tolerance letter"), amp.iter().all(|r| r.tolerance_code.is_empty()), amp.iter().map(|r| &r.tolerance_code).collect::<Vec<_>>());
+    f.expect(
+        "IEC 60062",
+        &format!("{what}: an amplifier has no tolerance letter"),
+        amp.iter().all(|r| r.tolerance_code.is_empty()),
+        amp.iter().map(|r| &r.tolerance_code).collect::<Vec<_>>(),
+    );
 }
 
 #[test]
@@ -516,11 +807,26 @@ fn check_ratings(f: &mut Fails, id: &str, d: &Design) {
                 let need = MARGIN * watts;
                 match rating_value(&r.rating, "W") {
                     Some(w) => {
-                        f.expect("common practice: ≥ 2 × V²/R", &format!("{id}: {x} ({}) rated {} for {watts:.3e} W", r.value, r.rating), w >= need * (1.0 - 1e-9), (w, need));
+                        f.expect(
+                            "common practice: ≥ 2 × V²/R",
+                            &format!("{id}: {x} ({}) rated {} for {watts:.3e} W", r.value, r.rating),
+                            w >= need * (1.0 - 1e-9),
+                            (w, need),
+                        );
                         let usual = COMMON_WATTS.iter().copied().find(|&u| u >= need);
                         match usual {
-                            Some(u) => f.expect("common practice: the smallest usual rating that covers it", &format!("{id}: {x} not over-rated"), w <= u * (1.0 + 1e-9), (w, u)),
-                            None => f.expect("common practice: beyond 2 W, a power resistor", &format!("{id}: {x} flagged as a power resistor"), r.rating.contains("power resistor"), &r.rating),
+                            Some(u) => f.expect(
+                                "common practice: the smallest usual rating that covers it",
+                                &format!("{id}: {x} not over-rated"),
+                                w <= u * (1.0 + 1e-9),
+                                (w, u),
+                            ),
+                            None => f.expect(
+                                "common practice: beyond 2 W, a power resistor",
+                                &format!("{id}: {x} flagged as a power resistor"),
+                                r.rating.contains("power resistor"),
+                                &r.rating,
+                            ),
                         }
                     }
                     None => f.expect("part list", &format!("{id}: {x} rating reads as a power"), false, &r.rating),
@@ -532,38 +838,86 @@ fn check_ratings(f: &mut Fails, id: &str, d: &Design) {
                 let need = MARGIN * v;
                 match rating_value(&r.rating, "V") {
                     Some(rated) => {
-                        f.expect("common practice: ≥ 2 × the largest voltage across", &format!("{id}: {x} ({}) rated {} for {v:.3} V", r.value, r.rating), rated >= need * (1.0 - 1e-9), (rated, need));
+                        f.expect(
+                            "common practice: ≥ 2 × the largest voltage across",
+                            &format!("{id}: {x} ({}) rated {} for {v:.3} V", r.value, r.rating),
+                            rated >= need * (1.0 - 1e-9),
+                            (rated, need),
+                        );
                         let usual = COMMON_VOLTS.iter().copied().find(|&u| u >= need).unwrap_or(f64::INFINITY);
-                        f.expect("common practice: the smallest usual rating that covers it", &format!("{id}: {x} not over-rated"), rated <= usual * (1.0 + 1e-9), (rated, usual));
+                        f.expect(
+                            "common practice: the smallest usual rating that covers it",
+                            &format!("{id}: {x} not over-rated"),
+                            rated <= usual * (1.0 + 1e-9),
+                            (rated, usual),
+                        );
                     }
                     None => f.expect("part list", &format!("{id}: {x} rating reads as a voltage"), false, &r.rating),
                 }
                 let large = p.value >= 10e-6;
                 let one_sign = (a.lo > 0.1 && a.hi > 0.1) || (a.lo < -0.1 && a.hi < -0.1);
                 if large {
-                    f.expect("common practice: 10 µF and more is an electrolytic", &format!("{id}: {x} ({}) is an electrolytic", r.value), r.construction.contains("electrolytic"), &r.construction);
+                    f.expect(
+                        "common practice: 10 µF and more is an electrolytic",
+                        &format!("{id}: {x} ({}) is an electrolytic", r.value),
+                        r.construction.contains("electrolytic"),
+                        &r.construction,
+                    );
                 }
                 match r.construction.split_once("+ to node ") {
                     Some((_, plus)) => {
                         let plus = plus.trim();
                         let other = p.nodes.iter().find(|n| n.as_str() != plus);
                         let named = p.nodes.iter().any(|n| n == plus);
-                        f.expect("circuit", &format!("{id}: {x}'s + node {plus:?} is one of its nodes {:?}", p.nodes), named, plus);
+                        f.expect(
+                            "circuit",
+                            &format!("{id}: {x}'s + node {plus:?} is one of its nodes {:?}", p.nodes),
+                            named,
+                            plus,
+                        );
                         if let (true, Some(other)) = (named, other) {
                             let (vp, vo) = (op.voltage(plus).unwrap_or(0.0), op.voltage(other).unwrap_or(0.0));
-                            f.expect("solver operating point", &format!("{id}: {x}'s + goes to the higher DC level ({plus} {vp:.3} V vs {other} {vo:.3} V)"), vp > vo, (vp, vo));
+                            f.expect(
+                                "solver operating point",
+                                &format!(
+                                    "{id}: {x}'s + goes to the higher DC level ({plus} {vp:.3} V vs {other} {vo:.3} V)"
+                                ),
+                                vp > vo,
+                                (vp, vo),
+                            );
                         }
-                        f.expect("common practice: a polarised part keeps one polarity", &format!("{id}: {x} keeps one sign over the swing"), one_sign, (a.lo, a.hi));
+                        f.expect(
+                            "common practice: a polarised part keeps one polarity",
+                            &format!("{id}: {x} keeps one sign over the swing"),
+                            one_sign,
+                            (a.lo, a.hi),
+                        );
                     }
                     None if large => {
-                        f.expect("common practice: no polarising DC, non-polarised type", &format!("{id}: {x} without + is non-polarised"), r.construction.contains("non-polarised") && !one_sign, (&r.construction, a.lo, a.hi));
+                        f.expect(
+                            "common practice: no polarising DC, non-polarised type",
+                            &format!("{id}: {x} without + is non-polarised"),
+                            r.construction.contains("non-polarised") && !one_sign,
+                            (&r.construction, a.lo, a.hi),
+                        );
                     }
                     None => {}
                 }
                 // The note states the DC across the part at rest (solver), to three digits;
                 // below 1 mV it says "about 0 V" (the amplifiers' finite gain, not a bias).
-                let stated = r.notes.split("; ").filter_map(|n| si_value(n.strip_suffix(" across at rest")?.trim_start_matches("about "), "V")).any(|v| (v - a.at_rest).abs() <= 0.006 * a.at_rest.abs() + 1e-6 || (v == 0.0 && a.at_rest.abs() < 1e-3));
-                f.expect("solver operating point", &format!("{id}: {x} note states {:.4} V at rest", a.at_rest), stated, &r.notes);
+                let stated = r
+                    .notes
+                    .split("; ")
+                    .filter_map(|n| si_value(n.strip_suffix(" across at rest")?.trim_start_matches("about "), "V"))
+                    .any(|v| {
+                        (v - a.at_rest).abs() <= 0.006 * a.at_rest.abs() + 1e-6 || (v == 0.0 && a.at_rest.abs() < 1e-3)
+                    });
+                f.expect(
+                    "solver operating point",
+                    &format!("{id}: {x} note states {:.4} V at rest", a.at_rest),
+                    stated,
+                    &r.notes,
+                );
             }
             _ => {}
         }
@@ -577,33 +931,78 @@ fn ratings_follow_the_operating_point() {
         check_ratings(&mut f, id, d);
     }
     // The scenarios reach the cases the rules are about.
-    let construction = |id: &str, reference: &str| row_of(&bom(designed(id)), reference).map(|r| r.construction.clone()).unwrap_or_default();
-    let rating = |id: &str, reference: &str| row_of(&bom(designed(id)), reference).map(|r| r.rating.clone()).unwrap_or_default();
+    let construction = |id: &str, reference: &str| {
+        row_of(&bom(designed(id)), reference).map(|r| r.construction.clone()).unwrap_or_default()
+    };
+    let rating =
+        |id: &str, reference: &str| row_of(&bom(designed(id)), reference).map(|r| r.rating.clone()).unwrap_or_default();
     let coupling = |id: &str| {
-        circuit(id, designed(id)).build_parts().into_iter().find(|p| p.kind == PartKind::Capacitor && p.nodes.iter().any(|n| n == "sense")).map(|p| p.reference.clone()).unwrap_or_default()
+        circuit(id, designed(id))
+            .build_parts()
+            .into_iter()
+            .find(|p| p.kind == PartKind::Capacitor && p.nodes.iter().any(|n| n == "sense"))
+            .map(|p| p.reference.clone())
+            .unwrap_or_default()
     };
     let ferry = coupling("ferry");
     let ferry_part = circuit("ferry", designed("ferry")).part(&ferry).cloned();
     if let Some(p) = ferry_part {
         let a = across(designed("ferry"), circuit("ferry", designed("ferry")), &p);
-        f.expect("own scenario", "ferry: 2.0 V sensor into a 1.65 V stage puts DC across the coupling capacitor", (a.at_rest - 0.35).abs() < 0.02, a.at_rest);
+        f.expect(
+            "own scenario",
+            "ferry: 2.0 V sensor into a 1.65 V stage puts DC across the coupling capacitor",
+            (a.at_rest - 0.35).abs() < 0.02,
+            a.at_rest,
+        );
     } else {
         f.expect("own scenario", "ferry: a coupling capacitor at the sensor", false, &ferry);
     }
     for (id, plus_side) in [("silo", "sense"), ("shaft", "sense"), ("orchard", "stage")] {
         let x = coupling(id);
         let text = construction(id, &x);
-        f.expect("own scenario", &format!("{id}: coupling capacitor {x} is an electrolytic"), text.contains("polarised: + to node"), &text);
+        f.expect(
+            "own scenario",
+            &format!("{id}: coupling capacitor {x} is an electrolytic"),
+            text.contains("polarised: + to node"),
+            &text,
+        );
         let to_sense = text.ends_with("+ to node sense");
-        f.expect("own scenario", &format!("{id}: coupling capacitor {x} has + on the {plus_side} side"), to_sense == (plus_side == "sense"), &text);
+        f.expect(
+            "own scenario",
+            &format!("{id}: coupling capacitor {x} has + on the {plus_side} side"),
+            to_sense == (plus_side == "sense"),
+            &text,
+        );
     }
-    f.expect("own scenario", "shaft: 10 V bias across the coupling capacitor needs ≥ 20 V", rating_value(&rating("shaft", &coupling("shaft")), "V").is_some_and(|v| v >= 20.0), rating("shaft", &coupling("shaft")));
+    f.expect(
+        "own scenario",
+        "shaft: 10 V bias across the coupling capacitor needs ≥ 20 V",
+        rating_value(&rating("shaft", &coupling("shaft")), "V").is_some_and(|v| v >= 20.0),
+        rating("shaft", &coupling("shaft")),
+    );
     let vent = construction("vent", &coupling("vent"));
-    f.expect("own scenario", "vent: no DC across the coupling capacitor, non-polarised", vent.contains("non-polarised"), &vent);
-    let marina: Vec<String> = bom(designed("marina")).iter().filter(|r| r.kind == "resistor").map(|r| r.rating.clone()).collect();
-    f.expect("own scenario", "marina: some resistor needs more than the smallest rating", marina.iter().any(|r| rating_value(r, "W").is_some_and(|w| w > 0.063)), &marina);
-    let tram: Vec<String> = bom(designed("tram")).iter().filter(|r| r.kind == "resistor").map(|r| r.rating.clone()).collect();
-    f.expect("own scenario", "tram: some resistor dissipates beyond the usual ratings", tram.iter().any(|r| r.contains("power resistor")), &tram);
+    f.expect(
+        "own scenario",
+        "vent: no DC across the coupling capacitor, non-polarised",
+        vent.contains("non-polarised"),
+        &vent,
+    );
+    let marina: Vec<String> =
+        bom(designed("marina")).iter().filter(|r| r.kind == "resistor").map(|r| r.rating.clone()).collect();
+    f.expect(
+        "own scenario",
+        "marina: some resistor needs more than the smallest rating",
+        marina.iter().any(|r| rating_value(r, "W").is_some_and(|w| w > 0.063)),
+        &marina,
+    );
+    let tram: Vec<String> =
+        bom(designed("tram")).iter().filter(|r| r.kind == "resistor").map(|r| r.rating.clone()).collect();
+    f.expect(
+        "own scenario",
+        "tram: some resistor dissipates beyond the usual ratings",
+        tram.iter().any(|r| r.contains("power resistor")),
+        &tram,
+    );
     f.finish();
 }
 
@@ -624,14 +1023,20 @@ fn section<'a>(doc: &'a scraper::Html, title: &str) -> Option<scraper::ElementRe
 }
 
 fn rows_of(s: scraper::ElementRef) -> Vec<Vec<String>> {
-    s.select(&sel("tr")).map(|tr| tr.select(&sel("td")).map(text_of).collect()).filter(|cells: &Vec<String>| !cells.is_empty()).collect()
+    s.select(&sel("tr"))
+        .map(|tr| tr.select(&sel("td")).map(text_of).collect())
+        .filter(|cells: &Vec<String>| !cells.is_empty())
+        .collect()
 }
 
 /// Every `http://` or `https://` in `html` that is not the SVG namespace name of an inline
 /// `<svg>` (a namespace name identifies; it is not fetched: Namespaces in XML 1.0).
 fn external_references(html: &str) -> Vec<String> {
     let cleaned = html.replace("xmlns=\"http://www.w3.org/2000/svg\"", "");
-    ["http://", "https://"].iter().flat_map(|p| cleaned.match_indices(p).map(|(i, _)| cleaned[i..(i + 60).min(cleaned.len())].to_string())).collect()
+    ["http://", "https://"]
+        .iter()
+        .flat_map(|p| cleaned.match_indices(p).map(|(i, _)| cleaned[i..(i + 60).min(cleaned.len())].to_string()))
+        .collect()
 }
 
 fn check_report(f: &mut Fails, id: &str, d: &Design) {
@@ -639,30 +1044,72 @@ fn check_report(f: &mut Fails, id: &str, d: &Design) {
     // HTML Living Standard, parsing HTML documents: the parser reports every parse error; a
     // conforming document has none, and its doctype keeps the page out of quirks mode.
     let doc = scraper::Html::parse_document(&html);
-    f.expect("HTML Living Standard, parsing (html5ever)", &format!("{id}: report parses without errors"), doc.errors.is_empty(), &doc.errors);
-    f.expect("HTML Living Standard, the initial insertion mode", &format!("{id}: no-quirks doctype"), format!("{:?}", doc.quirks_mode) == "NoQuirks", format!("{:?}", doc.quirks_mode));
+    f.expect(
+        "HTML Living Standard, parsing (html5ever)",
+        &format!("{id}: report parses without errors"),
+        doc.errors.is_empty(),
+        &doc.errors,
+    );
+    f.expect(
+        "HTML Living Standard, the initial insertion mode",
+        &format!("{id}: no-quirks doctype"),
+        format!("{:?}", doc.quirks_mode) == "NoQuirks",
+        format!("{:?}", doc.quirks_mode),
+    );
     // Self-contained: no script, no external reference.
-    f.expect("self-contained", &format!("{id}: no <script"), !html.to_ascii_lowercase().contains("<script") && doc.select(&sel("script")).next().is_none(), "script");
+    f.expect(
+        "self-contained",
+        &format!("{id}: no <script"),
+        !html.to_ascii_lowercase().contains("<script") && doc.select(&sel("script")).next().is_none(),
+        "script",
+    );
     let external = external_references(&html);
     f.expect("self-contained", &format!("{id}: no http(s):// reference"), external.is_empty(), &external);
     let fetching: Vec<String> = doc
         .tree
         .nodes()
-        .filter_map(|n| n.value().as_element().map(|e| (e.name().to_string(), e.attrs().map(|(k, _)| k.to_string()).collect::<Vec<_>>())))
-        .filter(|(name, attrs)| ["img", "link", "iframe", "object", "embed", "image", "use"].contains(&name.as_str()) || attrs.iter().any(|a| ["src", "href", "xlink:href", "srcset"].contains(&a.as_str())))
+        .filter_map(|n| {
+            n.value()
+                .as_element()
+                .map(|e| (e.name().to_string(), e.attrs().map(|(k, _)| k.to_string()).collect::<Vec<_>>()))
+        })
+        .filter(|(name, attrs)| {
+            ["img", "link", "iframe", "object", "embed", "image", "use"].contains(&name.as_str())
+                || attrs.iter().any(|a| ["src", "href", "xlink:href", "srcset"].contains(&a.as_str()))
+        })
         .map(|(name, attrs)| format!("{name} {attrs:?}"))
         .collect();
     f.expect("self-contained", &format!("{id}: no element that loads a resource"), fetching.is_empty(), &fetching);
     let style: String = doc.select(&sel("style")).map(text_of).collect();
-    f.expect("self-contained", &format!("{id}: styles import nothing"), !style.contains("url(") && !style.contains("@import"), "url( / @import");
+    f.expect(
+        "self-contained",
+        &format!("{id}: styles import nothing"),
+        !style.contains("url(") && !style.contains("@import"),
+        "url( / @import",
+    );
 
     // The drawings, verbatim.
     let sch = schematic::of_design(d, &SchematicConfig { title: false, ..SchematicConfig::default() }).map(|s| s.svg);
-    f.expect("report", &format!("{id}: holds the schematic SVG"), sch.as_ref().is_some_and(|s| html.contains(s.as_str())), sch.is_some());
+    f.expect(
+        "report",
+        &format!("{id}: holds the schematic SVG"),
+        sch.as_ref().is_some_and(|s| html.contains(s.as_str())),
+        sch.is_some(),
+    );
     let cfg = PlotConfig::default();
-    for (name, draw) in [("response", plot::response as fn(&Design, &PlotConfig) -> Option<plot::Plot>), ("transfer", plot::transfer), ("tolerance", plot::tolerance), ("noise", plot::noise)] {
+    for (name, draw) in [
+        ("response", plot::response as fn(&Design, &PlotConfig) -> Option<plot::Plot>),
+        ("transfer", plot::transfer),
+        ("tolerance", plot::tolerance),
+        ("noise", plot::noise),
+    ] {
         let p = draw(d, &cfg).map(|p| p.svg);
-        f.expect("report", &format!("{id}: holds the {name} plot"), p.as_ref().is_some_and(|s| html.contains(s.as_str())), p.is_some());
+        f.expect(
+            "report",
+            &format!("{id}: holds the {name} plot"),
+            p.as_ref().is_some_and(|s| html.contains(s.as_str())),
+            p.is_some(),
+        );
     }
     let svgs = doc.select(&sel("svg")).count();
     f.expect("report", &format!("{id}: five drawings (schematic and four plots)"), svgs == 5, svgs);
@@ -672,17 +1119,46 @@ fn check_report(f: &mut Fails, id: &str, d: &Design) {
     match section(&doc, "Part list") {
         Some(s) => {
             let rows = rows_of(s);
-            f.expect("report", &format!("{id}: one table row per part-list row"), rows.len() == bom_rows.len(), (rows.len(), bom_rows.len()));
+            f.expect(
+                "report",
+                &format!("{id}: one table row per part-list row"),
+                rows.len() == bom_rows.len(),
+                (rows.len(), bom_rows.len()),
+            );
             for r in &bom_rows {
-                let found = rows.iter().find(|cells| cells.first().is_some_and(|c0| c0.split(|ch: char| !ch.is_ascii_alphanumeric()).filter(|w| !w.is_empty()).collect::<Vec<_>>() == r.designators));
+                let found = rows.iter().find(|cells| {
+                    cells.first().is_some_and(|c0| {
+                        c0.split(|ch: char| !ch.is_ascii_alphanumeric()).filter(|w| !w.is_empty()).collect::<Vec<_>>()
+                            == r.designators
+                    })
+                });
                 match found {
                     Some(cells) => {
                         let line = cells.join(" | ");
-                        for field in [&r.quantity.to_string(), &r.kind, &r.value, &r.tolerance, &r.tolerance_code, &r.rating, &r.construction, &r.notes] {
-                            f.expect("report", &format!("{id}: part-list row {} shows {field:?}", r.designators.join(" ")), line.contains(field.as_str()), &line);
+                        for field in [
+                            &r.quantity.to_string(),
+                            &r.kind,
+                            &r.value,
+                            &r.tolerance,
+                            &r.tolerance_code,
+                            &r.rating,
+                            &r.construction,
+                            &r.notes,
+                        ] {
+                            f.expect(
+                                "report",
+                                &format!("{id}: part-list row {} shows {field:?}", r.designators.join(" ")),
+                                line.contains(field.as_str()),
+                                &line,
+                            );
                         }
                     }
-                    None => f.expect("report", &format!("{id}: part-list row for {}", r.designators.join(" ")), false, &rows),
+                    None => f.expect(
+                        "report",
+                        &format!("{id}: part-list row for {}", r.designators.join(" ")),
+                        false,
+                        &rows,
+                    ),
                 }
             }
         }
@@ -693,15 +1169,27 @@ fn check_report(f: &mut Fails, id: &str, d: &Design) {
         Some(s) => {
             let rows = rows_of(s);
             for c in &d.checks {
-                let shown = rows.iter().any(|cells| cells.iter().any(|x| x == &c.id) && cells.iter().any(|x| x == &c.message));
+                let shown =
+                    rows.iter().any(|cells| cells.iter().any(|x| x == &c.id) && cells.iter().any(|x| x == &c.message));
                 f.expect("report", &format!("{id}: check {} shown with its message", c.id), shown, &c.message);
             }
-            f.expect("report", &format!("{id}: one row per check"), rows.len() == d.checks.len(), (rows.len(), d.checks.len()));
+            f.expect(
+                "report",
+                &format!("{id}: one row per check"),
+                rows.len() == d.checks.len(),
+                (rows.len(), d.checks.len()),
+            );
         }
         None => f.expect("report", &format!("{id}: has a Checks section"), false, "none"),
     }
     // The sensor's front end, where it has one: its parts as the design holds them.
-    let front = section(&doc, "Sensor front end").map(rows_of).unwrap_or_default().iter().map(|c| c.join(" | ")).collect::<Vec<_>>().join("\n");
+    let front = section(&doc, "Sensor front end")
+        .map(rows_of)
+        .unwrap_or_default()
+        .iter()
+        .map(|c| c.join(" | "))
+        .collect::<Vec<_>>()
+        .join("\n");
     let fmt_r = |x: f64| rangefit_engine::units::format(x, rangefit_engine::units::Quantity::Resistance);
     let mut wanted: Vec<String> = Vec::new();
     if let Some(ia) = &d.instrumentation() {
@@ -717,8 +1205,17 @@ fn check_report(f: &mut Fails, id: &str, d: &Design) {
     if let Some(b) = &d.high_impedance() {
         wanted.extend(b.bias_resistor.map(fmt_r));
     }
-    let has_front = d.instrumentation().is_some() || d.differential().is_some() || d.photodiode().is_some() || d.high_impedance().is_some() || d.bridge().is_some();
-    f.expect("report", &format!("{id}: a Sensor front end section exactly when the design has a front end"), has_front == !front.is_empty(), &front);
+    let has_front = d.instrumentation().is_some()
+        || d.differential().is_some()
+        || d.photodiode().is_some()
+        || d.high_impedance().is_some()
+        || d.bridge().is_some();
+    f.expect(
+        "report",
+        &format!("{id}: a Sensor front end section exactly when the design has a front end"),
+        has_front == !front.is_empty(),
+        &front,
+    );
     for w in wanted {
         f.expect("report", &format!("{id}: front end shows {w}"), front.contains(&w), &front);
     }
@@ -727,12 +1224,37 @@ fn check_report(f: &mut Fails, id: &str, d: &Design) {
         Some(s) => {
             let rows = rows_of(s);
             let a = &d.request.analysis;
-            let words = |t: &str| t.split(|ch: char| !(ch.is_ascii_alphanumeric() || ch == '.')).map(str::to_string).collect::<Vec<_>>();
-            let mc = rows.iter().find(|cells| cells.first().is_some_and(|c| c.contains("Monte Carlo"))).map(|cells| words(&cells.join(" "))).unwrap_or_default();
-            f.expect("report", &format!("{id}: Monte Carlo count {} stated", a.monte_carlo_runs), mc.contains(&a.monte_carlo_runs.to_string()), &mc);
-            f.expect("report", &format!("{id}: Monte Carlo seed {} stated", a.seed), mc.contains(&a.seed.to_string()), &mc);
-            let temp = rows.iter().find(|cells| cells.first().is_some_and(|c| c.contains("Temperature"))).map(|cells| words(&cells.join(" "))).unwrap_or_default();
-            f.expect("report", &format!("{id}: temperature {} K stated", a.temperature), temp.contains(&a.temperature.to_string()) && temp.iter().any(|w| w == "K"), &temp);
+            let words = |t: &str| {
+                t.split(|ch: char| !(ch.is_ascii_alphanumeric() || ch == '.')).map(str::to_string).collect::<Vec<_>>()
+            };
+            let mc = rows
+                .iter()
+                .find(|cells| cells.first().is_some_and(|c| c.contains("Monte Carlo")))
+                .map(|cells| words(&cells.join(" ")))
+                .unwrap_or_default();
+            f.expect(
+                "report",
+                &format!("{id}: Monte Carlo count {} stated", a.monte_carlo_runs),
+                mc.contains(&a.monte_carlo_runs.to_string()),
+                &mc,
+            );
+            f.expect(
+                "report",
+                &format!("{id}: Monte Carlo seed {} stated", a.seed),
+                mc.contains(&a.seed.to_string()),
+                &mc,
+            );
+            let temp = rows
+                .iter()
+                .find(|cells| cells.first().is_some_and(|c| c.contains("Temperature")))
+                .map(|cells| words(&cells.join(" ")))
+                .unwrap_or_default();
+            f.expect(
+                "report",
+                &format!("{id}: temperature {} K stated", a.temperature),
+                temp.contains(&a.temperature.to_string()) && temp.iter().any(|w| w == "K"),
+                &temp,
+            );
         }
         None => f.expect("report", &format!("{id}: has an Assumptions section"), false, "none"),
     }
@@ -745,7 +1267,12 @@ fn check_report(f: &mut Fails, id: &str, d: &Design) {
             }
             let all = items.join(" ").to_lowercase();
             for subject in ["isolation", "absolute maximum", "qualified person", "local codes"] {
-                f.expect("common practice: safety cautions", &format!("{id}: cautions mention {subject}"), all.contains(subject), &items);
+                f.expect(
+                    "common practice: safety cautions",
+                    &format!("{id}: cautions mention {subject}"),
+                    all.contains(subject),
+                    &items,
+                );
             }
         }
         None => f.expect("report", &format!("{id}: has a Safety section"), false, "none"),
@@ -755,12 +1282,24 @@ fn check_report(f: &mut Fails, id: &str, d: &Design) {
 #[test]
 fn report_is_valid_self_contained_html_with_every_section() {
     let mut f = Fails::default();
-    for (id, d) in designs().iter().filter(|(id, _)| demos::find(id).is_some() || ["sauna", "silo"].contains(&id.as_str())) {
+    for (id, d) in
+        designs().iter().filter(|(id, _)| demos::find(id).is_some() || ["sauna", "silo"].contains(&id.as_str()))
+    {
         check_report(&mut f, id, d);
     }
     // Distinctive analysis options show up as given.
-    let v = dc("Beekeeper's hive-weight scale, long run", 0.25, 2.75, "100", "2 Hz", (0.0, 3.3), 12, "50 Hz", json!([3.3]),
-        json!({"analysis": {"monte_carlo_runs": 1700, "seed": 4242424242u64, "temperature": 318}}));
+    let v = dc(
+        "Beekeeper's hive-weight scale, long run",
+        0.25,
+        2.75,
+        "100",
+        "2 Hz",
+        (0.0, 3.3),
+        12,
+        "50 Hz",
+        json!([3.3]),
+        json!({"analysis": {"monte_carlo_runs": 1700, "seed": 4242424242u64, "temperature": 318}}),
+    );
     let d = design(&request(&v));
     check_report(&mut f, "hive with distinctive analysis options", &d);
     f.finish();
@@ -775,12 +1314,43 @@ fn report_escapes_request_text() {
     let d = design(&request(&v));
     let html = report(&d);
     let doc = scraper::Html::parse_document(&html);
-    f.expect("HTML Living Standard, parsing (html5ever)", "hostile report parses without errors", doc.errors.is_empty(), &doc.errors);
-    f.expect("HTML Living Standard (text is escaped, html5ever)", "no img element injected", doc.select(&sel("img")).next().is_none(), "img");
-    f.expect("HTML Living Standard (text is escaped, html5ever)", "no script element injected", doc.select(&sel("script")).next().is_none(), "script");
-    f.expect("HTML Living Standard (text is escaped, html5ever)", "no <script in the text", !html.to_ascii_lowercase().contains("<script"), "<script");
-    let handlers: Vec<String> = doc.tree.nodes().filter_map(|n| n.value().as_element()).flat_map(|e| e.attrs().map(|(k, _)| k.to_string())).filter(|k| k.starts_with("on")).collect();
-    f.expect("HTML Living Standard (event handler content attributes)", "no event-handler attribute", handlers.is_empty(), &handlers);
+    f.expect(
+        "HTML Living Standard, parsing (html5ever)",
+        "hostile report parses without errors",
+        doc.errors.is_empty(),
+        &doc.errors,
+    );
+    f.expect(
+        "HTML Living Standard (text is escaped, html5ever)",
+        "no img element injected",
+        doc.select(&sel("img")).next().is_none(),
+        "img",
+    );
+    f.expect(
+        "HTML Living Standard (text is escaped, html5ever)",
+        "no script element injected",
+        doc.select(&sel("script")).next().is_none(),
+        "script",
+    );
+    f.expect(
+        "HTML Living Standard (text is escaped, html5ever)",
+        "no <script in the text",
+        !html.to_ascii_lowercase().contains("<script"),
+        "<script",
+    );
+    let handlers: Vec<String> = doc
+        .tree
+        .nodes()
+        .filter_map(|n| n.value().as_element())
+        .flat_map(|e| e.attrs().map(|(k, _)| k.to_string()))
+        .filter(|k| k.starts_with("on"))
+        .collect();
+    f.expect(
+        "HTML Living Standard (event handler content attributes)",
+        "no event-handler attribute",
+        handlers.is_empty(),
+        &handlers,
+    );
     let h1: Vec<String> = doc.select(&sel("h1")).map(text_of).collect();
     f.expect("report", "the name shows as text in the heading", h1 == [name], &h1);
     let title: String = doc.select(&sel("title")).map(text_of).collect();
@@ -801,38 +1371,88 @@ fn check_scaling(f: &mut Fails, id: &str, d: &Design) {
         f.expect("own scenario", &format!("{id}: has a scaling"), false, "none");
         return;
     };
-    f.expect("scaling", &format!("{id}: the design carries the same scaling"), d.scaling.as_ref() == Some(&sc), "differs");
+    f.expect(
+        "scaling",
+        &format!("{id}: the design carries the same scaling"),
+        d.scaling.as_ref() == Some(&sc),
+        "differs",
+    );
     let dst = &d.request.destination;
     let s = &d.request.source;
     let p = d.predicted.expect("predicted");
     let lsb = (dst.max - dst.min) / 2f64.powi(dst.bits as i32);
-    f.expect("ideal straight-binary converter", &format!("{id}: LSB = span / 2^bits"), (sc.lsb - lsb).abs() <= 1e-12 * lsb, (sc.lsb, lsb));
+    f.expect(
+        "ideal straight-binary converter",
+        &format!("{id}: LSB = span / 2^bits"),
+        (sc.lsb - lsb).abs() <= 1e-12 * lsb,
+        (sc.lsb, lsb),
+    );
     let code = |y: f64| ((y - dst.min) / lsb).round() as i64;
-    f.expect("ideal straight-binary converter", &format!("{id}: code at the sensor minimum"), sc.sensor.code_at_min == code(p.output_at_min), (sc.sensor.code_at_min, code(p.output_at_min)));
-    f.expect("ideal straight-binary converter", &format!("{id}: code at the sensor maximum"), sc.sensor.code_at_max == code(p.output_at_max), (sc.sensor.code_at_max, code(p.output_at_max)));
+    f.expect(
+        "ideal straight-binary converter",
+        &format!("{id}: code at the sensor minimum"),
+        sc.sensor.code_at_min == code(p.output_at_min),
+        (sc.sensor.code_at_min, code(p.output_at_min)),
+    );
+    f.expect(
+        "ideal straight-binary converter",
+        &format!("{id}: code at the sensor maximum"),
+        sc.sensor.code_at_max == code(p.output_at_max),
+        (sc.sensor.code_at_max, code(p.output_at_max)),
+    );
     let at = |c: i64, l: &rangefit_engine::scaling::Linear| (c as f64 - l.c0) * l.k;
     let l = &sc.sensor;
     for (c, want, end) in [(l.code_at_min, s.min, "minimum"), (l.code_at_max, s.max, "maximum")] {
         let got = at(c, l);
-        f.expect("value = (code − c0) × k", &format!("{id}: sensor {end} {want} V from code {c}"), (got - want).abs() <= l.resolution, (got, want, l.resolution));
+        f.expect(
+            "value = (code − c0) × k",
+            &format!("{id}: sensor {end} {want} V from code {c}"),
+            (got - want).abs() <= l.resolution,
+            (got, want, l.resolution),
+        );
     }
-    f.expect("value = (code − c0) × k", &format!("{id}: resolution is |k|"), (l.resolution - l.k.abs()).abs() <= 1e-15, (l.resolution, l.k));
+    f.expect(
+        "value = (code − c0) × k",
+        &format!("{id}: resolution is |k|"),
+        (l.resolution - l.k.abs()).abs() <= 1e-15,
+        (l.resolution, l.k),
+    );
     match (&s.measurand, &sc.measurand) {
         (Some(m), Some(q)) => {
             for (c, want, end) in [(q.code_at_min, m.at_min, "minimum"), (q.code_at_max, m.at_max, "maximum")] {
                 let got = at(c, q);
-                f.expect("value = (code − c0) × k", &format!("{id}: {} at the sensor {end}: {want} {} from code {c}", m.name, m.unit), (got - want).abs() <= q.resolution, (got, want, q.resolution));
+                f.expect(
+                    "value = (code − c0) × k",
+                    &format!("{id}: {} at the sensor {end}: {want} {} from code {c}", m.name, m.unit),
+                    (got - want).abs() <= q.resolution,
+                    (got, want, q.resolution),
+                );
             }
             // The measurand is linear in the sensor voltage: at_min at s.min, at_max at s.max.
             let slope = (m.at_max - m.at_min) / (s.max - s.min);
             for c in [0, 1000, l.code_at_max / 2] {
                 let via_sensor = m.at_min + (at(c, l) - s.min) * slope;
-                f.expect("linear measurand", &format!("{id}: code {c} gives the same {} either way", m.name), (at(c, q) - via_sensor).abs() <= 1e-9 * via_sensor.abs().max(m.at_max.abs()), (at(c, q), via_sensor));
+                f.expect(
+                    "linear measurand",
+                    &format!("{id}: code {c} gives the same {} either way", m.name),
+                    (at(c, q) - via_sensor).abs() <= 1e-9 * via_sensor.abs().max(m.at_max.abs()),
+                    (at(c, q), via_sensor),
+                );
             }
-            f.expect("request", &format!("{id}: measurand name and unit carried"), q.name == m.name && q.unit == m.unit, (&q.name, &q.unit));
+            f.expect(
+                "request",
+                &format!("{id}: measurand name and unit carried"),
+                q.name == m.name && q.unit == m.unit,
+                (&q.name, &q.unit),
+            );
         }
         (None, None) => {}
-        (a, b) => f.expect("request", &format!("{id}: measurand scaling iff the request names one"), false, (a.is_some(), b.is_some())),
+        (a, b) => f.expect(
+            "request",
+            &format!("{id}: measurand scaling iff the request names one"),
+            false,
+            (a.is_some(), b.is_some()),
+        ),
     }
 }
 
@@ -847,7 +1467,12 @@ fn scaling_reproduces_the_sensor_extremes() {
     // The vineyard transmitter: 0 … 600 kPa in that unit.
     let sc = designed("vineyard").scaling.clone().expect("vineyard scaling");
     let q = sc.measurand.expect("vineyard measurand");
-    f.expect("own scenario", "vineyard: measurand in kPa", q.unit == "kPa" && q.at_min == 0.0 && q.at_max == 600.0, (&q.unit, q.at_min, q.at_max));
+    f.expect(
+        "own scenario",
+        "vineyard: measurand in kPa",
+        q.unit == "kPa" && q.at_min == 0.0 && q.at_max == 600.0,
+        (&q.unit, q.at_min, q.at_max),
+    );
     f.finish();
 }
 
@@ -895,7 +1520,12 @@ fn check_c_header(f: &mut Fails, what: &str, d: &Design) {
         .output()
         .unwrap_or_else(|e| panic!("gcc is needed for the C header test and could not run: {e}"));
     let stderr = String::from_utf8_lossy(&compiled.stderr).to_string();
-    f.expect("ISO C99 (gcc -std=c99 -Wall -Werror)", &format!("{what}: the header compiles without warnings"), compiled.status.success(), format!("{stderr}\n--- header ---\n{header}"));
+    f.expect(
+        "ISO C99 (gcc -std=c99 -Wall -Werror)",
+        &format!("{what}: the header compiles without warnings"),
+        compiled.status.success(),
+        format!("{stderr}\n--- header ---\n{header}"),
+    );
     if !compiled.status.success() {
         let _ = std::fs::remove_dir_all(&dir);
         return;
@@ -903,15 +1533,23 @@ fn check_c_header(f: &mut Fails, what: &str, d: &Design) {
     let ran = Command::new(dir.join("scaling")).output().expect("run the C program");
     let _ = std::fs::remove_dir_all(&dir);
     let out = String::from_utf8_lossy(&ran.stdout).to_string();
-    let lines: Vec<Vec<f64>> = out.lines().map(|l| l.split_whitespace().filter_map(|x| x.parse().ok()).collect()).collect();
+    let lines: Vec<Vec<f64>> =
+        out.lines().map(|l| l.split_whitespace().filter_map(|x| x.parse().ok()).collect()).collect();
     let at = |c: i64, l: &rangefit_engine::scaling::Linear| (c as f64 - l.c0) * l.k;
     let mut want = vec![vec![at(sc.sensor.code_at_min, &sc.sensor), at(sc.sensor.code_at_max, &sc.sensor)]];
     if let Some(m) = &sc.measurand {
         want.push(vec![at(m.code_at_min, m), at(m.code_at_max, m)]);
     }
     want.push(vec![sc.bits as f64, sc.lsb]);
-    let close = |a: &[f64], b: &[f64]| a.len() == b.len() && a.iter().zip(b).all(|(x, y)| (x - y).abs() <= 1e-12 * y.abs().max(1e-300));
-    f.expect("C program output", &format!("{what}: C prints the Rust values"), ran.status.success() && lines.len() == want.len() && lines.iter().zip(&want).all(|(a, b)| close(a, b)), (&out, &want));
+    let close = |a: &[f64], b: &[f64]| {
+        a.len() == b.len() && a.iter().zip(b).all(|(x, y)| (x - y).abs() <= 1e-12 * y.abs().max(1e-300))
+    };
+    f.expect(
+        "C program output",
+        &format!("{what}: C prints the Rust values"),
+        ran.status.success() && lines.len() == want.len() && lines.iter().zip(&want).all(|(a, b)| close(a, b)),
+        (&out, &want),
+    );
 }
 
 #[test]
@@ -936,8 +1574,18 @@ fn hostile_names_stay_inside_the_c_comment() {
         ("trigraph splice", "Hive scale??/", "hive weight", "kg"),
     ];
     for (what, name, mname, unit) in cases {
-        let v = dc(name, 0.25, 2.75, "100", "2 Hz", (0.0, 3.3), 12, "50 Hz", json!([3.3]),
-            json!({"source": {"measurand": {"name": mname, "unit": unit, "at_min": 0, "at_max": 150}}}));
+        let v = dc(
+            name,
+            0.25,
+            2.75,
+            "100",
+            "2 Hz",
+            (0.0, 3.3),
+            12,
+            "50 Hz",
+            json!([3.3]),
+            json!({"source": {"measurand": {"name": mname, "unit": unit, "at_min": 0, "at_max": 150}}}),
+        );
         let d = design(&request(&v));
         check_c_header(&mut f, what, &d);
     }
@@ -964,16 +1612,32 @@ fn check_snapshot(f: &mut Fails, name: &str, text: &str) {
     match std::fs::read_to_string(&path) {
         Ok(old) if old == text => {}
         Ok(old) => {
-            let first = old.split_inclusive('\n').zip(text.split_inclusive('\n')).position(|(a, b)| a != b).unwrap_or_else(|| old.lines().count().min(text.lines().count()));
-            let line = |t: &str| t.split_inclusive('\n').nth(first).map(|l| format!("{l:?}")).unwrap_or_else(|| "(end of text)".to_string());
+            let first = old
+                .split_inclusive('\n')
+                .zip(text.split_inclusive('\n'))
+                .position(|(a, b)| a != b)
+                .unwrap_or_else(|| old.lines().count().min(text.lines().count()));
+            let line = |t: &str| {
+                t.split_inclusive('\n')
+                    .nth(first)
+                    .map(|l| format!("{l:?}"))
+                    .unwrap_or_else(|| "(end of text)".to_string())
+            };
             f.expect(
                 "snapshot",
-                &format!("tests/snapshots/{name} differs from the output at line {}: snapshot {} vs now {}; {UPDATE_HINT}", first + 1, line(&old), line(text)),
+                &format!(
+                    "tests/snapshots/{name} differs from the output at line {}: snapshot {} vs now {}; {UPDATE_HINT}",
+                    first + 1,
+                    line(&old),
+                    line(text)
+                ),
                 false,
                 name,
             );
         }
-        Err(e) => f.expect("snapshot", &format!("tests/snapshots/{name} cannot be read ({e}); {UPDATE_HINT}"), false, name),
+        Err(e) => {
+            f.expect("snapshot", &format!("tests/snapshots/{name} cannot be read ({e}); {UPDATE_HINT}"), false, name)
+        }
     }
 }
 
@@ -986,7 +1650,12 @@ fn demo_part_lists_and_netlists_match_their_snapshots() {
         let file = format!("{}.json", demo.id);
         for (cmd, ext) in [("bom", "bom.csv"), ("netlist", "cir")] {
             let out = cli::run(&[cmd.to_string(), file.clone()], &read);
-            f.expect("rangefit CLI", &format!("{}: `rangefit {cmd}` succeeds", demo.id), out.status == 0 && !out.stdout.is_empty(), &out.stderr);
+            f.expect(
+                "rangefit CLI",
+                &format!("{}: `rangefit {cmd}` succeeds", demo.id),
+                out.status == 0 && !out.stdout.is_empty(),
+                &out.stderr,
+            );
             check_snapshot(&mut f, &format!("{}.{ext}", demo.id), &out.stdout);
         }
     }

@@ -9,7 +9,9 @@
 
 use std::sync::OnceLock;
 
-use rangefit_engine::draw::plot::{self, angle_ticks, bounds_for, linear_ticks, log_ticks, nice_bounds, Plot, PlotConfig};
+use rangefit_engine::draw::plot::{
+    self, angle_ticks, bounds_for, linear_ticks, log_ticks, nice_bounds, Plot, PlotConfig,
+};
 use rangefit_engine::request::Request;
 use rangefit_engine::units::{format, parse, Quantity};
 use rangefit_engine::{demos, design, Design};
@@ -34,7 +36,10 @@ fn finish(fails: Vec<String>) {
 
 /// A request of our own scenario; Monte Carlo kept short so the tests stay quick.
 #[allow(clippy::too_many_arguments)]
-fn request(name: &str, min: f64, max: f64, coupling: &str, band: (f64, f64), dest: (f64, f64), bits: u32, fs: &str, supplies: &str, keep_polarity: bool) -> Request {
+fn request(
+    name: &str, min: f64, max: f64, coupling: &str, band: (f64, f64), dest: (f64, f64), bits: u32, fs: &str,
+    supplies: &str, keep_polarity: bool,
+) -> Request {
     let name = serde_json::to_string(name).unwrap();
     let json = format!(
         r#"{{"version":1,"name":{name},"source":{{"kind":"single_ended","min":{min},"max":{max},"coupling":"{coupling}","impedance":"1k","band_low":{},"band_high":{}}},
@@ -102,7 +107,10 @@ fn texts(doc: &roxmltree::Document) -> Vec<String> {
 /// Texts set in bold, in document order (the title comes first).
 fn bold_texts(svg: &str) -> Vec<String> {
     let Ok(doc) = roxmltree::Document::parse(svg) else { return Vec::new() };
-    doc.descendants().filter(|n| n.has_tag_name("text") && n.attribute("font-weight") == Some("bold")).map(|n| n.text().unwrap_or("").to_string()).collect()
+    doc.descendants()
+        .filter(|n| n.has_tag_name("text") && n.attribute("font-weight") == Some("bold"))
+        .map(|n| n.text().unwrap_or("").to_string())
+        .collect()
 }
 
 /// Structure and placement checks that hold for every plot.
@@ -115,24 +123,58 @@ fn structure(fails: &mut Vec<String>, what: &str, p: &Plot) -> Vec<String> {
         }
     };
     let root = doc.root_element();
-    check(fails, "W3C SVG 1.1", &format!("{what}: root svg in the SVG namespace"), root.has_tag_name(("http://www.w3.org/2000/svg", "svg")), root.tag_name().name());
-    let view: Vec<f64> = root.attribute("viewBox").unwrap_or("").split_whitespace().filter_map(|v| v.parse().ok()).collect();
+    check(
+        fails,
+        "W3C SVG 1.1",
+        &format!("{what}: root svg in the SVG namespace"),
+        root.has_tag_name(("http://www.w3.org/2000/svg", "svg")),
+        root.tag_name().name(),
+    );
+    let view: Vec<f64> =
+        root.attribute("viewBox").unwrap_or("").split_whitespace().filter_map(|v| v.parse().ok()).collect();
     let size: Vec<f64> = ["width", "height"].iter().filter_map(|a| root.attribute(*a)?.parse().ok()).collect();
-    check(fails, "W3C SVG 1.1", &format!("{what}: width and height equal the viewBox"), view.len() == 4 && size.len() == 2 && size[0] == view[2] && size[1] == view[3], (&view, &size));
+    check(
+        fails,
+        "W3C SVG 1.1",
+        &format!("{what}: width and height equal the viewBox"),
+        view.len() == 4 && size.len() == 2 && size[0] == view[2] && size[1] == view[3],
+        (&view, &size),
+    );
     for n in doc.descendants().filter(|n| n.is_element()) {
         let tag = n.tag_name().name();
-        check(fails, "W3C SVG 1.1", &format!("{what}: standalone, no <{tag}>"), !["script", "image", "use", "foreignObject", "a", "style", "img"].contains(&tag), tag);
+        check(
+            fails,
+            "W3C SVG 1.1",
+            &format!("{what}: standalone, no <{tag}>"),
+            !["script", "image", "use", "foreignObject", "a", "style", "img"].contains(&tag),
+            tag,
+        );
         for a in n.attributes() {
-            let ok = !a.name().contains("href") && !a.name().starts_with("on") && !a.value().contains("url(") && a.name() != "id";
+            let ok = !a.name().contains("href")
+                && !a.name().starts_with("on")
+                && !a.value().contains("url(")
+                && a.name() != "id";
             check(fails, "W3C SVG 1.1", &format!("{what}: no reference, handler or id"), ok, (a.name(), a.value()));
         }
     }
     let words = texts(&doc);
-    check(fails, "this module's record", &format!("{what}: one recorded box per text"), words.len() == p.texts.len(), (words.len(), p.texts.len()));
+    check(
+        fails,
+        "this module's record",
+        &format!("{what}: one recorded box per text"),
+        words.len() == p.texts.len(),
+        (words.len(), p.texts.len()),
+    );
     // No two texts overlap, and every text lies on the page (common practice).
     let (w, h) = if view.len() == 4 { (view[2], view[3]) } else { (0.0, 0.0) };
     for (i, a) in p.texts.iter().enumerate() {
-        check(fails, "common practice", &format!("{what}: text on the page"), a.x >= -0.01 && a.y >= -0.01 && a.x + a.w <= w + 0.01 && a.y + a.h <= h + 0.01, (&a.text, a.x, a.y, a.w, a.h));
+        check(
+            fails,
+            "common practice",
+            &format!("{what}: text on the page"),
+            a.x >= -0.01 && a.y >= -0.01 && a.x + a.w <= w + 0.01 && a.y + a.h <= h + 0.01,
+            (&a.text, a.x, a.y, a.w, a.h),
+        );
         for b in &p.texts[i + 1..] {
             let overlap = a.x < b.x + b.w && b.x < a.x + a.w && a.y < b.y + b.h && b.y < a.y + a.h;
             check(fails, "common practice", &format!("{what}: texts do not overlap"), !overlap, (&a.text, &b.text));
@@ -141,12 +183,28 @@ fn structure(fails: &mut Vec<String>, what: &str, p: &Plot) -> Vec<String> {
     // No text sits on the data: a curve or histogram crossing a label would hide both
     // (common practice).
     for t in &p.texts {
-        for w in p.wires.iter().filter(|w| ["magnitude", "phase", "transfer", "density", "histogram"].contains(&w.net.as_str())) {
-            check(fails, "common practice", &format!("{what}: text clear of the data"), !t.crosses(w), (&t.text, &w.net));
+        for w in p
+            .wires
+            .iter()
+            .filter(|w| ["magnitude", "phase", "transfer", "density", "histogram"].contains(&w.net.as_str()))
+        {
+            check(
+                fails,
+                "common practice",
+                &format!("{what}: text clear of the data"),
+                !t.crosses(w),
+                (&t.text, &w.net),
+            );
         }
     }
     // Numbers in the markup are finite.
-    check(fails, "W3C SVG 1.1", &format!("{what}: no NaN or inf in the markup"), !p.svg.contains("NaN") && !p.svg.contains("inf"), "");
+    check(
+        fails,
+        "W3C SVG 1.1",
+        &format!("{what}: no NaN or inf in the markup"),
+        !p.svg.contains("NaN") && !p.svg.contains("inf"),
+        "",
+    );
     words
 }
 
@@ -156,7 +214,9 @@ fn structure(fails: &mut Vec<String>, what: &str, p: &Plot) -> Vec<String> {
 #[test]
 fn ticks_follow_the_125_and_decade_rules() {
     let mut fails = Vec::new();
-    let near = |a: &[f64], b: &[f64]| a.len() == b.len() && a.iter().zip(b).all(|(x, y)| (x - y).abs() <= 1e-9 * y.abs().max(1e-12));
+    let near = |a: &[f64], b: &[f64]| {
+        a.len() == b.len() && a.iter().zip(b).all(|(x, y)| (x - y).abs() <= 1e-9 * y.abs().max(1e-12))
+    };
     // Linear: the smallest 1-2-5 × 10^k step giving at most `max` ticks (common practice).
     let linear: &[(f64, f64, usize, &[f64])] = &[
         (0.0, 3.3, 8, &[0.0, 0.5, 1.0, 1.5, 2.0, 2.5, 3.0]),
@@ -172,7 +232,13 @@ fn ticks_follow_the_125_and_decade_rules() {
     ];
     for &(lo, hi, max, want) in linear {
         let got = linear_ticks(lo, hi, max);
-        check(&mut fails, "common practice", &format!("linear ticks {lo} … {hi}, at most {max}"), near(&got, want), &got);
+        check(
+            &mut fails,
+            "common practice",
+            &format!("linear ticks {lo} … {hi}, at most {max}"),
+            near(&got, want),
+            &got,
+        );
     }
     // Log: decades labelled; 2 and 5 sub-ticks when few decades show (common practice).
     let log: &[(f64, f64, &[f64], usize)] = &[
@@ -185,12 +251,28 @@ fn ticks_follow_the_125_and_decade_rules() {
     for &(lo, hi, want, minor) in log {
         let got = log_ticks(lo, hi);
         check(&mut fails, "common practice", &format!("log decades {lo} … {hi}"), near(&got.major, want), &got.major);
-        check(&mut fails, "common practice", &format!("log sub-ticks {lo} … {hi}"), got.minor.len() == minor, &got.minor);
+        check(
+            &mut fails,
+            "common practice",
+            &format!("log sub-ticks {lo} … {hi}"),
+            got.minor.len() == minor,
+            &got.minor,
+        );
     }
     let sub = log_ticks(20.0, 200e3).minor;
-    check(&mut fails, "common practice", "sub-ticks at 2 and 5 per decade", near(&sub, &[20.0, 50.0, 200.0, 500.0, 2e3, 5e3, 2e4, 5e4, 2e5]), &sub);
+    check(
+        &mut fails,
+        "common practice",
+        "sub-ticks at 2 and 5 per decade",
+        near(&sub, &[20.0, 50.0, 200.0, 500.0, 2e3, 5e3, 2e4, 5e4, 2e5]),
+        &sub,
+    );
     // Phase: quadrant multiples when they give at least three ticks (common practice).
-    let angles: &[(f64, f64, usize, &[f64])] = &[(-90.0, 225.0, 5, &[-90.0, 0.0, 90.0, 180.0]), (-45.0, 45.0, 4, &[-45.0, 0.0, 45.0]), (-180.0, 0.0, 5, &[-180.0, -135.0, -90.0, -45.0, 0.0])];
+    let angles: &[(f64, f64, usize, &[f64])] = &[
+        (-90.0, 225.0, 5, &[-90.0, 0.0, 90.0, 180.0]),
+        (-45.0, 45.0, 4, &[-45.0, 0.0, 45.0]),
+        (-180.0, 0.0, 5, &[-180.0, -135.0, -90.0, -45.0, 0.0]),
+    ];
     for &(lo, hi, max, want) in angles {
         let got = angle_ticks(lo, hi, max);
         check(&mut fails, "common practice", &format!("angle ticks {lo} … {hi}"), near(&got, want), &got);
@@ -207,15 +289,39 @@ fn ticks_follow_the_125_and_decade_rules() {
         check(&mut fails, "common practice", what, (got.0 - want.0).abs() < 1e-9 && (got.1 - want.1).abs() < 1e-9, got);
     }
     // Tick labels read as SI values: "100 Hz", "1 kHz", "500 mV", "1.65 V" (IEC 60027-1 / SI Brochure).
-    for (v, q, want) in [(100.0, Quantity::Frequency, "100 Hz"), (1e3, Quantity::Frequency, "1 kHz"), (1e5, Quantity::Frequency, "100 kHz"), (1.65, Quantity::Voltage, "1.65 V"), (0.5, Quantity::Voltage, "500 mV")] {
-        check(&mut fails, "IEC 60027-1 / SI Brochure for unit symbols and prefixes", &format!("label of {v}"), format(v, q) == want, format(v, q));
+    for (v, q, want) in [
+        (100.0, Quantity::Frequency, "100 Hz"),
+        (1e3, Quantity::Frequency, "1 kHz"),
+        (1e5, Quantity::Frequency, "100 kHz"),
+        (1.65, Quantity::Voltage, "1.65 V"),
+        (0.5, Quantity::Voltage, "500 mV"),
+    ] {
+        check(
+            &mut fails,
+            "IEC 60027-1 / SI Brochure for unit symbols and prefixes",
+            &format!("label of {v}"),
+            format(v, q) == want,
+            format(v, q),
+        );
     }
     // Nothing panics and nothing comes back unusable on bad ranges.
     for (lo, hi) in [(f64::NAN, 1.0), (0.0, 0.0), (f64::INFINITY, 1.0), (5.0, -5.0), (1e-300, 1e300), (-1.0, 10.0)] {
         let l = linear_ticks(lo, hi, 6);
-        check(&mut fails, "robustness", &format!("linear ticks {lo} … {hi} finite, at most 64"), l.len() <= 64 && l.iter().all(|v| v.is_finite()), &l);
+        check(
+            &mut fails,
+            "robustness",
+            &format!("linear ticks {lo} … {hi} finite, at most 64"),
+            l.len() <= 64 && l.iter().all(|v| v.is_finite()),
+            &l,
+        );
         let g = log_ticks(lo, hi);
-        check(&mut fails, "robustness", &format!("log ticks {lo} … {hi} positive"), g.major.len() <= 64 && g.major.iter().chain(&g.minor).all(|v| v.is_finite() && *v > 0.0), &g);
+        check(
+            &mut fails,
+            "robustness",
+            &format!("log ticks {lo} … {hi} positive"),
+            g.major.len() <= 64 && g.major.iter().chain(&g.minor).all(|v| v.is_finite() && *v > 0.0),
+            &g,
+        );
     }
     finish(fails);
 }
@@ -240,53 +346,152 @@ fn every_plot_of_every_design_reads() {
             let words = structure(&mut fails, &name, &p);
             for alts in titles {
                 // Axis titles name the quantity and its unit (IEC 60027-1 / SI Brochure).
-                check(&mut fails, "IEC 60027-1 / SI Brochure for unit symbols and prefixes", &format!("{name}: axis title {alts:?}"), words.iter().any(|w| alts.contains(&w.as_str())), &words);
+                check(
+                    &mut fails,
+                    "IEC 60027-1 / SI Brochure for unit symbols and prefixes",
+                    &format!("{name}: axis title {alts:?}"),
+                    words.iter().any(|w| alts.contains(&w.as_str())),
+                    &words,
+                );
             }
             // Tick labels with a unit read back as SI values: a space between number and
             // prefixed unit symbol (IEC 60027-1 / SI Brochure for unit symbols and prefixes).
-            let ticks: Vec<&String> = words.iter().filter(|w| !w.contains(' ') || (w.split(' ').count() == 2 && w.split(' ').next().is_some_and(|n| n.parse::<f64>().is_ok()))).collect();
+            let ticks: Vec<&String> = words
+                .iter()
+                .filter(|w| {
+                    !w.contains(' ')
+                        || (w.split(' ').count() == 2 && w.split(' ').next().is_some_and(|n| n.parse::<f64>().is_ok()))
+                })
+                .collect();
             for t in ticks.iter().filter(|t| t.ends_with("Hz") && !t.ends_with("√Hz")) {
-                check(&mut fails, "IEC 60027-1 / SI Brochure for unit symbols and prefixes", &format!("{name}: tick {t} reads as a frequency"), parse(t, Quantity::Frequency).is_ok(), t);
+                check(
+                    &mut fails,
+                    "IEC 60027-1 / SI Brochure for unit symbols and prefixes",
+                    &format!("{name}: tick {t} reads as a frequency"),
+                    parse(t, Quantity::Frequency).is_ok(),
+                    t,
+                );
             }
             for t in ticks.iter().filter(|t| t.ends_with(" V") || t.ends_with(" mV") || t.ends_with(" µV")) {
-                check(&mut fails, "IEC 60027-1 / SI Brochure for unit symbols and prefixes", &format!("{name}: tick {t} reads as a voltage"), parse(t, Quantity::Voltage).is_ok(), t);
+                check(
+                    &mut fails,
+                    "IEC 60027-1 / SI Brochure for unit symbols and prefixes",
+                    &format!("{name}: tick {t} reads as a voltage"),
+                    parse(t, Quantity::Voltage).is_ok(),
+                    t,
+                );
             }
             let title = bold_texts(&p.svg).first().cloned().unwrap_or_default();
             // Painter's order (W3C SVG 1.1, rendering model): data under the texts and frames.
             let (data, text) = (p.svg.find("<poly"), p.svg.find("font-weight=\"bold\""));
-            check(&mut fails, "W3C SVG 1.1 (rendering order)", &format!("{name}: data drawn before the texts"), data.is_some() && data < text, (data, text));
-            check(&mut fails, "this module's contract", &format!("{name}: title names the design"), title.starts_with(d.name.chars().take(8).collect::<String>().as_str()), &title);
+            check(
+                &mut fails,
+                "W3C SVG 1.1 (rendering order)",
+                &format!("{name}: data drawn before the texts"),
+                data.is_some() && data < text,
+                (data, text),
+            );
+            check(
+                &mut fails,
+                "this module's contract",
+                &format!("{name}: title names the design"),
+                title.starts_with(d.name.chars().take(8).collect::<String>().as_str()),
+                &title,
+            );
             let all = words.join(" | ");
             match kind {
                 "response" => {
                     // Log frequency axis: labelled ticks are decades (common practice).
-                    let hz: Vec<f64> = ticks.iter().filter(|t| t.ends_with("Hz")).filter_map(|t| parse(t, Quantity::Frequency).ok()).collect();
-                    check(&mut fails, "common practice", &format!("{name}: at least three decade labels"), hz.len() >= 3, &hz);
-                    check(&mut fails, "common practice", &format!("{name}: frequency labels are decades"), hz.iter().all(|f| (f.log10() - f.log10().round()).abs() < 1e-6), &hz);
+                    let hz: Vec<f64> = ticks
+                        .iter()
+                        .filter(|t| t.ends_with("Hz"))
+                        .filter_map(|t| parse(t, Quantity::Frequency).ok())
+                        .collect();
+                    check(
+                        &mut fails,
+                        "common practice",
+                        &format!("{name}: at least three decade labels"),
+                        hz.len() >= 3,
+                        &hz,
+                    );
+                    check(
+                        &mut fails,
+                        "common practice",
+                        &format!("{name}: frequency labels are decades"),
+                        hz.iter().all(|f| (f.log10() - f.log10().round()).abs() < 1e-6),
+                        &hz,
+                    );
                     let fs_ = d.request.destination.sample_rate;
-                    for want in [format!("fs/2 = {}", format(fs_ / 2.0, Quantity::Frequency)), format!("fs = {}", format(fs_, Quantity::Frequency)), format!("= {}", format(fs_ - d.request.source.band_high, Quantity::Frequency))] {
-                        check(&mut fails, "this module's contract", &format!("{name}: legend gives {want}"), all.contains(&want), &all);
+                    for want in [
+                        format!("fs/2 = {}", format(fs_ / 2.0, Quantity::Frequency)),
+                        format!("fs = {}", format(fs_, Quantity::Frequency)),
+                        format!("= {}", format(fs_ - d.request.source.band_high, Quantity::Frequency)),
+                    ] {
+                        check(
+                            &mut fails,
+                            "this module's contract",
+                            &format!("{name}: legend gives {want}"),
+                            all.contains(&want),
+                            &all,
+                        );
                     }
-                    check(&mut fails, "this module's contract", &format!("{name}: band shaded and named"), all.contains("band "), &all);
+                    check(
+                        &mut fails,
+                        "this module's contract",
+                        &format!("{name}: band shaded and named"),
+                        all.contains("band "),
+                        &all,
+                    );
                 }
                 "transfer" => {
                     let midband = a.dc.kind == "midband";
-                    check(&mut fails, "this module's contract", &format!("{name}: title says midband for AC coupling"), title.contains("midband") == midband, &title);
+                    check(
+                        &mut fails,
+                        "this module's contract",
+                        &format!("{name}: title says midband for AC coupling"),
+                        title.contains("midband") == midband,
+                        &title,
+                    );
                     for want in ["converter range", "output limits", "sensor range", "headroom"] {
-                        check(&mut fails, "this module's contract", &format!("{name}: legend names {want}"), all.contains(want), &all);
+                        check(
+                            &mut fails,
+                            "this module's contract",
+                            &format!("{name}: legend names {want}"),
+                            all.contains(want),
+                            &all,
+                        );
                     }
                 }
                 "tolerance" => {
                     let y = format!("yield {}", format(100.0 * a.tolerance.monte_carlo.yield_, Quantity::Ratio));
-                    check(&mut fails, "this module's contract", &format!("{name}: {y} in the title"), title.contains(&y), &title);
-                    let doc_title = p.svg.split("<title>").nth(1).and_then(|t| t.split("</title>").next()).unwrap_or("");
-                    check(&mut fails, "this module's contract", &format!("{name}: {y} in the document title"), doc_title.contains(&y), doc_title);
+                    check(
+                        &mut fails,
+                        "this module's contract",
+                        &format!("{name}: {y} in the title"),
+                        title.contains(&y),
+                        &title,
+                    );
+                    let doc_title =
+                        p.svg.split("<title>").nth(1).and_then(|t| t.split("</title>").next()).unwrap_or("");
+                    check(
+                        &mut fails,
+                        "this module's contract",
+                        &format!("{name}: {y} in the document title"),
+                        doc_title.contains(&y),
+                        doc_title,
+                    );
                 }
                 "noise" => {
                     let n = &a.noise;
                     let level = n.lsb / (n.band[1] - n.band[0]).sqrt();
                     let want = format!("LSB level {} = LSB / √(f_hi − f_lo)", format(level, Quantity::VoltageNoise));
-                    check(&mut fails, "this module's contract", &format!("{name}: legend states {want}"), all.contains(&want), &all);
+                    check(
+                        &mut fails,
+                        "this module's contract",
+                        &format!("{name}: legend states {want}"),
+                        all.contains(&want),
+                        &all,
+                    );
                 }
                 _ => {}
             }
@@ -306,11 +511,29 @@ fn markup_in_the_name_stays_text() {
             continue;
         };
         // XML 1.0 / W3C SVG 1.1: markup in character data is escaped, so it stays text.
-        check(&mut fails, "XML 1.0 (escaping) / W3C SVG 1.1", &format!("{kind}: no raw <img"), !p.svg.contains("<img"), "");
+        check(
+            &mut fails,
+            "XML 1.0 (escaping) / W3C SVG 1.1",
+            &format!("{kind}: no raw <img"),
+            !p.svg.contains("<img"),
+            "",
+        );
         let doc = roxmltree::Document::parse(&p.svg).expect("XML");
-        check(&mut fails, "XML 1.0 (escaping)", &format!("{kind}: no img element"), !doc.descendants().any(|n| n.has_tag_name("img")), "");
+        check(
+            &mut fails,
+            "XML 1.0 (escaping)",
+            &format!("{kind}: no img element"),
+            !doc.descendants().any(|n| n.has_tag_name("img")),
+            "",
+        );
         let t = texts(&doc);
-        check(&mut fails, "XML 1.0 (escaping)", &format!("{kind}: the name reads back as text"), t.iter().any(|w| w.contains("<img src=x")), &t);
+        check(
+            &mut fails,
+            "XML 1.0 (escaping)",
+            &format!("{kind}: the name reads back as text"),
+            t.iter().any(|w| w.contains("<img src=x")),
+            &t,
+        );
     }
     finish(fails);
 }
@@ -325,13 +548,25 @@ fn degenerate_designs_draw_or_return_none() {
     let mut none = base.clone();
     none.analysis = None;
     for (kind, f, _) in PLOTS {
-        check(&mut fails, "this module's contract", &format!("{kind}: None without an analysis"), f(&none, &PlotConfig::default()).is_none(), "");
+        check(
+            &mut fails,
+            "this module's contract",
+            &format!("{kind}: None without an analysis"),
+            f(&none, &PlotConfig::default()).is_none(),
+            "",
+        );
     }
     // A request that cannot be built gives a design without analysis.
     let bad = request("Zero span", 1.0, 1.0, "dc", (0.0, 10.0), (0.0, 3.3), 12, "1 kHz", "[3.3]", true);
     let bad = design(&bad);
     for (kind, f, _) in PLOTS {
-        check(&mut fails, "this module's contract", &format!("{kind}: None for an infeasible request"), bad.analysis.is_none() == f(&bad, &PlotConfig::default()).is_none(), "");
+        check(
+            &mut fails,
+            "this module's contract",
+            &format!("{kind}: None for an infeasible request"),
+            bad.analysis.is_none() == f(&bad, &PlotConfig::default()).is_none(),
+            "",
+        );
     }
 
     type Edit = fn(&mut Design);

@@ -18,7 +18,10 @@ use rangefit_engine::{demos, design};
 
 /// A request of our own scenario (sensor range, coupling, band, converter range, supplies).
 #[allow(clippy::too_many_arguments)]
-fn request(name: &str, min: f64, max: f64, coupling: &str, band: (f64, f64), dest: (f64, f64), supplies: &str, keep_polarity: bool) -> String {
+fn request(
+    name: &str, min: f64, max: f64, coupling: &str, band: (f64, f64), dest: (f64, f64), supplies: &str,
+    keep_polarity: bool,
+) -> String {
     format!(
         r#"{{"version":1,"name":"{name}","source":{{"kind":"single_ended","min":{min},"max":{max},"coupling":"{coupling}","impedance":"1k","band_low":{},"band_high":{}}},
         "destination":{{"min":{},"max":{},"bits":12,"sample_rate":"100 kHz","impedance":"100k"}},"supplies":{supplies},"keep_polarity":{keep_polarity}}}"#,
@@ -28,7 +31,10 @@ fn request(name: &str, min: f64, max: f64, coupling: &str, band: (f64, f64), des
 
 /// The same request with an oversampling converter (modulator at 64 × the 100 kHz rate).
 fn oversampling(json: &str) -> String {
-    json.replace(r#""impedance":"100k"}"#, r#""impedance":"100k","converter":"oversampling","modulator_rate":"6.4 MHz"}"#)
+    json.replace(
+        r#""impedance":"100k"}"#,
+        r#""impedance":"100k","converter":"oversampling","modulator_rate":"6.4 MHz"}"#,
+    )
 }
 
 /// The circuit `design` makes for `json`.
@@ -92,14 +98,21 @@ fn overlap(a: &BoxRect, b: &BoxRect) -> bool {
 /// Closed segments share a point.
 fn meet(a: &Segment, b: &Segment) -> bool {
     let o = |ax: f64, ay: f64, bx: f64, by: f64, cx: f64, cy: f64| (bx - ax) * (cy - ay) - (by - ay) * (cx - ax);
-    let within =
-        |s: &Segment, x: f64, y: f64| x >= s.x1.min(s.x2) - 1e-9 && x <= s.x1.max(s.x2) + 1e-9 && y >= s.y1.min(s.y2) - 1e-9 && y <= s.y1.max(s.y2) + 1e-9;
+    let within = |s: &Segment, x: f64, y: f64| {
+        x >= s.x1.min(s.x2) - 1e-9
+            && x <= s.x1.max(s.x2) + 1e-9
+            && y >= s.y1.min(s.y2) - 1e-9
+            && y <= s.y1.max(s.y2) + 1e-9
+    };
     let (d1, d2) = (o(b.x1, b.y1, b.x2, b.y2, a.x1, a.y1), o(b.x1, b.y1, b.x2, b.y2, a.x2, a.y2));
     let (d3, d4) = (o(a.x1, a.y1, a.x2, a.y2, b.x1, b.y1), o(a.x1, a.y1, a.x2, a.y2, b.x2, b.y2));
     if d1 * d2 < 0.0 && d3 * d4 < 0.0 {
         return true;
     }
-    (d1 == 0.0 && within(b, a.x1, a.y1)) || (d2 == 0.0 && within(b, a.x2, a.y2)) || (d3 == 0.0 && within(a, b.x1, b.y1)) || (d4 == 0.0 && within(a, b.x2, b.y2))
+    (d1 == 0.0 && within(b, a.x1, a.y1))
+        || (d2 == 0.0 && within(b, a.x2, a.y2))
+        || (d3 == 0.0 && within(a, b.x1, b.y1))
+        || (d4 == 0.0 && within(a, b.x2, b.y2))
 }
 
 /// The segment passes through the box (edges included).
@@ -144,9 +157,18 @@ fn check(what: &str, c: &Circuit, s: &Schematic, req: Option<&Request>) {
     let doc = roxmltree::Document::parse(&s.svg).unwrap_or_else(|e| panic!("{what}: not XML: {e}"));
     let root = doc.root_element();
     assert!(root.has_tag_name(("http://www.w3.org/2000/svg", "svg")), "{what}: root is not svg:svg");
-    let view: Vec<f64> = root.attribute("viewBox").unwrap_or_else(|| panic!("{what}: no viewBox")).split_whitespace().map(|v| v.parse().unwrap()).collect();
+    let view: Vec<f64> = root
+        .attribute("viewBox")
+        .unwrap_or_else(|| panic!("{what}: no viewBox"))
+        .split_whitespace()
+        .map(|v| v.parse().unwrap())
+        .collect();
     assert_eq!(view.len(), 4, "{what}: viewBox {view:?}");
-    assert_eq!((num(&root, "width"), num(&root, "height")), (view[2], view[3]), "{what}: width/height differ from the viewBox");
+    assert_eq!(
+        (num(&root, "width"), num(&root, "height")),
+        (view[2], view[3]),
+        "{what}: width/height differ from the viewBox"
+    );
     // Standalone (W3C SVG 1.1 linking and scripting): no script, no external reference, no event handler.
     for n in doc.descendants().filter(|n| n.is_element()) {
         let tag = n.tag_name().name();
@@ -167,10 +189,18 @@ fn check(what: &str, c: &Circuit, s: &Schematic, req: Option<&Request>) {
     let drive = c.parts.iter().any(|p| p.stage == StageRole::Drive);
     // A high-impedance sensor's follower, a photodiode's transimpedance amplifier, or an
     // instrumentation amplifier's first stage takes a row of its own before the gain stage's.
-    let buffer = c.parts.iter().any(|p| p.kind == PartKind::OpAmp && matches!(p.stage, StageRole::Buffer | StageRole::Transimpedance | StageRole::InputStage)) as usize;
+    let buffer = c.parts.iter().any(|p| {
+        p.kind == PartKind::OpAmp
+            && matches!(p.stage, StageRole::Buffer | StageRole::Transimpedance | StageRole::InputStage)
+    }) as usize;
     let rows = if sections + drive as usize == 0 { 0 } else { sections.div_ceil(2) + 1 } + buffer;
     let tall = 700.0 + 450.0 * rows as f64;
-    assert!(view[2] <= 1100.0 && view[3] <= tall, "{what}: viewBox {} × {} is larger than 1100 × {tall}", view[2], view[3]);
+    assert!(
+        view[2] <= 1100.0 && view[3] <= tall,
+        "{what}: viewBox {} × {} is larger than 1100 × {tall}",
+        view[2],
+        view[3]
+    );
     for n in doc.descendants().filter(|n| n.has_tag_name("text")) {
         let size = num(&n, "font-size");
         assert!((12.0..=18.0).contains(&size), "{what}: text {:?} at {size} px", n.text());
@@ -202,8 +232,11 @@ fn check(what: &str, c: &Circuit, s: &Schematic, req: Option<&Request>) {
         }
     }
     // IEC 60617: a resistor is a rectangle, the amplifier a triangle.
-    let polys: Vec<usize> =
-        doc.descendants().filter(|n| n.has_tag_name("polygon")).map(|n| n.attribute("points").unwrap_or("").split_whitespace().count()).collect();
+    let polys: Vec<usize> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("polygon"))
+        .map(|n| n.attribute("points").unwrap_or("").split_whitespace().count())
+        .collect();
     let resistors = c.parts.iter().filter(|p| p.kind == PartKind::Resistor).count();
     assert!(polys.iter().filter(|&&k| k == 4).count() >= resistors, "{what}: fewer rectangles than resistors");
     let amps = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.nodes.len() >= 5).count();
@@ -232,21 +265,33 @@ fn check(what: &str, c: &Circuit, s: &Schematic, req: Option<&Request>) {
         }
     }
     // A dot at every junction and nowhere else (IEC 60617: junction of conductors).
-    let dots: Vec<(f64, f64)> =
-        doc.descendants().filter(|n| n.has_tag_name("circle") && n.attribute("fill") == Some("#000000")).map(|n| (num(&n, "cx"), num(&n, "cy"))).collect();
+    let dots: Vec<(f64, f64)> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("circle") && n.attribute("fill") == Some("#000000"))
+        .map(|n| (num(&n, "cx"), num(&n, "cy")))
+        .collect();
     let joins = junctions(&s.wires);
     for j in &joins {
-        assert!(dots.iter().any(|d| (d.0 - j.0).abs() < 0.06 && (d.1 - j.1).abs() < 0.06), "{what}: no dot at the junction {j:?}");
+        assert!(
+            dots.iter().any(|d| (d.0 - j.0).abs() < 0.06 && (d.1 - j.1).abs() < 0.06),
+            "{what}: no dot at the junction {j:?}"
+        );
     }
     for d in &dots {
-        assert!(joins.iter().any(|j| (d.0 - j.0).abs() < 0.06 && (d.1 - j.1).abs() < 0.06), "{what}: dot at {d:?} is no junction");
+        assert!(
+            joins.iter().any(|j| (d.0 - j.0).abs() < 0.06 && (d.1 - j.1).abs() < 0.06),
+            "{what}: dot at {d:?} is no junction"
+        );
     }
     // The surroundings: the sensor in a dashed box, the converter input as a box "ADC".
     assert!(words.iter().any(|w| w == "sensor") && words.iter().any(|w| w == "ADC"), "{what}: no sensor or ADC block");
     assert!(doc.descendants().any(|n| n.attribute("stroke-dasharray").is_some()), "{what}: no dashed sensor box");
     let Some(req) = req else { return };
     for w in &words {
-        assert!(!w.contains("(no free place") && !w.starts_with("DC level at ") && !w.contains(" (node "), "{what}: moved to the notes: {w}");
+        assert!(
+            !w.contains("(no free place") && !w.starts_with("DC level at ") && !w.contains(" (node "),
+            "{what}: moved to the notes: {w}"
+        );
     }
     let op = Solver::new(c).dc(0.5 * (req.source.min + req.source.max)).unwrap();
     for node in ["ref", "inp1", "inn1", "adc", "sense", "cin1", "rg1"] {
@@ -257,10 +302,18 @@ fn check(what: &str, c: &Circuit, s: &Schematic, req: Option<&Request>) {
         }
     }
     for tp in test_points(req, c) {
-        assert!(words.iter().any(|w| w.starts_with(&format!("{} ", tp.label))), "{what}: no {} on the drawing", tp.label);
+        assert!(
+            words.iter().any(|w| w.starts_with(&format!("{} ", tp.label))),
+            "{what}: no {} on the drawing",
+            tp.label
+        );
     }
     for rail in c.parts.iter().filter(|p| p.stage == StageRole::Supply) {
-        assert!(words.iter().any(|w| w.starts_with(&format!("{} ", rail.reference))), "{what}: no rail label {}", rail.reference);
+        assert!(
+            words.iter().any(|w| w.starts_with(&format!("{} ", rail.reference))),
+            "{what}: no rail label {}",
+            rail.reference
+        );
     }
 }
 
@@ -317,22 +370,36 @@ fn every_topology_draws_cleanly() {
             "non-inverting amplifier",
             &["inn1", "vneg"],
         ),
-        ("polarity may flip", designed(&request("free polarity", 0.0, 2.0, "dc", (0.0, 100.0), (0.0, 3.3), "[3.3]", false)), "amplifier", &["adc"]),
+        (
+            "polarity may flip",
+            designed(&request("free polarity", 0.0, 2.0, "dc", (0.0, 100.0), (0.0, 3.3), "[3.3]", false)),
+            "amplifier",
+            &["adc"],
+        ),
         (
             "inverting, + input on a divider",
-            forced(&request("inverting divider", 0.0, 2.0, "dc", (0.0, 100.0), (0.0, 3.3), "[3.3]", false), Template::InvertingPlus),
+            forced(
+                &request("inverting divider", 0.0, 2.0, "dc", (0.0, 100.0), (0.0, 3.3), "[3.3]", false),
+                Template::InvertingPlus,
+            ),
             "inverting amplifier with its + input on a divider",
             &["inn1", "inp1"],
         ),
         (
             "inverting, + input at ground",
-            forced(&request("inverting ground", -1.0, 1.0, "dc", (0.0, 100.0), (-2.0, 2.0), "[5, -5]", false), Template::InvertingPlus),
+            forced(
+                &request("inverting ground", -1.0, 1.0, "dc", (0.0, 100.0), (-2.0, 2.0), "[5, -5]", false),
+                Template::InvertingPlus,
+            ),
             "inverting amplifier",
             &["inn1"],
         ),
         (
             "inverting summer from the negative rail",
-            forced(&request("inverting summer", 0.0, 2.0, "dc", (0.0, 100.0), (0.0, 3.3), "[5, -5]", false), Template::InvertingSum),
+            forced(
+                &request("inverting summer", 0.0, 2.0, "dc", (0.0, 100.0), (0.0, 3.3), "[5, -5]", false),
+                Template::InvertingSum,
+            ),
             "inverting summer",
             &["inn1", "vneg"],
         ),
@@ -348,7 +415,16 @@ fn every_topology_draws_cleanly() {
             // without the drive's DC loss the gain stays exactly one, and the filter's last
             // section drives the pin directly.
             "AC buffer, no drive",
-            designed(&oversampling(&request("ac buffer", -1.485, 1.485, "ac", (10.0, 1000.0), (0.0, 3.3), "[3.3]", true))),
+            designed(&oversampling(&request(
+                "ac buffer",
+                -1.485,
+                1.485,
+                "ac",
+                (10.0, 1000.0),
+                (0.0, 3.3),
+                "[3.3]",
+                true,
+            ))),
             "into a buffer",
             &["ref", "adc"],
         ),
@@ -374,7 +450,10 @@ fn every_topology_draws_cleanly() {
         let s = draw(req, c, what);
         check(what, c, &s, Some(req));
         // Nothing of the design lands in the fallback area.
-        assert!(!texts(&roxmltree::Document::parse(&s.svg).unwrap()).iter().any(|t| t.starts_with("Not placed")), "{what}: a part fell back");
+        assert!(
+            !texts(&roxmltree::Document::parse(&s.svg).unwrap()).iter().any(|t| t.starts_with("Not placed")),
+            "{what}: a part fell back"
+        );
     }
 }
 
@@ -383,15 +462,15 @@ fn user_text_is_escaped() {
     // W3C XML 1.0 §2.4: "<" and "&" in character data must be escaped.
     let names = ["<img src=x onerror=alert(1)>", "R&D \"quoted\" 'single'", "tab\tand\u{1}control", "]]> & <![CDATA["];
     for name in names {
-        let (req, c, _) = designed(
-            &demos::ALL[0]
-                .json
-                .replace("Harbour hydrophone tap", &name.replace('\\', "\\\\").replace('"', "\\\"").replace('\t', "\\t").replace('\u{1}', "\\u0001")),
-        );
+        let (req, c, _) = designed(&demos::ALL[0].json.replace(
+            "Harbour hydrophone tap",
+            &name.replace('\\', "\\\\").replace('"', "\\\"").replace('\t', "\\t").replace('\u{1}', "\\u0001"),
+        ));
         let s = draw(&req, &c, name);
         let doc = roxmltree::Document::parse(&s.svg).unwrap_or_else(|e| panic!("{name:?}: not XML: {e}"));
         assert!(!doc.descendants().any(|n| n.has_tag_name("img")), "{name:?}: became an element");
-        let kept: String = name.chars().filter(|c| !c.is_control() || *c == '\t').map(|c| if c == '\t' { ' ' } else { c }).collect();
+        let kept: String =
+            name.chars().filter(|c| !c.is_control() || *c == '\t').map(|c| if c == '\t' { ' ' } else { c }).collect();
         assert!(texts(&doc).contains(&kept), "{name:?}: title text missing");
         let title = doc.descendants().find(|n| n.has_tag_name("title")).and_then(|n| n.text()).unwrap_or("");
         assert_eq!(title, kept, "{name:?}: <title>");
@@ -404,16 +483,22 @@ fn polarised_capacitor_plus_faces_the_higher_dc_level() {
     // IEC 60617: a polarised capacitor carries "+" at its positive plate. Sensor DC 1.2 V,
     // amplifier input at the reference (about 1.65 V): "+" on the amplifier side of C1.
     // A band reaching down to 0.1 Hz makes C1 large enough to be an electrolytic.
-    let (req, c, _) = designed(&request("polarised coupling", 1.1, 1.3, "ac", (0.1, 1000.0), (0.0, 3.3), "[3.3]", true));
+    let (req, c, _) =
+        designed(&request("polarised coupling", 1.1, 1.3, "ac", (0.1, 1000.0), (0.0, 3.3), "[3.3]", true));
     let c1 = c.part("C1").expect("C1");
     assert!(c1.value >= rangefit_engine::bom::ELECTROLYTIC_FROM, "C1 is {} F, not polarised", c1.value);
     let op = Solver::new(&c).dc(1.2).unwrap();
     let (lo, hi) = (c1.nodes[0].clone(), c1.nodes[1].clone());
     let (lo, hi) = if op.voltage(&lo) < op.voltage(&hi) { (lo, hi) } else { (hi, lo) };
-    assert!(op.voltage(&hi).unwrap() - op.voltage(&lo).unwrap() > 0.3, "C1 sits between {lo} and {hi} at nearly the same level");
+    assert!(
+        op.voltage(&hi).unwrap() - op.voltage(&lo).unwrap() > 0.3,
+        "C1 sits between {lo} and {hi} at nearly the same level"
+    );
     let s = draw(&req, &c, "polarised coupling");
     // C1's leads: a wire end of each net facing the other across the plates.
-    let ends = |net: &str| -> Vec<(f64, f64)> { s.wires.iter().filter(|w| w.net == net).flat_map(|w| [(w.x1, w.y1), (w.x2, w.y2)]).collect() };
+    let ends = |net: &str| -> Vec<(f64, f64)> {
+        s.wires.iter().filter(|w| w.net == net).flat_map(|w| [(w.x1, w.y1), (w.x2, w.y2)]).collect()
+    };
     let mut pair = None;
     for a in ends(&lo) {
         for b in ends(&hi) {
@@ -464,7 +549,13 @@ fn test_points_follow_the_solver() {
         }
         let out = tps.last().unwrap();
         let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
-        assert!((out.min - lo).abs() < 1e-6 && (out.max - hi).abs() < 1e-6, "{}: converter range {} … {} vs predicted {lo} … {hi}", demo.id, out.min, out.max);
+        assert!(
+            (out.min - lo).abs() < 1e-6 && (out.max - hi).abs() < 1e-6,
+            "{}: converter range {} … {} vs predicted {lo} … {hi}",
+            demo.id,
+            out.min,
+            out.max
+        );
         // The sensor terminal follows the sensor (loaded at most by a few per cent); a loop's
         // terminal carries the loop current times the shunt (Ohm's law).
         if req.source.kind == rangefit_engine::request::SourceKind::Photodiode {
@@ -474,11 +565,21 @@ fn test_points_follow_the_solver() {
             let solver = Solver::new(&c);
             let at = |x: f64| solver.dc(x).ok().and_then(|o| o.voltage("tia")).expect("tia level");
             let swing = (at(req.source.max) - at(req.source.min)).abs();
-            assert!(tps[0].max - tps[0].min < 0.01 * swing, "{}: TP1 span {} vs U1's output swing {swing}", demo.id, tps[0].max - tps[0].min);
+            assert!(
+                tps[0].max - tps[0].min < 0.01 * swing,
+                "{}: TP1 span {} vs U1's output swing {swing}",
+                demo.id,
+                tps[0].max - tps[0].min
+            );
             continue;
         }
         let span = (req.source.max - req.source.min) * d.current_loop().map_or(1.0, |l| l.shunt);
-        assert!((tps[0].max - tps[0].min - span).abs() < 0.05 * span, "{}: TP1 span {} vs sensor span {span}", demo.id, tps[0].max - tps[0].min);
+        assert!(
+            (tps[0].max - tps[0].min - span).abs() < 0.05 * span,
+            "{}: TP1 span {} vs sensor span {span}",
+            demo.id,
+            tps[0].max - tps[0].min
+        );
     }
 }
 
@@ -505,7 +606,12 @@ fn odd_circuits_never_panic_and_parts_are_never_dropped() {
     // The filter chain broken in the middle: without section 2's amplifier the walk stops
     // at section 1's output; the rest of the filter and the drive go to the fallback area.
     let mut broken = harbour.clone();
-    let second = broken.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter).nth(1).map(|p| p.reference.clone());
+    let second = broken
+        .parts
+        .iter()
+        .filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter)
+        .nth(1)
+        .map(|p| p.reference.clone());
     broken.parts.retain(|p| Some(&p.reference) != second.as_ref());
     // An instrumentation amplifier without its gain resistor R_G (synth::front::instrumentation::insert):
     // not the first stage the drawing recognises, so it draws as before, parts not placed
@@ -574,9 +680,19 @@ fn odd_circuits_never_panic_and_parts_are_never_dropped() {
     for (what, c, strict) in rows {
         let tps = test_points(&req, &c);
         // The solver wants whole node lists; the drawing must cope without an operating point.
-        let whole = c.nodes().len() > 1 && c.parts.iter().all(|p| p.nodes.len() >= if p.kind == PartKind::OpAmp { 5 } else { 2 });
+        let whole = c.nodes().len() > 1
+            && c.parts.iter().all(|p| p.nodes.len() >= if p.kind == PartKind::OpAmp { 5 } else { 2 });
         let op = if whole { Solver::new(&c).dc(1.2).ok() } else { None };
-        for cfg in [SchematicConfig::default(), SchematicConfig { title: false, dc_levels: false, font_size: f64::NAN, line_width: 0.0, polarised_from: 0.0 }] {
+        for cfg in [
+            SchematicConfig::default(),
+            SchematicConfig {
+                title: false,
+                dc_levels: false,
+                font_size: f64::NAN,
+                line_width: 0.0,
+                polarised_from: 0.0,
+            },
+        ] {
             let s = schematic(&c, op.as_ref(), &tps, what, &cfg);
             if let (Ok(dir), true) = (std::env::var("RANGEFIT_SVG_DIR"), cfg.title) {
                 let _ = std::fs::write(format!("{dir}/odd-{}.svg", what.replace(' ', "-")), &s.svg);
@@ -585,7 +701,11 @@ fn odd_circuits_never_panic_and_parts_are_never_dropped() {
             let words = texts(&doc);
             for p in &c.parts {
                 // A rail is drawn as its bar labelled "VPOS +3.3 V".
-                assert!(words.iter().any(|w| *w == p.reference || w.starts_with(&format!("{} ", p.reference))), "{what}: part {} dropped", p.reference);
+                assert!(
+                    words.iter().any(|w| *w == p.reference || w.starts_with(&format!("{} ", p.reference))),
+                    "{what}: part {} dropped",
+                    p.reference
+                );
             }
             if strict {
                 check(what, &c, &s, None);
@@ -614,14 +734,19 @@ fn check_chain(what: &str, req: &Request, c: &Circuit, s: &Schematic, want: &Cha
     if let Some(k) = &want.kinds {
         assert_eq!(&kinds, k, "{what}: section kinds");
     }
-    assert_eq!(c.parts.iter().any(|p| p.stage == StageRole::Drive && p.kind == PartKind::Resistor), want.drive, "{what}: drive resistor");
+    assert_eq!(
+        c.parts.iter().any(|p| p.stage == StageRole::Drive && p.kind == PartKind::Resistor),
+        want.drive,
+        "{what}: drive resistor"
+    );
     assert_eq!(c.parts.iter().any(|p| p.kind == PartKind::Diode), want.clamp, "{what}: clamp diode");
 
     let doc = roxmltree::Document::parse(&s.svg).unwrap();
     let words = texts(&doc);
     assert!(!words.iter().any(|t| t.starts_with("Not placed")), "{what}: a part fell back");
     let group = |r: &str| part_group(&doc, r);
-    let amps: Vec<&rangefit_engine::circuit::Part> = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter).collect();
+    let amps: Vec<&rangefit_engine::circuit::Part> =
+        c.parts.iter().filter(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter).collect();
     // A first-order pole built into the gain stage has no amplifier of its own.
     let separate = f.sections.iter().filter(|x| !x.in_gain_stage).count();
     assert_eq!(amps.len(), separate, "{what}: one amplifier per separate section");
@@ -636,15 +761,29 @@ fn check_chain(what: &str, req: &Request, c: &Circuit, s: &Schematic, want: &Cha
         }
     }
     for (k, x) in f.sections.iter().enumerate().map(|(i, x)| (i + 1, x)).filter(|(_, x)| !x.in_gain_stage) {
-        assert!(words.iter().any(|w| w.starts_with(&format!("section {k} · "))), "{what}: no caption for section {k} ({:?})", x.kind);
+        assert!(
+            words.iter().any(|w| w.starts_with(&format!("section {k} · "))),
+            "{what}: no caption for section {k} ({:?})",
+            x.kind
+        );
     }
     // Continuation flags: pentagons, each holding a node name that appears in exactly two.
     let mut names: Vec<String> = Vec::new();
-    for p in doc.descendants().filter(|n| n.has_tag_name("polygon") && n.attribute("points").is_some_and(|p| p.split_whitespace().count() == 5)) {
-        let pts: Vec<(f64, f64)> = p.attribute("points").unwrap().split_whitespace().filter_map(|xy| xy.split_once(',')).map(|(x, y)| (x.parse().unwrap(), y.parse().unwrap())).collect();
+    for p in doc.descendants().filter(|n| {
+        n.has_tag_name("polygon") && n.attribute("points").is_some_and(|p| p.split_whitespace().count() == 5)
+    }) {
+        let pts: Vec<(f64, f64)> = p
+            .attribute("points")
+            .unwrap()
+            .split_whitespace()
+            .filter_map(|xy| xy.split_once(','))
+            .map(|(x, y)| (x.parse().unwrap(), y.parse().unwrap()))
+            .collect();
         let (x0, x1) = pts.iter().fold((f64::MAX, f64::MIN), |(a, b), q| (a.min(q.0), b.max(q.0)));
         let (y0, y1) = pts.iter().fold((f64::MAX, f64::MIN), |(a, b), q| (a.min(q.1), b.max(q.1)));
-        let inside = doc.descendants().find(|t| t.has_tag_name("text") && (x0..x1).contains(&num(t, "x")) && (y0..y1).contains(&num(t, "y")));
+        let inside = doc
+            .descendants()
+            .find(|t| t.has_tag_name("text") && (x0..x1).contains(&num(t, "x")) && (y0..y1).contains(&num(t, "y")));
         names.push(inside.and_then(|t| t.text()).unwrap_or_else(|| panic!("{what}: an empty flag")).to_string());
     }
     for n in &names {
@@ -679,9 +818,17 @@ fn filter_and_drive_are_drawn_by_role() {
         ),
         // Odd order: ⌈3/2⌉ sections, a first-order one and one of second order (a cascade of
         // second-order sections, the odd pole alone; standard cascade design), lowest Q first.
-        ("harbour, order 3", with_filter(r#"{"order": 3}"#), Chain { kinds: Some(vec![FirstOrder, SallenKey]), drive: true, clamp: false }),
+        (
+            "harbour, order 3",
+            with_filter(r#"{"order": 3}"#),
+            Chain { kinds: Some(vec![FirstOrder, SallenKey]), drive: true, clamp: false },
+        ),
         // Order 8, the request's largest (request::DEFAULT_MAX_ORDER): four sections, three rows.
-        ("harbour, order 8", with_filter(r#"{"order": 8}"#), Chain { kinds: Some(vec![SallenKey; 4]), drive: true, clamp: false }),
+        (
+            "harbour, order 8",
+            with_filter(r#"{"order": 8}"#),
+            Chain { kinds: Some(vec![SallenKey; 4]), drive: true, clamp: false },
+        ),
         // ±5 V supplies into a 0 … 3.3 V converter: the amplifier can pull the pin 5 V below
         // ground, more than the 0.3 V clamp drop, so a Schottky clamp from ground goes in
         // (synth::drive).
@@ -708,7 +855,10 @@ fn filter_and_drive_are_drawn_by_role() {
 /// A high-impedance request of our own (sensor range, coupling, source resistance and
 /// capacitance, band, converter range, supplies).
 #[allow(clippy::too_many_arguments)]
-fn high_impedance(name: &str, min: f64, max: f64, coupling: &str, source: (&str, &str), band: (&str, &str), dest: (f64, f64), supplies: &str) -> String {
+fn high_impedance(
+    name: &str, min: f64, max: f64, coupling: &str, source: (&str, &str), band: (&str, &str), dest: (f64, f64),
+    supplies: &str,
+) -> String {
     format!(
         r#"{{"version":1,"name":"{name}","source":{{"kind":"high_impedance","min":{min},"max":{max},"coupling":"{coupling}","impedance":"{}","capacitance":"{}","band_low":"{}","band_high":"{}"}},
         "destination":{{"min":{},"max":{},"bits":12,"sample_rate":"5 kHz"}},"supplies":{supplies}}}"#,
@@ -719,12 +869,14 @@ fn high_impedance(name: &str, min: f64, max: f64, coupling: &str, source: (&str,
 /// Every point a part's group draws through (lines, circles, polygons).
 /// The drawn group of part `r` (`<g class="part" data-ref="r">`).
 fn part_group<'a, 'i>(doc: &'a roxmltree::Document<'i>, r: &str) -> Option<roxmltree::Node<'a, 'i>> {
-    doc.descendants().find(|n| n.has_tag_name("g") && n.attribute("class") == Some("part") && n.attribute("data-ref") == Some(r))
+    doc.descendants()
+        .find(|n| n.has_tag_name("g") && n.attribute("class") == Some("part") && n.attribute("data-ref") == Some(r))
 }
 
 /// IEC 60617: an amplifier's symbol is a triangle (a three-point polygon in its group).
 fn is_triangle(g: roxmltree::Node) -> bool {
-    g.children().any(|k| k.has_tag_name("polygon") && k.attribute("points").is_some_and(|p| p.split_whitespace().count() == 3))
+    g.children()
+        .any(|k| k.has_tag_name("polygon") && k.attribute("points").is_some_and(|p| p.split_whitespace().count() == 3))
 }
 
 /// Every part placed by role: nothing in the fallback area, every part but the supplies
@@ -745,7 +897,11 @@ fn group_points(g: roxmltree::Node) -> Vec<(f64, f64)> {
             "line" => v.extend([(num(&n, "x1"), num(&n, "y1")), (num(&n, "x2"), num(&n, "y2"))]),
             "circle" => v.push((num(&n, "cx"), num(&n, "cy"))),
             "polygon" | "polyline" => v.extend(
-                n.attribute("points").unwrap_or("").split_whitespace().filter_map(|xy| xy.split_once(',')).map(|(x, y)| (x.parse().unwrap(), y.parse().unwrap())),
+                n.attribute("points")
+                    .unwrap_or("")
+                    .split_whitespace()
+                    .filter_map(|xy| xy.split_once(','))
+                    .map(|(x, y)| (x.parse().unwrap(), y.parse().unwrap())),
             ),
             _ => {}
         }
@@ -766,24 +922,36 @@ fn check_buffer(what: &str, req: &Request, c: &Circuit, s: &Schematic, lifted: b
     // the sensor terminal, − tied to its output.
     let u1 = c.parts.iter().find(|p| p.reference == "U1").unwrap_or_else(|| panic!("{what}: no U1"));
     assert_eq!((u1.kind, u1.stage), (PartKind::OpAmp, StageRole::Buffer), "{what}: U1 is not the buffer");
-    assert_eq!((u1.nodes[0].as_str(), u1.nodes[1] == u1.nodes[4]), ("sense", true), "{what}: U1 is not a follower at sense");
+    assert_eq!(
+        (u1.nodes[0].as_str(), u1.nodes[1] == u1.nodes[4]),
+        ("sense", true),
+        "{what}: U1 is not a follower at sense"
+    );
     placed_by_role(what, &doc, &words, c);
     let group = |r: &str| part_group(&doc, r);
     // IEC 60617: the amplifier is a triangle; labelled like the other amplifiers (common
     // practice: designator and the requirement on it).
     let g = group("U1").unwrap_or_else(|| panic!("{what}: U1 not drawn"));
     assert!(is_triangle(g), "{what}: U1 has no triangle");
-    assert!(words.iter().any(|w| w == "U1") && words.iter().filter(|w| w.starts_with("GBW ≥")).count() >= 2, "{what}: U1 unlabelled");
+    assert!(
+        words.iter().any(|w| w == "U1") && words.iter().filter(|w| w.starts_with("GBW ≥")).count() >= 2,
+        "{what}: U1 unlabelled"
+    );
     // Design contract: the bench's sensor model is VSENSE, RSENSE and CSENSE; drawn inside
     // the dashed sensor box (the bench shown apart from what is built, common practice).
     let bx = doc.descendants().find(|n| n.attribute("stroke-dasharray").is_some()).expect("sensor box");
     let corners = group_points(bx).into_iter();
-    let (x0, x1, y0, y1) = corners.fold((f64::MAX, f64::MIN, f64::MAX, f64::MIN), |(a, b, c, d), (x, y)| (a.min(x), b.max(x), c.min(y), d.max(y)));
+    let (x0, x1, y0, y1) = corners.fold((f64::MAX, f64::MIN, f64::MAX, f64::MIN), |(a, b, c, d), (x, y)| {
+        (a.min(x), b.max(x), c.min(y), d.max(y))
+    });
     let (w, h) = (x1 - x0, y1 - y0);
     for r in ["VSENSE", "RSENSE", "CSENSE"] {
         let g = group(r).unwrap_or_else(|| panic!("{what}: {r} not drawn"));
         for (x, y) in group_points(g) {
-            assert!((x0 - 0.5..=x0 + w + 0.5).contains(&x) && (y0 - 0.5..=y0 + h + 0.5).contains(&y), "{what}: {r} outside the sensor box at ({x}, {y})");
+            assert!(
+                (x0 - 0.5..=x0 + w + 0.5).contains(&x) && (y0 - 0.5..=y0 + h + 0.5).contains(&y),
+                "{what}: {r} outside the sensor box at ({x}, {y})"
+            );
         }
     }
     // Design contract: the bias reference `bref` exists (AC on one supply) exactly when
@@ -791,10 +959,7 @@ fn check_buffer(what: &str, req: &Request, c: &Circuit, s: &Schematic, lifted: b
     assert_eq!(c.nodes().iter().any(|n| n == "bref"), lifted, "{what}: bias reference?");
     // Continuation: the follower's output leaves its row in a flag and the gain row starts
     // from one (two flags holding "buf").
-    let flags = doc
-        .descendants()
-        .filter(|n| n.has_tag_name("text") && n.text() == Some(u1.nodes[4].as_str()))
-        .count();
+    let flags = doc.descendants().filter(|n| n.has_tag_name("text") && n.text() == Some(u1.nodes[4].as_str())).count();
     assert!(flags >= 2, "{what}: {} flags for the follower's output", flags);
 }
 
@@ -806,11 +971,23 @@ fn high_impedance_front_ends_are_drawn_by_role() {
         ("pH electrode, DC, split rails", ph.to_string(), false),
         // 0.2 … 1 V fits the follower on 3.3 V: the return stays at ground, CSENSE shunts the
         // terminal to ground.
-        ("electrode, DC, return at ground", high_impedance("dc ground", 0.2, 1.0, "dc", ("100 MΩ", "100 pF"), ("0 Hz", "10 Hz"), (0.0, 3.3), "[3.3]"), false),
+        (
+            "electrode, DC, return at ground",
+            high_impedance("dc ground", 0.2, 1.0, "dc", ("100 MΩ", "100 pF"), ("0 Hz", "10 Hz"), (0.0, 3.3), "[3.3]"),
+            false,
+        ),
         // A piezo film on one supply: R_b to the mid-rail return, divider with its bypass.
-        ("piezo film, AC, one supply", high_impedance("ac single", -0.5, 0.5, "ac", ("10 GΩ", "1.5 nF"), ("2 Hz", "500 Hz"), (0.0, 3.3), "[3.3]"), true),
+        (
+            "piezo film, AC, one supply",
+            high_impedance("ac single", -0.5, 0.5, "ac", ("10 GΩ", "1.5 nF"), ("2 Hz", "500 Hz"), (0.0, 3.3), "[3.3]"),
+            true,
+        ),
         // Split rails: R_b and the return to ground, no divider.
-        ("piezo film, AC, split rails", high_impedance("ac dual", -0.5, 0.5, "ac", ("10 GΩ", "1.5 nF"), ("2 Hz", "500 Hz"), (-2.0, 2.0), "[5, -5]"), false),
+        (
+            "piezo film, AC, split rails",
+            high_impedance("ac dual", -0.5, 0.5, "ac", ("10 GΩ", "1.5 nF"), ("2 Hz", "500 Hz"), (-2.0, 2.0), "[5, -5]"),
+            false,
+        ),
     ];
     for (what, json, lifted) in &rows {
         let (req, c, _) = designed(json);
@@ -831,7 +1008,11 @@ fn check_photodiode(what: &str, req: &Request, c: &Circuit, s: &Schematic, dark:
     // Design contract (synth::front::transimpedance::insert): U1 is the transimpedance amplifier, − input at
     // the sensor terminal, output `tia`, + input at `pdb` (one supply) or ground (split rails).
     let u1 = c.parts.iter().find(|p| p.reference == "U1").unwrap_or_else(|| panic!("{what}: no U1"));
-    assert_eq!((u1.kind, u1.stage), (PartKind::OpAmp, StageRole::Transimpedance), "{what}: U1 is not the transimpedance stage");
+    assert_eq!(
+        (u1.kind, u1.stage),
+        (PartKind::OpAmp, StageRole::Transimpedance),
+        "{what}: U1 is not the transimpedance stage"
+    );
     assert_eq!((u1.nodes[1].as_str(), u1.nodes[4].as_str()), ("sense", "tia"), "{what}: U1's − input or output");
     assert_eq!(u1.nodes[0] == "pdb", biased, "{what}: U1's + input");
     placed_by_role(what, &doc, &words, c);
@@ -840,14 +1021,19 @@ fn check_photodiode(what: &str, req: &Request, c: &Circuit, s: &Schematic, dark:
     // practice: designator and the requirement on it).
     let g = group("U1").unwrap_or_else(|| panic!("{what}: U1 not drawn"));
     assert!(is_triangle(g), "{what}: U1 has no triangle");
-    assert!(words.iter().any(|w| w == "U1") && words.iter().filter(|w| w.starts_with("GBW ≥")).count() >= 2, "{what}: U1 unlabelled");
+    assert!(
+        words.iter().any(|w| w == "U1") && words.iter().filter(|w| w.starts_with("GBW ≥")).count() >= 2,
+        "{what}: U1 unlabelled"
+    );
     // Design contract: the bench's sensor model is ISENSE (and IDARK with a dark current)
     // and CSENSE; drawn inside the dashed sensor box (the bench shown apart from what is
     // built, common practice). IEC 60617: a current source is a circle with the arrow beside
     // it, which lies outside the circle but inside the box.
     let bx = doc.descendants().find(|n| n.attribute("stroke-dasharray").is_some()).expect("sensor box");
     let corners = group_points(bx).into_iter();
-    let (x0, x1, y0, y1) = corners.fold((f64::MAX, f64::MIN, f64::MAX, f64::MIN), |(a, b, c, d), (x, y)| (a.min(x), b.max(x), c.min(y), d.max(y)));
+    let (x0, x1, y0, y1) = corners.fold((f64::MAX, f64::MIN, f64::MAX, f64::MIN), |(a, b, c, d), (x, y)| {
+        (a.min(x), b.max(x), c.min(y), d.max(y))
+    });
     let mut inside = vec!["ISENSE", "CSENSE"];
     if dark {
         inside.push("IDARK");
@@ -856,11 +1042,17 @@ fn check_photodiode(what: &str, req: &Request, c: &Circuit, s: &Schematic, dark:
     for r in inside {
         let g = group(r).unwrap_or_else(|| panic!("{what}: {r} not drawn"));
         for (x, y) in group_points(g) {
-            assert!((x0 - 0.5..=x1 + 0.5).contains(&x) && (y0 - 0.5..=y1 + 0.5).contains(&y), "{what}: {r} outside the sensor box at ({x}, {y})");
+            assert!(
+                (x0 - 0.5..=x1 + 0.5).contains(&x) && (y0 - 0.5..=y1 + 0.5).contains(&y),
+                "{what}: {r} outside the sensor box at ({x}, {y})"
+            );
         }
     }
     // Design contract: no VSENSE or RSENSE in a photodiode's bench.
-    assert!(!c.parts.iter().any(|p| p.reference == "VSENSE" || p.reference == "RSENSE"), "{what}: a voltage sensor model");
+    assert!(
+        !c.parts.iter().any(|p| p.reference == "VSENSE" || p.reference == "RSENSE"),
+        "{what}: a voltage sensor model"
+    );
     // Continuation: U1's output leaves its row in a flag and the gain row starts from one
     // (two flags holding "tia").
     let flags = doc.descendants().filter(|n| n.has_tag_name("text") && n.text() == Some("tia")).count();
@@ -913,7 +1105,11 @@ fn check_differential(what: &str, req: &Request, c: &Circuit, s: &Schematic, fol
     let mut amps = vec!["U1"];
     if follower {
         let u2 = c.parts.iter().find(|p| p.reference == "U2").unwrap_or_else(|| panic!("{what}: no U2"));
-        assert_eq!((u2.stage, u2.nodes[1].as_str(), u2.nodes[4].as_str()), (StageRole::Reference, "ref", "ref"), "{what}: U2 is not the reference follower");
+        assert_eq!(
+            (u2.stage, u2.nodes[1].as_str(), u2.nodes[4].as_str()),
+            (StageRole::Reference, "ref", "ref"),
+            "{what}: U2 is not the reference follower"
+        );
         amps.push("U2");
     }
     for u in &amps {
@@ -922,22 +1118,35 @@ fn check_differential(what: &str, req: &Request, c: &Circuit, s: &Schematic, fol
         assert!(words.iter().any(|w| w == u), "{what}: {u} unlabelled");
     }
     let amplifiers = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp).count();
-    assert!(words.iter().filter(|w| w.starts_with("GBW ≥")).count() >= amplifiers, "{what}: an amplifier without its GBW line");
+    assert!(
+        words.iter().filter(|w| w.starts_with("GBW ≥")).count() >= amplifiers,
+        "{what}: an amplifier without its GBW line"
+    );
     // Design contract: the bench's model of the pair is VSENSE between the legs, VCM from
     // the − leg to ground and a resistor in each leg; drawn inside the dashed sensor box
     // (the bench shown apart from what is built, common practice).
     let bx = doc.descendants().find(|n| n.attribute("stroke-dasharray").is_some()).expect("sensor box");
     let corners = group_points(bx).into_iter();
-    let (x0, x1, y0, y1) = corners.fold((f64::MAX, f64::MIN, f64::MAX, f64::MIN), |(a, b, c, d), (x, y)| (a.min(x), b.max(x), c.min(y), d.max(y)));
+    let (x0, x1, y0, y1) = corners.fold((f64::MAX, f64::MIN, f64::MAX, f64::MIN), |(a, b, c, d), (x, y)| {
+        (a.min(x), b.max(x), c.min(y), d.max(y))
+    });
     for r in ["VSENSE", "VCM", "RSENSEP", "RSENSEN"] {
         let g = group(r).unwrap_or_else(|| panic!("{what}: {r} not drawn"));
         for (x, y) in group_points(g) {
-            assert!((x0 - 0.5..=x1 + 0.5).contains(&x) && (y0 - 0.5..=y1 + 0.5).contains(&y), "{what}: {r} outside the sensor box at ({x}, {y})");
+            assert!(
+                (x0 - 0.5..=x1 + 0.5).contains(&x) && (y0 - 0.5..=y1 + 0.5).contains(&y),
+                "{what}: {r} outside the sensor box at ({x}, {y})"
+            );
         }
     }
     // The terminals are named in the drawing, the + leg's above the − leg's (as the bench
     // model puts them: sensep upper, sensen lower).
-    let at = |t: &str| doc.descendants().find(|n| n.has_tag_name("text") && n.text() == Some(t)).map(|n| num(&n, "y")).unwrap_or_else(|| panic!("{what}: no terminal {t}"));
+    let at = |t: &str| {
+        doc.descendants()
+            .find(|n| n.has_tag_name("text") && n.text() == Some(t))
+            .map(|n| num(&n, "y"))
+            .unwrap_or_else(|| panic!("{what}: no terminal {t}"))
+    };
     assert!(at("sensep") < at("sensen"), "{what}: sensep is not above sensen");
 }
 
@@ -967,7 +1176,9 @@ fn differential_front_ends_are_drawn_by_role() {
 
 /// A differential pair of our own with `front_end` set (`source.front_end`: auto,
 /// difference or instrumentation) on one supply into a 0 … 3.3 V converter.
-fn pair(name: &str, range: (&str, &str), common_mode: (f64, f64), impedance: &str, band_high: &str, supply: f64) -> String {
+fn pair(
+    name: &str, range: (&str, &str), common_mode: (f64, f64), impedance: &str, band_high: &str, supply: f64,
+) -> String {
     format!(
         r#"{{"version":1,"name":"{name}","source":{{"kind":"differential","min":"{}","max":"{}","common_mode_min":{},"common_mode_max":{},"impedance":"{impedance}","band_high":"{band_high}","front_end":"instrumentation"}},
         "destination":{{"min":0,"max":3.3,"bits":12,"sample_rate":"10 kHz"}},"supplies":[{supply}]}}"#,
@@ -992,18 +1203,35 @@ fn check_instrumentation(what: &str, req: &Request, c: &Circuit, s: &Schematic, 
     // − inputs; U3 is the difference amplifier, fed from `oa` and `ob`.
     let part = |r: &str| c.parts.iter().find(|p| p.reference == r).unwrap_or_else(|| panic!("{what}: no {r}"));
     let (u1, u2, u3) = (part("U1"), part("U2"), part("U3"));
-    assert_eq!((u1.stage, u2.stage, u3.stage), (StageRole::InputStage, StageRole::InputStage, StageRole::Gain), "{what}: U1, U2, U3 roles");
-    assert_eq!((u1.nodes[0].as_str(), u1.nodes[4].as_str(), u2.nodes[0].as_str(), u2.nodes[4].as_str()), ("ipp", "oa", "ipn", "ob"), "{what}: U1's and U2's nodes");
+    assert_eq!(
+        (u1.stage, u2.stage, u3.stage),
+        (StageRole::InputStage, StageRole::InputStage, StageRole::Gain),
+        "{what}: U1, U2, U3 roles"
+    );
+    assert_eq!(
+        (u1.nodes[0].as_str(), u1.nodes[4].as_str(), u2.nodes[0].as_str(), u2.nodes[4].as_str()),
+        ("ipp", "oa", "ipn", "ob"),
+        "{what}: U1's and U2's nodes"
+    );
     assert_eq!(u1.nodes[1] == u1.nodes[4] && u2.nodes[1] == u2.nodes[4], followers, "{what}: followers?");
-    let between = |a: &str, b: &str| c.parts.iter().find(|p| p.kind == PartKind::Resistor && p.nodes.iter().any(|n| n == a) && p.nodes.iter().any(|n| n == b));
-    assert!(between("sensep", "ipp").is_some() && between("sensen", "ipn").is_some(), "{what}: no protection resistor in a leg");
+    let between = |a: &str, b: &str| {
+        c.parts
+            .iter()
+            .find(|p| p.kind == PartKind::Resistor && p.nodes.iter().any(|n| n == a) && p.nodes.iter().any(|n| n == b))
+    };
+    assert!(
+        between("sensep", "ipp").is_some() && between("sensen", "ipn").is_some(),
+        "{what}: no protection resistor in a leg"
+    );
     assert!(between("oa", "inp1").is_some() || between("oa", "inn1").is_some(), "{what}: U3 not fed from oa");
     placed_by_role(what, &doc, &words, c);
     let group = |r: &str| part_group(&doc, r);
     // IEC 60617: an amplifier is a triangle; each labelled (common practice: designator).
     let span = |r: &str| {
         let pts = group_points(group(r).unwrap_or_else(|| panic!("{what}: {r} not drawn")));
-        pts.iter().fold((f64::MAX, f64::MIN, f64::MAX, f64::MIN), |(a, b, c, d), &(x, y)| (a.min(x), b.max(x), c.min(y), d.max(y)))
+        pts.iter().fold((f64::MAX, f64::MIN, f64::MAX, f64::MIN), |(a, b, c, d), &(x, y)| {
+            (a.min(x), b.max(x), c.min(y), d.max(y))
+        })
     };
     for u in ["U1", "U2", "U3"] {
         let g = group(u).unwrap();
@@ -1014,7 +1242,15 @@ fn check_instrumentation(what: &str, req: &Request, c: &Circuit, s: &Schematic, 
     // upright between them, each R_F lying between them too.
     let (a, b) = (span("U1"), span("U2"));
     assert!(a.3 < b.2 && (a.0 - b.0).abs() < 1e-6, "{what}: U1 {a:?} is not straight above U2 {b:?}");
-    let gain: Vec<&rangefit_engine::circuit::Part> = c.parts.iter().filter(|p| p.stage == StageRole::InputStage && p.kind == PartKind::Resistor && !p.nodes.iter().any(|n| n.starts_with("sense"))).collect();
+    let gain: Vec<&rangefit_engine::circuit::Part> = c
+        .parts
+        .iter()
+        .filter(|p| {
+            p.stage == StageRole::InputStage
+                && p.kind == PartKind::Resistor
+                && !p.nodes.iter().any(|n| n.starts_with("sense"))
+        })
+        .collect();
     assert_eq!(gain.len(), if followers { 0 } else { 3 }, "{what}: R_F, R_G, R_F");
     for p in gain {
         let r = span(&p.reference);
@@ -1031,7 +1267,8 @@ fn check_instrumentation(what: &str, req: &Request, c: &Circuit, s: &Schematic, 
         assert_eq!(flags, 2, "{what}: {flags} flags for {net}");
     }
     // The caption: the circuit model's own description of the stage, its first line.
-    let stage = c.stages.iter().find(|st| st.role == StageRole::InputStage).unwrap_or_else(|| panic!("{what}: no input stage"));
+    let stage =
+        c.stages.iter().find(|st| st.role == StageRole::InputStage).unwrap_or_else(|| panic!("{what}: no input stage"));
     let head = stage.description.split([',', ':']).next().unwrap_or("");
     assert!(!head.is_empty() && words.iter().any(|w| w == head), "{what}: no caption {head:?}");
 }
@@ -1045,7 +1282,11 @@ fn instrumentation_front_ends_are_drawn_by_role() {
         ("beehive scale, bridge", beehive.to_string(), false),
         // A soil-moisture probe's pair, ±40 mV on a 1.1 … 1.5 V common mode: a gain of about
         // 40 wanted, of which the first stage's outputs can swing most.
-        ("soil-moisture probe pair", pair("Soil-moisture probe pair", ("-40 mV", "40 mV"), (1.1, 1.5), "2k", "5 Hz", 3.3), false),
+        (
+            "soil-moisture probe pair",
+            pair("Soil-moisture probe pair", ("-40 mV", "40 mV"), (1.1, 1.5), "2k", "5 Hz", 3.3),
+            false,
+        ),
         // ±2 V about 2.5 V into 3.3 V wants a gain below one, so the first stage stays at
         // unity: two followers, no R_F or R_G (synth::front::instrumentation::plan).
         ("valve coil sense, followers", pair("Valve coil sense", ("-2", "2"), (2.4, 2.6), "500", "200 Hz", 5.0), true),
@@ -1066,15 +1307,19 @@ fn random_instrumentation_front_ends_draw_cleanly() {
     let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(31);
     let mut drawn = 0;
     for i in 0..8 {
-        let (supplies, dmin, dmax) = [("[5]", 0.0, 3.3), ("[12, -12]", -5.0, 5.0), ("[3.3]", 0.0, 2.5)][rng.random_range(0..3)];
+        let (supplies, dmin, dmax) =
+            [("[5]", 0.0, 3.3), ("[12, -12]", -5.0, 5.0), ("[3.3]", 0.0, 2.5)][rng.random_range(0..3)];
         let keep = rng.random_bool(0.5);
         let json = if i % 2 == 0 {
             let half = 10f64.powf(rng.random_range(-2.5..-0.5));
-            let cm: f64 = if supplies == "[12, -12]" { rng.random_range(-2.0..2.0) } else { rng.random_range(1.0..1.5) };
+            let cm: f64 =
+                if supplies == "[12, -12]" { rng.random_range(-2.0..2.0) } else { rng.random_range(1.0..1.5) };
             format!(
                 r#"{{"version":1,"name":"Random in-amp pair {i}","source":{{"kind":"differential","min":{:.6},"max":{half:.6},"common_mode_min":{:.3},"common_mode_max":{:.3},"impedance":"1k","band_high":"20 Hz","front_end":"instrumentation"}},
                 "destination":{{"min":{dmin},"max":{dmax},"bits":12,"sample_rate":"1 kHz"}},"supplies":{supplies},"keep_polarity":{keep}}}"#,
-                -half, cm - 0.1, cm + 0.1
+                -half,
+                cm - 0.1,
+                cm + 0.1
             )
         } else {
             let arms = [1, 2, 4][rng.random_range(0..3)];

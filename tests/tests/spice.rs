@@ -55,10 +55,8 @@ fn parse_prints(stdout: &str) -> Vec<Printed> {
         .filter_map(|line| {
             let (lhs, rhs) = line.split_once('=')?;
             let name = lhs.trim().to_ascii_lowercase();
-            let is_vector = !name.is_empty()
-                && !name.contains(char::is_whitespace)
-                && name.contains('(')
-                && name.ends_with(')');
+            let is_vector =
+                !name.is_empty() && !name.contains(char::is_whitespace) && name.contains('(') && name.ends_with(')');
             if !is_vector {
                 return None;
             }
@@ -80,16 +78,9 @@ fn sp(x: f64) -> String {
 /// message), which is why [`ngspice`] also insists on exactly the values it asked for.
 fn deck(netlist: &str, control: &[String]) -> String {
     let body = netlist.trim_end();
-    assert_eq!(
-        body.lines().last(),
-        Some(".end"),
-        "the netlist must end with .end:\n{netlist}"
-    );
+    assert_eq!(body.lines().last(), Some(".end"), "the netlist must end with .end:\n{netlist}");
     let body = &body[..body.len() - ".end".len()];
-    format!(
-        "{body}.control\n{}\nquit\n.endc\n.end\n",
-        control.join("\n")
-    )
+    format!("{body}.control\n{}\nquit\n.endc\n.end\n", control.join("\n"))
 }
 
 /// Runs `deck` with `ngspice -b` (the shared runner in the tests crate's library).
@@ -101,13 +92,13 @@ fn run_ngspice(tag: &str, deck: &str) -> (bool, String, String) {
 /// `expect`, in that order.
 fn ngspice(tag: &str, deck: &str, expect: &[&str]) -> Vec<f64> {
     let (ok, stdout, stderr) = run_ngspice(tag, deck);
-    assert!(
-        ok,
-        "[{tag}] ngspice failed:\n{stderr}\n{stdout}\n--- deck ---\n{deck}"
-    );
+    assert!(ok, "[{tag}] ngspice failed:\n{stderr}\n{stdout}\n--- deck ---\n{deck}");
     let got = parse_prints(&stdout);
     let names: Vec<&str> = got.iter().map(|p| p.name.as_str()).collect();
-    assert_eq!(names, expect, "[{tag}] ngspice printed other values than asked for:\n{stdout}\n{stderr}\n--- deck ---\n{deck}");
+    assert_eq!(
+        names, expect,
+        "[{tag}] ngspice printed other values than asked for:\n{stdout}\n{stderr}\n--- deck ---\n{deck}"
+    );
     got.into_iter().map(|p| p.value).collect()
 }
 
@@ -261,8 +252,7 @@ const CASES: &[Case] = &[
 ];
 
 fn read(case: &Case) -> Request {
-    Request::from_json(case.json)
-        .unwrap_or_else(|e| panic!("[{}] request does not read: {e}", case.name))
+    Request::from_json(case.json).unwrap_or_else(|e| panic!("[{}] request does not read: {e}", case.name))
 }
 
 // ---------------------------------------------------------------------------------------
@@ -303,10 +293,7 @@ fn check(case: &Case) -> Result<Measured, Vec<String>> {
     let dst = &req.destination;
     let span = dst.max - dst.min;
     let (want_lo, want_hi) = (dst.min + dst.headroom * span, dst.max - dst.headroom * span);
-    let (lo, hi) = (
-        p.output_at_min.min(p.output_at_max),
-        p.output_at_min.max(p.output_at_max),
-    );
+    let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
     let slack = rangefit_engine::synth::HEADROOM_SLACK * span;
     if lo < want_lo - slack || hi > want_hi + slack {
         problems.push(format!(
@@ -381,11 +368,7 @@ fn check(case: &Case) -> Result<Measured, Vec<String>> {
                 format!("ac lin 1 {} {}", sp(f), sp(f)),
                 "print vr(adc) vi(adc)".to_string(),
             ];
-            let v = ngspice(
-                case.name,
-                &deck(&net, &control),
-                &["v(adc)", "vr(adc)", "vi(adc)"],
-            );
+            let v = ngspice(case.name, &deck(&net, &control), &["v(adc)", "vr(adc)", "vi(adc)"]);
             let (level, re, im) = (v[0], v[1], v[2]);
             m.mapping = (level - p.offset).abs() / span;
             if m.mapping > SPAN_TOL {
@@ -407,7 +390,10 @@ fn check(case: &Case) -> Result<Measured, Vec<String>> {
                 ));
             }
             if re.signum() != p.gain.signum() {
-                problems.push(format!("mid-band polarity differs: ngspice H = {re:.6} + j{im:.6}, predicted gain {:.6}", p.gain));
+                problems.push(format!(
+                    "mid-band polarity differs: ngspice H = {re:.6} + j{im:.6}, predicted gain {:.6}",
+                    p.gain
+                ));
             }
         }
     }
@@ -425,25 +411,14 @@ fn check_all(cases: &[Case]) -> Vec<(String, Measured)> {
     for case in cases {
         match check(case) {
             Ok(m) => {
-                println!(
-                    "{:<45} mapping {:.5} % of span, gain {:.5} %",
-                    case.name,
-                    m.mapping * 100.0,
-                    m.gain * 100.0
-                );
+                println!("{:<45} mapping {:.5} % of span, gain {:.5} %", case.name, m.mapping * 100.0, m.gain * 100.0);
                 measured.push((case.name.to_string(), m));
             }
             Err(p) => failures.push(format!("[{}]\n    {}", case.name, p.join("\n    "))),
         }
     }
-    if let Some((name, m)) = measured
-        .iter()
-        .max_by(|a, b| a.1.mapping.total_cmp(&b.1.mapping))
-    {
-        println!(
-            "worst mapping deviation: {:.5} % of span ({name})",
-            m.mapping * 100.0
-        );
+    if let Some((name, m)) = measured.iter().max_by(|a, b| a.1.mapping.total_cmp(&b.1.mapping)) {
+        println!("worst mapping deviation: {:.5} % of span ({name})", m.mapping * 100.0);
     }
     if let Some((name, m)) = measured.iter().max_by(|a, b| a.1.gain.total_cmp(&b.1.gain)) {
         println!("worst gain deviation: {:.5} % ({name})", m.gain * 100.0);
@@ -468,62 +443,32 @@ fn designs_match_ngspice() {
 /// and gain, offsets of both signs, single and dual rails, and the three series.
 #[test]
 fn case_table_covers_the_variety() {
-    let designs: Vec<(Request, Design)> =
-        CASES.iter().map(|c| (read(c), design(&read(c)))).collect();
-    let pred = |d: &Design| {
-        d.predicted
-            .unwrap_or_else(|| panic!("[{}] no prediction", d.name))
-    };
+    let designs: Vec<(Request, Design)> = CASES.iter().map(|c| (read(c), design(&read(c)))).collect();
+    let pred = |d: &Design| d.predicted.unwrap_or_else(|| panic!("[{}] no prediction", d.name));
     let any = |what: &str, f: &dyn Fn(&Request, &Design) -> bool| {
-        assert!(
-            designs.iter().any(|(r, d)| f(r, d)),
-            "no request in CASES covers: {what}"
-        );
+        assert!(designs.iter().any(|(r, d)| f(r, d)), "no request in CASES covers: {what}");
     };
     any("DC coupling", &|r, _| r.source.coupling == Coupling::Dc);
     any("AC coupling", &|r, _| r.source.coupling == Coupling::Ac);
 
-    any("attenuation, DC", &|r, d| {
-        r.source.coupling == Coupling::Dc && pred(d).gain.abs() < 1.0
-    });
-    any("attenuation, AC", &|r, d| {
-        r.source.coupling == Coupling::Ac && pred(d).gain.abs() < 1.0
-    });
+    any("attenuation, DC", &|r, d| r.source.coupling == Coupling::Dc && pred(d).gain.abs() < 1.0);
+    any("attenuation, AC", &|r, d| r.source.coupling == Coupling::Ac && pred(d).gain.abs() < 1.0);
     any("gain above 50", &|_, d| pred(d).gain.abs() > 50.0);
     any("negative DC intercept on one rail", &|r, d| {
         r.source.coupling == Coupling::Dc && r.supplies.len() == 1 && pred(d).offset < 0.0
     });
-    any("positive DC intercept", &|r, d| {
-        r.source.coupling == Coupling::Dc && pred(d).offset > 0.0
+    any("positive DC intercept", &|r, d| r.source.coupling == Coupling::Dc && pred(d).offset > 0.0);
+    any("bipolar sensor into a unipolar input on one 5 V rail", &|r, _| {
+        r.supplies == [5.0] && r.source.min < 0.0 && r.source.max > 0.0 && r.destination.min >= 0.0
     });
-    any(
-        "bipolar sensor into a unipolar input on one 5 V rail",
-        &|r, _| {
-            r.supplies == [5.0]
-                && r.source.min < 0.0
-                && r.source.max > 0.0
-                && r.destination.min >= 0.0
-        },
-    );
-    any(
-        "unipolar sensor into a bipolar input on dual rails",
-        &|r, _| {
-            r.supplies.iter().any(|&v| v < 0.0) && r.source.min >= 0.0 && r.destination.min < 0.0
-        },
-    );
-    for rails in [
-        &[3.3][..],
-        &[5.0],
-        &[5.0, -5.0],
-        &[12.0, -12.0],
-        &[15.0, -15.0],
-    ] {
+    any("unipolar sensor into a bipolar input on dual rails", &|r, _| {
+        r.supplies.iter().any(|&v| v < 0.0) && r.source.min >= 0.0 && r.destination.min < 0.0
+    });
+    for rails in [&[3.3][..], &[5.0], &[5.0, -5.0], &[12.0, -12.0], &[15.0, -15.0]] {
         any(&format!("supplies {rails:?}"), &|r, _| r.supplies == rails);
     }
     for series in ["E12", "E24", "E96"] {
-        any(&format!("resistor series {series}"), &|r, _| {
-            r.parts.resistor_series.name() == series
-        });
+        any(&format!("resistor series {series}"), &|r, _| r.parts.resistor_series.name() == series);
     }
     any("a 0 Ω sensor", &|r, _| r.source.impedance == 0.0);
     any("a 10 kΩ sensor", &|r, _| r.source.impedance == 10e3);
@@ -564,14 +509,8 @@ fn designs_near_the_swing_limit_match_ngspice() {
 
 /// Requests swept 20 % past their source range, far enough that the amplifier clips.
 const CLIPPING: &[Case] = &[
-    Case {
-        name: "greenhouse light logger (clipping)",
-        json: CASES[0].json,
-    },
-    Case {
-        name: "river-gauge pressure cell (clipping)",
-        json: CASES[2].json,
-    },
+    Case { name: "greenhouse light logger (clipping)", json: CASES[0].json },
+    Case { name: "river-gauge pressure cell (clipping)", json: CASES[2].json },
     // ±10 V into a ±10 V input on ±12 V rails, polarity free: clips near both rails.
     Case {
         name: "sawmill blade-vibration monitor",
@@ -591,26 +530,17 @@ const SWEEP_POINTS: usize = 29;
 fn check_clamp(case: &Case) -> f64 {
     let req = read(case);
     let d = design(&req);
-    let circuit = d
-        .circuit
-        .as_ref()
-        .unwrap_or_else(|| panic!("[{}] no circuit: {:?}", case.name, d.checks));
+    let circuit = d.circuit.as_ref().unwrap_or_else(|| panic!("[{}] no circuit: {:?}", case.name, d.checks));
     let s = &req.source;
     let w = s.max - s.min;
-    let xs: Vec<f64> = (0..SWEEP_POINTS)
-        .map(|i| s.min - 0.2 * w + 1.4 * w * i as f64 / (SWEEP_POINTS - 1) as f64)
-        .collect();
+    let xs: Vec<f64> =
+        (0..SWEEP_POINTS).map(|i| s.min - 0.2 * w + 1.4 * w * i as f64 / (SWEEP_POINTS - 1) as f64).collect();
     let solver = Solver::new(circuit);
     let engine: Vec<(f64, bool)> = xs
         .iter()
         .map(|&x| {
-            let sol = solver
-                .dc(x)
-                .unwrap_or_else(|e| panic!("[{}] solver failed at {x} V: {e}", case.name));
-            (
-                sol.voltage("adc").expect("node adc"),
-                !sol.clamped.is_empty(),
-            )
+            let sol = solver.dc(x).unwrap_or_else(|e| panic!("[{}] solver failed at {x} V: {e}", case.name));
+            (sol.voltage("adc").expect("node adc"), !sol.clamped.is_empty())
         })
         .collect();
     assert!(
@@ -628,11 +558,7 @@ fn check_clamp(case: &Case) -> f64 {
         control.push("print v(adc)".to_string());
     }
     let net = netlist(&req, circuit, NetlistConfig { testbench: false });
-    let spice = ngspice(
-        case.name,
-        &deck(&net, &control),
-        &vec!["v(adc)"; SWEEP_POINTS],
-    );
+    let spice = ngspice(case.name, &deck(&net, &control), &vec!["v(adc)"; SWEEP_POINTS]);
     let mut worst = (0.0f64, 0.0f64);
     let mut rows = Vec::new();
     for ((&x, &(e, clamped)), &v) in xs.iter().zip(&engine).zip(&spice) {
@@ -661,11 +587,7 @@ fn check_clamp(case: &Case) -> f64 {
 fn clamp_beyond_the_source_range_matches_ngspice() {
     for case in CLIPPING {
         let worst = check_clamp(case);
-        println!(
-            "{:<45} worst solver/ngspice difference {:.3} mV",
-            case.name,
-            worst * 1e3
-        );
+        println!("{:<45} worst solver/ngspice difference {:.3} mV", case.name, worst * 1e3);
     }
 }
 
@@ -709,24 +631,15 @@ fn check_testbench(case: &Case) -> Result<(), Vec<String>> {
             }
             match s.coupling {
                 Coupling::Dc => {
-                    for (row, want, at) in [
-                        (first, p.output_at_min, s.min),
-                        (last, p.output_at_max, s.max),
-                    ] {
+                    for (row, want, at) in [(first, p.output_at_min, s.min), (last, p.output_at_max, s.max)] {
                         if (row[1] - want).abs() > SPAN_TOL * span {
-                            problems.push(format!(
-                                "DC sweep gives {:.6} V at {at} V, predicted {want:.6} V",
-                                row[1]
-                            ));
+                            problems.push(format!("DC sweep gives {:.6} V at {at} V, predicted {want:.6} V", row[1]));
                         }
                     }
                 }
                 // The coupling capacitor blocks the sweep: the output stays at its DC level.
                 Coupling::Ac => {
-                    if let Some(row) = rows
-                        .iter()
-                        .find(|r| (r[1] - p.offset).abs() > SPAN_TOL * span)
-                    {
+                    if let Some(row) = rows.iter().find(|r| (r[1] - p.offset).abs() > SPAN_TOL * span) {
                         problems.push(format!(
                             "DC sweep moves the AC-coupled output: {:.6} V at {} V, level {:.6} V",
                             row[1], row[0], p.offset
@@ -747,9 +660,7 @@ fn check_testbench(case: &Case) -> Result<(), Vec<String>> {
                 Coupling::Ac => rows.iter().map(|r| r[1]).fold(f64::NEG_INFINITY, f64::max),
             };
             if (got - want).abs() > GAIN_TOL_DB {
-                problems.push(format!(
-                    "AC sweep gives {got:.4} dB, predicted gain is {want:.4} dB"
-                ));
+                problems.push(format!("AC sweep gives {got:.4} dB, predicted gain is {want:.4} dB"));
             }
         }
         Some(rows) => problems.push(format!("AC sweep has only {} rows", rows.len())),
@@ -766,11 +677,7 @@ fn check_testbench(case: &Case) -> Result<(), Vec<String>> {
 fn testbench_netlists_run_in_ngspice() {
     let failures: Vec<String> = CASES
         .iter()
-        .filter_map(|c| {
-            check_testbench(c)
-                .err()
-                .map(|p| format!("[{}]\n    {}", c.name, p.join("\n    ")))
-        })
+        .filter_map(|c| check_testbench(c).err().map(|p| format!("[{}]\n    {}", c.name, p.join("\n    "))))
         .collect();
     assert!(
         failures.is_empty(),
@@ -791,11 +698,7 @@ fn parse_prints_reads_ngspice_lines() {
                No. of Data Rows : 1\nv(adc) = 1.677644e-01\nvr(adc) = 7.416784e-01\nvi(adc) = -7.87312e-06\n\
                ngspice-39 done\n";
     let got = parse_prints(out);
-    let want = [
-        ("v(adc)", 1.677644e-01),
-        ("vr(adc)", 7.416784e-01),
-        ("vi(adc)", -7.87312e-06),
-    ];
+    let want = [("v(adc)", 1.677644e-01), ("vr(adc)", 7.416784e-01), ("vi(adc)", -7.87312e-06)];
     assert_eq!(got.len(), want.len(), "{got:?}");
     for (g, (n, v)) in got.iter().zip(want) {
         assert_eq!(g.name, n);
@@ -817,14 +720,7 @@ fn parse_tables_reads_paged_ngspice_tables() {
                Index   frequency       vdb(adc)        vp(adc)         \n\
                0\t1.000000e-01\t-6.37526e+00\t-3.33330e-08\t\n";
     let t = parse_tables(out);
-    assert_eq!(
-        t["v-sweep"],
-        vec![
-            vec![-10.0, -4.79995],
-            vec![-9.8, -4.70395],
-            vec![-9.6, -4.60796]
-        ]
-    );
+    assert_eq!(t["v-sweep"], vec![vec![-10.0, -4.79995], vec![-9.8, -4.70395], vec![-9.6, -4.60796]]);
     assert_eq!(t["frequency"], vec![vec![0.1, -6.37526, -3.33330e-08]]);
 }
 
@@ -839,13 +735,29 @@ struct TemplateCase {
 
 const TEMPLATE_CASES: &[TemplateCase] = &[
     // A cellar humidity probe, 0.8–2.4 V, into 0–3.3 V on one rail (m > 0, b < 0).
-    TemplateCase { name: "cellar humidity", template: rangefit_engine::synth::dc::Template::NonInvertingMinus, json: r#"{"source": {"min": 0.8, "max": 2.4, "impedance": 220, "band_high": 5}, "destination": {"min": 0, "max": 3.3, "sample_rate": 100}, "supplies": [3.3]}"# },
+    TemplateCase {
+        name: "cellar humidity",
+        template: rangefit_engine::synth::dc::Template::NonInvertingMinus,
+        json: r#"{"source": {"min": 0.8, "max": 2.4, "impedance": 220, "band_high": 5}, "destination": {"min": 0, "max": 3.3, "sample_rate": 100}, "supplies": [3.3]}"#,
+    },
     // A kiln-door position pot, 0–1 V, read upside down into 0–5 V (m < 0, b > 0).
-    TemplateCase { name: "kiln door", template: rangefit_engine::synth::dc::Template::InvertingPlus, json: r#"{"source": {"min": 0, "max": 1, "band_high": 20}, "destination": {"min": 0, "max": 5, "sample_rate": 1000}, "supplies": [5], "keep_polarity": false}"# },
+    TemplateCase {
+        name: "kiln door",
+        template: rangefit_engine::synth::dc::Template::InvertingPlus,
+        json: r#"{"source": {"min": 0, "max": 1, "band_high": 20}, "destination": {"min": 0, "max": 5, "sample_rate": 1000}, "supplies": [5], "keep_polarity": false}"#,
+    },
     // A buoy inclinometer, −3…−1 V, into 0–3.3 V on one rail (m < 0, b < 0).
-    TemplateCase { name: "buoy inclinometer", template: rangefit_engine::synth::dc::Template::InvertingSum, json: r#"{"source": {"min": -3, "max": -1, "impedance": 1000, "band_high": 10}, "destination": {"min": 0, "max": 3.3, "sample_rate": 200}, "supplies": [3.3], "keep_polarity": false, "parts": {"resistor_series": "E96"}}"# },
+    TemplateCase {
+        name: "buoy inclinometer",
+        template: rangefit_engine::synth::dc::Template::InvertingSum,
+        json: r#"{"source": {"min": -3, "max": -1, "impedance": 1000, "band_high": 10}, "destination": {"min": 0, "max": 3.3, "sample_rate": 200}, "supplies": [3.3], "keep_polarity": false, "parts": {"resistor_series": "E96"}}"#,
+    },
     // A compost-heap probe, ±1 V, into ±5 V on ±12 V rails (m < 0, b = 0).
-    TemplateCase { name: "compost probe", template: rangefit_engine::synth::dc::Template::InvertingPlus, json: r#"{"source": {"min": -1, "max": 1, "band_high": 10}, "destination": {"min": -5, "max": 5, "sample_rate": 200}, "supplies": [12, -12], "keep_polarity": false}"# },
+    TemplateCase {
+        name: "compost probe",
+        template: rangefit_engine::synth::dc::Template::InvertingPlus,
+        json: r#"{"source": {"min": -1, "max": 1, "band_high": 10}, "destination": {"min": -5, "max": 5, "sample_rate": 200}, "supplies": [12, -12], "keep_polarity": false}"#,
+    },
 ];
 
 #[test]
@@ -920,7 +832,10 @@ fn analyses_match_ngspice_across_sweeps() {
             let dphase = (h.arg() - row[2]).to_degrees();
             let dphase = (dphase + 180.0).rem_euclid(360.0) - 180.0;
             if (db - row[1]).abs() > 0.1 || dphase.abs() > 1.0 {
-                problems.push(format!("[{}] at {} Hz: engine {db:.4} dB, ngspice {:.4} dB, phase difference {dphase:.3}°", case.name, row[0], row[1]));
+                problems.push(format!(
+                    "[{}] at {} Hz: engine {db:.4} dB, ngspice {:.4} dB, phase difference {dphase:.3}°",
+                    case.name, row[0], row[1]
+                ));
                 break;
             }
         }

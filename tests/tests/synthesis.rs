@@ -73,7 +73,13 @@ struct Case {
 fn check(case: Case) {
     let got = (case.measure)(&case.circuit);
     let err = (got / case.expected - 1.0).abs();
-    assert!(err <= case.rel_tol, "{}: got {got}, expected {} (relative error {err:.2e} > {:.0e})", case.name, case.expected, case.rel_tol);
+    assert!(
+        err <= case.rel_tol,
+        "{}: got {got}, expected {} (relative error {err:.2e} > {:.0e})",
+        case.name,
+        case.expected,
+        case.rel_tol
+    );
 }
 
 fn dc_gain(c: &Circuit) -> f64 {
@@ -203,13 +209,7 @@ fn solver_matches_closed_form_circuits() {
         // Multiple-feedback low-pass (R1 in→A, R2 A→out, R3 A→−in, C_g A→gnd, C_f out→−in):
         // 10k,10k,10k,10 nF,1 nF → gain −1, f_n 5032.92 Hz, Q 1.05409 (references.md);
         // a second-order low-pass has |H(f_n)| = Q·|H(0)|.
-        Case {
-            name: "MFB DC gain",
-            circuit: mfb(ideal.clone()),
-            measure: dc_gain,
-            expected: -1.0,
-            rel_tol: 1e-6,
-        },
+        Case { name: "MFB DC gain", circuit: mfb(ideal.clone()), measure: dc_gain, expected: -1.0, rel_tol: 1e-6 },
         Case {
             name: "MFB |H(f_n)| = Q",
             circuit: mfb(ideal.clone()),
@@ -288,7 +288,15 @@ fn solver_matches_naive_reference_on_seeded_ladders() {
         resistors.push((1, n, 10f64.powf(2.0 + 4.0 * rnd())));
         let volts = 10.0 * rnd() - 5.0;
         let reference = naive_nodal(n, &resistors, 1, volts);
-        let name = |k: usize| if k == 0 { "0".to_string() } else if k == 1 { "emf".to_string() } else { format!("n{k}") };
+        let name = |k: usize| {
+            if k == 0 {
+                "0".to_string()
+            } else if k == 1 {
+                "emf".to_string()
+            } else {
+                format!("n{k}")
+            }
+        };
         let mut b = Builder::default();
         b.bench("VSENSE", PartKind::VoltageSource, 0.0, &["emf", "0"], StageRole::Sensor, "");
         for (p, q, r) in &resistors {
@@ -325,7 +333,8 @@ fn facts_of_the_trade() {
     assert!((p.offset - 2.5).abs() < 0.025, "DC level {}", p.offset);
     // Two equal resistors from 5 V give a 2.5 V mid-supply reference (common practice): the
     // reference divider of that design has equal legs.
-    let legs: Vec<f64> = d.parts.iter().filter(|r| r.purpose.starts_with("reference divider")).map(|r| r.value).collect();
+    let legs: Vec<f64> =
+        d.parts.iter().filter(|r| r.purpose.starts_with("reference divider")).map(|r| r.value).collect();
     assert_eq!(legs.len(), 2, "{:?}", d.parts);
     assert_eq!(legs[0], legs[1]);
     // and the best E24 divider for one half is two equal values (common practice).
@@ -353,7 +362,8 @@ fn check_sign_case(case: &SignCase) {
     let amp = Amplifier::resolve(&req.amplifier, rails);
     let mut notes = Vec::new();
     let t = synth::target(&req, &amp, rails, &mut notes).expect("target");
-    let s = synth::dc::synthesize_with(&req, &amp, rails, t, Limits::of(&amp, rails), &[case.template]).unwrap_or_else(|| panic!("{}: no design", case.name));
+    let s = synth::dc::synthesize_with(&req, &amp, rails, t, Limits::of(&amp, rails), &[case.template])
+        .unwrap_or_else(|| panic!("{}: no design", case.name));
     let p = rangefit_engine::design::predict(&req, &s.circuit).unwrap();
     let span = req.destination.max - req.destination.min;
     let (want_min, want_max) = if case.template.inverting() { (t.at_max, t.at_min) } else { (t.at_min, t.at_max) };
@@ -372,13 +382,29 @@ fn check_sign_case(case: &SignCase) {
 fn four_sign_cases_of_gain_and_offset() {
     let cases = [
         // m > 0, b > 0: 0.1–1.1 V into 0.5–4.5 V (m = 4, b = +0.1 V).
-        SignCase { name: "m>0 b>0", template: Template::NonInvertingPlus, json: r#"{"source": {"min": 0.1, "max": 1.1, "band_high": 100}, "destination": {"min": 0, "max": 5, "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "parts": {"resistor_series": "E96"}}"# },
+        SignCase {
+            name: "m>0 b>0",
+            template: Template::NonInvertingPlus,
+            json: r#"{"source": {"min": 0.1, "max": 1.1, "band_high": 100}, "destination": {"min": 0, "max": 5, "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "parts": {"resistor_series": "E96"}}"#,
+        },
         // m > 0, b < 0: 1–2 V into 0.5–4.5 V (m = 4, b = −3.5 V).
-        SignCase { name: "m>0 b<0", template: Template::NonInvertingMinus, json: r#"{"source": {"min": 1, "max": 2, "band_high": 100}, "destination": {"min": 0, "max": 5, "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "parts": {"resistor_series": "E96"}}"# },
+        SignCase {
+            name: "m>0 b<0",
+            template: Template::NonInvertingMinus,
+            json: r#"{"source": {"min": 1, "max": 2, "band_high": 100}, "destination": {"min": 0, "max": 5, "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "parts": {"resistor_series": "E96"}}"#,
+        },
         // m < 0, b > 0: 0–1 V into 4.5–0.5 V (m = −4, b = +4.5 V).
-        SignCase { name: "m<0 b>0", template: Template::InvertingPlus, json: r#"{"source": {"min": 0, "max": 1, "band_high": 100}, "destination": {"min": 0, "max": 5, "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "keep_polarity": false, "parts": {"resistor_series": "E96"}}"# },
+        SignCase {
+            name: "m<0 b>0",
+            template: Template::InvertingPlus,
+            json: r#"{"source": {"min": 0, "max": 1, "band_high": 100}, "destination": {"min": 0, "max": 5, "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "keep_polarity": false, "parts": {"resistor_series": "E96"}}"#,
+        },
         // m < 0, b < 0: −2…−1 V into 4.5–0.5 V (m = −4, b = −3.5 V).
-        SignCase { name: "m<0 b<0", template: Template::InvertingSum, json: r#"{"source": {"min": -2, "max": -1, "band_high": 100}, "destination": {"min": 0, "max": 5, "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "keep_polarity": false, "parts": {"resistor_series": "E96"}}"# },
+        SignCase {
+            name: "m<0 b<0",
+            template: Template::InvertingSum,
+            json: r#"{"source": {"min": -2, "max": -1, "band_high": 100}, "destination": {"min": 0, "max": 5, "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "keep_polarity": false, "parts": {"resistor_series": "E96"}}"#,
+        },
     ];
     for case in &cases {
         check_sign_case(case);

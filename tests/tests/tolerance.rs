@@ -54,7 +54,8 @@ fn request(json: &str, extra: &str) -> Request {
 }
 
 /// Zero tolerance everywhere: parts and the amplifier's offset and bias currents.
-const ZERO_TOL: &str = r#"{"parts": {"resistor_tolerance": 0, "capacitor_tolerance": 0}, "amplifier": {"offset": 0, "bias_current": 0}}"#;
+const ZERO_TOL: &str =
+    r#"{"parts": {"resistor_tolerance": 0, "capacitor_tolerance": 0}, "amplifier": {"offset": 0, "bias_current": 0}}"#;
 
 fn designed(req: &Request) -> (Circuit, rangefit_engine::design::Predicted) {
     let d = design(req);
@@ -64,8 +65,11 @@ fn designed(req: &Request) -> (Circuit, rangefit_engine::design::Predicted) {
 
 /// Every demo and scenario, as (label, request).
 fn all_requests() -> Vec<(String, Request)> {
-    let mut v: Vec<(String, Request)> = demos::ALL.iter().map(|d| (d.id.to_string(), Request::from_json(d.json).unwrap())).collect();
-    for (name, json) in [("cold-store", COLD_STORE), ("tide-gauge", TIDE_GAUGE), ("soil-probe", SOIL_PROBE), ("bearing", BEARING)] {
+    let mut v: Vec<(String, Request)> =
+        demos::ALL.iter().map(|d| (d.id.to_string(), Request::from_json(d.json).unwrap())).collect();
+    for (name, json) in
+        [("cold-store", COLD_STORE), ("tide-gauge", TIDE_GAUGE), ("soil-probe", SOIL_PROBE), ("bearing", BEARING)]
+    {
         v.push((name.to_string(), request(json, "")));
     }
     v
@@ -160,7 +164,11 @@ fn shorted(c: &Circuit) -> Circuit {
     c.parts.retain(|q| !rangefit_engine::circuit::open_at_mid_band(q));
     while let Some(i) = c.parts.iter().position(|q| q.kind == PartKind::Capacitor) {
         let cap = c.parts.remove(i);
-        let (keep, gone) = if cap.nodes[1] == "0" { (cap.nodes[1].clone(), cap.nodes[0].clone()) } else { (cap.nodes[0].clone(), cap.nodes[1].clone()) };
+        let (keep, gone) = if cap.nodes[1] == "0" {
+            (cap.nodes[1].clone(), cap.nodes[0].clone())
+        } else {
+            (cap.nodes[0].clone(), cap.nodes[1].clone())
+        };
         for q in c.parts.iter_mut() {
             for n in q.nodes.iter_mut().filter(|n| **n == gone) {
                 *n = keep.clone();
@@ -195,7 +203,10 @@ fn dense_solve_matches_cramers_rule_and_residual() {
         }
         (0..n)
             .map(|j| {
-                let minor: Vec<f64> = (1..n).flat_map(|i| (0..n).filter(move |&c| c != j).map(move |c| (i, c))).map(|(i, c)| m[i * n + c]).collect();
+                let minor: Vec<f64> = (1..n)
+                    .flat_map(|i| (0..n).filter(move |&c| c != j).map(move |c| (i, c)))
+                    .map(|(i, c)| m[i * n + c])
+                    .collect();
                 let sign = if j % 2 == 0 { 1.0 } else { -1.0 };
                 sign * m[j] * det(&minor, n - 1)
             })
@@ -206,7 +217,9 @@ fn dense_solve_matches_cramers_rule_and_residual() {
     for trial in 0..60 {
         let n = 1 + trial % 6;
         // Scaled like MNA: entries over nine decades, some zero, small diagonals possible.
-        let a: Vec<f64> = (0..n * n).map(|_| if rng.next() < 0.25 { 0.0 } else { rng.sym() * 10f64.powf(-6.0 + 9.0 * rng.next()) }).collect();
+        let a: Vec<f64> = (0..n * n)
+            .map(|_| if rng.next() < 0.25 { 0.0 } else { rng.sym() * 10f64.powf(-6.0 + 9.0 * rng.next()) })
+            .collect();
         let b: Vec<f64> = (0..n).map(|_| rng.sym()).collect();
         let d = det(&a, n);
         let scale: f64 = a.iter().map(|v| v.abs()).fold(0.0, f64::max);
@@ -221,7 +234,13 @@ fn dense_solve_matches_cramers_rule_and_residual() {
                 ai[r * n + i] = b[r];
             }
             let xi = det(&ai, n) / d;
-            checks.push(near(format!("trial {trial} x[{i}] vs Cramer"), x[i], xi, 1e-8 * xi.abs().max(1e-3), "Cramer's rule"));
+            checks.push(near(
+                format!("trial {trial} x[{i}] vs Cramer"),
+                x[i],
+                xi,
+                1e-8 * xi.abs().max(1e-3),
+                "Cramer's rule",
+            ));
             let res: f64 = (0..n).map(|c| a[i * n + c] * x[c]).sum::<f64>() - b[i];
             let row: f64 = (0..n).map(|c| (a[i * n + c] * x[c]).abs()).sum::<f64>() + b[i].abs();
             checks.push(near(format!("trial {trial} residual row {i}"), res, 0.0, 1e-12 * row, "residual of A·x = b"));
@@ -244,7 +263,20 @@ fn kernel_agrees_with_general_solver() {
         for build in 0..12 {
             // Build 0 is nominal; the others move every part by up to ±5 % and the amplifier's
             // offset and bias currents by up to twice their figures.
-            let p: Vec<f64> = k.params().iter().map(|prm| if build == 0 { 0.0 } else { match prm.kind { ParamKind::Resistor | ParamKind::Capacitor => 0.05 * rng.sym(), _ => 2.0 * prm.bound * rng.sym() } }).collect();
+            let p: Vec<f64> = k
+                .params()
+                .iter()
+                .map(|prm| {
+                    if build == 0 {
+                        0.0
+                    } else {
+                        match prm.kind {
+                            ParamKind::Resistor | ParamKind::Capacitor => 0.05 * rng.sym(),
+                            _ => 2.0 * prm.bound * rng.sym(),
+                        }
+                    }
+                })
+                .collect();
             let (pc, bias) = perturbed(&c, &k, &p);
             let (slope, icpt) = k.dc_line(&p, &mut ws).unwrap();
             for x in [req.source.min, 0.5 * (req.source.min + req.source.max), req.source.max] {
@@ -254,15 +286,40 @@ fn kernel_agrees_with_general_solver() {
                 }
                 let want = reference_dc(&pc, &bias, x);
                 let got = slope * x + icpt;
-                checks.push(near(format!("{label} build {build} adc at {x} V"), got, want, 1e-9 * want.abs().max(1e-3), "general solver, same build"));
+                checks.push(near(
+                    format!("{label} build {build} adc at {x} V"),
+                    got,
+                    want,
+                    1e-9 * want.abs().max(1e-3),
+                    "general solver, same build",
+                ));
                 // Every node voltage, offset and bias currents off (the general solver has neither).
                 if build % 3 == 0 {
-                    let q: Vec<f64> = k.params().iter().zip(&p).map(|(prm, &v)| if matches!(prm.kind, ParamKind::Resistor | ParamKind::Capacitor) { v } else { 0.0 }).collect();
+                    let q: Vec<f64> = k
+                        .params()
+                        .iter()
+                        .zip(&p)
+                        .map(
+                            |(prm, &v)| {
+                                if matches!(prm.kind, ParamKind::Resistor | ParamKind::Capacitor) {
+                                    v
+                                } else {
+                                    0.0
+                                }
+                            },
+                        )
+                        .collect();
                     let (pc0, _) = perturbed(&c, &k, &q);
                     let sol0 = Solver::new(&pc0).dc(x).unwrap();
                     for (node, v) in k.dc_voltages(&q, x).unwrap() {
                         let want = sol0.voltage(&node).unwrap();
-                        checks.push(near(format!("{label} build {build} node {node} at {x} V"), v, want, 1e-9 * want.abs().max(1e-3), "general solver, same build"));
+                        checks.push(near(
+                            format!("{label} build {build} node {node} at {x} V"),
+                            v,
+                            want,
+                            1e-9 * want.abs().max(1e-3),
+                            "general solver, same build",
+                        ));
                     }
                 }
             }
@@ -270,7 +327,13 @@ fn kernel_agrees_with_general_solver() {
             // which each capacitor's two nodes are made one node.
             let want = Solver::new(&shorted(&pc)).transfer(0.0, "adc").unwrap().re;
             let got = k.short_gain(&p, &mut ws).unwrap();
-            checks.push(near(format!("{label} build {build} short-capacitor gain"), got, want, 1e-9 * want.abs().max(1e-3), "general solver, capacitors as shorts"));
+            checks.push(near(
+                format!("{label} build {build} short-capacitor gain"),
+                got,
+                want,
+                1e-9 * want.abs().max(1e-3),
+                "general solver, capacitors as shorts",
+            ));
         }
         assert!(n > 0, "{label}: no parameters");
     }
@@ -281,7 +344,12 @@ fn kernel_agrees_with_general_solver() {
 fn kernel_agrees_on_seeded_random_circuits() {
     // Source: the general MNA solver on random single-amplifier resistor networks (rails set
     // far out so no output limit applies); relative 1e-9.
-    let spec = AmplifierSpec { open_loop_gain: Some(2e5), offset: Some(2e-3), bias_current: Some(5e-9), ..AmplifierSpec::default() };
+    let spec = AmplifierSpec {
+        open_loop_gain: Some(2e5),
+        offset: Some(2e-3),
+        bias_current: Some(5e-9),
+        ..AmplifierSpec::default()
+    };
     let mut a = Amplifier::resolve(&spec, Rails { pos: 15.0, neg: -15.0 });
     a.swing_low = -1e6;
     a.swing_high = -1e6;
@@ -293,14 +361,22 @@ fn kernel_agrees_on_seeded_random_circuits() {
     for trial in 0..100 {
         let mut b = Builder::default();
         b.bench("VSENSE", PartKind::VoltageSource, 0.0, &["emf", "0"], StageRole::Sensor, "");
-        b.bench("RSENSE", PartKind::Resistor, 10f64.powf(-3.0 + 6.0 * rng.next()), &["emf", "sense"], StageRole::Sensor, "");
+        b.bench(
+            "RSENSE",
+            PartKind::Resistor,
+            10f64.powf(-3.0 + 6.0 * rng.next()),
+            &["emf", "sense"],
+            StageRole::Sensor,
+            "",
+        );
         b.bench("VPOS", PartKind::VoltageSource, 15.0, &["vpos", "0"], StageRole::Supply, "");
         b.bench("VNEG", PartKind::VoltageSource, -15.0, &["vneg", "0"], StageRole::Supply, "");
         b.bench("RADC", PartKind::Resistor, 1e4, &["adc", "0"], StageRole::Converter, "");
         // A chain ties every inner node to the anchors; extra resistors join random pairs.
         let all: Vec<&str> = inner.iter().chain(anchors.iter()).copied().collect();
         for (i, node) in inner.iter().enumerate() {
-            let to = if i == 0 { anchors[(rng.next() * 4.0) as usize] } else { inner[(rng.next() * i as f64) as usize] };
+            let to =
+                if i == 0 { anchors[(rng.next() * 4.0) as usize] } else { inner[(rng.next() * i as f64) as usize] };
             b.add(PartKind::Resistor, 10f64.powf(3.0 + 3.0 * rng.next()), Some(0.01), &[node, to], StageRole::Gain, "");
         }
         for _ in 0..3 {
@@ -319,7 +395,11 @@ fn kernel_agrees_on_seeded_random_circuits() {
         // A build inside the tolerances, and one with resistors anywhere from 0.1× to 1.9×
         // nominal, far enough for some pivots to shrink below the kernel's reuse limit.
         for (label, spread) in [("1 %", 1.0), ("±90 %", 90.0)] {
-            let p: Vec<f64> = k.params().iter().map(|prm| (if prm.kind == ParamKind::Resistor { spread } else { 1.0 }) * prm.bound * rng.sym()).collect();
+            let p: Vec<f64> = k
+                .params()
+                .iter()
+                .map(|prm| (if prm.kind == ParamKind::Resistor { spread } else { 1.0 }) * prm.bound * rng.sym())
+                .collect();
             let (pc, bias) = perturbed(&c, &k, &p);
             let (slope, icpt) = k.dc_line(&p, &mut k.workspace()).unwrap();
             let want: Vec<f64> = [-1.0, 0.3, 2.0].iter().map(|&x| reference_dc(&pc, &bias, x)).collect();
@@ -330,11 +410,23 @@ fn kernel_agrees_on_seeded_random_circuits() {
             }
             compared += 1;
             for (x, want) in [-1.0, 0.3, 2.0].into_iter().zip(want) {
-                checks.push(near(format!("random circuit {trial} ({label}) at {x} V"), slope * x + icpt, want, 1e-9 * want.abs().max(1e-3), "general solver, same build"));
+                checks.push(near(
+                    format!("random circuit {trial} ({label}) at {x} V"),
+                    slope * x + icpt,
+                    want,
+                    1e-9 * want.abs().max(1e-3),
+                    "general solver, same build",
+                ));
             }
         }
     }
-    checks.push(at_least("random builds compared", compared as f64, 100.0, 0.0, "at least half the random builds have an operating point inside the rails"));
+    checks.push(at_least(
+        "random builds compared",
+        compared as f64,
+        100.0,
+        0.0,
+        "at least half the random builds have an operating point inside the rails",
+    ));
     check(&checks);
 }
 
@@ -360,13 +452,17 @@ fn worst_case_matches_brute_force_vertex_enumeration() {
             (label, r)
         })
         .collect();
-    requests.push(("cold-store, order-2 filter".to_string(), request(COLD_STORE, r#"{"filter": {"order": 2, "out_of_band_level": "-60 dB"}}"#)));
+    requests.push((
+        "cold-store, order-2 filter".to_string(),
+        request(COLD_STORE, r#"{"filter": {"order": 2, "out_of_band_level": "-60 dB"}}"#),
+    ));
     for (label, req) in requests {
         let (c, _) = designed(&req);
         let k = Kernel::compile(&c, "adc").unwrap();
         // Capacitors do not move any quantity (open at DC, shorts mid-band): hold them nominal
         // to keep the enumeration small.
-        let vary: Vec<usize> = k.params().iter().enumerate().filter(|(_, p)| p.kind != ParamKind::Capacitor).map(|(i, _)| i).collect();
+        let vary: Vec<usize> =
+            k.params().iter().enumerate().filter(|(_, p)| p.kind != ParamKind::Capacitor).map(|(i, _)| i).collect();
         assert!(vary.len() <= 16, "{label}: {} parameters", vary.len());
         let mut ext = [[f64::INFINITY, f64::NEG_INFINITY]; 4];
         for mask in 0..(1u32 << vary.len()) {
@@ -388,7 +484,13 @@ fn worst_case_matches_brute_force_vertex_enumeration() {
         for j in 0..4 {
             let scale = if j == 2 { ext[2][1].abs().max(1e-3) } else { span };
             for e in 0..2 {
-                checks.push(near(format!("{label} {} {}", Q[j], ["low", "high"][e]), wc[j][e], ext[j][e], tol * scale, "brute-force vertex enumeration, general solver"));
+                checks.push(near(
+                    format!("{label} {} {}", Q[j], ["low", "high"][e]),
+                    wc[j][e],
+                    ext[j][e],
+                    tol * scale,
+                    "brute-force vertex enumeration, general solver",
+                ));
             }
         }
     }
@@ -397,7 +499,12 @@ fn worst_case_matches_brute_force_vertex_enumeration() {
 
 /// A plain non-inverting stage built by hand: gain 1 + Rf/Rg, + input on the sensor.
 fn plain_stage(rf: f64, rg: f64, tol_f: f64, tol_g: f64, offset: f64) -> Circuit {
-    let spec = AmplifierSpec { open_loop_gain: Some(1e12), offset: Some(offset), bias_current: Some(0.0), ..AmplifierSpec::default() };
+    let spec = AmplifierSpec {
+        open_loop_gain: Some(1e12),
+        offset: Some(offset),
+        bias_current: Some(0.0),
+        ..AmplifierSpec::default()
+    };
     let a = Amplifier::resolve(&spec, Rails { pos: 5.0, neg: 0.0 });
     let mut b = Builder::default();
     b.bench("VSENSE", PartKind::VoltageSource, 0.0, &["emf", "0"], StageRole::Sensor, "");
@@ -417,7 +524,9 @@ fn worst_case_gain_of_plain_stage_matches_hand_bound() {
     // sits in series with the + input), so the intercept spans ±G_max·Vos.
     let req = request(TIDE_GAUGE, "");
     let mut checks = Vec::new();
-    for (rf, rg, t, vos) in [(39.2e3, 1e3, 0.01, 0.0), (39.2e3, 1e3, 0.01, 1e-3), (12.1e3, 2.49e3, 0.005, 0.5e-3), (100e3, 10e3, 0.05, 0.0)] {
+    for (rf, rg, t, vos) in
+        [(39.2e3, 1e3, 0.01, 0.0), (39.2e3, 1e3, 0.01, 1e-3), (12.1e3, 2.49e3, 0.005, 0.5e-3), (100e3, 10e3, 0.05, 0.0)]
+    {
         let c = plain_stage(rf, rg, t, t, vos);
         let wc = tolerance(&req, &c, &cfg(0, 1)).worst_case;
         // The macro-model's loop gain: A = GM·R_x with R_x the internal node's load, 1e12/GM
@@ -434,10 +543,28 @@ fn worst_case_gain_of_plain_stage_matches_hand_bound() {
         let what = format!("Rf {rf} Rg {rg} ±{t} Vos {vos}");
         checks.push(near(format!("{what}: gain low"), wc.gain[0], g_lo, 1e-9 * g_lo, "non-inverting gain formula"));
         checks.push(near(format!("{what}: gain high"), wc.gain[1], g_hi, 1e-9 * g_hi, "non-inverting gain formula"));
-        checks.push(near(format!("{what}: offset low"), wc.offset[0], -g_hi * vos / divider, 1e-12, "output offset = G·Vos"));
-        checks.push(near(format!("{what}: offset high"), wc.offset[1], g_hi * vos / divider, 1e-12, "output offset = G·Vos"));
+        checks.push(near(
+            format!("{what}: offset low"),
+            wc.offset[0],
+            -g_hi * vos / divider,
+            1e-12,
+            "output offset = G·Vos",
+        ));
+        checks.push(near(
+            format!("{what}: offset high"),
+            wc.offset[1],
+            g_hi * vos / divider,
+            1e-12,
+            "output offset = G·Vos",
+        ));
         let x = req.source.max;
-        checks.push(near(format!("{what}: output at max, high"), wc.output_at_max[1], g_hi * (x + vos / divider), 1e-9 * g_hi * x, "non-inverting gain formula"));
+        checks.push(near(
+            format!("{what}: output at max, high"),
+            wc.output_at_max[1],
+            g_hi * (x + vos / divider),
+            1e-9 * g_hi * x,
+            "non-inverting gain formula",
+        ));
     }
     check(&checks);
 }
@@ -453,8 +580,20 @@ fn worst_case_contains_every_monte_carlo_build() {
         let (wc, mc) = (wc_of(&t), mc_of(&t));
         for j in 0..4 {
             let eps = 1e-12 * (1.0 + wc[j][0].abs().max(wc[j][1].abs()));
-            checks.push(at_least(format!("{label} {} builds' min", Q[j]), mc[j].min, wc[j][0], eps, "worst case bounds the box"));
-            checks.push(at_most(format!("{label} {} builds' max", Q[j]), mc[j].max, wc[j][1], eps, "worst case bounds the box"));
+            checks.push(at_least(
+                format!("{label} {} builds' min", Q[j]),
+                mc[j].min,
+                wc[j][0],
+                eps,
+                "worst case bounds the box",
+            ));
+            checks.push(at_most(
+                format!("{label} {} builds' max", Q[j]),
+                mc[j].max,
+                wc[j][1],
+                eps,
+                "worst case bounds the box",
+            ));
         }
     }
     check(&checks);
@@ -483,7 +622,9 @@ fn zero_tolerances_give_no_spread() {
     // design::predict's (the same model); its outputs sit inside the converter range and
     // the headroom by construction.
     let mut checks = Vec::new();
-    for (name, json) in [("cold-store", COLD_STORE), ("tide-gauge", TIDE_GAUGE), ("soil-probe", SOIL_PROBE), ("bearing", BEARING)] {
+    for (name, json) in
+        [("cold-store", COLD_STORE), ("tide-gauge", TIDE_GAUGE), ("soil-probe", SOIL_PROBE), ("bearing", BEARING)]
+    {
         let req = request(json, ZERO_TOL);
         let (c, pred) = designed(&req);
         let t = tolerance(&req, &c, &cfg(500, 5));
@@ -491,17 +632,47 @@ fn zero_tolerances_give_no_spread() {
         let m = &t.monte_carlo;
         for (j, s) in mc_of(&t).iter().enumerate() {
             checks.push(near(format!("{name} {} std", Q[j]), s.std, 0.0, 0.0, "no spread without tolerances"));
-            checks.push(near(format!("{name} {} mean", Q[j]), s.mean, nominal[j], 1e-9 * nominal[j].abs().max(1e-3), "design::predict"));
+            checks.push(near(
+                format!("{name} {} mean", Q[j]),
+                s.mean,
+                nominal[j],
+                1e-9 * nominal[j].abs().max(1e-3),
+                "design::predict",
+            ));
             for e in 0..2 {
-                checks.push(near(format!("{name} {} worst case {e}", Q[j]), wc_of(&t)[j][e], nominal[j], 1e-9 * nominal[j].abs().max(1e-3), "design::predict"));
+                checks.push(near(
+                    format!("{name} {} worst case {e}", Q[j]),
+                    wc_of(&t)[j][e],
+                    nominal[j],
+                    1e-9 * nominal[j].abs().max(1e-3),
+                    "design::predict",
+                ));
             }
         }
         checks.push(near(format!("{name} yield"), m.yield_, 1.0, 0.0, "nominal inside the converter range"));
-        checks.push(near(format!("{name} yield with headroom"), m.yield_headroom, 1.0, 0.0, "nominal inside the headroom"));
+        checks.push(near(
+            format!("{name} yield with headroom"),
+            m.yield_headroom,
+            1.0,
+            0.0,
+            "nominal inside the headroom",
+        ));
         let h = req.destination.headroom;
-        checks.push(near(format!("{name} range-use fraction"), m.range_use_fraction, 0.95 * (1.0 - 2.0 * h), 1e-15, "0.95 × (1 − 2·headroom)"));
+        checks.push(near(
+            format!("{name} range-use fraction"),
+            m.range_use_fraction,
+            0.95 * (1.0 - 2.0 * h),
+            1e-15,
+            "0.95 × (1 − 2·headroom)",
+        ));
         let counted: u32 = m.histograms.output_at_max.counts.iter().sum();
-        checks.push(near(format!("{name} histogram holds every build"), counted as f64, 500.0, 0.0, "one count per build"));
+        checks.push(near(
+            format!("{name} histogram holds every build"),
+            counted as f64,
+            500.0,
+            0.0,
+            "one count per build",
+        ));
     }
     check(&checks);
 }
@@ -530,8 +701,20 @@ fn mean_and_spread_match_sampling_statistics() {
     let c = plain_stage(rf, rg, tl, 0.0, 0.0);
     let t = tolerance(&req, &c, &cfg(n, 8));
     let sigma = rf / rg * tl / 3f64.sqrt();
-    checks.push(near("uniform ±1 % Rf: gain std", t.monte_carlo.gain.std, sigma, 0.02 * sigma, "uniform over ±a has σ = a/√3"));
-    checks.push(near("uniform ±1 % Rf: gain mean", t.monte_carlo.gain.mean, 1.0 + rf / rg, 3.0 * sigma / (n as f64).sqrt(), "central limit theorem"));
+    checks.push(near(
+        "uniform ±1 % Rf: gain std",
+        t.monte_carlo.gain.std,
+        sigma,
+        0.02 * sigma,
+        "uniform over ±a has σ = a/√3",
+    ));
+    checks.push(near(
+        "uniform ±1 % Rf: gain mean",
+        t.monte_carlo.gain.mean,
+        1.0 + rf / rg,
+        3.0 * sigma / (n as f64).sqrt(),
+        "central limit theorem",
+    ));
     check(&checks);
 }
 
@@ -550,7 +733,13 @@ fn yield_counts_builds_past_the_converter_limit() {
     let req = Request::from_value(&v).unwrap();
     let n = 10_000;
     let m = tolerance(&req, &c, &cfg(n, 4)).monte_carlo;
-    check(&[near("yield with the top at the nominal output", m.yield_, 0.5, 4.0 * (0.25 / n as f64).sqrt(), "symmetry of the spread")]);
+    check(&[near(
+        "yield with the top at the nominal output",
+        m.yield_,
+        0.5,
+        4.0 * (0.25 / n as f64).sqrt(),
+        "symmetry of the spread",
+    )]);
 }
 
 #[test]
@@ -575,14 +764,44 @@ fn odd_inputs_do_not_panic() {
     }
     let nan = tolerance(&req, &broken, &cfg(100, 1));
     check(&[
-        near("unbounded bins: capped", wide.monte_carlo.histograms.output_at_min.counts.len() as f64, MAX_BINS as f64, 0.0, "ToleranceConfig::bins limit"),
+        near(
+            "unbounded bins: capped",
+            wide.monte_carlo.histograms.output_at_min.counts.len() as f64,
+            MAX_BINS as f64,
+            0.0,
+            "ToleranceConfig::bins limit",
+        ),
         // A NaN resistance falls to the solvers' 1 nΩ floor (as in the general solver), so
         // the builds still solve; the yield is a share, whatever it is.
         at_least("NaN part values: yield is a share", nan.monte_carlo.yield_, 0.0, 0.0, "yield counts builds"),
         at_most("NaN part values: yield is a share", nan.monte_carlo.yield_, 1.0, 0.0, "yield counts builds"),
-        near("no builds: yield is NaN (JSON null)", none.monte_carlo.yield_.is_nan() as u8 as f64, 1.0, 0.0, "no builds, nothing to count"),
-        near("no builds: worst case still computed", none.worst_case.gain[0].is_finite() as u8 as f64, 1.0, 0.0, "worst case needs no builds"),
-        near("unsupported circuit: stated as not available", refused.worst_case.method.starts_with("not available") as u8 as f64, 1.0, 0.0, "kernel refuses floating sources"),
-        near("circuit without parts: stated as not available", bare.worst_case.method.starts_with("not available") as u8 as f64, 1.0, 0.0, "no output node"),
+        near(
+            "no builds: yield is NaN (JSON null)",
+            none.monte_carlo.yield_.is_nan() as u8 as f64,
+            1.0,
+            0.0,
+            "no builds, nothing to count",
+        ),
+        near(
+            "no builds: worst case still computed",
+            none.worst_case.gain[0].is_finite() as u8 as f64,
+            1.0,
+            0.0,
+            "worst case needs no builds",
+        ),
+        near(
+            "unsupported circuit: stated as not available",
+            refused.worst_case.method.starts_with("not available") as u8 as f64,
+            1.0,
+            0.0,
+            "kernel refuses floating sources",
+        ),
+        near(
+            "circuit without parts: stated as not available",
+            bare.worst_case.method.starts_with("not available") as u8 as f64,
+            1.0,
+            0.0,
+            "no output node",
+        ),
     ]);
 }

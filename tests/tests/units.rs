@@ -9,10 +9,7 @@ fn check(input: &str, q: Quantity, expected: f64) {
     match units::parse(input, q) {
         Ok(v) => {
             let tol = 1e-12 * expected.abs().max(f64::MIN_POSITIVE);
-            assert!(
-                (v - expected).abs() <= tol,
-                "parse({input:?}, {q:?}) = {v}, expected {expected}"
-            );
+            assert!((v - expected).abs() <= tol, "parse({input:?}, {q:?}) = {v}, expected {expected}");
         }
         Err(e) => panic!("parse({input:?}, {q:?}) failed: {e}"),
     }
@@ -175,24 +172,9 @@ fn parse_errors() {
         |e| matches!(e, UnitError::NotANumber { text } if text == "abc"),
         &["'abc'", "not a number"],
     );
-    check_err(
-        "4.7.1k",
-        Resistance,
-        |e| matches!(e, UnitError::NotANumber { .. }),
-        &["not a number"],
-    );
-    check_err(
-        "4 7",
-        Resistance,
-        |e| matches!(e, UnitError::NotANumber { .. }),
-        &["not a number"],
-    );
-    check_err(
-        "4k7kΩ",
-        Resistance,
-        |e| matches!(e, UnitError::NotANumber { .. }),
-        &["not a number"],
-    );
+    check_err("4.7.1k", Resistance, |e| matches!(e, UnitError::NotANumber { .. }), &["not a number"]);
+    check_err("4 7", Resistance, |e| matches!(e, UnitError::NotANumber { .. }), &["not a number"]);
+    check_err("4k7kΩ", Resistance, |e| matches!(e, UnitError::NotANumber { .. }), &["not a number"]);
     check_err(
         "4.7 kQ",
         Resistance,
@@ -203,152 +185,50 @@ fn parse_errors() {
         "3.3 kHx",
         Voltage,
         |e| matches!(e, UnitError::UnknownUnit { .. }),
-        &[
-            "unknown unit 'kHx'",
-            "expected a voltage such as 3.3 V or 250 mV",
-        ],
+        &["unknown unit 'kHx'", "expected a voltage such as 3.3 V or 250 mV"],
     );
     check_err(
         "48 kHz",
         Voltage,
         |e| matches!(e, UnitError::WrongQuantity { unit, found: Frequency, expected: Voltage } if unit == "kHz"),
-        &[
-            "'kHz' is a frequency unit",
-            "expected a voltage such as 3.3 V",
-        ],
+        &["'kHz' is a frequency unit", "expected a voltage such as 3.3 V"],
     );
     check_err(
         "4R7",
         Voltage,
-        |e| {
-            matches!(
-                e,
-                UnitError::WrongQuantity {
-                    found: Resistance,
-                    ..
-                }
-            )
-        },
+        |e| matches!(e, UnitError::WrongQuantity { found: Resistance, .. }),
         &["resistance unit"],
     );
-    check_err(
-        "3 F",
-        Voltage,
-        |e| {
-            matches!(
-                e,
-                UnitError::WrongQuantity {
-                    found: Capacitance,
-                    ..
-                }
-            )
-        },
-        &["capacitance"],
-    );
-    check_err(
-        "5 %",
-        Voltage,
-        |e| matches!(e, UnitError::WrongQuantity { found: Ratio, .. }),
-        &["ratio unit"],
-    );
-    check_err(
-        "1 ms",
-        Frequency,
-        |e| matches!(e, UnitError::WrongQuantity { found: Time, .. }),
-        &["time unit"],
-    );
-    check_err(
-        "27 °C",
-        Voltage,
-        |e| {
-            matches!(
-                e,
-                UnitError::WrongQuantity {
-                    found: Temperature,
-                    ..
-                }
-            )
-        },
-        &["temperature"],
-    );
-    for input in [
-        "NaN", "nan", "inf", "-inf", "Infinity", "1e999", "1e999 V", "-1e400",
-    ] {
-        check_err(
-            input,
-            Voltage,
-            |e| *e == UnitError::NotFinite,
-            &["not a finite number"],
-        );
+    check_err("3 F", Voltage, |e| matches!(e, UnitError::WrongQuantity { found: Capacitance, .. }), &["capacitance"]);
+    check_err("5 %", Voltage, |e| matches!(e, UnitError::WrongQuantity { found: Ratio, .. }), &["ratio unit"]);
+    check_err("1 ms", Frequency, |e| matches!(e, UnitError::WrongQuantity { found: Time, .. }), &["time unit"]);
+    check_err("27 °C", Voltage, |e| matches!(e, UnitError::WrongQuantity { found: Temperature, .. }), &["temperature"]);
+    for input in ["NaN", "nan", "inf", "-inf", "Infinity", "1e999", "1e999 V", "-1e400"] {
+        check_err(input, Voltage, |e| *e == UnitError::NotFinite, &["not a finite number"]);
     }
     check_err(
         "1e20 V",
         Voltage,
         |e| matches!(e, UnitError::OutOfRange { quantity: Voltage, min, max, .. } if *min == 1e-9 && *max == 1e4),
-        &[
-            "1e20 V",
-            "outside the plausible range for a voltage",
-            "1 nV",
-            "10 kV",
-        ],
+        &["1e20 V", "outside the plausible range for a voltage", "1 nV", "10 kV"],
     );
-    check_err(
-        "120 MΩ",
-        Capacitance,
-        |e| matches!(e, UnitError::WrongQuantity { .. }),
-        &["resistance unit"],
-    );
-    check_err(
-        "1e14",
-        Resistance,
-        |e| matches!(e, UnitError::OutOfRange { .. }),
-        &["100 TΩ", "resistance"],
-    );
-    check_err(
-        "1 aV",
-        Voltage,
-        |e| matches!(e, UnitError::UnknownUnit { .. }),
-        &["'aV'"],
-    );
-    check_err(
-        "1e-999 V",
-        Voltage,
-        |e| matches!(e, UnitError::OutOfRange { .. }),
-        &["outside"],
-    );
+    check_err("120 MΩ", Capacitance, |e| matches!(e, UnitError::WrongQuantity { .. }), &["resistance unit"]);
+    check_err("1e14", Resistance, |e| matches!(e, UnitError::OutOfRange { .. }), &["100 TΩ", "resistance"]);
+    check_err("1 aV", Voltage, |e| matches!(e, UnitError::UnknownUnit { .. }), &["'aV'"]);
+    check_err("1e-999 V", Voltage, |e| matches!(e, UnitError::OutOfRange { .. }), &["outside"]);
     // "3 F" is three farads (not femto): beyond the 1 F bound, reported as 3 F.
-    check_err(
-        "3 F",
-        Capacitance,
-        |e| matches!(e, UnitError::OutOfRange { value, .. } if *value == 3.0),
-        &["3 F"],
-    );
-    check_err(
-        "-5 K",
-        Temperature,
-        |e| matches!(e, UnitError::OutOfRange { .. }),
-        &["temperature", "1 K", "1000 K"],
-    );
+    check_err("3 F", Capacitance, |e| matches!(e, UnitError::OutOfRange { value, .. } if *value == 3.0), &["3 F"]);
+    check_err("-5 K", Temperature, |e| matches!(e, UnitError::OutOfRange { .. }), &["temperature", "1 K", "1000 K"]);
 }
 
 #[test]
 fn error_message_for_field() {
     // common practice: a field that knows its quantity names it even for empty input.
-    assert_eq!(
-        UnitError::Empty.message(Resistance),
-        "value is empty; expected a resistance such as 4.7 kΩ"
-    );
+    assert_eq!(UnitError::Empty.message(Resistance), "value is empty; expected a resistance such as 4.7 kΩ");
     let e = UnitError::NotANumber { text: "abc".into() };
     assert!(e.message(Inductance).contains("an inductance"));
-    let e = UnitError::WrongQuantity {
-        unit: "kHz".into(),
-        found: Frequency,
-        expected: Voltage,
-    };
-    assert_eq!(
-        e.message(Voltage),
-        "'kHz' is a frequency unit; expected a voltage such as 3.3 V"
-    );
+    let e = UnitError::WrongQuantity { unit: "kHz".into(), found: Frequency, expected: Voltage };
+    assert_eq!(e.message(Voltage), "'kHz' is a frequency unit; expected a voltage such as 3.3 V");
     // std::error::Error is implemented.
     let boxed: Box<dyn std::error::Error> = Box::new(UnitError::NotFinite);
     assert!(boxed.to_string().contains("finite"));
@@ -378,28 +258,16 @@ fn plausible_ranges() {
         assert_eq!(units::parse_number(0.0, q), Ok(0.0));
         assert_eq!(units::parse_number(min, q), Ok(min));
         assert_eq!(units::parse_number(max, q), Ok(max));
-        assert!(matches!(
-            units::parse_number(max * 2.0, q),
-            Err(UnitError::OutOfRange { .. })
-        ));
+        assert!(matches!(units::parse_number(max * 2.0, q), Err(UnitError::OutOfRange { .. })));
         if min > 0.0 {
-            assert!(matches!(
-                units::parse_number(min / 2.0, q),
-                Err(UnitError::OutOfRange { .. })
-            ));
+            assert!(matches!(units::parse_number(min / 2.0, q), Err(UnitError::OutOfRange { .. })));
         }
         if q != Temperature {
             assert_eq!(units::parse_number(-max, q), Ok(-max));
         }
         assert_eq!(units::parse_number(f64::NAN, q), Err(UnitError::NotFinite));
-        assert_eq!(
-            units::parse_number(f64::INFINITY, q),
-            Err(UnitError::NotFinite)
-        );
-        assert_eq!(
-            units::parse_number(f64::NEG_INFINITY, q),
-            Err(UnitError::NotFinite)
-        );
+        assert_eq!(units::parse_number(f64::INFINITY, q), Err(UnitError::NotFinite));
+        assert_eq!(units::parse_number(f64::NEG_INFINITY, q), Err(UnitError::NotFinite));
     }
     // common practice: a bound written with another prefix still counts ("1000 pV" = 1 nV).
     check("1000 pV", Voltage, 1e-9);
@@ -494,11 +362,7 @@ fn format_significant_digits() {
         (1.0 / 3.0, Ratio, 40, "0.33333333333333331"), // capped at 17 digits
     ];
     for &(v, q, sig, s) in rows {
-        assert_eq!(
-            units::format_sig(v, q, sig),
-            s,
-            "format_sig({v}, {q:?}, {sig})"
-        );
+        assert_eq!(units::format_sig(v, q, sig), s, "format_sig({v}, {q:?}, {sig})");
     }
 }
 
@@ -507,10 +371,7 @@ struct Lcg(u64);
 
 impl Lcg {
     fn next(&mut self) -> u64 {
-        self.0 = self
-            .0
-            .wrapping_mul(6364136223846793005)
-            .wrapping_add(1442695040888963407);
+        self.0 = self.0.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
         self.0 >> 11
     }
     /// Uniform in [0, 1).
@@ -530,15 +391,11 @@ fn format_then_parse_round_trips() {
         let hi = max.log10();
         for i in 0..400 {
             let mag = 10f64.powf(lo + (hi - lo) * rng.unit()).clamp(min, max);
-            let v = if q != Temperature && i % 3 == 0 {
-                -mag
-            } else {
-                mag
-            };
+            let v = if q != Temperature && i % 3 == 0 { -mag } else { mag };
             for sig in [3, 4, 6] {
                 let text = units::format_sig(v, q, sig);
-                let back = units::parse(&text, q)
-                    .unwrap_or_else(|e| panic!("{v} {q:?} -> {text:?} did not parse: {e}"));
+                let back =
+                    units::parse(&text, q).unwrap_or_else(|e| panic!("{v} {q:?} -> {text:?} did not parse: {e}"));
                 let tol = 0.5 * 10f64.powi(1 - sig as i32) * v.abs();
                 assert!((back - v).abs() <= tol, "{v} {q:?} -> {text:?} -> {back}");
                 checked += 1;
@@ -556,15 +413,11 @@ fn format_then_parse_round_trips() {
 fn never_panics_on_odd_input() {
     // common practice: arbitrary text must produce a value or an error, never a panic.
     let alphabet: Vec<char> =
-        "0123456789.+-eE kKmMunpfRΩ\u{2126}µμ°C%/√()VAHzsWrtqgx ∞\u{2212}\u{a0}"
-            .chars()
-            .collect();
+        "0123456789.+-eE kKmMunpfRΩ\u{2126}µμ°C%/√()VAHzsWrtqgx ∞\u{2212}\u{a0}".chars().collect();
     let mut rng = Lcg(42);
     for _ in 0..20_000 {
         let len = (rng.next() % 12) as usize;
-        let text: String = (0..len)
-            .map(|_| alphabet[(rng.next() % alphabet.len() as u64) as usize])
-            .collect();
+        let text: String = (0..len).map(|_| alphabet[(rng.next() % alphabet.len() as u64) as usize]).collect();
         for q in Quantity::ALL {
             if let Err(e) = units::parse(&text, q) {
                 let _ = e.to_string();
@@ -572,15 +425,7 @@ fn never_panics_on_odd_input() {
             }
         }
     }
-    for v in [
-        f64::MIN,
-        f64::MAX,
-        f64::MIN_POSITIVE,
-        5e-324,
-        -5e-324,
-        1e300,
-        -1e-300,
-    ] {
+    for v in [f64::MIN, f64::MAX, f64::MIN_POSITIVE, 5e-324, -5e-324, 1e300, -1e-300] {
         for q in Quantity::ALL {
             for sig in [0, 1, 3, 17, 100, usize::MAX] {
                 let _ = units::format_sig(v, q, sig);

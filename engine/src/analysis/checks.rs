@@ -19,14 +19,20 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
     let v = |x: f64| format(x, Quantity::Voltage);
     let hz = |x: f64| format(x, Quantity::Frequency);
 
-    if let (Some(first), Some(last)) = (a.dc.clipped_in_range.first(), a.dc.clipped_in_range.last())
-    {
+    if let (Some(first), Some(last)) = (a.dc.clipped_in_range.first(), a.dc.clipped_in_range.last()) {
         c.push(Check::error(
             "clipping",
             format!("The output sits at the amplifier's swing limit for sensor values {} … {} inside the sensor's range; widen the rails, choose a rail-to-rail output amplifier or give more headroom.", format(*first, req.source.kind.quantity()), format(*last, req.source.kind.quantity())),
         ));
     } else {
-        c.push(Check::ok("clipping", format!("No clipping over the sensor's range; the output limits {} … {} are reached only beyond it.", v(a.dc.output_limits[0]), v(a.dc.output_limits[1]))));
+        c.push(Check::ok(
+            "clipping",
+            format!(
+                "No clipping over the sensor's range; the output limits {} … {} are reached only beyond it.",
+                v(a.dc.output_limits[0]),
+                v(a.dc.output_limits[1])
+            ),
+        ));
     }
 
     let mc = &a.tolerance.monte_carlo;
@@ -37,10 +43,7 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
     );
     let advice = " Tighter resistor tolerances, more headroom or a two-point calibration in firmware raise it.";
     c.push(if mc.runs == 0 {
-        Check::ok(
-            "yield",
-            "Monte Carlo was switched off (analysis.monte_carlo_runs = 0).",
-        )
+        Check::ok("yield", "Monte Carlo was switched off (analysis.monte_carlo_runs = 0).")
     } else if mc.yield_ < YIELD_ERROR {
         Check::error("yield", format!("{msg}{advice}"))
     } else if mc.yield_ < YIELD_WARNING {
@@ -53,20 +56,19 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
     let top = n
         .contributors
         .first()
-        .map(|t| {
-            format!(
-                " The largest contributor is {} ({}).",
-                t.part,
-                v(t.output_rms)
-            )
-        })
+        .map(|t| format!(" The largest contributor is {} ({}).", t.part, v(t.output_rms)))
         .unwrap_or_default();
     let noise_msg = format!(
         "Added noise is {} rms at the converter over {} … {} ({:.2} LSB; quantisation alone is {}); the chain reaches {:.1} dB SNR, {:.2} effective bits, for a full-scale sine.{}",
         v(n.output_rms), hz(n.band[0]), hz(n.band[1]), n.lsb_ratio, v(n.quantization_rms), n.snr_db, n.enob, top
     );
     c.push(if n.lsb_ratio > 1.0 {
-        Check::warning("noise", format!("{noise_msg} Lower resistor values, a quieter amplifier or a narrower band bring it under one LSB."))
+        Check::warning(
+            "noise",
+            format!(
+                "{noise_msg} Lower resistor values, a quieter amplifier or a narrower band bring it under one LSB."
+            ),
+        )
     } else {
         Check::ok("noise", noise_msg)
     });

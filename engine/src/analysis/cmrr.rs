@@ -34,7 +34,9 @@ pub const CMRR_RUNS: usize = 4000;
 pub fn cmrr_monte_carlo(circuit: &Circuit, runs: usize, seed: u64) -> Option<f64> {
     use crate::analysis::perturb::{Kernel, ParamKind};
     use rand::{RngCore, SeedableRng};
-    let out = circuit.parts.iter().find(|p| !p.bench && p.kind == PartKind::OpAmp && p.stage == StageRole::Gain)?.nodes[4].clone();
+    let out = circuit.parts.iter().find(|p| !p.bench && p.kind == PartKind::OpAmp && p.stage == StageRole::Gain)?.nodes
+        [4]
+    .clone();
     let mut circuit = circuit.clone();
     circuit.parts.retain(|p| !matches!(p.stage, StageRole::Filter | StageRole::Drive | StageRole::Converter));
     let circuit = &circuit;
@@ -51,7 +53,13 @@ pub fn cmrr_monte_carlo(circuit: &Circuit, runs: usize, seed: u64) -> Option<f64
     if dm.params() != cm.params() {
         return None;
     }
-    let resistors: Vec<(usize, f64)> = dm.params().iter().enumerate().filter(|(_, q)| q.kind == ParamKind::Resistor).map(|(i, q)| (i, q.bound)).collect();
+    let resistors: Vec<(usize, f64)> = dm
+        .params()
+        .iter()
+        .enumerate()
+        .filter(|(_, q)| q.kind == ParamKind::Resistor)
+        .map(|(i, q)| (i, q.bound))
+        .collect();
     let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
     let (mut ws_dm, mut ws_cm) = (dm.workspace(), cm.workspace());
     let mut p = vec![0.0; dm.params().len()];
@@ -61,7 +69,9 @@ pub fn cmrr_monte_carlo(circuit: &Circuit, runs: usize, seed: u64) -> Option<f64
             let word = rng.next_u32();
             p[i] = bound * ((word as f64 + 0.5) * (2.0 / 4_294_967_296.0) - 1.0);
         }
-        let (Some((g_dm, _)), Some((g_cm, _))) = (dm.dc_line(&p, &mut ws_dm), cm.dc_line(&p, &mut ws_cm)) else { continue };
+        let (Some((g_dm, _)), Some((g_cm, _))) = (dm.dc_line(&p, &mut ws_dm), cm.dc_line(&p, &mut ws_cm)) else {
+            continue;
+        };
         // A build with no measurable common-mode gain counts as 200 dB.
         let db = if g_cm.abs() > 0.0 { 20.0 * (g_dm.abs() / g_cm.abs()).log10() } else { 200.0 };
         if db.is_finite() {
@@ -74,4 +84,3 @@ pub fn cmrr_monte_carlo(circuit: &Circuit, runs: usize, seed: u64) -> Option<f64
     crate::order::sort_by(&mut out, |a, b| a.total_cmp(b));
     Some(out[(out.len() / 1000).min(out.len() - 1)])
 }
-

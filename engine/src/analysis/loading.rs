@@ -49,7 +49,8 @@ pub fn loading(req: &Request, circuit: &Circuit) -> LoadingAnalysis {
     };
     // 1 mΩ stands for an ideal source (as in the bench model), 1 PΩ for an open circuit. A
     // differential sensor has one impedance per leg; the + leg's input is reported.
-    let (legs, node): (&[&str], &str) = if circuit.part("RSENSEP").is_some() { (&["RSENSEP", "RSENSEN"], "sensep") } else { (&["RSENSE"], "sense") };
+    let (legs, node): (&[&str], &str) =
+        if circuit.part("RSENSEP").is_some() { (&["RSENSEP", "RSENSEN"], "sensep") } else { (&["RSENSE"], "sense") };
     let set = |v: f64| legs.iter().map(|r| (*r, v)).collect::<Vec<_>>();
     let actual = gain(circuit);
     let ideal_source = gain(&with(&set(1e-3)));

@@ -7,14 +7,14 @@
 
 // Each analysis module registers itself here.
 // (modules)
-pub mod perturb;
-pub mod tolerance;
-pub mod noise;
-pub mod loading;
-pub mod response;
 pub mod alias;
 pub mod checks;
 pub mod cmrr;
+pub mod loading;
+pub mod noise;
+pub mod perturb;
+pub mod response;
+pub mod tolerance;
 
 use crate::request::Request;
 
@@ -39,7 +39,15 @@ pub struct AnalysisConfig {
 
 impl Default for AnalysisConfig {
     fn default() -> Self {
-        AnalysisConfig { ac_points: 400, dc_points: 121, noise_points: 160, monte_carlo_runs: 10_000, seed: 1, temperature: 300.0, histogram_bins: 40 }
+        AnalysisConfig {
+            ac_points: 400,
+            dc_points: 121,
+            noise_points: 160,
+            monte_carlo_runs: 10_000,
+            seed: 1,
+            temperature: 300.0,
+            histogram_bins: 40,
+        }
     }
 }
 
@@ -81,30 +89,14 @@ pub struct Nominal {
 
 /// Runs every analysis on `circuit` and returns them with the checks that follow.
 pub fn analyse(
-    req: &Request,
-    circuit: &crate::circuit::Circuit,
-    nominal: Nominal,
-    cfg: &AnalysisConfig,
+    req: &Request, circuit: &crate::circuit::Circuit, nominal: Nominal, cfg: &AnalysisConfig,
 ) -> (Analysis, Vec<crate::diag::Check>) {
     let dc = response::dc_transfer(req, circuit, nominal.gain, cfg.dc_points);
-    let ac = response::ac_response(
-        req,
-        circuit,
-        nominal.f_low_3db,
-        nominal.f_high_3db,
-        cfg.ac_points,
-    );
-    let noise_cfg = noise::NoiseConfig {
-        temperature: cfg.temperature,
-        points: cfg.noise_points,
-        include_amplifier: true,
-    };
+    let ac = response::ac_response(req, circuit, nominal.f_low_3db, nominal.f_high_3db, cfg.ac_points);
+    let noise_cfg =
+        noise::NoiseConfig { temperature: cfg.temperature, points: cfg.noise_points, include_amplifier: true };
     let noise = noise::noise(req, circuit, nominal.gain, nominal.f_high_3db, &noise_cfg);
-    let tol_cfg = tolerance::ToleranceConfig {
-        runs: cfg.monte_carlo_runs,
-        seed: cfg.seed,
-        bins: cfg.histogram_bins,
-    };
+    let tol_cfg = tolerance::ToleranceConfig { runs: cfg.monte_carlo_runs, seed: cfg.seed, bins: cfg.histogram_bins };
     let tolerance = tolerance::tolerance(req, circuit, &tol_cfg);
     let loading = loading::loading(req, circuit);
     let alias = alias::alias(req, circuit);

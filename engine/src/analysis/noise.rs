@@ -121,7 +121,9 @@ pub struct DensityPoint {
 ///
 /// `mid_gain` is the design's gain from the sensor to the converter (V/V, sign ignored);
 /// `f_high_3db` is the design's −3 dB high corner, if it has one.
-pub fn noise(req: &Request, circuit: &Circuit, mid_gain: f64, f_high_3db: Option<f64>, cfg: &NoiseConfig) -> NoiseAnalysis {
+pub fn noise(
+    req: &Request, circuit: &Circuit, mid_gain: f64, f_high_3db: Option<f64>, cfg: &NoiseConfig,
+) -> NoiseAnalysis {
     let [f_lo, f_hi] = band(req, f_high_3db);
     let temperature = if cfg.temperature.is_finite() && cfg.temperature >= 0.0 { cfg.temperature } else { 0.0 };
     let sources = sources(circuit, cfg.include_amplifier);
@@ -138,17 +140,26 @@ pub fn noise(req: &Request, circuit: &Circuit, mid_gain: f64, f_high_3db: Option
         let flicker = 1.0 + corner / f;
         for (k, s) in sources.iter().enumerate() {
             let p = match s {
-                Source::Resistor { a, b, ohms, .. } => (at(a) - at(b)).norm_sqr() * 4.0 * BOLTZMANN * temperature / ohms,
-                Source::Voltage { internal, .. } => at(internal).norm_sqr() * (GM * amp.noise_voltage).powi(2) * flicker,
-                Source::Current { inp, inn, .. } => (at(inp).norm_sqr() + at(inn).norm_sqr()) * amp.noise_current.powi(2) * flicker,
+                Source::Resistor { a, b, ohms, .. } => {
+                    (at(a) - at(b)).norm_sqr() * 4.0 * BOLTZMANN * temperature / ohms
+                }
+                Source::Voltage { internal, .. } => {
+                    at(internal).norm_sqr() * (GM * amp.noise_voltage).powi(2) * flicker
+                }
+                Source::Current { inp, inn, .. } => {
+                    (at(inp).norm_sqr() + at(inn).norm_sqr()) * amp.noise_current.powi(2) * flicker
+                }
             };
             power[k].push(if p.is_finite() { p } else { 0.0 });
         }
         freqs.push(f);
     }
 
-    let mut contributors: Vec<Contributor> =
-        sources.iter().zip(&power).map(|(s, p)| Contributor { part: s.name(), output_rms: trapezoid(&freqs, p).sqrt() }).collect();
+    let mut contributors: Vec<Contributor> = sources
+        .iter()
+        .zip(&power)
+        .map(|(s, p)| Contributor { part: s.name(), output_rms: trapezoid(&freqs, p).sqrt() })
+        .collect();
     crate::order::sort_by(&mut contributors, |a, b| b.output_rms.total_cmp(&a.output_rms));
     let output_rms = contributors.iter().map(|c| c.output_rms * c.output_rms).sum::<f64>().sqrt();
     let density = freqs
@@ -253,7 +264,11 @@ fn sources(circuit: &Circuit, amplifiers: bool) -> Vec<Source> {
             }),
             PartKind::OpAmp if amplifiers => {
                 out.push(Source::Voltage { reference: p.reference.clone(), internal: format!("{}:x", p.reference) });
-                out.push(Source::Current { reference: p.reference.clone(), inp: node(&p.nodes, 0), inn: node(&p.nodes, 1) });
+                out.push(Source::Current {
+                    reference: p.reference.clone(),
+                    inp: node(&p.nodes, 0),
+                    inn: node(&p.nodes, 1),
+                });
             }
             _ => {}
         }

@@ -124,11 +124,7 @@ impl Kernel {
                 if kind == ParamKind::Resistor {
                     res.push((params.len(), p.value));
                 }
-                params.push(Param {
-                    kind,
-                    part: p.reference.clone(),
-                    bound: finite_abs(t),
-                });
+                params.push(Param { kind, part: p.reference.clone(), bound: finite_abs(t) });
             }
         }
         let amp = &circuit.amplifier;
@@ -140,30 +136,16 @@ impl Kernel {
                 (ParamKind::BiasPlus, amp.bias_current),
                 (ParamKind::BiasMinus, amp.bias_current),
             ] {
-                params.push(Param {
-                    kind,
-                    part: p.reference.clone(),
-                    bound: finite_abs(bound),
-                });
+                params.push(Param { kind, part: p.reference.clone(), bound: finite_abs(bound) });
             }
         }
-        let ctx = Ctx {
-            circuit,
-            part_param: &part_param,
-            amp_param: &amp_param,
-            out,
-            n_params: params.len(),
-        };
+        let ctx = Ctx { circuit, part_param: &part_param, amp_param: &amp_param, out, n_params: params.len() };
         let (dc, nodes) = ctx.system(false)?;
         let mid = ctx.system(true).ok().map(|(s, _)| s);
         // The output is an amplifier's, or the far end of a resistor from one (a drive
         // resistor into a light load): the amplifier's swing limits bound it either way.
-        let amp_out = |n: &str| {
-            circuit
-                .parts
-                .iter()
-                .any(|p| p.kind == PartKind::OpAmp && p.nodes.get(4).is_some_and(|m| m == n))
-        };
+        let amp_out =
+            |n: &str| circuit.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.nodes.get(4).is_some_and(|m| m == n));
         let out_amp = amp_out(out)
             || circuit.parts.iter().any(|p| {
                 !p.bench
@@ -172,14 +154,7 @@ impl Kernel {
                     && p.nodes.iter().any(|n| n == out)
                     && p.nodes.iter().any(|n| n != out && amp_out(n))
             });
-        Ok(Kernel {
-            params,
-            dc,
-            mid,
-            out_amp,
-            nodes,
-            res,
-        })
+        Ok(Kernel { params, dc, mid, out_amp, nodes, res })
     }
 
     /// The parameters, in the order a parameter slice must list them.
@@ -201,12 +176,7 @@ impl Kernel {
     /// Buffers large enough for either system.
     pub fn workspace(&self) -> Workspace {
         let n = self.dc.n.max(self.mid.as_ref().map_or(0, |m| m.n)).max(1);
-        Workspace {
-            a: vec![0.0; n * n],
-            u: vec![0.0; n],
-            w: vec![0.0; n],
-            g: vec![0.0; self.params.len()],
-        }
+        Workspace { a: vec![0.0; n * n], u: vec![0.0; n], w: vec![0.0; n], g: vec![0.0; self.params.len()] }
     }
 
     /// DC output as `(slope, intercept)`: output = slope·source + intercept for a build with
@@ -226,11 +196,7 @@ impl Kernel {
 
     /// [`Kernel::dc_line`] and [`Kernel::short_gain`] of one build together, sharing its
     /// conductances.
-    pub fn dc_line_and_short_gain(
-        &self,
-        p: &[f64],
-        ws: &mut Workspace,
-    ) -> Option<((f64, f64), f64)> {
+    pub fn dc_line_and_short_gain(&self, p: &[f64], ws: &mut Workspace) -> Option<((f64, f64), f64)> {
         self.conductances(p, ws)?;
         let dc = self.dc.line(ws)?;
         Some((dc, self.mid.as_ref()?.line(ws)?.0))
@@ -272,12 +238,7 @@ impl Kernel {
             Col::Free(i) => u[i] * source + w[i],
             Col::Known { u, w } => u * source + w,
         };
-        Some(
-            self.nodes
-                .iter()
-                .map(|(name, c)| (name.clone(), value(c)))
-                .collect(),
-        )
+        Some(self.nodes.iter().map(|(name, c)| (name.clone(), value(c))).collect())
     }
 }
 
@@ -384,9 +345,7 @@ impl System {
             6 => self.line_in(g, &mut [0.0; 36], &mut [0.0; 6], &mut [0.0; 6]),
             7 => self.line_in(g, &mut [0.0; 49], &mut [0.0; 7], &mut [0.0; 7]),
             8 => self.line_in(g, &mut [0.0; 64], &mut [0.0; 8], &mut [0.0; 8]),
-            n if a.len() >= n * n && u.len() >= n => {
-                self.line_in(g, &mut a[..n * n], &mut u[..n], &mut w[..n])
-            }
+            n if a.len() >= n * n && u.len() >= n => self.line_in(g, &mut a[..n * n], &mut u[..n], &mut w[..n]),
             _ => None,
         }
     }
@@ -394,13 +353,7 @@ impl System {
     /// Runs the compiled elimination; falls back to full partial pivoting when a pivot has
     /// shrunk below half its nominal size (or there is no program).
     #[inline(always)]
-    fn line_in(
-        &self,
-        g: &[f64],
-        a: &mut [f64],
-        u: &mut [f64],
-        w: &mut [f64],
-    ) -> Option<(f64, f64)> {
+    fn line_in(&self, g: &[f64], a: &mut [f64], u: &mut [f64], w: &mut [f64]) -> Option<(f64, f64)> {
         let n = self.n;
         let mut ok = self.compiled;
         if ok {

@@ -104,7 +104,9 @@ pub fn dc_transfer(req: &Request, circuit: &Circuit, mid_gain: f64, points: usiz
 }
 
 /// Frequency response with `points` log-spaced points.
-pub fn ac_response(req: &Request, circuit: &Circuit, f_low_3db: Option<f64>, f_high_3db: Option<f64>, points: usize) -> AcAnalysis {
+pub fn ac_response(
+    req: &Request, circuit: &Circuit, f_low_3db: Option<f64>, f_high_3db: Option<f64>, points: usize,
+) -> AcAnalysis {
     let solver = Solver::new(circuit);
     let s = &req.source;
     let fs = req.destination.sample_rate;
@@ -123,8 +125,15 @@ pub fn ac_response(req: &Request, circuit: &Circuit, f_low_3db: Option<f64>, f_h
     }
     let at = |f: f64| solver.transfer(f, "adc").map(db).unwrap_or(f64::NAN);
     let f_mid = if s.coupling == Coupling::Ac { (s.band_low * s.band_high).sqrt() } else { 0.0 };
-    let in_band: Vec<f64> = out.iter().filter(|p| p.f >= s.band_low && p.f <= s.band_high).map(|p| p.mag_db).chain([at(s.band_high)]).chain(if s.band_low > 0.0 { Some(at(s.band_low)) } else { None }).collect();
-    let ripple_db = in_band.iter().cloned().fold(f64::NEG_INFINITY, f64::max) - in_band.iter().cloned().fold(f64::INFINITY, f64::min);
+    let in_band: Vec<f64> = out
+        .iter()
+        .filter(|p| p.f >= s.band_low && p.f <= s.band_high)
+        .map(|p| p.mag_db)
+        .chain([at(s.band_high)])
+        .chain(if s.band_low > 0.0 { Some(at(s.band_low)) } else { None })
+        .collect();
+    let ripple_db = in_band.iter().cloned().fold(f64::NEG_INFINITY, f64::max)
+        - in_band.iter().cloned().fold(f64::INFINITY, f64::min);
     AcAnalysis {
         points: out,
         f_low_3db,

@@ -71,11 +71,7 @@ pub const MAX_BINS: usize = 10_000;
 
 impl From<&AnalysisConfig> for ToleranceConfig {
     fn from(c: &AnalysisConfig) -> Self {
-        ToleranceConfig {
-            runs: c.monte_carlo_runs,
-            seed: c.seed,
-            bins: c.histogram_bins,
-        }
+        ToleranceConfig { runs: c.monte_carlo_runs, seed: c.seed, bins: c.histogram_bins }
     }
 }
 
@@ -154,23 +150,13 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
     let model = match Model::new(req, circuit) {
         Ok(m) => m,
         Err(reason) => {
-            let cfg = &ToleranceConfig {
-                bins: cfg.bins.min(MAX_BINS),
-                ..cfg.clone()
-            };
+            let cfg = &ToleranceConfig { bins: cfg.bins.min(MAX_BINS), ..cfg.clone() };
             let notes = vec![format!("No builds were drawn: {reason}.")];
             let monte_carlo = summary::monte_carlo(Vec::new(), [0; 3], 0, req, cfg, notes);
-            return ToleranceAnalysis {
-                worst_case: WorstCase::unknown(&reason),
-                monte_carlo,
-            };
+            return ToleranceAnalysis { worst_case: WorstCase::unknown(&reason), monte_carlo };
         }
     };
-    let cfg = &ToleranceConfig {
-        runs: cfg.runs.min(MAX_RUNS),
-        seed: cfg.seed,
-        bins: cfg.bins.min(MAX_BINS),
-    };
+    let cfg = &ToleranceConfig { runs: cfg.runs.min(MAX_RUNS), seed: cfg.seed, bins: cfg.bins.min(MAX_BINS) };
     let mut ws = model.kernel.workspace();
     let (worst_case, effect) = worst_case(&model, &mut ws);
     let span = (req.destination.max - req.destination.min).abs();
@@ -207,21 +193,29 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
     let mut mc_ws = mc.kernel.workspace();
     let (builds, counts) = draw_builds(mc, &mut mc_ws, req, cfg, &mc_drawn);
     let mut notes = distributions(model.kernel.params());
-    let held: Vec<String> = model.kernel.params().iter().zip(&drawn).filter(|(p, d)| !**d && p.kind != ParamKind::Capacitor).map(|(p, _)| match p.kind {
-        ParamKind::Resistor => p.part.clone(),
-        ParamKind::Offset => format!("{} offset", p.part),
-        _ => format!("{} bias current", p.part),
-    }).collect();
+    let held: Vec<String> = model
+        .kernel
+        .params()
+        .iter()
+        .zip(&drawn)
+        .filter(|(p, d)| !**d && p.kind != ParamKind::Capacitor)
+        .map(|(p, _)| match p.kind {
+            ParamKind::Resistor => p.part.clone(),
+            ParamKind::Offset => format!("{} offset", p.part),
+            _ => format!("{} bias current", p.part),
+        })
+        .collect();
     if !held.is_empty() {
         let mut held = held;
         held.dedup();
-        notes.push(format!("Held nominal because their full range moves no quantity by more than {} of the span: {}.", NEGLIGIBLE_EFFECT, held.join(", ")));
+        notes.push(format!(
+            "Held nominal because their full range moves no quantity by more than {} of the span: {}.",
+            NEGLIGIBLE_EFFECT,
+            held.join(", ")
+        ));
     }
     let monte_carlo = summary::monte_carlo(builds, counts, cfg.runs, req, cfg, notes);
-    ToleranceAnalysis {
-        worst_case,
-        monte_carlo,
-    }
+    ToleranceAnalysis { worst_case, monte_carlo }
 }
 
 /// The compiled circuit with the request's source and the amplifier's limits.
@@ -240,13 +234,8 @@ impl Model {
     fn new(req: &Request, circuit: &Circuit) -> Result<Model, String> {
         let kernel = Kernel::compile(circuit, "adc").map_err(|e| e.0)?;
         let s = &req.source;
-        let rails = Rails {
-            pos: circuit.rail_pos,
-            neg: circuit.rail_neg,
-        };
-        let limits = kernel
-            .output_is_amplifier()
-            .then(|| circuit.amplifier.output_limits(rails));
+        let rails = Rails { pos: circuit.rail_pos, neg: circuit.rail_neg };
+        let limits = kernel.output_is_amplifier().then(|| circuit.amplifier.output_limits(rails));
         let ac = s.coupling == Coupling::Ac;
         let mut ac_scale = 1.0;
         if ac {
@@ -254,24 +243,14 @@ impl Model {
             let short = kernel.short_gain(&zero, &mut kernel.workspace());
             let short = short.ok_or("the mid-band gain could not be found")?;
             let f_mid = (s.band_low * s.band_high).sqrt();
-            let h = Solver::new(circuit)
-                .transfer(f_mid, "adc")
-                .map_err(|e| e.0)?;
+            let h = Solver::new(circuit).transfer(f_mid, "adc").map_err(|e| e.0)?;
             let full = if h.re >= 0.0 { h.norm() } else { -h.norm() };
             if short != 0.0 && (full / short).is_finite() {
                 ac_scale = full / short;
             }
         }
         let mid = 0.5 * (s.min + s.max);
-        Ok(Model {
-            kernel,
-            ac,
-            s_min: s.min,
-            s_max: s.max,
-            mid,
-            ac_scale,
-            limits,
-        })
+        Ok(Model { kernel, ac, s_min: s.min, s_max: s.max, mid, ac_scale, limits })
     }
 
     /// Unclamped `[output at min, output at max, gain, offset]` of build `p`.
@@ -279,19 +258,11 @@ impl Model {
         if self.ac {
             let ((slope, icpt), short) = self.kernel.dc_line_and_short_gain(p, ws)?;
             let (level, g) = (slope * self.mid + icpt, self.ac_scale * short);
-            let (y1, y2) = (
-                level + g * (self.s_min - self.mid),
-                level + g * (self.s_max - self.mid),
-            );
+            let (y1, y2) = (level + g * (self.s_min - self.mid), level + g * (self.s_max - self.mid));
             Some([y1, y2, g, level])
         } else {
             let (slope, icpt) = self.kernel.dc_line(p, ws)?;
-            Some([
-                slope * self.s_min + icpt,
-                slope * self.s_max + icpt,
-                slope,
-                icpt,
-            ])
+            Some([slope * self.s_min + icpt, slope * self.s_max + icpt, slope, icpt])
         }
     }
 
@@ -329,13 +300,7 @@ impl WorstCase {
     fn unknown(reason: &str) -> WorstCase {
         let nan = [f64::NAN; 2];
         let method = format!("not available: {reason}");
-        WorstCase {
-            output_at_min: nan,
-            output_at_max: nan,
-            gain: nan,
-            offset: nan,
-            method,
-        }
+        WorstCase { output_at_min: nan, output_at_max: nan, gain: nan, offset: nan, method }
     }
 }
 
@@ -381,11 +346,7 @@ fn worst_case(model: &Model, ws: &mut Workspace) -> (WorstCase, Vec<[f64; 4]>) {
     for (q, e) in ext.iter_mut().enumerate() {
         for (side, dir) in [(0, -1.0), (1, 1.0)] {
             for i in 0..n {
-                p[i] = if dir * effect[i][q] >= 0.0 {
-                    bounds[i]
-                } else {
-                    -bounds[i]
-                };
+                p[i] = if dir * effect[i][q] >= 0.0 { bounds[i] } else { -bounds[i] };
             }
             let mut best = model.raw(&p, ws).map_or(nominal[q], |r| r[q]);
             for _ in 0..n.max(1) {
@@ -432,32 +393,17 @@ fn worst_case(model: &Model, ws: &mut Workspace) -> (WorstCase, Vec<[f64; 4]>) {
     };
     let mut method = METHOD.to_string();
     if limited && model.ac {
-        method.push_str(
-            " An output reaches the amplifier's swing limit at a vertex and is held there.",
-        );
+        method.push_str(" An output reaches the amplifier's swing limit at a vertex and is held there.");
     } else if limited {
         method.push_str(" An output reaches the amplifier's swing limit at a vertex and is held there; the gain and offset bounds then follow from the limited outputs by interval arithmetic (they may be wider than any build reaches).");
     }
-    (
-        WorstCase {
-            output_at_min: y1,
-            output_at_max: y2,
-            gain,
-            offset,
-            method,
-        },
-        effect,
-    )
+    (WorstCase { output_at_min: y1, output_at_max: y2, gain, offset, method }, effect)
 }
 
 /// Draws and solves the builds: each build's limited quantities, and the counts of builds
 /// inside the converter range, inside the headroom, and covering the range-use fraction.
 fn draw_builds(
-    model: &Model,
-    ws: &mut Workspace,
-    req: &Request,
-    cfg: &ToleranceConfig,
-    drawn: &[bool],
+    model: &Model, ws: &mut Workspace, req: &Request, cfg: &ToleranceConfig, drawn: &[bool],
 ) -> (Vec<[f64; 4]>, [usize; 3]) {
     let params = model.kernel.params();
     let mut rng = ChaCha8Rng::seed_from_u64(cfg.seed);
@@ -474,19 +420,11 @@ fn draw_builds(
             .collect()
     };
     let parts = pick(|k| k == ParamKind::Resistor);
-    let amps = pick(|k| {
-        matches!(
-            k,
-            ParamKind::Offset | ParamKind::BiasPlus | ParamKind::BiasMinus
-        )
-    });
+    let amps = pick(|k| matches!(k, ParamKind::Offset | ParamKind::BiasPlus | ParamKind::BiasMinus));
     let d = &req.destination;
     let span = d.max - d.min;
     let slack = 1e-9 * span.abs();
-    let (h_lo, h_hi) = (
-        d.min + d.headroom * span - slack,
-        d.max - d.headroom * span + slack,
-    );
+    let (h_lo, h_hi) = (d.min + d.headroom * span - slack, d.max - d.headroom * span + slack);
     let fraction = summary::range_use_fraction(req);
     let mut builds = Vec::with_capacity(cfg.runs);
     let mut counts = [0usize; 3];
@@ -506,11 +444,7 @@ fn draw_builds(
         if !(y[0].is_finite() && y[1].is_finite() && y[2].is_finite() && y[3].is_finite()) {
             continue;
         }
-        let (lo, hi) = if y[0] < y[1] {
-            (y[0], y[1])
-        } else {
-            (y[1], y[0])
-        };
+        let (lo, hi) = if y[0] < y[1] { (y[0], y[1]) } else { (y[1], y[0]) };
         counts[0] += (lo >= d.min && hi <= d.max) as usize;
         counts[1] += (lo >= h_lo && hi <= h_hi) as usize;
         counts[2] += (hi - lo >= fraction * span) as usize;
@@ -551,14 +485,7 @@ fn distributions(params: &[Param]) -> Vec<String> {
     for (kind, bound, parts) in &groups {
         let list = parts.join(", ");
         let pct = format!("{} %", format(bound * 100.0, Quantity::Ratio));
-        let fig = format(
-            *bound,
-            if *kind == ParamKind::Offset {
-                Quantity::Voltage
-            } else {
-                Quantity::Current
-            },
-        );
+        let fig = format(*bound, if *kind == ParamKind::Offset { Quantity::Voltage } else { Quantity::Current });
         let normal = format!("normal with {fig} as 3σ, truncated at ±{fig}");
         out.push(match kind {
             ParamKind::Resistor => format!("Resistors {list}: uniform over ±{pct} of the nominal value, a conservative stand-in for unknown production spreads."),
@@ -568,6 +495,8 @@ fn distributions(params: &[Param]) -> Vec<String> {
             ParamKind::BiasMinus => format!("Bias current of the − input of {list}, drawn independently of the + input: {normal}; positive flows into the pin."),
         });
     }
-    out.push("The sensor, the supplies and the converter's input load (the bench) stay at their nominal values.".to_string());
+    out.push(
+        "The sensor, the supplies and the converter's input load (the bench) stay at their nominal values.".to_string(),
+    );
     out
 }

@@ -21,7 +21,10 @@ pub(super) fn feasibility(req: &Request, rails: Rails, amp: &Amplifier) -> Vec<C
         c.push(Check::error("zero_span", format!("The sensor's min and max are both {}; a span is needed to map onto the converter. Give the sensor's lowest and highest output.", v(s.min))));
     }
     if !(d.max > d.min) {
-        c.push(Check::error("zero_destination_span", "The converter's input min and max are equal; give its input range, e.g. 0 … 3.3 V."));
+        c.push(Check::error(
+            "zero_destination_span",
+            "The converter's input min and max are equal; give its input range, e.g. 0 … 3.3 V.",
+        ));
     }
     let nyquist = 0.5 * d.sample_rate;
     if s.band_high > nyquist {
@@ -39,7 +42,10 @@ pub(super) fn feasibility(req: &Request, rails: Rails, amp: &Amplifier) -> Vec<C
         ));
     }
     if s.band_high <= s.band_low {
-        c.push(Check::error("band_order", format!("band_high ({}) must be above band_low ({}).", hz(s.band_high), hz(s.band_low))));
+        c.push(Check::error(
+            "band_order",
+            format!("band_high ({}) must be above band_low ({}).", hz(s.band_high), hz(s.band_low)),
+        ));
     }
     if s.coupling == Coupling::Ac && s.band_low <= 0.0 {
         c.push(Check::error("ac_needs_band_low", "AC coupling blocks DC, so band_low must be above 0 Hz; give the lowest frequency that must pass, or choose DC coupling."));
@@ -56,7 +62,9 @@ pub(super) fn feasibility(req: &Request, rails: Rails, amp: &Amplifier) -> Vec<C
     c
 }
 
-pub(super) fn design_checks(req: &Request, s: &synth::Synthesis, p: &Predicted, amp: &Amplifier, rails: Rails, r: &Requirements) -> Vec<Check> {
+pub(super) fn design_checks(
+    req: &Request, s: &synth::Synthesis, p: &Predicted, amp: &Amplifier, rails: Rails, r: &Requirements,
+) -> Vec<Check> {
     let mut c = s.checks.clone();
     let d = &req.destination;
     let span = d.max - d.min;
@@ -75,13 +83,26 @@ pub(super) fn design_checks(req: &Request, s: &synth::Synthesis, p: &Predicted, 
     let err_pct = rounding_error / span * 100.0;
     let lsb = span / 2f64.powi(d.bits as i32);
     let msg = format!("After rounding to {} the mapping is off by at most {} ({:.3} % of the span, {:.1} LSB) from the ideal; the headroom absorbs it and a two-point calibration removes it.", req.parts.resistor_series.name(), v(rounding_error), err_pct, rounding_error / lsb);
-    c.push(if err_pct <= 0.5 { Check::ok("rounding", msg) } else { Check::warning("rounding", format!("{msg} A finer series (E96) reduces it.")) });
+    c.push(if err_pct <= 0.5 {
+        Check::ok("rounding", msg)
+    } else {
+        Check::warning("rounding", format!("{msg} A finer series (E96) reduces it."))
+    });
     let (in_lo, in_hi) = amp.input_limits(rails);
     let (plo, phi) = s.plus_range;
     if plo < in_lo - 1e-9 || phi > in_hi + 1e-9 {
         c.push(Check::error("common_mode", format!("The amplifier's + input swings {} … {}, outside its input range {} … {} on these rails; choose an amplifier with rail-to-rail inputs or widen the rails.", v(plo), v(phi), v(in_lo), v(in_hi))));
     } else {
-        c.push(Check::ok("common_mode", format!("The amplifier's + input stays within {} … {}, inside its input range {} … {}.", v(plo), v(phi), v(in_lo), v(in_hi))));
+        c.push(Check::ok(
+            "common_mode",
+            format!(
+                "The amplifier's + input stays within {} … {}, inside its input range {} … {}.",
+                v(plo),
+                v(phi),
+                v(in_lo),
+                v(in_hi)
+            ),
+        ));
     }
     let filter_gbw = s.filter.as_ref().map_or(0.0, |f| f.gbw_min);
     if filter_gbw > amp.gbw && filter_gbw >= r.gbw_min {
@@ -89,35 +110,72 @@ pub(super) fn design_checks(req: &Request, s: &synth::Synthesis, p: &Predicted, 
     } else if r.gbw_min > amp.gbw {
         c.push(Check::warning("gbw", format!("The amplifier's gain-bandwidth {} is below the {} this gain and band need (noise gain {:.2} × band {} × {}); the gain will droop toward the band edge. Choose a faster amplifier or split the gain over two stages.", hz(amp.gbw), hz(r.gbw_min), r.noise_gain, hz(req.source.band_high), GBW_MARGIN)));
     } else {
-        c.push(Check::ok("gbw", format!("Gain-bandwidth {} covers the {} needed (noise gain {:.2}).", hz(amp.gbw), hz(r.gbw_min), r.noise_gain)));
+        c.push(Check::ok(
+            "gbw",
+            format!(
+                "Gain-bandwidth {} covers the {} needed (noise gain {:.2}).",
+                hz(amp.gbw),
+                hz(r.gbw_min),
+                r.noise_gain
+            ),
+        ));
     }
-    let f_slew = r.slew_rate_min / (2.0 * std::f64::consts::PI * (0.5 * (s.target.at_max - s.target.at_min).abs()).max(1e-12));
+    let f_slew =
+        r.slew_rate_min / (2.0 * std::f64::consts::PI * (0.5 * (s.target.at_max - s.target.at_min).abs()).max(1e-12));
     if r.slew_rate_min > amp.slew_rate {
         c.push(Check::warning("slew_rate", format!("A full-swing sine at {} needs {} V/µs but the amplifier slews {} V/µs; choose a faster amplifier or lower band_high.", hz(f_slew), sig3(r.slew_rate_min * 1e-6), sig3(amp.slew_rate * 1e-6))));
     } else {
-        c.push(Check::ok("slew_rate", format!("Slew rate {:.3} V/µs covers the {:.3} V/µs a full-swing sine at {} needs.", amp.slew_rate * 1e-6, r.slew_rate_min * 1e-6, hz(f_slew))));
+        c.push(Check::ok(
+            "slew_rate",
+            format!(
+                "Slew rate {:.3} V/µs covers the {:.3} V/µs a full-swing sine at {} needs.",
+                amp.slew_rate * 1e-6,
+                r.slew_rate_min * 1e-6,
+                hz(f_slew)
+            ),
+        ));
     }
     if let Some(fh) = p.band_high {
         if fh < req.source.band_high {
-            c.push(Check::warning("bandwidth", format!("The response falls 3 dB at {}, below the band edge {}.", hz(fh), hz(req.source.band_high))));
+            c.push(Check::warning(
+                "bandwidth",
+                format!("The response falls 3 dB at {}, below the band edge {}.", hz(fh), hz(req.source.band_high)),
+            ));
         }
     }
     if let (Some(fl), Coupling::Ac) = (p.band_low, req.source.coupling) {
         if fl > req.source.band_low {
-            c.push(Check::warning("band_low", format!("The response falls 3 dB at {}, above band_low {}.", hz(fl), hz(req.source.band_low))));
+            c.push(Check::warning(
+                "band_low",
+                format!("The response falls 3 dB at {}, above band_low {}.", hz(fl), hz(req.source.band_low)),
+            ));
         }
     }
     let rs = req.source.impedance;
     if let Some(circuit) = Some(&s.circuit) {
-        let big: Vec<String> = circuit.parts.iter().filter(|q| q.kind == PartKind::Capacitor && q.value > 100e-6).map(|q| format!("{} ({})", q.reference, format(q.value, Quantity::Capacitance))).collect();
+        let big: Vec<String> = circuit
+            .parts
+            .iter()
+            .filter(|q| q.kind == PartKind::Capacitor && q.value > 100e-6)
+            .map(|q| format!("{} ({})", q.reference, format(q.value, Quantity::Capacitance)))
+            .collect();
         if !big.is_empty() {
-            c.push(Check::warning("large_capacitor", format!("{} is very large because band_low is low; consider DC coupling or a higher band_low.", big.join(", "))));
+            c.push(Check::warning(
+                "large_capacitor",
+                format!(
+                    "{} is very large because band_low is low; consider DC coupling or a higher band_low.",
+                    big.join(", ")
+                ),
+            ));
         }
     }
     c.extend(synth::chain::drive_checks(req, s.drive.as_ref()));
     c.extend(synth::front::input_protection(req, &s.circuit, rails));
     if rs > 0.0 {
-        c.push(Check::ok("sensor_impedance", format!("The sensor's {} impedance is part of the gain equations.", format(rs, Quantity::Resistance))));
+        c.push(Check::ok(
+            "sensor_impedance",
+            format!("The sensor's {} impedance is part of the gain equations.", format(rs, Quantity::Resistance)),
+        ));
     }
     if !amp.assumed.is_empty() {
         c.push(Check::new("amplifier_assumed", Severity::Ok, format!("Figures not given in the request ({}) are those of a generic {}; any amplifier meeting the stated requirements will do.", amp.assumed.join(", "), amp.class)));

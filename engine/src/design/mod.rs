@@ -242,7 +242,9 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
 /// amplifier's finite gain can move the extremes by a hair past the headroom, so the target
 /// is pulled in by that much and the stage designed again (a few times at most). The
 /// attempt that misses least is kept.
-fn synthesise(syn: &Request, amp: &Amplifier, rails: Rails, mut target: Target) -> Option<(synth::Synthesis, Predicted)> {
+fn synthesise(
+    syn: &Request, amp: &Amplifier, rails: Rails, mut target: Target,
+) -> Option<(synth::Synthesis, Predicted)> {
     let d = &syn.destination;
     let span = d.max - d.min;
     // Inside the headroom and inside the amplifier's swing (half the synthesis margin): a
@@ -339,4 +341,3 @@ fn row(p: &Part) -> PartRow {
         purpose: p.purpose.clone(),
     }
 }
-

@@ -38,23 +38,52 @@ pub(super) fn requirements(req: &Request, s: &synth::Synthesis, amp: &Amplifier,
     let vpk = 0.5 * (s.target.at_max - s.target.at_min).abs();
     // With a filter, out-of-band content at the stated level reaches the amplifiers up to
     // the corner at that level (common practice: slew for the larger of the two sines).
-    let f_slew = s.filter.as_ref().map_or(req.source.band_high, |f| req.source.band_high.max(req.filter.out_of_band_level * f.corner));
+    let f_slew = s
+        .filter
+        .as_ref()
+        .map_or(req.source.band_high, |f| req.source.band_high.max(req.filter.out_of_band_level * f.corner));
     let slew_rate_min = 2.0 * std::f64::consts::PI * f_slew * vpk;
     let (out_lo, out_hi) = (s.target.at_min.min(s.target.at_max), s.target.at_min.max(s.target.at_max));
     let (in_lo, in_hi) = s.plus_range;
     let _ = amp;
     let summary = vec![
         format!("runs from {} (rails {} and {})", v(rails.total()), v(rails.pos), v(rails.neg)),
-        format!("output reaches {} … {} ({} from the lower rail, {} from the upper)", v(out_lo), v(out_hi), v(out_lo - rails.neg), v(rails.pos - out_hi)),
+        format!(
+            "output reaches {} … {} ({} from the lower rail, {} from the upper)",
+            v(out_lo),
+            v(out_hi),
+            v(out_lo - rails.neg),
+            v(rails.pos - out_hi)
+        ),
         format!("input common-mode range covers {} … {}", v(in_lo), v(in_hi)),
         if filter_gbw > gain_gbw {
-            format!("gain-bandwidth ≥ {} for the filter sections (100 × noise gain × Q × f_n; the gain stage needs {})", hz(gbw_min), hz(gain_gbw))
+            format!(
+                "gain-bandwidth ≥ {} for the filter sections (100 × noise gain × Q × f_n; the gain stage needs {})",
+                hz(gbw_min),
+                hz(gain_gbw)
+            )
         } else {
-            format!("gain-bandwidth ≥ {} (noise gain {:.3} × {} × {})", hz(gbw_min), ng, hz(req.source.band_high), GBW_MARGIN)
+            format!(
+                "gain-bandwidth ≥ {} (noise gain {:.3} × {} × {})",
+                hz(gbw_min),
+                ng,
+                hz(req.source.band_high),
+                GBW_MARGIN
+            )
         },
         format!("slew rate ≥ {} V/µs for a full-swing sine at {}", sig3(slew_rate_min * 1e-6), hz(f_slew)),
     ];
-    Requirements { supply: rails.total(), output_low: out_lo, output_high: out_hi, input_low: in_lo, input_high: in_hi, gbw_min, slew_rate_min, noise_gain: ng, summary }
+    Requirements {
+        supply: rails.total(),
+        output_low: out_lo,
+        output_high: out_hi,
+        input_low: in_lo,
+        input_high: in_hi,
+        gbw_min,
+        slew_rate_min,
+        noise_gain: ng,
+        summary,
+    }
 }
 
 /// Widens the amplifier requirements of the gain stage by what a front end's own
@@ -105,7 +134,6 @@ pub fn noise_gain(c: &Circuit) -> f64 {
     }
     rf.map_or(1.0, |rf| 1.0 + rf * g)
 }
-
 
 fn v(x: f64) -> String {
     format(x, Quantity::Voltage)

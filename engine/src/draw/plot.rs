@@ -122,6 +122,10 @@ impl PlotConfig {
     fn usable(&self) -> PlotConfig {
         let d = PlotConfig::default();
         let pick = |v: f64, def: f64, lo: f64, hi: f64| if v.is_finite() { v.clamp(lo, hi) } else { def };
-        PlotConfig { width: pick(self.width, d.width, 240.0, 4000.0), height: pick(self.height, d.height, 160.0, 4000.0), font_size: pick(self.font_size, d.font_size, 8.0, 24.0) }
+        PlotConfig {
+            width: pick(self.width, d.width, 240.0, 4000.0),
+            height: pick(self.height, d.height, 160.0, 4000.0),
+            font_size: pick(self.font_size, d.font_size, 8.0, 24.0),
+        }
     }
 }

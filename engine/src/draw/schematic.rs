@@ -82,7 +82,13 @@ pub struct SchematicConfig {
 
 impl Default for SchematicConfig {
     fn default() -> Self {
-        SchematicConfig { title: true, dc_levels: true, font_size: 13.0, line_width: 1.8, polarised_from: crate::bom::ELECTROLYTIC_FROM }
+        SchematicConfig {
+            title: true,
+            dc_levels: true,
+            font_size: 13.0,
+            line_width: 1.8,
+            polarised_from: crate::bom::ELECTROLYTIC_FROM,
+        }
     }
 }
 
@@ -118,13 +124,18 @@ pub fn test_points(req: &Request, circuit: &Circuit) -> Vec<TestPoint> {
     let amp = circuit.parts.iter().find(|p| p.kind == PartKind::OpAmp && p.stage != StageRole::InputStage);
     let s = &req.source;
     let mut want: Vec<String> = ["sense", "sensep", "sensen"].iter().map(|n| n.to_string()).collect();
-    let first = circuit.parts.iter().filter(|p| !p.bench && p.kind == PartKind::OpAmp && p.stage == StageRole::InputStage);
+    let first =
+        circuit.parts.iter().filter(|p| !p.bench && p.kind == PartKind::OpAmp && p.stage == StageRole::InputStage);
     want.extend(first.filter_map(|p| p.nodes.get(4).cloned()));
     if s.coupling == Coupling::Ac {
         want.extend(amp.and_then(|u| u.nodes.first()).cloned());
     }
     let known = circuit.nodes();
-    let converter = if known.iter().any(|n| n == "adc") { Some("adc".to_string()) } else { amp.and_then(|u| u.nodes.get(4)).cloned() };
+    let converter = if known.iter().any(|n| n == "adc") {
+        Some("adc".to_string())
+    } else {
+        amp.and_then(|u| u.nodes.get(4)).cloned()
+    };
     want.extend(converter);
     let mut nodes: Vec<String> = Vec::new();
     for n in want {
@@ -180,7 +191,9 @@ pub fn of_design(d: &crate::design::Design, cfg: &SchematicConfig) -> Option<Sch
 
 /// Draws `circuit` with the operating point `op` (for the DC levels and capacitor polarity),
 /// the test points `ranges` and the design `name` as title.
-pub fn schematic(circuit: &Circuit, op: Option<&DcSolution>, ranges: &[TestPoint], name: &str, cfg: &SchematicConfig) -> Schematic {
+pub fn schematic(
+    circuit: &Circuit, op: Option<&DcSolution>, ranges: &[TestPoint], name: &str, cfg: &SchematicConfig,
+) -> Schematic {
     let mut cfg = cfg.clone();
     cfg.font_size = if cfg.font_size.is_finite() { cfg.font_size.clamp(8.0, 24.0) } else { 13.0 };
     cfg.line_width = if cfg.line_width.is_finite() { cfg.line_width.clamp(1.5, 4.0) } else { 1.8 };
@@ -199,7 +212,8 @@ pub fn schematic(circuit: &Circuit, op: Option<&DcSolution>, ranges: &[TestPoint
     // on the second).
     let inamp = if buffer.is_none() && tia.is_none() { Inamp::of(circuit, &sh.rails) } else { None };
     let diff = if buffer.is_none() && tia.is_none() && inamp.is_none() { Diff::of(circuit, &sh.rails) } else { None };
-    let stage = |s: &diff::Stage| Plan { amp: Some(s.amp), out: s.out.clone(), start: start.clone(), ..Plan::default() };
+    let stage =
+        |s: &diff::Stage| Plan { amp: Some(s.amp), out: s.out.clone(), start: start.clone(), ..Plan::default() };
     let (plan, out) = match (&inamp, &diff) {
         (Some(a), _) => (stage(&a.stage), sh.inamp_rows(a)),
         (None, Some(d)) => (stage(&d.stage), sh.diff_row(d)),
@@ -273,7 +287,8 @@ fn value_text(p: &Part) -> String {
 fn range_text(min: f64, max: f64) -> String {
     let tiny = 1e-3 * min.abs().max(max.abs());
     let snap = |v: f64| if v.abs() < tiny { 0.0 } else { v };
-    let at = |sig: usize| (format_sig(snap(min), Quantity::Voltage, sig), format_sig(snap(max), Quantity::Voltage, sig));
+    let at =
+        |sig: usize| (format_sig(snap(min), Quantity::Voltage, sig), format_sig(snap(max), Quantity::Voltage, sig));
     let (mut a, mut b) = at(3);
     for sig in 4..=6 {
         if a != b || snap(min) == snap(max) {

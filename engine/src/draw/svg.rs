@@ -108,17 +108,23 @@ impl Segment {
 
     /// The closed segments share at least one point.
     pub fn intersects(&self, o: &Segment) -> bool {
-        let cross = |ax: f64, ay: f64, bx: f64, by: f64, cx: f64, cy: f64| (bx - ax) * (cy - ay) - (by - ay) * (cx - ax);
+        let cross =
+            |ax: f64, ay: f64, bx: f64, by: f64, cx: f64, cy: f64| (bx - ax) * (cy - ay) - (by - ay) * (cx - ax);
         let eps = 1e-9;
         let d1 = cross(o.x1, o.y1, o.x2, o.y2, self.x1, self.y1);
         let d2 = cross(o.x1, o.y1, o.x2, o.y2, self.x2, self.y2);
         let d3 = cross(self.x1, self.y1, self.x2, self.y2, o.x1, o.y1);
         let d4 = cross(self.x1, self.y1, self.x2, self.y2, o.x2, o.y2);
-        if ((d1 > eps && d2 < -eps) || (d1 < -eps && d2 > eps)) && ((d3 > eps && d4 < -eps) || (d3 < -eps && d4 > eps)) {
+        if ((d1 > eps && d2 < -eps) || (d1 < -eps && d2 > eps)) && ((d3 > eps && d4 < -eps) || (d3 < -eps && d4 > eps))
+        {
             return true;
         }
         let on = |ax: f64, ay: f64, bx: f64, by: f64, px: f64, py: f64, d: f64| {
-            d.abs() <= eps && px >= ax.min(bx) - eps && px <= ax.max(bx) + eps && py >= ay.min(by) - eps && py <= ay.max(by) + eps
+            d.abs() <= eps
+                && px >= ax.min(bx) - eps
+                && px <= ax.max(bx) + eps
+                && py >= ay.min(by) - eps
+                && py <= ay.max(by) + eps
         };
         on(o.x1, o.y1, o.x2, o.y2, self.x1, self.y1, d1)
             || on(o.x1, o.y1, o.x2, o.y2, self.x2, self.y2, d2)
@@ -129,8 +135,12 @@ impl Segment {
     /// `(x, y)` lies on the segment, strictly between its ends.
     fn interior(&self, x: f64, y: f64) -> bool {
         let eps = 1e-6;
-        let on_line = ((self.x2 - self.x1) * (y - self.y1) - (self.y2 - self.y1) * (x - self.x1)).abs() <= eps * (1.0 + self.len());
-        let within = x >= self.x1.min(self.x2) - eps && x <= self.x1.max(self.x2) + eps && y >= self.y1.min(self.y2) - eps && y <= self.y1.max(self.y2) + eps;
+        let on_line = ((self.x2 - self.x1) * (y - self.y1) - (self.y2 - self.y1) * (x - self.x1)).abs()
+            <= eps * (1.0 + self.len());
+        let within = x >= self.x1.min(self.x2) - eps
+            && x <= self.x1.max(self.x2) + eps
+            && y >= self.y1.min(self.y2) - eps
+            && y <= self.y1.max(self.y2) + eps;
         on_line && within && !near((x, y), (self.x1, self.y1)) && !near((x, y), (self.x2, self.y2))
     }
 
@@ -191,7 +201,11 @@ fn n(v: f64) -> String {
 impl Pen {
     fn attrs(&self) -> String {
         let dash = if self.dashed { " stroke-dasharray=\"6 4\"" } else { "" };
-        format!("stroke=\"{}\" stroke-width=\"{}\" stroke-linecap=\"round\" stroke-linejoin=\"round\"{dash}", self.colour, n(self.width))
+        format!(
+            "stroke=\"{}\" stroke-width=\"{}\" stroke-linecap=\"round\" stroke-linejoin=\"round\"{dash}",
+            self.colour,
+            n(self.width)
+        )
     }
 }
 
@@ -208,7 +222,15 @@ impl Svg {
 
     /// A stroke that is not recorded (marks inside a symbol's keep-out box).
     pub fn line(&mut self, a: (f64, f64), b: (f64, f64), pen: Pen) {
-        let _ = writeln!(self.body, "<line x1=\"{}\" y1=\"{}\" x2=\"{}\" y2=\"{}\" {}/>", n(a.0), n(a.1), n(b.0), n(b.1), pen.attrs());
+        let _ = writeln!(
+            self.body,
+            "<line x1=\"{}\" y1=\"{}\" x2=\"{}\" y2=\"{}\" {}/>",
+            n(a.0),
+            n(a.1),
+            n(b.0),
+            n(b.1),
+            pen.attrs()
+        );
     }
 
     /// A closed outline whose edges are recorded as strokes.
@@ -229,13 +251,23 @@ impl Svg {
     /// A circle; its bounding box becomes a keep-out area.
     pub fn circle(&mut self, c: (f64, f64), r: f64, fill: &str, pen: Option<Pen>) {
         let stroke = pen.map(|p| p.attrs()).unwrap_or_else(|| "stroke=\"none\"".to_string());
-        let _ = writeln!(self.body, "<circle cx=\"{}\" cy=\"{}\" r=\"{}\" fill=\"{}\" {}/>", n(c.0), n(c.1), n(r), fill, stroke);
+        let _ = writeln!(
+            self.body,
+            "<circle cx=\"{}\" cy=\"{}\" r=\"{}\" fill=\"{}\" {}/>",
+            n(c.0),
+            n(c.1),
+            n(r),
+            fill,
+            stroke
+        );
         self.keepout.push(BoxRect::new(c.0 - r, c.1 - r, 2.0 * r, 2.0 * r));
     }
 
     /// A recorded text; `weight` and `style` are fixed words ("bold", "italic") or empty.
     #[allow(clippy::too_many_arguments)]
-    pub fn text(&mut self, x: f64, y: f64, text: &str, size: f64, anchor: Anchor, colour: &str, weight: &str, style: &str) -> BoxRect {
+    pub fn text(
+        &mut self, x: f64, y: f64, text: &str, size: f64, anchor: Anchor, colour: &str, weight: &str, style: &str,
+    ) -> BoxRect {
         let b = text_box(x, y, text, size, anchor);
         let a = match anchor {
             Anchor::Start => "start",
@@ -273,12 +305,15 @@ impl Svg {
 
     /// Nothing placed so far covers or crosses `b`.
     pub fn is_free(&self, b: &BoxRect) -> bool {
-        !self.texts.iter().any(|t| t.overlaps(b)) && !self.keepout.iter().any(|k| k.overlaps(b)) && !self.wires.iter().any(|s| b.crosses(s))
+        !self.texts.iter().any(|t| t.overlaps(b))
+            && !self.keepout.iter().any(|k| k.overlaps(b))
+            && !self.wires.iter().any(|s| b.crosses(s))
     }
 
     /// The segment would cross no text, keep-out area or recorded stroke.
     pub fn segment_is_free(&self, s: &Segment) -> bool {
-        !self.texts.iter().chain(self.keepout.iter()).any(|t| t.crosses(s)) && !self.wires.iter().any(|w| w.intersects(s))
+        !self.texts.iter().chain(self.keepout.iter()).any(|t| t.crosses(s))
+            && !self.wires.iter().any(|w| w.intersects(s))
     }
 
     /// Points where three or more wire ends of one net meet, or where a wire ends on the
@@ -343,7 +378,14 @@ impl Svg {
             n(font_size)
         );
         let _ = writeln!(s, "<title>{}</title>", escape(title));
-        let _ = writeln!(s, "<rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" fill=\"#ffffff\"/>", n(x), n(y), n(w), n(h));
+        let _ = writeln!(
+            s,
+            "<rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" fill=\"#ffffff\"/>",
+            n(x),
+            n(y),
+            n(w),
+            n(h)
+        );
         s.push_str(&self.body);
         s.push_str("</svg>\n");
         s

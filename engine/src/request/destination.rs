@@ -172,35 +172,80 @@ pub(super) fn read_destination(v: &Value) -> Result<Destination, RequestError> {
         None | Some("unknown") => ConverterKind::Unknown,
         Some("sar") => ConverterKind::Sar,
         Some("oversampling") => ConverterKind::Oversampling,
-        Some(other) => return Err(o.err("converter", &format!("'{other}' is not a converter kind; use \"sar\", \"oversampling\" or \"unknown\""))),
+        Some(other) => {
+            return Err(o.err(
+                "converter",
+                &format!("'{other}' is not a converter kind; use \"sar\", \"oversampling\" or \"unknown\""),
+            ))
+        }
     };
     let modulator_rate = o.q("modulator_rate", Quantity::Frequency)?;
     match (converter, modulator_rate) {
         (ConverterKind::Oversampling, None) => {
-            return Err(o.err("modulator_rate", "is required for an oversampling converter: the rate its modulator samples at, e.g. \"3.072 MHz\""))
+            return Err(o.err(
+                "modulator_rate",
+                "is required for an oversampling converter: the rate its modulator samples at, e.g. \"3.072 MHz\"",
+            ))
         }
         (ConverterKind::Oversampling, Some(f)) if f < 2.0 * sample_rate => {
-            return Err(o.err("modulator_rate", "must be at least twice the sample rate (the modulator runs faster than the output data rate)"))
+            return Err(o.err(
+                "modulator_rate",
+                "must be at least twice the sample rate (the modulator runs faster than the output data rate)",
+            ))
         }
         (kind, Some(_)) if kind != ConverterKind::Oversampling => {
-            return Err(o.err("modulator_rate", "applies only to an oversampling converter (destination.converter = \"oversampling\")"))
+            return Err(o.err(
+                "modulator_rate",
+                "applies only to an oversampling converter (destination.converter = \"oversampling\")",
+            ))
         }
         _ => {}
     }
-    let acquisition_time = o.q("acquisition_time", Quantity::Time)?.unwrap_or(DEFAULT_ACQUISITION_FRACTION / sample_rate);
+    let acquisition_time =
+        o.q("acquisition_time", Quantity::Time)?.unwrap_or(DEFAULT_ACQUISITION_FRACTION / sample_rate);
     if !(acquisition_time > 0.0) || acquisition_time > 1.0 / sample_rate {
         return Err(o.err("acquisition_time", "must be above 0 s and no longer than one sample period"));
     }
     let input_capacitance = o.q("input_capacitance", Quantity::Capacitance)?.unwrap_or(DEFAULT_INPUT_CAPACITANCE);
     if !(input_capacitance > 0.0) || input_capacitance > 1e-6 {
-        return Err(o.err("input_capacitance", "must be above 0 F and at most 1 µF (a converter's sampling capacitance, e.g. \"20 pF\")"));
+        return Err(o.err(
+            "input_capacitance",
+            "must be above 0 F and at most 1 µF (a converter's sampling capacitance, e.g. \"20 pF\")",
+        ));
     }
     let injection_limit = o.q("injection_limit", Quantity::Current)?.unwrap_or(DEFAULT_INJECTION_LIMIT);
     if !(injection_limit > 0.0) || injection_limit > 0.1 {
-        return Err(o.err("injection_limit", "must be above 0 A and at most 100 mA (e.g. \"5 mA\", from the converter's datasheet)"));
+        return Err(o.err(
+            "injection_limit",
+            "must be above 0 A and at most 100 mA (e.g. \"5 mA\", from the converter's datasheet)",
+        ));
     }
-    o.finish(&["min", "max", "bits", "sample_rate", "impedance", "headroom", "converter", "modulator_rate", "acquisition_time", "input_capacitance", "injection_limit"])?;
-    Ok(Destination { min, max, bits, sample_rate, impedance, headroom, converter, modulator_rate, acquisition_time, input_capacitance, injection_limit })
+    o.finish(&[
+        "min",
+        "max",
+        "bits",
+        "sample_rate",
+        "impedance",
+        "headroom",
+        "converter",
+        "modulator_rate",
+        "acquisition_time",
+        "input_capacitance",
+        "injection_limit",
+    ])?;
+    Ok(Destination {
+        min,
+        max,
+        bits,
+        sample_rate,
+        impedance,
+        headroom,
+        converter,
+        modulator_rate,
+        acquisition_time,
+        input_capacitance,
+        injection_limit,
+    })
 }
 
 pub(super) fn read_filter(v: &Value) -> Result<FilterSpec, RequestError> {
@@ -211,7 +256,12 @@ pub(super) fn read_filter(v: &Value) -> Result<FilterSpec, RequestError> {
         Some("linear_phase") => ResponseKind::LinearPhase,
         Some("steep") => ResponseKind::Steep,
         Some("none") => ResponseKind::None,
-        Some(other) => return Err(o.err("response", &format!("'{other}' is not a response; use \"flat\", \"linear_phase\", \"steep\" or \"none\""))),
+        Some(other) => {
+            return Err(o.err(
+                "response",
+                &format!("'{other}' is not a response; use \"flat\", \"linear_phase\", \"steep\" or \"none\""),
+            ))
+        }
     };
     let whole = |key: &str| -> Result<Option<u32>, RequestError> {
         match o.get(key) {
@@ -226,13 +276,20 @@ pub(super) fn read_filter(v: &Value) -> Result<FilterSpec, RequestError> {
     let max_order = whole("max_order")?.unwrap_or(d.max_order);
     if let Some(n) = order {
         if n > max_order {
-            return Err(o.err("order", &format!("{n} is above max_order ({max_order}); raise max_order or lower the order")));
+            return Err(
+                o.err("order", &format!("{n} is above max_order ({max_order}); raise max_order or lower the order"))
+            );
         }
     }
     let topology = match o.string("topology")?.as_deref() {
         None | Some("sallen_key") => FilterTopology::SallenKey,
         Some("multiple_feedback") => FilterTopology::MultipleFeedback,
-        Some(other) => return Err(o.err("topology", &format!("'{other}' is not a filter topology; use \"sallen_key\" or \"multiple_feedback\""))),
+        Some(other) => {
+            return Err(o.err(
+                "topology",
+                &format!("'{other}' is not a filter topology; use \"sallen_key\" or \"multiple_feedback\""),
+            ))
+        }
     };
     let passband_error = match o.get("passband_error") {
         // The steep response's own ripple is its passband error.
@@ -248,14 +305,20 @@ pub(super) fn read_filter(v: &Value) -> Result<FilterSpec, RequestError> {
         Some(Value::String(s)) if is_decibels(s) => {
             let db = decibels(&o.path_of("out_of_band_level"), &Value::String(s.clone()))?;
             if db > 0.0 {
-                return Err(o.err("out_of_band_level", "in dB it is relative to full scale and must not be above 0 dB (e.g. \"-40 dB\")"));
+                return Err(o.err(
+                    "out_of_band_level",
+                    "in dB it is relative to full scale and must not be above 0 dB (e.g. \"-40 dB\")",
+                ));
             }
             10f64.powf(db / 20.0)
         }
         Some(x) => quantity(&o.path_of("out_of_band_level"), x, Quantity::Ratio)?,
     };
     if !(out_of_band_level > 0.0 && out_of_band_level <= 1.0) {
-        return Err(o.err("out_of_band_level", "must be a fraction of full scale above 0 and at most 1 (e.g. 0.01, \"1 %\" or \"-40 dB\")"));
+        return Err(o.err(
+            "out_of_band_level",
+            "must be a fraction of full scale above 0 and at most 1 (e.g. 0.01, \"1 %\" or \"-40 dB\")",
+        ));
     }
     o.finish(&["response", "order", "max_order", "topology", "passband_error", "out_of_band_level"])?;
     Ok(FilterSpec { response, order, max_order, topology, passband_error, out_of_band_level })

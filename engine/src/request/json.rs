@@ -21,7 +21,12 @@ pub(super) fn decibels(path: &str, v: &Value) -> Result<f64, RequestError> {
             let body = lower.strip_suffix("dbfs").or_else(|| lower.strip_suffix("db")).unwrap_or(&lower);
             body.trim().replace('−', "-").parse::<f64>().ok()
         }
-        other => return Err(field_err(path, &format!("expected a level in dB as a number or a string such as \"0.1 dB\", got {}", json_kind(other)))),
+        other => {
+            return Err(field_err(
+                path,
+                &format!("expected a level in dB as a number or a string such as \"0.1 dB\", got {}", json_kind(other)),
+            ))
+        }
     };
     match x {
         Some(x) if x.is_finite() => Ok(x),

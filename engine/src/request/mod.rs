@@ -22,13 +22,13 @@ mod source;
 
 pub use destination::{
     ConverterKind, Destination, FilterSpec, FilterTopology, ResponseKind, DEFAULT_ACQUISITION_FRACTION, DEFAULT_BITS,
-    DEFAULT_DESTINATION_IMPEDANCE, DEFAULT_HEADROOM, DEFAULT_INJECTION_LIMIT, DEFAULT_INPUT_CAPACITANCE, DEFAULT_MAX_ORDER,
-    DEFAULT_PASSBAND_ERROR_DB, ORDER_LIMIT, STEEP_PASSBAND_ERROR_DB,
+    DEFAULT_DESTINATION_IMPEDANCE, DEFAULT_HEADROOM, DEFAULT_INJECTION_LIMIT, DEFAULT_INPUT_CAPACITANCE,
+    DEFAULT_MAX_ORDER, DEFAULT_PASSBAND_ERROR_DB, ORDER_LIMIT, STEEP_PASSBAND_ERROR_DB,
 };
 pub use parts::{AmplifierSpec, AnalysisOptions, Parts};
 pub use source::{
-    BridgeSpec, Coupling, FrontEnd, LoopSpec, Measurand, Source, SourceKind, DEFAULT_BAND_FRACTION_OF_FS, DEFAULT_BURDEN_MAX,
-    DEFAULT_ZERO_BALANCE, NAMUR_FAULT_HIGH, NAMUR_FAULT_LOW,
+    BridgeSpec, Coupling, FrontEnd, LoopSpec, Measurand, Source, SourceKind, DEFAULT_BAND_FRACTION_OF_FS,
+    DEFAULT_BURDEN_MAX, DEFAULT_ZERO_BALANCE, NAMUR_FAULT_HIGH, NAMUR_FAULT_LOW,
 };
 
 use serde::{Deserialize, Serialize};
@@ -92,10 +92,8 @@ impl std::error::Error for RequestError {}
 impl Request {
     /// Reads and normalises a request from JSON text.
     pub fn from_json(text: &str) -> Result<Request, RequestError> {
-        let value: Value = serde_json::from_str(text).map_err(|e| RequestError {
-            field: String::new(),
-            message: format!("not valid JSON ({e})"),
-        })?;
+        let value: Value = serde_json::from_str(text)
+            .map_err(|e| RequestError { field: String::new(), message: format!("not valid JSON ({e})") })?;
         Request::from_value(&value)
     }
 
@@ -109,7 +107,9 @@ impl Request {
                 if n == 0 || n > CURRENT_VERSION as u64 {
                     return Err(top.err(
                         "version",
-                        &format!("this request is version {n}; this build of Rangefit reads versions 1 to {CURRENT_VERSION}"),
+                        &format!(
+                            "this request is version {n}; this build of Rangefit reads versions 1 to {CURRENT_VERSION}"
+                        ),
                     ));
                 }
                 n as u32
@@ -140,8 +140,32 @@ impl Request {
             None => FilterSpec::default(),
             Some(v) => read_filter(v)?,
         };
-        top.finish(&["version", "name", "notes", "source", "destination", "supplies", "parts", "amplifier", "keep_polarity", "analysis", "filter"])?;
-        Ok(Request { version, name, notes, source, destination, supplies, parts, amplifier, keep_polarity, analysis, filter })
+        top.finish(&[
+            "version",
+            "name",
+            "notes",
+            "source",
+            "destination",
+            "supplies",
+            "parts",
+            "amplifier",
+            "keep_polarity",
+            "analysis",
+            "filter",
+        ])?;
+        Ok(Request {
+            version,
+            name,
+            notes,
+            source,
+            destination,
+            supplies,
+            parts,
+            amplifier,
+            keep_polarity,
+            analysis,
+            filter,
+        })
     }
 
     /// The normalised request as pretty JSON (the form `rangefit design` prints).
@@ -163,7 +187,10 @@ fn read_supplies(v: &Value) -> Result<Vec<f64>, RequestError> {
         let path = format!("supplies[{i}]");
         let x = quantity(&path, item, Quantity::Voltage)?;
         if x == 0.0 {
-            return Err(field_err(&path, "a rail of 0 V is ground, which is always available; list only the other rails"));
+            return Err(field_err(
+                &path,
+                "a rail of 0 V is ground, which is always available; list only the other rails",
+            ));
         }
         out.push(x);
     }

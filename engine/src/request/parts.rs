@@ -95,7 +95,9 @@ pub(super) fn read_parts(v: &Value) -> Result<Parts, RequestError> {
     let series = |o: &mut Obj, key: &str, default: Series| -> Result<Series, RequestError> {
         match o.string(key)? {
             None => Ok(default),
-            Some(s) => Series::parse(&s).ok_or_else(|| o.err(key, &format!("'{s}' is not an IEC 60063 series; use one of E3, E6, E12, E24, E48, E96, E192"))),
+            Some(s) => Series::parse(&s).ok_or_else(|| {
+                o.err(key, &format!("'{s}' is not an IEC 60063 series; use one of E3, E6, E12, E24, E48, E96, E192"))
+            }),
         }
     };
     let resistor_series = series(&mut o, "resistor_series", d.resistor_series)?;
@@ -112,9 +114,18 @@ pub(super) fn read_parts(v: &Value) -> Result<Parts, RequestError> {
     let resistor_min = o.q("resistor_min", Quantity::Resistance)?.unwrap_or(d.resistor_min);
     let resistor_max = o.q("resistor_max", Quantity::Resistance)?.unwrap_or(d.resistor_max);
     if resistor_min <= 0.0 || resistor_max < resistor_min * 10.0 {
-        return Err(o.err("resistor_max", "the resistor window must span at least one decade above resistor_min (> 0 Ω)"));
+        return Err(
+            o.err("resistor_max", "the resistor window must span at least one decade above resistor_min (> 0 Ω)")
+        );
     }
-    o.finish(&["resistor_series", "resistor_tolerance", "capacitor_series", "capacitor_tolerance", "resistor_min", "resistor_max"])?;
+    o.finish(&[
+        "resistor_series",
+        "resistor_tolerance",
+        "capacitor_series",
+        "capacitor_tolerance",
+        "resistor_min",
+        "resistor_max",
+    ])?;
     Ok(Parts { resistor_series, resistor_tolerance, capacitor_series, capacitor_tolerance, resistor_min, resistor_max })
 }
 
@@ -143,7 +154,12 @@ pub(super) fn read_amplifier(v: &Value) -> Result<AmplifierSpec, RequestError> {
             }
         }
     }
-    for (key, val) in [("noise_voltage", a.noise_voltage), ("noise_current", a.noise_current), ("noise_corner", a.noise_corner), ("supply_min", a.supply_min)] {
+    for (key, val) in [
+        ("noise_voltage", a.noise_voltage),
+        ("noise_current", a.noise_current),
+        ("noise_corner", a.noise_corner),
+        ("supply_min", a.supply_min),
+    ] {
         if let Some(x) = val {
             if x < 0.0 {
                 return Err(o.err(key, "must not be negative"));
@@ -159,8 +175,20 @@ pub(super) fn read_amplifier(v: &Value) -> Result<AmplifierSpec, RequestError> {
     a.offset = a.offset.map(f64::abs);
     a.bias_current = a.bias_current.map(f64::abs);
     o.finish(&[
-        "gbw", "slew_rate", "swing_low", "swing_high", "cm_low", "cm_high", "supply_min", "supply_max", "offset",
-        "bias_current", "noise_voltage", "noise_current", "noise_corner", "open_loop_gain",
+        "gbw",
+        "slew_rate",
+        "swing_low",
+        "swing_high",
+        "cm_low",
+        "cm_high",
+        "supply_min",
+        "supply_max",
+        "offset",
+        "bias_current",
+        "noise_voltage",
+        "noise_current",
+        "noise_corner",
+        "open_loop_gain",
     ])?;
     Ok(a)
 }

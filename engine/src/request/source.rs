@@ -33,7 +33,9 @@ impl SourceKind {
     /// The quantity of `source.min`/`max`: the measured quantity of this kind.
     pub fn quantity(self) -> Quantity {
         match self {
-            SourceKind::SingleEnded | SourceKind::HighImpedance | SourceKind::Differential | SourceKind::Bridge => Quantity::Voltage,
+            SourceKind::SingleEnded | SourceKind::HighImpedance | SourceKind::Differential | SourceKind::Bridge => {
+                Quantity::Voltage
+            }
             SourceKind::CurrentLoop | SourceKind::Photodiode => Quantity::Current,
         }
     }
@@ -176,7 +178,14 @@ pub(super) fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Re
         None => (o.required_q("min", q)?, o.required_q("max", q)?),
     };
     if max < min {
-        return Err(o.err("max", &format!("{} is below source.min ({}); give the lower extreme as min", units::format(max, q), units::format(min, q))));
+        return Err(o.err(
+            "max",
+            &format!(
+                "{} is below source.min ({}); give the lower extreme as min",
+                units::format(max, q),
+                units::format(min, q)
+            ),
+        ));
     }
     let current_loop = match kind {
         SourceKind::CurrentLoop => Some(read_loop(&o, min, max)?),
@@ -202,7 +211,9 @@ pub(super) fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Re
         (Some(f), _) => f,
         (None, Coupling::Dc) => 0.0,
         (None, Coupling::Ac) => {
-            return Err(o.err("band_low", "is required for AC coupling: the lowest frequency that must pass, e.g. \"20 Hz\""))
+            return Err(
+                o.err("band_low", "is required for AC coupling: the lowest frequency that must pass, e.g. \"20 Hz\"")
+            )
         }
     };
     let band_high = o.q("band_high", Quantity::Frequency)?.unwrap_or(dest.sample_rate * DEFAULT_BAND_FRACTION_OF_FS);
@@ -237,7 +248,10 @@ pub(super) fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Re
                 return Err(o.err("impedance", "does not apply to a photodiode: give its junction capacitance (capacitance) and dark current (dark_current)"));
             }
             if !c.is_some_and(|c| c > 0.0) {
-                return Err(o.err("capacitance", "is required for a photodiode: its junction capacitance at the bias used, e.g. \"20 pF\""));
+                return Err(o.err(
+                    "capacitance",
+                    "is required for a photodiode: its junction capacitance at the bias used, e.g. \"20 pF\"",
+                ));
             }
         }
         (_, Some(_)) => return Err(o.err("capacitance", "applies only to high-impedance sensors and photodiodes")),
@@ -247,7 +261,9 @@ pub(super) fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Re
     match (kind, dark_current) {
         (SourceKind::Photodiode, Some(d)) if !(d >= 0.0) => return Err(o.err("dark_current", "must not be negative")),
         (SourceKind::Photodiode, _) | (_, None) => {}
-        (_, Some(_)) => return Err(o.err("dark_current", "applies only to a photodiode (source.kind = \"photodiode\")")),
+        (_, Some(_)) => {
+            return Err(o.err("dark_current", "applies only to a photodiode (source.kind = \"photodiode\")"))
+        }
     }
     let (cm_lo, cm_hi) = (o.q("common_mode_min", Quantity::Voltage)?, o.q("common_mode_max", Quantity::Voltage)?);
     let (common_mode_min, common_mode_max) = match kind {
@@ -256,7 +272,9 @@ pub(super) fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Re
             let half = 0.5 * bridge.as_ref().map_or(0.0, |b| b.excitation);
             // The normalised request carries it: the same value reads back.
             if [cm_lo, cm_hi].iter().flatten().any(|v| (v - half).abs() > 1e-9 * half.abs().max(1.0)) {
-                return Err(o.err("common_mode_min", "follows from the excitation for a bridge (half of it); leave it out"));
+                return Err(
+                    o.err("common_mode_min", "follows from the excitation for a bridge (half of it); leave it out")
+                );
             }
             (Some(half), Some(half))
         }
@@ -267,13 +285,19 @@ pub(super) fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Re
             let lo = cm_lo.or(cm_hi).unwrap_or(0.0);
             let hi = cm_hi.unwrap_or(lo);
             if hi < lo {
-                return Err(o.err("common_mode_max", "is below common_mode_min; give the lower common-mode level as common_mode_min"));
+                return Err(o.err(
+                    "common_mode_max",
+                    "is below common_mode_min; give the lower common-mode level as common_mode_min",
+                ));
             }
             (Some(lo), Some(hi))
         }
         _ => {
             if cm_lo.is_some() || cm_hi.is_some() {
-                return Err(o.err(if cm_lo.is_some() { "common_mode_min" } else { "common_mode_max" }, "applies only to a differential sensor (source.kind = \"differential\")"));
+                return Err(o.err(
+                    if cm_lo.is_some() { "common_mode_min" } else { "common_mode_max" },
+                    "applies only to a differential sensor (source.kind = \"differential\")",
+                ));
             }
             (None, None)
         }
@@ -285,9 +309,37 @@ pub(super) fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Re
         }
         (Some("difference"), _) => FrontEnd::Difference,
         (Some("instrumentation"), _) => FrontEnd::Instrumentation,
-        (Some(other), _) => return Err(o.err("front_end", &format!("'{other}' is not a front end; use \"auto\", \"difference\" or \"instrumentation\""))),
+        (Some(other), _) => {
+            return Err(o.err(
+                "front_end",
+                &format!("'{other}' is not a front end; use \"auto\", \"difference\" or \"instrumentation\""),
+            ))
+        }
     };
-    o.finish(&["kind", "min", "max", "coupling", "impedance", "band_low", "band_high", "measurand", "burden_max", "fault_low", "fault_high", "capacitance", "dark_current", "common_mode_min", "common_mode_max", "front_end", "excitation", "sensitivity", "bridge_resistance", "active_arms", "ratiometric", "zero_balance"])?;
+    o.finish(&[
+        "kind",
+        "min",
+        "max",
+        "coupling",
+        "impedance",
+        "band_low",
+        "band_high",
+        "measurand",
+        "burden_max",
+        "fault_low",
+        "fault_high",
+        "capacitance",
+        "dark_current",
+        "common_mode_min",
+        "common_mode_max",
+        "front_end",
+        "excitation",
+        "sensitivity",
+        "bridge_resistance",
+        "active_arms",
+        "ratiometric",
+        "zero_balance",
+    ])?;
     if bridge.is_none() {
         for key in ["excitation", "sensitivity", "bridge_resistance", "active_arms", "ratiometric", "zero_balance"] {
             if o.get(key).is_some() {
@@ -295,14 +347,32 @@ pub(super) fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Re
             }
         }
     }
-    Ok(Source { kind, min, max, coupling, impedance, band_low, band_high, measurand, current_loop, capacitance, dark_current, common_mode_min, common_mode_max, front_end, bridge })
+    Ok(Source {
+        kind,
+        min,
+        max,
+        coupling,
+        impedance,
+        band_low,
+        band_high,
+        measurand,
+        current_loop,
+        capacitance,
+        dark_current,
+        common_mode_min,
+        common_mode_max,
+        front_end,
+        bridge,
+    })
 }
 
 /// The bridge fields of `source`.
 fn read_bridge(o: &Obj, supplies: &[f64]) -> Result<BridgeSpec, RequestError> {
     // "supply": the bridge runs from the highest positive rail (the request keeps its value).
     let excitation = match o.get("excitation") {
-        Some(Value::String(s)) if s.trim() == "supply" => supplies.iter().copied().filter(|v| *v > 0.0).fold(f64::NAN, f64::max),
+        Some(Value::String(s)) if s.trim() == "supply" => {
+            supplies.iter().copied().filter(|v| *v > 0.0).fold(f64::NAN, f64::max)
+        }
         _ => o.required_q("excitation", Quantity::Voltage)?,
     };
     if !(excitation > 0.0) {
@@ -310,7 +380,10 @@ fn read_bridge(o: &Obj, supplies: &[f64]) -> Result<BridgeSpec, RequestError> {
     }
     let sensitivity = o.required_q("sensitivity", Quantity::Ratio)?;
     if !(sensitivity > 0.0 && sensitivity < 0.5) {
-        return Err(o.err("sensitivity", "must be a full-scale output per volt of excitation between 0 and 0.5, e.g. 0.002 or \"2 m\" for 2 mV/V"));
+        return Err(o.err(
+            "sensitivity",
+            "must be a full-scale output per volt of excitation between 0 and 0.5, e.g. 0.002 or \"2 m\" for 2 mV/V",
+        ));
     }
     let bridge_resistance = o.required_q("bridge_resistance", Quantity::Resistance)?;
     if !(bridge_resistance > 0.0) {
@@ -340,7 +413,10 @@ fn read_bridge(o: &Obj, supplies: &[f64]) -> Result<BridgeSpec, RequestError> {
 /// The current-loop fields of `source`; the loop current flows into the measuring input.
 fn read_loop(o: &Obj, min: f64, max: f64) -> Result<LoopSpec, RequestError> {
     if !(min >= 0.0) || !(max > min) {
-        return Err(o.err(if min < 0.0 { "min" } else { "max" }, "a loop current runs one way: give 0 A ≤ min < max, e.g. \"4 mA\" and \"20 mA\""));
+        return Err(o.err(
+            if min < 0.0 { "min" } else { "max" },
+            "a loop current runs one way: give 0 A ≤ min < max, e.g. \"4 mA\" and \"20 mA\"",
+        ));
     }
     if o.string("coupling")?.as_deref() == Some("ac") {
         return Err(o.err("coupling", "a current loop carries its measurement as DC; use \"dc\""));
@@ -351,30 +427,45 @@ fn read_loop(o: &Obj, min: f64, max: f64) -> Result<LoopSpec, RequestError> {
     }
     let burden_max = o.q("burden_max", Quantity::Voltage)?.unwrap_or(DEFAULT_BURDEN_MAX);
     if !(burden_max > 0.0) {
-        return Err(o.err("burden_max", "must be above 0 V: the largest voltage the loop allows across the measuring input, e.g. \"5 V\""));
+        return Err(o.err(
+            "burden_max",
+            "must be above 0 V: the largest voltage the loop allows across the measuring input, e.g. \"5 V\"",
+        ));
     }
     let span = max - min;
     let standard = (min - 4e-3).abs() < 1e-9 && (max - 20e-3).abs() < 1e-9;
-    let (low, high) = if standard { (NAMUR_FAULT_LOW, NAMUR_FAULT_HIGH) } else { (min - 0.025 * span, max + 0.0625 * span) };
+    let (low, high) =
+        if standard { (NAMUR_FAULT_LOW, NAMUR_FAULT_HIGH) } else { (min - 0.025 * span, max + 0.0625 * span) };
     let fault_low = o.q("fault_low", Quantity::Current)?.unwrap_or(low.max(0.0));
     let fault_high = o.q("fault_high", Quantity::Current)?.unwrap_or(high);
     if !(fault_low >= 0.0 && fault_low <= min) {
-        return Err(o.err("fault_low", "must lie between 0 A and source.min: below it the transmitter signals a fault (NAMUR NE 43: 3.6 mA)"));
+        return Err(o.err(
+            "fault_low",
+            "must lie between 0 A and source.min: below it the transmitter signals a fault (NAMUR NE 43: 3.6 mA)",
+        ));
     }
     if !(fault_high >= max) {
-        return Err(o.err("fault_high", "must be at least source.max: above it the transmitter signals a fault (NAMUR NE 43: 21 mA)"));
+        return Err(o.err(
+            "fault_high",
+            "must be at least source.max: above it the transmitter signals a fault (NAMUR NE 43: 21 mA)",
+        ));
     }
     Ok(LoopSpec { burden_max, fault_low, fault_high })
 }
 
 fn read_measurand(v: &Value) -> Result<Measurand, RequestError> {
     let o = Obj::new("source.measurand", v)?;
-    let name = o.string("name")?.filter(|s| !s.is_empty()).ok_or_else(|| o.err("name", "is required, e.g. \"pressure\""))?;
+    let name =
+        o.string("name")?.filter(|s| !s.is_empty()).ok_or_else(|| o.err("name", "is required, e.g. \"pressure\""))?;
     let unit = o.string("unit")?.unwrap_or_default();
     let number = |key: &str| -> Result<f64, RequestError> {
         match o.get(key) {
-            Some(Value::Number(n)) => n.as_f64().filter(|x| x.is_finite()).ok_or_else(|| o.err(key, "must be a finite number")),
-            Some(other) => Err(o.err(key, &format!("expected a number in the measurand's unit, got {}", json_kind(other)))),
+            Some(Value::Number(n)) => {
+                n.as_f64().filter(|x| x.is_finite()).ok_or_else(|| o.err(key, "must be a finite number"))
+            }
+            Some(other) => {
+                Err(o.err(key, &format!("expected a number in the measurand's unit, got {}", json_kind(other))))
+            }
             None => Err(o.err(key, "is required: the measurand's value at the sensor's extreme")),
         }
     };

@@ -47,7 +47,9 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
 
 /// One form of the stage with amplifier gain `g` (1 = buffer), with or without the
 /// attenuating series resistor; returns the design and its score.
-fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, attenuate: bool) -> Option<(Synthesis, f64)> {
+fn variant(
+    req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, attenuate: bool,
+) -> Option<(Synthesis, f64)> {
     let s = &req.source;
     let rs = s.impedance;
     let span = req.destination.max - req.destination.min;
@@ -69,7 +71,8 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
     if has_divider && !(k > 0.0 && k < 1.0) {
         return None;
     }
-    let cfg = RoundConfig { series: req.parts.resistor_series, min: req.parts.resistor_min, max: req.parts.resistor_max };
+    let cfg =
+        RoundConfig { series: req.parts.resistor_series, min: req.parts.resistor_min, max: req.parts.resistor_max };
     // Vector layout: Rb, [Ra], [Rt, Rbt], [Rg, Rf].
     let unpack = |v: &[f64]| {
         let mut i = 0;
@@ -139,7 +142,8 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
     // The gain pair (Rg, Rf) comes from the best ratio pairs; the rest follows from the
     // pair's exact gain.
     let g_plan = if attenuate { g } else { m };
-    let runs: Vec<Option<(f64, f64)>> = if follower { vec![None] } else { pairs(cfg, g_plan - 1.0, 0.0, 3).into_iter().map(Some).collect() };
+    let runs: Vec<Option<(f64, f64)>> =
+        if follower { vec![None] } else { pairs(cfg, g_plan - 1.0, 0.0, 3).into_iter().map(Some).collect() };
     let anchors = anchors(cfg);
     let ideal = &ideal;
     let anchors = &anchors;
@@ -164,18 +168,60 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
     let ctol = Some(req.parts.capacitor_tolerance);
     let inp = "inp1";
     let after_c1 = if attenuate { "cin1" } else { inp };
-    let mut coupling = vec![bld.add(PartKind::Capacitor, c1, ctol, &["sense", after_c1], StageRole::Coupling, "coupling capacitor: blocks the sensor's DC level")];
+    let mut coupling = vec![bld.add(
+        PartKind::Capacitor,
+        c1,
+        ctol,
+        &["sense", after_c1],
+        StageRole::Coupling,
+        "coupling capacitor: blocks the sensor's DC level",
+    )];
     if attenuate {
-        coupling.push(bld.add(PartKind::Resistor, ra, rtol, &[after_c1, inp], StageRole::Coupling, "series resistor: attenuates the swing with the bias resistor"));
+        coupling.push(bld.add(
+            PartKind::Resistor,
+            ra,
+            rtol,
+            &[after_c1, inp],
+            StageRole::Coupling,
+            "series resistor: attenuates the swing with the bias resistor",
+        ));
     }
-    coupling.push(bld.add(PartKind::Resistor, rb, rtol, &[inp, "ref"], StageRole::Coupling, "bias resistor: holds the + input at the reference"));
+    coupling.push(bld.add(
+        PartKind::Resistor,
+        rb,
+        rtol,
+        &[inp, "ref"],
+        StageRole::Coupling,
+        "bias resistor: holds the + input at the reference",
+    ));
     let mut reference = Vec::new();
     let ref_name = if has_divider { "ref" } else { "0" };
     if has_divider {
-        reference.push(bld.add(PartKind::Resistor, rt, rtol, &[ref_node, "ref"], StageRole::Reference, "reference divider, upper leg"));
-        reference.push(bld.add(PartKind::Resistor, rbt, rtol, &["ref", "0"], StageRole::Reference, "reference divider, lower leg"));
+        reference.push(bld.add(
+            PartKind::Resistor,
+            rt,
+            rtol,
+            &[ref_node, "ref"],
+            StageRole::Reference,
+            "reference divider, upper leg",
+        ));
+        reference.push(bld.add(
+            PartKind::Resistor,
+            rbt,
+            rtol,
+            &["ref", "0"],
+            StageRole::Reference,
+            "reference divider, lower leg",
+        ));
         if let Some(c) = cb {
-            reference.push(bld.add(PartKind::Capacitor, c, ctol, &["ref", "0"], StageRole::Reference, "reference bypass: keeps supply noise and signal current off the reference"));
+            reference.push(bld.add(
+                PartKind::Capacitor,
+                c,
+                ctol,
+                &["ref", "0"],
+                StageRole::Reference,
+                "reference bypass: keeps supply noise and signal current off the reference",
+            ));
         }
     }
     // Without a divider the bias resistor returns straight to ground.
@@ -189,12 +235,26 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
     if !follower {
         gain.push(bld.add(PartKind::Resistor, rg, rtol, &[inn, "rg1"], StageRole::Gain, "gain-setting resistor"));
         if let Some(c) = cg {
-            gain.push(bld.add(PartKind::Capacitor, c, ctol, &["rg1", "0"], StageRole::Gain, "makes the DC gain one so the output rests at the reference"));
+            gain.push(bld.add(
+                PartKind::Capacitor,
+                c,
+                ctol,
+                &["rg1", "0"],
+                StageRole::Gain,
+                "makes the DC gain one so the output rests at the reference",
+            ));
         }
         gain.push(bld.add(PartKind::Resistor, rf, rtol, &["adc", inn], StageRole::Gain, "feedback resistor"));
     }
     let vneg = if rails.is_dual() { "vneg" } else { "0" };
-    gain.push(bld.add(PartKind::OpAmp, amp.gbw, None, &[inp, inn, "vpos", vneg, "adc"], StageRole::Gain, "amplifier: AC gain and converter drive"));
+    gain.push(bld.add(
+        PartKind::OpAmp,
+        amp.gbw,
+        None,
+        &[inp, inn, "vpos", vneg, "adc"],
+        StageRole::Gain,
+        "amplifier: AC gain and converter drive",
+    ));
 
     let v = |x: f64| format(x, Quantity::Voltage);
     let r = |x: f64| format(x, Quantity::Resistance);
@@ -209,7 +269,11 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
         equations.push(format!("Cg with Rg = {} → corner {}", r(rg), f(1.0 / (2.0 * std::f64::consts::PI * c * rg))));
     }
     if let Some(c) = cb {
-        equations.push(format!("Cb with the divider's {} → corner {}", r(rth), f(1.0 / (2.0 * std::f64::consts::PI * c * rth))));
+        equations.push(format!(
+            "Cb with the divider's {} → corner {}",
+            r(rth),
+            f(1.0 / (2.0 * std::f64::consts::PI * c * rth))
+        ));
     }
     let topology = if follower && attenuate {
         "AC coupling, attenuator and buffer biased at the output level"
@@ -218,9 +282,19 @@ fn variant(req: &Request, amp: &Amplifier, rails: Rails, t: Target, g: f64, atte
     } else {
         "AC coupling into a non-inverting amplifier biased at the output level"
     };
-    let mut stages = vec![Stage { role: StageRole::Coupling, description: "coupling capacitor and bias resistor: block the sensor's DC level and set the amplifier's input level".to_string(), parts: coupling }];
+    let mut stages = vec![Stage {
+        role: StageRole::Coupling,
+        description:
+            "coupling capacitor and bias resistor: block the sensor's DC level and set the amplifier's input level"
+                .to_string(),
+        parts: coupling,
+    }];
     if !reference.is_empty() {
-        stages.push(Stage { role: StageRole::Reference, description: format!("reference at {} from a divider with its bypass capacitor", v(vref)), parts: reference });
+        stages.push(Stage {
+            role: StageRole::Reference,
+            description: format!("reference at {} from a divider with its bypass capacitor", v(vref)),
+            parts: reference,
+        });
     }
     stages.push(Stage { role: StageRole::Gain, description: topology.to_string(), parts: gain });
     let error = (m_a - m).abs() * half + (vref - yc).abs();

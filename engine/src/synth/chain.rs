@@ -73,7 +73,13 @@ impl Chain {
         if rails.is_dual() && want.abs() < 1e-6 * span {
             return Some(Reference { vref: 0.0, divider: None });
         }
-        let (rail, node) = if want > 0.0 { (rails.pos, "vpos") } else if rails.is_dual() { (rails.neg, "vneg") } else { return None };
+        let (rail, node) = if want > 0.0 {
+            (rails.pos, "vpos")
+        } else if rails.is_dual() {
+            (rails.neg, "vneg")
+        } else {
+            return None;
+        };
         let window = Window { min: req.parts.resistor_min, max: req.parts.resistor_max };
         let d = values::best_divider(req.parts.resistor_series, want / rail, Some(REFERENCE_THEVENIN), window)?;
         let mut corner = REFERENCE_CORNER;
@@ -98,7 +104,9 @@ impl Chain {
                         let m = (b - a) / (s.max - s.min);
                         Target { at_min: a, at_max: b, gain: m, offset: a - m * s.min }
                     }
-                    Coupling::Ac => Target { at_min: a, at_max: b, gain: t.gain / k, offset: 2.0 * r.vref - t.offset / k },
+                    Coupling::Ac => {
+                        Target { at_min: a, at_max: b, gain: t.gain / k, offset: 2.0 * r.vref - t.offset / k }
+                    }
                 }
             }
         }
@@ -132,7 +140,14 @@ impl Chain {
             let mut parts = Vec::new();
             if let Some(m) = &merged {
                 let what = format!("section 1 (first order, f_c {}) built into the gain stage: {}", hz(m.f_p), m.how);
-                parts.push(bld.add(PartKind::Capacitor, m.capacitor, ctol, &[&m.nodes[0], &m.nodes[1]], StageRole::Filter, &what));
+                parts.push(bld.add(
+                    PartKind::Capacitor,
+                    m.capacitor,
+                    ctol,
+                    &[&m.nodes[0], &m.nodes[1]],
+                    StageRole::Filter,
+                    &what,
+                ));
             }
             let skip = usize::from(merged.is_some());
             let n = f.realised.len() - skip;
@@ -144,72 +159,149 @@ impl Chain {
                 let tag = match r.kind {
                     SectionKind::FirstOrder => format!("section {k} (first order, f_c {})", hz(r.f_n)),
                     SectionKind::SallenKey => format!("section {k} (Sallen-Key, f_n {}, Q {:.3})", hz(r.f_n), r.q),
-                    SectionKind::MultipleFeedback => format!("section {k} (multiple feedback, f_n {}, Q {:.3})", hz(r.f_n), r.q),
+                    SectionKind::MultipleFeedback => {
+                        format!("section {k} (multiple feedback, f_n {}, Q {:.3})", hz(r.f_n), r.q)
+                    }
                 };
                 let v = &r.values;
                 let next = out.clone();
                 {
-                let (input, out, a, p, m) = (input.as_str(), out.as_str(), a.as_str(), p.as_str(), m.as_str());
-                let mut add = |kind: PartKind, value: f64, tol: Option<f64>, nodes: &[&str], what: &str| {
-                    parts.push(bld.add(kind, value, tol, nodes, StageRole::Filter, &format!("{tag}: {what}")));
-                };
-                match (r.kind, v.as_slice()) {
-                    (SectionKind::FirstOrder, [rr, c, ..]) => {
-                        add(PartKind::Resistor, *rr, rtol, &[input, p], "resistor, sets the corner with the capacitor");
-                        add(PartKind::Capacitor, *c, ctol, &[p, "0"], "capacitor to ground");
-                        add(PartKind::OpAmp, 0.0, None, &[p, out, "vpos", vneg, out], "follower");
+                    let (input, out, a, p, m) = (input.as_str(), out.as_str(), a.as_str(), p.as_str(), m.as_str());
+                    let mut add = |kind: PartKind, value: f64, tol: Option<f64>, nodes: &[&str], what: &str| {
+                        parts.push(bld.add(kind, value, tol, nodes, StageRole::Filter, &format!("{tag}: {what}")));
+                    };
+                    match (r.kind, v.as_slice()) {
+                        (SectionKind::FirstOrder, [rr, c, ..]) => {
+                            add(
+                                PartKind::Resistor,
+                                *rr,
+                                rtol,
+                                &[input, p],
+                                "resistor, sets the corner with the capacitor",
+                            );
+                            add(PartKind::Capacitor, *c, ctol, &[p, "0"], "capacitor to ground");
+                            add(PartKind::OpAmp, 0.0, None, &[p, out, "vpos", vneg, out], "follower");
+                        }
+                        (SectionKind::SallenKey, [r1, r2, cf, cg, ..]) => {
+                            add(PartKind::Resistor, *r1, rtol, &[input, a], "input resistor R1");
+                            add(PartKind::Resistor, *r2, rtol, &[a, p], "resistor R2 to the + input");
+                            add(PartKind::Capacitor, *cf, ctol, &[a, out], "feedback capacitor C_f");
+                            add(PartKind::Capacitor, *cg, ctol, &[p, "0"], "capacitor C_g to ground");
+                            add(PartKind::OpAmp, 0.0, None, &[p, out, "vpos", vneg, out], "unity-gain amplifier");
+                        }
+                        (SectionKind::MultipleFeedback, [rr, r3, cg, cf, ..]) => {
+                            add(PartKind::Resistor, *rr, rtol, &[input, a], "input resistor R1 (equal to R2: gain −1)");
+                            add(PartKind::Resistor, *rr, rtol, &[a, out], "feedback resistor R2");
+                            add(PartKind::Resistor, *r3, rtol, &[a, m], "resistor R3 to the − input");
+                            add(PartKind::Capacitor, *cg, ctol, &[a, "0"], "capacitor C_g to ground");
+                            add(PartKind::Capacitor, *cf, ctol, &[out, m], "feedback capacitor C_f");
+                            add(
+                                PartKind::OpAmp,
+                                0.0,
+                                None,
+                                &[fref, m, "vpos", vneg, out],
+                                "inverting amplifier around the reference",
+                            );
+                        }
+                        _ => {}
                     }
-                    (SectionKind::SallenKey, [r1, r2, cf, cg, ..]) => {
-                        add(PartKind::Resistor, *r1, rtol, &[input, a], "input resistor R1");
-                        add(PartKind::Resistor, *r2, rtol, &[a, p], "resistor R2 to the + input");
-                        add(PartKind::Capacitor, *cf, ctol, &[a, out], "feedback capacitor C_f");
-                        add(PartKind::Capacitor, *cg, ctol, &[p, "0"], "capacitor C_g to ground");
-                        add(PartKind::OpAmp, 0.0, None, &[p, out, "vpos", vneg, out], "unity-gain amplifier");
-                    }
-                    (SectionKind::MultipleFeedback, [rr, r3, cg, cf, ..]) => {
-                        add(PartKind::Resistor, *rr, rtol, &[input, a], "input resistor R1 (equal to R2: gain −1)");
-                        add(PartKind::Resistor, *rr, rtol, &[a, out], "feedback resistor R2");
-                        add(PartKind::Resistor, *r3, rtol, &[a, m], "resistor R3 to the − input");
-                        add(PartKind::Capacitor, *cg, ctol, &[a, "0"], "capacitor C_g to ground");
-                        add(PartKind::Capacitor, *cf, ctol, &[out, m], "feedback capacitor C_f");
-                        add(PartKind::OpAmp, 0.0, None, &[fref, m, "vpos", vneg, out], "inverting amplifier around the reference");
-                    }
-                    _ => {}
-                }
                 }
                 input = next;
             }
-            let kinds: Vec<&str> = f.sections.iter().map(|x| match x.kind {
-                SectionKind::FirstOrder if x.in_gain_stage => "a first-order pole in the gain stage",
-                SectionKind::FirstOrder => "a first-order RC with a follower",
-                SectionKind::SallenKey => "a unity-gain Sallen-Key section",
-                SectionKind::MultipleFeedback => "a unity-gain multiple-feedback section",
-            }).collect();
+            let kinds: Vec<&str> = f
+                .sections
+                .iter()
+                .map(|x| match x.kind {
+                    SectionKind::FirstOrder if x.in_gain_stage => "a first-order pole in the gain stage",
+                    SectionKind::FirstOrder => "a first-order RC with a follower",
+                    SectionKind::SallenKey => "a unity-gain Sallen-Key section",
+                    SectionKind::MultipleFeedback => "a unity-gain multiple-feedback section",
+                })
+                .collect();
             s.circuit.stages.push(Stage {
                 role: StageRole::Filter,
-                description: format!("{} low-pass of order {}, corner {}: {} (highest Q last)", f.response.name(), f.order, hz(f.corner), kinds.join(", ")),
+                description: format!(
+                    "{} low-pass of order {}, corner {}: {} (highest Q last)",
+                    f.response.name(),
+                    f.order,
+                    hz(f.corner),
+                    kinds.join(", ")
+                ),
                 parts,
             });
             if let Some((node, top, bottom, c)) = reference.and_then(|r| r.divider) {
                 let vref = reference.map_or(0.0, |r| r.vref);
                 let parts = vec![
-                    bld.add(PartKind::Resistor, top, rtol, &[node, "fref"], StageRole::Reference, "filter reference divider, upper leg"),
-                    bld.add(PartKind::Resistor, bottom, rtol, &["fref", "0"], StageRole::Reference, "filter reference divider, lower leg"),
-                    bld.add(PartKind::Capacitor, c, ctol, &["fref", "0"], StageRole::Reference, "filter reference bypass"),
+                    bld.add(
+                        PartKind::Resistor,
+                        top,
+                        rtol,
+                        &[node, "fref"],
+                        StageRole::Reference,
+                        "filter reference divider, upper leg",
+                    ),
+                    bld.add(
+                        PartKind::Resistor,
+                        bottom,
+                        rtol,
+                        &["fref", "0"],
+                        StageRole::Reference,
+                        "filter reference divider, lower leg",
+                    ),
+                    bld.add(
+                        PartKind::Capacitor,
+                        c,
+                        ctol,
+                        &["fref", "0"],
+                        StageRole::Reference,
+                        "filter reference bypass",
+                    ),
                 ];
-                s.circuit.stages.push(Stage { role: StageRole::Reference, description: format!("reference at {} for the inverting filter sections", format(vref, Quantity::Voltage)), parts });
+                s.circuit.stages.push(Stage {
+                    role: StageRole::Reference,
+                    description: format!(
+                        "reference at {} for the inverting filter sections",
+                        format(vref, Quantity::Voltage)
+                    ),
+                    parts,
+                });
             }
             s.equations.extend(filter_equations(req, f, reference));
         }
         if let Some(d) = &self.drive {
-            let mut parts = vec![bld.add(PartKind::Resistor, d.resistor, rtol, &[&input, "adc"], StageRole::Drive, "drive resistor: isolates the amplifier from the pin's capacitance and limits fault current")];
+            let mut parts = vec![bld.add(
+                PartKind::Resistor,
+                d.resistor,
+                rtol,
+                &[&input, "adc"],
+                StageRole::Drive,
+                "drive resistor: isolates the amplifier from the pin's capacitance and limits fault current",
+            )];
             if let Some(c) = d.capacitor {
-                parts.push(bld.add(PartKind::Capacitor, c, ctol, &["adc", "0"], StageRole::Drive, "charge bucket: supplies the converter's sampling capacitor"));
+                parts.push(bld.add(
+                    PartKind::Capacitor,
+                    c,
+                    ctol,
+                    &["adc", "0"],
+                    StageRole::Drive,
+                    "charge bucket: supplies the converter's sampling capacitor",
+                ));
             }
             if d.clamp_to_ground {
-                parts.push(bld.add(PartKind::Diode, drive::CLAMP_DROP, None, &["0", "adc"], StageRole::Drive, "Schottky clamp: takes fault current below ground"));
+                parts.push(bld.add(
+                    PartKind::Diode,
+                    drive::CLAMP_DROP,
+                    None,
+                    &["0", "adc"],
+                    StageRole::Drive,
+                    "Schottky clamp: takes fault current below ground",
+                ));
             }
-            let what = if d.capacitor.is_some() { "RC at the converter pin: charge bucket behind an isolation resistor" } else { "series resistor at the converter pin: limits fault current" };
+            let what = if d.capacitor.is_some() {
+                "RC at the converter pin: charge bucket behind an isolation resistor"
+            } else {
+                "series resistor at the converter pin: limits fault current"
+            };
             s.circuit.stages.push(Stage { role: StageRole::Drive, description: what.to_string(), parts });
             s.equations.extend(drive_equations(req, d));
         }
@@ -225,7 +317,11 @@ impl Chain {
 fn filter_equations(req: &Request, f: &FilterDesign, reference: Option<&Reference>) -> Vec<String> {
     let hz = |x: f64| format(x, Quantity::Frequency);
     let d = &req.destination;
-    let rate = if d.converter.samples() { format!("f_s = {}", hz(d.sample_rate)) } else { format!("modulator rate {}", hz(d.modulator_rate.unwrap_or(0.0))) };
+    let rate = if d.converter.samples() {
+        format!("f_s = {}", hz(d.sample_rate))
+    } else {
+        format!("modulator rate {}", hz(d.modulator_rate.unwrap_or(0.0)))
+    };
     let level = 20.0 * req.filter.out_of_band_level.log10();
     let mut out = vec![
         format!(
@@ -238,10 +334,15 @@ fn filter_equations(req: &Request, f: &FilterDesign, reference: Option<&Referenc
         ),
     ];
     for (k, (s, r)) in f.sections.iter().zip(&f.realised).enumerate() {
-        let vals: Vec<String> = r.values.iter().enumerate().map(|(i, v)| {
-            let is_r = i < r.values.len() - if r.kind == SectionKind::FirstOrder { 1 } else { 2 };
-            format(*v, if is_r { Quantity::Resistance } else { Quantity::Capacitance })
-        }).collect();
+        let vals: Vec<String> = r
+            .values
+            .iter()
+            .enumerate()
+            .map(|(i, v)| {
+                let is_r = i < r.values.len() - if r.kind == SectionKind::FirstOrder { 1 } else { 2 };
+                format(*v, if is_r { Quantity::Resistance } else { Quantity::Capacitance })
+            })
+            .collect();
         out.push(match s.kind {
             SectionKind::FirstOrder => format!("Section {}: first order f_c = 1/(2πRC) = {} with R, C = {} (wanted {}, {:+.2} %)", k + 1, hz(s.f_n_rounded), vals.join(", "), hz(s.f_n), 100.0 * s.f_n_error),
             SectionKind::SallenKey => format!(
@@ -259,7 +360,10 @@ fn filter_equations(req: &Request, f: &FilterDesign, reference: Option<&Referenc
         f.rounded_db, hz(f.alias_frequency), f.passband_error_db, hz(f.gbw_min)
     ));
     if let Some(r) = reference {
-        out.push(format!("Inverting sections mirror the level around V_ref = {}: the gain stage aims at 2·V_ref − target", format(r.vref, Quantity::Voltage)));
+        out.push(format!(
+            "Inverting sections mirror the level around V_ref = {}: the gain stage aims at 2·V_ref − target",
+            format(r.vref, Quantity::Voltage)
+        ));
     }
     out
 }
@@ -272,7 +376,9 @@ fn drive_equations(req: &Request, d: &DriveDesign) -> Vec<String> {
     if let Some(c) = d.capacitor {
         out.push(format!(
             "Charge bucket C_b ≥ {} × C_in = {} → {}",
-            drive::BUCKET_RATIO, format(drive::BUCKET_RATIO * dst.input_capacitance, Quantity::Capacitance), format(c, Quantity::Capacitance)
+            drive::BUCKET_RATIO,
+            format(drive::BUCKET_RATIO * dst.input_capacitance, Quantity::Capacitance),
+            format(c, Quantity::Capacitance)
         ));
         out.push(format!(
             "Settling to ½ LSB: ln(2^(N+1)) = {:.2} time constants; ln(2^(N+1))·(R·C_b + 1/(2π·GBW)) = {} ≤ t_acq {} needs R ≤ {}",
@@ -280,16 +386,25 @@ fn drive_equations(req: &Request, d: &DriveDesign) -> Vec<String> {
         ));
         out.push(format!(
             "Stability: atan(2π·GBW·(R_o + R)·C_b) − atan(2π·GBW·R·C_b) ≤ {}° with R_o = {} → R ≥ {}",
-            drive::PHASE_LOSS_LIMIT, r(drive::OUTPUT_RESISTANCE), r(d.r_stability_min)
+            drive::PHASE_LOSS_LIMIT,
+            r(drive::OUTPUT_RESISTANCE),
+            r(d.r_stability_min)
         ));
     }
     if d.r_protection_min > 0.0 {
         out.push(format!(
             "Protection: (overdrive − {} V)/I_limit = {} for I_limit {}",
-            drive::CLAMP_DROP, r(d.r_protection_min), format(d.injection_limit, Quantity::Current)
+            drive::CLAMP_DROP,
+            r(d.r_protection_min),
+            format(d.injection_limit, Quantity::Current)
         ));
     }
-    out.push(format!("Drive resistor {} (DC loss against the converter's {} input: {:.4} %, compensated in the gain stage's target)", r(d.resistor), r(dst.impedance), 100.0 * (1.0 - d.dc_factor(dst.impedance))));
+    out.push(format!(
+        "Drive resistor {} (DC loss against the converter's {} input: {:.4} %, compensated in the gain stage's target)",
+        r(d.resistor),
+        r(dst.impedance),
+        100.0 * (1.0 - d.dc_factor(dst.impedance))
+    ));
     out
 }
 
@@ -316,11 +431,22 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
         });
         let phase = d.phase_loss_deg.unwrap_or(0.0);
         let msg = format!("The drive resistor {} isolates the amplifier from the charge bucket: the load costs {:.1}° of phase at the amplifier's unity-gain frequency (limit {}°, with an assumed open-loop output resistance of {}).", r(d.resistor), phase, drive::PHASE_LOSS_LIMIT, r(drive::OUTPUT_RESISTANCE));
-        c.push(if phase <= drive::PHASE_LOSS_LIMIT + 1e-9 { Check::ok("drive_stability", msg) } else { Check::warning("drive_stability", format!("{msg} Raise the drive resistor or use an amplifier rated for capacitive loads.")) });
+        c.push(if phase <= drive::PHASE_LOSS_LIMIT + 1e-9 {
+            Check::ok("drive_stability", msg)
+        } else {
+            Check::warning(
+                "drive_stability",
+                format!("{msg} Raise the drive resistor or use an amplifier rated for capacitive loads."),
+            )
+        });
     }
     let over = d.overdrive[0].max(d.overdrive[1]);
     if over > drive::CLAMP_DROP {
-        let clamp = if d.clamp_to_ground { " A Schottky clamp from ground takes the current below 0 V off the converter." } else { "" };
+        let clamp = if d.clamp_to_ground {
+            " A Schottky clamp from ground takes the current below 0 V off the converter."
+        } else {
+            ""
+        };
         c.push(Check::ok(
             "converter_protection",
             format!(
@@ -359,7 +485,8 @@ pub fn filter_checks(req: &Request, s: &Synthesis, achieved_db: Option<f64>, ban
                     if let Some(n) = sf.order_needed {
                         ways.push(format!("order {n} instead of the requested {} (filter.order)", f.order))
                     }
-                    let what = if req.destination.converter.samples() { "a sample rate of" } else { "a modulator rate of" };
+                    let what =
+                        if req.destination.converter.samples() { "a sample rate of" } else { "a modulator rate of" };
                     if sf.rate_needed.is_finite() {
                         ways.push(format!("{what} {} or more (the same order then fits)", hz(sf.rate_needed)));
                     }
@@ -387,7 +514,15 @@ pub fn filter_checks(req: &Request, s: &Synthesis, achieved_db: Option<f64>, ban
             if f.ripple_exceeds_request {
                 c.push(Check::warning("passband_ripple", format!("The steep response ripples {} dB inside the band, more than the {} dB passband_error asked; a flat response keeps the error within it.", super::filter::prototype::CHEBYSHEV_RIPPLE_DB, req.filter.passband_error)));
             } else {
-                c.push(Check::ok("passband_error", format!("The rounded filter's in-band error up to {} is {:.3} dB (allowed {} dB).", hz(req.source.band_high), f.passband_error_db, f.passband_allowed_db)));
+                c.push(Check::ok(
+                    "passband_error",
+                    format!(
+                        "The rounded filter's in-band error up to {} is {:.3} dB (allowed {} dB).",
+                        hz(req.source.band_high),
+                        f.passband_error_db,
+                        f.passband_allowed_db
+                    ),
+                ));
             }
             if let Some(e) = band_edge_db.filter(|e| e.is_finite()) {
                 // A few thousandths of a dB of slack: the solver's and the prototype's figures
@@ -402,7 +537,9 @@ pub fn filter_checks(req: &Request, s: &Synthesis, achieved_db: Option<f64>, ban
             }
             let worst = f.sections.iter().map(|x| x.f_n_error.abs().max(x.q_error.abs())).fold(0.0, f64::max);
             c.push(Check::ok("filter_rounding", format!("Rounding the filter parts moves a section's f_n or Q by at most {:.2} %; the response above uses the rounded values.", 100.0 * worst)));
-            if req.filter.topology == crate::request::FilterTopology::MultipleFeedback && f.sections.iter().any(|x| x.kind == SectionKind::SallenKey) {
+            if req.filter.topology == crate::request::FilterTopology::MultipleFeedback
+                && f.sections.iter().any(|x| x.kind == SectionKind::SallenKey)
+            {
                 c.push(Check::ok("filter_topology", "An odd number of inverting sections would flip the output and the polarity must be kept, so the lowest-Q section is a Sallen-Key section; set keep_polarity to false for multiple feedback throughout."));
             }
         }

@@ -84,7 +84,9 @@ impl Net {
     pub fn output(&self, x: f64, rs: f64, rails: Rails) -> f64 {
         let vp = self.plus_voltage(x, rs, rails);
         let a0 = self.open_loop_gain.max(1.0);
-        let Some(rf) = self.slots.iter().find(|(s, _)| *s == Slot::Feedback).map(|s| s.1) else { return vp / (1.0 + 1.0 / a0) };
+        let Some(rf) = self.slots.iter().find(|(s, _)| *s == Slot::Feedback).map(|s| s.1) else {
+            return vp / (1.0 + 1.0 / a0);
+        };
         let gf = 1.0 / rf;
         let (mut sum_g, mut sum_gv) = (0.0, 0.0);
         for (slot, r) in &self.slots {
@@ -111,7 +113,12 @@ impl Net {
                 _ => {}
             }
         }
-        let others: f64 = self.slots.iter().filter(|(s, _)| matches!(s, Slot::Plus(p) if *p != Pot::Sensor)).map(|(_, r)| 1.0 / r).sum();
+        let others: f64 = self
+            .slots
+            .iter()
+            .filter(|(s, _)| matches!(s, Slot::Plus(p) if *p != Pot::Sensor))
+            .map(|(_, r)| 1.0 / r)
+            .sum();
         if others > 0.0 {
             total + 1.0 / others
         } else {
@@ -162,7 +169,8 @@ pub enum Template {
 }
 
 impl Template {
-    pub const ALL: [Template; 4] = [Template::NonInvertingPlus, Template::NonInvertingMinus, Template::InvertingPlus, Template::InvertingSum];
+    pub const ALL: [Template; 4] =
+        [Template::NonInvertingPlus, Template::NonInvertingMinus, Template::InvertingPlus, Template::InvertingSum];
     pub fn inverting(self) -> bool {
         matches!(self, Template::InvertingPlus | Template::InvertingSum)
     }
@@ -176,17 +184,28 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, target: Target, 
 
 /// Designs the DC-coupled stage from the given templates only. For an inverting template the
 /// target is mirrored: the sensor's minimum lands on the upper end.
-pub fn synthesize_with(req: &Request, amp: &Amplifier, rails: Rails, target: Target, limits: Limits, templates: &[Template]) -> Option<Synthesis> {
+pub fn synthesize_with(
+    req: &Request, amp: &Amplifier, rails: Rails, target: Target, limits: Limits, templates: &[Template],
+) -> Option<Synthesis> {
     let ctx = Ctx {
         req,
         open_loop_gain: amp.open_loop_gain,
         rails,
         limits,
         rs: req.source.impedance,
-        cfg: RoundConfig { series: req.parts.resistor_series, min: req.parts.resistor_min, max: req.parts.resistor_max },
+        cfg: RoundConfig {
+            series: req.parts.resistor_series,
+            min: req.parts.resistor_min,
+            max: req.parts.resistor_max,
+        },
         span: req.destination.max - req.destination.min,
     };
-    let inv = Target { at_min: target.at_max, at_max: target.at_min, gain: -target.gain, offset: target.at_max + target.gain * req.source.min };
+    let inv = Target {
+        at_min: target.at_max,
+        at_max: target.at_min,
+        gain: -target.gain,
+        offset: target.at_max + target.gain * req.source.min,
+    };
     let mut candidates = Vec::new();
     for &tpl in templates {
         // Each non-inverting template is tried with the least gain that works (fewest parts,
@@ -249,16 +268,15 @@ impl Ctx<'_> {
     /// of `layout` are a ratio pair taken from it (each pair tried in turn), and `ideal`
     /// derives the other values for that pair's exact ratio; otherwise `ideal` gives all.
     fn round(
-        &self,
-        name: &str,
-        layout: &[Slot],
-        direct: bool,
-        t: Target,
-        pairs: Option<Vec<(f64, f64)>>,
+        &self, name: &str, layout: &[Slot], direct: bool, t: Target, pairs: Option<Vec<(f64, f64)>>,
         ideal: impl Fn(Option<(f64, f64)>, f64) -> Option<Vec<f64>>,
     ) -> Option<Candidate> {
         let a0 = self.open_loop_gain;
-        let make = |v: &[f64]| Net { slots: layout.iter().copied().zip(v.iter().copied()).collect(), direct, open_loop_gain: a0 };
+        let make = |v: &[f64]| Net {
+            slots: layout.iter().copied().zip(v.iter().copied()).collect(),
+            direct,
+            open_loop_gain: a0,
+        };
         // One scratch stage, refilled for every candidate: no allocation per evaluation.
         let scratch = std::cell::RefCell::new(make(&vec![1.0; layout.len()]));
         let cost = |v: &[f64]| {
@@ -402,30 +420,37 @@ fn noninv_minus(ctx: &Ctx, t: Target, boost: f64) -> Option<Candidate> {
     layout.push(Slot::Feedback);
     let rs = ctx.rs;
     let pairs = Some(pairs(ctx.cfg, k, 0.0, PAIRS));
-    ctx.round("non-inverting amplifier with a negative offset from the positive rail", &layout, direct, t, pairs, |pair, anchor| {
-        let (rh, rf) = pair?;
-        let k_a = rf / rh;
-        let mut v = Vec::new();
-        // Direct input: the gain must be m exactly; otherwise G as planned and the + divider takes m/G.
-        let g_a = if direct { m } else { g };
-        if !direct {
-            let alpha = m / g_a;
-            let ra = anchor * (1.0 - alpha) / alpha - rs;
-            if ra <= 0.0 {
-                return None;
+    ctx.round(
+        "non-inverting amplifier with a negative offset from the positive rail",
+        &layout,
+        direct,
+        t,
+        pairs,
+        |pair, anchor| {
+            let (rh, rf) = pair?;
+            let k_a = rf / rh;
+            let mut v = Vec::new();
+            // Direct input: the gain must be m exactly; otherwise G as planned and the + divider takes m/G.
+            let g_a = if direct { m } else { g };
+            if !direct {
+                let alpha = m / g_a;
+                let ra = anchor * (1.0 - alpha) / alpha - rs;
+                if ra <= 0.0 {
+                    return None;
+                }
+                v.push(ra);
+                v.push(anchor);
             }
-            v.push(ra);
-            v.push(anchor);
-        }
-        if has_g {
-            let rest = g_a - 1.0 - k_a;
-            if rest <= 0.0 {
-                return None;
+            if has_g {
+                let rest = g_a - 1.0 - k_a;
+                if rest <= 0.0 {
+                    return None;
+                }
+                v.push(rf / rest);
             }
-            v.push(rf / rest);
-        }
-        Some(v)
-    })
+            Some(v)
+        },
+    )
 }
 
 /// m < 0: y = −(R_f/R_i)·x + V+·(1 + R_f/R_i), with V+ from a divider (or ground).
@@ -478,7 +503,13 @@ fn inv_sum(ctx: &Ctx, t: Target) -> Option<Candidate> {
     if 0.0 < ctx.limits.in_lo || 0.0 > ctx.limits.in_hi || b.abs() < 1e-9 {
         return None;
     }
-    let (vh, pot) = if b < 0.0 { (ctx.rails.pos, Pot::Pos) } else if ctx.rails.is_dual() { (ctx.rails.neg, Pot::Neg) } else { return None };
+    let (vh, pot) = if b < 0.0 {
+        (ctx.rails.pos, Pot::Pos)
+    } else if ctx.rails.is_dual() {
+        (ctx.rails.neg, Pot::Neg)
+    } else {
+        return None;
+    };
     let layout = [Slot::Minus(pot), Slot::Minus(Pot::Sensor), Slot::Feedback];
     let pairs = Some(pairs(ctx.cfg, mg, ctx.rs, 4 * PAIRS));
     ctx.round("inverting summer with the offset from a rail", &layout, false, t, pairs, |pair, _anchor| {
@@ -495,7 +526,13 @@ fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synthesis {
     let tol = Some(req.parts.resistor_tolerance);
     let has_feedback = c.net.slots.iter().any(|(s, _)| *s == Slot::Feedback);
     let has_plus = c.net.slots.iter().any(|(s, _)| matches!(s, Slot::Plus(_)));
-    let inp = if c.net.direct { "sense" } else if has_plus { "inp1" } else { "0" };
+    let inp = if c.net.direct {
+        "sense"
+    } else if has_plus {
+        "inp1"
+    } else {
+        "0"
+    };
     let inn = if has_feedback { "inn1" } else { "adc" };
     let node = |p: Pot| match p {
         Pot::Sensor => "sense",
@@ -510,16 +547,29 @@ fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synthesis {
             Slot::Plus(Pot::Sensor) => (inp, "sense", StageRole::Gain, "input resistor from the sensor"),
             Slot::Plus(Pot::Gnd) => (inp, "0", StageRole::Gain, "lower leg of the + input divider"),
             Slot::Plus(p) => (inp, node(*p), StageRole::Reference, "offset leg of the + input network, from the rail"),
-            Slot::Minus(Pot::Sensor) => (inn, "sense", StageRole::Gain, "input resistor (sets the gain with the feedback resistor)"),
+            Slot::Minus(Pot::Sensor) => {
+                (inn, "sense", StageRole::Gain, "input resistor (sets the gain with the feedback resistor)")
+            }
             Slot::Minus(Pot::Gnd) => (inn, "0", StageRole::Gain, "gain-setting resistor to ground"),
             Slot::Minus(p) => (inn, node(*p), StageRole::Reference, "offset leg into the − input"),
             Slot::Feedback => ("adc", inn, StageRole::Gain, "feedback resistor"),
         };
         let r_ref = bld.add(PartKind::Resistor, *r, tol, &[a, b], stage, purpose);
-        if stage == StageRole::Reference { ref_parts.push(r_ref) } else { gain_parts.push(r_ref) }
+        if stage == StageRole::Reference {
+            ref_parts.push(r_ref)
+        } else {
+            gain_parts.push(r_ref)
+        }
     }
     let vneg = if ctx.rails.is_dual() { "vneg" } else { "0" };
-    let u = bld.add(PartKind::OpAmp, amp.gbw, None, &[inp, inn, "vpos", vneg, "adc"], StageRole::Gain, "amplifier: gain, level shift and converter drive");
+    let u = bld.add(
+        PartKind::OpAmp,
+        amp.gbw,
+        None,
+        &[inp, inn, "vpos", vneg, "adc"],
+        StageRole::Gain,
+        "amplifier: gain, level shift and converter drive",
+    );
     gain_parts.push(u);
     let rs = ctx.rs;
     let s = &req.source;

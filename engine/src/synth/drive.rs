@@ -104,7 +104,8 @@ pub fn design(req: &Request, amp: &Amplifier, rails: Rails) -> Option<DriveDesig
     let rser = req.parts.resistor_series;
     let n_tau = settling_time_constants(d.bits);
     let tau_amp = 1.0 / (2.0 * std::f64::consts::PI * amp.gbw.max(1.0));
-    let capacitor = if sampling { values::step_up(req.parts.capacitor_series, BUCKET_RATIO * d.input_capacitance) } else { None };
+    let capacitor =
+        if sampling { values::step_up(req.parts.capacitor_series, BUCKET_RATIO * d.input_capacitance) } else { None };
     let r_stability_min = match capacitor {
         Some(c) => stability_min(c, amp.gbw),
         None => 0.0,
@@ -167,7 +168,11 @@ impl DriveDesign {
 impl DriveDesign {
     /// The converter pin's figures.
     pub fn figures(&self) -> Block {
-        let mut b = Block::new("drive", "At the converter pin").quantity("Series resistor from the last amplifier", self.resistor, Quantity::Resistance);
+        let mut b = Block::new("drive", "At the converter pin").quantity(
+            "Series resistor from the last amplifier",
+            self.resistor,
+            Quantity::Resistance,
+        );
         if let Some(c) = self.capacitor {
             b = b.quantity("Charge reservoir from the pin to ground", c, Quantity::Capacitance);
         }

@@ -43,8 +43,8 @@ use serde::Serialize;
 
 use crate::figures::Block;
 use crate::request::{FilterTopology, Request, ResponseKind};
-use crate::units::{format, Quantity};
 use crate::synth::round::RoundConfig;
+use crate::units::{format, Quantity};
 use prototype::{cascade_loss_db, prototype, Pair, Prototype};
 use sections::{realise, PartsConfig, Realised, SectionKind};
 
@@ -183,7 +183,11 @@ pub fn design(req: &Request) -> Result<FilterDesign, NoFilter> {
     };
     let last = *orders.last().unwrap_or(&1);
     let cfg = PartsConfig {
-        resistors: RoundConfig { series: req.parts.resistor_series, min: req.parts.resistor_min, max: req.parts.resistor_max },
+        resistors: RoundConfig {
+            series: req.parts.resistor_series,
+            min: req.parts.resistor_min,
+            max: req.parts.resistor_max,
+        },
         capacitors: req.parts.capacitor_series,
     };
     let mut fallback = None;
@@ -232,10 +236,23 @@ impl FilterDesign {
         }
         let proto = prototype(self.response, self.order)?;
         let cfg = PartsConfig {
-            resistors: RoundConfig { series: req.parts.resistor_series, min: req.parts.resistor_min, max: req.parts.resistor_max },
+            resistors: RoundConfig {
+                series: req.parts.resistor_series,
+                min: req.parts.resistor_min,
+                max: req.parts.resistor_max,
+            },
             capacitors: req.parts.capacitor_series,
         };
-        let d = build(req, &proto, corner, self.corner_range, self.alias_frequency, self.required_db, self.ripple_exceeds_request, cfg)?;
+        let d = build(
+            req,
+            &proto,
+            corner,
+            self.corner_range,
+            self.alias_frequency,
+            self.required_db,
+            self.ripple_exceeds_request,
+            cfg,
+        )?;
         (d.rounded_db >= d.required_db && d.passband_error_db <= d.passband_allowed_db + 1e-9).then_some(d)
     }
 
@@ -272,7 +289,10 @@ fn passband_error(real: Option<f64>, pairs: &[Pair], band_high: f64) -> f64 {
 
 /// Realises every section of `proto` at `corner` and evaluates the rounded cascade.
 #[allow(clippy::too_many_arguments)]
-fn build(req: &Request, proto: &Prototype, corner: f64, range: [f64; 2], fa: f64, required: f64, ripple_over: bool, cfg: PartsConfig) -> Option<FilterDesign> {
+fn build(
+    req: &Request, proto: &Prototype, corner: f64, range: [f64; 2], fa: f64, required: f64, ripple_over: bool,
+    cfg: PartsConfig,
+) -> Option<FilterDesign> {
     let spec = &req.filter;
     let mut kinds: Vec<SectionKind> = vec![SectionKind::of(spec.topology); proto.pairs.len()];
     if spec.topology == FilterTopology::MultipleFeedback && req.keep_polarity && proto.pairs.len() % 2 == 1 {
@@ -296,7 +316,16 @@ fn build(req: &Request, proto: &Prototype, corner: f64, range: [f64; 2], fa: f64
             SectionKind::SallenKey => SECTION_GBW_FACTOR * r.q * r.f_n,
             SectionKind::MultipleFeedback => SECTION_GBW_FACTOR * 2.0 * r.q * r.f_n,
         });
-        reports.push(SectionReport { kind, f_n: f, q, f_n_rounded: r.f_n, q_rounded: r.q, f_n_error: rel(r.f_n, f), q_error: rel(r.q, q), in_gain_stage: false });
+        reports.push(SectionReport {
+            kind,
+            f_n: f,
+            q,
+            f_n_rounded: r.f_n,
+            q_rounded: r.q,
+            f_n_error: rel(r.f_n, f),
+            q_error: rel(r.q, q),
+            in_gain_stage: false,
+        });
         realised.push(r);
     }
     let (real, pairs) = rounded_cascade(&realised);
@@ -323,7 +352,8 @@ fn build(req: &Request, proto: &Prototype, corner: f64, range: [f64; 2], fa: f64
 /// The rounded sections as a cascade in Hz.
 fn rounded_cascade(realised: &[Realised]) -> (Option<f64>, Vec<Pair>) {
     let real = realised.iter().find(|r| r.kind == SectionKind::FirstOrder).map(|r| r.f_n);
-    let pairs = realised.iter().filter(|r| r.kind != SectionKind::FirstOrder).map(|r| Pair { fsf: r.f_n, q: r.q }).collect();
+    let pairs =
+        realised.iter().filter(|r| r.kind != SectionKind::FirstOrder).map(|r| Pair { fsf: r.f_n, q: r.q }).collect();
     (real, pairs)
 }
 
@@ -382,13 +412,26 @@ impl FilterDesign {
                     SectionKind::SallenKey => "Sallen-Key",
                     SectionKind::MultipleFeedback => "multiple feedback",
                 };
-                let q = |x: f64| if s.kind == SectionKind::FirstOrder { "—".to_string() } else { format_sig_fixed(x, 3) };
+                let q =
+                    |x: f64| if s.kind == SectionKind::FirstOrder { "—".to_string() } else { format_sig_fixed(x, 3) };
                 let change = format!("{:+.2} %", 100.0 * s.f_n_error);
-                vec![(k + 1).to_string(), kind.to_string(), hz(s.f_n), hz(s.f_n_rounded), q(s.q), q(s.q_rounded), change]
+                vec![
+                    (k + 1).to_string(),
+                    kind.to_string(),
+                    hz(s.f_n),
+                    hz(s.f_n_rounded),
+                    q(s.q),
+                    q(s.q_rounded),
+                    change,
+                ]
             })
             .collect();
         let header = ["Section", "Built as", "f_n wanted", "f_n as built", "Q wanted", "Q as built", "f_n change"];
-        let table = Table { header: header.map(String::from).to_vec(), numeric: vec![true, false, true, true, true, true, true], rows };
+        let table = Table {
+            header: header.map(String::from).to_vec(),
+            numeric: vec![true, false, true, true, true, true, true],
+            rows,
+        };
         let error = format!(
             "{} dB of {} dB allowed",
             format_sig_fixed(self.passband_error_db, 2),

@@ -47,11 +47,15 @@ pub struct Merge {
 pub fn plan(c: &Circuit, req: &Request, f: &mut FilterDesign, out: &str) -> Option<Merge> {
     let first = f.realised.first().filter(|r| r.kind == SectionKind::FirstOrder)?;
     let want = first.f_n;
-    let u = c.parts.iter().find(|p| p.kind == PartKind::OpAmp && !p.bench && p.nodes.len() >= 5 && p.nodes[4] == out)?;
+    let u =
+        c.parts.iter().find(|p| p.kind == PartKind::OpAmp && !p.bench && p.nodes.len() >= 5 && p.nodes[4] == out)?;
     let (inp, inn) = (u.nodes[0].clone(), u.nodes[1].clone());
     let plain = |p: &crate::circuit::Part| !p.bench && p.kind == PartKind::Resistor && p.nodes.len() == 2;
-    let joins = |p: &crate::circuit::Part, a: &str, b: &str| (p.nodes[0] == a && p.nodes[1] == b) || (p.nodes[0] == b && p.nodes[1] == a);
-    let capacitor_at = |n: &str| c.parts.iter().any(|p| !p.bench && p.kind == PartKind::Capacitor && p.nodes.iter().any(|x| x == n));
+    let joins = |p: &crate::circuit::Part, a: &str, b: &str| {
+        (p.nodes[0] == a && p.nodes[1] == b) || (p.nodes[0] == b && p.nodes[1] == a)
+    };
+    let capacitor_at =
+        |n: &str| c.parts.iter().any(|p| !p.bench && p.kind == PartKind::Capacitor && p.nodes.iter().any(|x| x == n));
     let from_sensor = |n: &str| c.parts.iter().any(|p| plain(p) && joins(p, "sense", n));
     let (nodes, resistance, how) = if from_sensor(&inn) && inn != out {
         let rf = c.parts.iter().find(|p| plain(p) && joins(p, out, &inn))?;

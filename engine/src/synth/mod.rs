@@ -126,9 +126,7 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
     }
     let m = (hi - lo) / x_span;
     Some(match s.coupling {
-        Coupling::Dc => {
-            Target { at_min: lo, at_max: hi, gain: m, offset: lo - m * s.min }
-        }
+        Coupling::Dc => Target { at_min: lo, at_max: hi, gain: m, offset: lo - m * s.min },
         Coupling::Ac => Target { at_min: lo, at_max: hi, gain: m, offset: 0.5 * (lo + hi) },
     })
 }
@@ -150,7 +148,9 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, target: Target) 
 }
 
 /// [`synthesize`] with the filter and drive already planned.
-pub fn synthesize_with_chain(req: &Request, amp: &Amplifier, rails: Rails, target: Target, chain: &chain::Chain) -> Option<Synthesis> {
+pub fn synthesize_with_chain(
+    req: &Request, amp: &Amplifier, rails: Rails, target: Target, chain: &chain::Chain,
+) -> Option<Synthesis> {
     let limits = Limits::of(amp, rails);
     let reference = chain.reference(req, rails, target);
     let t = chain.gain_target(req, target, reference.as_ref());
@@ -161,7 +161,10 @@ pub fn synthesize_with_chain(req: &Request, amp: &Amplifier, rails: Rails, targe
     }?;
     chain.attach(&mut s, req, rails, reference.as_ref());
     // Followers and Sallen-Key sections see the gain stage's output at their + inputs.
-    if s.filter.as_ref().is_some_and(|f| f.sections.iter().any(|x| x.kind != filter::sections::SectionKind::MultipleFeedback)) {
+    if s.filter
+        .as_ref()
+        .is_some_and(|f| f.sections.iter().any(|x| x.kind != filter::sections::SectionKind::MultipleFeedback))
+    {
         let (lo, hi) = (t.at_min.min(t.at_max), t.at_min.max(t.at_max));
         s.plus_range = (s.plus_range.0.min(lo), s.plus_range.1.max(hi));
     }
@@ -173,14 +176,35 @@ pub fn synthesize_with_chain(req: &Request, amp: &Amplifier, rails: Rails, targe
 /// behind `RSENSE`, the rails `VPOS` (and `VNEG`), and the converter's input load `RADC`.
 fn bench(bld: &mut Builder, req: &Request, rails: Rails) {
     let s = &req.source;
-    bld.bench("VSENSE", PartKind::VoltageSource, 0.5 * (s.min + s.max), &["emf", "0"], StageRole::Sensor, "sensor EMF (swept over the source range)");
+    bld.bench(
+        "VSENSE",
+        PartKind::VoltageSource,
+        0.5 * (s.min + s.max),
+        &["emf", "0"],
+        StageRole::Sensor,
+        "sensor EMF (swept over the source range)",
+    );
     // A zero source impedance is modelled as 1 mΩ so that the sensor terminal stays a node.
-    bld.bench("RSENSE", PartKind::Resistor, s.impedance.max(1e-3), &["emf", "sense"], StageRole::Sensor, "sensor output impedance");
+    bld.bench(
+        "RSENSE",
+        PartKind::Resistor,
+        s.impedance.max(1e-3),
+        &["emf", "sense"],
+        StageRole::Sensor,
+        "sensor output impedance",
+    );
     bld.bench("VPOS", PartKind::VoltageSource, rails.pos, &["vpos", "0"], StageRole::Supply, "positive rail");
     if rails.is_dual() {
         bld.bench("VNEG", PartKind::VoltageSource, rails.neg, &["vneg", "0"], StageRole::Supply, "negative rail");
     }
-    bld.bench("RADC", PartKind::Resistor, req.destination.impedance, &["adc", "0"], StageRole::Converter, "converter input impedance");
+    bld.bench(
+        "RADC",
+        PartKind::Resistor,
+        req.destination.impedance,
+        &["adc", "0"],
+        StageRole::Converter,
+        "converter input impedance",
+    );
 }
 
 /// Wraps the built parts into the circuit model.

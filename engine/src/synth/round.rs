@@ -35,12 +35,16 @@ const DESCENT_PASSES: usize = 30;
 
 /// Best rounded values and their cost for a single-anchor family: `ideal(anchor)` returns
 /// the continuous value of every resistor (or `None` when that anchor cannot work).
-pub fn optimise(cfg: RoundConfig, ideal: impl Fn(f64) -> Option<Vec<f64>>, cost: impl Fn(&[f64]) -> f64) -> Option<(Vec<f64>, f64)> {
+pub fn optimise(
+    cfg: RoundConfig, ideal: impl Fn(f64) -> Option<Vec<f64>>, cost: impl Fn(&[f64]) -> f64,
+) -> Option<(Vec<f64>, f64)> {
     optimise_all(cfg, anchors(cfg).into_iter().filter_map(ideal), cost)
 }
 
 /// Best rounded values and their cost over any number of ideal vectors (all of one length).
-pub fn optimise_all(cfg: RoundConfig, ideals: impl Iterator<Item = Vec<f64>>, cost: impl Fn(&[f64]) -> f64) -> Option<(Vec<f64>, f64)> {
+pub fn optimise_all(
+    cfg: RoundConfig, ideals: impl Iterator<Item = Vec<f64>>, cost: impl Fn(&[f64]) -> f64,
+) -> Option<(Vec<f64>, f64)> {
     let ladder = Ladder::new(cfg);
     let mut starts: Vec<(Vec<f64>, f64)> = Vec::new();
     let mut seen_empty = false;
@@ -137,7 +141,11 @@ pub fn pairs(cfg: RoundConfig, ratio: f64, offset: f64, n: usize) -> Vec<(f64, f
             if (side_below && n_below == below) || (!side_below && n_above == above.max(1)) {
                 continue;
             }
-            if side_below { n_below += 1 } else { n_above += 1 }
+            if side_below {
+                n_below += 1
+            } else {
+                n_above += 1
+            }
             ratios.push(r);
         }
         if !out.contains(&(b, a)) {

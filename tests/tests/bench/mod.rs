@@ -21,8 +21,8 @@ pub fn spice_pairs(tag: &str, d: &Design, pairs: &[(f64, f64)]) -> Vec<f64> {
     let deck = format!("{body}.control\n{control}quit\n.endc\n.end\n");
     let (ok, stdout, stderr) = run_ngspice(tag, &deck);
     assert!(ok, "[{tag}] ngspice failed:\n{stderr}\n{deck}");
-    let v: Vec<f64> = stdout.lines().filter_map(|l| l.trim().strip_prefix("v(adc) = ").and_then(|x| x.trim().parse().ok())).collect();
+    let v: Vec<f64> =
+        stdout.lines().filter_map(|l| l.trim().strip_prefix("v(adc) = ").and_then(|x| x.trim().parse().ok())).collect();
     assert_eq!(v.len(), pairs.len(), "[{tag}] ngspice printed:\n{stdout}");
     v
 }
-

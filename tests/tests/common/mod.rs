@@ -7,6 +7,17 @@ use rangefit_engine::{design, Request};
 pub fn expected_rows(req: &Request) -> Vec<Vec<String>> {
     bom(&design(req))
         .into_iter()
-        .map(|r| vec![r.designators.join(" "), r.quantity.to_string(), r.kind, r.value, r.tolerance, r.rating, r.construction, r.notes])
+        .map(|r| {
+            vec![
+                r.designators.join(" "),
+                r.quantity.to_string(),
+                r.kind,
+                r.value,
+                r.tolerance,
+                r.rating,
+                r.construction,
+                r.notes,
+            ]
+        })
         .collect()
 }

@@ -22,11 +22,7 @@ impl Ctx<'_> {
         let err = |m: String| Err(KernelError(m));
         let names = c.nodes();
         let at = |s: &str| names.iter().position(|n| n == s).unwrap_or(0);
-        if let Some(p) = c
-            .parts
-            .iter()
-            .find(|p| p.nodes.len() < if p.kind == PartKind::OpAmp { 5 } else { 2 })
-        {
+        if let Some(p) = c.parts.iter().find(|p| p.nodes.len() < if p.kind == PartKind::OpAmp { 5 } else { 2 }) {
             return err(format!("{} has too few nodes", p.reference));
         }
         // Known potentials: ground, and every node a source ties to ground.
@@ -75,10 +71,7 @@ impl Ctx<'_> {
         }
         // Filter and drive capacitors set corners above the band: open at mid-band.
         for p in c.parts.iter().filter(|p| short && p.kind == PartKind::Capacitor && !open_at_mid_band(p)) {
-            let (ra, rb) = (
-                root(&mut parent, at(&p.nodes[0])),
-                root(&mut parent, at(&p.nodes[1])),
-            );
+            let (ra, rb) = (root(&mut parent, at(&p.nodes[0])), root(&mut parent, at(&p.nodes[1])));
             match (known[ra], known[rb]) {
                 _ if ra == rb => {}
                 (Some(x), Some(y)) if x != y => {}
@@ -89,27 +82,18 @@ impl Ctx<'_> {
             }
         }
         let roots: Vec<usize> = (0..names.len()).map(|i| root(&mut parent, i)).collect();
-        let amps: Vec<&Part> = c
-            .parts
-            .iter()
-            .filter(|p| p.kind == PartKind::OpAmp)
-            .collect();
+        let amps: Vec<&Part> = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp).collect();
         let mut amp_out: Vec<Option<usize>> = vec![None; names.len()];
         for (k, p) in amps.iter().enumerate() {
             let r = roots[at(&p.nodes[4])];
             if known[r].is_some() || amp_out[r].replace(k).is_some() {
-                return err(format!(
-                    "the output of {} is fixed by another source or amplifier",
-                    p.reference
-                ));
+                return err(format!("the output of {} is fixed by another source or amplifier", p.reference));
             }
         }
         // Unknowns: the remaining nodes, then one internal node per amplifier; the output last.
         let mut ord = vec![usize::MAX; names.len()];
         let mut m = 0;
-        for i in (0..names.len())
-            .filter(|&i| roots[i] == i && known[i].is_none() && amp_out[i].is_none())
-        {
+        for i in (0..names.len()).filter(|&i| roots[i] == i && known[i].is_none() && amp_out[i].is_none()) {
             ord[i] = m;
             m += 1;
         }
@@ -158,24 +142,12 @@ impl Ctx<'_> {
         for i in 0..n {
             s.base[i * n + i] += GMIN;
         }
-        for (pi, p) in c
-            .parts
-            .iter()
-            .enumerate()
-            .filter(|(_, p)| p.kind == PartKind::Resistor)
-        {
+        for (pi, p) in c.parts.iter().enumerate().filter(|(_, p)| p.kind == PartKind::Resistor) {
             let (a, b) = (at(&p.nodes[0]), at(&p.nodes[1]));
             if roots[a] == roots[b] {
                 continue;
             }
-            let mut e = Elem {
-                param: 0,
-                r0: p.value,
-                mat: [(0, 0.0); 4],
-                n_mat: 0,
-                rhs: [(0, 0.0, 0.0); 2],
-                n_rhs: 0,
-            };
+            let mut e = Elem { param: 0, r0: p.value, mat: [(0, 0.0); 4], n_mat: 0, rhs: [(0, 0.0, 0.0); 2], n_rhs: 0 };
             for (this, other) in [(a, b), (b, a)] {
                 let Some(r) = row(this) else { continue };
                 for (node, sign) in [(this, 1.0), (other, -1.0)] {
@@ -236,27 +208,15 @@ impl Ctx<'_> {
             s.base[x * n + x] += 1.0 / (amp.open_loop_gain / GM);
             if !short {
                 let b = self.amp_param[k];
-                s.srcs.push(Src {
-                    param: b,
-                    row: x,
-                    coef: GM,
-                });
+                s.srcs.push(Src { param: b, row: x, coef: GM });
                 for (j, node) in [(1, at(&p.nodes[0])), (2, at(&p.nodes[1]))] {
                     if let Some(r) = row(node) {
-                        s.srcs.push(Src {
-                            param: b + j,
-                            row: r,
-                            coef: -1.0,
-                        });
+                        s.srcs.push(Src { param: b + j, row: r, coef: -1.0 });
                     }
                 }
             }
         }
-        let nodes = names
-            .iter()
-            .enumerate()
-            .map(|(i, nm)| (nm.clone(), col(i)))
-            .collect();
+        let nodes = names.iter().enumerate().map(|(i, nm)| (nm.clone(), col(i))).collect();
         s.compile_program(self.n_params);
         Ok((s, nodes))
     }
@@ -281,13 +241,7 @@ impl System {
         self.assemble(&g, &mut a, &mut u, &mut w);
         let mut order: Vec<usize> = (0..n).collect();
         for k in 0..n {
-            let piv = (k..n).fold(k, |b, i| {
-                if a[i * n + k].abs() > a[b * n + k].abs() {
-                    i
-                } else {
-                    b
-                }
-            });
+            let piv = (k..n).fold(k, |b, i| if a[i * n + k].abs() > a[b * n + k].abs() { i } else { b });
             let mag = a[piv * n + k].abs();
             if mag == 0.0 || mag.is_nan() {
                 return;
@@ -366,12 +320,7 @@ impl System {
                     a[i * n + j] -= f * a[k * n + j];
                 }
             }
-            self.steps.push(Step {
-                k,
-                rows,
-                cols,
-                nominal,
-            });
+            self.steps.push(Step { k, rows, cols, nominal });
         }
         self.compiled = a[n * n - 1] != 0.0;
     }
@@ -381,13 +330,8 @@ impl System {
         self.mat.clear();
         self.rhs.clear();
         for e in &self.elems {
-            self.mat
-                .extend(e.mat[..e.n_mat].iter().map(|&(k, s)| (k, e.param, s)));
-            self.rhs.extend(
-                e.rhs[..e.n_rhs]
-                    .iter()
-                    .map(|&(r, cu, cw)| (r, e.param, cu, cw)),
-            );
+            self.mat.extend(e.mat[..e.n_mat].iter().map(|&(k, s)| (k, e.param, s)));
+            self.rhs.extend(e.rhs[..e.n_rhs].iter().map(|&(r, cu, cw)| (r, e.param, cu, cw)));
         }
     }
 }

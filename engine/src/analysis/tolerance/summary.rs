@@ -12,11 +12,7 @@ pub(super) fn range_use_fraction(req: &Request) -> f64 {
 /// offset]` per build) and the counts inside the converter range, inside the headroom and
 /// covering the range-use fraction, out of `runs` builds drawn.
 pub(super) fn monte_carlo(
-    builds: Vec<[f64; 4]>,
-    counts: [usize; 3],
-    runs: usize,
-    req: &Request,
-    cfg: &ToleranceConfig,
+    builds: Vec<[f64; 4]>, counts: [usize; 3], runs: usize, req: &Request, cfg: &ToleranceConfig,
     distributions: Vec<String>,
 ) -> MonteCarlo {
     let share = |k: usize| {
@@ -54,14 +50,7 @@ fn stats(builds: &[[f64; 4]], q: usize, column: &mut Vec<f64>) -> Stats {
     let n = builds.len();
     if n == 0 {
         let nan = f64::NAN;
-        return Stats {
-            mean: nan,
-            std: nan,
-            p001: nan,
-            p999: nan,
-            min: nan,
-            max: nan,
-        };
+        return Stats { mean: nan, std: nan, p001: nan, p999: nan, min: nan, max: nan };
     }
     // Shifted sums: identical builds give exactly their value and a spread of exactly 0.
     let x0 = builds[0][q];
@@ -79,24 +68,13 @@ fn stats(builds: &[[f64; 4]], q: usize, column: &mut Vec<f64>) -> Stats {
     }
     let nf = n as f64;
     let mean = x0 + s1 / nf;
-    let var = if n > 1 {
-        ((s2 - s1 * s1 / nf) / (nf - 1.0)).max(0.0)
-    } else {
-        0.0
-    };
+    let var = if n > 1 { ((s2 - s1 * s1 / nf) / (nf - 1.0)).max(0.0) } else { 0.0 };
     let (p001, p999) = tails(builds, q).unwrap_or_else(|| {
         column.clear();
         column.extend(builds.iter().map(|b| b[q]));
         (percentile(column, 0.001), percentile(column, 0.999))
     });
-    Stats {
-        mean,
-        std: var.sqrt(),
-        p001,
-        p999,
-        min,
-        max,
-    }
+    Stats { mean, std: var.sqrt(), p001, p999, min, max }
 }
 
 /// The 0.1 % and 99.9 % percentiles, linear between order statistics. They need only the
@@ -136,10 +114,7 @@ fn tails(builds: &[[f64; 4]], q: usize) -> Option<(f64, f64)> {
     let b = if k_lo + 1 < n { lo[k_lo + 1] } else { a };
     let c = hi[n - 1 - k_hi];
     let e = if k_hi + 1 < n { hi[n - 2 - k_hi] } else { c };
-    Some((
-        a + (pos_lo - k_lo as f64) * (b - a),
-        c + (pos_hi - k_hi as f64) * (e - c),
-    ))
+    Some((a + (pos_lo - k_lo as f64) * (b - a), c + (pos_hi - k_hi as f64) * (e - c)))
 }
 
 /// Percentile `p` (0…1) of a non-empty slice, linear between order statistics, by
@@ -158,29 +133,14 @@ fn percentile(x: &mut [f64], p: f64) -> f64 {
 }
 
 /// Histogram of quantity `q` (see [`Histogram`] for its range).
-fn histogram(
-    builds: &[[f64; 4]],
-    q: usize,
-    s: &Stats,
-    bins: usize,
-    d_min: f64,
-    d_max: f64,
-) -> Histogram {
+fn histogram(builds: &[[f64; 4]], q: usize, s: &Stats, bins: usize, d_min: f64, d_max: f64) -> Histogram {
     let mut counts = vec![0u32; bins];
     if builds.is_empty() {
-        return Histogram {
-            lo: d_min,
-            hi: d_max,
-            counts,
-        };
+        return Histogram { lo: d_min, hi: d_max, counts };
     }
     let (mut lo, mut hi) = (s.min, s.max);
     let width = hi - lo;
-    let limit = if (lo - d_min).abs() <= (hi - d_max).abs() {
-        d_min
-    } else {
-        d_max
-    };
+    let limit = if (lo - d_min).abs() <= (hi - d_max).abs() { d_min } else { d_max };
     if limit < lo && lo - limit <= 3.0 * width {
         lo = limit;
     } else if limit > hi && limit - hi <= 3.0 * width {

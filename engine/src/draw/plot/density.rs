@@ -16,7 +16,12 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     let rows = Rows { fs };
     let n = &a.noise;
     let [f_lo, f_hi] = n.band;
-    let mut data: Vec<(f64, f64)> = n.density.iter().map(|p| (p.f, p.output)).filter(|(f, v)| f.is_finite() && *f > 0.0 && v.is_finite() && *v > 0.0).collect();
+    let mut data: Vec<(f64, f64)> = n
+        .density
+        .iter()
+        .map(|p| (p.f, p.output))
+        .filter(|(f, v)| f.is_finite() && *f > 0.0 && v.is_finite() && *v > 0.0)
+        .collect();
     crate::order::sort_by(&mut data, |p, q| p.0.total_cmp(&q.0));
     let band_ok = f_lo.is_finite() && f_hi.is_finite() && f_lo > 0.0 && f_hi > f_lo;
     let lsb_level = if band_ok && n.lsb.is_finite() && n.lsb > 0.0 { Some(n.lsb / (f_hi - f_lo).sqrt()) } else { None };
@@ -44,11 +49,22 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     let band_text = if band_ok { format!("{} … {}", hz(f_lo), hz(f_hi)) } else { "an empty band".to_string() };
     items.push((
         Sample::Line { colour: ACCENT, width: 2.0, dash: "" },
-        format!("output noise density: {} rms over {} = {} LSB", v(n.output_rms), band_text, si(n.lsb_ratio, Quantity::Ratio)),
+        format!(
+            "output noise density: {} rms over {} = {} LSB",
+            v(n.output_rms),
+            band_text,
+            si(n.lsb_ratio, Quantity::Ratio)
+        ),
     ));
     if let Some(l) = lsb_level {
-        items.push((Sample::Line { colour: INK, width: 1.2, dash: DASH }, format!("LSB level {} = LSB / √(f_hi − f_lo),", si(l, Quantity::VoltageNoise))));
-        items.push((Sample::None, format!("the flat density that integrates to one LSB ({}) rms over the band", v(n.lsb))));
+        items.push((
+            Sample::Line { colour: INK, width: 1.2, dash: DASH },
+            format!("LSB level {} = LSB / √(f_hi − f_lo),", si(l, Quantity::VoltageNoise)),
+        ));
+        items.push((
+            Sample::None,
+            format!("the flat density that integrates to one LSB ({}) rms over the band", v(n.lsb)),
+        ));
     }
 
     let mut label_w = text_width("100 nV/√Hz", fs);
@@ -80,7 +96,11 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     let mut page = Page::new(w, height, fs);
     draw_title(&mut page, &name);
     page.legend(&legend, rows.legend_top(p.bottom));
-    let y_title = if text_width("Noise density (V/√Hz)", fs) <= p.height() { "Noise density (V/√Hz)" } else { "Noise (V/√Hz)" };
+    let y_title = if text_width("Noise density (V/√Hz)", fs) <= p.height() {
+        "Noise density (V/√Hz)"
+    } else {
+        "Noise (V/√Hz)"
+    };
     page.vertical_text(PAD + 0.8 * fs, 0.5 * (p.top + p.bottom), &fit(y_title, p.height(), fs), INK);
     page.text(0.5 * (p.left + p.right), rows.xtitle_base(p.bottom), "Frequency (Hz)", Anchor::Middle, INK, false);
     page.panel(&p, &xt, &yt, true, true);
@@ -97,7 +117,8 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     page.curve(&p, &data, ACCENT, 2.0, "", "density");
     if let Some(y) = lsb_level.and_then(|l| p.y.px(l)) {
         let x = p.right - 6.0;
-        let _ = page.label_if_clear(x, y - 5.0, "1 LSB rms", Anchor::End, INK) || page.label_if_clear(x, y + 0.8 * fs + 5.0, "1 LSB rms", Anchor::End, INK);
+        let _ = page.label_if_clear(x, y - 5.0, "1 LSB rms", Anchor::End, INK)
+            || page.label_if_clear(x, y + 0.8 * fs + 5.0, "1 LSB rms", Anchor::End, INK);
     }
     page.finish(&full)
 }

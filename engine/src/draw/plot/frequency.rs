@@ -5,7 +5,10 @@
 //! less the rejection the rule asks for (`analysis.alias`).
 
 use super::axis::{bounds_for, usable_range, Axis, Scale};
-use super::layout::{draw_title, extent, finite, interpolate, left_edge, min_panel_h, min_panel_w, right_edge, title, widen, Rows, Y_SPACING};
+use super::layout::{
+    draw_title, extent, finite, interpolate, left_edge, min_panel_h, min_panel_w, right_edge, title, widen, Rows,
+    Y_SPACING,
+};
 use super::legend::{spread, Legend, Sample, Tag};
 use super::page::{fit, si, Page, Panel, ACCENT, DASH, DOT, GREY, INK, PAD, TINT, WARN};
 use super::ticks::{TickSet, Unit};
@@ -61,10 +64,12 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     let rows = Rows { fs };
     let s = &d.request.source;
     let f_s = d.request.destination.sample_rate;
-    let mut pts: Vec<(f64, f64, f64)> = a.ac.points.iter().filter(|p| p.f.is_finite() && p.f > 0.0).map(|p| (p.f, p.mag_db, p.phase_deg)).collect();
+    let mut pts: Vec<(f64, f64, f64)> =
+        a.ac.points.iter().filter(|p| p.f.is_finite() && p.f > 0.0).map(|p| (p.f, p.mag_db, p.phase_deg)).collect();
     crate::order::sort_by(&mut pts, |x, y| x.0.total_cmp(&y.0));
     let mag = finite(pts.iter().map(|p| (p.0, p.1)));
-    let f_ref = if s.coupling == Coupling::Ac && a.ac.f_mid > 0.0 { a.ac.f_mid } else { pts.first().map_or(1.0, |p| p.0) };
+    let f_ref =
+        if s.coupling == Coupling::Ac && a.ac.f_mid > 0.0 { a.ac.f_mid } else { pts.first().map_or(1.0, |p| p.0) };
     let phase = unwrap_phase(&finite(pts.iter().map(|p| (p.0, p.2))), f_ref);
     // The level content at the fold frequency must stay under, dB (mid-band gain − rejection).
     let ceiling = a.alias.as_ref().map(|x| (a.ac.gain_mid_db - x.required_db, x)).filter(|(c, _)| c.is_finite());
@@ -89,7 +94,8 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     // Markers, their legend entries and what lies off the scale.
     let mut markers: Vec<Marker> = Vec::new();
     let off = |f: f64| if f >= f0 * (1.0 - 1e-9) && f <= f1 * (1.0 + 1e-9) { "" } else { " (off scale)" };
-    let corners: Vec<f64> = [a.ac.f_low_3db, a.ac.f_high_3db].into_iter().flatten().filter(|f| f.is_finite() && *f > 0.0).collect();
+    let corners: Vec<f64> =
+        [a.ac.f_low_3db, a.ac.f_high_3db].into_iter().flatten().filter(|f| f.is_finite() && *f > 0.0).collect();
     for &f in &corners {
         markers.push(Marker { f, tag: "−3 dB", colour: ACCENT, width: 1.2, dash: DASH });
     }
@@ -107,7 +113,10 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     let hz = |f: f64| si(f, Quantity::Frequency);
     let mut items: Vec<(Sample, String)> = Vec::new();
     let band_lo = if s.coupling == Coupling::Ac { s.band_low } else { 0.0 };
-    items.push((Sample::Fill { colour: TINT, edge: "none" }, format!("band {} … {}", if band_lo > 0.0 { hz(band_lo) } else { "DC".to_string() }, hz(s.band_high))));
+    items.push((
+        Sample::Fill { colour: TINT, edge: "none" },
+        format!("band {} … {}", if band_lo > 0.0 { hz(band_lo) } else { "DC".to_string() }, hz(s.band_high)),
+    ));
     if corners.is_empty() {
         items.push((Sample::None, "no −3 dB point in reach".to_string()));
     } else {
@@ -117,17 +126,33 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
         items.push((sample, format!("−3 dB at {}", list.join(" and "))));
     }
     if nyq.is_finite() && nyq > 0.0 {
-        items.push((Sample::Line { colour: GREY, width: 1.2, dash: DASH }, format!("fs/2 = {} (Nyquist){}", hz(nyq), off(nyq))));
-        items.push((Sample::Line { colour: GREY, width: 1.0, dash: "" }, format!("fs = {} (sample rate){}", hz(f_s), off(f_s))));
+        items.push((
+            Sample::Line { colour: GREY, width: 1.2, dash: DASH },
+            format!("fs/2 = {} (Nyquist){}", hz(nyq), off(nyq)),
+        ));
+        items.push((
+            Sample::Line { colour: GREY, width: 1.0, dash: "" },
+            format!("fs = {} (sample rate){}", hz(f_s), off(f_s)),
+        ));
     }
     if fold.is_finite() && fold > 0.0 {
-        let how = if a.alias.is_some() && (fold - (f_s - s.band_high)).abs() > 1e-9 * fold { "modulator rate − band high" } else { "fs − band high" };
-        items.push((Sample::Line { colour: GREY, width: 1.4, dash: DOT }, format!("fold: {how} = {}, the lowest frequency that aliases into the band{}", hz(fold), off(fold))));
+        let how = if a.alias.is_some() && (fold - (f_s - s.band_high)).abs() > 1e-9 * fold {
+            "modulator rate − band high"
+        } else {
+            "fs − band high"
+        };
+        items.push((
+            Sample::Line { colour: GREY, width: 1.4, dash: DOT },
+            format!("fold: {how} = {}, the lowest frequency that aliases into the band{}", hz(fold), off(fold)),
+        ));
     }
     if let Some((_, x)) = ceiling {
         items.push((
             Sample::Line { colour: WARN, width: 2.0, dash: "" },
-            format!("rejection needed from the fold up: {:.1} dB below mid-band (built: {:.1} dB)", x.required_db, x.achieved_db),
+            format!(
+                "rejection needed from the fold up: {:.1} dB below mid-band (built: {:.1} dB)",
+                x.required_db, x.achieved_db
+            ),
         ));
     }
 
@@ -176,18 +201,28 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
             break;
         }
     }
-    let Some((mag_p, ph_p, yt_m, yt_p, tags, placed, legend, height)) = geo else { return Page::new(w, cfg.height, fs).finish("") };
+    let Some((mag_p, ph_p, yt_m, yt_p, tags, placed, legend, height)) = geo else {
+        return Page::new(w, cfg.height, fs).finish("");
+    };
     let xt = TickSet::log(&mag_p.x, Unit::Si(Quantity::Frequency), fs, true);
 
     let (name, full) = title(&d.name, "frequency response, sensor to converter input", w, fs);
     let mut page = Page::new(w, height, fs);
     draw_title(&mut page, &name);
     page.legend(&legend, rows.legend_top(ph_p.bottom));
-    let mag_title = if text_width("Magnitude (dB)", fs) <= mag_p.height() + gap - 2.0 { "Magnitude (dB)" } else { "Gain (dB)" };
+    let mag_title =
+        if text_width("Magnitude (dB)", fs) <= mag_p.height() + gap - 2.0 { "Magnitude (dB)" } else { "Gain (dB)" };
     let x_title = PAD + 0.8 * fs;
     page.vertical_text(x_title, 0.5 * (mag_p.top + mag_p.bottom), &fit(mag_title, mag_p.height() + gap - 2.0, fs), INK);
     page.vertical_text(x_title, 0.5 * (ph_p.top + ph_p.bottom), &fit("Phase (°)", ph_p.height() + gap - 2.0, fs), INK);
-    page.text(0.5 * (ph_p.left + ph_p.right), rows.xtitle_base(ph_p.bottom), "Frequency (Hz)", Anchor::Middle, INK, false);
+    page.text(
+        0.5 * (ph_p.left + ph_p.right),
+        rows.xtitle_base(ph_p.bottom),
+        "Frequency (Hz)",
+        Anchor::Middle,
+        INK,
+        false,
+    );
 
     // Band shading, grid and frames, markers, curves.
     for p in [&mag_p, &ph_p] {

@@ -2,7 +2,9 @@
 //! max, each beside the converter and headroom limits near it, with the worst case.
 
 use super::axis::{bounds_for, usable_range, Axis, Scale};
-use super::layout::{draw_title, left_edge, min_panel_h, min_panel_w, right_edge, title, widen, Rows, HEADROOM, Y_SPACING};
+use super::layout::{
+    draw_title, left_edge, min_panel_h, min_panel_w, right_edge, title, widen, Rows, HEADROOM, Y_SPACING,
+};
 use super::legend::{spread, Legend, Sample, Tag};
 use super::page::{fit, line_h, percent, si, Page, Panel, ACCENT, DASH, GREY, INK, PAD, TINT};
 use super::ticks::{TickSet, Unit};
@@ -36,7 +38,12 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     let span = dst.max - dst.min;
     let head = dst.headroom * span;
     let v = |x: f64| si(x, Quantity::Voltage);
-    let limits: [(f64, &'static str, bool); 4] = [(dst.min, "converter min", true), (dst.max, "converter max", true), (dst.min + head, "headroom", false), (dst.max - head, "headroom", false)];
+    let limits: [(f64, &'static str, bool); 4] = [
+        (dst.min, "converter min", true),
+        (dst.max, "converter max", true),
+        (dst.min + head, "headroom", false),
+        (dst.max - head, "headroom", false),
+    ];
 
     let mut sides = [
         make_side(&mc.histograms.output_at_min, format!("at sensor min ({})", v(s.min)), wc.output_at_min, &limits),
@@ -52,12 +59,28 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     let has_worst = sides.iter().any(|sd| sd.worst.iter().all(|v| v.is_finite()));
 
     let mut items: Vec<(Sample, String)> = Vec::new();
-    let bin_w: Vec<String> = sides.iter().filter(|sd| !sd.h.counts.is_empty() && sd.h.hi > sd.h.lo).map(|sd| v((sd.h.hi - sd.h.lo) / sd.h.counts.len() as f64)).collect();
-    items.push((Sample::Fill { colour: TINT, edge: ACCENT }, format!("builds per bin (bins {} wide)", if bin_w.is_empty() { "—".to_string() } else { bin_w.join(" and ") })));
-    items.push((Sample::Line { colour: INK, width: 1.6, dash: "" }, format!("converter limit ({} … {})", v(dst.min), v(dst.max))));
+    let bin_w: Vec<String> = sides
+        .iter()
+        .filter(|sd| !sd.h.counts.is_empty() && sd.h.hi > sd.h.lo)
+        .map(|sd| v((sd.h.hi - sd.h.lo) / sd.h.counts.len() as f64))
+        .collect();
+    items.push((
+        Sample::Fill { colour: TINT, edge: ACCENT },
+        format!("builds per bin (bins {} wide)", if bin_w.is_empty() { "—".to_string() } else { bin_w.join(" and ") }),
+    ));
+    items.push((
+        Sample::Line { colour: INK, width: 1.6, dash: "" },
+        format!("converter limit ({} … {})", v(dst.min), v(dst.max)),
+    ));
     if head > 0.0 {
-        items.push((Sample::Fill { colour: HEADROOM, edge: "none" }, format!("headroom band, {} of the range", percent(dst.headroom))));
-        items.push((Sample::Line { colour: GREY, width: 1.2, dash: DASH }, format!("headroom limit ({} and {})", v(dst.min + head), v(dst.max - head))));
+        items.push((
+            Sample::Fill { colour: HEADROOM, edge: "none" },
+            format!("headroom band, {} of the range", percent(dst.headroom)),
+        ));
+        items.push((
+            Sample::Line { colour: GREY, width: 1.2, dash: DASH },
+            format!("headroom limit ({} and {})", v(dst.min + head), v(dst.max - head)),
+        ));
     }
     if has_worst {
         items.push((Sample::Bracket, "worst case over the tolerance box".to_string()));
@@ -72,14 +95,20 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
         let right = right_edge(w, fs);
         let pw = (right - left - gap) / 2.0;
         let xs = [(left, left + pw), (left + pw + gap, left + 2.0 * pw + gap)];
-        let axes: Vec<Axis> = sides.iter().zip(xs).map(|(sd, (l, r))| Axis::new(Scale::Linear, sd.lo, sd.hi, l, r)).collect();
+        let axes: Vec<Axis> =
+            sides.iter().zip(xs).map(|(sd, (l, r))| Axis::new(Scale::Linear, sd.lo, sd.hi, l, r)).collect();
         let mut tags: Vec<Vec<Tag>> = Vec::new();
         let mut placed: Vec<Vec<Option<f64>>> = Vec::new();
         for (sd, ax) in sides.iter().zip(&axes) {
             let mut t = Vec::new();
             for &(val, name, conv) in &sd.inside {
                 if let Some(x) = ax.px(val) {
-                    t.push(Tag { x, text: if conv { format!("{name} {}", v(val)) } else { name.to_string() }, leader: true, edge: 0 });
+                    t.push(Tag {
+                        x,
+                        text: if conv { format!("{name} {}", v(val)) } else { name.to_string() },
+                        leader: true,
+                        edge: 0,
+                    });
                 }
             }
             for &(val, name, right_side) in &sd.outside {
@@ -99,7 +128,8 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
         let h = (cfg.height - top - below).max(min_panel_h(fs)).floor();
         let height = (top + h + below).max(cfg.height);
         let (_, c1) = bounds_for(0.0, c_top, h, Y_SPACING * fs, false);
-        let panels: Vec<Panel> = axes.iter().map(|ax| Panel::new(*ax, Axis::new(Scale::Linear, 0.0, c1, top + h, top))).collect();
+        let panels: Vec<Panel> =
+            axes.iter().map(|ax| Panel::new(*ax, Axis::new(Scale::Linear, 0.0, c1, top + h, top))).collect();
         let yt = TickSet::linear(&panels[0].y, Unit::Plain(""), Y_SPACING * fs, fs, false, false);
         let need = yt.label_width(fs);
         let done = need <= label_w + 0.5;
@@ -109,7 +139,9 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
             break;
         }
     }
-    let Some((panels, yt, tags, placed, legend, height, strip_top)) = geo else { return Page::new(w, cfg.height, fs).finish("") };
+    let Some((panels, yt, tags, placed, legend, height, strip_top)) = geo else {
+        return Page::new(w, cfg.height, fs).finish("");
+    };
 
     let yield_text = if mc.runs > 0 && mc.yield_.is_finite() {
         format!("yield {} ({} with full headroom), {runs} builds", percent(mc.yield_), percent(mc.yield_headroom))
@@ -121,8 +153,20 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     draw_title(&mut page, &name);
     let bottom = panels[0].bottom;
     page.legend(&legend, rows.legend_top(bottom));
-    page.vertical_text(PAD + 0.8 * fs, 0.5 * (panels[0].top + bottom), &fit("Builds per bin", panels[0].height(), fs), INK);
-    page.text(0.5 * (panels[0].left + panels[1].right), rows.xtitle_base(bottom), "Output (V)", Anchor::Middle, INK, false);
+    page.vertical_text(
+        PAD + 0.8 * fs,
+        0.5 * (panels[0].top + bottom),
+        &fit("Builds per bin", panels[0].height(), fs),
+        INK,
+    );
+    page.text(
+        0.5 * (panels[0].left + panels[1].right),
+        rows.xtitle_base(bottom),
+        "Output (V)",
+        Anchor::Middle,
+        INK,
+        false,
+    );
     for (sd, p) in sides.iter().zip(&panels) {
         let heading = format!("Output {}", sd.what);
         page.text(p.left, strip_top - 0.3 * fs, &fit(&heading, p.width(), fs), Anchor::Start, INK, true);

@@ -8,8 +8,15 @@ use crate::draw::svg::text_width;
 /// What a legend entry shows before its text.
 #[derive(Debug, Clone, Copy)]
 pub(super) enum Sample {
-    Line { colour: &'static str, width: f64, dash: &'static str },
-    Fill { colour: &'static str, edge: &'static str },
+    Line {
+        colour: &'static str,
+        width: f64,
+        dash: &'static str,
+    },
+    Fill {
+        colour: &'static str,
+        edge: &'static str,
+    },
     /// A short bar with end ticks (an interval).
     Bracket,
     None,

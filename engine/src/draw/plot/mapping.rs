@@ -2,7 +2,10 @@
 //! limits and the sensor's extremes.
 
 use super::axis::{bounds_for, usable_range, Axis, Scale};
-use super::layout::{draw_title, extent, finite, interpolate, left_edge, min_panel_h, min_panel_w, right_edge, title, widen, Rows, HEADROOM, Y_SPACING};
+use super::layout::{
+    draw_title, extent, finite, interpolate, left_edge, min_panel_h, min_panel_w, right_edge, title, widen, Rows,
+    HEADROOM, Y_SPACING,
+};
 use super::legend::{spread, Legend, Sample, Tag};
 use super::page::{fit, percent, si, Page, Panel, ACCENT, DASH, DOT, GREY, INK, PAD};
 use super::ticks::{TickSet, Unit};
@@ -48,7 +51,11 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
             Some(p) => {
                 let mid = 0.5 * (s.min + s.max);
                 let excursion = if mid == 0.0 { "sensor".to_string() } else { format!("(sensor − {})", v(mid)) };
-                format!("mid-band output: DC level {} + gain {} × {excursion}", v(p.offset), si(p.gain, Quantity::Ratio))
+                format!(
+                    "mid-band output: DC level {} + gain {} × {excursion}",
+                    v(p.offset),
+                    si(p.gain, Quantity::Ratio)
+                )
             }
             None => "mid-band output".to_string(),
         }
@@ -56,12 +63,24 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
         "output at the converter input".to_string()
     };
     items.push((Sample::Line { colour: ACCENT, width: 2.0, dash: "" }, curve_text));
-    items.push((Sample::Line { colour: INK, width: 1.4, dash: "" }, format!("converter range {} … {}", v(dst.min), v(dst.max))));
+    items.push((
+        Sample::Line { colour: INK, width: 1.4, dash: "" },
+        format!("converter range {} … {}", v(dst.min), v(dst.max)),
+    ));
     if head > 0.0 {
-        items.push((Sample::Fill { colour: HEADROOM, edge: "none" }, format!("headroom {} of the range at each end ({})", percent(dst.headroom), v(head))));
+        items.push((
+            Sample::Fill { colour: HEADROOM, edge: "none" },
+            format!("headroom {} of the range at each end ({})", percent(dst.headroom), v(head)),
+        ));
     }
-    items.push((Sample::Line { colour: GREY, width: 1.2, dash: DASH }, format!("amplifier output limits {} and {}: the output clips there", v(lim_lo), v(lim_hi))));
-    items.push((Sample::Line { colour: GREY, width: 1.2, dash: DOT }, format!("sensor range {} … {}", sv(s.min), sv(s.max))));
+    items.push((
+        Sample::Line { colour: GREY, width: 1.2, dash: DASH },
+        format!("amplifier output limits {} and {}: the output clips there", v(lim_lo), v(lim_hi)),
+    ));
+    items.push((
+        Sample::Line { colour: GREY, width: 1.2, dash: DOT },
+        format!("sensor range {} … {}", sv(s.min), sv(s.max)),
+    ));
     if let Some((c0, c1)) = extent(a.dc.clipped_in_range.iter().copied()) {
         let at = if c1 > c0 { format!("{} … {}", sv(c0), sv(c1)) } else { sv(c0) };
         items.push((Sample::None, format!("Clips inside the sensor range, at sensor {at}")));
@@ -122,7 +141,12 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
         }
     }
     page.panel(&p, &xt, &yt, true, true);
-    for (lim, colour, width, dash, net) in [(dst.min, INK, 1.4, "", "converter"), (dst.max, INK, 1.4, "", "converter"), (lim_lo, GREY, 1.2, DASH, "limit"), (lim_hi, GREY, 1.2, DASH, "limit")] {
+    for (lim, colour, width, dash, net) in [
+        (dst.min, INK, 1.4, "", "converter"),
+        (dst.max, INK, 1.4, "", "converter"),
+        (lim_lo, GREY, 1.2, DASH, "limit"),
+        (lim_hi, GREY, 1.2, DASH, "limit"),
+    ] {
         if let Some(y) = p.y.px(lim).filter(|_| p.y.contains(lim)) {
             page.stroke((p.left, y), (p.right, y), colour, width, dash, net);
         }

@@ -149,7 +149,14 @@ impl Page {
     /// An unstroked filled rectangle in the underlay.
     pub fn fill(&mut self, x: f64, y: f64, w: f64, h: f64, colour: &str) {
         if [x, y, w, h].iter().all(|v| v.is_finite()) && w > 0.0 && h > 0.0 {
-            let _ = writeln!(self.under, "<rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" fill=\"{colour}\"/>", num(x), num(y), num(w), num(h));
+            let _ = writeln!(
+                self.under,
+                "<rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" fill=\"{colour}\"/>",
+                num(x),
+                num(y),
+                num(w),
+                num(h)
+            );
         }
     }
 
@@ -158,7 +165,16 @@ impl Page {
         if ![a.0, a.1, b.0, b.1].iter().all(|v| v.is_finite()) {
             return;
         }
-        let _ = writeln!(self.under, "<line x1=\"{}\" y1=\"{}\" x2=\"{}\" y2=\"{}\" stroke=\"{colour}\" stroke-width=\"{}\"{}/>", num(a.0), num(a.1), num(b.0), num(b.1), num(width), dash_attr(dash));
+        let _ = writeln!(
+            self.under,
+            "<line x1=\"{}\" y1=\"{}\" x2=\"{}\" y2=\"{}\" stroke=\"{colour}\" stroke-width=\"{}\"{}/>",
+            num(a.0),
+            num(a.1),
+            num(b.0),
+            num(b.1),
+            num(width),
+            dash_attr(dash)
+        );
         if !net.is_empty() {
             self.svg.wires.push(Segment::new(a, b, net));
         }
@@ -188,7 +204,12 @@ impl Page {
             return;
         }
         let list: Vec<String> = pts.iter().map(|p| format!("{},{}", num(p.0), num(p.1))).collect();
-        let _ = writeln!(self.under, "<polygon points=\"{}\" fill=\"{fill}\" stroke=\"{edge}\" stroke-width=\"{}\" stroke-linejoin=\"round\"/>", list.join(" "), num(width));
+        let _ = writeln!(
+            self.under,
+            "<polygon points=\"{}\" fill=\"{fill}\" stroke=\"{edge}\" stroke-width=\"{}\" stroke-linejoin=\"round\"/>",
+            list.join(" "),
+            num(width)
+        );
         for (k, a) in pts.iter().enumerate() {
             self.svg.wires.push(Segment::new(*a, pts[(k + 1) % pts.len()], net));
         }
@@ -349,7 +370,9 @@ impl Page {
             for (x, sample, text) in line {
                 let tx = x + SAMPLE_W + 6.0;
                 match *sample {
-                    Sample::Line { colour, width, dash } => self.stroke((*x, mid), (x + SAMPLE_W, mid), colour, width, dash, ""),
+                    Sample::Line { colour, width, dash } => {
+                        self.stroke((*x, mid), (x + SAMPLE_W, mid), colour, width, dash, "")
+                    }
                     Sample::Fill { colour, edge } => {
                         let (y0, h) = (mid - 0.4 * fs, 0.8 * fs);
                         self.fill(*x, y0, SAMPLE_W, h, colour);

@@ -60,10 +60,13 @@ impl TickSet {
             return TickSet::default();
         }
         let make = |step: f64| {
-            let major: Vec<(f64, Option<String>)> = multiples(axis.lo, axis.hi, step).into_iter().map(|v| (v, Some(unit.label(v, step)))).collect();
+            let major: Vec<(f64, Option<String>)> =
+                multiples(axis.lo, axis.hi, step).into_iter().map(|v| (v, Some(unit.label(v, step)))).collect();
             TickSet { major, minor: Vec::new() }
         };
-        let fits = |step: f64, set: &TickSet| step * px_per >= spacing && !set.major.is_empty() && (!horizontal || set.spaced(axis, fs, true));
+        let fits = |step: f64, set: &TickSet| {
+            step * px_per >= spacing && !set.major.is_empty() && (!horizontal || set.spaced(axis, fs, true))
+        };
         let steps: Vec<f64> = if angle {
             for step in [45.0, 90.0, 180.0] {
                 let set = make(step);
@@ -98,7 +101,11 @@ impl TickSet {
                 .iter()
                 .enumerate()
                 .map(|(i, &v)| {
-                    let keep = if decades { (v.log10().round() as i32).rem_euclid(every) == 0 } else { (i as i32).rem_euclid(every) == 0 };
+                    let keep = if decades {
+                        (v.log10().round() as i32).rem_euclid(every) == 0
+                    } else {
+                        (i as i32).rem_euclid(every) == 0
+                    };
                     (v, keep.then(|| label(v)))
                 })
                 .collect();

@@ -10,18 +10,26 @@ use crate::units::{format, Quantity};
 impl Sheet<'_> {
     /// Writes `lines` at the first free spot `(x, top of first line, anchor)`. With `net`, a
     /// first pass wants the spot well clear of other nets' wiring, so the text reads as its own.
-    pub(super) fn put(&mut self, lines: &[String], spots: &[(f64, f64, Anchor)], fs: f64, colour: &str, style: &str, net: Option<&str>) -> bool {
+    pub(super) fn put(
+        &mut self, lines: &[String], spots: &[(f64, f64, Anchor)], fs: f64, colour: &str, style: &str,
+        net: Option<&str>,
+    ) -> bool {
         let lh = 1.2 * fs;
         let passes: &[bool] = if net.is_some() { &[true, false] } else { &[false] };
         for &roomy in passes {
             for &(x, top, anchor) in spots {
                 let at = |k: usize| top + 0.8 * fs + k as f64 * lh;
-                let boxes: Vec<BoxRect> = lines.iter().enumerate().map(|(k, s)| text_box(x, at(k), s, fs, anchor)).collect();
-                let clear = |b: &BoxRect| {
-                    self.svg.is_free(&b.grow(PAD))
-                        && !self.svg.texts.iter().any(|t| t.overlaps(&b.grow(TEXT_GAP)))
-                        && !(roomy && self.svg.wires.iter().any(|w| !w.net.is_empty() && Some(w.net.as_str()) != net && b.grow(ROOM).crosses(w)))
-                };
+                let boxes: Vec<BoxRect> =
+                    lines.iter().enumerate().map(|(k, s)| text_box(x, at(k), s, fs, anchor)).collect();
+                let clear =
+                    |b: &BoxRect| {
+                        self.svg.is_free(&b.grow(PAD))
+                            && !self.svg.texts.iter().any(|t| t.overlaps(&b.grow(TEXT_GAP)))
+                            && !(roomy
+                                && self.svg.wires.iter().any(|w| {
+                                    !w.net.is_empty() && Some(w.net.as_str()) != net && b.grow(ROOM).crosses(w)
+                                }))
+                    };
                 if boxes.iter().all(clear) {
                     for (k, s) in lines.iter().enumerate() {
                         self.svg.text(x, at(k), s, fs, anchor, colour, "", style);
@@ -44,7 +52,8 @@ impl Sheet<'_> {
                 Shape::Vertical => {
                     for (gap, side) in [(6.0, 1.0), (6.0, -1.0), (18.0, 1.0), (18.0, -1.0)] {
                         for dy in [0.0, -10.0, 10.0, -20.0, 20.0, -32.0, 32.0, -45.0, 45.0] {
-                            let (x, a) = if side > 0.0 { (b.x + b.w + gap, Anchor::Start) } else { (b.x - gap, Anchor::End) };
+                            let (x, a) =
+                                if side > 0.0 { (b.x + b.w + gap, Anchor::Start) } else { (b.x - gap, Anchor::End) };
                             spots.push((x, cy - h / 2.0 + dy, a));
                         }
                     }
@@ -118,9 +127,16 @@ impl Sheet<'_> {
     pub(super) fn test_point(&mut self, node: &str, text: &str) -> bool {
         let fs = self.cfg.font_size;
         let h = 1.05 * fs;
-        let mut runs: Vec<Segment> =
-            self.svg.wires.iter().filter(|w| w.net == node && (w.y1 - w.y2).abs() < 1e-9 && (w.x2 - w.x1).abs() >= 30.0).cloned().collect();
-        crate::order::sort_by(&mut runs, |a, b| self.leads.contains(a).cmp(&self.leads.contains(b)).then(b.len().total_cmp(&a.len())));
+        let mut runs: Vec<Segment> = self
+            .svg
+            .wires
+            .iter()
+            .filter(|w| w.net == node && (w.y1 - w.y2).abs() < 1e-9 && (w.x2 - w.x1).abs() >= 30.0)
+            .cloned()
+            .collect();
+        crate::order::sort_by(&mut runs, |a, b| {
+            self.leads.contains(a).cmp(&self.leads.contains(b)).then(b.len().total_cmp(&a.len()))
+        });
         let mut taps_at: Vec<Vec<(f64, f64)>> = Vec::new();
         for s in &runs {
             let mut here = Vec::new();
@@ -139,7 +155,8 @@ impl Sheet<'_> {
             let mut k = 0.0;
             while mid - k >= xa {
                 for x in [mid - k, mid + k] {
-                    let clear = !taps.iter().any(|t| (t - x).abs() < 12.0) && !self.bench_areas.iter().any(|b| b.grow(4.0).contains(x, y));
+                    let clear = !taps.iter().any(|t| (t - x).abs() < 12.0)
+                        && !self.bench_areas.iter().any(|b| b.grow(4.0).contains(x, y));
                     if clear && x <= xb && !here.contains(&(x, y)) {
                         here.push((x, y));
                     }
@@ -166,9 +183,18 @@ impl Sheet<'_> {
                     for (lx, top, a) in spots {
                         let b = text_box(lx, top + 0.8 * fs, text, fs, a);
                         // Keep well clear of other wiring, so the label does not read as theirs.
-                        let roomy = !self.svg.wires.iter().any(|w| !w.net.is_empty() && w.net != node && b.grow(ROOM).crosses(w));
+                        let roomy = !self
+                            .svg
+                            .wires
+                            .iter()
+                            .any(|w| !w.net.is_empty() && w.net != node && b.grow(ROOM).crosses(w));
                         let apart = !self.svg.texts.iter().any(|t| t.overlaps(&b.grow(TEXT_GAP)));
-                        if roomy && apart && self.svg.is_free(&b.grow(PAD)) && !b.grow(PAD).crosses(&stub) && !b.grow(PAD).overlaps(&ring) {
+                        if roomy
+                            && apart
+                            && self.svg.is_free(&b.grow(PAD))
+                            && !b.grow(PAD).crosses(&stub)
+                            && !b.grow(PAD).overlaps(&ring)
+                        {
                             self.svg.segment((x, y), tip, node, self.pen(false));
                             self.svg.circle(c, 4.0, "#ffffff", Some(self.pen(false)));
                             self.svg.circle((x, y), 3.2, INK, None);
@@ -193,7 +219,13 @@ impl Sheet<'_> {
         let mut nets: Vec<String> = Vec::new();
         for w in &self.svg.wires {
             let quiet = self.quiet.contains(&w.net);
-            if !w.net.is_empty() && w.net != GND && w.net != "emf" && !quiet && !self.rails.iter().any(|r| r.node == w.net) && !nets.contains(&w.net) {
+            if !w.net.is_empty()
+                && w.net != GND
+                && w.net != "emf"
+                && !quiet
+                && !self.rails.iter().any(|r| r.node == w.net)
+                && !nets.contains(&w.net)
+            {
                 nets.push(w.net.clone());
             }
         }
@@ -203,13 +235,21 @@ impl Sheet<'_> {
             let tiny = 1e-5 * (self.c.rail_pos - self.c.rail_neg).abs();
             let text = format(if v.abs() < tiny { 0.0 } else { v }, Quantity::Voltage);
             let mut spots = Vec::new();
-            let mut runs: Vec<Segment> = self.svg.wires.iter().filter(|w| w.net == net && w.len() >= 12.0).cloned().collect();
-            crate::order::sort_by(&mut runs, |a, b| self.leads.contains(a).cmp(&self.leads.contains(b)).then(b.len().total_cmp(&a.len())));
+            let mut runs: Vec<Segment> =
+                self.svg.wires.iter().filter(|w| w.net == net && w.len() >= 12.0).cloned().collect();
+            crate::order::sort_by(&mut runs, |a, b| {
+                self.leads.contains(a).cmp(&self.leads.contains(b)).then(b.len().total_cmp(&a.len()))
+            });
             for horizontal in [true, false] {
                 for s in runs.iter().filter(|s| ((s.y1 - s.y2).abs() < 1e-9) == horizontal) {
                     // From the middle of the run outward, every 6 px.
                     let n = (s.len() / 12.0).floor() as i32;
-                    for f in (0..=2 * n).map(|k| 0.5 + if k % 2 == 1 { 1.0 } else { -1.0 } * ((k + 1) / 2) as f64 * 6.0 / s.len().max(1.0)).filter(|f| (0.0..=1.0).contains(f)) {
+                    for f in (0..=2 * n)
+                        .map(|k| {
+                            0.5 + if k % 2 == 1 { 1.0 } else { -1.0 } * ((k + 1) / 2) as f64 * 6.0 / s.len().max(1.0)
+                        })
+                        .filter(|f| (0.0..=1.0).contains(f))
+                    {
                         let (px, py) = (s.x1 + f * (s.x2 - s.x1), s.y1 + f * (s.y2 - s.y1));
                         if self.bench_areas.iter().any(|b| b.contains(px, py)) {
                             continue;
@@ -234,7 +274,8 @@ impl Sheet<'_> {
     pub(super) fn finish(mut self, name: &str) -> Schematic {
         let fs = self.cfg.font_size;
         let (x0, y0, _, y1) = self.svg.bounds().unwrap_or((0.0, 0.0, 400.0, 300.0));
-        let mut lines = vec!["Grey: the bench around the design (sensor model, supplies, converter input), not built.".to_string()];
+        let mut lines =
+            vec!["Grey: the bench around the design (sensor model, supplies, converter input), not built.".to_string()];
         if self.op.is_some() && self.cfg.dc_levels {
             lines.push("Blue italic: DC level of each node at the operating point.".to_string());
         }

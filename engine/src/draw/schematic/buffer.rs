@@ -65,16 +65,19 @@ impl Buffer {
         let ret = c
             .parts
             .iter()
-            .find(|p| p.bench && p.kind == PartKind::VoltageSource && p.stage == StageRole::Sensor && p.nodes.len() == 2)
+            .find(|p| {
+                p.bench && p.kind == PartKind::VoltageSource && p.stage == StageRole::Sensor && p.nodes.len() == 2
+            })
             .map(|p| p.nodes[1].clone())
             .filter(|n| !terminal(n) && n != input && *n != out && n != "emf")
             // Or the bias reference R_b returns to: a node the rails and ground hold.
             .or_else(|| {
-                c.parts
-                    .iter()
-                    .filter(|p| plain(p) && has(p, input))
-                    .map(|p| other(p, input))
-                    .find(|n| !terminal(n) && *n != out && n != "emf" && c.parts.iter().any(|q| plain(q) && has(q, n) && terminal(&other(q, n))))
+                c.parts.iter().filter(|p| plain(p) && has(p, input)).map(|p| other(p, input)).find(|n| {
+                    !terminal(n)
+                        && *n != out
+                        && n != "emf"
+                        && c.parts.iter().any(|q| plain(q) && has(q, n) && terminal(&other(q, n)))
+                })
             });
         let mut used = vec![false; c.parts.len()];
         used[amp] = true;
@@ -117,14 +120,21 @@ impl Sheet<'_> {
     /// the ordinary block.
     pub(super) fn high_impedance_sensor(&mut self) -> Option<f64> {
         let c = self.c;
-        let sensor = |i: &usize| c.parts[*i].bench && c.parts[*i].stage == StageRole::Sensor && c.parts[*i].nodes.len() == 2;
+        let sensor =
+            |i: &usize| c.parts[*i].bench && c.parts[*i].stage == StageRole::Sensor && c.parts[*i].nodes.len() == 2;
         let vs = (0..c.parts.len()).filter(sensor).find(|&i| c.parts[i].kind == PartKind::VoltageSource)?;
         let (emf, ret) = (c.parts[vs].nodes[0].clone(), c.parts[vs].nodes[1].clone());
         if emf == ret || emf == "sense" || ret == "sense" {
             return None;
         }
-        let rs = (0..c.parts.len()).filter(sensor).find(|&i| c.parts[i].kind == PartKind::Resistor && has(&c.parts[i], &emf) && has(&c.parts[i], "sense"))?;
-        let cap = |a: &str, b: &str| (0..c.parts.len()).filter(sensor).find(|&i| c.parts[i].kind == PartKind::Capacitor && has(&c.parts[i], a) && has(&c.parts[i], b));
+        let rs = (0..c.parts.len())
+            .filter(sensor)
+            .find(|&i| c.parts[i].kind == PartKind::Resistor && has(&c.parts[i], &emf) && has(&c.parts[i], "sense"))?;
+        let cap = |a: &str, b: &str| {
+            (0..c.parts.len())
+                .filter(sensor)
+                .find(|&i| c.parts[i].kind == PartKind::Capacitor && has(&c.parts[i], a) && has(&c.parts[i], b))
+        };
         let (series_c, shunt_c) = (cap(&emf, "sense"), cap("sense", &ret));
         let lifted = ret != GND && !self.rails.iter().any(|r| r.node == ret);
         if !lifted && series_c.is_none() && shunt_c.is_none() {
@@ -171,7 +181,16 @@ impl Sheet<'_> {
         }
         let dashed = Pen { colour: super::sheet::GREY, width: 1.5, dashed: true };
         self.svg.rect(X0, y - 60.0, BOX_W, 190.0, "none", dashed);
-        self.svg.text(X0 + 4.0, y - 66.0, "sensor", self.cfg.font_size, Anchor::Start, super::sheet::GREY, "", "italic");
+        self.svg.text(
+            X0 + 4.0,
+            y - 66.0,
+            "sensor",
+            self.cfg.font_size,
+            Anchor::Start,
+            super::sheet::GREY,
+            "",
+            "italic",
+        );
         self.bench_areas.push(BoxRect::new(X0, y - 60.0, BOX_W, 190.0));
         self.svg.circle((right, y), 3.5, "#ffffff", Some(self.pen(true)));
         Some(right)
@@ -222,7 +241,10 @@ impl Sheet<'_> {
             };
             if !b.reference.is_empty() {
                 self.block(&b.reference, x_r, yb, &ret, true);
-                let (ups, downs) = b.reference.iter().fold((0, 0), |(u, d), s| if self.positive_rail(&s.to) { (u + 1, d) } else { (u, d + 1) });
+                let (ups, downs) =
+                    b.reference
+                        .iter()
+                        .fold((0, 0), |(u, d), s| if self.positive_rail(&s.to) { (u + 1, d) } else { (u, d + 1) });
                 end = x_r + 60.0 + (ups.max(downs).max(1) - 1) as f64 * PITCH;
                 if let Some(s) = start {
                     self.wire((s, yb), (x_r, yb), &ret, false);

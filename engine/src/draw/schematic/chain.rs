@@ -75,7 +75,11 @@ impl Chain {
     /// Walks from `from` (the gain stage's output); parts it takes are marked in `used`.
     pub(super) fn of(c: &Circuit, from: &str, rails: &[Rail], used: &mut [bool]) -> Chain {
         let terminal = |n: &str| n == GND || rails.iter().any(|r| r.node == n);
-        let load = c.parts.iter().find(|p| p.bench && p.stage == StageRole::Converter && p.nodes.len() == 2 && has(p, GND)).map(|p| other(p, GND));
+        let load = c
+            .parts
+            .iter()
+            .find(|p| p.bench && p.stage == StageRole::Converter && p.nodes.len() == 2 && has(p, GND))
+            .map(|p| other(p, GND));
         let pin = load.clone().unwrap_or_else(|| "adc".to_string());
         let mut chain = Chain { end: from.to_string(), pin: load, ..Chain::default() };
         let mut drawn_refs: Vec<String> = Vec::new();
@@ -93,7 +97,12 @@ impl Chain {
             if inverting && !terminal(&s.plus) && !drawn_refs.contains(&s.plus) {
                 drawn_refs.push(s.plus.clone());
                 let steps: Vec<Step> = (0..c.parts.len())
-                    .filter(|&j| !used[j] && plain(&c.parts[j]) && has(&c.parts[j], &s.plus) && terminal(&other(&c.parts[j], &s.plus)))
+                    .filter(|&j| {
+                        !used[j]
+                            && plain(&c.parts[j])
+                            && has(&c.parts[j], &s.plus)
+                            && terminal(&other(&c.parts[j], &s.plus))
+                    })
                     .map(|j| Step { part: j, from: s.plus.clone(), to: other(&c.parts[j], &s.plus) })
                     .collect();
                 for st in &steps {
@@ -140,7 +149,9 @@ fn find(c: &Circuit, used: &[bool], kind: PartKind, x: &str, y: &str) -> Option<
     if x == y {
         return None;
     }
-    (0..c.parts.len()).find(|&i| !used[i] && c.parts[i].kind == kind && plain(&c.parts[i]) && has(&c.parts[i], x) && has(&c.parts[i], y))
+    (0..c.parts.len()).find(|&i| {
+        !used[i] && c.parts[i].kind == kind && plain(&c.parts[i]) && has(&c.parts[i], x) && has(&c.parts[i], y)
+    })
 }
 
 /// Amplifier `u` as a section fed from `input`, if its parts match one shape.
@@ -225,7 +236,10 @@ mod tests {
 
     #[test]
     fn caption_splits_the_model_text() {
-        assert_eq!(caption("section 2 (Sallen-Key, f_n 33.7 kHz, Q 0.710): unity-gain amplifier"), ["section 2 · Sallen-Key", "f_n 33.7 kHz, Q 0.710"]);
+        assert_eq!(
+            caption("section 2 (Sallen-Key, f_n 33.7 kHz, Q 0.710): unity-gain amplifier"),
+            ["section 2 · Sallen-Key", "f_n 33.7 kHz, Q 0.710"]
+        );
         assert_eq!(caption("section 1 (first order, f_c 5 kHz): follower"), ["section 1 · first order", "f_c 5 kHz"]);
         assert!(caption("amplifier").is_empty());
     }

@@ -101,11 +101,27 @@ impl Pair {
         let n = c.parts.len();
         let vsense = (0..n).find(|&i| {
             let p = &c.parts[i];
-            bench(i, PartKind::VoltageSource) && p.stage == StageRole::Sensor && !terminal(&p.nodes[0]) && !terminal(&p.nodes[1]) && p.nodes[0] != p.nodes[1]
+            bench(i, PartKind::VoltageSource)
+                && p.stage == StageRole::Sensor
+                && !terminal(&p.nodes[0])
+                && !terminal(&p.nodes[1])
+                && p.nodes[0] != p.nodes[1]
         })?;
         let emf = [c.parts[vsense].nodes[0].clone(), c.parts[vsense].nodes[1].clone()];
-        let vcm = (0..n).find(|&i| bench(i, PartKind::VoltageSource) && c.parts[i].stage == StageRole::Sensor && c.parts[i].nodes[0] == emf[1] && c.parts[i].nodes[1] == GND)?;
-        let leg = |e: &str, away: &str| (0..n).find(|&i| bench(i, PartKind::Resistor) && has(&c.parts[i], e) && other(&c.parts[i], e) != away && other(&c.parts[i], e) != e);
+        let vcm = (0..n).find(|&i| {
+            bench(i, PartKind::VoltageSource)
+                && c.parts[i].stage == StageRole::Sensor
+                && c.parts[i].nodes[0] == emf[1]
+                && c.parts[i].nodes[1] == GND
+        })?;
+        let leg = |e: &str, away: &str| {
+            (0..n).find(|&i| {
+                bench(i, PartKind::Resistor)
+                    && has(&c.parts[i], e)
+                    && other(&c.parts[i], e) != away
+                    && other(&c.parts[i], e) != e
+            })
+        };
         let (leg_up, leg_low) = (leg(&emf[0], &emf[1])?, leg(&emf[1], &emf[0])?);
         let term = [other(&c.parts[leg_up], &emf[0]), other(&c.parts[leg_low], &emf[1])];
         if term[0] == term[1] || term.iter().any(|t| terminal(t) || emf.contains(t)) {
@@ -143,18 +159,32 @@ impl Stage {
                 && !terminal(&p.nodes[4])
                 && !p.nodes[..2].iter().any(|x| terminal(x) || term.contains(x) || avoid.contains(x))
         })?;
-        let (inp, inn, out) = (c.parts[amp].nodes[0].clone(), c.parts[amp].nodes[1].clone(), c.parts[amp].nodes[4].clone());
-        let feed = |t: &str, skip: Option<usize>| (0..n).find(|&i| Some(i) != skip && plain(&c.parts[i]) && has(&c.parts[i], t) && [&inp, &inn].contains(&&other(&c.parts[i], t)));
+        let (inp, inn, out) =
+            (c.parts[amp].nodes[0].clone(), c.parts[amp].nodes[1].clone(), c.parts[amp].nodes[4].clone());
+        let feed = |t: &str, skip: Option<usize>| {
+            (0..n).find(|&i| {
+                Some(i) != skip
+                    && plain(&c.parts[i])
+                    && has(&c.parts[i], t)
+                    && [&inp, &inn].contains(&&other(&c.parts[i], t))
+            })
+        };
         let up = feed(&term[0], None)?;
         let low = feed(&term[1], Some(up))?;
         let pin_node = [other(&c.parts[up], &term[0]), other(&c.parts[low], &term[1])];
         if pin_node[0] == pin_node[1] {
             return None;
         }
-        let feedback: Vec<usize> = (0..n).filter(|&i| plain(&c.parts[i]) && has(&c.parts[i], &inn) && has(&c.parts[i], &out)).collect();
+        let feedback: Vec<usize> =
+            (0..n).filter(|&i| plain(&c.parts[i]) && has(&c.parts[i], &inn) && has(&c.parts[i], &out)).collect();
         let to_ref = (0..n).find(|&i| {
             let p = &c.parts[i];
-            i != up && i != low && plain(p) && has(p, &inp) && ![&inp, &inn, &out].contains(&&other(p, &inp)) && !term.contains(&other(p, &inp))
+            i != up
+                && i != low
+                && plain(p)
+                && has(p, &inp)
+                && ![&inp, &inn, &out].contains(&&other(p, &inp))
+                && !term.contains(&other(p, &inp))
         })?;
         if feedback.is_empty() {
             return None;
@@ -165,7 +195,13 @@ impl Stage {
         } else {
             let f = (0..n).find(|&i| {
                 let p = &c.parts[i];
-                !p.bench && p.kind == PartKind::OpAmp && p.nodes.len() >= 5 && i != amp && p.nodes[4] == reference && p.nodes[1] == reference && p.nodes[0] != reference
+                !p.bench
+                    && p.kind == PartKind::OpAmp
+                    && p.nodes.len() >= 5
+                    && i != amp
+                    && p.nodes[4] == reference
+                    && p.nodes[1] == reference
+                    && p.nodes[0] != reference
             })?;
             let dref = c.parts[f].nodes[0].clone();
             if terminal(&dref) || [&inp, &inn, &out].contains(&&dref) {
@@ -180,7 +216,19 @@ impl Stage {
             }
             Some((f, dref, divider))
         };
-        Some(Stage { lines: lines.clone(), amp, input: [up, low], pin_node, inp, inn, out, feedback, to_ref, reference, follower })
+        Some(Stage {
+            lines: lines.clone(),
+            amp,
+            input: [up, low],
+            pin_node,
+            inp,
+            inn,
+            out,
+            feedback,
+            to_ref,
+            reference,
+            follower,
+        })
     }
 }
 
@@ -208,7 +256,9 @@ impl Sheet<'_> {
         // A bridge's excitation and its load on it (bench `VEXC`, `RBRIDGE` from `exc` to
         // ground), side by side under the pair model.
         let c = self.c;
-        let find = |r: &str| c.parts.iter().position(|p| p.bench && p.reference == r && p.nodes.len() == 2 && p.nodes[1] == GND);
+        let find = |r: &str| {
+            c.parts.iter().position(|p| p.bench && p.reference == r && p.nodes.len() == 2 && p.nodes[1] == GND)
+        };
         if let (Some(ve), Some(rb)) = (find("VEXC"), find("RBRIDGE")) {
             let (ye, xr) = (bottom + 30.0, sx + HSPAN);
             let exc = c.parts[ve].nodes[0].clone();
@@ -260,7 +310,11 @@ impl Sheet<'_> {
         let ux = x4 + 90.0;
         let x_m = ux - 25.0;
         let (x_out, xr) = (ux + 80.0, ux + 110.0);
-        let leg = Leg { steps: vec![Step { part: d.to_ref, from: d.inp.clone(), to: d.reference.clone() }], end: d.reference.clone(), block: None };
+        let leg = Leg {
+            steps: vec![Step { part: d.to_ref, from: d.inp.clone(), to: d.reference.clone() }],
+            end: d.reference.clone(),
+            block: None,
+        };
         if plus_up {
             // + on the upper line with the reference hanging from it; − on the lower line,
             // rising to the lower input, the feedback along that line under the amplifier.

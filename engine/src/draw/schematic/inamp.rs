@@ -76,7 +76,13 @@ impl Inamp {
         let mut plus = [String::new(), String::new()];
         for k in 0..2 {
             let t = &pair.term[k];
-            let i = (0..n).find(|&i| first(i) && plain(&c.parts[i]) && c.parts[i].kind == PartKind::Resistor && has(&c.parts[i], t) && !inner(&other(&c.parts[i], t)))?;
+            let i = (0..n).find(|&i| {
+                first(i)
+                    && plain(&c.parts[i])
+                    && c.parts[i].kind == PartKind::Resistor
+                    && has(&c.parts[i], t)
+                    && !inner(&other(&c.parts[i], t))
+            })?;
             protect[k] = i;
             plus[k] = other(&c.parts[i], t);
         }
@@ -86,7 +92,14 @@ impl Inamp {
         let amp_on = |node: &str| {
             (0..n).find(|&i| {
                 let p = &c.parts[i];
-                first(i) && p.kind == PartKind::OpAmp && p.nodes.len() >= 5 && p.nodes[0] == node && p.nodes[1] != node && p.nodes[4] != node && !inner(&p.nodes[1]) && !inner(&p.nodes[4])
+                first(i)
+                    && p.kind == PartKind::OpAmp
+                    && p.nodes.len() >= 5
+                    && p.nodes[0] == node
+                    && p.nodes[1] != node
+                    && p.nodes[4] != node
+                    && !inner(&p.nodes[1])
+                    && !inner(&p.nodes[4])
             })
         };
         let amps = [amp_on(&plus[0])?, amp_on(&plus[1])?];
@@ -101,13 +114,20 @@ impl Inamp {
                 if minus.iter().any(|m| outs.contains(m) || plus.contains(m)) {
                     return None;
                 }
-                let between = |a: &str, b: &str| (0..n).find(|&i| first(i) && plain(&c.parts[i]) && has(&c.parts[i], a) && has(&c.parts[i], b));
+                let between = |a: &str, b: &str| {
+                    (0..n).find(|&i| first(i) && plain(&c.parts[i]) && has(&c.parts[i], a) && has(&c.parts[i], b))
+                };
                 Some(([between(&outs[0], &minus[0])?, between(&outs[1], &minus[1])?], between(&minus[0], &minus[1])?))
             }
             _ => return None,
         };
         let stage = Stage::of(c, rails, &outs, &pair.emf)?;
-        let caption = c.stages.iter().find(|s| s.role == StageRole::InputStage).map(|s| caption(&s.description)).unwrap_or_default();
+        let caption = c
+            .stages
+            .iter()
+            .find(|s| s.role == StageRole::InputStage)
+            .map(|s| caption(&s.description))
+            .unwrap_or_default();
         Some(Inamp { pair, protect, plus, amps, minus, outs, gain, stage, caption })
     }
 }
@@ -170,11 +190,15 @@ impl Sheet<'_> {
         self.opamp(a.amps[0], ux, y, [true, false]);
         self.supply_pins(a.amps[0], ux, y);
         self.opamp(a.amps[1], ux, y2, [false, true]);
-        let pins = |u: usize| self.c.parts.get(u).and_then(|p| Some((p.nodes.get(2)?.clone(), p.nodes.get(3)?.clone())));
+        let pins =
+            |u: usize| self.c.parts.get(u).and_then(|p| Some((p.nodes.get(2)?.clone(), p.nodes.get(3)?.clone())));
         match (pins(a.amps[0]), pins(a.amps[1])) {
             (Some(p), Some(q)) if p == q => {
                 let (u1, u2) = (&self.c.parts[a.amps[0]].reference, &self.c.parts[a.amps[1]].reference);
-                self.notes.push(format!("{u2} runs from the same supply pins as {u1} ({} and {}); its supply stubs are not drawn.", p.0, p.1));
+                self.notes.push(format!(
+                    "{u2} runs from the same supply pins as {u1} ({} and {}); its supply stubs are not drawn.",
+                    p.0, p.1
+                ));
             }
             _ => self.supply_pins(a.amps[1], ux, y2),
         }
@@ -218,8 +242,14 @@ mod tests {
     // Source: synth::front::instrumentation::insert, the stage descriptions it writes.
     #[test]
     fn caption_splits_the_model_text() {
-        assert_eq!(caption("instrumentation-amplifier input stage, gain 441.000 (R_G 75 Ω)"), ["instrumentation-amplifier input stage", "gain 441.000 (R_G 75 Ω)"]);
-        assert_eq!(caption("instrumentation-amplifier input stage: two followers"), ["instrumentation-amplifier input stage", "two followers"]);
+        assert_eq!(
+            caption("instrumentation-amplifier input stage, gain 441.000 (R_G 75 Ω)"),
+            ["instrumentation-amplifier input stage", "gain 441.000 (R_G 75 Ω)"]
+        );
+        assert_eq!(
+            caption("instrumentation-amplifier input stage: two followers"),
+            ["instrumentation-amplifier input stage", "two followers"]
+        );
         assert!(caption("").is_empty());
     }
 }

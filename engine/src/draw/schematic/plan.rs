@@ -66,16 +66,27 @@ pub(super) fn plain(p: &Part) -> bool {
     !p.bench && p.nodes.len() == 2 && matches!(p.kind, PartKind::Resistor | PartKind::Capacitor)
 }
 
-
 impl Plan {
     /// The gain stage fed from node `start` (the sensor terminal, or a buffer's output);
     /// parts `skip` belong to another block (the buffer) and are left alone.
     pub(super) fn of(c: &Circuit, rails: &[Rail], start: &str, skip: &[usize]) -> Plan {
-        let Some(u) = c.parts.iter().enumerate().position(|(i, p)| p.kind == PartKind::OpAmp && p.nodes.len() >= 5 && !p.bench && !skip.contains(&i)) else {
+        let Some(u) = c
+            .parts
+            .iter()
+            .enumerate()
+            .position(|(i, p)| p.kind == PartKind::OpAmp && p.nodes.len() >= 5 && !p.bench && !skip.contains(&i))
+        else {
             return Plan { start: start.to_string(), ..Plan::default() };
         };
         let nodes = &c.parts[u].nodes;
-        let mut plan = Plan { amp: Some(u), inp: nodes[0].clone(), inn: nodes[1].clone(), out: nodes[4].clone(), start: start.to_string(), ..Plan::default() };
+        let mut plan = Plan {
+            amp: Some(u),
+            inp: nodes[0].clone(),
+            inn: nodes[1].clone(),
+            out: nodes[4].clone(),
+            start: start.to_string(),
+            ..Plan::default()
+        };
         let terminal = |n: &str| n == GND || rails.iter().any(|r| r.node == n);
         let mut used = vec![false; c.parts.len()];
         for &i in skip {
@@ -110,7 +121,14 @@ impl Plan {
         plan.top = top;
         plan.series = series;
         plan.connected = connected;
-        let special = [plan.inp.clone(), plan.inn.clone(), plan.out.clone(), "sense".to_string(), "emf".to_string(), start.to_string()];
+        let special = [
+            plan.inp.clone(),
+            plan.inn.clone(),
+            plan.out.clone(),
+            "sense".to_string(),
+            "emf".to_string(),
+            start.to_string(),
+        ];
         plan.top_legs = legs(c, &plan.top, true, &mut used, &terminal, &special);
         if plan.bottom != plan.out && plan.bottom != plan.top {
             plan.bottom_legs = legs(c, &plan.bottom, false, &mut used, &terminal, &special);
@@ -120,7 +138,9 @@ impl Plan {
 }
 
 /// Shortest chain of unused parts from node `start` to `target`.
-pub(super) fn path(c: &Circuit, start: &str, target: &str, blocked: &dyn Fn(&str) -> bool, used: &[bool]) -> Option<Vec<Step>> {
+pub(super) fn path(
+    c: &Circuit, start: &str, target: &str, blocked: &dyn Fn(&str) -> bool, used: &[bool],
+) -> Option<Vec<Step>> {
     let mut seen: Vec<(String, Option<(usize, String)>)> = vec![(start.to_string(), None)];
     let mut head = 0;
     while head < seen.len() {
@@ -151,7 +171,9 @@ pub(super) fn path(c: &Circuit, start: &str, target: &str, blocked: &dyn Fn(&str
 }
 
 /// The legs hanging from input node `node`: reference blocks first.
-pub(super) fn legs(c: &Circuit, node: &str, allow_block: bool, used: &mut [bool], terminal: &dyn Fn(&str) -> bool, special: &[String]) -> Vec<Leg> {
+pub(super) fn legs(
+    c: &Circuit, node: &str, allow_block: bool, used: &mut [bool], terminal: &dyn Fn(&str) -> bool, special: &[String],
+) -> Vec<Leg> {
     let mut out = Vec::new();
     if terminal(node) {
         return out;
@@ -172,10 +194,12 @@ pub(super) fn legs(c: &Circuit, node: &str, allow_block: bool, used: &mut [bool]
             continue;
         }
         let rest: Vec<usize> = (0..c.parts.len()).filter(|&j| j != i && has(&c.parts[j], &m)).collect();
-        if rest.is_empty() || !rest.iter().all(|&j| !used[j] && plain(&c.parts[j]) && terminal(&other(&c.parts[j], &m))) {
+        if rest.is_empty() || !rest.iter().all(|&j| !used[j] && plain(&c.parts[j]) && terminal(&other(&c.parts[j], &m)))
+        {
             continue;
         }
-        let steps: Vec<Step> = rest.iter().map(|&j| Step { part: j, from: m.clone(), to: other(&c.parts[j], &m) }).collect();
+        let steps: Vec<Step> =
+            rest.iter().map(|&j| Step { part: j, from: m.clone(), to: other(&c.parts[j], &m) }).collect();
         if steps.len() == 1 {
             let end = steps[0].to.clone();
             out.push(Leg { steps: vec![first, steps[0].clone()], end, block: None });

@@ -51,11 +51,14 @@ enum Block<'c> {
 impl Sheet<'_> {
     /// Draws `chain` from the gain stage's output `start` (x, y, net); returns where the
     /// converter box goes. `u1`: the gain stage's amplifier (for the supply pins).
-    pub(super) fn chain_rows(&mut self, chain: &Chain, start: (f64, f64, String), u1: Option<usize>) -> (f64, f64, String) {
+    pub(super) fn chain_rows(
+        &mut self, chain: &Chain, start: (f64, f64, String), u1: Option<usize>,
+    ) -> (f64, f64, String) {
         if chain.is_empty() && !chain.short() {
             return start;
         }
-        let supply = u1.and_then(|u| self.c.parts.get(u)).and_then(|p| Some((p.nodes.get(2)?.clone(), p.nodes.get(3)?.clone())));
+        let supply =
+            u1.and_then(|u| self.c.parts.get(u)).and_then(|p| Some((p.nodes.get(2)?.clone(), p.nodes.get(3)?.clone())));
         let mut shared = Vec::new();
         let mut blocks: Vec<Block> = chain.sections.iter().map(Block::Section).collect();
         blocks.push(Block::Pin);
@@ -98,8 +101,12 @@ impl Sheet<'_> {
         }
         if let (false, Some(u), Some((vp, vn))) = (shared.is_empty(), u1, supply) {
             let who = self.c.parts[u].reference.clone();
-            let (verb, whose) = if shared.len() == 1 { ("runs", "its supply stubs are") } else { ("run", "their supply stubs are") };
-            self.notes.push(format!("{} {verb} from the same supply pins as {who} ({vp} and {vn}); {whose} not drawn.", shared.join(", ")));
+            let (verb, whose) =
+                if shared.len() == 1 { ("runs", "its supply stubs are") } else { ("run", "their supply stubs are") };
+            self.notes.push(format!(
+                "{} {verb} from the same supply pins as {who} ({vp} and {vn}); {whose} not drawn.",
+                shared.join(", ")
+            ));
         }
         (x, y, net)
     }
@@ -123,11 +130,14 @@ impl Sheet<'_> {
     fn top(&self, b: Block) -> f64 {
         let caption = 2.4 * (self.cfg.font_size - 1.0) + 12.0;
         match b {
-            Block::Section(s) => caption + match s.shape {
-                Net::FirstOrder { .. } => 60.0,
-                Net::SallenKey { .. } => LOOP,
-                Net::MultipleFeedback { .. } => MFB_OUTER,
-            },
+            Block::Section(s) => {
+                caption
+                    + match s.shape {
+                        Net::FirstOrder { .. } => 60.0,
+                        Net::SallenKey { .. } => LOOP,
+                        Net::MultipleFeedback { .. } => MFB_OUTER,
+                    }
+            }
             Block::Pin => 60.0,
         }
     }
@@ -190,7 +200,11 @@ impl Sheet<'_> {
         let fs = self.cfg.font_size;
         let w = self.flag_width(net) - 10.0;
         let pen = self.pen(false);
-        self.svg.polygon(&[(x, y - 11.0), (x + w, y - 11.0), (x + w + 10.0, y), (x + w, y + 11.0), (x, y + 11.0)], "#ffffff", pen);
+        self.svg.polygon(
+            &[(x, y - 11.0), (x + w, y - 11.0), (x + w + 10.0, y), (x + w, y + 11.0), (x, y + 11.0)],
+            "#ffffff",
+            pen,
+        );
         self.svg.text(x + 6.0, y + 0.35 * fs, net, fs, Anchor::Start, INK, "", "");
         x + w + 10.0
     }
@@ -322,7 +336,13 @@ impl Sheet<'_> {
         }
         self.svg.close_group();
         self.svg.keepout.push(BoxRect::new(ux + 3.0, y - 8.0, 16.0, 56.0));
-        self.labels.push(Label { lines: vec![p.reference.clone(), value_text(p)], body: BoxRect::new(ux, y - 20.0, 80.0, 80.0), shape: Shape::Amp, colour: INK, below_first: false });
+        self.labels.push(Label {
+            lines: vec![p.reference.clone(), value_text(p)],
+            body: BoxRect::new(ux, y - 20.0, 80.0, 80.0),
+            shape: Shape::Amp,
+            colour: INK,
+            below_first: false,
+        });
         if let Some(d) = self.done.get_mut(u) {
             *d = true;
         }
@@ -374,7 +394,10 @@ impl Sheet<'_> {
     pub(super) fn captions(&mut self) {
         let fs = self.cfg.font_size - 1.0;
         for (lines, x, top) in std::mem::take(&mut self.captions) {
-            let spots: Vec<(f64, f64, Anchor)> = [0.0, -8.0, -16.0].iter().flat_map(|dy| [(x, top + dy, Anchor::Start), (x + 20.0, top + dy, Anchor::Start)]).collect();
+            let spots: Vec<(f64, f64, Anchor)> = [0.0, -8.0, -16.0]
+                .iter()
+                .flat_map(|dy| [(x, top + dy, Anchor::Start), (x + 20.0, top + dy, Anchor::Start)])
+                .collect();
             if !self.put(&lines, &spots, fs, "#333333", "", None) {
                 self.notes.push(lines.join(", "));
             }

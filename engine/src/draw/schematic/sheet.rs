@@ -102,7 +102,12 @@ impl<'a> Sheet<'a> {
             .iter()
             .enumerate()
             .filter(|(_, p)| {
-                p.bench && p.kind == PartKind::VoltageSource && p.stage == StageRole::Supply && p.nodes.len() == 2 && p.nodes[1] == GND && p.nodes[0] != GND
+                p.bench
+                    && p.kind == PartKind::VoltageSource
+                    && p.stage == StageRole::Supply
+                    && p.nodes.len() == 2
+                    && p.nodes[1] == GND
+                    && p.nodes[0] != GND
             })
             .map(|(i, p)| Rail { node: p.nodes[0].clone(), name: p.reference.clone(), volts: p.value, part: i })
             .collect();
@@ -188,7 +193,8 @@ impl<'a> Sheet<'a> {
                         _ => true,
                     };
                     let (q, out) = if at_a { (s, -1.0) } else { (e, 1.0) };
-                    let c = if vertical { (m.0 - 21.0, q.1 + out * uy * 8.0) } else { (q.0 + out * ux * 9.0, m.1 - 12.0) };
+                    let c =
+                        if vertical { (m.0 - 21.0, q.1 + out * uy * 8.0) } else { (q.0 + out * ux * 9.0, m.1 - 12.0) };
                     self.svg.text(c.0, c.1 + 0.35 * fs, "+", fs, Anchor::Middle, colour, "bold", "");
                 }
                 vec![s1, s2, e1, e2]
@@ -213,9 +219,18 @@ impl<'a> Sheet<'a> {
                 let base = (m.0 + px * 26.0, m.1 + py * 26.0);
                 let (t0, t1) = ((base.0 - dx * 12.0, base.1 - dy * 12.0), (base.0 + dx * 12.0, base.1 + dy * 12.0));
                 self.svg.line(t0, t1, pen);
-                let head = [t1, (t1.0 - dx * 6.0 + px * 4.0, t1.1 - dy * 6.0 + py * 4.0), (t1.0 - dx * 6.0 - px * 4.0, t1.1 - dy * 6.0 - py * 4.0)];
+                let head = [
+                    t1,
+                    (t1.0 - dx * 6.0 + px * 4.0, t1.1 - dy * 6.0 + py * 4.0),
+                    (t1.0 - dx * 6.0 - px * 4.0, t1.1 - dy * 6.0 - py * 4.0),
+                ];
                 self.svg.polygon(&head, colour, pen);
-                vec![(m.0 - 16.0, m.1 - 16.0), (m.0 + 16.0, m.1 + 16.0), (base.0 - 6.0, base.1 - 12.0), (base.0 + 6.0, base.1 + 12.0)]
+                vec![
+                    (m.0 - 16.0, m.1 - 16.0),
+                    (m.0 + 16.0, m.1 + 16.0),
+                    (base.0 - 6.0, base.1 - 12.0),
+                    (base.0 + 6.0, base.1 + 12.0),
+                ]
             }
             PartKind::Diode => {
                 // Triangle from the anode (the first node) to the bar at the cathode; the
@@ -262,7 +277,12 @@ impl<'a> Sheet<'a> {
         } else if let Some(r) = self.rails.iter().find(|r| r.node == node).cloned() {
             self.svg.segment((p.0 - 12.0, p.1), (p.0 + 12.0, p.1), "", self.pen(true));
             let sign = if r.volts > 0.0 { "+" } else { "" };
-            self.marks.push(Mark { text: format!("{} {sign}{}", r.name, format(r.volts, Quantity::Voltage)), at: p, up, colour: GREY });
+            self.marks.push(Mark {
+                text: format!("{} {sign}{}", r.name, format(r.volts, Quantity::Voltage)),
+                at: p,
+                up,
+                colour: GREY,
+            });
             if let Some(d) = self.done.get_mut(r.part) {
                 *d = true;
             }
@@ -284,16 +304,27 @@ impl<'a> Sheet<'a> {
         let right = X0 + SENSOR_W;
         let y = Y0;
         let c = self.c;
-        let vs = c
-            .parts
-            .iter()
-            .position(|p| p.bench && p.kind == PartKind::VoltageSource && p.stage == StageRole::Sensor && p.nodes.len() == 2 && p.nodes[1] == GND);
+        let vs = c.parts.iter().position(|p| {
+            p.bench
+                && p.kind == PartKind::VoltageSource
+                && p.stage == StageRole::Sensor
+                && p.nodes.len() == 2
+                && p.nodes[1] == GND
+        });
         let emf = vs.and_then(|i| c.parts[i].nodes.first().cloned());
-        let rs = emf
-            .as_ref()
-            .and_then(|e| c.parts.iter().position(|p| p.bench && p.kind == PartKind::Resistor && p.nodes.len() == 2 && has(p, e) && has(p, "sense")));
+        let rs = emf.as_ref().and_then(|e| {
+            c.parts.iter().position(|p| {
+                p.bench && p.kind == PartKind::Resistor && p.nodes.len() == 2 && has(p, e) && has(p, "sense")
+            })
+        });
         // A current sensor (a loop's current) feeds the terminal from ground.
-        let is = c.parts.iter().position(|p| p.bench && p.kind == PartKind::CurrentSource && p.stage == StageRole::Sensor && p.nodes.len() == 2 && p.nodes[0] == GND);
+        let is = c.parts.iter().position(|p| {
+            p.bench
+                && p.kind == PartKind::CurrentSource
+                && p.stage == StageRole::Sensor
+                && p.nodes.len() == 2
+                && p.nodes[0] == GND
+        });
         if let (Some(v), Some(r), Some(emf)) = (vs, rs, emf) {
             let sx = X0 + 40.0;
             self.two(v, (sx, y), &emf, (sx, y + 100.0), GND, true);
@@ -362,7 +393,9 @@ impl<'a> Sheet<'a> {
     /// part, those to a positive rail up, the rest down (resistors first).
     pub(super) fn block(&mut self, block: &[Step], x: f64, yr: f64, net: &str, rightward: bool) {
         let (ups, mut downs): (Vec<&Step>, Vec<&Step>) = block.iter().partition(|s| self.positive_rail(&s.to));
-        crate::order::sort_by_key(&mut downs, |s| self.c.parts.get(s.part).map(|p| p.kind != PartKind::Resistor).unwrap_or(true));
+        crate::order::sort_by_key(&mut downs, |s| {
+            self.c.parts.get(s.part).map(|p| p.kind != PartKind::Resistor).unwrap_or(true)
+        });
         let cols = ups.len().max(downs.len());
         let xl = if rightward { x + 60.0 } else { x - cols as f64 * PITCH };
         let xe = if rightward { xl + cols.saturating_sub(1) as f64 * PITCH } else { x };
@@ -387,7 +420,11 @@ impl<'a> Sheet<'a> {
         let mut x = x_line + 45.0;
         for leg in &plan.top_legs {
             if let Some(b) = &leg.block {
-                let n = b.iter().filter(|s| self.positive_rail(&s.to)).count().max(b.iter().filter(|s| !self.positive_rail(&s.to)).count());
+                let n = b
+                    .iter()
+                    .filter(|s| self.positive_rail(&s.to))
+                    .count()
+                    .max(b.iter().filter(|s| !self.positive_rail(&s.to)).count());
                 x = x.max(self.left + 70.0 + n as f64 * PITCH);
             }
             self.leg(leg, x, yt, true);
@@ -419,7 +456,8 @@ impl<'a> Sheet<'a> {
         // Feedback loops: below the amplifier to the lower input, above it to the upper one.
         let (dir, base, y_in) = if fb_bottom { (1.0, y0 + 135.0, yb) } else { (-1.0, y0 - 90.0, yt) };
         let xr = x_out + 30.0;
-        let loops: Vec<Option<usize>> = if plan.inn == plan.out { vec![None] } else { plan.feedback.iter().map(|&i| Some(i)).collect() };
+        let loops: Vec<Option<usize>> =
+            if plan.inn == plan.out { vec![None] } else { plan.feedback.iter().map(|&i| Some(i)).collect() };
         let (mut yl, mut yr) = (y_in, yo);
         for (k, f) in loops.iter().enumerate() {
             let yk = base + dir * 60.0 * k as f64;
@@ -458,7 +496,10 @@ impl<'a> Sheet<'a> {
         self.svg.rect(area.x, area.y, area.w, area.h, "none", self.pen(true));
         self.svg.text(xa + 10.0, y - 24.0, "ADC", self.cfg.font_size + 1.0, Anchor::Start, GREY, "bold", "");
         self.bench_areas.push(area);
-        let radc = self.c.parts.iter().position(|p| p.bench && p.kind == PartKind::Resistor && p.nodes.len() == 2 && has(p, &net) && has(p, GND));
+        let radc =
+            self.c.parts.iter().position(|p| {
+                p.bench && p.kind == PartKind::Resistor && p.nodes.len() == 2 && has(p, &net) && has(p, GND)
+            });
         self.wire((xa, y), (xa + 40.0, y), &net, true);
         if let Some(i) = radc {
             self.two(i, (xa + 40.0, y), &net, (xa + 40.0, y + SPAN), GND, true);
@@ -486,7 +527,8 @@ impl<'a> Sheet<'a> {
             let two = p.nodes.len() == 2 && p.kind != PartKind::OpAmp;
             let (na, nb) = if two { (p.nodes[0].clone(), p.nodes[1].clone()) } else { (String::new(), String::new()) };
             let (wa, wb) = (text_width(&na, fs), text_width(&nb, fs));
-            let width = if two { wa + wb + 130.0 } else { lines.iter().map(|l| text_width(l, fs)).fold(0.0, f64::max) + 20.0 };
+            let width =
+                if two { wa + wb + 130.0 } else { lines.iter().map(|l| text_width(l, fs)).fold(0.0, f64::max) + 20.0 };
             if x + width > max_x && x > X0 {
                 x = X0;
                 y += 90.0;
@@ -501,7 +543,16 @@ impl<'a> Sheet<'a> {
             } else {
                 self.svg.rect(x, y - 30.0, width, 3.6 * fs + 10.0, "none", pen);
                 for (k, l) in lines.iter().enumerate() {
-                    self.svg.text(x + 10.0, y - 30.0 + (k as f64 + 1.0) * 1.2 * fs + 2.0, l, fs, Anchor::Start, INK, "", "");
+                    self.svg.text(
+                        x + 10.0,
+                        y - 30.0 + (k as f64 + 1.0) * 1.2 * fs + 2.0,
+                        l,
+                        fs,
+                        Anchor::Start,
+                        INK,
+                        "",
+                        "",
+                    );
                 }
                 self.done[i] = true;
             }

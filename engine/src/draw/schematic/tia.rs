@@ -60,7 +60,9 @@ impl Tia {
         })?;
         let nodes = &c.parts[amp].nodes;
         let (plus, input, out) = (nodes[0].clone(), nodes[1].clone(), nodes[4].clone());
-        let feedback: Vec<usize> = (0..c.parts.len()).filter(|&i| plain(&c.parts[i]) && has(&c.parts[i], &input) && has(&c.parts[i], &out)).collect();
+        let feedback: Vec<usize> = (0..c.parts.len())
+            .filter(|&i| plain(&c.parts[i]) && has(&c.parts[i], &input) && has(&c.parts[i], &out))
+            .collect();
         let bias = if terminal(&plus) {
             Vec::new()
         } else {
@@ -87,12 +89,24 @@ impl Sheet<'_> {
     /// blocks.
     pub(super) fn photodiode_sensor(&mut self) -> Option<f64> {
         let c = self.c;
-        let sensor = |i: &usize| c.parts[*i].bench && c.parts[*i].stage == StageRole::Sensor && c.parts[*i].nodes.len() == 2;
-        let first = (0..c.parts.len()).filter(sensor).find(|&i| c.parts[i].kind == PartKind::CurrentSource && c.parts[i].nodes[1] == GND && c.parts[i].nodes[0] != GND)?;
+        let sensor =
+            |i: &usize| c.parts[*i].bench && c.parts[*i].stage == StageRole::Sensor && c.parts[*i].nodes.len() == 2;
+        let first = (0..c.parts.len()).filter(sensor).find(|&i| {
+            c.parts[i].kind == PartKind::CurrentSource && c.parts[i].nodes[1] == GND && c.parts[i].nodes[0] != GND
+        })?;
         let term = c.parts[first].nodes[0].clone();
         // The current sources out of the terminal, then the capacitance across them.
-        let mut cols: Vec<usize> = (0..c.parts.len()).filter(sensor).filter(|&i| c.parts[i].kind == PartKind::CurrentSource && c.parts[i].nodes[0] == term && c.parts[i].nodes[1] == GND).collect();
-        cols.extend((0..c.parts.len()).filter(sensor).filter(|&i| c.parts[i].kind == PartKind::Capacitor && has(&c.parts[i], &term) && has(&c.parts[i], GND)));
+        let mut cols: Vec<usize> = (0..c.parts.len())
+            .filter(sensor)
+            .filter(|&i| {
+                c.parts[i].kind == PartKind::CurrentSource && c.parts[i].nodes[0] == term && c.parts[i].nodes[1] == GND
+            })
+            .collect();
+        cols.extend(
+            (0..c.parts.len()).filter(sensor).filter(|&i| {
+                c.parts[i].kind == PartKind::Capacitor && has(&c.parts[i], &term) && has(&c.parts[i], GND)
+            }),
+        );
         let y = Y0;
         let yg = y + 100.0;
         let sx = X0 + 55.0;
@@ -121,7 +135,8 @@ impl Sheet<'_> {
     pub(super) fn tia_row(&mut self, t: &Tia, x_term: f64, top: f64) -> f64 {
         let y = Y0;
         let (yb, yo) = (y + 40.0, y + 20.0);
-        let (ups, downs) = t.bias.iter().fold((0, 0), |(u, d), s| if self.positive_rail(&s.to) { (u + 1, d) } else { (u, d + 1) });
+        let (ups, downs) =
+            t.bias.iter().fold((0, 0), |(u, d), s| if self.positive_rail(&s.to) { (u + 1, d) } else { (u, d + 1) });
         let cols = ups.max(downs);
         // The bias block hangs leftward from the + input's drop: clear of the sensor box.
         let ux = (x_term + TP_GAP + 100.0).max(x_term + 55.0 + cols as f64 * PITCH);
@@ -130,7 +145,14 @@ impl Sheet<'_> {
         // goes elsewhere, the line starts at a terminal with the input's name instead, so no
         // wire claims a connection the circuit does not have.
         let c = self.c;
-        let fed = c.parts.iter().any(|p| p.bench && p.kind == PartKind::CurrentSource && p.stage == StageRole::Sensor && p.nodes.len() == 2 && p.nodes[0] == t.input && p.nodes[1] == GND);
+        let fed = c.parts.iter().any(|p| {
+            p.bench
+                && p.kind == PartKind::CurrentSource
+                && p.stage == StageRole::Sensor
+                && p.nodes.len() == 2
+                && p.nodes[0] == t.input
+                && p.nodes[1] == GND
+        });
         if fed {
             self.wire((x_term, y), (xf, y), &t.input, false);
         } else {

@@ -154,7 +154,11 @@ pub fn realise(kind: SectionKind, f_n: f64, q: f64, cfg: PartsConfig) -> Option<
                     for r in [0.25 * (b + disc.sqrt()), 0.25 * (b - disc.sqrt())] {
                         let r3 = 1.0 / (w * w * cg * cf * r);
                         if inside(r) && inside(r3) {
-                            cands.push((((r * r3).sqrt() / R_PREFERRED).ln().abs() + 0.1 * (r / r3).ln().abs(), vec![cg, cf], vec![r, r3]));
+                            cands.push((
+                                ((r * r3).sqrt() / R_PREFERRED).ln().abs() + 0.1 * (r / r3).ln().abs(),
+                                vec![cg, cf],
+                                vec![r, r3],
+                            ));
                         }
                     }
                 }

@@ -59,7 +59,14 @@ pub fn insert_bridge(circuit: &mut Circuit, req: &Request) {
     let Some(b) = &req.source.bridge else { return };
     let mut bld = Builder::resume(std::mem::take(&mut circuit.parts));
     bld.bench("VEXC", PartKind::VoltageSource, b.excitation, &["exc", GND], StageRole::Sensor, "bridge excitation");
-    bld.bench("RBRIDGE", PartKind::Resistor, b.bridge_resistance, &["exc", GND], StageRole::Sensor, "the bridge's load on its excitation");
+    bld.bench(
+        "RBRIDGE",
+        PartKind::Resistor,
+        b.bridge_resistance,
+        &["exc", GND],
+        StageRole::Sensor,
+        "the bridge's load on its excitation",
+    );
     circuit.parts = bld.parts;
 }
 
@@ -113,6 +120,12 @@ pub fn zero_trim(req: &Request, d: &BridgeDesign, g: f64) -> Option<crate::diag:
     Some(if d_out > room {
         Check::warning("zero_trim", format!("{text}, more than the {} of headroom: trim the reference pin over ±{} (±{} referred to the bridge), or give more headroom.", format(room, Quantity::Voltage), format(d_out, Quantity::Voltage), format(d.zero_offset, Quantity::Voltage)))
     } else {
-        Check::ok("zero_trim", format!("{text}, inside the {} of headroom; a tare reading in firmware removes it, no trim needed.", format(room, Quantity::Voltage)))
+        Check::ok(
+            "zero_trim",
+            format!(
+                "{text}, inside the {} of headroom; a tare reading in firmware removes it, no trim needed.",
+                format(room, Quantity::Voltage)
+            ),
+        )
     })
 }

@@ -23,9 +23,9 @@ use serde::Serialize;
 
 use crate::circuit::{Circuit, PartKind, Stage, StageRole, GND};
 use crate::diag::Check;
+use crate::figures::{Block, Table};
 use crate::request::{Request, SourceKind};
 use crate::units::{format, Quantity};
-use crate::figures::{Block, Table};
 use crate::values;
 
 /// Smallest shunt accepted, Ω: below it the wiring and contacts are part of the shunt.
@@ -108,12 +108,29 @@ pub fn equivalent(req: &Request, l: &LoopDesign) -> Request {
 /// give way to the loop current `ISENSE` into `sense` and the shunt from `sense` to ground.
 /// Records the shunt's designator in `l`.
 pub fn to_loop(circuit: &mut Circuit, req: &Request, l: &mut LoopDesign) {
-    let emf_node = circuit.part("RSENSE").and_then(|p| p.nodes.iter().find(|n| *n != "sense").cloned()).unwrap_or_else(|| "emf".to_string());
+    let emf_node = circuit
+        .part("RSENSE")
+        .and_then(|p| p.nodes.iter().find(|n| *n != "sense").cloned())
+        .unwrap_or_else(|| "emf".to_string());
     circuit.parts.retain(|p| !(p.bench && (p.reference == "VSENSE" || p.reference == "RSENSE")));
     let mut bld = crate::circuit::Builder::resume(std::mem::take(&mut circuit.parts));
     let mid = 0.5 * (req.source.min + req.source.max);
-    let shunt = bld.add(PartKind::Resistor, l.shunt, Some(req.parts.resistor_tolerance), &["sense", GND], StageRole::Shunt, "shunt: turns the loop current into the voltage the amplifier measures");
-    bld.bench("ISENSE", PartKind::CurrentSource, mid, &[GND, "sense"], StageRole::Sensor, "loop current (swept over the source range)");
+    let shunt = bld.add(
+        PartKind::Resistor,
+        l.shunt,
+        Some(req.parts.resistor_tolerance),
+        &["sense", GND],
+        StageRole::Shunt,
+        "shunt: turns the loop current into the voltage the amplifier measures",
+    );
+    bld.bench(
+        "ISENSE",
+        PartKind::CurrentSource,
+        mid,
+        &[GND, "sense"],
+        StageRole::Sensor,
+        "loop current (swept over the source range)",
+    );
     circuit.parts = bld.parts;
     // Nothing else may hang on the vanished EMF node.
     for p in circuit.parts.iter_mut() {
@@ -121,7 +138,14 @@ pub fn to_loop(circuit: &mut Circuit, req: &Request, l: &mut LoopDesign) {
             *n = "sense".to_string();
         }
     }
-    circuit.stages.insert(0, Stage { role: StageRole::Shunt, description: format!("shunt {} for the loop current", format(l.shunt, Quantity::Resistance)), parts: vec![shunt.clone()] });
+    circuit.stages.insert(
+        0,
+        Stage {
+            role: StageRole::Shunt,
+            description: format!("shunt {} for the loop current", format(l.shunt, Quantity::Resistance)),
+            parts: vec![shunt.clone()],
+        },
+    );
     l.shunt_ref = shunt;
 }
 
@@ -202,13 +226,19 @@ pub fn checks(req: &Request, l: &LoopDesign) -> Vec<Check> {
 pub fn bands(req: &Request, c: &Circuit) -> Vec<LoopBand> {
     let Some(spec) = &req.source.current_loop else { return Vec::new() };
     let solver = crate::solve::Solver::new(c);
-    [("broken loop (0 A)", 0.0), ("fault below", spec.fault_low), ("range bottom", req.source.min), ("range top", req.source.max), ("fault above", spec.fault_high)]
-        .into_iter()
-        .filter_map(|(label, current)| {
-            let output = solver.dc(current).ok()?.voltage("adc")?;
-            Some(LoopBand { label: label.to_string(), current, output, code: code_of(req, output) })
-        })
-        .collect()
+    [
+        ("broken loop (0 A)", 0.0),
+        ("fault below", spec.fault_low),
+        ("range bottom", req.source.min),
+        ("range top", req.source.max),
+        ("fault above", spec.fault_high),
+    ]
+    .into_iter()
+    .filter_map(|(label, current)| {
+        let output = solver.dc(current).ok()?.voltage("adc")?;
+        Some(LoopBand { label: label.to_string(), current, output, code: code_of(req, output) })
+    })
+    .collect()
 }
 
 /// The converter code of output `v` (clamped to the converter's codes).
@@ -251,7 +281,14 @@ impl super::Steps for LoopDesign {
         let rows = self
             .bands
             .iter()
-            .map(|b| vec![b.label.clone(), format(b.current, Quantity::Current), format(b.output, Quantity::Voltage), b.code.to_string()])
+            .map(|b| {
+                vec![
+                    b.label.clone(),
+                    format(b.current, Quantity::Current),
+                    format(b.output, Quantity::Voltage),
+                    b.code.to_string(),
+                ]
+            })
             .collect();
         let table = Table {
             header: ["Loop state", "Current", "Converter input", "Code"].map(String::from).to_vec(),

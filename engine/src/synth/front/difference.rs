@@ -21,9 +21,9 @@ use serde::Serialize;
 use crate::amplifier::{Amplifier, Rails};
 use crate::circuit::{Builder, Circuit, PartKind, Stage, StageRole, GND};
 use crate::diag::Check;
+use crate::figures::Block;
 use crate::request::Request;
 use crate::units::{format, Quantity};
-use crate::figures::Block;
 use crate::values;
 
 use crate::synth::{Limits, Synthesis, Target};
@@ -95,20 +95,48 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
     let v_mid = 0.5 * (s.min + s.max);
     let tol = Some(req.parts.resistor_tolerance);
     let mut bld = Builder::default();
-    bld.bench("VCM", PartKind::VoltageSource, cm_mid - 0.5 * v_mid, &["emfn", GND], StageRole::Sensor, "common-mode level (the − leg; the pair's common mode is VCM + VSENSE/2)");
-    bld.bench("VSENSE", PartKind::VoltageSource, v_mid, &["emfp", "emfn"], StageRole::Sensor, "differential signal (swept over the source range)");
+    bld.bench(
+        "VCM",
+        PartKind::VoltageSource,
+        cm_mid - 0.5 * v_mid,
+        &["emfn", GND],
+        StageRole::Sensor,
+        "common-mode level (the − leg; the pair's common mode is VCM + VSENSE/2)",
+    );
+    bld.bench(
+        "VSENSE",
+        PartKind::VoltageSource,
+        v_mid,
+        &["emfp", "emfn"],
+        StageRole::Sensor,
+        "differential signal (swept over the source range)",
+    );
     bld.bench("RSENSEP", PartKind::Resistor, rs.max(1e-3), &["emfp", "sensep"], StageRole::Sensor, "+ leg impedance");
     bld.bench("RSENSEN", PartKind::Resistor, rs.max(1e-3), &["emfn", "sensen"], StageRole::Sensor, "− leg impedance");
     bld.bench("VPOS", PartKind::VoltageSource, rails.pos, &["vpos", GND], StageRole::Supply, "positive rail");
     if rails.is_dual() {
         bld.bench("VNEG", PartKind::VoltageSource, rails.neg, &["vneg", GND], StageRole::Supply, "negative rail");
     }
-    bld.bench("RADC", PartKind::Resistor, req.destination.impedance, &["adc", GND], StageRole::Converter, "converter input impedance");
+    bld.bench(
+        "RADC",
+        PartKind::Resistor,
+        req.destination.impedance,
+        &["adc", GND],
+        StageRole::Converter,
+        "converter input impedance",
+    );
     let vneg = if rails.is_dual() { "vneg" } else { GND };
     let mut parts = vec![
         bld.add(PartKind::Resistor, r1, tol, &[minus_leg, "inn1"], StageRole::Gain, "input resistor R1 (− leg)"),
         bld.add(PartKind::Resistor, r2, tol, &["inn1", "adc"], StageRole::Gain, "feedback resistor R2"),
-        bld.add(PartKind::Resistor, r1, tol, &[plus_leg, "inp1"], StageRole::Gain, "input resistor R3 (+ leg, equal to R1)"),
+        bld.add(
+            PartKind::Resistor,
+            r1,
+            tol,
+            &[plus_leg, "inp1"],
+            StageRole::Gain,
+            "input resistor R3 (+ leg, equal to R1)",
+        ),
     ];
     // The reference the pin is driven to.
     let mut ref_parts = Vec::new();
@@ -117,30 +145,97 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
     let pin = if t.offset.abs() < 1e-9 {
         GND.to_string()
     } else {
-        let (rail_node, rail) = if t.offset > 0.0 { ("vpos", rails.pos) } else if rails.is_dual() { ("vneg", rails.neg) } else { ("vpos", rails.pos) };
+        let (rail_node, rail) = if t.offset > 0.0 {
+            ("vpos", rails.pos)
+        } else if rails.is_dual() {
+            ("vneg", rails.neg)
+        } else {
+            ("vpos", rails.pos)
+        };
         let ratio = (t.offset / rail).clamp(1e-6, 1.0 - 1e-6);
         // Both legs from the series, the pair nearest the ratio (the follower takes no current,
         // so the divider's resistance only needs to keep its own noise and drain low).
         let window = values::Window { min: rmin.max(1e3), max: rmax.min(1e6) };
-        let (top, bottom) = values::best_divider(series, ratio, Some(50e3), window).map_or((100e3, 100e3 * ratio / (1.0 - ratio)), |d| (d.top, d.bottom));
+        let (top, bottom) = values::best_divider(series, ratio, Some(50e3), window)
+            .map_or((100e3, 100e3 * ratio / (1.0 - ratio)), |d| (d.top, d.bottom));
         v_ref = rail * bottom / (top + bottom);
-        ref_parts.push(bld.add(PartKind::Resistor, top, tol, &[rail_node, "dref"], StageRole::Reference, "reference divider, upper leg"));
-        ref_parts.push(bld.add(PartKind::Resistor, bottom, tol, &["dref", GND], StageRole::Reference, "reference divider, lower leg"));
-        ref_parts.push(bld.add(PartKind::Capacitor, 100e-9, Some(req.parts.capacitor_tolerance), &["dref", GND], StageRole::Reference, "reference bypass"));
-        equations.push(format!("V_ref = {} from a divider on {}, buffered so the pin sees no resistance", format(v_ref, Quantity::Voltage), format(rail, Quantity::Voltage)));
+        ref_parts.push(bld.add(
+            PartKind::Resistor,
+            top,
+            tol,
+            &[rail_node, "dref"],
+            StageRole::Reference,
+            "reference divider, upper leg",
+        ));
+        ref_parts.push(bld.add(
+            PartKind::Resistor,
+            bottom,
+            tol,
+            &["dref", GND],
+            StageRole::Reference,
+            "reference divider, lower leg",
+        ));
+        ref_parts.push(bld.add(
+            PartKind::Capacitor,
+            100e-9,
+            Some(req.parts.capacitor_tolerance),
+            &["dref", GND],
+            StageRole::Reference,
+            "reference bypass",
+        ));
+        equations.push(format!(
+            "V_ref = {} from a divider on {}, buffered so the pin sees no resistance",
+            format(v_ref, Quantity::Voltage),
+            format(rail, Quantity::Voltage)
+        ));
         "ref".to_string()
     };
-    parts.push(bld.add(PartKind::Resistor, r2, tol, &["inp1", &pin], StageRole::Gain, "resistor R4 to the reference pin (equal to R2)"));
-    parts.push(bld.add(PartKind::OpAmp, amp.gbw, None, &["inp1", "inn1", "vpos", vneg, "adc"], StageRole::Gain, "difference amplifier: gain, common-mode rejection and level"));
+    parts.push(bld.add(
+        PartKind::Resistor,
+        r2,
+        tol,
+        &["inp1", &pin],
+        StageRole::Gain,
+        "resistor R4 to the reference pin (equal to R2)",
+    ));
+    parts.push(bld.add(
+        PartKind::OpAmp,
+        amp.gbw,
+        None,
+        &["inp1", "inn1", "vpos", vneg, "adc"],
+        StageRole::Gain,
+        "difference amplifier: gain, common-mode rejection and level",
+    ));
     if pin == "ref" {
-        ref_parts.push(bld.add(PartKind::OpAmp, amp.gbw, None, &["dref", "ref", "vpos", vneg, "ref"], StageRole::Reference, "reference follower: drives the pin from a low impedance"));
+        ref_parts.push(bld.add(
+            PartKind::OpAmp,
+            amp.gbw,
+            None,
+            &["dref", "ref", "vpos", vneg, "ref"],
+            StageRole::Reference,
+            "reference follower: drives the pin from a low impedance",
+        ));
     }
     let signed = if t.gain >= 0.0 { gain } else { -gain };
     let err = [s.min, s.max].iter().map(|&v| (signed * v + v_ref - (t.gain * v + t.offset)).abs()).fold(0.0, f64::max);
-    equations.insert(0, format!("G = R2/(R1 + R_s) = {}/({} + {}) = {:.5} (wanted {:.5}); R3 = R1, R4 = R2", format(r2, Quantity::Resistance), format(r1, Quantity::Resistance), format(rs, Quantity::Resistance), gain, g));
+    equations.insert(
+        0,
+        format!(
+            "G = R2/(R1 + R_s) = {}/({} + {}) = {:.5} (wanted {:.5}); R3 = R1, R4 = R2",
+            format(r2, Quantity::Resistance),
+            format(r1, Quantity::Resistance),
+            format(rs, Quantity::Resistance),
+            gain,
+            g
+        ),
+    );
     let mut stages = vec![Stage { role: StageRole::Gain, description: "difference amplifier".to_string(), parts }];
     if !ref_parts.is_empty() {
-        stages.push(Stage { role: StageRole::Reference, description: format!("reference at {}", format(v_ref, Quantity::Voltage)), parts: ref_parts });
+        stages.push(Stage {
+            role: StageRole::Reference,
+            description: format!("reference at {}", format(v_ref, Quantity::Voltage)),
+            parts: ref_parts,
+        });
     }
     // The + input over the common-mode and signal range: the + leg divided with the reference.
     let r3e = r1 + rs;
@@ -150,7 +245,11 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
     Some(Synthesis {
         circuit: crate::synth::finish(bld, stages, amp, rails),
         target: t,
-        topology: if pin == "ref" { "difference amplifier, reference pin on a buffered divider".to_string() } else { "difference amplifier, reference pin at ground".to_string() },
+        topology: if pin == "ref" {
+            "difference amplifier, reference pin on a buffered divider".to_string()
+        } else {
+            "difference amplifier, reference pin at ground".to_string()
+        },
         equations,
         rounding_error: err,
         plus_range: (a.min(b), a.max(b)),
@@ -177,9 +276,22 @@ pub fn report(req: &Request, c: &Circuit, front_gain: Option<f64>) -> Option<Dif
     let cm_error = g1 * gain * cm_span / 10f64.powf(cmrr / 20.0);
     let reference = c.parts.iter().find(|p| p.purpose.starts_with("resistor R4")).map_or(0.0, |p| {
         let pin = p.nodes.iter().find(|n| *n != "inp1").cloned().unwrap_or_default();
-        if pin == GND { 0.0 } else { crate::solve::Solver::new(c).dc(0.5 * (src.min + src.max)).ok().and_then(|o| o.voltage(&pin)).unwrap_or(0.0) }
+        if pin == GND {
+            0.0
+        } else {
+            crate::solve::Solver::new(c).dc(0.5 * (src.min + src.max)).ok().and_then(|o| o.voltage(&pin)).unwrap_or(0.0)
+        }
     });
-    Some(DiffDesign { r1, r2, gain, reference, cmrr_worst_db: cmrr, cm_error, cmrr_monte_carlo_db: None, first_gain: front_gain })
+    Some(DiffDesign {
+        r1,
+        r2,
+        gain,
+        reference,
+        cmrr_worst_db: cmrr,
+        cm_error,
+        cmrr_monte_carlo_db: None,
+        first_gain: front_gain,
+    })
 }
 
 impl DiffDesign {
@@ -194,7 +306,9 @@ impl DiffDesign {
         let lsb = (d.max - d.min) / 2f64.powi(d.bits as i32);
         let tol = format!("{} %", crate::units::format_sig(100.0 * t, Quantity::Ratio, 3));
         let rule = match self.first_gain {
-            Some(g1) => format!("G1·(1 + G2)/(4t), the difference stage's (1 + G2)/(4t) times the first stage's gain {g1:.3}"),
+            Some(g1) => {
+                format!("G1·(1 + G2)/(4t), the difference stage's (1 + G2)/(4t) times the first stage's gain {g1:.3}")
+            }
             None => "(1 + G)/(4t)".to_string(),
         };
         let text = format!(
@@ -213,10 +327,13 @@ impl DiffDesign {
         } else {
             "Tighter resistors (0.1 % or a matched network) or an instrumentation amplifier (source.front_end) raise it."
         };
-        if self.cm_error > lsb { Check::warning("cmrr", format!("{text}. {remedy}")) } else { Check::ok("cmrr", format!("{text}.")) }
+        if self.cm_error > lsb {
+            Check::warning("cmrr", format!("{text}. {remedy}"))
+        } else {
+            Check::ok("cmrr", format!("{text}."))
+        }
     }
 }
-
 
 /// A differential pair (or a bridge's Thévenin pair) straight into the difference
 /// amplifier, which is then the gain stage itself.
@@ -264,7 +381,8 @@ impl Difference {
             );
         }
         if let Some(dd) = &self.design {
-            let title = if behind_first_stage { "Instrumentation amplifier: difference stage" } else { "Difference amplifier" };
+            let title =
+                if behind_first_stage { "Instrumentation amplifier: difference stage" } else { "Difference amplifier" };
             out.push(
                 Block::new("differential", title)
                     .quantity("R1 = R3", dd.r1, Quantity::Resistance)

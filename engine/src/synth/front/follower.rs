@@ -28,9 +28,9 @@ use serde::Serialize;
 use crate::amplifier::{Amplifier, Rails};
 use crate::circuit::{Circuit, PartKind, Stage, StageRole, GND};
 use crate::diag::Check;
+use crate::figures::Block;
 use crate::request::{Coupling, Request, SourceKind};
 use crate::units::{format, Quantity};
-use crate::figures::Block;
 use crate::values;
 
 /// Each leg of the reference divider for the bias resistor (single supply), Ω.
@@ -78,13 +78,13 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<BufferDesign
             let m = crate::synth::SWING_MARGIN;
             let fits = s.min >= out_lo.max(in_lo) + m && s.max <= out_hi.min(in_hi) - m;
             Some(BufferDesign {
-            bias_resistor: None,
-            return_level: 0.0,
-            follows: fits,
-            input_level: 0.5 * (s.min + s.max),
-            low_corner: None,
-            input_corner: (cs > 0.0).then(|| 1.0 / (2.0 * std::f64::consts::PI * r_s * cs)),
-            bias_error: amp.bias_current * r_s,
+                bias_resistor: None,
+                return_level: 0.0,
+                follows: fits,
+                input_level: 0.5 * (s.min + s.max),
+                low_corner: None,
+                input_corner: (cs > 0.0).then(|| 1.0 / (2.0 * std::f64::consts::PI * r_s * cs)),
+                bias_error: amp.bias_current * r_s,
             })
         }
         Coupling::Ac => {
@@ -128,32 +128,98 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
     let gbw = circuit.amplifier.gbw;
     let vneg = if rails.is_dual() { "vneg" } else { GND };
     let mut bld = crate::circuit::Builder::resume(std::mem::take(&mut circuit.parts));
-    let mut parts = vec![bld.front_amplifier("U1", gbw, ["sense", "buf", "vpos", vneg, "buf"], StageRole::Buffer, "follower: takes no current from the sensor and drives the rest")];
+    let mut parts = vec![bld.front_amplifier(
+        "U1",
+        gbw,
+        ["sense", "buf", "vpos", vneg, "buf"],
+        StageRole::Buffer,
+        "follower: takes no current from the sensor and drives the rest",
+    )];
     let rtol = Some(req.parts.resistor_tolerance);
     // The bias reference (AC coupling on a single supply); the sensor's return is ground.
     let ret = if b.return_level != 0.0 { "bref" } else { GND };
     if let Some(r_b) = b.bias_resistor {
-        parts.push(bld.add(PartKind::Resistor, r_b, rtol, &["sense", ret], StageRole::Buffer, "bias resistor: the input's DC path; sets the low corner with the sensor's capacitance"));
+        parts.push(bld.add(
+            PartKind::Resistor,
+            r_b,
+            rtol,
+            &["sense", ret],
+            StageRole::Buffer,
+            "bias resistor: the input's DC path; sets the low corner with the sensor's capacitance",
+        ));
     }
     {
         if ret != GND {
-            parts.push(bld.add(PartKind::Resistor, REF_LEG, rtol, &["vpos", "bref"], StageRole::Buffer, "sensor return reference divider, upper leg"));
-            parts.push(bld.add(PartKind::Resistor, REF_LEG, rtol, &["bref", GND], StageRole::Buffer, "sensor return reference divider, lower leg"));
-            parts.push(bld.add(PartKind::Capacitor, REF_BYPASS, Some(req.parts.capacitor_tolerance), &["bref", GND], StageRole::Buffer, "sensor return reference bypass"));
+            parts.push(bld.add(
+                PartKind::Resistor,
+                REF_LEG,
+                rtol,
+                &["vpos", "bref"],
+                StageRole::Buffer,
+                "sensor return reference divider, upper leg",
+            ));
+            parts.push(bld.add(
+                PartKind::Resistor,
+                REF_LEG,
+                rtol,
+                &["bref", GND],
+                StageRole::Buffer,
+                "sensor return reference divider, lower leg",
+            ));
+            parts.push(bld.add(
+                PartKind::Capacitor,
+                REF_BYPASS,
+                Some(req.parts.capacitor_tolerance),
+                &["bref", GND],
+                StageRole::Buffer,
+                "sensor return reference bypass",
+            ));
         }
     }
     let mid = 0.5 * (s.min + s.max);
     let cs = s.capacitance.unwrap_or(0.0);
-    bld.bench("VSENSE", PartKind::VoltageSource, mid, &["emf", GND], StageRole::Sensor, "sensor EMF (swept over the source range)");
-    bld.bench("RSENSE", PartKind::Resistor, s.impedance, &["emf", "sense"], StageRole::Sensor, if s.coupling == Coupling::Ac { "sensor leakage resistance" } else { "sensor source resistance" });
+    bld.bench(
+        "VSENSE",
+        PartKind::VoltageSource,
+        mid,
+        &["emf", GND],
+        StageRole::Sensor,
+        "sensor EMF (swept over the source range)",
+    );
+    bld.bench(
+        "RSENSE",
+        PartKind::Resistor,
+        s.impedance,
+        &["emf", "sense"],
+        StageRole::Sensor,
+        if s.coupling == Coupling::Ac { "sensor leakage resistance" } else { "sensor source resistance" },
+    );
     match s.coupling {
-        Coupling::Ac => bld.bench("CSENSE", PartKind::Capacitor, cs, &["emf", "sense"], StageRole::Sensor, "sensor capacitance (the signal sits behind it)"),
-        Coupling::Dc if cs > 0.0 => bld.bench("CSENSE", PartKind::Capacitor, cs, &["sense", GND], StageRole::Sensor, "sensor and cable capacitance at the input"),
+        Coupling::Ac => bld.bench(
+            "CSENSE",
+            PartKind::Capacitor,
+            cs,
+            &["emf", "sense"],
+            StageRole::Sensor,
+            "sensor capacitance (the signal sits behind it)",
+        ),
+        Coupling::Dc if cs > 0.0 => bld.bench(
+            "CSENSE",
+            PartKind::Capacitor,
+            cs,
+            &["sense", GND],
+            StageRole::Sensor,
+            "sensor and cable capacitance at the input",
+        ),
         Coupling::Dc => {}
     }
     circuit.parts = bld.parts;
     let what = match b.bias_resistor {
-        Some(r) => format!("follower with a {} bias resistor to {}", format(r, Quantity::Resistance), format(b.return_level, Quantity::Voltage)),
+        Some(r) => format!(
+            "follower with a {} bias resistor to {}",
+            format(r, Quantity::Resistance),
+            format(b.return_level, Quantity::Voltage)
+        ),
         None => "follower: the sensor sees only the amplifier's input".to_string(),
     };
     circuit.stages.insert(0, Stage { role: StageRole::Buffer, description: what, parts });
@@ -164,9 +230,15 @@ pub fn equations(req: &Request, b: &BufferDesign) -> Vec<String> {
     let s = &req.source;
     let cs = s.capacitance.unwrap_or(0.0);
     let hz = |x: f64| format(x, Quantity::Frequency);
-    let mut e = vec!["U1 follows the sensor (unity gain, no resistor in the signal path); the gain stage works on its output".to_string()];
+    let mut e =
+        vec!["U1 follows the sensor (unity gain, no resistor in the signal path); the gain stage works on its output"
+            .to_string()];
     if b.bias_resistor.is_some() && b.return_level != 0.0 {
-        e.push(format!("R_b returns to {} (a divider with a bypass); with the sensor's leakage the input rests at {}", format(b.return_level, Quantity::Voltage), format(b.input_level, Quantity::Voltage)));
+        e.push(format!(
+            "R_b returns to {} (a divider with a bypass); with the sensor's leakage the input rests at {}",
+            format(b.return_level, Quantity::Voltage),
+            format(b.input_level, Quantity::Voltage)
+        ));
     }
     if let (Some(r_b), Some(f_l)) = (b.bias_resistor, b.low_corner) {
         e.push(format!(
@@ -178,7 +250,12 @@ pub fn equations(req: &Request, b: &BufferDesign) -> Vec<String> {
         ));
     }
     if let Some(f_c) = b.input_corner {
-        e.push(format!("input corner 1/(2π·R_s·C_s) = 1/(2π·{}·{}) = {}", format(s.impedance, Quantity::Resistance), format(cs, Quantity::Capacitance), hz(f_c)));
+        e.push(format!(
+            "input corner 1/(2π·R_s·C_s) = 1/(2π·{}·{}) = {}",
+            format(s.impedance, Quantity::Resistance),
+            format(cs, Quantity::Capacitance),
+            hz(f_c)
+        ));
     }
     e
 }
@@ -208,7 +285,8 @@ pub fn checks(req: &Request, b: &BufferDesign, amp: &Amplifier) -> Vec<Check> {
         100.0 * b.bias_error / span,
         b.bias_error / lsb
     );
-    let needed = 0.5 * lsb / if b.bias_resistor.is_some() { b.bias_error / amp.bias_current.max(1e-18) } else { s.impedance };
+    let needed =
+        0.5 * lsb / if b.bias_resistor.is_some() { b.bias_error / amp.bias_current.max(1e-18) } else { s.impedance };
     c.push(if b.bias_error > 0.1 * span {
         Check::error("bias_current", format!("{text}; choose an amplifier with a bias current below {} (electrometer-grade inputs have femtoamperes).", format(needed, Quantity::Current)))
     } else if b.bias_error > lsb {
@@ -217,7 +295,10 @@ pub fn checks(req: &Request, b: &BufferDesign, amp: &Amplifier) -> Vec<Check> {
         Check::ok("bias_current", format!("{text}."))
     });
     if let Some(f_c) = b.input_corner {
-        let msg = format!("The source resistance and the capacitance at the input roll the signal off at {}", format(f_c, Quantity::Frequency));
+        let msg = format!(
+            "The source resistance and the capacitance at the input roll the signal off at {}",
+            format(f_c, Quantity::Frequency)
+        );
         c.push(if f_c < s.band_high {
             Check::warning("input_corner", format!("{msg}, below the band's top {}: the sensor and its cable limit the band, not the circuit. A shorter or lower-capacitance cable, or a driven guard (shield at the follower's output), raises it.", format(s.band_high, Quantity::Frequency)))
         } else {

@@ -29,9 +29,9 @@ use serde::Serialize;
 use crate::amplifier::{Amplifier, Rails};
 use crate::circuit::{Builder, Circuit, PartKind, Stage, StageRole, GND};
 use crate::diag::Check;
+use crate::figures::Block;
 use crate::request::{FrontEnd, Request, SourceKind};
 use crate::units::{format, Quantity};
-use crate::figures::Block;
 use crate::values;
 
 /// R_F's window, Ω (common practice for the first stage of an instrumentation amplifier).
@@ -137,12 +137,16 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails, gain: f64, extra: f64,
             }
         }
         let ratios = ratios_between(series, g / want.max(1.0) / 1.05, g / g_lo * 1.05);
-        let scored: Vec<(f64, f64, f64, f64)> = cands.iter().map(|&(g1, r_f, r_g)| (r_f, r_g, g1, nearest_ratio_error(&ratios, g / g1))).collect();
+        let scored: Vec<(f64, f64, f64, f64)> =
+            cands.iter().map(|&(g1, r_f, r_g)| (r_f, r_g, g1, nearest_ratio_error(&ratios, g / g1))).collect();
         let least = scored.iter().map(|c| c.3).fold(f64::INFINITY, f64::min);
         for c in scored.into_iter().filter(|c| c.3 <= least + GAIN_SLACK) {
             let better = match &best {
                 None => true,
-                Some(b) => c.2 > b.2 * (1.0 + 1e-9) || (c.2 >= b.2 * (1.0 - 1e-9) && (c.0 / mid).ln().abs() < (b.0 / mid).ln().abs()),
+                Some(b) => {
+                    c.2 > b.2 * (1.0 + 1e-9)
+                        || (c.2 >= b.2 * (1.0 - 1e-9) && (c.0 / mid).ln().abs() < (b.0 / mid).ln().abs())
+                }
             };
             if better {
                 best = Some(c);
@@ -169,7 +173,8 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails, gain: f64, extra: f64,
         first_gain_limit: limit,
         protection,
         protection_noise: (four_kt * protection).sqrt(),
-        fault_beyond_rail: (protection * req.destination.injection_limit).min((PROTECT_POWER * protection).sqrt()) + crate::synth::drive::CLAMP_DROP,
+        fault_beyond_rail: (protection * req.destination.injection_limit).min((PROTECT_POWER * protection).sqrt())
+            + crate::synth::drive::CLAMP_DROP,
         input_range,
         output_range: (cm_lo - swing, cm_hi + swing),
         gbw_needed: 100.0 * first_gain * s.band_high,
@@ -223,24 +228,87 @@ pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rail
     let rtol = Some(req.parts.resistor_tolerance);
     let mut bld = Builder::resume(std::mem::take(&mut circuit.parts));
     let mut parts = Vec::new();
-    parts.push(bld.add(PartKind::Resistor, d.protection, rtol, &["sensep", "ipp"], StageRole::InputStage, "protection resistor, + leg: limits fault current into U1's input"));
-    parts.push(bld.add(PartKind::Resistor, d.protection, rtol, &["sensen", "ipn"], StageRole::InputStage, "protection resistor, − leg: limits fault current into U2's input"));
+    parts.push(bld.add(
+        PartKind::Resistor,
+        d.protection,
+        rtol,
+        &["sensep", "ipp"],
+        StageRole::InputStage,
+        "protection resistor, + leg: limits fault current into U1's input",
+    ));
+    parts.push(bld.add(
+        PartKind::Resistor,
+        d.protection,
+        rtol,
+        &["sensen", "ipn"],
+        StageRole::InputStage,
+        "protection resistor, − leg: limits fault current into U2's input",
+    ));
     match (d.feedback, d.gain_resistor) {
         (Some(r_f), Some(r_g)) => {
-            parts.push(bld.front_amplifier("U1", gbw, ["ipp", "ga", "vpos", vneg, "oa"], StageRole::InputStage, "input amplifier, + leg: gain 1 + 2R_F/R_G for the difference, 1 for the common mode"));
-            parts.push(bld.front_amplifier("U2", gbw, ["ipn", "gb", "vpos", vneg, "ob"], StageRole::InputStage, "input amplifier, − leg: gain 1 + 2R_F/R_G for the difference, 1 for the common mode"));
-            parts.push(bld.add(PartKind::Resistor, r_f, rtol, &["oa", "ga"], StageRole::InputStage, "first-stage feedback R_F, + leg"));
-            parts.push(bld.add(PartKind::Resistor, r_g, rtol, &["ga", "gb"], StageRole::InputStage, "gain resistor R_G: sets the first stage's gain"));
-            parts.push(bld.add(PartKind::Resistor, r_f, rtol, &["ob", "gb"], StageRole::InputStage, "first-stage feedback R_F, − leg"));
+            parts.push(bld.front_amplifier(
+                "U1",
+                gbw,
+                ["ipp", "ga", "vpos", vneg, "oa"],
+                StageRole::InputStage,
+                "input amplifier, + leg: gain 1 + 2R_F/R_G for the difference, 1 for the common mode",
+            ));
+            parts.push(bld.front_amplifier(
+                "U2",
+                gbw,
+                ["ipn", "gb", "vpos", vneg, "ob"],
+                StageRole::InputStage,
+                "input amplifier, − leg: gain 1 + 2R_F/R_G for the difference, 1 for the common mode",
+            ));
+            parts.push(bld.add(
+                PartKind::Resistor,
+                r_f,
+                rtol,
+                &["oa", "ga"],
+                StageRole::InputStage,
+                "first-stage feedback R_F, + leg",
+            ));
+            parts.push(bld.add(
+                PartKind::Resistor,
+                r_g,
+                rtol,
+                &["ga", "gb"],
+                StageRole::InputStage,
+                "gain resistor R_G: sets the first stage's gain",
+            ));
+            parts.push(bld.add(
+                PartKind::Resistor,
+                r_f,
+                rtol,
+                &["ob", "gb"],
+                StageRole::InputStage,
+                "first-stage feedback R_F, − leg",
+            ));
         }
         _ => {
-            parts.push(bld.front_amplifier("U1", gbw, ["ipp", "oa", "vpos", vneg, "oa"], StageRole::InputStage, "input follower, + leg: the leg sees only its input"));
-            parts.push(bld.front_amplifier("U2", gbw, ["ipn", "ob", "vpos", vneg, "ob"], StageRole::InputStage, "input follower, − leg: the leg sees only its input"));
+            parts.push(bld.front_amplifier(
+                "U1",
+                gbw,
+                ["ipp", "oa", "vpos", vneg, "oa"],
+                StageRole::InputStage,
+                "input follower, + leg: the leg sees only its input",
+            ));
+            parts.push(bld.front_amplifier(
+                "U2",
+                gbw,
+                ["ipn", "ob", "vpos", vneg, "ob"],
+                StageRole::InputStage,
+                "input follower, − leg: the leg sees only its input",
+            ));
         }
     }
     circuit.parts = bld.parts;
     let what = match d.gain_resistor {
-        Some(r_g) => format!("instrumentation-amplifier input stage, gain {:.3} (R_G {})", d.first_gain, format(r_g, Quantity::Resistance)),
+        Some(r_g) => format!(
+            "instrumentation-amplifier input stage, gain {:.3} (R_G {})",
+            d.first_gain,
+            format(r_g, Quantity::Resistance)
+        ),
         None => "instrumentation-amplifier input stage: two followers".to_string(),
     };
     circuit.stages.insert(0, Stage { role: StageRole::InputStage, description: what, parts });
@@ -249,7 +317,9 @@ pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rail
 /// The whole amplifier's topology in words, given the difference stage's.
 pub fn topology(d: &InampDesign, difference_stage: &str) -> String {
     match d.gain_resistor {
-        Some(_) => format!("instrumentation amplifier: input stage of gain {:.1}, then a {difference_stage}", d.first_gain),
+        Some(_) => {
+            format!("instrumentation amplifier: input stage of gain {:.1}, then a {difference_stage}", d.first_gain)
+        }
         None => format!("instrumentation amplifier: two input followers, then a {difference_stage}"),
     }
 }
@@ -331,7 +401,12 @@ pub fn ratios_between(series: values::Series, lo: f64, hi: f64) -> Vec<f64> {
 /// The smallest relative error |r/g − 1| over the ascending `ratios` (binary search).
 pub fn nearest_ratio_error(ratios: &[f64], g: f64) -> f64 {
     let i = ratios.partition_point(|&r| r < g);
-    [i.checked_sub(1), Some(i)].into_iter().flatten().filter_map(|k| ratios.get(k)).map(|r| (r / g - 1.0).abs()).fold(f64::INFINITY, f64::min)
+    [i.checked_sub(1), Some(i)]
+        .into_iter()
+        .flatten()
+        .filter_map(|k| ratios.get(k))
+        .map(|r| (r / g - 1.0).abs())
+        .fold(f64::INFINITY, f64::min)
 }
 
 /// Worst-case CMRR of the whole instrumentation amplifier, dB: the difference stage's
@@ -405,17 +480,28 @@ impl super::Steps for Instrumentation {
 
     fn needs(&self) -> Option<super::Needs> {
         let d = &self.first;
-        Some(super::Needs { output_range: d.output_range, input_range: d.input_range, gbw: d.gbw_needed, gain: d.first_gain })
+        Some(super::Needs {
+            output_range: d.output_range,
+            input_range: d.input_range,
+            gbw: d.gbw_needed,
+            gain: d.first_gain,
+        })
     }
 
     fn figures(&self, _ctx: &super::Context) -> Vec<Block> {
         let ia = &self.first;
-        let mut b = Block::new("instrumentation", "Instrumentation amplifier: input stage U1, U2").text("Chosen for", ia.reason.clone());
+        let mut b = Block::new("instrumentation", "Instrumentation amplifier: input stage U1, U2")
+            .text("Chosen for", ia.reason.clone());
         b = match (ia.feedback, ia.gain_resistor) {
-            (Some(r_f), Some(r_g)) => b.quantity("R_F (each leg)", r_f, Quantity::Resistance).quantity("R_G", r_g, Quantity::Resistance),
+            (Some(r_f), Some(r_g)) => {
+                b.quantity("R_F (each leg)", r_f, Quantity::Resistance).quantity("R_G", r_g, Quantity::Resistance)
+            }
             _ => b.text("Input amplifiers", "followers (unity gain)"),
         };
-        let limit = format!("largest the outputs can swing: {}", crate::units::format_sig(ia.first_gain_limit, Quantity::Ratio, 3));
+        let limit = format!(
+            "largest the outputs can swing: {}",
+            crate::units::format_sig(ia.first_gain_limit, Quantity::Ratio, 3)
+        );
         b = b
             .ratio("First-stage gain", ia.first_gain, 4, &limit)
             .range("First-stage outputs", ia.output_range.0, ia.output_range.1, Quantity::Voltage)

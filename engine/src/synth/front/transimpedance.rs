@@ -27,9 +27,9 @@ use serde::Serialize;
 use crate::amplifier::{Amplifier, Rails};
 use crate::circuit::{Circuit, PartKind, Stage, StageRole, GND};
 use crate::diag::Check;
+use crate::figures::Block;
 use crate::request::{Request, SourceKind};
 use crate::units::{format, Quantity};
-use crate::figures::Block;
 use crate::values;
 
 /// Each leg of the bias divider (one supply), Ω, and its bypass, F (common practice).
@@ -87,7 +87,11 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<TiaDesign> {
 pub fn flat_capacitor(r_f: f64, c_in: f64, gbw: f64) -> f64 {
     let wt = 2.0 * PI * gbw;
     let arg = 2.0 * r_f * c_in / wt - 1.0 / (wt * wt);
-    if arg > 0.0 { arg.sqrt() / r_f } else { 0.0 }
+    if arg > 0.0 {
+        arg.sqrt() / r_f
+    } else {
+        0.0
+    }
 }
 
 /// −3 dB frequency of the single-pole transimpedance model, Hz (bisection on |Z|/R_f).
@@ -121,7 +125,11 @@ pub fn bandwidth(r_f: f64, c_f: f64, c_in: f64, gbw: f64) -> f64 {
 pub fn equivalent(req: &Request, t: &TiaDesign) -> Request {
     let s = &req.source;
     let dark = s.dark_current.unwrap_or(0.0);
-    super::stiff_source(req, t.bias + (s.min + dark) * t.feedback_resistor, t.bias + (s.max + dark) * t.feedback_resistor)
+    super::stiff_source(
+        req,
+        t.bias + (s.min + dark) * t.feedback_resistor,
+        t.bias + (s.max + dark) * t.feedback_resistor,
+    )
 }
 
 /// Puts U1 (the gain stage's amplifiers move up by one) with R_f, C_f and the bias in front
@@ -135,26 +143,86 @@ pub fn insert(circuit: &mut Circuit, req: &Request, t: &TiaDesign, rails: Rails)
     let vneg = if rails.is_dual() { "vneg" } else { GND };
     let plus = if t.bias != 0.0 { "pdb" } else { GND };
     let mut bld = crate::circuit::Builder::resume(std::mem::take(&mut circuit.parts));
-    let mut parts = vec![bld.front_amplifier("U1", gbw, [plus, "sense", "vpos", vneg, "tia"], StageRole::Transimpedance, "transimpedance amplifier: holds the diode at the bias and turns its current into a voltage")];
+    let mut parts = vec![bld.front_amplifier(
+        "U1",
+        gbw,
+        [plus, "sense", "vpos", vneg, "tia"],
+        StageRole::Transimpedance,
+        "transimpedance amplifier: holds the diode at the bias and turns its current into a voltage",
+    )];
     let rtol = Some(req.parts.resistor_tolerance);
-    parts.push(bld.add(PartKind::Resistor, t.feedback_resistor, rtol, &["tia", "sense"], StageRole::Transimpedance, "feedback resistor R_f: volts per ampere of photocurrent"));
-    parts.push(bld.add(PartKind::Capacitor, t.feedback_capacitor, Some(req.parts.capacitor_tolerance), &["tia", "sense"], StageRole::Transimpedance, "feedback capacitor C_f: keeps the stage stable and flat against the diode's capacitance"));
+    parts.push(bld.add(
+        PartKind::Resistor,
+        t.feedback_resistor,
+        rtol,
+        &["tia", "sense"],
+        StageRole::Transimpedance,
+        "feedback resistor R_f: volts per ampere of photocurrent",
+    ));
+    parts.push(bld.add(
+        PartKind::Capacitor,
+        t.feedback_capacitor,
+        Some(req.parts.capacitor_tolerance),
+        &["tia", "sense"],
+        StageRole::Transimpedance,
+        "feedback capacitor C_f: keeps the stage stable and flat against the diode's capacitance",
+    ));
     if t.bias != 0.0 {
         let ratio = t.bias / rails.pos;
         let top = BIAS_LEG;
         let bottom = values::nearest(req.parts.resistor_series, top * ratio / (1.0 - ratio)).unwrap_or(top);
-        parts.push(bld.add(PartKind::Resistor, top, rtol, &["vpos", "pdb"], StageRole::Transimpedance, "bias divider, upper leg"));
-        parts.push(bld.add(PartKind::Resistor, bottom, rtol, &["pdb", GND], StageRole::Transimpedance, "bias divider, lower leg"));
-        parts.push(bld.add(PartKind::Capacitor, BIAS_BYPASS, Some(req.parts.capacitor_tolerance), &["pdb", GND], StageRole::Transimpedance, "bias bypass"));
+        parts.push(bld.add(
+            PartKind::Resistor,
+            top,
+            rtol,
+            &["vpos", "pdb"],
+            StageRole::Transimpedance,
+            "bias divider, upper leg",
+        ));
+        parts.push(bld.add(
+            PartKind::Resistor,
+            bottom,
+            rtol,
+            &["pdb", GND],
+            StageRole::Transimpedance,
+            "bias divider, lower leg",
+        ));
+        parts.push(bld.add(
+            PartKind::Capacitor,
+            BIAS_BYPASS,
+            Some(req.parts.capacitor_tolerance),
+            &["pdb", GND],
+            StageRole::Transimpedance,
+            "bias bypass",
+        ));
     }
     let mid = 0.5 * (s.min + s.max);
-    bld.bench("ISENSE", PartKind::CurrentSource, mid, &["sense", GND], StageRole::Sensor, "photocurrent (swept over the source range)");
+    bld.bench(
+        "ISENSE",
+        PartKind::CurrentSource,
+        mid,
+        &["sense", GND],
+        StageRole::Sensor,
+        "photocurrent (swept over the source range)",
+    );
     if let Some(d) = s.dark_current.filter(|d| *d > 0.0) {
         bld.bench("IDARK", PartKind::CurrentSource, d, &["sense", GND], StageRole::Sensor, "dark current");
     }
-    bld.bench("CSENSE", PartKind::Capacitor, s.capacitance.unwrap_or(0.0), &["sense", GND], StageRole::Sensor, "junction capacitance");
+    bld.bench(
+        "CSENSE",
+        PartKind::Capacitor,
+        s.capacitance.unwrap_or(0.0),
+        &["sense", GND],
+        StageRole::Sensor,
+        "junction capacitance",
+    );
     circuit.parts = bld.parts;
-    let what = format!("transimpedance stage, R_f {} ∥ C_f {}, diode biased at {}", format(t.feedback_resistor, Quantity::Resistance), format(t.feedback_capacitor, Quantity::Capacitance), format(t.bias, Quantity::Voltage));
+    let what = format!(
+        "transimpedance stage, R_f {} ∥ C_f {}, diode biased at {}",
+        format(t.feedback_resistor, Quantity::Resistance),
+        format(t.feedback_capacitor, Quantity::Capacitance),
+        format(t.bias, Quantity::Voltage)
+    );
     circuit.stages.insert(0, Stage { role: StageRole::Transimpedance, description: what, parts });
 }
 
