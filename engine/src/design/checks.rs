@@ -10,6 +10,8 @@ use crate::request::{Coupling, Request};
 use crate::synth;
 use crate::units::{format, Quantity};
 
+use super::{hz, sig3, v};
+
 use super::requirements::{Requirements, GBW_MARGIN};
 
 /// Checks that need no circuit: impossible or doubtful requests.
@@ -201,17 +203,4 @@ pub(super) fn cautions(req: &Request, rails: Rails) -> Vec<String> {
         v.push("Voltages above 30 V are present; treat the circuit as hazardous when working on it.".to_string());
     }
     v
-}
-
-fn v(x: f64) -> String {
-    format(x, Quantity::Voltage)
-}
-
-/// A plain number with three significant digits.
-fn sig3(x: f64) -> String {
-    crate::units::format(x, Quantity::Ratio)
-}
-
-fn hz(x: f64) -> String {
-    format(x, Quantity::Frequency)
 }

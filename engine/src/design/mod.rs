@@ -203,7 +203,9 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
         let mut eqs = steps.equations(&ctx);
         eqs.append(&mut s.equations);
         s.equations = eqs;
-        let Some(q) = predict(req, &s.circuit) else { return unsolved(out, checks) };
+        let Some(q) = predict(req, &s.circuit) else {
+            return unsolved(out, checks);
+        };
         p = q;
         checks.extend(steps.checks(&s.circuit, &p, &ctx));
         if let Some(n) = steps.needs() {
@@ -260,8 +262,12 @@ fn synthesise(
     // later, larger pull can be the one that fits.
     let mut best = f64::INFINITY;
     for nudge in NUDGES {
-        let Some(s) = synth::synthesize_with_chain(syn, amp, rails, target, &chain) else { break };
-        let Some(p) = predict(syn, &s.circuit) else { break };
+        let Some(s) = synth::synthesize_with_chain(syn, amp, rails, target, &chain) else {
+            break;
+        };
+        let Some(p) = predict(syn, &s.circuit) else {
+            break;
+        };
         let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
         let under = (band_lo - lo).max(0.0);
         let over = (hi - band_hi).max(0.0);
@@ -340,4 +346,19 @@ fn row(p: &Part) -> PartRow {
         stage: p.stage.name().to_string(),
         purpose: p.purpose.clone(),
     }
+}
+
+/// A voltage as every message shows it.
+fn v(x: f64) -> String {
+    format(x, Quantity::Voltage)
+}
+
+/// A plain number with three significant digits.
+fn sig3(x: f64) -> String {
+    format(x, Quantity::Ratio)
+}
+
+/// A frequency as every message shows it.
+fn hz(x: f64) -> String {
+    format(x, Quantity::Frequency)
 }

@@ -8,7 +8,8 @@ use crate::amplifier::{Amplifier, Rails};
 use crate::circuit::{Circuit, PartKind};
 use crate::request::Request;
 use crate::synth;
-use crate::units::{format, Quantity};
+
+use super::{hz, sig3, v};
 
 /// Rule for the amplifier's bandwidth: closed-loop bandwidth (GBW / noise gain) at least this
 /// many times `band_high`, which keeps a single-pole amplifier's gain error at `band_high`
@@ -116,7 +117,9 @@ pub(super) fn widen(r: &mut Requirements, n: &synth::front::Needs, rails: Rails,
 /// Noise gain of the (first) amplifier: 1 + R_f·Σ(1/R) over the other resistors at its − input
 /// (the sensor's impedance added to a leg that comes from the sensor).
 pub fn noise_gain(c: &Circuit) -> f64 {
-    let Some(u) = c.parts.iter().find(|p| p.kind == PartKind::OpAmp) else { return 1.0 };
+    let Some(u) = c.parts.iter().find(|p| p.kind == PartKind::OpAmp) else {
+        return 1.0;
+    };
     let (inn, out) = (&u.nodes[1], &u.nodes[4]);
     if inn == out {
         return 1.0;
@@ -133,17 +136,4 @@ pub fn noise_gain(c: &Circuit) -> f64 {
         }
     }
     rf.map_or(1.0, |rf| 1.0 + rf * g)
-}
-
-fn v(x: f64) -> String {
-    format(x, Quantity::Voltage)
-}
-
-/// A plain number with three significant digits.
-fn sig3(x: f64) -> String {
-    crate::units::format(x, Quantity::Ratio)
-}
-
-fn hz(x: f64) -> String {
-    format(x, Quantity::Frequency)
 }
