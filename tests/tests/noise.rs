@@ -1,7 +1,7 @@
 //! Noise analysis (`rangefit_engine::analysis::noise`) against outside references.
 //!
 //! * Johnson–Nyquist noise, kT/C and the ideal converter's LSB, quantisation noise, SNR and
-//!   ENOB against the confirmed values of `/work/shared/references.md` ("Noise and
+//!   ENOB against the confirmed values of `tests/REFERENCES.md` ("Noise and
 //!   conversion"); the source is named beside each row.
 //! * A single resistor into a buffer: √(4kTR·Δf), and with amplifier noise of known density
 //!   the quadrature sum of uncorrelated sources.

@@ -523,7 +523,7 @@ fn check_rows(f: &mut Fails, id: &str, d: &Design) -> usize {
                         f.expect(
                             "part list",
                             &format!("{id}: {x} has a tolerance iff its row states one"),
-                            p.tolerance.is_some() == !r.tolerance.is_empty(),
+                            p.tolerance.is_some() != r.tolerance.is_empty(),
                             (p.tolerance, &r.tolerance),
                         );
                     }
@@ -1213,7 +1213,7 @@ fn check_report(f: &mut Fails, id: &str, d: &Design) {
     f.expect(
         "report",
         &format!("{id}: a Sensor front end section exactly when the design has a front end"),
-        has_front == !front.is_empty(),
+        has_front != front.is_empty(),
         &front,
     );
     for w in wanted {

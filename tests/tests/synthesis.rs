@@ -237,6 +237,7 @@ fn mfb(a: Amplifier) -> Circuit {
 /// Naive reference: Gaussian elimination with partial pivoting on the nodal equations of a
 /// resistor network driven by one voltage source (written out here so it shares no code
 /// with the engine's nalgebra-based solver).
+#[allow(clippy::needless_range_loop)] // a naive reference: written in the textbook index form on purpose
 fn naive_nodal(n: usize, resistors: &[(usize, usize, f64)], source_node: usize, volts: f64) -> Vec<f64> {
     // Unknowns: nodes 1..n (0 is ground); the source node is fixed by replacing its row.
     let mut a = vec![vec![0.0; n + 1]; n];

@@ -109,7 +109,7 @@ fn perturbed(c: &Circuit, k: &Kernel, p: &[f64]) -> (Circuit, Vec<(String, f64)>
     for (prm, &x) in k.params().iter().zip(p) {
         let part = c.part_mut(&prm.part).unwrap();
         match prm.kind {
-            ParamKind::Resistor | ParamKind::Capacitor => part.value = part.value * (1.0 + x),
+            ParamKind::Resistor | ParamKind::Capacitor => part.value *= 1.0 + x,
             ParamKind::Offset => inject.push((format!("{}:x", prm.part), GM * x)),
             ParamKind::BiasPlus => inject.push((part.nodes[0].clone(), -x)),
             ParamKind::BiasMinus => inject.push((part.nodes[1].clone(), -x)),

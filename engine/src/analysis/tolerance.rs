@@ -187,7 +187,7 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
         .iter()
         .map(|q| {
             let same = |p: &&Param| p.kind == q.kind && p.part == q.part;
-            model.kernel.params().iter().position(|p| same(&p)).map_or(true, |i| drawn[i])
+            model.kernel.params().iter().position(|p| same(&p)).is_none_or(|i| drawn[i])
         })
         .collect();
     let mut mc_ws = mc.kernel.workspace();

@@ -404,7 +404,7 @@ fn read_bridge(o: &Obj, supplies: &[f64]) -> Result<BridgeSpec, RequestError> {
     }
     let ratiometric = o.bool("ratiometric")?.unwrap_or(false);
     let zero_balance = o.q("zero_balance", Quantity::Ratio)?.unwrap_or(DEFAULT_ZERO_BALANCE);
-    if !(zero_balance >= 0.0 && zero_balance < 1.0) {
+    if !(0.0..1.0).contains(&zero_balance) {
         return Err(o.err("zero_balance", "must be a fraction of the full-scale output from 0 to 1, e.g. \"2 %\""));
     }
     Ok(BridgeSpec { excitation, sensitivity, bridge_resistance, active_arms, ratiometric, zero_balance })

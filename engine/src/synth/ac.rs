@@ -6,8 +6,8 @@
 //!                         Rb                Rg
 //!                         ref ─ Rt/Rbt divider, Cb    Cg ─ ground
 //! ```
-//! The divider sets `ref` to the wanted output DC level; `Rb` carries no DC current, so the
-//! + input sits at that level; `Cg` makes the DC gain one, so the output sits there too,
+//! The divider sets `ref` to the wanted output DC level; `Rb` carries no DC current, so the +
+//! input sits at that level; `Cg` makes the DC gain one, so the output sits there too,
 //! whatever the mid-band gain `G = 1 + Rf/Rg`. Mid-band, the sensor reaches the + input
 //! through `Rb / (R_sensor + Ra + Rb)`; `Ra` is added only when the swing must be attenuated.
 //!

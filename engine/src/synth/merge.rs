@@ -62,7 +62,7 @@ pub fn plan(c: &Circuit, req: &Request, f: &mut FilterDesign, out: &str) -> Opti
         ([out.to_string(), inn.clone()], rf.value, "capacitor across the feedback resistor")
     } else if req.source.coupling == Coupling::Dc && from_sensor(&inp) && !capacitor_at(&inp) {
         let mut g = 0.0;
-        for p in c.parts.iter().filter(|p| plain(p) && p.nodes.iter().any(|x| *x == inp)) {
+        for p in c.parts.iter().filter(|p| plain(p) && p.nodes.contains(&inp)) {
             let other = if p.nodes[0] == inp { &p.nodes[1] } else { &p.nodes[0] };
             let r = if other == "sense" { p.value + req.source.impedance } else { p.value };
             g += 1.0 / r;
