@@ -99,9 +99,13 @@ pub struct WorstCase {
 pub struct MonteCarlo {
     pub runs: usize,
     pub seed: u64,
-    /// Share of builds whose output at both source extremes stays inside the converter range.
+    /// Share of builds whose output at both source extremes (and, AC-coupled, at rest) stays
+    /// inside the converter range without the amplifier reaching its swing limits.
     #[serde(rename = "yield")]
     pub yield_: f64,
+    /// Builds in which the output amplifier reaches a swing limit at an end of the sensor
+    /// range or at rest: failures, whatever the converter range.
+    pub clipped: usize,
     /// Share that also keep the full requested headroom at each end.
     pub yield_headroom: f64,
     /// 0.95 × (1 − 2·headroom): the share of the converter span a build should cover.
@@ -143,6 +147,8 @@ pub struct Histogram {
     pub lo: f64,
     pub hi: f64,
     pub counts: Vec<u32>,
+    /// Builds whose value is held at a swing limit: counted here, not in the bins.
+    pub clipped: u32,
 }
 
 /// Worst case and Monte Carlo spread of the mapping `circuit` realises for `req`.
@@ -152,7 +158,7 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
         Err(reason) => {
             let cfg = &ToleranceConfig { bins: cfg.bins.min(MAX_BINS), ..cfg.clone() };
             let notes = vec![format!("No builds were drawn: {reason}.")];
-            let monte_carlo = summary::monte_carlo(Vec::new(), [0; 3], 0, req, cfg, notes);
+            let monte_carlo = summary::monte_carlo(Vec::new(), Vec::new(), [0; 4], 0, req, cfg, notes);
             return ToleranceAnalysis { worst_case: WorstCase::unknown(&reason), monte_carlo };
         }
     };
@@ -191,7 +197,7 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
         })
         .collect();
     let mut mc_ws = mc.kernel.workspace();
-    let (builds, counts) = draw_builds(mc, &mut mc_ws, req, cfg, &mc_drawn);
+    let (builds, clips, counts) = draw_builds(mc, &mut mc_ws, req, cfg, &mc_drawn);
     let mut notes = distributions(model.kernel.params());
     let held: Vec<String> = model
         .kernel
@@ -214,7 +220,7 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
             held.join(", ")
         ));
     }
-    let monte_carlo = summary::monte_carlo(builds, counts, cfg.runs, req, cfg, notes);
+    let monte_carlo = summary::monte_carlo(builds, clips, counts, cfg.runs, req, cfg, notes);
     ToleranceAnalysis { worst_case, monte_carlo }
 }
 
@@ -274,6 +280,14 @@ impl Model {
             Some((_, hi)) if y > hi => hi,
             _ => y,
         }
+    }
+
+    /// Which of a build's outputs lie beyond the amplifier's swing limits: bit 0 the output
+    /// at the source's minimum, bit 1 at its maximum, bit 2 the rest level (AC coupling).
+    fn clips(&self, r: [f64; 4]) -> u8 {
+        let Some((lo, hi)) = self.limits else { return 0 };
+        let out = |y: f64| (y < lo || y > hi) as u8;
+        out(r[0]) | out(r[1]) << 1 | if self.ac { out(r[3]) << 2 } else { 0 }
     }
 
     /// The quantities of a build as `design::predict` defines them, outputs limited.
@@ -404,7 +418,7 @@ fn worst_case(model: &Model, ws: &mut Workspace) -> (WorstCase, Vec<[f64; 4]>) {
 /// inside the converter range, inside the headroom, and covering the range-use fraction.
 fn draw_builds(
     model: &Model, ws: &mut Workspace, req: &Request, cfg: &ToleranceConfig, drawn: &[bool],
-) -> (Vec<[f64; 4]>, [usize; 3]) {
+) -> (Vec<[f64; 4]>, Vec<u8>, [usize; 4]) {
     let params = model.kernel.params();
     let mut rng = ChaCha8Rng::seed_from_u64(cfg.seed);
     let mut p_buf = vec![0.0; params.len()];
@@ -427,7 +441,8 @@ fn draw_builds(
     let (h_lo, h_hi) = (d.min + d.headroom * span - slack, d.max - d.headroom * span + slack);
     let fraction = summary::range_use_fraction(req);
     let mut builds = Vec::with_capacity(cfg.runs);
-    let mut counts = [0usize; 3];
+    let mut counts = [0usize; 4];
+    let mut clips = Vec::with_capacity(cfg.runs);
     for _ in 0..cfg.runs {
         for pair in parts.chunks(2) {
             let bits = rng.next_u64();
@@ -444,13 +459,16 @@ fn draw_builds(
         if !(y[0].is_finite() && y[1].is_finite() && y[2].is_finite() && y[3].is_finite()) {
             continue;
         }
+        let clip = model.clips(r);
         let (lo, hi) = if y[0] < y[1] { (y[0], y[1]) } else { (y[1], y[0]) };
-        counts[0] += (lo >= d.min && hi <= d.max) as usize;
-        counts[1] += (lo >= h_lo && hi <= h_hi) as usize;
+        counts[0] += (clip == 0 && lo >= d.min && hi <= d.max) as usize;
+        counts[3] += (clip != 0) as usize;
+        clips.push(clip);
+        counts[1] += (clip == 0 && lo >= h_lo && hi <= h_hi) as usize;
         counts[2] += (hi - lo >= fraction * span) as usize;
         builds.push(y);
     }
-    (builds, counts)
+    (builds, clips, counts)
 }
 
 /// Uniform over (−1, 1) from 32 random bits, symmetric about 0 (steps of 2⁻³¹, far finer

@@ -139,17 +139,30 @@ pub(super) fn design_checks(
     }
     if let Some(fh) = p.band_high {
         if fh < req.source.band_high {
-            c.push(Check::warning(
+            c.push(Check::error(
                 "bandwidth",
-                format!("The response falls 3 dB at {}, below the band edge {}.", hz(fh), hz(req.source.band_high)),
+                format!(
+                    "The response falls 3 dB at {}, inside the band (its upper edge is {}): signals between them \
+                     are lost. The gain stage needs a gain-bandwidth of at least {} (the amplifier has {}); choose a \
+                     faster amplifier, split the gain over two stages, or lower band_high.",
+                    hz(fh),
+                    hz(req.source.band_high),
+                    hz(r.gbw_min),
+                    hz(amp.gbw)
+                ),
             ));
         }
     }
     if let (Some(fl), Coupling::Ac) = (p.band_low, req.source.coupling) {
         if fl > req.source.band_low {
-            c.push(Check::warning(
+            c.push(Check::error(
                 "band_low",
-                format!("The response falls 3 dB at {}, above band_low {}.", hz(fl), hz(req.source.band_low)),
+                format!(
+                    "The response falls 3 dB at {}, inside the band (its lower edge is {}): signals between them \
+                     are lost. Larger coupling capacitors or larger resistors behind them move the corner down.",
+                    hz(fl),
+                    hz(req.source.band_low)
+                ),
             ));
         }
     }

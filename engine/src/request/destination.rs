@@ -105,6 +105,11 @@ pub struct FilterSpec {
     pub passband_error: f64,
     /// How strong unwanted content above the band can be, as a fraction of full scale.
     pub out_of_band_level: f64,
+    /// The share of `passband_error` the rest of the chain takes at `band_high` (front end,
+    /// gain stage, amplifier gain-bandwidth), dB; the filter is designed for what is left.
+    /// Set by the design pipeline when it measures the built chain; never part of a request.
+    #[serde(skip)]
+    pub chain_droop_db: f64,
 }
 
 impl Default for FilterSpec {
@@ -116,6 +121,7 @@ impl Default for FilterSpec {
             topology: FilterTopology::SallenKey,
             passband_error: DEFAULT_PASSBAND_ERROR_DB,
             out_of_band_level: 1.0,
+            chain_droop_db: 0.0,
         }
     }
 }
@@ -321,5 +327,5 @@ pub(super) fn read_filter(v: &Value) -> Result<FilterSpec, RequestError> {
         ));
     }
     o.finish(&["response", "order", "max_order", "topology", "passband_error", "out_of_band_level"])?;
-    Ok(FilterSpec { response, order, max_order, topology, passband_error, out_of_band_level })
+    Ok(FilterSpec { response, order, max_order, topology, passband_error, out_of_band_level, chain_droop_db: 0.0 })
 }

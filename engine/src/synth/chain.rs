@@ -513,6 +513,18 @@ pub fn filter_checks(req: &Request, s: &Synthesis, achieved_db: Option<f64>, ban
             }
             if f.ripple_exceeds_request {
                 c.push(Check::warning("passband_ripple", format!("The steep response ripples {} dB inside the band, more than the {} dB passband_error asked; a flat response keeps the error within it.", super::filter::prototype::CHEBYSHEV_RIPPLE_DB, req.filter.passband_error)));
+            } else if f.passband_error_db > f.passband_allowed_db + 1e-9 {
+                c.push(Check::error(
+                    "passband_error",
+                    format!(
+                        "The rounded filter's in-band error up to {} is {:.3} dB, beyond the {} dB allowed: no filter \
+                         from the part series meets both the alias rule and the allowance. A finer capacitor series, a \
+                         larger passband_error or a higher sample rate would.",
+                        hz(req.source.band_high),
+                        f.passband_error_db,
+                        f.passband_allowed_db
+                    ),
+                ));
             } else {
                 c.push(Check::ok(
                     "passband_error",
@@ -530,7 +542,7 @@ pub fn filter_checks(req: &Request, s: &Synthesis, achieved_db: Option<f64>, ban
                 let allowed = f.passband_allowed_db;
                 let text = format!("With the amplifiers' gain-bandwidth and the gain stage, the built circuit is {e:+.3} dB from mid-band at {}", hz(req.source.band_high));
                 c.push(if e.abs() > allowed + 0.005 {
-                    Check::warning("band_flatness", format!("{text}, beyond the {allowed} dB allowed (the filter sections alone: {:.3} dB). A faster amplifier keeps the sections on their design values; a higher order moves the corner further from the band.", f.passband_error_db))
+                    Check::error("band_flatness", format!("{text}, beyond the {allowed} dB allowed (the filter sections alone: {:.3} dB). A faster amplifier keeps the sections on their design values; a higher order moves the corner further from the band.", f.passband_error_db))
                 } else {
                     Check::ok("band_flatness", format!("{text} (allowed {allowed} dB)."))
                 });

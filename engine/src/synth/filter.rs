@@ -193,7 +193,7 @@ pub fn design(req: &Request) -> Result<FilterDesign, NoFilter> {
     let mut fallback = None;
     for n in orders {
         let Some(proto) = prototype(spec.response, n) else { continue };
-        let (xp, ripple_over) = proto.pass_edge(spec.passband_error);
+        let (xp, ripple_over) = proto.pass_edge((spec.passband_error - spec.chain_droop_db).max(0.01));
         let lo = bh / xp;
         let hi = proto.stop_edge(required).map_or(0.0, |xs| fa / xs);
         if hi < lo * CORNER_MARGIN && n != last {
@@ -206,7 +206,7 @@ pub fn design(req: &Request) -> Result<FilterDesign, NoFilter> {
         for &t in positions {
             let corner = if hi > lo { lo * (hi / lo).powf(t) } else { lo };
             let Some(d) = build(req, &proto, corner, [lo, hi], fa, required, ripple_over, cfg) else { continue };
-            if d.rounded_db >= required && d.passband_error_db <= d.passband_allowed_db + 1e-9 {
+            if d.rounded_db >= required && d.passband_error_db <= d.passband_allowed_db - spec.chain_droop_db + 1e-9 {
                 return Ok(d);
             }
             first.get_or_insert(d);
