@@ -244,7 +244,7 @@ pub fn bands(req: &Request, c: &Circuit) -> Vec<LoopBand> {
 /// The converter code of output `v` (clamped to the converter's codes).
 pub fn code_of(req: &Request, v: f64) -> u64 {
     let d = &req.destination;
-    let levels = 2f64.powi(d.bits as i32);
+    let levels = d.levels();
     let x = ((v - d.min) / (d.max - d.min) * levels).floor();
     x.clamp(0.0, levels - 1.0) as u64
 }

@@ -303,7 +303,7 @@ impl DiffDesign {
         let t = req.parts.resistor_tolerance;
         let cm_span = src.common_mode_max.unwrap_or(0.0) - src.common_mode_min.unwrap_or(0.0);
         let d = &req.destination;
-        let lsb = (d.max - d.min) / 2f64.powi(d.bits as i32);
+        let lsb = d.lsb();
         let tol = format!("{} %", crate::units::format_sig(100.0 * t, Quantity::Ratio, 3));
         let rule = match self.first_gain {
             Some(g1) => {
