@@ -153,7 +153,7 @@ impl Stress {
         let extremes = match s.coupling {
             Coupling::Dc => [s.min, s.max].iter().filter_map(|&x| solver.dc(x).ok().map(|d| d.voltages)).collect(),
             Coupling::Ac => {
-                let f = (s.band_low * s.band_high).sqrt();
+                let f = s.band_centre();
                 let half = 0.5 * (s.max - s.min);
                 [-1.0, 1.0]
                     .iter()

@@ -124,7 +124,7 @@ pub fn ac_response(
         }
     }
     let at = |f: f64| solver.transfer(f, "adc").map(db).unwrap_or(f64::NAN);
-    let f_mid = if s.coupling == Coupling::Ac { (s.band_low * s.band_high).sqrt() } else { 0.0 };
+    let f_mid = s.mid_band();
     let in_band: Vec<f64> = out
         .iter()
         .filter(|p| p.f >= s.band_low && p.f <= s.band_high)

@@ -242,7 +242,7 @@ impl Model {
             let zero = vec![0.0; kernel.params().len()];
             let short = kernel.short_gain(&zero, &mut kernel.workspace());
             let short = short.ok_or("the mid-band gain could not be found")?;
-            let f_mid = (s.band_low * s.band_high).sqrt();
+            let f_mid = s.band_centre();
             let h = Solver::new(circuit).transfer(f_mid, "adc").map_err(|e| e.0)?;
             let full = if h.re >= 0.0 { h.norm() } else { -h.norm() };
             if short != 0.0 && (full / short).is_finite() {
