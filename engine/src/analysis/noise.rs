@@ -41,9 +41,10 @@
 use num_complex::Complex;
 use serde::Serialize;
 
+use crate::amplifier::GM;
 use crate::circuit::{Circuit, PartKind};
 use crate::request::{Coupling, Request};
-use crate::solve::{Solver, GM};
+use crate::solve::Solver;
 
 /// Boltzmann constant, J/K (exact by the 2019 SI definition).
 pub const BOLTZMANN: f64 = 1.380649e-23;

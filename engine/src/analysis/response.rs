@@ -68,8 +68,7 @@ pub fn dc_transfer(req: &Request, circuit: &Circuit, mid_gain: f64, points: usiz
     let span = s.max - s.min;
     let (x0, x1) = (s.min - 0.1 * span, s.max + 0.1 * span);
     let n = points.max(2);
-    let amp = &circuit.amplifier;
-    let (lo, hi) = (circuit.rail_neg + amp.swing_low, circuit.rail_pos - amp.swing_high);
+    let (lo, hi) = circuit.output_limits();
     let mid = 0.5 * (s.min + s.max);
     let op = solver.dc(mid).ok();
     let level = op.as_ref().and_then(|o| o.voltage("adc")).unwrap_or(0.0);

@@ -47,7 +47,6 @@ use serde::Serialize;
 
 use super::perturb::{Kernel, Param, ParamKind, Workspace};
 use super::AnalysisConfig;
-use crate::amplifier::Rails;
 use crate::circuit::Circuit;
 use crate::request::{Coupling, Request};
 use crate::solve::Solver;
@@ -234,8 +233,7 @@ impl Model {
     fn new(req: &Request, circuit: &Circuit) -> Result<Model, String> {
         let kernel = Kernel::compile(circuit, "adc").map_err(|e| e.0)?;
         let s = &req.source;
-        let rails = Rails { pos: circuit.rail_pos, neg: circuit.rail_neg };
-        let limits = kernel.output_is_amplifier().then(|| circuit.amplifier.output_limits(rails));
+        let limits = kernel.output_is_amplifier().then(|| circuit.output_limits());
         let ac = s.coupling == Coupling::Ac;
         let mut ac_scale = 1.0;
         if ac {
