@@ -192,9 +192,7 @@ impl Stress {
 fn tolerance_text(t: Option<f64>) -> (String, String) {
     match t {
         Some(t) => {
-            let pct = t * 100.0;
-            let text =
-                if (pct - pct.round()).abs() < 1e-9 { format!("±{} %", pct.round()) } else { format!("±{pct} %") };
+            let text = format!("±{}", crate::units::format_percent(t));
             (text, values::tolerance_letter(t).map(|c| c.to_string()).unwrap_or_default())
         }
         None => (String::new(), String::new()),

@@ -482,7 +482,7 @@ fn distributions(params: &[Param]) -> Vec<String> {
     let mut out = Vec::new();
     for (kind, bound, parts) in &groups {
         let list = parts.join(", ");
-        let pct = format!("{} %", format(bound * 100.0, Quantity::Ratio));
+        let pct = crate::units::format_percent(*bound);
         let fig = format(*bound, if *kind == ParamKind::Offset { Quantity::Voltage } else { Quantity::Current });
         let normal = format!("normal with {fig} as 3σ, truncated at ±{fig}");
         out.push(match kind {

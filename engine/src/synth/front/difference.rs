@@ -304,7 +304,7 @@ impl DiffDesign {
         let cm_span = src.common_mode_max.unwrap_or(0.0) - src.common_mode_min.unwrap_or(0.0);
         let d = &req.destination;
         let lsb = d.lsb();
-        let tol = format!("{} %", crate::units::format_sig(100.0 * t, Quantity::Ratio, 3));
+        let tol = crate::units::format_percent(t);
         let rule = match self.first_gain {
             Some(g1) => {
                 format!("G1·(1 + G2)/(4t), the difference stage's (1 + G2)/(4t) times the first stage's gain {g1:.3}")
