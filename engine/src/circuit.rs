@@ -18,7 +18,7 @@
 
 use serde::Serialize;
 
-use crate::amplifier::Amplifier;
+use crate::amplifier::{Amplifier, Rails};
 
 /// Ground node name.
 pub const GND: &str = "0";
@@ -178,6 +178,16 @@ impl Circuit {
     /// (current kinds). Analyses sweep it over `source.min … source.max`.
     pub fn sensor_source(&self) -> Option<&Part> {
         self.parts.iter().find(|p| is_sensor_source(p))
+    }
+
+    /// The rails the amplifiers run from.
+    pub fn rails(&self) -> Rails {
+        Rails { pos: self.rail_pos, neg: self.rail_neg }
+    }
+
+    /// Lowest and highest output the amplifiers reach on the circuit's rails.
+    pub fn output_limits(&self) -> (f64, f64) {
+        self.amplifier.output_limits(self.rails())
     }
 
     pub fn part(&self, reference: &str) -> Option<&Part> {

@@ -49,7 +49,7 @@ pub fn predict(req: &Request, c: &Circuit) -> Option<Predicted> {
         Coupling::Ac => {
             let mid = 0.5 * (s.min + s.max);
             let level = solver.dc(mid).ok()?.voltage("adc")?;
-            let f_mid = (s.band_low * s.band_high).sqrt();
+            let f_mid = s.band_centre();
             let h = solver.transfer(f_mid, "adc").ok()?;
             let gain = if h.re >= 0.0 { h.norm() } else { -h.norm() };
             let (band_low, band_high) = corners(&solver, h.norm(), Some(f_mid), f_mid);

@@ -81,7 +81,7 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
     // An oversampling converter's decimation filter removes what lies between the band and
     // the modulator's Nyquist frequency; only content above that folds back.
     let d = &req.destination;
-    let nyquist = 0.5 * if d.converter.samples() { d.sample_rate } else { d.modulator_rate.unwrap_or(d.sample_rate) };
+    let nyquist = 0.5 * d.input_rate();
     if let Some(fh) = nominal.f_high_3db {
         if fh > nyquist {
             c.push(Check::warning(

@@ -12,7 +12,7 @@
 use serde::Serialize;
 
 use crate::circuit::{Circuit, PartKind};
-use crate::request::{Coupling, Request};
+use crate::request::Request;
 use crate::solve::Solver;
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -33,10 +33,7 @@ pub struct LoadingAnalysis {
 
 /// Loading analysis of `circuit`.
 pub fn loading(req: &Request, circuit: &Circuit) -> LoadingAnalysis {
-    let f = match req.source.coupling {
-        Coupling::Dc => 0.0,
-        Coupling::Ac => (req.source.band_low * req.source.band_high).sqrt(),
-    };
+    let f = req.source.mid_band();
     let gain = |c: &Circuit| Solver::new(c).transfer(f, "adc").map(|h| h.norm()).unwrap_or(f64::NAN);
     let with = |changes: &[(&str, f64)]| {
         let mut c = circuit.clone();

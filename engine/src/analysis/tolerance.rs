@@ -47,7 +47,6 @@ use serde::Serialize;
 
 use super::perturb::{Kernel, Param, ParamKind, Workspace};
 use super::AnalysisConfig;
-use crate::amplifier::Rails;
 use crate::circuit::Circuit;
 use crate::request::{Coupling, Request};
 use crate::solve::Solver;
@@ -240,15 +239,14 @@ impl Model {
     fn new(req: &Request, circuit: &Circuit) -> Result<Model, String> {
         let kernel = Kernel::compile(circuit, "adc").map_err(|e| e.0)?;
         let s = &req.source;
-        let rails = Rails { pos: circuit.rail_pos, neg: circuit.rail_neg };
-        let limits = kernel.output_is_amplifier().then(|| circuit.amplifier.output_limits(rails));
+        let limits = kernel.output_is_amplifier().then(|| circuit.output_limits());
         let ac = s.coupling == Coupling::Ac;
         let mut ac_scale = 1.0;
         if ac {
             let zero = vec![0.0; kernel.params().len()];
             let short = kernel.short_gain(&zero, &mut kernel.workspace());
             let short = short.ok_or("the mid-band gain could not be found")?;
-            let f_mid = (s.band_low * s.band_high).sqrt();
+            let f_mid = s.band_centre();
             let h = Solver::new(circuit).transfer(f_mid, "adc").map_err(|e| e.0)?;
             let full = if h.re >= 0.0 { h.norm() } else { -h.norm() };
             if short != 0.0 && (full / short).is_finite() {
@@ -502,7 +500,7 @@ fn distributions(params: &[Param]) -> Vec<String> {
     let mut out = Vec::new();
     for (kind, bound, parts) in &groups {
         let list = parts.join(", ");
-        let pct = format!("{} %", format(bound * 100.0, Quantity::Ratio));
+        let pct = crate::units::format_percent(*bound);
         let fig = format(*bound, if *kind == ParamKind::Offset { Quantity::Voltage } else { Quantity::Current });
         let normal = format!("normal with {fig} as 3σ, truncated at ±{fig}");
         out.push(match kind {

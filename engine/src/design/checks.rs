@@ -83,7 +83,7 @@ pub(super) fn design_checks(
     // Below a nanovolt the error is rounding noise of the arithmetic, not of the parts.
     let rounding_error = if s.rounding_error < 1e-9 { 0.0 } else { s.rounding_error };
     let err_pct = rounding_error / span * 100.0;
-    let lsb = span / 2f64.powi(d.bits as i32);
+    let lsb = d.lsb();
     let msg = format!("After rounding to {} the mapping is off by at most {} ({:.3} % of the span, {:.1} LSB) from the ideal; the headroom absorbs it and a two-point calibration removes it.", req.parts.resistor_series.name(), v(rounding_error), err_pct, rounding_error / lsb);
     c.push(if err_pct <= 0.5 {
         Check::ok("rounding", msg)

@@ -157,7 +157,7 @@ pub fn test_points(req: &Request, circuit: &Circuit) -> Vec<TestPoint> {
         }
         Coupling::Ac => {
             let op = solver.dc(0.5 * (s.min + s.max)).ok();
-            let (f, half) = ((s.band_low * s.band_high).sqrt(), 0.5 * (s.max - s.min).abs());
+            let (f, half) = (s.band_centre(), 0.5 * (s.max - s.min).abs());
             nodes
                 .iter()
                 .map(|n| -> Option<(f64, f64)> {

@@ -148,6 +148,52 @@ pub struct Destination {
     pub injection_limit: f64,
 }
 
+impl Destination {
+    /// The rate the converter's input is sampled at: the sample rate for a sampling
+    /// converter, the modulator's rate for an oversampling one (the sample rate when it
+    /// is not given).
+    pub fn input_rate(&self) -> f64 {
+        if self.converter.samples() {
+            self.sample_rate
+        } else {
+            self.modulator_rate.unwrap_or(self.sample_rate)
+        }
+    }
+
+    /// The first frequency that folds onto a band reaching `band_high`: the input rate
+    /// minus `band_high`. `None` when it does not lie above the band (or the band is empty).
+    pub fn folding_frequency(&self, band_high: f64) -> Option<f64> {
+        let f = self.input_rate() - band_high;
+        (f.is_finite() && f > band_high && band_high > 0.0).then_some(f)
+    }
+
+    /// The number of codes, 2^bits.
+    pub fn levels(&self) -> f64 {
+        levels_of(self.bits)
+    }
+
+    /// One LSB of the converter's input span, V.
+    pub fn lsb(&self) -> f64 {
+        lsb_of(self.max - self.min, self.bits)
+    }
+}
+
+/// The number of codes of a `bits`-bit converter, 2^bits.
+pub fn levels_of(bits: u32) -> f64 {
+    2f64.powi(bits as i32)
+}
+
+/// One LSB of a converter with input span `span` (V) and `bits` bits: span / 2^bits.
+pub fn lsb_of(span: f64, bits: u32) -> f64 {
+    span / levels_of(bits)
+}
+
+/// Full dynamic range (the SNR for a full-scale sine) of an ideal `bits`-bit converter,
+/// 20·log10(2^N·√1.5) ≈ 6.02·N + 1.76 dB.
+pub fn full_range_db(bits: u32) -> f64 {
+    20.0 * (levels_of(bits) * 1.5f64.sqrt()).log10()
+}
+
 pub(super) fn read_destination(v: &Value) -> Result<Destination, RequestError> {
     let o = Obj::new("destination", v)?;
     let min = o.required_q("min", Quantity::Voltage)?;

@@ -20,6 +20,7 @@ mod json;
 mod parts;
 mod source;
 
+pub use destination::{full_range_db, levels_of, lsb_of};
 pub use destination::{
     ConverterKind, Destination, FilterSpec, FilterTopology, ResponseKind, DEFAULT_ACQUISITION_FRACTION, DEFAULT_BITS,
     DEFAULT_DESTINATION_IMPEDANCE, DEFAULT_HEADROOM, DEFAULT_INJECTION_LIMIT, DEFAULT_INPUT_CAPACITANCE,

@@ -126,6 +126,22 @@ pub struct Source {
     pub bridge: Option<BridgeSpec>,
 }
 
+impl Source {
+    /// The band's geometric centre, √(band_low·band_high), Hz (0 when `band_low` is 0).
+    pub fn band_centre(&self) -> f64 {
+        (self.band_low * self.band_high).sqrt()
+    }
+
+    /// Where the mid-band gain is read, Hz: the band's geometric centre for AC coupling,
+    /// DC (0 Hz) for DC coupling.
+    pub fn mid_band(&self) -> f64 {
+        match self.coupling {
+            Coupling::Ac => self.band_centre(),
+            Coupling::Dc => 0.0,
+        }
+    }
+}
+
 /// A resistive bridge (`source.kind = "bridge"`).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct BridgeSpec {

@@ -132,9 +132,7 @@ pub struct Shortfall {
 }
 
 /// Full dynamic range of an ideal N-bit converter, 20·log10(2^N·√1.5) dB (6.02·N + 1.76).
-pub fn full_range_db(bits: u32) -> f64 {
-    20.0 * (2f64.powi(bits as i32) * 1.5f64.sqrt()).log10()
-}
+pub use crate::request::full_range_db;
 
 /// Rejection required at the alias frequency: the full dynamic range reduced by how far
 /// below full scale (`level`, a fraction) the out-of-band content is.
@@ -146,10 +144,7 @@ pub fn required_rejection_db(bits: u32, level: f64) -> f64 {
 /// the modulator rate minus band_high for an oversampling one. `None` when it does not lie
 /// above the band.
 pub fn alias_frequency(req: &Request) -> Option<f64> {
-    let d = &req.destination;
-    let rate = if d.converter.samples() { d.sample_rate } else { d.modulator_rate.unwrap_or(d.sample_rate) };
-    let f = rate - req.source.band_high;
-    (f.is_finite() && f > req.source.band_high && req.source.band_high > 0.0).then_some(f)
+    req.destination.folding_frequency(req.source.band_high)
 }
 
 /// Why no filter was designed.

@@ -196,8 +196,8 @@ pub fn checks(req: &Request, l: &LoopDesign) -> Vec<Check> {
     c.push(Check::ok(
         "shunt_tolerance",
         format!(
-            "The shunt's ±{} % tolerance moves the gain by as much (it is in the Monte Carlo); a ±0.1 % shunt, or a two-point calibration in firmware, keeps that small.",
-            crate::units::format_sig(100.0 * req.parts.resistor_tolerance, Quantity::Ratio, 3)
+            "The shunt's ±{} tolerance moves the gain by as much (it is in the Monte Carlo); a ±0.1 % shunt, or a two-point calibration in firmware, keeps that small.",
+            crate::units::format_percent(req.parts.resistor_tolerance)
         ),
     ));
     let code = |label: &str| l.bands.iter().find(|b| b.label == label).map(|b| b.code);
@@ -244,7 +244,7 @@ pub fn bands(req: &Request, c: &Circuit) -> Vec<LoopBand> {
 /// The converter code of output `v` (clamped to the converter's codes).
 pub fn code_of(req: &Request, v: f64) -> u64 {
     let d = &req.destination;
-    let levels = 2f64.powi(d.bits as i32);
+    let levels = d.levels();
     let x = ((v - d.min) / (d.max - d.min) * levels).floor();
     x.clamp(0.0, levels - 1.0) as u64
 }

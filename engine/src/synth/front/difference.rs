@@ -303,8 +303,8 @@ impl DiffDesign {
         let t = req.parts.resistor_tolerance;
         let cm_span = src.common_mode_max.unwrap_or(0.0) - src.common_mode_min.unwrap_or(0.0);
         let d = &req.destination;
-        let lsb = (d.max - d.min) / 2f64.powi(d.bits as i32);
-        let tol = format!("{} %", crate::units::format_sig(100.0 * t, Quantity::Ratio, 3));
+        let lsb = d.lsb();
+        let tol = crate::units::format_percent(t);
         let rule = match self.first_gain {
             Some(g1) => {
                 format!("G1·(1 + G2)/(4t), the difference stage's (1 + G2)/(4t) times the first stage's gain {g1:.3}")

@@ -264,7 +264,7 @@ pub fn equations(req: &Request, b: &BufferDesign) -> Vec<String> {
 pub fn checks(req: &Request, b: &BufferDesign, amp: &Amplifier) -> Vec<Check> {
     let s = &req.source;
     let span = s.max - s.min;
-    let lsb = span / 2f64.powi(req.destination.bits as i32);
+    let lsb = crate::request::lsb_of(span, req.destination.bits);
     let v = |x: f64| format(x, Quantity::Voltage);
     let mut c = Vec::new();
     if !b.follows {
