@@ -322,11 +322,12 @@ fn request(json: &str) -> Request {
 #[test]
 fn facts_of_the_trade() {
     // ±0.25 V on a 0.8 V DC level, AC-coupled into a 0–5 V input centred on 2.5 V, needs a
-    // gain magnitude of 10 (common practice). Headroom 0 and an output that reaches the rails.
+    // gain magnitude of 10 (common practice). Headroom 0, an output that reaches the rails
+    // and a rail held exact.
     let req = request(
         r#"{"name": "fact", "source": {"min": 0.55, "max": 1.05, "coupling": "ac", "band_low": "100 Hz", "band_high": "5 kHz"},
             "destination": {"min": 0, "max": 5, "sample_rate": "50 kHz", "headroom": 0},
-            "supplies": [5], "amplifier": {"swing_low": 0, "swing_high": 0}}"#,
+            "supplies": [5], "supply_tolerance": 0, "amplifier": {"swing_low": 0, "swing_high": 0}}"#,
     );
     let d = design(&req);
     let p = d.predicted.expect("design");

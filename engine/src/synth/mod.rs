@@ -93,7 +93,13 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
     let span = d.max - d.min;
     let mut lo = d.min + d.headroom * span;
     let mut hi = d.max - d.headroom * span;
-    let (out_lo, out_hi) = amp.output_limits(rails);
+    // The swing on the rails at the low end of their tolerance (each rail nearer ground),
+    // so that no build of the supply clips the range.
+    let low = Rails {
+        pos: rails.pos * (1.0 - req.rail_tolerance(rails.pos)),
+        neg: rails.neg * (1.0 - req.rail_tolerance(rails.neg)),
+    };
+    let (out_lo, out_hi) = amp.output_limits(low);
     // Stay a margin inside the stated swing: the output stage stops being linear before it.
     let (out_lo, out_hi) = (out_lo + SWING_MARGIN, out_hi - SWING_MARGIN);
     let fmt = |v: f64| crate::units::format(v, crate::units::Quantity::Voltage);
@@ -104,7 +110,7 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
             checks.push(Check::error(
                 "range_beyond_rails",
                 format!(
-                    "The amplifier output reaches only {} … {} on these rails, which covers less than half of the wanted {} … {}; add a rail that reaches the converter range (e.g. a negative rail for a converter input below 0 V) or give amplifier swing figures.",
+                    "The amplifier output reaches only {} … {} on these rails at the low end of their tolerance, which covers less than half of the wanted {} … {}; add a rail that reaches the converter range (e.g. a negative rail for a converter input below 0 V) or give amplifier swing figures.",
                     fmt(out_lo), fmt(out_hi), fmt(lo), fmt(hi)
                 ),
             ));
@@ -113,7 +119,7 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
         checks.push(Check::warning(
             "swing_limits_range",
             format!(
-                "The amplifier output reaches only {} … {} on these rails, so the design uses {} … {} instead of {} … {}; a rail-to-rail output amplifier or a wider rail recovers the rest.",
+                "The amplifier output reaches only {} … {} on these rails at the low end of their tolerance (supply_tolerance), so the design uses {} … {} instead of {} … {}; a rail-to-rail output amplifier or a wider rail recovers the rest.",
                 fmt(out_lo), fmt(out_hi), fmt(new_lo), fmt(new_hi), fmt(lo), fmt(hi)
             ),
         ));
