@@ -27,7 +27,7 @@ use super::round::{anchors, optimise_all, pairs, RoundConfig};
 const PAIRS: usize = 4;
 use super::{Limits, Synthesis, Target};
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Builder, PartKind, Stage, StageRole};
+use crate::circuit::{Builder, PartKind, PartRole, Stage, StageKind, StageRole};
 use crate::request::Request;
 use crate::units::{format, Quantity};
 
@@ -543,18 +543,34 @@ fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synthesis {
     let mut gain_parts = Vec::new();
     let mut ref_parts = Vec::new();
     for (slot, r) in &c.net.slots {
-        let (a, b, stage, purpose) = match slot {
-            Slot::Plus(Pot::Sensor) => (inp, "sense", StageRole::Gain, "input resistor from the sensor"),
-            Slot::Plus(Pot::Gnd) => (inp, "0", StageRole::Gain, "lower leg of the + input divider"),
-            Slot::Plus(p) => (inp, node(*p), StageRole::Reference, "offset leg of the + input network, from the rail"),
-            Slot::Minus(Pot::Sensor) => {
-                (inn, "sense", StageRole::Gain, "input resistor (sets the gain with the feedback resistor)")
+        let (a, b, stage, role, purpose) = match slot {
+            Slot::Plus(Pot::Sensor) => {
+                (inp, "sense", StageRole::Gain, PartRole::PlusInput, "input resistor from the sensor")
             }
-            Slot::Minus(Pot::Gnd) => (inn, "0", StageRole::Gain, "gain-setting resistor to ground"),
-            Slot::Minus(p) => (inn, node(*p), StageRole::Reference, "offset leg into the − input"),
-            Slot::Feedback => ("adc", inn, StageRole::Gain, "feedback resistor"),
+            Slot::Plus(Pot::Gnd) => {
+                (inp, "0", StageRole::Gain, PartRole::GroundLeg, "lower leg of the + input divider")
+            }
+            Slot::Plus(p) => (
+                inp,
+                node(*p),
+                StageRole::Reference,
+                PartRole::OffsetLeg,
+                "offset leg of the + input network, from the rail",
+            ),
+            Slot::Minus(Pot::Sensor) => (
+                inn,
+                "sense",
+                StageRole::Gain,
+                PartRole::MinusInput,
+                "input resistor (sets the gain with the feedback resistor)",
+            ),
+            Slot::Minus(Pot::Gnd) => {
+                (inn, "0", StageRole::Gain, PartRole::GroundLeg, "gain-setting resistor to ground")
+            }
+            Slot::Minus(p) => (inn, node(*p), StageRole::Reference, PartRole::OffsetLeg, "offset leg into the − input"),
+            Slot::Feedback => ("adc", inn, StageRole::Gain, PartRole::FeedbackResistor, "feedback resistor"),
         };
-        let r_ref = bld.add(PartKind::Resistor, *r, tol, &[a, b], stage, purpose);
+        let r_ref = bld.add(PartKind::Resistor, *r, tol, &[a, b], (stage, role), purpose);
         if stage == StageRole::Reference {
             ref_parts.push(r_ref)
         } else {
@@ -567,7 +583,7 @@ fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synthesis {
         amp.gbw,
         None,
         &[inp, inn, "vpos", vneg, "adc"],
-        StageRole::Gain,
+        (StageRole::Gain, PartRole::Amplifier),
         "amplifier: gain, level shift and converter drive",
     );
     gain_parts.push(u);
@@ -586,9 +602,11 @@ fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synthesis {
     if rs > 0.0 {
         equations.push(format!("Sensor impedance {} included in the sensor leg", format(rs, Quantity::Resistance)));
     }
-    let mut stages = vec![Stage { role: StageRole::Gain, description: c.name.clone(), parts: gain_parts }];
+    let inverting = c.net.slots.iter().any(|(s, _)| *s == Slot::Minus(Pot::Sensor));
+    let gain = StageKind::Gain { inverting };
+    let mut stages = vec![Stage { role: StageRole::Gain, kind: gain, description: c.name.clone(), parts: gain_parts }];
     if !ref_parts.is_empty() {
-        stages.insert(0, Stage { role: StageRole::Reference, description: "offset legs from the rails, folded into the amplifier's input network (their impedance is part of the gain equations, so no buffer is needed)".to_string(), parts: ref_parts });
+        stages.insert(0, Stage { role: StageRole::Reference, kind: StageKind::Reference, description: "offset legs from the rails, folded into the amplifier's input network (their impedance is part of the gain equations, so no buffer is needed)".to_string(), parts: ref_parts });
     }
     Synthesis {
         circuit: super::finish(bld, stages, amp, ctx.rails),
