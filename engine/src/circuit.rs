@@ -198,6 +198,30 @@ impl Circuit {
         self.parts.iter().find(|p| p.reference == reference)
     }
 
+    /// The nodes where the sensor's bench model meets the circuit, from the bench's roles:
+    /// the single-ended terminal (behind the source resistance, or where a loop's current or
+    /// a photocurrent enters), then a pair's + and − terminals (behind each leg's impedance).
+    pub fn sensor_terminals(&self) -> Vec<String> {
+        let bench = |role: PartRole| self.parts.iter().find(|p| p.bench && p.role == Some(role));
+        let beyond = |p: &Part, source: Option<&Part>| {
+            p.nodes.iter().find(|n| source.is_none_or(|s| !s.nodes.contains(n))).cloned()
+        };
+        let single = match (bench(PartRole::SourceResistance), bench(PartRole::LoopCurrent)) {
+            (Some(r), _) => beyond(r, bench(PartRole::Emf)),
+            (None, Some(i)) => i.nodes.get(1).cloned(),
+            (None, None) => bench(PartRole::Photocurrent).and_then(|i| i.nodes.first().cloned()),
+        };
+        let pair = [Side::Plus, Side::Minus]
+            .map(|side| bench(PartRole::LegImpedance(side)).and_then(|r| beyond(r, bench(PartRole::DifferentialEmf))));
+        let mut out: Vec<String> = Vec::new();
+        for n in std::iter::once(single).chain(pair).flatten() {
+            if !out.contains(&n) {
+                out.push(n);
+            }
+        }
+        out
+    }
+
     /// The first part with role `role`.
     pub fn with_role(&self, role: PartRole) -> Option<&Part> {
         self.parts.iter().find(|p| p.role == Some(role))

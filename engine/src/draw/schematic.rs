@@ -116,7 +116,8 @@ pub struct TestPoint {
 }
 
 /// Test points the design wants, numbered in signal order: the sensor terminal (`sense`,
-/// or a differential pair's two terminals `sensep` and `sensen`); the outputs of an
+/// or a differential pair's two terminals `sensep` and `sensen`, as the bench's roles give
+/// them, [`Circuit::sensor_terminals`]); the outputs of an
 /// instrumentation amplifier's first stage (its input-stage amplifiers);
 /// for AC coupling the amplifier's + input after the coupling; the converter input (`adc`:
 /// the amplifier output, or the end of the filter and drive that follow it). DC coupling: the node voltages at the sensor's minimum and
@@ -128,7 +129,11 @@ pub fn test_points(req: &Request, circuit: &Circuit) -> Vec<TestPoint> {
     }
     let amp = circuit.parts.iter().find(|p| p.kind == PartKind::OpAmp && p.stage != StageRole::InputStage);
     let s = &req.source;
-    let mut want: Vec<String> = ["sense", "sensep", "sensen"].iter().map(|n| n.to_string()).collect();
+    let mut want = circuit.sensor_terminals();
+    if circuit.parts.iter().all(|p| p.role.is_none()) {
+        // FALLBACK for a circuit built by hand without roles: the bench's documented names.
+        want = ["sense", "sensep", "sensen"].iter().map(|n| n.to_string()).collect();
+    }
     let first =
         circuit.parts.iter().filter(|p| !p.bench && p.kind == PartKind::OpAmp && p.stage == StageRole::InputStage);
     want.extend(first.filter_map(|p| p.nodes.get(4).cloned()));

@@ -110,7 +110,7 @@ pub fn equivalent(req: &Request, l: &LoopDesign) -> Request {
 pub fn to_loop(circuit: &mut Circuit, req: &Request, l: &mut LoopDesign) {
     let emf_node =
         circuit.with_role(PartRole::Emf).and_then(|p| p.nodes.first().cloned()).unwrap_or_else(|| "emf".to_string());
-    circuit.parts.retain(|p| !(p.bench && (p.reference == "VSENSE" || p.reference == "RSENSE")));
+    circuit.parts.retain(|p| !(p.bench && matches!(p.role, Some(PartRole::Emf | PartRole::SourceResistance))));
     let mut bld = crate::circuit::Builder::resume(std::mem::take(&mut circuit.parts));
     let mid = 0.5 * (req.source.min + req.source.max);
     let shunt = bld.add(

@@ -201,14 +201,16 @@ pub fn equivalent(req: &Request, d: &InampDesign) -> Request {
 pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rails) {
     let s = &req.source;
     super::renumber_amplifiers(circuit, 2);
+    // The difference stage now reads the first stage's outputs instead of the pair's terminals.
+    let terminals = circuit.sensor_terminals();
     for p in circuit.parts.iter_mut() {
         if p.bench {
             continue;
         }
         for n in p.nodes.iter_mut() {
-            match n.as_str() {
-                "sensep" => *n = "oa".to_string(),
-                "sensen" => *n = "ob".to_string(),
+            match terminals.iter().position(|t| t == n) {
+                Some(0) => *n = "oa".to_string(),
+                Some(1) => *n = "ob".to_string(),
                 _ => {}
             }
         }
