@@ -6,10 +6,11 @@
 //!                         Rb                Rg
 //!                         ref ─ Rt/Rbt divider, Cb    Cg ─ ground
 //! ```
-//! The divider sets `ref` to the wanted output DC level; `Rb` carries no DC current, so the
-//! + input sits at that level; `Cg` makes the DC gain one, so the output sits there too,
-//! whatever the mid-band gain `G = 1 + Rf/Rg`. Mid-band, the sensor reaches the + input
-//! through `Rb / (R_sensor + Ra + Rb)`; `Ra` is added only when the swing must be attenuated.
+//! The divider sets `ref` to the wanted output DC level; `Rb` carries no DC current, so
+//! the + input sits at that level; `Cg` makes the DC gain one, so the output sits there
+//! too, whatever the mid-band gain `G = 1 + Rf/Rg`. Mid-band, the sensor reaches the +
+//! input through `Rb / (R_sensor + Ra + Rb)`; `Ra` is added only when the swing must be
+//! attenuated.
 //!
 //! Corner rule: each high-pass corner (C1 with the loop resistance, Cg with Rg, Cb with the
 //! divider's Thevenin resistance) is placed at or below `band_low / 10`; a single such

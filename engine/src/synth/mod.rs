@@ -6,13 +6,14 @@
 //! pulled inside what the amplifier's output can reach on the rails.
 //!
 //! Every DC case is met by one amplifier ([`dc`]): a non-inverting stage whose + input is a
-//! weighted average of the sensor, a rail and ground (m > 0, b ≥ 0, or b < 0 with a negative
-//! rail); a non-inverting stage whose feedback leg returns partly to the positive rail
-//! (m > 0, b < 0 on one supply); and, when polarity may flip, an inverting stage with its
-//! + input on a divider, or an inverting summer (m < 0). Because a reference divider is folded
-//! into the summing network, its own impedance is part of the gain equations and it never
-//! needs a buffer. AC coupling ([`ac`]) uses a coupling capacitor into a non-inverting stage
-//! biased from a bypassed divider at the output's DC level, with DC gain one.
+//! weighted average of the sensor, a rail and ground (m > 0, b ≥ 0, or b < 0 with a
+//! negative rail); a non-inverting stage whose feedback leg returns partly to the positive
+//! rail (m > 0, b < 0 on one supply); and, when polarity may flip, an inverting stage with
+//! its + input on a divider, or an inverting summer (m < 0). Because a reference divider is
+//! folded into the summing network, its own impedance is part of the gain equations and it
+//! never needs a buffer. AC coupling ([`ac`]) uses a coupling capacitor into a
+//! non-inverting stage biased from a bypassed divider at the output's DC level, with DC
+//! gain one.
 //!
 //! Values: every resistor is rounded to the requested series inside the resistor window by
 //! [`round`]: a sweep over the anchor resistor's series values, nearest rounding of the
@@ -121,7 +122,7 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
         hi = new_hi;
     }
     let x_span = s.max - s.min;
-    if !(x_span > 0.0) {
+    if x_span.is_nan() || x_span <= 0.0 {
         return None;
     }
     let m = (hi - lo) / x_span;

@@ -114,8 +114,8 @@ pub fn zero_trim(req: &Request, d: &BridgeDesign, g: f64) -> Option<crate::diag:
     let d_out = g * d.zero_offset;
     let room = req.destination.headroom * (req.destination.max - req.destination.min);
     let text = format!(
-        "The bridge's zero balance (±{} of its full-scale output) moves the output by up to ±{}",
-        format!("{} %", crate::units::format_sig(100.0 * b.zero_balance, Quantity::Ratio, 3)),
+        "The bridge's zero balance (±{} % of its full-scale output) moves the output by up to ±{}",
+        crate::units::format_sig(100.0 * b.zero_balance, Quantity::Ratio, 3),
         format(d_out, Quantity::Voltage)
     );
     Some(if d_out > room {

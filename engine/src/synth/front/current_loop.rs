@@ -195,8 +195,8 @@ pub fn checks(req: &Request, l: &LoopDesign) -> Vec<Check> {
     c.push(Check::ok(
         "shunt_tolerance",
         format!(
-            "The shunt's ±{} tolerance moves the gain by as much (it is in the Monte Carlo); a ±0.1 % shunt, or a two-point calibration in firmware, keeps that small.",
-            format!("{} %", crate::units::format_sig(100.0 * req.parts.resistor_tolerance, Quantity::Ratio, 3))
+            "The shunt's ±{} % tolerance moves the gain by as much (it is in the Monte Carlo); a ±0.1 % shunt, or a two-point calibration in firmware, keeps that small.",
+            crate::units::format_sig(100.0 * req.parts.resistor_tolerance, Quantity::Ratio, 3)
         ),
     ));
     let code = |label: &str| l.bands.iter().find(|b| b.label == label).map(|b| b.code);
