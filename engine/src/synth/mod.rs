@@ -30,7 +30,7 @@ pub mod round;
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Builder, Circuit, PartKind, Stage, StageRole};
+use crate::circuit::{Builder, Circuit, PartKind, PartRole, Stage, StageRole};
 use crate::diag::Check;
 use crate::request::{Coupling, Request};
 
@@ -127,7 +127,7 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
         hi = new_hi;
     }
     let x_span = s.max - s.min;
-    if !(x_span > 0.0) {
+    if x_span.is_nan() || x_span <= 0.0 {
         return None;
     }
     let m = (hi - lo) / x_span;
@@ -187,7 +187,7 @@ fn bench(bld: &mut Builder, req: &Request, rails: Rails) {
         PartKind::VoltageSource,
         0.5 * (s.min + s.max),
         &["emf", "0"],
-        StageRole::Sensor,
+        (StageRole::Sensor, PartRole::Emf),
         "sensor EMF (swept over the source range)",
     );
     // A zero source impedance is modelled as 1 mΩ so that the sensor terminal stays a node.
@@ -196,19 +196,20 @@ fn bench(bld: &mut Builder, req: &Request, rails: Rails) {
         PartKind::Resistor,
         s.impedance.max(1e-3),
         &["emf", "sense"],
-        StageRole::Sensor,
+        (StageRole::Sensor, PartRole::SourceResistance),
         "sensor output impedance",
     );
-    bld.bench("VPOS", PartKind::VoltageSource, rails.pos, &["vpos", "0"], StageRole::Supply, "positive rail");
+    let rail = (StageRole::Supply, PartRole::Rail);
+    bld.bench("VPOS", PartKind::VoltageSource, rails.pos, &["vpos", "0"], rail, "positive rail");
     if rails.is_dual() {
-        bld.bench("VNEG", PartKind::VoltageSource, rails.neg, &["vneg", "0"], StageRole::Supply, "negative rail");
+        bld.bench("VNEG", PartKind::VoltageSource, rails.neg, &["vneg", "0"], rail, "negative rail");
     }
     bld.bench(
         "RADC",
         PartKind::Resistor,
         req.destination.impedance,
         &["adc", "0"],
-        StageRole::Converter,
+        (StageRole::Converter, PartRole::ConverterLoad),
         "converter input impedance",
     );
 }

@@ -3,7 +3,7 @@
 
 use super::{Chain, Reference};
 use crate::amplifier::Rails;
-use crate::circuit::{Builder, PartKind, Stage, StageRole};
+use crate::circuit::{Builder, PartKind, PartRole, SectionPart, Stage, StageKind, StageRole};
 use crate::request::Request;
 use crate::synth::drive::{self, DriveDesign};
 use crate::synth::filter::{self, sections::SectionKind, FilterDesign};
@@ -44,7 +44,7 @@ impl Chain {
                     m.capacitor,
                     ctol,
                     &[&m.nodes[0], &m.nodes[1]],
-                    StageRole::Filter,
+                    (StageRole::Filter, m.role),
                     &what,
                 ));
             }
@@ -66,41 +66,39 @@ impl Chain {
                 let next = out.clone();
                 {
                     let (input, out, a, p, m) = (input.as_str(), out.as_str(), a.as_str(), p.as_str(), m.as_str());
-                    let mut add = |kind: PartKind, value: f64, tol: Option<f64>, nodes: &[&str], what: &str| {
-                        parts.push(bld.add(kind, value, tol, nodes, StageRole::Filter, &format!("{tag}: {what}")));
+                    let section = k as u32;
+                    let mut add = |part: SectionPart, kind: PartKind, value: f64, nodes: &[&str], what: &str| {
+                        let tol = match kind {
+                            PartKind::Resistor => rtol,
+                            PartKind::Capacitor => ctol,
+                            _ => None,
+                        };
+                        let at = (StageRole::Filter, PartRole::Section { section, part });
+                        parts.push(bld.add(kind, value, tol, nodes, at, &format!("{tag}: {what}")));
                     };
+                    use PartKind::{Capacitor as C, OpAmp as U, Resistor as R};
+                    use SectionPart::*;
                     match (r.kind, v.as_slice()) {
                         (SectionKind::FirstOrder, [rr, c, ..]) => {
-                            add(
-                                PartKind::Resistor,
-                                *rr,
-                                rtol,
-                                &[input, p],
-                                "resistor, sets the corner with the capacitor",
-                            );
-                            add(PartKind::Capacitor, *c, ctol, &[p, "0"], "capacitor to ground");
-                            add(PartKind::OpAmp, 0.0, None, &[p, out, "vpos", vneg, out], "follower");
+                            add(R1, R, *rr, &[input, p], "resistor, sets the corner with the capacitor");
+                            add(Cg, C, *c, &[p, "0"], "capacitor to ground");
+                            add(Amplifier, U, 0.0, &[p, out, "vpos", vneg, out], "follower");
                         }
                         (SectionKind::SallenKey, [r1, r2, cf, cg, ..]) => {
-                            add(PartKind::Resistor, *r1, rtol, &[input, a], "input resistor R1");
-                            add(PartKind::Resistor, *r2, rtol, &[a, p], "resistor R2 to the + input");
-                            add(PartKind::Capacitor, *cf, ctol, &[a, out], "feedback capacitor C_f");
-                            add(PartKind::Capacitor, *cg, ctol, &[p, "0"], "capacitor C_g to ground");
-                            add(PartKind::OpAmp, 0.0, None, &[p, out, "vpos", vneg, out], "unity-gain amplifier");
+                            add(R1, R, *r1, &[input, a], "input resistor R1");
+                            add(R2, R, *r2, &[a, p], "resistor R2 to the + input");
+                            add(Cf, C, *cf, &[a, out], "feedback capacitor C_f");
+                            add(Cg, C, *cg, &[p, "0"], "capacitor C_g to ground");
+                            add(Amplifier, U, 0.0, &[p, out, "vpos", vneg, out], "unity-gain amplifier");
                         }
                         (SectionKind::MultipleFeedback, [rr, r3, cg, cf, ..]) => {
-                            add(PartKind::Resistor, *rr, rtol, &[input, a], "input resistor R1 (equal to R2: gain −1)");
-                            add(PartKind::Resistor, *rr, rtol, &[a, out], "feedback resistor R2");
-                            add(PartKind::Resistor, *r3, rtol, &[a, m], "resistor R3 to the − input");
-                            add(PartKind::Capacitor, *cg, ctol, &[a, "0"], "capacitor C_g to ground");
-                            add(PartKind::Capacitor, *cf, ctol, &[out, m], "feedback capacitor C_f");
-                            add(
-                                PartKind::OpAmp,
-                                0.0,
-                                None,
-                                &[fref, m, "vpos", vneg, out],
-                                "inverting amplifier around the reference",
-                            );
+                            add(R1, R, *rr, &[input, a], "input resistor R1 (equal to R2: gain −1)");
+                            add(R2, R, *rr, &[a, out], "feedback resistor R2");
+                            add(R3, R, *r3, &[a, m], "resistor R3 to the − input");
+                            add(Cg, C, *cg, &[a, "0"], "capacitor C_g to ground");
+                            add(Cf, C, *cf, &[out, m], "feedback capacitor C_f");
+                            let amp = [fref, m, "vpos", vneg, out];
+                            add(Amplifier, U, 0.0, &amp, "inverting amplifier around the reference");
                         }
                         _ => {}
                     }
@@ -119,6 +117,7 @@ impl Chain {
                 .collect();
             s.circuit.stages.push(Stage {
                 role: StageRole::Filter,
+                kind: StageKind::Filter,
                 description: format!(
                     "{} low-pass of order {}, corner {}: {} (highest Q last)",
                     f.response.name(),
@@ -136,7 +135,7 @@ impl Chain {
                         top,
                         rtol,
                         &[node, "fref"],
-                        StageRole::Reference,
+                        (StageRole::Reference, PartRole::DividerTop),
                         "filter reference divider, upper leg",
                     ),
                     bld.add(
@@ -144,7 +143,7 @@ impl Chain {
                         bottom,
                         rtol,
                         &["fref", "0"],
-                        StageRole::Reference,
+                        (StageRole::Reference, PartRole::DividerBottom),
                         "filter reference divider, lower leg",
                     ),
                     bld.add(
@@ -152,12 +151,13 @@ impl Chain {
                         c,
                         ctol,
                         &["fref", "0"],
-                        StageRole::Reference,
+                        (StageRole::Reference, PartRole::Bypass),
                         "filter reference bypass",
                     ),
                 ];
                 s.circuit.stages.push(Stage {
                     role: StageRole::Reference,
+                    kind: StageKind::Reference,
                     description: format!(
                         "reference at {} for the inverting filter sections",
                         format(vref, Quantity::Voltage)
@@ -173,7 +173,7 @@ impl Chain {
                 d.resistor,
                 rtol,
                 &[&input, "adc"],
-                StageRole::Drive,
+                (StageRole::Drive, PartRole::DriveResistor),
                 "drive resistor: isolates the amplifier from the pin's capacitance and limits fault current",
             )];
             if let Some(c) = d.capacitor {
@@ -182,7 +182,7 @@ impl Chain {
                     c,
                     ctol,
                     &["adc", "0"],
-                    StageRole::Drive,
+                    (StageRole::Drive, PartRole::ChargeBucket),
                     "charge bucket: supplies the converter's sampling capacitor",
                 ));
             }
@@ -192,7 +192,7 @@ impl Chain {
                     drive::CLAMP_DROP,
                     None,
                     &["0", "adc"],
-                    StageRole::Drive,
+                    (StageRole::Drive, PartRole::Clamp),
                     "Schottky clamp: takes fault current below ground",
                 ));
             }
@@ -201,7 +201,8 @@ impl Chain {
             } else {
                 "series resistor at the converter pin: limits fault current"
             };
-            s.circuit.stages.push(Stage { role: StageRole::Drive, description: what.to_string(), parts });
+            let kind = StageKind::ConverterDrive;
+            s.circuit.stages.push(Stage { role: StageRole::Drive, kind, description: what.to_string(), parts });
             s.equations.extend(drive_equations(req, d));
         }
         // Every amplifier of the chain is the same part: its GBW is the value of each.

@@ -3,7 +3,7 @@
 
 use super::{Candidate, Ctx, Pot, Slot};
 use crate::amplifier::Amplifier;
-use crate::circuit::{Builder, PartKind, Stage, StageRole};
+use crate::circuit::{Builder, PartKind, PartRole, Stage, StageKind, StageRole};
 use crate::synth::{Synthesis, Target};
 use crate::units::{format, Quantity};
 
@@ -32,18 +32,34 @@ pub(super) fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synt
     let mut gain_parts = Vec::new();
     let mut ref_parts = Vec::new();
     for (slot, r) in &c.net.slots {
-        let (a, b, stage, purpose) = match slot {
-            Slot::Plus(Pot::Sensor) => (inp, "sense", StageRole::Gain, "input resistor from the sensor"),
-            Slot::Plus(Pot::Gnd) => (inp, "0", StageRole::Gain, "lower leg of the + input divider"),
-            Slot::Plus(p) => (inp, node(*p), StageRole::Reference, "offset leg of the + input network, from the rail"),
-            Slot::Minus(Pot::Sensor) => {
-                (inn, "sense", StageRole::Gain, "input resistor (sets the gain with the feedback resistor)")
+        let (a, b, stage, role, purpose) = match slot {
+            Slot::Plus(Pot::Sensor) => {
+                (inp, "sense", StageRole::Gain, PartRole::PlusInput, "input resistor from the sensor")
             }
-            Slot::Minus(Pot::Gnd) => (inn, "0", StageRole::Gain, "gain-setting resistor to ground"),
-            Slot::Minus(p) => (inn, node(*p), StageRole::Reference, "offset leg into the − input"),
-            Slot::Feedback => ("adc", inn, StageRole::Gain, "feedback resistor"),
+            Slot::Plus(Pot::Gnd) => {
+                (inp, "0", StageRole::Gain, PartRole::GroundLeg, "lower leg of the + input divider")
+            }
+            Slot::Plus(p) => (
+                inp,
+                node(*p),
+                StageRole::Reference,
+                PartRole::OffsetLeg,
+                "offset leg of the + input network, from the rail",
+            ),
+            Slot::Minus(Pot::Sensor) => (
+                inn,
+                "sense",
+                StageRole::Gain,
+                PartRole::MinusInput,
+                "input resistor (sets the gain with the feedback resistor)",
+            ),
+            Slot::Minus(Pot::Gnd) => {
+                (inn, "0", StageRole::Gain, PartRole::GroundLeg, "gain-setting resistor to ground")
+            }
+            Slot::Minus(p) => (inn, node(*p), StageRole::Reference, PartRole::OffsetLeg, "offset leg into the − input"),
+            Slot::Feedback => ("adc", inn, StageRole::Gain, PartRole::FeedbackResistor, "feedback resistor"),
         };
-        let r_ref = bld.add(PartKind::Resistor, *r, tol, &[a, b], stage, purpose);
+        let r_ref = bld.add(PartKind::Resistor, *r, tol, &[a, b], (stage, role), purpose);
         if stage == StageRole::Reference {
             ref_parts.push(r_ref)
         } else {
@@ -56,7 +72,7 @@ pub(super) fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synt
         amp.gbw,
         None,
         &[inp, inn, "vpos", vneg, "adc"],
-        StageRole::Gain,
+        (StageRole::Gain, PartRole::Amplifier),
         "amplifier: gain, level shift and converter drive",
     );
     gain_parts.push(u);
@@ -75,9 +91,11 @@ pub(super) fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synt
     if rs > 0.0 {
         equations.push(format!("Sensor impedance {} included in the sensor leg", format(rs, Quantity::Resistance)));
     }
-    let mut stages = vec![Stage { role: StageRole::Gain, description: c.name.clone(), parts: gain_parts }];
+    let inverting = c.net.slots.iter().any(|(s, _)| *s == Slot::Minus(Pot::Sensor));
+    let gain = StageKind::Gain { inverting };
+    let mut stages = vec![Stage { role: StageRole::Gain, kind: gain, description: c.name.clone(), parts: gain_parts }];
     if !ref_parts.is_empty() {
-        stages.insert(0, Stage { role: StageRole::Reference, description: "offset legs from the rails, folded into the amplifier's input network (their impedance is part of the gain equations, so no buffer is needed)".to_string(), parts: ref_parts });
+        stages.insert(0, Stage { role: StageRole::Reference, kind: StageKind::Reference, description: "offset legs from the rails, folded into the amplifier's input network (their impedance is part of the gain equations, so no buffer is needed)".to_string(), parts: ref_parts });
     }
     Synthesis {
         circuit: crate::synth::finish(bld, stages, amp, ctx.rails),

@@ -21,7 +21,7 @@
 
 use serde::Serialize;
 
-use crate::circuit::{Circuit, PartKind, Stage, StageRole, GND};
+use crate::circuit::{Circuit, PartKind, PartRole, Stage, StageKind, StageRole, GND};
 use crate::diag::Check;
 use crate::figures::{Block, Table};
 use crate::request::{Request, SourceKind};
@@ -108,11 +108,9 @@ pub fn equivalent(req: &Request, l: &LoopDesign) -> Request {
 /// give way to the loop current `ISENSE` into `sense` and the shunt from `sense` to ground.
 /// Records the shunt's designator in `l`.
 pub fn to_loop(circuit: &mut Circuit, req: &Request, l: &mut LoopDesign) {
-    let emf_node = circuit
-        .part("RSENSE")
-        .and_then(|p| p.nodes.iter().find(|n| *n != "sense").cloned())
-        .unwrap_or_else(|| "emf".to_string());
-    circuit.parts.retain(|p| !(p.bench && (p.reference == "VSENSE" || p.reference == "RSENSE")));
+    let emf_node =
+        circuit.with_role(PartRole::Emf).and_then(|p| p.nodes.first().cloned()).unwrap_or_else(|| "emf".to_string());
+    circuit.parts.retain(|p| !(p.bench && matches!(p.role, Some(PartRole::Emf | PartRole::SourceResistance))));
     let mut bld = crate::circuit::Builder::resume(std::mem::take(&mut circuit.parts));
     let mid = 0.5 * (req.source.min + req.source.max);
     let shunt = bld.add(
@@ -120,7 +118,7 @@ pub fn to_loop(circuit: &mut Circuit, req: &Request, l: &mut LoopDesign) {
         l.shunt,
         Some(req.parts.resistor_tolerance),
         &["sense", GND],
-        StageRole::Shunt,
+        (StageRole::Shunt, PartRole::Shunt),
         "shunt: turns the loop current into the voltage the amplifier measures",
     );
     bld.bench(
@@ -128,7 +126,7 @@ pub fn to_loop(circuit: &mut Circuit, req: &Request, l: &mut LoopDesign) {
         PartKind::CurrentSource,
         mid,
         &[GND, "sense"],
-        StageRole::Sensor,
+        (StageRole::Sensor, PartRole::LoopCurrent),
         "loop current (swept over the source range)",
     );
     circuit.parts = bld.parts;
@@ -142,6 +140,7 @@ pub fn to_loop(circuit: &mut Circuit, req: &Request, l: &mut LoopDesign) {
         0,
         Stage {
             role: StageRole::Shunt,
+            kind: StageKind::LoopShunt,
             description: format!("shunt {} for the loop current", format(l.shunt, Quantity::Resistance)),
             parts: vec![shunt.clone()],
         },
