@@ -2,7 +2,8 @@
 //!
 //! The pipeline reads top-down in the module tree:
 //! [`units`] → [`figures`] → [`values`] → [`diag`] → [`request`] → [`amplifier`] → [`synth`] → [`circuit`] →
-//! [`solve`] → [`predict`] → [`analysis`] → [`design`] (checks and the design result) → [`netlist`], [`bom`], [`scaling`], [`share`], [`draw`], [`report`] (exports) →
+//! [`solve`] → [`predict`] → [`analysis`] → [`design`] (checks and the design result) → [`netlist`],
+//! [`bom`], [`scaling`], [`share`], [`draw`], [`report`] (exports) →
 //! [`cli`] (the `rangefit` command). [`order`] is a shared stable sort the others use.
 //!
 //! The engine knows nothing of browsers, the DOM or storage; it builds for the host and

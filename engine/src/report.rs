@@ -39,9 +39,16 @@ pub fn report_with(d: &Design, cfg: &ReportConfig) -> String {
     let mut h = String::with_capacity(64 * 1024);
     let title = escape(&d.name);
     h.push_str(&format!(
-        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><meta name=\"viewport\" content=\"width=device-width, initial-scale=1\"><title>{title} — Rangefit design report</title><style>{CSS}</style></head><body>\n"
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><meta name=\"viewport\" \
+            content=\"width=device-width, initial-scale=1\"><title>{title} — Rangefit design \
+            report</title><style>{CSS}</style></head><body>\n"
     ));
-    h.push_str(&format!("<header><h1>{title}</h1><p class=\"sub\">Interface design report · rangefit-engine {} · request version {}</p>", env!("CARGO_PKG_VERSION"), d.request.version));
+    h.push_str(&format!(
+        "<header><h1>{title}</h1><p class=\"sub\">Interface design report · rangefit-engine {} · \
+        request version {}</p>",
+        env!("CARGO_PKG_VERSION"),
+        d.request.version
+    ));
     if !d.request.notes.is_empty() {
         h.push_str(&format!("<p class=\"notes\">{}</p>", escape(&d.request.notes)));
     }
@@ -68,18 +75,23 @@ pub fn report_with(d: &Design, cfg: &ReportConfig) -> String {
 }
 
 const CSS: &str = "
-body{font:14px/1.45 system-ui,-apple-system,'Segoe UI',sans-serif;color:#1b1f24;max-width:1100px;margin:24px auto;padding:0 16px}
-h1{font-size:24px;margin:0}h3{font-size:14px;margin:14px 0 4px}h2{font-size:17px;border-bottom:2px solid #1f6f5c;padding-bottom:3px;margin:26px 0 10px}
+body{font:14px/1.45 system-ui,-apple-system,'Segoe UI',sans-serif;color:#1b1f24;\
+max-width:1100px;margin:24px auto;padding:0 16px}
+h1{font-size:24px;margin:0}h3{font-size:14px;margin:14px 0 4px}\
+h2{font-size:17px;border-bottom:2px solid #1f6f5c;padding-bottom:3px;margin:26px 0 10px}
 .sub{color:#555;margin:2px 0}.notes{font-style:italic}
-table{border-collapse:collapse;width:100%;font-size:13px}th,td{border-bottom:1px solid #ddd;padding:4px 6px;text-align:left;vertical-align:top}
+table{border-collapse:collapse;width:100%;font-size:13px}\
+th,td{border-bottom:1px solid #ddd;padding:4px 6px;text-align:left;vertical-align:top}
 th{background:#f2f4f3}td.num{text-align:right;font-variant-numeric:tabular-nums}
 .sev{font-weight:600;text-transform:uppercase;font-size:11px;padding:1px 5px;border-radius:3px}
-.sev-error{background:#b3261e;color:#fff}.sev-warning{background:#f3c969;color:#3b2a00}.sev-ok{background:#d6eee2;color:#0d4a36}
+.sev-error{background:#b3261e;color:#fff}.sev-warning{background:#f3c969;color:#3b2a00}\
+.sev-ok{background:#d6eee2;color:#0d4a36}
 figure{margin:8px 0}figure svg{max-width:100%;height:auto}
 .grid{display:grid;grid-template-columns:1fr 1fr;gap:8px}
 .kv td:first-child{width:38%;color:#444}
 code{font-family:ui-monospace,monospace}
-@media print{body{margin:0;max-width:none;font-size:11px}h2{break-after:avoid}figure,table,tr{break-inside:avoid}.grid{grid-template-columns:1fr 1fr}@page{size:A4;margin:14mm}}
+@media print{body{margin:0;max-width:none;font-size:11px}h2{break-after:avoid}\
+figure,table,tr{break-inside:avoid}.grid{grid-template-columns:1fr 1fr}@page{size:A4;margin:14mm}}
 @media (max-width:800px){.grid{grid-template-columns:1fr}}
 ";
 
@@ -312,7 +324,8 @@ fn parts(h: &mut String, rows: &[BomRow]) {
         .iter()
         .map(|r| {
             format!(
-                "<tr><td>{}</td><td class=\"num\">{}</td><td>{}</td><td>{}</td><td>{} {}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+                "<tr><td>{}</td><td class=\"num\">{}</td><td>{}</td><td>{}</td><td>{} \
+                    {}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
                 escape(&r.designators.join(", ")),
                 r.quantity,
                 escape(&r.kind),
@@ -325,7 +338,14 @@ fn parts(h: &mut String, rows: &[BomRow]) {
             )
         })
         .collect();
-    section(h, "Part list", &format!("<table><tr><th>Designators</th><th>Qty</th><th>Kind</th><th>Value</th><th>Tolerance</th><th>Rating</th><th>Construction</th><th>Notes</th></tr>{body}</table>"));
+    section(
+        h,
+        "Part list",
+        &format!(
+            "<table><tr><th>Designators</th><th>Qty</th><th>Kind</th><th>Value</th><th>Tolerance</th><th>Rating</th>\
+             <th>Construction</th><th>Notes</th></tr>{body}</table>"
+        ),
+    );
 }
 
 fn equations(h: &mut String, d: &Design) {

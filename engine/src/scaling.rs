@@ -114,10 +114,16 @@ pub fn scaling(req: &Request, p: &Predicted, analysis: Option<&Analysis>) -> Opt
     };
     let mut notes = vec![
         "Codes assume an ideal straight-binary converter: code c stands for destination.min + c·LSB.".to_string(),
-        "A two-point calibration (two known inputs, fit c0 and k) removes the chain's gain and offset errors; noise, drift with temperature and time, and the converter's nonlinearity remain.".to_string(),
+        "A two-point calibration (two known inputs, fit c0 and k) removes the chain's gain and offset errors; noise, \
+            drift with temperature and time, and the converter's nonlinearity remain."
+            .to_string(),
     ];
     if s.coupling == Coupling::Ac {
-        notes.push("AC coupling: the sensor's DC level is blocked; c0 maps the rest code to the middle of the sensor's range, and only excursions from it are measured.".to_string());
+        notes.push(
+            "AC coupling: the sensor's DC level is blocked; c0 maps the rest code to the middle of the sensor's \
+            range, and only excursions from it are measured."
+                .to_string(),
+        );
     }
     Some(Scaling {
         bits,
@@ -136,7 +142,9 @@ pub fn c_header(req: &Request, sc: &Scaling) -> String {
     let guard = "RANGEFIT_SCALING_H";
     let name = comment_safe(&req.name);
     let mut out = format!(
-        "/* Converter code to sensor quantity: value = (code - C0) * K.\n * Design: {name}\n * Produced by rangefit-engine {} from a version-{} request.\n * Calibrate by measuring two known inputs and replacing C0 and K. */\n#ifndef {guard}\n#define {guard}\n\n",
+        "/* Converter code to sensor quantity: value = (code - C0) * K.\n * Design: {name}\n * Produced by \
+            rangefit-engine {} from a version-{} request.\n * Calibrate by measuring two known inputs and replacing \
+            C0 and K. */\n#ifndef {guard}\n#define {guard}\n\n",
         env!("CARGO_PKG_VERSION"),
         req.version
     );

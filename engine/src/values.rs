@@ -186,7 +186,8 @@ pub struct DividerChoice {
 }
 
 /// Best pair for a divider ratio k = bottom/(top+bottom), 0<k<1, both values from the series inside the window;
-/// when `thevenin` is Some(r), among pairs whose ratio error is within 1.5× the best achievable error, prefer the one whose top‖bottom is closest to r on a log scale.
+/// when `thevenin` is Some(r), among pairs whose ratio error is within 1.5× the best achievable
+/// error, prefer the one whose top‖bottom is closest to r on a log scale.
 ///
 /// Without a Thevenin preference, pairs with equal error (within 1e-12) are separated by
 /// preferring the one whose geometric mean lies nearest the middle of the window on a

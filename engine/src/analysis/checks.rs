@@ -22,7 +22,12 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
     if let (Some(first), Some(last)) = (a.dc.clipped_in_range.first(), a.dc.clipped_in_range.last()) {
         c.push(Check::error(
             "clipping",
-            format!("The output sits at the amplifier's swing limit for sensor values {} … {} inside the sensor's range; widen the rails, choose a rail-to-rail output amplifier or give more headroom.", format(*first, req.source.kind.quantity()), format(*last, req.source.kind.quantity())),
+            format!(
+                "The output sits at the amplifier's swing limit for sensor values {} … {} inside the sensor's \
+                range; widen the rails, choose a rail-to-rail output amplifier or give more headroom.",
+                format(*first, req.source.kind.quantity()),
+                format(*last, req.source.kind.quantity())
+            ),
         ));
     } else {
         c.push(Check::ok(
@@ -38,10 +43,12 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
     let mc = &a.tolerance.monte_carlo;
     let pct = |x: f64| format!("{:.2} %", 100.0 * x);
     let msg = format!(
-        "{} of {} simulated builds (parts within tolerance, amplifier offset and bias currents spread) keep the output inside the converter range with the amplifier inside its swing; {} also keep the full {:.1} % headroom.{}",
+        "{} of {} simulated builds (parts within tolerance, amplifier offset and bias currents spread) keep the output \
+            inside the converter range with the amplifier inside its swing; {} also keep the full {:.1} % headroom.{}",
         pct(mc.yield_), mc.runs, pct(mc.yield_headroom), req.destination.headroom * 100.0,
         if mc.clipped > 0 {
-            format!(" {} builds ({}) reach the amplifier's swing limit and count as failures.", mc.clipped, pct(mc.clipped as f64 / mc.runs.max(1) as f64))
+            let share = pct(mc.clipped as f64 / mc.runs.max(1) as f64);
+            format!(" {} builds ({share}) reach the amplifier's swing limit and count as failures.", mc.clipped)
         } else {
             String::new()
         }
@@ -63,8 +70,10 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
         .first()
         .map(|t| format!(" The largest contributor is {} ({}).", t.part, v(t.output_rms)))
         .unwrap_or_default();
-    let noise_msg = format!(
-        "Added noise is {} rms at the converter over {} … {} ({:.2} LSB; quantisation alone is {}); the chain reaches {:.1} dB SNR, {:.2} effective bits, for a full-scale sine.{}",
+    let noise_msg =
+        format!(
+        "Added noise is {} rms at the converter over {} … {} ({:.2} LSB; quantisation alone is {}); the chain reaches \
+            {:.1} dB SNR, {:.2} effective bits, for a full-scale sine.{}",
         v(n.output_rms), hz(n.band[0]), hz(n.band[1]), n.lsb_ratio, v(n.quantization_rms), n.snr_db, n.enob, top
     );
     c.push(if n.lsb_ratio > 1.0 {
@@ -86,14 +95,22 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
         if fh > nyquist {
             c.push(Check::warning(
                 "aliasing",
-                format!("The response reaches {} before it falls 3 dB, above the converter's Nyquist frequency {}; noise and interference between them fold back into the band (the alias_rejection check says how much rejection the converter needs there and what the design gives).", hz(fh), hz(nyquist)),
+                format!(
+                    "The response reaches {} before it falls 3 dB, above the converter's Nyquist frequency {}; \
+                    noise and interference between them fold back into the band (the alias_rejection check says how \
+                    much rejection the converter needs there and what the design gives).",
+                    hz(fh),
+                    hz(nyquist)
+                ),
             ));
         }
     }
 
     let l = &a.loading;
-    let loading_msg = format!(
-        "The sensor sees {}; its own impedance changes the gain by {:.3} % and the converter's input by {:.3} % (both already in the design equations).",
+    let loading_msg =
+        format!(
+        "The sensor sees {}; its own impedance changes the gain by {:.3} % and the converter's input by {:.3} % (both \
+            already in the design equations).",
         format(l.input_impedance, Quantity::Resistance), 100.0 * l.sensor_gain_error, 100.0 * l.converter_gain_error
     );
     if req.source.kind == crate::request::SourceKind::CurrentLoop {
@@ -102,14 +119,23 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
         c.push(Check::ok(
             "loading",
             format!(
-                "The loop sees {} at the measuring input (the shunt in parallel with the amplifier's network, whose share of the loop current is in the design equations); the converter's input changes the gain by {:.3} %.",
-                format(l.input_impedance, Quantity::Resistance), 100.0 * l.converter_gain_error
+                "The loop sees {} at the measuring input (the shunt in parallel with the amplifier's network, whose \
+                    share of the loop current is in the design equations); the converter's input changes the gain by \
+                    {:.3} %.",
+                format(l.input_impedance, Quantity::Resistance),
+                100.0 * l.converter_gain_error
             ),
         ));
         return c;
     }
     c.push(if l.sensor_gain_error.abs() > LOADING_LIMIT {
-        Check::warning("loading", format!("{loading_msg} Any change of the sensor's impedance moves the gain in proportion; a buffer or higher input resistance makes it negligible."))
+        Check::warning(
+            "loading",
+            format!(
+                "{loading_msg} Any change of the sensor's impedance moves the gain in \
+            proportion; a buffer or higher input resistance makes it negligible."
+            ),
+        )
     } else {
         Check::ok("loading", loading_msg)
     });

@@ -46,11 +46,9 @@
 //! until none improves it. Where an output reaches an amplifier limit the gain and offset
 //! bounds follow from the limited outputs by interval arithmetic.
 
+mod builds;
 mod summary;
 
-use rand::{Rng, RngCore, SeedableRng};
-use rand_chacha::ChaCha8Rng;
-use rand_distr::StandardNormal;
 use serde::Serialize;
 
 use super::perturb::{Kernel, Param, ParamKind, Workspace};
@@ -204,11 +202,12 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
         })
         .collect();
     let mut mc_ws = mc.kernel.workspace();
-    let (builds, clips, counts) = draw_builds(mc, &mut mc_ws, req, cfg, &mc_drawn);
+    let (builds, clips, counts) = builds::draw_builds(mc, &mut mc_ws, req, cfg, &mc_drawn);
     let mut notes = distributions(model.kernel.params());
     for r in &model.rails {
         notes.push(format!(
-            "Rail {} ({}): uniform over ±{} (request field supply_tolerance); the swing limit on its side moves with it.",
+            "Rail {} ({}): uniform over ±{} (request field supply_tolerance); the swing limit on its side moves with \
+                it.",
             r.reference,
             format(r.volts, Quantity::Voltage),
             crate::units::format_percent(r.tolerance)
@@ -419,7 +418,13 @@ impl WorstCase {
     }
 }
 
-const METHOD: &str = "Extreme values over the tolerance box (each part at ±its tolerance, each amplifier's offset and bias currents at ±their figures, each rail at ±its tolerance). For each quantity the sign of every parameter's effect, from a central difference across its full range, picks the vertex that pushes the quantity up and the one that pushes it down; single-parameter flips are then tried at each until none improves it. This suffices because every node voltage is a ratio of two functions that are linear in each part's conductance, the offset and each bias current taken separately, so each quantity is monotone in each parameter across a box of a few per cent and its extremes lie at vertices.";
+const METHOD: &str = "Extreme values over the tolerance box (each part at ±its tolerance, each amplifier's offset and \
+    bias currents at ±their figures, each rail at ±its tolerance). For each quantity the sign of every parameter's \
+    effect, from a central difference across its full range, picks the vertex that pushes the quantity up and the one \
+    that pushes it down; single-parameter flips are then tried at each until none improves it. This suffices because \
+    every node voltage is a ratio of two functions that are linear in each part's conductance, the offset and each \
+    bias current taken separately, so each quantity is monotone in each parameter across a box of a few per cent and \
+    its extremes lie at vertices.";
 
 /// Parameters whose effect across their full range on every quantity stays below this
 /// fraction of the converter span (gain: of itself) are held nominal in the Monte Carlo:
@@ -510,89 +515,13 @@ fn worst_case(model: &Model, ws: &mut Workspace) -> (WorstCase, Vec<[f64; 4]>) {
     if limited && model.ac {
         method.push_str(" An output reaches the amplifier's swing limit at a vertex and is held there.");
     } else if limited {
-        method.push_str(" An output reaches the amplifier's swing limit at a vertex and is held there; the gain and offset bounds then follow from the limited outputs by interval arithmetic (they may be wider than any build reaches).");
+        method.push_str(
+            " An output reaches the amplifier's swing limit at a vertex and is held there; the gain and \
+            offset bounds then follow from the limited outputs by interval arithmetic (they may be wider than any \
+            build reaches).",
+        );
     }
     (WorstCase { output_at_min: y1, output_at_max: y2, gain, offset, method }, effect)
-}
-
-/// Draws and solves the builds: each build's limited quantities, and the counts of builds
-/// inside the converter range, inside the headroom, and covering the range-use fraction.
-fn draw_builds(
-    model: &Model, ws: &mut Workspace, req: &Request, cfg: &ToleranceConfig, drawn: &[bool],
-) -> (Vec<[f64; 4]>, Vec<u8>, [usize; 4]) {
-    let params = model.kernel.params();
-    let mut rng = ChaCha8Rng::seed_from_u64(cfg.seed);
-    let mut p_buf = vec![0.0; params.len() + model.rails.len()];
-    let p = &mut p_buf[..];
-    // Resistors are drawn uniformly, two per 64-bit word; the amplifier's figures from a
-    // normal. Capacitors move none of the quantities, so they are not drawn.
-    let pick = |want: fn(ParamKind) -> bool| -> Vec<(usize, f64)> {
-        params
-            .iter()
-            .enumerate()
-            .filter(|(i, q)| want(q.kind) && drawn.get(*i).copied().unwrap_or(true))
-            .map(|(i, q)| (i, q.bound))
-            .collect()
-    };
-    let parts = pick(|k| k == ParamKind::Resistor);
-    let amps = pick(|k| matches!(k, ParamKind::Offset | ParamKind::BiasPlus | ParamKind::BiasMinus));
-    let d = &req.destination;
-    let span = d.max - d.min;
-    let slack = 1e-9 * span.abs();
-    let (h_lo, h_hi) = (d.min + d.headroom * span - slack, d.max - d.headroom * span + slack);
-    let fraction = summary::range_use_fraction(req);
-    let mut builds = Vec::with_capacity(cfg.runs);
-    let mut counts = [0usize; 4];
-    let mut clips = Vec::with_capacity(cfg.runs);
-    for _ in 0..cfg.runs {
-        for pair in parts.chunks(2) {
-            let bits = rng.next_u64();
-            p[pair[0].0] = pair[0].1 * uniform_pm1(bits as u32);
-            if let Some(&(i, bound)) = pair.get(1) {
-                p[i] = bound * uniform_pm1((bits >> 32) as u32);
-            }
-        }
-        for &(i, bound) in &amps {
-            p[i] = bound * truncated_normal(&mut rng);
-        }
-        // Rails: uniform over ±their tolerance, like the parts.
-        for (j, rail) in model.rails.iter().enumerate() {
-            p[params.len() + j] = rail.tolerance * uniform_pm1(rng.next_u32());
-        }
-        let Some(r) = model.raw(p, ws) else { continue };
-        let limits = model.limits_of(p);
-        let y = model.clamped(r, limits);
-        if !(y[0].is_finite() && y[1].is_finite() && y[2].is_finite() && y[3].is_finite()) {
-            continue;
-        }
-        let clip = model.clips(r, limits);
-        let (lo, hi) = if y[0] < y[1] { (y[0], y[1]) } else { (y[1], y[0]) };
-        counts[0] += (clip == 0 && lo >= d.min && hi <= d.max) as usize;
-        counts[3] += (clip != 0) as usize;
-        clips.push(clip);
-        counts[1] += (clip == 0 && lo >= h_lo && hi <= h_hi) as usize;
-        counts[2] += (hi - lo >= fraction * span) as usize;
-        builds.push(y);
-    }
-    (builds, clips, counts)
-}
-
-/// Uniform over (−1, 1) from 32 random bits, symmetric about 0 (steps of 2⁻³¹, far finer
-/// than any tolerance).
-fn uniform_pm1(word: u32) -> f64 {
-    (word as f64 + 0.5) * (2.0 / 4_294_967_296.0) - 1.0
-}
-
-/// Normal with σ = 1/3 truncated at ±1 (the stated figure is 3σ), by rejection: 0.27 % of
-/// draws are redrawn; after 64 misses in a row (never in practice) it gives 0.
-fn truncated_normal(rng: &mut ChaCha8Rng) -> f64 {
-    for _ in 0..64 {
-        let z: f64 = rng.sample(StandardNormal);
-        if z.abs() <= 3.0 {
-            return z / 3.0;
-        }
-    }
-    0.0
 }
 
 /// Plain sentences on how each class of parameter is drawn.
@@ -612,11 +541,23 @@ fn distributions(params: &[Param]) -> Vec<String> {
         let fig = format(*bound, if *kind == ParamKind::Offset { Quantity::Voltage } else { Quantity::Current });
         let normal = format!("normal with {fig} as 3σ, truncated at ±{fig}");
         out.push(match kind {
-            ParamKind::Resistor => format!("Resistors {list}: uniform over ±{pct} of the nominal value, a conservative stand-in for unknown production spreads."),
-            ParamKind::Capacitor => format!("Capacitors {list} (±{pct}): held at their nominal values, since they move none of these quantities (open at DC, treated as shorts at mid-band)."),
+            ParamKind::Resistor => format!(
+                "Resistors {list}: uniform over ±{pct} of the nominal value, a conservative \
+                stand-in for unknown production spreads."
+            ),
+            ParamKind::Capacitor => format!(
+                "Capacitors {list} (±{pct}): held at their nominal values, since they move \
+                none of these quantities (open at DC, treated as shorts at mid-band)."
+            ),
             ParamKind::Offset => format!("Input offset of {list}: {normal}, in series with the + input."),
-            ParamKind::BiasPlus => format!("Bias current of the + input of {list}: {normal}; positive flows into the pin."),
-            ParamKind::BiasMinus => format!("Bias current of the − input of {list}, drawn independently of the + input: {normal}; positive flows into the pin."),
+            ParamKind::BiasPlus => format!(
+                "Bias current of the + input of {list}: {normal}; positive flows into the \
+                pin."
+            ),
+            ParamKind::BiasMinus => format!(
+                "Bias current of the − input of {list}, drawn independently of the + \
+                input: {normal}; positive flows into the pin."
+            ),
         });
     }
     out.push(

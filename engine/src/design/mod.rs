@@ -309,7 +309,8 @@ fn finish_early(mut out: Design, front: Option<FrontEnd>, checks: Vec<Check>, ct
 fn unsolved(mut out: Design, mut checks: Vec<Check>) -> Design {
     checks.push(Check::error(
         "no_realisation",
-        "The circuit with its sensor's front end does not solve; this is a fault in Rangefit, please report the request.",
+        "The circuit with its sensor's front end does not solve; this is a fault in Rangefit, please report the \
+            request.",
     ));
     out.checks = checks;
     out

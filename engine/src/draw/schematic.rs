@@ -120,9 +120,10 @@ pub struct TestPoint {
 /// them, [`Circuit::sensor_terminals`]); the outputs of an
 /// instrumentation amplifier's first stage (its input-stage amplifiers);
 /// for AC coupling the amplifier's + input after the coupling; the converter input (`adc`:
-/// the amplifier output, or the end of the filter and drive that follow it). DC coupling: the node voltages at the sensor's minimum and
-/// maximum. AC coupling: the operating point (sensor at mid-range) ± the mid-band swing, the
-/// magnitude of the response at √(band_low·band_high) times half the sensor's swing.
+/// the amplifier output, or the end of the filter and drive that follow it). DC coupling:
+/// the node voltages at the sensor's minimum and maximum. AC coupling: the operating point
+/// (sensor at mid-range) ± the mid-band swing, the magnitude of the response at
+/// √(band_low·band_high) times half the sensor's swing.
 pub fn test_points(req: &Request, circuit: &Circuit) -> Vec<TestPoint> {
     if !well_formed(circuit) {
         return Vec::new();

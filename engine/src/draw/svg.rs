@@ -368,7 +368,8 @@ impl Svg {
         let mut s = String::new();
         let _ = writeln!(
             s,
-            "<svg xmlns=\"http://www.w3.org/2000/svg\" version=\"1.1\" width=\"{}\" height=\"{}\" viewBox=\"{} {} {} {}\" font-family=\"DejaVu Sans, Arial, Helvetica, sans-serif\" font-size=\"{}\">",
+            "<svg xmlns=\"http://www.w3.org/2000/svg\" version=\"1.1\" width=\"{}\" height=\"{}\" viewBox=\"{} {} {} \
+                {}\" font-family=\"DejaVu Sans, Arial, Helvetica, sans-serif\" font-size=\"{}\">",
             n(w),
             n(h),
             n(x),

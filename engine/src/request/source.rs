@@ -183,7 +183,14 @@ pub(super) fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Re
         Some("differential") => SourceKind::Differential,
         Some("bridge") => SourceKind::Bridge,
         Some(other) => {
-            return Err(o.err("kind", &format!("'{other}' is not a sensor kind this version designs for; use \"single_ended\", \"differential\", \"bridge\", \"current_loop\", \"high_impedance\" or \"photodiode\"")))
+            return Err(o.err(
+                "kind",
+                &format!(
+                    "'{other}' is not a sensor kind this version designs for; use \
+                \"single_ended\", \"differential\", \"bridge\", \"current_loop\", \"high_impedance\" or \
+                \"photodiode\""
+                ),
+            ))
         }
     };
     let q = kind.quantity();
@@ -244,13 +251,21 @@ pub(super) fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Re
     match (kind, capacitance) {
         (SourceKind::HighImpedance, c) => {
             if !(impedance > 0.0) {
-                return Err(o.err("impedance", "is required for a high-impedance sensor: its source resistance, e.g. \"1 GΩ\" for a glass electrode"));
+                return Err(o.err(
+                    "impedance",
+                    "is required for a high-impedance sensor: its source resistance, e.g. \
+                    \"1 GΩ\" for a glass electrode",
+                ));
             }
             if c.is_some_and(|c| !(c >= 0.0)) {
                 return Err(o.err("capacitance", "must not be negative"));
             }
             if coupling == Coupling::Ac && !c.is_some_and(|c| c > 0.0) {
-                return Err(o.err("capacitance", "is required for an AC-coupled high-impedance sensor: the capacitance its signal sits behind, e.g. \"1 nF\" for a piezo film"));
+                return Err(o.err(
+                    "capacitance",
+                    "is required for an AC-coupled high-impedance sensor: the capacitance \
+                    its signal sits behind, e.g. \"1 nF\" for a piezo film",
+                ));
             }
         }
         (SourceKind::Photodiode, c) => {
@@ -261,7 +276,11 @@ pub(super) fn read_source(v: &Value, dest: &Destination, supplies: &[f64]) -> Re
                 return Err(o.err("coupling", "a photodiode is read with its DC level here; use \"dc\""));
             }
             if impedance != 0.0 {
-                return Err(o.err("impedance", "does not apply to a photodiode: give its junction capacitance (capacitance) and dark current (dark_current)"));
+                return Err(o.err(
+                    "impedance",
+                    "does not apply to a photodiode: give its junction capacitance \
+                    (capacitance) and dark current (dark_current)",
+                ));
             }
             if !c.is_some_and(|c| c > 0.0) {
                 return Err(o.err(
@@ -439,7 +458,11 @@ fn read_loop(o: &Obj, min: f64, max: f64) -> Result<LoopSpec, RequestError> {
     }
     // The normalised request carries impedance 0 and DC coupling: those read back.
     if o.q("impedance", Quantity::Resistance)?.is_some_and(|z| z != 0.0) {
-        return Err(o.err("impedance", "does not apply to a current loop: the loop drives its current into the shunt whatever the shunt's value (within burden_max)"));
+        return Err(o.err(
+            "impedance",
+            "does not apply to a current loop: the loop drives its current into the shunt \
+            whatever the shunt's value (within burden_max)",
+        ));
     }
     let burden_max = o.q("burden_max", Quantity::Voltage)?.unwrap_or(DEFAULT_BURDEN_MAX);
     if !(burden_max > 0.0) {

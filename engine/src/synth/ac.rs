@@ -257,10 +257,29 @@ fn variant(
     let r = |x: f64| format(x, Quantity::Resistance);
     let f = |x: f64| format(x, Quantity::Frequency);
     let mut equations = vec![
-        format!("Wanted: |m| = {m:.5} V/V around an output DC level of {} ({} swing → {} … {})", v(yc), v(2.0 * half), v(t.at_min), v(t.at_max)),
-        format!("Mid-band gain = Rb/(R_sensor + Ra + Rb) · (1 + Rf/Rg) = {m_a:.5} V/V; DC level = V_rail · Rbt/(Rt + Rbt) = {}", v(vref)),
-        format!("High-pass corners at ≤ band_low/10 = {}: C ≥ 1/(2π·{}·R), rounded up in {}", f(fc), f(fc), cser.name()),
-        format!("C1 with {} loop resistance → corner {}", r(rs + ra + rb), f(1.0 / (2.0 * std::f64::consts::PI * c1 * (rs + ra + rb)))),
+        format!(
+            "Wanted: |m| = {m:.5} V/V around an output DC level of {} ({} swing → {} … {})",
+            v(yc),
+            v(2.0 * half),
+            v(t.at_min),
+            v(t.at_max)
+        ),
+        format!(
+            "Mid-band gain = Rb/(R_sensor + Ra + Rb) · (1 + Rf/Rg) = {m_a:.5} V/V; DC level = V_rail · Rbt/(Rt + \
+            Rbt) = {}",
+            v(vref)
+        ),
+        format!(
+            "High-pass corners at ≤ band_low/10 = {}: C ≥ 1/(2π·{}·R), rounded up in {}",
+            f(fc),
+            f(fc),
+            cser.name()
+        ),
+        format!(
+            "C1 with {} loop resistance → corner {}",
+            r(rs + ra + rb),
+            f(1.0 / (2.0 * std::f64::consts::PI * c1 * (rs + ra + rb)))
+        ),
     ];
     if let Some(c) = cg {
         equations.push(format!("Cg with Rg = {} → corner {}", r(rg), f(1.0 / (2.0 * std::f64::consts::PI * c * rg))));

@@ -110,7 +110,9 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
             checks.push(Check::error(
                 "range_beyond_rails",
                 format!(
-                    "The amplifier output reaches only {} … {} on these rails at the low end of their tolerance, which covers less than half of the wanted {} … {}; add a rail that reaches the converter range (e.g. a negative rail for a converter input below 0 V) or give amplifier swing figures.",
+                    "The amplifier output reaches only {} … {} on these rails at the low end of their tolerance, which \
+                        covers less than half of the wanted {} … {}; add a rail that reaches the converter range \
+                        (e.g. a negative rail for a converter input below 0 V) or give amplifier swing figures.",
                     fmt(out_lo), fmt(out_hi), fmt(lo), fmt(hi)
                 ),
             ));
@@ -119,8 +121,15 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
         checks.push(Check::warning(
             "swing_limits_range",
             format!(
-                "The amplifier output reaches only {} … {} on these rails at the low end of their tolerance (supply_tolerance), so the design uses {} … {} instead of {} … {}; a rail-to-rail output amplifier or a wider rail recovers the rest.",
-                fmt(out_lo), fmt(out_hi), fmt(new_lo), fmt(new_hi), fmt(lo), fmt(hi)
+                "The amplifier output reaches only {} … {} on these rails at the low end of their tolerance \
+                    (supply_tolerance), so the design uses {} … {} instead of {} … {}; a rail-to-rail output \
+                    amplifier or a wider rail recovers the rest.",
+                fmt(out_lo),
+                fmt(out_hi),
+                fmt(new_lo),
+                fmt(new_hi),
+                fmt(lo),
+                fmt(hi)
             ),
         ));
         lo = new_lo;

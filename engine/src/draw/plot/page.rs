@@ -188,7 +188,8 @@ impl Page {
         let list: Vec<String> = pts.iter().map(|p| format!("{},{}", num(p.0), num(p.1))).collect();
         let _ = writeln!(
             self.under,
-            "<polyline points=\"{}\" fill=\"none\" stroke=\"{colour}\" stroke-width=\"{}\" stroke-linejoin=\"round\" stroke-linecap=\"round\"{}/>",
+            "<polyline points=\"{}\" fill=\"none\" stroke=\"{colour}\" stroke-width=\"{}\" stroke-linejoin=\"round\" \
+                stroke-linecap=\"round\"{}/>",
             list.join(" "),
             num(width),
             dash_attr(dash)
@@ -291,7 +292,8 @@ impl Page {
         let w = text_width(text, fs);
         let _ = writeln!(
             self.under,
-            "<text x=\"{0}\" y=\"{1}\" transform=\"rotate(-90 {0} {1})\" font-size=\"{2}\" text-anchor=\"middle\" fill=\"{colour}\">{3}</text>",
+            "<text x=\"{0}\" y=\"{1}\" transform=\"rotate(-90 {0} {1})\" font-size=\"{2}\" text-anchor=\"middle\" \
+                fill=\"{colour}\">{3}</text>",
             num(x),
             num(y),
             num(fs),

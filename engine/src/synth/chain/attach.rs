@@ -225,12 +225,26 @@ fn filter_equations(req: &Request, f: &FilterDesign, reference: Option<&Referenc
     let level = 20.0 * req.filter.out_of_band_level.log10();
     let mut out = vec![
         format!(
-            "Alias rule: content at {} ({rate} − band_high) must fall to the converter's noise floor: 6.02·N + 1.76 = {:.2} dB for N = {}, {} {:.1} dB for content at {:.1} dBFS → {:.2} dB",
-            hz(f.alias_frequency), filter::full_range_db(d.bits), d.bits, if level < 0.0 { "less" } else { "plus" }, level.abs(), level, f.required_db
+            "Alias rule: content at {} ({rate} − band_high) must fall to the converter's noise floor: 6.02·N + 1.76 = \
+                {:.2} dB for N = {}, {} {:.1} dB for content at {:.1} dBFS → {:.2} dB",
+            hz(f.alias_frequency),
+            filter::full_range_db(d.bits),
+            d.bits,
+            if level < 0.0 { "less" } else { "plus" },
+            level.abs(),
+            level,
+            f.required_db
         ),
         format!(
-            "Order {}: the corner must lie between {} (error ≤ {} dB at band_high {}) and {} (rejection at {}) → corner {}",
-            f.order, hz(f.corner_range[0]), f.passband_allowed_db, hz(req.source.band_high), hz(f.corner_range[1]), hz(f.alias_frequency), hz(f.corner)
+            "Order {}: the corner must lie between {} (error ≤ {} dB at band_high {}) and {} (rejection at {}) → \
+                corner {}",
+            f.order,
+            hz(f.corner_range[0]),
+            f.passband_allowed_db,
+            hz(req.source.band_high),
+            hz(f.corner_range[1]),
+            hz(f.alias_frequency),
+            hz(f.corner)
         ),
     ];
     for (k, (s, r)) in f.sections.iter().zip(&f.realised).enumerate() {
@@ -244,20 +258,49 @@ fn filter_equations(req: &Request, f: &FilterDesign, reference: Option<&Referenc
             })
             .collect();
         out.push(match s.kind {
-            SectionKind::FirstOrder => format!("Section {}: first order f_c = 1/(2πRC) = {} with R, C = {} (wanted {}, {:+.2} %)", k + 1, hz(s.f_n_rounded), vals.join(", "), hz(s.f_n), 100.0 * s.f_n_error),
+            SectionKind::FirstOrder => format!(
+                "Section {}: first order f_c = 1/(2πRC) = {} with R, C = {} (wanted {}, \
+                {:+.2} %)",
+                k + 1,
+                hz(s.f_n_rounded),
+                vals.join(", "),
+                hz(s.f_n),
+                100.0 * s.f_n_error
+            ),
             SectionKind::SallenKey => format!(
-                "Section {}: Sallen-Key f_n = 1/(2π√(R1R2C_fC_g)), Q = √(R1R2C_fC_g)/(C_g(R1+R2)); R1, R2, C_f, C_g = {} → f_n {} ({:+.2} %), Q {:.4} ({:+.2} %) for wanted {} and {:.4}",
-                k + 1, vals.join(", "), hz(s.f_n_rounded), 100.0 * s.f_n_error, s.q_rounded, 100.0 * s.q_error, hz(s.f_n), s.q
+                "Section {}: Sallen-Key f_n = 1/(2π√(R1R2C_fC_g)), Q = √(R1R2C_fC_g)/(C_g(R1+R2)); R1, R2, C_f, C_g = \
+                    {} → f_n {} ({:+.2} %), Q {:.4} ({:+.2} %) for wanted {} and {:.4}",
+                k + 1,
+                vals.join(", "),
+                hz(s.f_n_rounded),
+                100.0 * s.f_n_error,
+                s.q_rounded,
+                100.0 * s.q_error,
+                hz(s.f_n),
+                s.q
             ),
             SectionKind::MultipleFeedback => format!(
-                "Section {}: multiple feedback, gain −R2/R1 = −1, f_n = 1/(2π√(R2R3C_gC_f)), Q = √(R2R3C_gC_f)/(C_f(R2+R3+R2R3/R1)); R1 = R2, R3, C_g, C_f = {} → f_n {} ({:+.2} %), Q {:.4} ({:+.2} %) for wanted {} and {:.4}",
-                k + 1, vals.join(", "), hz(s.f_n_rounded), 100.0 * s.f_n_error, s.q_rounded, 100.0 * s.q_error, hz(s.f_n), s.q
+                "Section {}: multiple feedback, gain −R2/R1 = −1, f_n = 1/(2π√(R2R3C_gC_f)), Q = \
+                    √(R2R3C_gC_f)/(C_f(R2+R3+R2R3/R1)); R1 = R2, R3, C_g, C_f = {} → f_n {} ({:+.2} %), Q {:.4} \
+                    ({:+.2} %) for wanted {} and {:.4}",
+                k + 1,
+                vals.join(", "),
+                hz(s.f_n_rounded),
+                100.0 * s.f_n_error,
+                s.q_rounded,
+                100.0 * s.q_error,
+                hz(s.f_n),
+                s.q
             ),
         });
     }
     out.push(format!(
-        "Rounded sections (ideal amplifiers): {:.2} dB at {}, in-band error ≤ {:.3} dB up to band_high; amplifier GBW ≥ {} (100 × noise gain × Q × f_n per section)",
-        f.rounded_db, hz(f.alias_frequency), f.passband_error_db, hz(f.gbw_min)
+        "Rounded sections (ideal amplifiers): {:.2} dB at {}, in-band error ≤ {:.3} dB up to band_high; amplifier GBW \
+            ≥ {} (100 × noise gain × Q × f_n per section)",
+        f.rounded_db,
+        hz(f.alias_frequency),
+        f.passband_error_db,
+        hz(f.gbw_min)
     ));
     if let Some(r) = reference {
         out.push(format!(
@@ -281,8 +324,12 @@ fn drive_equations(req: &Request, d: &DriveDesign) -> Vec<String> {
             format(c, Quantity::Capacitance)
         ));
         out.push(format!(
-            "Settling to ½ LSB: ln(2^(N+1)) = {:.2} time constants; ln(2^(N+1))·(R·C_b + 1/(2π·GBW)) = {} ≤ t_acq {} needs R ≤ {}",
-            d.settling_time_constants, t(d.settling_time.unwrap_or(f64::NAN)), t(d.acquisition_time), r(d.r_settling_max.unwrap_or(f64::NAN))
+            "Settling to ½ LSB: ln(2^(N+1)) = {:.2} time constants; ln(2^(N+1))·(R·C_b + 1/(2π·GBW)) = {} ≤ t_acq {} \
+                needs R ≤ {}",
+            d.settling_time_constants,
+            t(d.settling_time.unwrap_or(f64::NAN)),
+            t(d.acquisition_time),
+            r(d.r_settling_max.unwrap_or(f64::NAN))
         ));
         out.push(format!(
             "Stability: atan(2π·GBW·(R_o + R)·C_b) − atan(2π·GBW·R·C_b) ≤ {}° with R_o = {} → R ≥ {}",

@@ -84,8 +84,18 @@ pub(super) fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synt
     let b = y1 - m * s.min;
     let v = |x: f64| format(x, Quantity::Voltage);
     let mut equations = vec![
-        format!("Wanted: y = m·x + b with m = {:.5} V/V, b = {} (source {} → {}, {} → {})", t.gain, v(t.offset), v(s.min), v(t.at_min), v(s.max), v(t.at_max)),
-        "V+ = Σ(Vᵢ/Rᵢ) / Σ(1/Rᵢ) over the + input legs; y = V+·(1 + Σ R_f/Rⱼ) − Σ Vⱼ·R_f/Rⱼ over the − input legs (ideal amplifier; the sensor leg includes the sensor's own impedance)".to_string(),
+        format!(
+            "Wanted: y = m·x + b with m = {:.5} V/V, b = {} (source {} → {}, {} → {})",
+            t.gain,
+            v(t.offset),
+            v(s.min),
+            v(t.at_min),
+            v(s.max),
+            v(t.at_max)
+        ),
+        "V+ = Σ(Vᵢ/Rᵢ) / Σ(1/Rᵢ) over the + input legs; y = V+·(1 + Σ R_f/Rⱼ) − Σ Vⱼ·R_f/Rⱼ over the − input legs \
+            (ideal amplifier; the sensor leg includes the sensor's own impedance)"
+            .to_string(),
         format!("Rounded: m = {m:.5} V/V, b = {}; worst error at the extremes {}", v(b), v(c.error)),
     ];
     if rs > 0.0 {
@@ -95,7 +105,18 @@ pub(super) fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synt
     let gain = StageKind::Gain { inverting };
     let mut stages = vec![Stage { role: StageRole::Gain, kind: gain, description: c.name.clone(), parts: gain_parts }];
     if !ref_parts.is_empty() {
-        stages.insert(0, Stage { role: StageRole::Reference, kind: StageKind::Reference, description: "offset legs from the rails, folded into the amplifier's input network (their impedance is part of the gain equations, so no buffer is needed)".to_string(), parts: ref_parts });
+        stages.insert(
+            0,
+            Stage {
+                role: StageRole::Reference,
+                kind: StageKind::Reference,
+                description: "offset legs \
+            from the rails, folded into the amplifier's input network (their impedance is part of the gain equations, \
+            so no buffer is needed)"
+                    .to_string(),
+                parts: ref_parts,
+            },
+        );
     }
     Synthesis {
         circuit: crate::synth::finish(bld, stages, amp, ctx.rails),

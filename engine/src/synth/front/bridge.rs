@@ -86,22 +86,55 @@ pub fn bridge_checks(req: &Request, d: &BridgeDesign) -> Vec<crate::diag::Check>
     // Common practice: foil strain gauges and load cells stay near their rated reading below
     // a few milliwatts per arm; above 10 mW self-heating shows as drift.
     c.push(if d.arm_power > 10e-3 {
-        Check::warning("self_heating", format!("{text}, enough to warm the gauges and drift the reading; a lower excitation or a higher-resistance bridge reduces it."))
+        Check::warning(
+            "self_heating",
+            format!(
+                "{text}, enough to warm the gauges and drift the reading; a lower \
+            excitation or a higher-resistance bridge reduces it."
+            ),
+        )
     } else {
         Check::ok("self_heating", format!("{text}."))
     });
     if d.nonlinearity > 0.0 {
         let pct = 100.0 * d.nonlinearity;
         c.push(if pct > 0.1 {
-            Check::warning("bridge_linearity", format!("With one active arm the output bends {pct:.3} % of full scale short of a straight line at full scale (V_exc·x/(4 + 2x)); two or four active arms in opposite pairs, or a correction in firmware, remove it."))
+            Check::warning(
+                "bridge_linearity",
+                format!(
+                    "With one active arm the output bends {pct:.3} % of full scale \
+                short of a straight line at full scale (V_exc·x/(4 + 2x)); two or four active arms in opposite pairs, \
+                or a correction in firmware, remove it."
+                ),
+            )
         } else {
-            Check::ok("bridge_linearity", format!("With one active arm the output bends {pct:.3} % of full scale short of a straight line at full scale (V_exc·x/(4 + 2x))."))
+            Check::ok(
+                "bridge_linearity",
+                format!(
+                    "With one active arm the output bends {pct:.3} % of full scale short \
+                of a straight line at full scale (V_exc·x/(4 + 2x))."
+                ),
+            )
         });
     }
     c.push(if b.ratiometric {
-        Check::ok("ratiometric", "The converter's reference is the bridge's excitation: a drift of the excitation moves the bridge's output and the converter's full scale alike and cancels in the reading; the amplifier's offset and the reference pin's level do not.".to_string())
+        Check::ok(
+            "ratiometric",
+            "The converter's reference is the bridge's excitation: a drift of the excitation \
+            moves the bridge's output and the converter's full scale alike and cancels in the reading; the \
+            amplifier's offset and the reference pin's level do not."
+                .to_string(),
+        )
     } else {
-        Check::ok("ratiometric", format!("The excitation is not the converter's reference: a {} change of the excitation moves the reading by the same fraction; using the excitation as the converter's reference (ratiometric) cancels that.", "1 %"))
+        Check::ok(
+            "ratiometric",
+            format!(
+                "The excitation is not the converter's reference: a {} change of the \
+            excitation moves the reading by the same fraction; using the excitation as the converter's reference \
+            (ratiometric) cancels that.",
+                "1 %"
+            ),
+        )
     });
     c
 }
@@ -119,7 +152,16 @@ pub fn zero_trim(req: &Request, d: &BridgeDesign, g: f64) -> Option<crate::diag:
         format(d_out, Quantity::Voltage)
     );
     Some(if d_out > room {
-        Check::warning("zero_trim", format!("{text}, more than the {} of headroom: trim the reference pin over ±{} (±{} referred to the bridge), or give more headroom.", format(room, Quantity::Voltage), format(d_out, Quantity::Voltage), format(d.zero_offset, Quantity::Voltage)))
+        Check::warning(
+            "zero_trim",
+            format!(
+                "{text}, more than the {} of headroom: trim the reference pin over ±{} \
+            (±{} referred to the bridge), or give more headroom.",
+                format(room, Quantity::Voltage),
+                format(d_out, Quantity::Voltage),
+                format(d.zero_offset, Quantity::Voltage)
+            ),
+        )
     } else {
         Check::ok(
             "zero_trim",

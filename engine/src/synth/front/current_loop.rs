@@ -71,7 +71,8 @@ pub fn plan(req: &Request) -> Option<Result<LoopDesign, Check>> {
         return Some(Err(Check::error(
             "shunt",
             format!(
-                "The loop allows only {} across the input at {} (burden_max), which leaves a shunt below {}; allow a larger burden voltage (source.burden_max) or measure the loop with a dedicated loop receiver.",
+                "The loop allows only {} across the input at {} (burden_max), which leaves a shunt below {}; allow a \
+                    larger burden voltage (source.burden_max) or measure the loop with a dedicated loop receiver.",
                 format(spec.burden_max, Quantity::Voltage),
                 format(spec.fault_high, Quantity::Current),
                 format(SHUNT_MIN, Quantity::Resistance)
@@ -168,7 +169,8 @@ pub fn equations(req: &Request, l: &LoopDesign) -> Vec<String> {
             a(spec.fault_high)
         ),
         format!(
-            "the gain stage maps the shunt voltage over the fault bands' limits, {} … {} ({} … {}), onto the converter's usable span",
+            "the gain stage maps the shunt voltage over the fault bands' limits, {} … {} ({} … {}), onto the \
+                converter's usable span",
             a(spec.fault_low),
             a(spec.fault_high),
             v(spec.fault_low * l.shunt),
@@ -195,7 +197,8 @@ pub fn checks(req: &Request, l: &LoopDesign) -> Vec<Check> {
     c.push(Check::ok(
         "shunt_tolerance",
         format!(
-            "The shunt's ±{} tolerance moves the gain by as much (it is in the Monte Carlo); a ±0.1 % shunt, or a two-point calibration in firmware, keeps that small.",
+            "The shunt's ±{} tolerance moves the gain by as much (it is in the Monte Carlo); a ±0.1 % shunt, or a \
+                two-point calibration in firmware, keeps that small.",
             crate::units::format_percent(req.parts.resistor_tolerance)
         ),
     ));
@@ -212,9 +215,21 @@ pub fn checks(req: &Request, l: &LoopDesign) -> Vec<Check> {
             format(spec.fault_high, Quantity::Current)
         );
         c.push(if apart {
-            Check::ok("fault_bands", format!("{text}: firmware can tell a broken loop and both fault bands from readings in range (NAMUR NE 43)."))
+            Check::ok(
+                "fault_bands",
+                format!(
+                    "{text}: firmware can tell a broken loop and both fault bands from \
+                readings in range (NAMUR NE 43)."
+                ),
+            )
         } else {
-            Check::warning("fault_bands", format!("{text}: some of these share a code, so firmware cannot tell them apart; give more headroom or more bits."))
+            Check::warning(
+                "fault_bands",
+                format!(
+                    "{text}: some of these share a code, so firmware cannot tell them \
+                apart; give more headroom or more bits."
+                ),
+            )
         });
     }
     c

@@ -327,7 +327,8 @@ impl DiffDesign {
             None => "(1 + G)/(4t)".to_string(),
         };
         let text = format!(
-            "With ±{tol} resistors the worst-case common-mode rejection is {:.1} dB ({rule}); over the {} common-mode range the output may move by {} ({:.1} LSB)",
+            "With ±{tol} resistors the worst-case common-mode rejection is {:.1} dB ({rule}); over the {} common-mode \
+                range the output may move by {} ({:.1} LSB)",
             self.cmrr_worst_db,
             format(cm_span, Quantity::Voltage),
             format(self.cm_error, Quantity::Voltage),
@@ -338,9 +339,11 @@ impl DiffDesign {
             None => text,
         };
         let remedy = if self.first_gain.is_some() {
-            "Tighter resistors in the difference stage (0.1 % or a matched network) or more gain in the first stage raise it."
+            "Tighter resistors in the difference stage (0.1 % or a matched network) or more gain in the first stage \
+                raise it."
         } else {
-            "Tighter resistors (0.1 % or a matched network) or an instrumentation amplifier (source.front_end) raise it."
+            "Tighter resistors (0.1 % or a matched network) or an instrumentation amplifier (source.front_end) raise \
+                it."
         };
         if self.cm_error > lsb {
             Check::warning("cmrr", format!("{text}. {remedy}"))

@@ -271,7 +271,9 @@ pub fn checks(req: &Request, b: &BufferDesign, amp: &Amplifier) -> Vec<Check> {
         c.push(Check::error(
             "follower_range",
             format!(
-                "The sensor swings {} … {}, which the follower cannot reach on these rails (it needs its input and output inside the rails' reach). Add a negative rail, or return the sensor to a reference above ground (its reference electrode or shield at mid-rail) and describe its range against that.",
+                "The sensor swings {} … {}, which the follower cannot reach on these rails (it needs its input and \
+                    output inside the rails' reach). Add a negative rail, or return the sensor to a reference above \
+                    ground (its reference electrode or shield at mid-rail) and describe its range against that.",
                 v(s.min),
                 v(s.max)
             ),
@@ -279,7 +281,8 @@ pub fn checks(req: &Request, b: &BufferDesign, amp: &Amplifier) -> Vec<Check> {
     }
     let through = if b.bias_resistor.is_some() { "the bias resistor" } else { "the sensor's source resistance" };
     let text = format!(
-        "The amplifier's bias current {} through {through} offsets the input by {} ({:.2} % of the sensor's span, {:.1} LSB referred to the sensor)",
+        "The amplifier's bias current {} through {through} offsets the input by {} ({:.2} % of the sensor's span, \
+            {:.1} LSB referred to the sensor)",
         format(amp.bias_current, Quantity::Current),
         v(b.bias_error),
         100.0 * b.bias_error / span,
@@ -288,9 +291,23 @@ pub fn checks(req: &Request, b: &BufferDesign, amp: &Amplifier) -> Vec<Check> {
     let needed =
         0.5 * lsb / if b.bias_resistor.is_some() { b.bias_error / amp.bias_current.max(1e-18) } else { s.impedance };
     c.push(if b.bias_error > 0.1 * span {
-        Check::error("bias_current", format!("{text}; choose an amplifier with a bias current below {} (electrometer-grade inputs have femtoamperes).", format(needed, Quantity::Current)))
+        Check::error(
+            "bias_current",
+            format!(
+                "{text}; choose an amplifier with a bias current below {} \
+            (electrometer-grade inputs have femtoamperes).",
+                format(needed, Quantity::Current)
+            ),
+        )
     } else if b.bias_error > lsb {
-        Check::warning("bias_current", format!("{text}; a calibration removes it at one temperature, but it doubles about every 10 °C; an amplifier below {} keeps it under ½ LSB.", format(needed, Quantity::Current)))
+        Check::warning(
+            "bias_current",
+            format!(
+                "{text}; a calibration removes it at one temperature, but it doubles \
+            about every 10 °C; an amplifier below {} keeps it under ½ LSB.",
+                format(needed, Quantity::Current)
+            ),
+        )
     } else {
         Check::ok("bias_current", format!("{text}."))
     });
@@ -300,15 +317,31 @@ pub fn checks(req: &Request, b: &BufferDesign, amp: &Amplifier) -> Vec<Check> {
             format(f_c, Quantity::Frequency)
         );
         c.push(if f_c < s.band_high {
-            Check::warning("input_corner", format!("{msg}, below the band's top {}: the sensor and its cable limit the band, not the circuit. A shorter or lower-capacitance cable, or a driven guard (shield at the follower's output), raises it.", format(s.band_high, Quantity::Frequency)))
+            Check::warning(
+                "input_corner",
+                format!(
+                    "{msg}, below the band's top {}: the sensor and its cable limit the \
+                band, not the circuit. A shorter or lower-capacitance cable, or a driven guard (shield at the \
+                follower's output), raises it.",
+                    format(s.band_high, Quantity::Frequency)
+                ),
+            )
         } else {
-            Check::ok("input_corner", format!("{msg}, above the band's top {}.", format(s.band_high, Quantity::Frequency)))
+            Check::ok(
+                "input_corner",
+                format!("{msg}, above the band's top {}.", format(s.band_high, Quantity::Frequency)),
+            )
         });
     }
     if let (Some(r_b), Some(f_l)) = (b.bias_resistor, b.low_corner) {
         c.push(Check::ok(
             "low_corner",
-            format!("The {} bias resistor and the sensor's capacitance set the low corner at {}, a tenth of band_low or lower.", format(r_b, Quantity::Resistance), format(f_l, Quantity::Frequency)),
+            format!(
+                "The {} bias resistor and the sensor's capacitance set the low corner at {}, a tenth of band_low \
+                or lower.",
+                format(r_b, Quantity::Resistance),
+                format(f_l, Quantity::Frequency)
+            ),
         ));
     }
     c

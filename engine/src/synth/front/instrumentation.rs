@@ -8,7 +8,8 @@
 //!
 //! **How the gain is split.** The first stage takes as much of the gain as its outputs can
 //! swing: they sit at V_cm ± G1·V_d/2, so G1 ≤ 2·min(out_hi − V_cm,max, V_cm,min − out_lo)/|V_d|max
-//! (a bridge's zero balance and the two amplifiers' offsets counted in V_d). Gain in the first stage also multiplies the
+//! (a bridge's zero balance and the two amplifiers' offsets counted in V_d). Gain in the first stage also
+//! multiplies the
 //! common-mode rejection: with resistor tolerance t the worst case is G1·(1 + G2)/(4t)
 //! (references: Kitchin & Counts, from memory; the tests reproduce it by brute force).
 //! R_F is the series value in 10 kΩ … 100 kΩ (common practice for this stage: low noise, a
@@ -90,11 +91,20 @@ pub fn wanted(req: &Request, gain: f64) -> Option<String> {
     match s.front_end {
         FrontEnd::Difference => None,
         FrontEnd::Instrumentation => Some("requested (source.front_end)".to_string()),
-        FrontEnd::Auto if s.kind == SourceKind::Bridge => Some("a bridge: nothing may load its arms, and its millivolts need gain before the common mode is removed".to_string()),
-        FrontEnd::Auto if gain.abs() > 10.0 => Some(format!("a gain of {:.1}: the first stage takes it before the common mode is removed, which multiplies the rejection", gain.abs())),
-        FrontEnd::Auto if 100.0 * s.impedance * (1.0 + gain.abs()) > req.parts.resistor_max => {
-            Some(format!("the legs' {} impedance: a difference amplifier's input resistors would load them", format(s.impedance, Quantity::Resistance)))
-        }
+        FrontEnd::Auto if s.kind == SourceKind::Bridge => Some(
+            "a bridge: nothing may load its arms, and its \
+            millivolts need gain before the common mode is removed"
+                .to_string(),
+        ),
+        FrontEnd::Auto if gain.abs() > 10.0 => Some(format!(
+            "a gain of {:.1}: the first stage takes it before the \
+            common mode is removed, which multiplies the rejection",
+            gain.abs()
+        )),
+        FrontEnd::Auto if 100.0 * s.impedance * (1.0 + gain.abs()) > req.parts.resistor_max => Some(format!(
+            "the legs' {} impedance: a difference amplifier's input resistors would load them",
+            format(s.impedance, Quantity::Resistance)
+        )),
         FrontEnd::Auto => None,
     }
 }
@@ -333,13 +343,17 @@ pub fn equations(req: &Request, d: &InampDesign) -> Vec<String> {
     let mut e = vec![format!("Instrumentation amplifier chosen for {}", d.reason)];
     match (d.feedback, d.gain_resistor) {
         (Some(r_f), Some(r_g)) => e.push(format!(
-            "G1 = 1 + 2R_F/R_G = 1 + 2·{}/{} = {:.5} (at most {:.3}, where the first stage's outputs reach the swing limit); the difference stage takes the rest",
+            "G1 = 1 + 2R_F/R_G = 1 + 2·{}/{} = {:.5} (at most {:.3}, where the first stage's outputs reach the swing \
+                limit); the difference stage takes the rest",
             r(r_f),
             r(r_g),
             d.first_gain,
             d.first_gain_limit
         )),
-        _ => e.push(format!("G1 = 1: two followers (the outputs cannot swing any gain, or none is wanted: limit {:.3})", d.first_gain_limit)),
+        _ => e.push(format!(
+            "G1 = 1: two followers (the outputs cannot swing any gain, or none is wanted: limit {:.3})",
+            d.first_gain_limit
+        )),
     }
     e.push(format!(
         "R_P = {} per leg: √(4kT·R_P) = {} ≤ e_n/2 at {} K",
@@ -359,26 +373,88 @@ pub fn checks(req: &Request, d: &InampDesign, amp: &Amplifier, rails: Rails) -> 
     let (in_lo, in_hi) = amp.input_limits(rails);
     let (a, b) = d.input_range;
     c.push(if a < in_lo - 1e-9 || b > in_hi + 1e-9 {
-        Check::error("input_stage_inputs", format!("The legs swing {} … {}, outside the input amplifiers' input range {} … {} on these rails; widen the rails or choose amplifiers whose inputs reach them.", v(a), v(b), v(in_lo), v(in_hi)))
+        Check::error(
+            "input_stage_inputs",
+            format!(
+                "The legs swing {} … {}, outside the input amplifiers' input range \
+            {} … {} on these rails; widen the rails or choose amplifiers whose inputs reach them.",
+                v(a),
+                v(b),
+                v(in_lo),
+                v(in_hi)
+            ),
+        )
     } else {
-        Check::ok("input_stage_inputs", format!("The legs swing {} … {}, inside the input amplifiers' input range {} … {}.", v(a), v(b), v(in_lo), v(in_hi)))
+        Check::ok(
+            "input_stage_inputs",
+            format!(
+                "The legs swing {} … {}, inside the input amplifiers' input range {} … \
+            {}.",
+                v(a),
+                v(b),
+                v(in_lo),
+                v(in_hi)
+            ),
+        )
     });
     let (out_lo, out_hi) = amp.output_limits(rails);
     let (a, b) = d.output_range;
     c.push(if a < out_lo - 1e-9 || b > out_hi + 1e-9 {
-        Check::error("input_stage_swing", format!("The first stage's outputs would swing {} … {}, beyond the amplifiers' {} … {}: the common mode leaves no room for even unity gain. Move the common mode toward mid-rail or widen the rails.", v(a), v(b), v(out_lo), v(out_hi)))
+        Check::error(
+            "input_stage_swing",
+            format!(
+                "The first stage's outputs would swing {} … {}, beyond the \
+            amplifiers' {} … {}: the common mode leaves no room for even unity gain. Move the common mode toward \
+            mid-rail or widen the rails.",
+                v(a),
+                v(b),
+                v(out_lo),
+                v(out_hi)
+            ),
+        )
     } else {
-        Check::ok("input_stage_swing", format!("The first stage's outputs swing {} … {} (the common mode ± G1 × half the difference), inside the amplifiers' {} … {}.", v(a), v(b), v(out_lo), v(out_hi)))
+        Check::ok(
+            "input_stage_swing",
+            format!(
+                "The first stage's outputs swing {} … {} (the common mode ± G1 × half \
+            the difference), inside the amplifiers' {} … {}.",
+                v(a),
+                v(b),
+                v(out_lo),
+                v(out_hi)
+            ),
+        )
     });
     c.push(if d.gbw_needed > amp.gbw {
-        Check::warning("input_stage_gbw", format!("The first stage's gain {:.1} over a {} band needs a gain-bandwidth of {}, above the amplifiers' {}; its gain will droop toward the band edge. Move gain to the difference stage or choose faster amplifiers.", d.first_gain, hz(req.source.band_high), hz(d.gbw_needed), hz(amp.gbw)))
+        Check::warning(
+            "input_stage_gbw",
+            format!(
+                "The first stage's gain {:.1} over a {} band needs a gain-bandwidth \
+            of {}, above the amplifiers' {}; its gain will droop toward the band edge. Move gain to the difference \
+            stage or choose faster amplifiers.",
+                d.first_gain,
+                hz(req.source.band_high),
+                hz(d.gbw_needed),
+                hz(amp.gbw)
+            ),
+        )
     } else {
-        Check::ok("input_stage_gbw", format!("The amplifiers' gain-bandwidth {} covers the {} the first stage needs.", hz(amp.gbw), hz(d.gbw_needed)))
+        Check::ok(
+            "input_stage_gbw",
+            format!(
+                "The amplifiers' gain-bandwidth {} covers the {} the first stage needs.",
+                hz(amp.gbw),
+                hz(d.gbw_needed)
+            ),
+        )
     });
     c.push(Check::ok(
         "input_series",
         format!(
-            "Each leg reaches its amplifier through {}: a leg driven up to {} beyond a rail pushes at most {} into the input's protection (the amplifier's datasheet governs the figure it tolerates) and the resistor takes at most {}; for larger faults add clamp diodes from each input to the rails and a resistor rated for the fault. Each resistor adds {} of noise against the amplifier's {}.",
+            "Each leg reaches its amplifier through {}: a leg driven up to {} beyond a rail pushes at most {} into the \
+                input's protection (the amplifier's datasheet governs the figure it tolerates) and the resistor takes \
+                at most {}; for larger faults add clamp diodes from each input to the rails and a resistor rated for \
+                the fault. Each resistor adds {} of noise against the amplifier's {}.",
             format(d.protection, Quantity::Resistance),
             v(d.fault_beyond_rail),
             format(req.destination.injection_limit, Quantity::Current),

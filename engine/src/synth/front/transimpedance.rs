@@ -233,9 +233,14 @@ pub fn equations(req: &Request, t: &TiaDesign) -> Vec<String> {
     let s = &req.source;
     let c_in = s.capacitance.unwrap_or(0.0);
     vec![
-        format!("U1 output = V_b + (I_ph + I_dark)·R_f with V_b = {}, R_f = {}", format(t.bias, Quantity::Voltage), format(t.feedback_resistor, Quantity::Resistance)),
         format!(
-            "C_f flat = √(2·R_f·C_in/ω_t − 1/ω_t²)/R_f = {} (C_in {}); noise-bandwidth rule 1/(2π·R_f·10·band_high); → {}; −3 dB {}",
+            "U1 output = V_b + (I_ph + I_dark)·R_f with V_b = {}, R_f = {}",
+            format(t.bias, Quantity::Voltage),
+            format(t.feedback_resistor, Quantity::Resistance)
+        ),
+        format!(
+            "C_f flat = √(2·R_f·C_in/ω_t − 1/ω_t²)/R_f = {} (C_in {}); noise-bandwidth rule 1/(2π·R_f·10·band_high); → \
+                {}; −3 dB {}",
             format(t.flat_capacitor, Quantity::Capacitance),
             format(c_in, Quantity::Capacitance),
             format(t.feedback_capacitor, Quantity::Capacitance),
@@ -251,7 +256,15 @@ pub fn checks(req: &Request, t: &TiaDesign, amp: &Amplifier) -> Vec<Check> {
     let mut c = Vec::new();
     let msg = format!("The transimpedance stage reaches {} (−3 dB, single-pole amplifier model)", hz(t.bandwidth));
     c.push(if t.bandwidth < 1.5 * s.band_high {
-        Check::warning("tia_bandwidth", format!("{msg}, too close to the band's top {}: an amplifier with a gain-bandwidth of {} or more, or a smaller R_f with more gain after it, keeps the band flat.", hz(s.band_high), hz(t.gbw_needed.max(amp.gbw))))
+        Check::warning(
+            "tia_bandwidth",
+            format!(
+                "{msg}, too close to the band's top {}: an amplifier with a \
+            gain-bandwidth of {} or more, or a smaller R_f with more gain after it, keeps the band flat.",
+                hz(s.band_high),
+                hz(t.gbw_needed.max(amp.gbw))
+            ),
+        )
     } else {
         Check::ok("tia_bandwidth", format!("{msg}, above the band's top {}.", hz(s.band_high)))
     });
@@ -260,7 +273,8 @@ pub fn checks(req: &Request, t: &TiaDesign, amp: &Amplifier) -> Vec<Check> {
         c.push(Check::ok(
             "dark_current",
             format!(
-                "The dark current adds {} at U1's output ({:.2} % of the signal's swing there); it is in the mapping at its stated value, but it roughly doubles every 10 °C: a dark reading in firmware removes it.",
+                "The dark current adds {} at U1's output ({:.2} % of the signal's swing there); it is in the mapping \
+                    at its stated value, but it roughly doubles every 10 °C: a dark reading in firmware removes it.",
                 format(t.dark_offset, Quantity::Voltage),
                 100.0 * t.dark_offset / span.max(1e-30)
             ),
@@ -269,7 +283,11 @@ pub fn checks(req: &Request, t: &TiaDesign, amp: &Amplifier) -> Vec<Check> {
     if t.feedback_capacitor < 1e-12 {
         c.push(Check::warning(
             "feedback_capacitor",
-            format!("C_f is {}, about the stray capacitance across a resistor on a board: keep R_f's pads apart and guard them, or use a T-network for R_f.", format(t.feedback_capacitor, Quantity::Capacitance)),
+            format!(
+                "C_f is {}, about the stray capacitance across a resistor on a board: keep R_f's pads apart and \
+                guard them, or use a T-network for R_f.",
+                format(t.feedback_capacitor, Quantity::Capacitance)
+            ),
         ));
     }
     c
