@@ -101,10 +101,7 @@ fn loader(body: &str, read: &dyn Fn(&str) -> io::Result<Vec<u8>>) -> io::Result<
     let js = quoted_after(body, " from ").ok_or_else(|| bad("index.html", "the loader imports no glue"))?;
     let wasm = quoted_after(body, "module_or_path:").ok_or_else(|| bad("index.html", "the loader names no module"))?;
     let glue = String::from_utf8(read(&js)?).map_err(|_| bad(&js, "not UTF-8"))?;
-    let init = glue
-        .lines()
-        .find_map(|l| l.trim().strip_prefix("export default ")?.strip_suffix(';').map(str::to_string))
-        .ok_or_else(|| bad(&js, "no default export (the init function)"))?;
+    let init = default_export(&glue).ok_or_else(|| bad(&js, "no default export (the init function)"))?;
     let module = compress::gzip(&read(&wasm)?)?;
     let data = base64::engine::general_purpose::STANDARD.encode(module);
     Ok(format!(
@@ -114,6 +111,19 @@ fn loader(body: &str, read: &dyn Fn(&str) -> io::Result<Vec<u8>>) -> io::Result<
          dispatchEvent(new CustomEvent(\"TrunkApplicationStarted\", {{detail: {{wasm}}}}));\n</script>",
         inline_safe(&glue, "</script", &js)?
     ))
+}
+
+/// The name the glue exports as default (its init function): `export default NAME;` or
+/// `export { …, NAME as default };`.
+fn default_export(glue: &str) -> Option<String> {
+    glue.lines().find_map(|line| {
+        let l = line.trim();
+        if let Some(name) = l.strip_prefix("export default ") {
+            return name.strip_suffix(';').map(str::to_string);
+        }
+        let list = l.strip_prefix("export {")?.trim_end_matches(';').trim_end().strip_suffix('}')?;
+        list.split(',').find_map(|item| item.trim().strip_suffix(" as default").map(|n| n.trim().to_string()))
+    })
 }
 
 /// The first single-quoted text after `marker`.
