@@ -75,7 +75,7 @@ pub fn assemble(dir: &Path, home: Option<&str>) -> io::Result<String> {
         Some(h) => HOME_META.replace(r#"content="""#, &format!(r#"content="{}""#, escape_attr(h))),
         None => HOME_META.to_string(),
     };
-    let head = out.find("<head>").ok_or_else(|| bad("index.html", "no <head>"))? + "<head>".len();
+    let head = out.find("</head>").ok_or_else(|| bad("index.html", "no </head>"))?;
     out.insert_str(head, &meta);
     Ok(out)
 }
@@ -104,11 +104,12 @@ fn loader(body: &str, read: &dyn Fn(&str) -> io::Result<Vec<u8>>) -> io::Result<
     let init = default_export(&glue).ok_or_else(|| bad(&js, "no default export (the init function)"))?;
     let module = compress::gzip(&read(&wasm)?)?;
     let data = base64::engine::general_purpose::STANDARD.encode(module);
+    // In a block of its own, so its names cannot clash with the glue's.
     Ok(format!(
-        "<script type=\"module\">\n{}\nconst z = Uint8Array.from(atob(\"{data}\"), c => c.charCodeAt(0));\n\
+        "<script type=\"module\">\n{}\n{{\nconst z = Uint8Array.from(atob(\"{data}\"), c => c.charCodeAt(0));\n\
          const bytes = await new Response(new Blob([z]).stream().pipeThrough(new DecompressionStream(\"gzip\")))\
          .arrayBuffer();\nconst wasm = await {init}({{ module_or_path: bytes }});\n\
-         dispatchEvent(new CustomEvent(\"TrunkApplicationStarted\", {{detail: {{wasm}}}}));\n</script>",
+         dispatchEvent(new CustomEvent(\"TrunkApplicationStarted\", {{detail: {{wasm}}}}));\n}}\n</script>",
         inline_safe(&glue, "</script", &js)?
     ))
 }
