@@ -162,10 +162,10 @@ fn Transfer() -> impl IntoView {
     view! {
         <div class="transfer">
             <button type="button" class="link" data-testid="export-designs" on:click=export
-                disabled=move || ctx.saved.with(Vec::is_empty)>"Export all (JSON)"</button>
+                disabled=move || ctx.saved.with(Vec::is_empty)>"Export (JSON)"</button>
             <input type="file" id="import-designs" class="sr-only" data-testid="import-designs"
                 accept=".json,application/json" on:change=import/>
-            <label class="link" for="import-designs">"Import from a file"</label>
+            <label class="link" for="import-designs">"Import (JSON)"</label>
         </div>
     }
 }
