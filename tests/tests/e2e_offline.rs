@@ -105,7 +105,7 @@ fn copy_of_dist(tag: &str) -> std::path::PathBuf {
 
 /// Turns the bundle in `site` into another build: the stylesheet under a new name (same
 /// content, so its integrity hash still holds) and a marker in the page; then the build's
-/// finishing step again (a new worker, no siblings).
+/// finishing step again, as for a debug build (a new worker; no siblings, no one-file app).
 fn next_build(site: &Path, old_css: &str) -> String {
     let new_css = "/rangefit-next-build.css".to_string();
     std::fs::rename(site.join(old_css.trim_start_matches('/')), site.join(new_css.trim_start_matches('/')))
@@ -115,7 +115,7 @@ fn next_build(site: &Path, old_css: &str) -> String {
     let page =
         page.replace(old_css, &new_css).replace("<head>", r#"<head><meta name="rangefit-build" content="next">"#);
     std::fs::write(site.join("index.html"), page).expect("write the page");
-    rangefit_bundle::finish(site, &rangefit_bundle::Options { home: None, compress: false }).expect("finish the build");
+    rangefit_bundle::finish(site, &rangefit_bundle::Options { home: None, release: false }).expect("finish the build");
     new_css
 }
 

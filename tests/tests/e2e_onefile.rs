@@ -120,8 +120,8 @@ async fn the_one_file_app_from_disk_designs_keeps_links_and_moves_designs() {
         })
         .await;
         local.refresh().await.expect("reload");
-        goto_app(&local, &local.current_url().await.expect("address").to_string()).await;
-        assert_eq!(saved_names(&local).await, [req.name.clone()]);
+        goto_app(&local, local.current_url().await.expect("address").as_ref()).await;
+        assert_eq!(saved_names(&local).await, std::slice::from_ref(&req.name));
         wait_for_parts(&local, "the design after a reload", &expected_rows(&req)).await;
 
         // Its links: one into the hosted app, one into the file.

@@ -26,21 +26,23 @@ pub const WORKER_FILE: &str = "sw.js";
 pub struct Options {
     /// The hosted app's address, written into the one-file app so its links can open there.
     pub home: Option<String>,
-    /// Writes the `.br` and `.gz` siblings (slow: brotli at quality 11, zopfli).
-    pub compress: bool,
+    /// Writes the `.br` and `.gz` siblings and the one-file app (slow: brotli at quality 11
+    /// and zopfli; skipped for debug builds, whose module is ten times larger).
+    pub release: bool,
 }
 
-/// Writes the service worker, the one-file app and (with `compress`) the precompressed
-/// siblings into the built bundle `dir`.
+/// Writes the service worker and, for a release build, the precompressed siblings and the
+/// one-file app into the built bundle `dir`.
 pub fn finish(dir: &Path, options: &Options) -> io::Result<()> {
     remove_siblings(dir)?;
+    let _ = fs::remove_file(dir.join(SINGLE_FILE));
     worker::write(dir)?;
-    let html = single::assemble(dir, options.home.as_deref())?;
-    fs::write(dir.join(SINGLE_FILE), html)?;
-    if options.compress {
+    if options.release {
         for file in first_load(dir)? {
             compress::write_siblings(&file)?;
         }
+        let html = single::assemble(dir, options.home.as_deref())?;
+        fs::write(dir.join(SINGLE_FILE), html)?;
     }
     Ok(())
 }

@@ -2,14 +2,15 @@
 //! a first visit transfers.
 //!
 //! ```text
-//! rangefit-bundle finish DIR [--home URL] [--no-compress]   service worker, one-file app, .br/.gz siblings
+//! rangefit-bundle finish DIR [--home URL] [--debug]   service worker, .br/.gz siblings, one-file app
 //! rangefit-bundle single DIR OUT.html [--home URL]          the one-file app only
 //! rangefit-bundle sizes DIR                                 the first load: bytes, brotli and gzip siblings
 //! ```
 //!
 //! Trunk runs `finish` on its staging directory after each build (`Trunk.toml`); without
-//! `--home`, the address comes from `RANGEFIT_HOME` when set. Compression is skipped for
-//! debug builds (`TRUNK_PROFILE=debug`), whose module is ten times larger.
+//! `--home`, the address comes from `RANGEFIT_HOME` when set. Debug builds (`--debug`, or
+//! `TRUNK_PROFILE=debug` from trunk) get the service worker only: their module is ten times
+//! larger and compressing it would take minutes.
 
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -30,25 +31,25 @@ fn main() -> ExitCode {
 fn run(args: &[String]) -> Result<(), String> {
     let mut positional = Vec::new();
     let mut home = std::env::var("RANGEFIT_HOME").ok().filter(|h| !h.is_empty());
-    let mut compress = std::env::var("TRUNK_PROFILE").map(|p| p != "debug").unwrap_or(true);
+    let mut release = std::env::var("TRUNK_PROFILE").map(|p| p != "debug").unwrap_or(true);
     let mut it = args.iter();
     while let Some(a) = it.next() {
         match a.as_str() {
             "--home" => home = Some(it.next().ok_or("--home needs an address")?.clone()),
-            "--no-compress" => compress = false,
+            "--debug" => release = false,
             _ if a.starts_with("--") => return Err(format!("unknown option {a}")),
             _ => positional.push(a.as_str()),
         }
     }
     let io = |what: &str, e: std::io::Error| format!("{what}: {e}");
     match positional.as_slice() {
-        ["finish", dir] => finish(Path::new(dir), &Options { home, compress }).map_err(|e| io(dir, e)),
+        ["finish", dir] => finish(Path::new(dir), &Options { home, release }).map_err(|e| io(dir, e)),
         ["single", dir, out] => {
             let html = single::assemble(Path::new(dir), home.as_deref()).map_err(|e| io(dir, e))?;
             std::fs::write(out, html).map_err(|e| io(out, e))
         }
         ["sizes", dir] => sizes(Path::new(dir)),
-        _ => Err("usage: rangefit-bundle finish DIR [--home URL] [--no-compress] | single DIR OUT.html [--home URL] \
+        _ => Err("usage: rangefit-bundle finish DIR [--home URL] [--debug] | single DIR OUT.html [--home URL] \
             | sizes DIR"
             .into()),
     }

@@ -58,7 +58,7 @@ pub fn assemble(dir: &Path, home: Option<&str>) -> io::Result<String> {
             let close = rest.find("</script>").ok_or_else(|| bad("index.html", "a script is not closed"))?;
             let body = &rest[end..close];
             if tag.contains(r#"type="module""#) && body.contains("import init") {
-                out.push_str(&loader(body, &read)?);
+                out.push_str(&loader(body, dir, &read)?);
                 script_done = true;
             } else {
                 out.push_str(&rest[..close]);
@@ -97,12 +97,13 @@ fn attr(tag: &str, name: &str) -> Option<String> {
 }
 
 /// The module script that replaces trunk's loader: the glue, then the module from bytes.
-fn loader(body: &str, read: &dyn Fn(&str) -> io::Result<Vec<u8>>) -> io::Result<String> {
+fn loader(body: &str, dir: &Path, read: &dyn Fn(&str) -> io::Result<Vec<u8>>) -> io::Result<String> {
     let js = quoted_after(body, " from ").ok_or_else(|| bad("index.html", "the loader imports no glue"))?;
     let wasm = quoted_after(body, "module_or_path:").ok_or_else(|| bad("index.html", "the loader names no module"))?;
     let glue = String::from_utf8(read(&js)?).map_err(|_| bad(&js, "not UTF-8"))?;
     let init = default_export(&glue).ok_or_else(|| bad(&js, "no default export (the init function)"))?;
-    let module = compress::gzip(&read(&wasm)?)?;
+    read(&wasm)?; // the name checked like every other
+    let module = gzipped(dir, &wasm)?;
     let data = base64::engine::general_purpose::STANDARD.encode(module);
     // In a block of its own, so its names cannot clash with the glue's.
     Ok(format!(
@@ -112,6 +113,18 @@ fn loader(body: &str, read: &dyn Fn(&str) -> io::Result<Vec<u8>>) -> io::Result<
          dispatchEvent(new CustomEvent(\"TrunkApplicationStarted\", {{detail: {{wasm}}}}));\n}}\n</script>",
         inline_safe(&glue, "</script", &js)?
     ))
+}
+
+/// The module `name` in `dir`, gzip-compressed: its `.gz` sibling when one at least as new
+/// is there (`finish` writes the siblings first), else compressed here.
+fn gzipped(dir: &Path, name: &str) -> io::Result<Vec<u8>> {
+    let file = dir.join(name.trim_start_matches('/'));
+    let sibling = compress::sibling(&file, ".gz");
+    let modified = |p: &Path| fs::metadata(p).and_then(|m| m.modified()).ok();
+    match (modified(&sibling), modified(&file)) {
+        (Some(gz), Some(raw)) if gz >= raw => fs::read(&sibling),
+        _ => compress::gzip(&fs::read(&file)?),
+    }
 }
 
 /// The name the glue exports as default (its init function): `export default NAME;` or
