@@ -141,6 +141,7 @@ fn Toolbar(shown: Arc<Shown>) -> impl IntoView {
         })
         .collect_view();
     let link_for_copy = link.clone();
+    let no_file_link = file_link.is_none();
     view! {
         <div class="toolbar">
             <div class="downloads" role="group" aria-label="Downloads">
@@ -155,10 +156,11 @@ fn Toolbar(shown: Arc<Shown>) -> impl IntoView {
                 <button type="button" class="btn" data-testid="copy-link" on:click=move |_| {
                     browser::copy_text(&link_for_copy, move |ok| copied.set(Some(ok)));
                 }>"Copy link"</button>
-                {file_link.map(|l| view! {
+                <span class="share-file" hidden=no_file_link>
                     <label class="toolbar-label" for="file-link">"In this file"</label>
-                    <input id="file-link" type="text" readonly data-testid="file-link" prop:value=l />
-                })}
+                    <input id="file-link" type="text" readonly data-testid="file-link"
+                        prop:value=file_link.unwrap_or_default() />
+                </span>
                 <span class="copy-state" role="status">
                     {move || match copied.get() {
                         Some(true) => "Copied.",

@@ -175,15 +175,17 @@ fn Transfer() -> impl IntoView {
 #[component]
 fn OneFile() -> impl IntoView {
     let ctx = expect_context::<Ctx>();
-    if browser::from_file() {
-        return view! {
-            <section data-testid="one-file">
-                <h2>"This file"</h2>
-                <p class="muted small">"Rangefit in one file: it needs no network. Export designs to move them."</p>
-            </section>
-        }
-        .into_any();
-    }
+    // One view for both cases (a second view type would cost the bundle more than the text).
+    let on_file = browser::from_file();
+    let (title, text) = if on_file {
+        ("This file", "Rangefit in one file: it needs no network. Export designs to move them.")
+    } else {
+        (
+            "Without a network",
+            "This page works offline after a first visit. For a computer with no network: the whole app in one \
+            HTML file.",
+        )
+    };
     let download = move |_| {
         leptos::task::spawn_local(async move {
             let made = browser::fetch_text(ONE_FILE).await.and_then(|html| {
@@ -197,16 +199,14 @@ fn OneFile() -> impl IntoView {
         });
     };
     view! {
-        <section>
-            <h2>"Without a network"</h2>
-            <p class="muted small">"This page works offline after a first visit. For a computer with no network: \
-                the whole app in one HTML file."</p>
-            <button type="button" class="btn small" data-testid="download-app" on:click=download>
+        <section data-testid="one-file">
+            <h2>{title}</h2>
+            <p class="muted small">{text}</p>
+            <button type="button" class="btn small" data-testid="download-app" hidden=on_file on:click=download>
                 "Download the app (one file)"
             </button>
         </section>
     }
-    .into_any()
 }
 
 /// The one-file app beside the bundle (written by tools/bundle) and the empty `<meta>` in it

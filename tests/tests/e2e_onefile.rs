@@ -220,7 +220,8 @@ async fn the_one_file_app_without_storage_still_designs_and_says_it_cannot_save(
         // Its link is the file's own (it knows no hosted address).
         let link = value_of(&client, "share-link").await;
         assert!(link.starts_with(&format!("{}#", file_url(&path))), "{link}");
-        assert!(client.find(Locator::Css("[data-testid='file-link']")).await.is_err());
+        let shown = by_testid(&client, "file-link").await.is_displayed().await.expect("displayed?");
+        assert!(!shown, "no second link: the file knows no hosted address");
         screenshot(&client, "one-file-no-storage").await;
         let _ = std::fs::remove_dir_all(&dir);
     })
