@@ -34,6 +34,16 @@ else
     say "apt: ${APT_PACKAGES[*]} already installed"
 fi
 
+# --- Rust components (the format and lint gates) -----------------------------------
+for comp in rustfmt clippy; do
+    if rustup component list --installed | grep -q "^$comp"; then
+        say "rustup: $comp already installed"
+    else
+        say "rustup: adding $comp"
+        rustup component add "$comp"
+    fi
+done
+
 # --- Rust target --------------------------------------------------------------------
 if rustup target list --installed | grep -qx wasm32-unknown-unknown; then
     say "rustup: wasm32-unknown-unknown already installed"

@@ -21,6 +21,9 @@ run_step() {
 
 run_step "install toolchain" "$ROOT/.ci/install.sh"
 run_step "fetch crates" cargo fetch
+run_step "format check" cargo fmt --all --check
+run_step "clippy (host, every target)" cargo clippy --workspace --all-targets -- -D warnings
+run_step "clippy (app for the browser)" cargo clippy -p rangefit-app --target wasm32-unknown-unknown -- -D warnings
 run_step "build release bundle" trunk build --release
 step="check bundle"
 test -f dist/index.html || { echo "dist/index.html was not produced" >&2; false; }

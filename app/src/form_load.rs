@@ -22,7 +22,7 @@ pub fn value_text(v: f64, kind: Kind) -> String {
     let Kind::Quantity { q, percent } = kind else { return Value::from(v).to_string() };
     if percent {
         for sig in 1..=17 {
-            let text = format!("{} %", units::format_sig(v * 100.0, Quantity::Ratio, sig));
+            let text = units::format_percent_sig(v, sig);
             if units::parse(&text, q) == Ok(v) {
                 return text;
             }

@@ -153,7 +153,7 @@ impl Stress {
         let extremes = match s.coupling {
             Coupling::Dc => [s.min, s.max].iter().filter_map(|&x| solver.dc(x).ok().map(|d| d.voltages)).collect(),
             Coupling::Ac => {
-                let f = (s.band_low * s.band_high).sqrt();
+                let f = s.band_centre();
                 let half = 0.5 * (s.max - s.min);
                 [-1.0, 1.0]
                     .iter()
@@ -192,9 +192,7 @@ impl Stress {
 fn tolerance_text(t: Option<f64>) -> (String, String) {
     match t {
         Some(t) => {
-            let pct = t * 100.0;
-            let text =
-                if (pct - pct.round()).abs() < 1e-9 { format!("±{} %", pct.round()) } else { format!("±{pct} %") };
+            let text = format!("±{}", crate::units::format_percent(t));
             (text, values::tolerance_letter(t).map(|c| c.to_string()).unwrap_or_default())
         }
         None => (String::new(), String::new()),

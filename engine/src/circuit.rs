@@ -15,10 +15,17 @@
 //! `f{k}n` (multiple feedback only) and its output `f{k}o`; inverting sections share the
 //! reference `fref`; the drive's series resistor ends at `adc`. Whatever part comes last
 //! in the chain drives `adc` (see [`crate::synth::chain`]).
+//!
+//! Every stage records what it is ([`StageKind`]) and every part synthesis builds records
+//! what it is in its stage ([`PartRole`]): readers find a part by its role, never by its
+//! node names or the words of its purpose (the names above are for scripts and people).
 
 use serde::Serialize;
 
-use crate::amplifier::Amplifier;
+use crate::amplifier::{Amplifier, Rails};
+
+mod role;
+pub use role::{PartRole, Place, SectionPart, Side, StageKind};
 
 /// Ground node name.
 pub const GND: &str = "0";
@@ -133,6 +140,10 @@ pub struct Part {
     pub tolerance: Option<f64>,
     pub nodes: Vec<String>,
     pub stage: StageRole,
+    /// What the part is in its stage (or on the bench); `None` for parts built by hand
+    /// outside synthesis.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub role: Option<PartRole>,
     /// What the part does, in a short phrase.
     pub purpose: String,
     /// Part of the bench (sensor, supplies, converter load), not something to build.
@@ -143,6 +154,9 @@ pub struct Part {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Stage {
     pub role: StageRole,
+    /// What the stage is (not in the design's JSON, which lists stages by `role`).
+    #[serde(skip)]
+    pub kind: StageKind,
     pub description: String,
     /// Designators of the parts in this stage, bench parts excluded.
     pub parts: Vec<String>,
@@ -180,8 +194,53 @@ impl Circuit {
         self.parts.iter().find(|p| is_sensor_source(p))
     }
 
+    /// The rails the amplifiers run from.
+    pub fn rails(&self) -> Rails {
+        Rails { pos: self.rail_pos, neg: self.rail_neg }
+    }
+
+    /// Lowest and highest output the amplifiers reach on the circuit's rails.
+    pub fn output_limits(&self) -> (f64, f64) {
+        self.amplifier.output_limits(self.rails())
+    }
+
     pub fn part(&self, reference: &str) -> Option<&Part> {
         self.parts.iter().find(|p| p.reference == reference)
+    }
+
+    /// The nodes where the sensor's bench model meets the circuit, from the bench's roles:
+    /// the single-ended terminal (behind the source resistance, or where a loop's current or
+    /// a photocurrent enters), then a pair's + and − terminals (behind each leg's impedance).
+    pub fn sensor_terminals(&self) -> Vec<String> {
+        let bench = |role: PartRole| self.parts.iter().find(|p| p.bench && p.role == Some(role));
+        let beyond = |p: &Part, source: Option<&Part>| {
+            p.nodes.iter().find(|n| source.is_none_or(|s| !s.nodes.contains(n))).cloned()
+        };
+        let single = match (bench(PartRole::SourceResistance), bench(PartRole::LoopCurrent)) {
+            (Some(r), _) => beyond(r, bench(PartRole::Emf)),
+            (None, Some(i)) => i.nodes.get(1).cloned(),
+            (None, None) => bench(PartRole::Photocurrent).and_then(|i| i.nodes.first().cloned()),
+        };
+        let pair = [Side::Plus, Side::Minus]
+            .map(|side| bench(PartRole::LegImpedance(side)).and_then(|r| beyond(r, bench(PartRole::DifferentialEmf))));
+        let mut out: Vec<String> = Vec::new();
+        for n in std::iter::once(single).chain(pair).flatten() {
+            if !out.contains(&n) {
+                out.push(n);
+            }
+        }
+        out
+    }
+
+    /// The first part with role `role`.
+    pub fn with_role(&self, role: PartRole) -> Option<&Part> {
+        self.parts.iter().find(|p| p.role == Some(role))
+    }
+
+    /// The first part with role `role` in a stage of kind `kind`.
+    pub fn stage_part(&self, kind: StageKind, role: PartRole) -> Option<&Part> {
+        let in_kind = self.stages.iter().filter(|s| s.kind == kind);
+        self.parts.iter().find(|p| p.role == Some(role) && in_kind.clone().any(|s| s.parts.contains(&p.reference)))
     }
 
     pub fn part_mut(&mut self, reference: &str) -> Option<&mut Part> {
@@ -240,10 +299,13 @@ impl Builder {
         format!("{letter}{n}")
     }
 
-    /// Adds a part to build and returns its designator.
+    /// Adds a part to build and returns its designator; `at` is its stage, with its role
+    /// there when synthesis builds it (`(StageRole::Gain, PartRole::FeedbackResistor)`).
     pub fn add(
-        &mut self, kind: PartKind, value: f64, tolerance: Option<f64>, nodes: &[&str], stage: StageRole, purpose: &str,
+        &mut self, kind: PartKind, value: f64, tolerance: Option<f64>, nodes: &[&str], at: impl Into<Place>,
+        purpose: &str,
     ) -> String {
+        let at = at.into();
         let letter = match kind {
             PartKind::Resistor => 'R',
             PartKind::Capacitor => 'C',
@@ -259,7 +321,8 @@ impl Builder {
             value,
             tolerance,
             nodes: nodes.iter().map(|s| s.to_string()).collect(),
-            stage,
+            stage: at.stage,
+            role: at.role,
             purpose: purpose.to_string(),
             bench: false,
         });
@@ -269,15 +332,17 @@ impl Builder {
     /// Adds a front end's amplifier under a designator freed for it (U1, U2 after
     /// `synth::renumber_amplifiers`): nodes +, −, V+, V−, output; its value is the GBW.
     pub fn front_amplifier(
-        &mut self, designator: &str, gbw: f64, nodes: [&str; 5], stage: StageRole, purpose: &str,
+        &mut self, designator: &str, gbw: f64, nodes: [&str; 5], at: impl Into<Place>, purpose: &str,
     ) -> String {
+        let at = at.into();
         self.parts.push(Part {
             reference: designator.to_string(),
             kind: PartKind::OpAmp,
             value: gbw,
             tolerance: None,
             nodes: nodes.iter().map(|s| s.to_string()).collect(),
-            stage,
+            stage: at.stage,
+            role: at.role,
             purpose: purpose.to_string(),
             bench: false,
         });
@@ -286,15 +351,17 @@ impl Builder {
 
     /// Adds a bench part with a fixed name (VSENSE, RSENSE, VPOS, VNEG, RADC).
     pub fn bench(
-        &mut self, reference: &str, kind: PartKind, value: f64, nodes: &[&str], stage: StageRole, purpose: &str,
+        &mut self, reference: &str, kind: PartKind, value: f64, nodes: &[&str], at: impl Into<Place>, purpose: &str,
     ) {
+        let at = at.into();
         self.parts.push(Part {
             reference: reference.to_string(),
             kind,
             value,
             tolerance: None,
             nodes: nodes.iter().map(|s| s.to_string()).collect(),
-            stage,
+            stage: at.stage,
+            role: at.role,
             purpose: purpose.to_string(),
             bench: true,
         });

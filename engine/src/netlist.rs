@@ -3,7 +3,7 @@
 //! The netlist uses only R, C, V, E, G and D elements plus a `.subckt` and the `.model`s it
 //! defines itself (the amplifier's clamp, and a Schottky for clamps at the converter pin),
 //! so any SPICE3-compatible simulator runs it with no library. The amplifier
-//! subcircuit is the solver's macro-model (see [`crate::solve`]): a transconductance into a
+//! subcircuit is the solver's macro-model ([`crate::amplifier::model`]): a transconductance into a
 //! node loaded by R and C (finite DC gain, one dominant pole at GBW / gain), clamped by two
 //! diodes to the swing limits measured from the supply pins, and a unity-gain buffer to the
 //! output. The diodes use a small emission coefficient so that the clamp knee is a few
@@ -15,7 +15,6 @@
 
 use crate::circuit::{is_sensor_source, Circuit, PartKind};
 use crate::request::Request;
-use crate::solve::GM;
 
 /// Options of the export.
 #[derive(Debug, Clone, Copy, Default)]
@@ -43,12 +42,13 @@ pub fn netlist(req: &Request, circuit: &Circuit, cfg: NetlistConfig) -> String {
         num(amp.swing_low),
         num(amp.swing_high)
     ));
+    let m = amp.macro_model();
     out.push_str(&format!(".subckt {AMP_SUBCKT} inp inn vcc vee out\n"));
-    out.push_str(&format!("G1 0 x inp inn {}\n", num(GM)));
-    out.push_str(&format!("R1 x 0 {}\n", num(amp.open_loop_gain / GM)));
-    out.push_str(&format!("C1 x 0 {}\n", num(GM / (2.0 * std::f64::consts::PI * amp.gbw))));
-    out.push_str(&format!("VH vcc nh DC {}\n", num(amp.swing_high)));
-    out.push_str(&format!("VL nl vee DC {}\n", num(amp.swing_low)));
+    out.push_str(&format!("G1 0 x inp inn {}\n", num(m.gm)));
+    out.push_str(&format!("R1 x 0 {}\n", num(m.load_resistance)));
+    out.push_str(&format!("C1 x 0 {}\n", num(m.load_capacitance)));
+    out.push_str(&format!("VH vcc nh DC {}\n", num(m.swing_high)));
+    out.push_str(&format!("VL nl vee DC {}\n", num(m.swing_low)));
     out.push_str("D1 x nh RFCLAMP\nD2 nl x RFCLAMP\nE1 out 0 x 0 1\n");
     out.push_str(&format!(".ends {AMP_SUBCKT}\n"));
     out.push_str(".model RFCLAMP D(IS=1e-14 N=0.01)\n");

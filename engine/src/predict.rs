@@ -33,7 +33,10 @@ pub fn predict(req: &Request, c: &Circuit) -> Option<Predicted> {
             let y2 = solver.dc(s.max).ok()?.voltage("adc")?;
             let gain = (y2 - y1) / (s.max - s.min);
             let h0 = solver.transfer(0.0, "adc").ok()?.norm();
-            let (_, band_high) = corners(&solver, h0, None, s.band_high.max(1.0));
+            // The upper corner is searched from three decades below the band edge, so a
+            // response that already falls inside the band (too little gain-bandwidth, a
+            // corner placed too low) is found where it is, not at the band edge.
+            let (_, band_high) = corners(&solver, h0, None, 1e-3 * s.band_high.max(1.0));
             Some(Predicted {
                 gain,
                 offset: y1 - gain * s.min,
@@ -46,7 +49,7 @@ pub fn predict(req: &Request, c: &Circuit) -> Option<Predicted> {
         Coupling::Ac => {
             let mid = 0.5 * (s.min + s.max);
             let level = solver.dc(mid).ok()?.voltage("adc")?;
-            let f_mid = (s.band_low * s.band_high).sqrt();
+            let f_mid = s.band_centre();
             let h = solver.transfer(f_mid, "adc").ok()?;
             let gain = if h.re >= 0.0 { h.norm() } else { -h.norm() };
             let (band_low, band_high) = corners(&solver, h.norm(), Some(f_mid), f_mid);
@@ -62,8 +65,9 @@ pub fn predict(req: &Request, c: &Circuit) -> Option<Predicted> {
     }
 }
 
-/// −3 dB points relative to `reference` magnitude, searched below `low_from` (if given) and
-/// above `high_from` on a log grid of 10 points per decade, then refined by bisection.
+/// −3 dB points relative to `reference` magnitude: the first crossing below `low_from` (if
+/// given) and the first above `high_from`, on a log grid of 10 points per decade (13 decades
+/// up, 8 down), then refined by bisection.
 fn corners(solver: &Solver, reference: f64, low_from: Option<f64>, high_from: f64) -> (Option<f64>, Option<f64>) {
     let level = reference / std::f64::consts::SQRT_2;
     let mag = |f: f64| solver.transfer(f, "adc").map(|h| h.norm()).unwrap_or(0.0);
@@ -90,5 +94,5 @@ fn corners(solver: &Solver, reference: f64, low_from: Option<f64>, high_from: f6
         None
     };
     let low = low_from.and_then(|f| search(f, -1.0, 8.0));
-    (low, search(high_from, 1.0, 10.0))
+    (low, search(high_from, 1.0, 13.0))
 }

@@ -14,7 +14,7 @@ use crate::draw::schematic::{self, SchematicConfig};
 use crate::draw::svg::escape;
 use crate::figures::Block;
 use crate::request::Coupling;
-use crate::units::{format, Quantity};
+use crate::units::{format, format_percent, Quantity};
 
 /// Options of the report.
 #[derive(Debug, Clone, PartialEq)]
@@ -148,11 +148,11 @@ fn summary(h: &mut String, d: &Design) {
         (
             "Parts",
             format!(
-                "resistors {} ±{} %, capacitors {} ±{} %",
+                "resistors {} ±{}, capacitors {} ±{}",
                 r.parts.resistor_series.name(),
-                r.parts.resistor_tolerance * 100.0,
+                format_percent(r.parts.resistor_tolerance),
                 r.parts.capacitor_series.name(),
-                r.parts.capacitor_tolerance * 100.0
+                format_percent(r.parts.capacitor_tolerance)
             ),
         ),
     ]);

@@ -61,7 +61,7 @@ pub fn scaling(req: &Request, p: &Predicted, analysis: Option<&Analysis>) -> Opt
     let dst = &req.destination;
     let s = &req.source;
     let bits = dst.bits;
-    let lsb = (dst.max - dst.min) / 2f64.powi(bits as i32);
+    let lsb = dst.lsb();
     let max_code = (1i64 << bits.min(62)) - 1;
     if !(p.gain.abs() > 0.0 && lsb > 0.0) {
         return None;

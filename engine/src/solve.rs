@@ -17,8 +17,8 @@
 //! gets the textbook stamp with a branch current. The elimination skips zero entries, which
 //! keeps the chain-shaped systems of a gain stage and its filter sections cheap to solve.
 //!
-//! Each amplifier is the same macro-model the netlist exports (see [`crate::netlist`]):
-//! a transconductance `GM` from the input difference into an internal node loaded by
+//! Each amplifier is the macro-model of [`crate::amplifier::model`], which the netlist exports
+//! too: a transconductance `GM` from the input difference into an internal node loaded by
 //! `open_loop_gain / GM` ohms and `GM / (2π·gbw)` farads (one dominant pole at
 //! `gbw / open_loop_gain`, unity-gain frequency at `gbw`), followed by a unity-gain buffer
 //! to the output. At DC the internal node is limited to the output swing: when a solve puts
@@ -33,10 +33,11 @@ use num_complex::Complex;
 use serde::Serialize;
 use std::collections::HashMap;
 
+use crate::amplifier::MacroModel;
 use crate::circuit::{is_sensor_source, Circuit, PartKind, GND};
 
 /// Transconductance of the amplifier macro-model's input stage, A/V.
-pub const GM: f64 = 1e-3;
+pub use crate::amplifier::GM;
 /// Conductance from every node to ground, S: keeps every node tied to something without
 /// loading any real one. Far below the SPICE default gmin (1e-12 S, which SPICE puts across
 /// junctions, not on every node), because a node behind a teraohm sensor would feel that.
@@ -97,6 +98,8 @@ enum Stamp {
 /// A circuit prepared for repeated solves.
 pub struct Solver<'a> {
     circuit: &'a Circuit,
+    /// The macro-model every amplifier is stamped with.
+    model: MacroModel,
     /// Node name → where its voltage lives (amplifier internal nodes as `"U1:x"`).
     loc: HashMap<String, Loc>,
     /// Node name → its row (free nodes and internal nodes only).
@@ -222,14 +225,12 @@ impl<'a> Solver<'a> {
             size += 1;
             stamps.push(Stamp::Branch { branch, p: at(out), n: Loc::Col(x), rp: row_of(out), rn: None, part: None });
         }
-        Solver { circuit, loc, row, names, amps, stamps, size }
+        Solver { circuit, model: circuit.amplifier.macro_model(), loc, row, names, amps, stamps, size }
     }
 
     /// DC operating point with the sensor source (`VSENSE` volts or `ISENSE` amperes) at `source`.
     pub fn dc(&self, source: f64) -> Result<DcSolution, SolveError> {
-        let amp = &self.circuit.amplifier;
-        let lo = self.circuit.rail_neg + amp.swing_low;
-        let hi = self.circuit.rail_pos - amp.swing_high;
+        let (lo, hi) = self.model.output_limits(self.circuit.rails());
         let mut pins: Vec<Option<f64>> = vec![None; self.amps.len()];
         let mut x = self.solve(0.0, Excite::Dc(source), &pins)?;
         for _ in 0..(2 * self.amps.len() + 2) {
@@ -334,7 +335,7 @@ impl<'a> Solver<'a> {
     /// The internal-node voltage amplifier `k` would reach without its swing limit.
     fn unclamped(&self, x: &[C64], k: usize, excite: Excite) -> f64 {
         let Some(&(_, _, inp, inn)) = self.amps.get(k) else { return 0.0 };
-        (self.value(x, inp, excite).re - self.value(x, inn, excite).re) * self.circuit.amplifier.open_loop_gain
+        self.model.unclamped(self.value(x, inp, excite).re - self.value(x, inn, excite).re)
     }
 
     fn solve(&self, omega: f64, excite: Excite, pins: &[Option<f64>]) -> Result<Vec<C64>, SolveError> {
@@ -355,7 +356,7 @@ impl<'a> Solver<'a> {
         for r in self.row.values() {
             a[r * n + r] += GMIN;
         }
-        let amp = &self.circuit.amplifier;
+        let m = &self.model;
         // Adds y·V(l) to row r of the left side (or moves it to the right side when known).
         let put = |a: &mut Vec<C64>, z: &mut Vec<C64>, r: usize, l: Loc, y: C64| match l {
             Loc::Col(c) => a[r * n + c] += y,
@@ -382,11 +383,9 @@ impl<'a> Solver<'a> {
                         z[x] += if let Excite::Dc(_) = excite { *pin } else { 0.0 };
                         continue;
                     }
-                    put(&mut a, &mut z, x, inp, C64::new(-GM, 0.0));
-                    put(&mut a, &mut z, x, inn, C64::new(GM, 0.0));
-                    let r = amp.open_loop_gain / GM;
-                    let cap = GM / (2.0 * std::f64::consts::PI * amp.gbw);
-                    a[x * n + x] += C64::new(1.0 / r, omega * cap);
+                    put(&mut a, &mut z, x, inp, C64::new(-m.gm, 0.0));
+                    put(&mut a, &mut z, x, inn, C64::new(m.gm, 0.0));
+                    a[x * n + x] += m.load_admittance(omega);
                 }
                 Stamp::Current { from, to, part } => {
                     let i = self.source_value(part, excite);

@@ -23,6 +23,7 @@ use hyper_util::client::legacy::connect::HttpConnector;
 use serde_json::{json, Value};
 
 pub mod rows;
+pub mod spice;
 
 /// Chromium binary used by the tests (Debian's `chromium` package).
 pub const CHROMIUM: &str = "/usr/bin/chromium";

@@ -1,5 +1,5 @@
 //! The instrumentation-amplifier front end against outside references: the three-amplifier
-//! gain G = (1 + 2R_F/R_G)(R2/R1) with the worked values of /work/shared/references.md
+//! gain G = (1 + 2R_F/R_G)(R2/R1) with the worked values of tests/REFERENCES.md
 //! (25 k/5 k → 11; 24.7 k/494 Ω → 101, [C] re-checked by nodal analysis), the worst-case
 //! common-mode rejection from resistor tolerance (Kitchin & Counts, *A Designer's Guide to
 //! Instrumentation Amplifiers*, 3rd ed., from memory) reproduced by brute force over the

@@ -1,5 +1,5 @@
 //! Sensor kinds beyond the single-ended voltage, against outside references: the shunt
-//! rule and the NAMUR NE 43 fault bands for a current loop (/work/shared/references.md,
+//! rule and the NAMUR NE 43 fault bands for a current loop (tests/REFERENCES.md,
 //! [C] confirmed), IEC 60063 for the shunt's series value, and ngspice (Debian ngspice-39)
 //! on the exported netlist for the DC mapping, the fault bands and seeded random loops the
 //! other tests do not hold. Requests are scenarios of our own. ngspice must be installed;

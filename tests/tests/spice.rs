@@ -220,13 +220,16 @@ const CASES: &[Case] = &[
             "destination": {"min": -5, "max": 5, "bits": 16, "sample_rate": "100 Hz", "impedance": "1M"},
             "supplies": [12, -12], "keep_polarity": false, "parts": {"resistor_series": "E96"}}"#,
     },
-    // 3.3 V rail, AC, gain ~3 around mid-scale, 100 Ω source.
+    // 3.3 V rail, AC, gain ~3 around mid-scale, 100 Ω source. With E6 capacitors the rounded
+    // filter reaches 0.33 dB at the band edge, so the case allows 0.5 dB there (at the
+    // default 0.1 dB the design is rightly an error, which ngspice confirms: −0.31 dB).
     Case {
         name: "wind-turbine vibration pickup",
         json: r#"{"name": "Wind-turbine nacelle vibration pickup",
             "source": {"min": 2.0, "max": 3.0, "coupling": "ac", "impedance": "100", "band_low": "2 Hz", "band_high": "2 kHz"},
             "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "10 kHz", "impedance": "10k"},
-            "supplies": [3.3], "parts": {"resistor_series": "E24", "capacitor_series": "E6"}}"#,
+            "supplies": [3.3], "parts": {"resistor_series": "E24", "capacitor_series": "E6"},
+            "filter": {"passband_error": "0.5 dB"}}"#,
     },
     // 5 V rail, AC, attenuation of a ±4 V swing, E96 resistors and E12 capacitors. Birdsong
     // has little above 10 kHz: content there stays 40 dB below full scale, which lets a
@@ -654,12 +657,16 @@ fn check_testbench(case: &Case) -> Result<(), Vec<String>> {
     match tables.get("frequency") {
         Some(rows) if rows.len() >= 20 => {
             let want = 20.0 * p.gain.abs().log10();
-            // DC coupling: the first row lies far below the band (flat); AC: the passband peak.
-            let got = match s.coupling {
-                Coupling::Dc => rows[0][1],
-                Coupling::Ac => rows.iter().map(|r| r[1]).fold(f64::NEG_INFINITY, f64::max),
+            // DC coupling: the first row lies far below the band (flat); AC: the passband peak,
+            // which may stand above mid-band by as much as the in-band error the filter allows.
+            let (got, peaking) = match s.coupling {
+                Coupling::Dc => (rows[0][1], 0.0),
+                Coupling::Ac => (
+                    rows.iter().map(|r| r[1]).fold(f64::NEG_INFINITY, f64::max),
+                    d.filter.as_ref().map_or(0.0, |f| f.passband_allowed_db),
+                ),
             };
-            if (got - want).abs() > GAIN_TOL_DB {
+            if got - want < -GAIN_TOL_DB || got - want > peaking + GAIN_TOL_DB {
                 problems.push(format!("AC sweep gives {got:.4} dB, predicted gain is {want:.4} dB"));
             }
         }

@@ -237,6 +237,7 @@ fn mfb(a: Amplifier) -> Circuit {
 /// Naive reference: Gaussian elimination with partial pivoting on the nodal equations of a
 /// resistor network driven by one voltage source (written out here so it shares no code
 /// with the engine's nalgebra-based solver).
+#[allow(clippy::needless_range_loop)] // a naive reference: written in the textbook index form on purpose
 fn naive_nodal(n: usize, resistors: &[(usize, usize, f64)], source_node: usize, volts: f64) -> Vec<f64> {
     // Unknowns: nodes 1..n (0 is ground); the source node is fixed by replacing its row.
     let mut a = vec![vec![0.0; n + 1]; n];
@@ -321,11 +322,12 @@ fn request(json: &str) -> Request {
 #[test]
 fn facts_of_the_trade() {
     // ±0.25 V on a 0.8 V DC level, AC-coupled into a 0–5 V input centred on 2.5 V, needs a
-    // gain magnitude of 10 (common practice). Headroom 0 and an output that reaches the rails.
+    // gain magnitude of 10 (common practice). Headroom 0, an output that reaches the rails
+    // and a rail held exact.
     let req = request(
         r#"{"name": "fact", "source": {"min": 0.55, "max": 1.05, "coupling": "ac", "band_low": "100 Hz", "band_high": "5 kHz"},
             "destination": {"min": 0, "max": 5, "sample_rate": "50 kHz", "headroom": 0},
-            "supplies": [5], "amplifier": {"swing_low": 0, "swing_high": 0}}"#,
+            "supplies": [5], "supply_tolerance": 0, "amplifier": {"swing_low": 0, "swing_high": 0}}"#,
     );
     let d = design(&req);
     let p = d.predicted.expect("design");

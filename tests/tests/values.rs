@@ -47,7 +47,7 @@ fn literal_lists() {
             "IEC 60063:2015 Table 1",
         ),
         // Full lists from memory; they agree with round(10^(i/N), 2) as stated in
-        // /work/shared/references.md ("E48, E96, E192 use three significant figures").
+        // tests/REFERENCES.md ("E48, E96, E192 use three significant figures").
         (
             Series::E48,
             &[

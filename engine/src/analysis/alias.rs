@@ -8,7 +8,7 @@
 use serde::Serialize;
 
 use crate::circuit::Circuit;
-use crate::request::{Coupling, Request};
+use crate::request::Request;
 use crate::solve::Solver;
 use crate::synth::filter;
 
@@ -28,7 +28,7 @@ pub struct AliasAnalysis {
 pub fn alias(req: &Request, circuit: &Circuit) -> Option<AliasAnalysis> {
     let frequency = filter::alias_frequency(req)?;
     let s = &req.source;
-    let f_mid = if s.coupling == Coupling::Ac { (s.band_low * s.band_high).sqrt() } else { 0.0 };
+    let f_mid = s.mid_band();
     let solver = Solver::new(circuit);
     let mid = solver.transfer(f_mid, "adc").ok()?.norm();
     let at = solver.transfer(frequency, "adc").ok()?.norm();

@@ -38,8 +38,13 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
     let mc = &a.tolerance.monte_carlo;
     let pct = |x: f64| format!("{:.2} %", 100.0 * x);
     let msg = format!(
-        "{} of {} simulated builds (parts within tolerance, amplifier offset and bias currents spread) keep the output inside the converter range; {} also keep the full {:.1} % headroom.",
-        pct(mc.yield_), mc.runs, pct(mc.yield_headroom), req.destination.headroom * 100.0
+        "{} of {} simulated builds (parts within tolerance, amplifier offset and bias currents spread) keep the output inside the converter range with the amplifier inside its swing; {} also keep the full {:.1} % headroom.{}",
+        pct(mc.yield_), mc.runs, pct(mc.yield_headroom), req.destination.headroom * 100.0,
+        if mc.clipped > 0 {
+            format!(" {} builds ({}) reach the amplifier's swing limit and count as failures.", mc.clipped, pct(mc.clipped as f64 / mc.runs.max(1) as f64))
+        } else {
+            String::new()
+        }
     );
     let advice = " Tighter resistor tolerances, more headroom or a two-point calibration in firmware raise it.";
     c.push(if mc.runs == 0 {
@@ -76,7 +81,7 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
     // An oversampling converter's decimation filter removes what lies between the band and
     // the modulator's Nyquist frequency; only content above that folds back.
     let d = &req.destination;
-    let nyquist = 0.5 * if d.converter.samples() { d.sample_rate } else { d.modulator_rate.unwrap_or(d.sample_rate) };
+    let nyquist = 0.5 * d.input_rate();
     if let Some(fh) = nominal.f_high_3db {
         if fh > nyquist {
             c.push(Check::warning(

@@ -4,7 +4,7 @@
 
 use serde::Serialize;
 
-use crate::circuit::{Circuit, PartKind, StageRole};
+use crate::circuit::{Circuit, PartKind, PartRole, StageRole};
 
 /// The spread of a pair's common-mode rejection over seeded builds (`analysis.cmrr`).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -18,7 +18,7 @@ pub struct CmrrAnalysis {
 /// The common-mode Monte Carlo of a circuit whose bench holds a common-mode source (`VCM`,
 /// a differential pair's or a bridge's), `None` for every other circuit.
 pub fn cmrr(circuit: &Circuit, seed: u64) -> Option<CmrrAnalysis> {
-    circuit.part("VCM").filter(|p| p.bench)?;
+    circuit.with_role(PartRole::CommonMode).filter(|p| p.bench)?;
     let p001_db = cmrr_monte_carlo(circuit, CMRR_RUNS, seed)?;
     Some(CmrrAnalysis { runs: CMRR_RUNS, seed, p001_db })
 }
@@ -42,10 +42,11 @@ pub fn cmrr_monte_carlo(circuit: &Circuit, runs: usize, seed: u64) -> Option<f64
     let circuit = &circuit;
     let dm = Kernel::compile(circuit, &out).ok()?;
     let mut swapped = circuit.clone();
+    // The solver sweeps the source named VSENSE: the common-mode source takes that name.
     for p in swapped.parts.iter_mut().filter(|p| p.bench) {
-        match p.reference.as_str() {
-            "VSENSE" => p.reference = "VDIFF".to_string(),
-            "VCM" => p.reference = "VSENSE".to_string(),
+        match p.role {
+            Some(PartRole::DifferentialEmf) => p.reference = "VDIFF".to_string(),
+            Some(PartRole::CommonMode) => p.reference = "VSENSE".to_string(),
             _ => {}
         }
     }

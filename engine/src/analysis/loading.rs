@@ -11,8 +11,8 @@
 
 use serde::Serialize;
 
-use crate::circuit::{Circuit, PartKind};
-use crate::request::{Coupling, Request};
+use crate::circuit::{Circuit, PartKind, PartRole};
+use crate::request::Request;
 use crate::solve::Solver;
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -33,10 +33,7 @@ pub struct LoadingAnalysis {
 
 /// Loading analysis of `circuit`.
 pub fn loading(req: &Request, circuit: &Circuit) -> LoadingAnalysis {
-    let f = match req.source.coupling {
-        Coupling::Dc => 0.0,
-        Coupling::Ac => (req.source.band_low * req.source.band_high).sqrt(),
-    };
+    let f = req.source.mid_band();
     let gain = |c: &Circuit| Solver::new(c).transfer(f, "adc").map(|h| h.norm()).unwrap_or(f64::NAN);
     let with = |changes: &[(&str, f64)]| {
         let mut c = circuit.clone();
@@ -47,23 +44,29 @@ pub fn loading(req: &Request, circuit: &Circuit) -> LoadingAnalysis {
         }
         c
     };
+    let of_role = |f: fn(PartRole) -> bool| -> Vec<&str> {
+        circuit.parts.iter().filter(|p| p.bench && p.role.is_some_and(f)).map(|p| p.reference.as_str()).collect()
+    };
     // 1 mΩ stands for an ideal source (as in the bench model), 1 PΩ for an open circuit. A
     // differential sensor has one impedance per leg; the + leg's input is reported.
-    let (legs, node): (&[&str], &str) =
-        if circuit.part("RSENSEP").is_some() { (&["RSENSEP", "RSENSEN"], "sensep") } else { (&["RSENSE"], "sense") };
+    let pair = of_role(|r| matches!(r, PartRole::LegImpedance(_)));
+    let legs = if pair.is_empty() { of_role(|r| r == PartRole::SourceResistance) } else { pair };
+    let node = circuit.sensor_terminals().into_iter().next().unwrap_or_default();
+    let load = of_role(|r| r == PartRole::ConverterLoad);
     let set = |v: f64| legs.iter().map(|r| (*r, v)).collect::<Vec<_>>();
+    let unload: Vec<(&str, f64)> = load.iter().map(|r| (*r, 1e15)).collect();
     let actual = gain(circuit);
     let ideal_source = gain(&with(&set(1e-3)));
-    let unloaded = gain(&with(&[("RADC", 1e15)]));
+    let unloaded = gain(&with(&unload));
     let mut both = set(1e-3);
-    both.push(("RADC", 1e15));
+    both.extend(unload);
     let ideal = gain(&with(&both));
     let open = with(&set(1e15));
     let solver = Solver::new(&open);
     let input_impedance = solver
-        .injection_transfers(f, node)
+        .injection_transfers(f, &node)
         .ok()
-        .and_then(|z| solver.index_of(node).map(|k| z[k].norm()))
+        .and_then(|z| solver.index_of(&node).map(|k| z[k].norm()))
         .unwrap_or(f64::NAN);
     let rail_currents = rail_currents(req, circuit);
     let ratio = |a: f64, b: f64| if b > 0.0 && a.is_finite() && b.is_finite() { a / b - 1.0 } else { 0.0 };
@@ -82,10 +85,8 @@ fn rail_currents(req: &Request, circuit: &Circuit) -> Vec<(String, f64)> {
     let mid = 0.5 * (req.source.min + req.source.max);
     let Ok(op) = Solver::new(circuit).dc(mid) else { return Vec::new() };
     let mut out = Vec::new();
-    for (name, node) in [("VPOS", "vpos"), ("VNEG", "vneg")] {
-        if circuit.part(name).is_none() {
-            continue;
-        }
+    let rails = circuit.parts.iter().filter(|p| p.bench && p.role == Some(PartRole::Rail));
+    for (name, node) in rails.filter_map(|p| Some((p.reference.as_str(), p.nodes.first()?.as_str()))) {
         let v_rail = op.voltage(node).unwrap_or(0.0);
         let i: f64 = circuit
             .parts

@@ -41,9 +41,10 @@
 use num_complex::Complex;
 use serde::Serialize;
 
+use crate::amplifier::GM;
 use crate::circuit::{Circuit, PartKind};
 use crate::request::{Coupling, Request};
-use crate::solve::{Solver, GM};
+use crate::solve::Solver;
 
 /// Boltzmann constant, J/K (exact by the 2019 SI definition).
 pub const BOLTZMANN: f64 = 1.380649e-23;
@@ -213,9 +214,7 @@ pub fn johnson_density(ohms: f64, kelvin: f64) -> f64 {
 }
 
 /// One LSB of a converter with input span `span` (V) and `bits` bits: span / 2^bits.
-pub fn lsb(span: f64, bits: u32) -> f64 {
-    span / (bits as f64).exp2()
-}
+pub use crate::request::lsb_of as lsb;
 
 /// Quantisation noise of an ideal converter, lsb/√12 (V rms).
 pub fn quantization_rms(lsb: f64) -> f64 {
@@ -223,9 +222,7 @@ pub fn quantization_rms(lsb: f64) -> f64 {
 }
 
 /// SNR of an ideal `bits`-bit converter for a full-scale sine, 20·log10(2^N·√1.5) ≈ 6.02·N + 1.76 dB.
-pub fn ideal_snr_db(bits: u32) -> f64 {
-    20.0 * ((bits as f64).exp2() * 1.5f64.sqrt()).log10()
-}
+pub use crate::request::full_range_db as ideal_snr_db;
 
 /// Effective number of bits from a signal-to-noise-and-distortion ratio: (SINAD − 1.76)/6.02.
 pub fn enob(sinad_db: f64) -> f64 {

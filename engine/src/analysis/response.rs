@@ -68,8 +68,7 @@ pub fn dc_transfer(req: &Request, circuit: &Circuit, mid_gain: f64, points: usiz
     let span = s.max - s.min;
     let (x0, x1) = (s.min - 0.1 * span, s.max + 0.1 * span);
     let n = points.max(2);
-    let amp = &circuit.amplifier;
-    let (lo, hi) = (circuit.rail_neg + amp.swing_low, circuit.rail_pos - amp.swing_high);
+    let (lo, hi) = circuit.output_limits();
     let mid = 0.5 * (s.min + s.max);
     let op = solver.dc(mid).ok();
     let level = op.as_ref().and_then(|o| o.voltage("adc")).unwrap_or(0.0);
@@ -124,7 +123,7 @@ pub fn ac_response(
         }
     }
     let at = |f: f64| solver.transfer(f, "adc").map(db).unwrap_or(f64::NAN);
-    let f_mid = if s.coupling == Coupling::Ac { (s.band_low * s.band_high).sqrt() } else { 0.0 };
+    let f_mid = s.mid_band();
     let in_band: Vec<f64> = out
         .iter()
         .filter(|p| p.f >= s.band_low && p.f <= s.band_high)

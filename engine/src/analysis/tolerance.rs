@@ -17,7 +17,15 @@
 //!   their tolerance moves none of these quantities; they stay nominal, as do the bench
 //!   parts (sensor, supplies, converter load);
 //! * each amplifier's input offset and the bias currents of its two inputs (independently):
-//!   normal with the stated figure as 3σ, truncated at ±the figure.
+//!   normal with the stated figure as 3σ, truncated at ±the figure;
+//! * each rail (`supply_tolerance`, ±5 % unless given): uniform over ±its tolerance. The
+//!   circuit is linear in a rail's voltage, so a rail adds its effect (found by the solver
+//!   with nominal parts) times its deviation to each quantity, and moves the amplifiers'
+//!   swing limit on its side; the cross term with the parts' own spread (tolerance × rail
+//!   deviation, a few 10⁻³ of the rail's effect) is left out.
+//!
+//! A build is good when the output amplifier stays inside its swing at both ends of the
+//! sensor range (and, AC-coupled, at rest) and the output stays inside the converter range.
 //!
 //! Parameters whose full-range effect (from the worst-case analysis) moves no quantity by
 //! more than [`NEGLIGIBLE_EFFECT`] of the converter span are held nominal in the Monte Carlo
@@ -47,8 +55,7 @@ use serde::Serialize;
 
 use super::perturb::{Kernel, Param, ParamKind, Workspace};
 use super::AnalysisConfig;
-use crate::amplifier::Rails;
-use crate::circuit::Circuit;
+use crate::circuit::{Circuit, PartKind, StageRole};
 use crate::request::{Coupling, Request};
 use crate::solve::Solver;
 use crate::units::{format, Quantity};
@@ -99,9 +106,13 @@ pub struct WorstCase {
 pub struct MonteCarlo {
     pub runs: usize,
     pub seed: u64,
-    /// Share of builds whose output at both source extremes stays inside the converter range.
+    /// Share of builds whose output at both source extremes (and, AC-coupled, at rest) stays
+    /// inside the converter range without the amplifier reaching its swing limits.
     #[serde(rename = "yield")]
     pub yield_: f64,
+    /// Builds in which the output amplifier reaches a swing limit at an end of the sensor
+    /// range or at rest: failures, whatever the converter range.
+    pub clipped: usize,
     /// Share that also keep the full requested headroom at each end.
     pub yield_headroom: f64,
     /// 0.95 × (1 − 2·headroom): the share of the converter span a build should cover.
@@ -143,6 +154,8 @@ pub struct Histogram {
     pub lo: f64,
     pub hi: f64,
     pub counts: Vec<u32>,
+    /// Builds whose value is held at a swing limit: counted here, not in the bins.
+    pub clipped: u32,
 }
 
 /// Worst case and Monte Carlo spread of the mapping `circuit` realises for `req`.
@@ -152,7 +165,7 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
         Err(reason) => {
             let cfg = &ToleranceConfig { bins: cfg.bins.min(MAX_BINS), ..cfg.clone() };
             let notes = vec![format!("No builds were drawn: {reason}.")];
-            let monte_carlo = summary::monte_carlo(Vec::new(), [0; 3], 0, req, cfg, notes);
+            let monte_carlo = summary::monte_carlo(Vec::new(), Vec::new(), [0; 4], 0, req, cfg, notes);
             return ToleranceAnalysis { worst_case: WorstCase::unknown(&reason), monte_carlo };
         }
     };
@@ -187,12 +200,20 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
         .iter()
         .map(|q| {
             let same = |p: &&Param| p.kind == q.kind && p.part == q.part;
-            model.kernel.params().iter().position(|p| same(&p)).map_or(true, |i| drawn[i])
+            model.kernel.params().iter().position(|p| same(&p)).is_none_or(|i| drawn[i])
         })
         .collect();
     let mut mc_ws = mc.kernel.workspace();
-    let (builds, counts) = draw_builds(mc, &mut mc_ws, req, cfg, &mc_drawn);
+    let (builds, clips, counts) = draw_builds(mc, &mut mc_ws, req, cfg, &mc_drawn);
     let mut notes = distributions(model.kernel.params());
+    for r in &model.rails {
+        notes.push(format!(
+            "Rail {} ({}): uniform over ±{} (request field supply_tolerance); the swing limit on its side moves with it.",
+            r.reference,
+            format(r.volts, Quantity::Voltage),
+            crate::units::format_percent(r.tolerance)
+        ));
+    }
     let held: Vec<String> = model
         .kernel
         .params()
@@ -214,7 +235,7 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
             held.join(", ")
         ));
     }
-    let monte_carlo = summary::monte_carlo(builds, counts, cfg.runs, req, cfg, notes);
+    let monte_carlo = summary::monte_carlo(builds, clips, counts, cfg.runs, req, cfg, notes);
     ToleranceAnalysis { worst_case, monte_carlo }
 }
 
@@ -228,21 +249,34 @@ struct Model {
     /// Nominal complex mid-band gain over nominal short-capacitor gain (AC coupling).
     ac_scale: f64,
     limits: Option<(f64, f64)>,
+    /// The rails as parameters after the kernel's own (see [`Rail`]).
+    rails: Vec<Rail>,
+}
+
+/// A rail as a tolerance parameter: its relative deviation δ lies within ±`tolerance`;
+/// the circuit is linear in the rail's voltage, so each quantity moves by `effect`·δ
+/// (the change per unit of δ, from the solver with nominal parts) and the swing limit on
+/// that side moves by `volts`·δ.
+#[derive(Debug, Clone)]
+struct Rail {
+    reference: String,
+    volts: f64,
+    tolerance: f64,
+    effect: [f64; 4],
 }
 
 impl Model {
     fn new(req: &Request, circuit: &Circuit) -> Result<Model, String> {
         let kernel = Kernel::compile(circuit, "adc").map_err(|e| e.0)?;
         let s = &req.source;
-        let rails = Rails { pos: circuit.rail_pos, neg: circuit.rail_neg };
-        let limits = kernel.output_is_amplifier().then(|| circuit.amplifier.output_limits(rails));
+        let limits = kernel.output_is_amplifier().then(|| circuit.output_limits());
         let ac = s.coupling == Coupling::Ac;
         let mut ac_scale = 1.0;
         if ac {
             let zero = vec![0.0; kernel.params().len()];
             let short = kernel.short_gain(&zero, &mut kernel.workspace());
             let short = short.ok_or("the mid-band gain could not be found")?;
-            let f_mid = (s.band_low * s.band_high).sqrt();
+            let f_mid = s.band_centre();
             let h = Solver::new(circuit).transfer(f_mid, "adc").map_err(|e| e.0)?;
             let full = if h.re >= 0.0 { h.norm() } else { -h.norm() };
             if short != 0.0 && (full / short).is_finite() {
@@ -250,11 +284,44 @@ impl Model {
             }
         }
         let mid = 0.5 * (s.min + s.max);
-        Ok(Model { kernel, ac, s_min: s.min, s_max: s.max, mid, ac_scale, limits })
+        let rails = rails(req, circuit, ac, mid);
+        Ok(Model { kernel, ac, s_min: s.min, s_max: s.max, mid, ac_scale, limits, rails })
     }
 
-    /// Unclamped `[output at min, output at max, gain, offset]` of build `p`.
+    /// Bounds of every parameter: the kernel's, then the rails' tolerances.
+    fn bounds(&self) -> Vec<f64> {
+        self.kernel.params().iter().map(|p| p.bound).chain(self.rails.iter().map(|r| r.tolerance)).collect()
+    }
+
+    /// Unclamped `[output at min, output at max, gain, offset]` of build `p` (the kernel's
+    /// parameters, then one relative deviation per rail).
     fn raw(&self, p: &[f64], ws: &mut Workspace) -> Option<[f64; 4]> {
+        let n = self.kernel.params().len();
+        let mut r = self.raw_parts(&p[..n], ws)?;
+        for (rail, d) in self.rails.iter().zip(&p[n..]) {
+            for (q, e) in r.iter_mut().zip(rail.effect) {
+                *q += e * d;
+            }
+        }
+        Some(r)
+    }
+
+    /// The output limits of build `p`: each rail's deviation moves the limit on its side.
+    fn limits_of(&self, p: &[f64]) -> Option<(f64, f64)> {
+        let (mut lo, mut hi) = self.limits?;
+        let n = self.kernel.params().len();
+        for (rail, d) in self.rails.iter().zip(&p[n..]) {
+            if rail.volts > 0.0 {
+                hi += rail.volts * d;
+            } else {
+                lo += rail.volts * d;
+            }
+        }
+        Some((lo, hi))
+    }
+
+    /// [`Model::raw`] for the kernel's parameters alone (rails nominal).
+    fn raw_parts(&self, p: &[f64], ws: &mut Workspace) -> Option<[f64; 4]> {
         if self.ac {
             let ((slope, icpt), short) = self.kernel.dc_line_and_short_gain(p, ws)?;
             let (level, g) = (slope * self.mid + icpt, self.ac_scale * short);
@@ -269,23 +336,71 @@ impl Model {
     /// Holds `y` inside the amplifier's output limits. Comparisons rather than f64::max/min,
     /// which stay library calls when the engine is optimised for size; NaN passes through.
     fn clamp(&self, y: f64) -> f64 {
-        match self.limits {
-            Some((lo, _)) if y < lo => lo,
-            Some((_, hi)) if y > hi => hi,
-            _ => y,
-        }
+        clamp_in(self.limits, y)
     }
 
-    /// The quantities of a build as `design::predict` defines them, outputs limited.
-    fn clamped(&self, r: [f64; 4]) -> [f64; 4] {
-        let (y1, y2) = (self.clamp(r[0]), self.clamp(r[1]));
+    /// Which of a build's outputs lie beyond the amplifier's swing limits: bit 0 the output
+    /// at the source's minimum, bit 1 at its maximum, bit 2 the rest level (AC coupling).
+    fn clips(&self, r: [f64; 4], limits: Option<(f64, f64)>) -> u8 {
+        let Some((lo, hi)) = limits else { return 0 };
+        let out = |y: f64| (y < lo || y > hi) as u8;
+        out(r[0]) | out(r[1]) << 1 | if self.ac { out(r[3]) << 2 } else { 0 }
+    }
+
+    /// The quantities of a build as `design::predict` defines them, outputs held inside
+    /// `limits`.
+    fn clamped(&self, r: [f64; 4], limits: Option<(f64, f64)>) -> [f64; 4] {
+        let (y1, y2) = (clamp_in(limits, r[0]), clamp_in(limits, r[1]));
         if self.ac {
-            [y1, y2, r[2], self.clamp(r[3])]
+            [y1, y2, r[2], clamp_in(limits, r[3])]
         } else {
             let g = slope(y1, y2, self.s_min, self.s_max);
             [y1, y2, g, y1 - g * self.s_min]
         }
     }
+}
+
+/// `y` held inside `limits`. Comparisons rather than f64::max/min, which stay library calls
+/// when the engine is optimised for size; NaN passes through.
+fn clamp_in(limits: Option<(f64, f64)>, y: f64) -> f64 {
+    match limits {
+        Some((lo, _)) if y < lo => lo,
+        Some((_, hi)) if y > hi => hi,
+        _ => y,
+    }
+}
+
+/// The circuit's rails as tolerance parameters, each quantity's change per unit of relative
+/// deviation found by the solver from a 0.1 % step of the rail (the circuit is linear in it).
+fn rails(req: &Request, circuit: &Circuit, ac: bool, mid: f64) -> Vec<Rail> {
+    const STEP: f64 = 1e-3;
+    let s = &req.source;
+    let quantities = |c: &Circuit| -> Option<[f64; 4]> {
+        let solver = Solver::new(c);
+        let at = |x: f64| solver.dc(x).ok().and_then(|o| o.voltage("adc"));
+        if ac {
+            let level = at(mid)?;
+            Some([level, level, 0.0, level])
+        } else {
+            let (y1, y2) = (at(s.min)?, at(s.max)?);
+            let g = slope(y1, y2, s.min, s.max);
+            Some([y1, y2, g, y1 - g * s.min])
+        }
+    };
+    let Some(nominal) = quantities(circuit) else { return Vec::new() };
+    let supplies = circuit.parts.iter().filter(|p| p.stage == StageRole::Supply && p.kind == PartKind::VoltageSource);
+    supplies
+        .filter_map(|p| {
+            let tolerance = req.rail_tolerance(p.value);
+            let mut c = circuit.clone();
+            let part = c.parts.iter_mut().find(|q| q.reference == p.reference)?;
+            part.value *= 1.0 + STEP;
+            let moved = quantities(&c)?;
+            let effect = std::array::from_fn(|q| (moved[q] - nominal[q]) / STEP);
+            Some(Rail { reference: p.reference.clone(), volts: p.value, tolerance, effect })
+        })
+        .filter(|r| r.tolerance > 0.0)
+        .collect()
 }
 
 fn slope(y1: f64, y2: f64, x1: f64, x2: f64) -> f64 {
@@ -304,7 +419,7 @@ impl WorstCase {
     }
 }
 
-const METHOD: &str = "Extreme values over the tolerance box (each part at ±its tolerance, each amplifier's offset and bias currents at ±their figures). For each quantity the sign of every parameter's effect, from a central difference across its full range, picks the vertex that pushes the quantity up and the one that pushes it down; single-parameter flips are then tried at each until none improves it. This suffices because every node voltage is a ratio of two functions that are linear in each part's conductance, the offset and each bias current taken separately, so each quantity is monotone in each parameter across a box of a few per cent and its extremes lie at vertices.";
+const METHOD: &str = "Extreme values over the tolerance box (each part at ±its tolerance, each amplifier's offset and bias currents at ±their figures, each rail at ±its tolerance). For each quantity the sign of every parameter's effect, from a central difference across its full range, picks the vertex that pushes the quantity up and the one that pushes it down; single-parameter flips are then tried at each until none improves it. This suffices because every node voltage is a ratio of two functions that are linear in each part's conductance, the offset and each bias current taken separately, so each quantity is monotone in each parameter across a box of a few per cent and its extremes lie at vertices.";
 
 /// Parameters whose effect across their full range on every quantity stays below this
 /// fraction of the converter span (gain: of itself) are held nominal in the Monte Carlo:
@@ -326,7 +441,7 @@ fn significant(effect: &[[f64; 4]], span: f64) -> Vec<bool> {
 
 /// The worst case and each parameter's full-range effect on the four quantities.
 fn worst_case(model: &Model, ws: &mut Workspace) -> (WorstCase, Vec<[f64; 4]>) {
-    let bounds: Vec<f64> = model.kernel.params().iter().map(|p| p.bound).collect();
+    let bounds = model.bounds();
     let n = bounds.len();
     let mut p = vec![0.0; n];
     let Some(nominal) = model.raw(&p, ws) else {
@@ -404,10 +519,10 @@ fn worst_case(model: &Model, ws: &mut Workspace) -> (WorstCase, Vec<[f64; 4]>) {
 /// inside the converter range, inside the headroom, and covering the range-use fraction.
 fn draw_builds(
     model: &Model, ws: &mut Workspace, req: &Request, cfg: &ToleranceConfig, drawn: &[bool],
-) -> (Vec<[f64; 4]>, [usize; 3]) {
+) -> (Vec<[f64; 4]>, Vec<u8>, [usize; 4]) {
     let params = model.kernel.params();
     let mut rng = ChaCha8Rng::seed_from_u64(cfg.seed);
-    let mut p_buf = vec![0.0; params.len()];
+    let mut p_buf = vec![0.0; params.len() + model.rails.len()];
     let p = &mut p_buf[..];
     // Resistors are drawn uniformly, two per 64-bit word; the amplifier's figures from a
     // normal. Capacitors move none of the quantities, so they are not drawn.
@@ -427,7 +542,8 @@ fn draw_builds(
     let (h_lo, h_hi) = (d.min + d.headroom * span - slack, d.max - d.headroom * span + slack);
     let fraction = summary::range_use_fraction(req);
     let mut builds = Vec::with_capacity(cfg.runs);
-    let mut counts = [0usize; 3];
+    let mut counts = [0usize; 4];
+    let mut clips = Vec::with_capacity(cfg.runs);
     for _ in 0..cfg.runs {
         for pair in parts.chunks(2) {
             let bits = rng.next_u64();
@@ -439,18 +555,26 @@ fn draw_builds(
         for &(i, bound) in &amps {
             p[i] = bound * truncated_normal(&mut rng);
         }
+        // Rails: uniform over ±their tolerance, like the parts.
+        for (j, rail) in model.rails.iter().enumerate() {
+            p[params.len() + j] = rail.tolerance * uniform_pm1(rng.next_u32());
+        }
         let Some(r) = model.raw(p, ws) else { continue };
-        let y = model.clamped(r);
+        let limits = model.limits_of(p);
+        let y = model.clamped(r, limits);
         if !(y[0].is_finite() && y[1].is_finite() && y[2].is_finite() && y[3].is_finite()) {
             continue;
         }
+        let clip = model.clips(r, limits);
         let (lo, hi) = if y[0] < y[1] { (y[0], y[1]) } else { (y[1], y[0]) };
-        counts[0] += (lo >= d.min && hi <= d.max) as usize;
-        counts[1] += (lo >= h_lo && hi <= h_hi) as usize;
+        counts[0] += (clip == 0 && lo >= d.min && hi <= d.max) as usize;
+        counts[3] += (clip != 0) as usize;
+        clips.push(clip);
+        counts[1] += (clip == 0 && lo >= h_lo && hi <= h_hi) as usize;
         counts[2] += (hi - lo >= fraction * span) as usize;
         builds.push(y);
     }
-    (builds, counts)
+    (builds, clips, counts)
 }
 
 /// Uniform over (−1, 1) from 32 random bits, symmetric about 0 (steps of 2⁻³¹, far finer
@@ -484,7 +608,7 @@ fn distributions(params: &[Param]) -> Vec<String> {
     let mut out = Vec::new();
     for (kind, bound, parts) in &groups {
         let list = parts.join(", ");
-        let pct = format!("{} %", format(bound * 100.0, Quantity::Ratio));
+        let pct = crate::units::format_percent(*bound);
         let fig = format(*bound, if *kind == ParamKind::Offset { Quantity::Voltage } else { Quantity::Current });
         let normal = format!("normal with {fig} as 3σ, truncated at ±{fig}");
         out.push(match kind {

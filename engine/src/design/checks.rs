@@ -83,7 +83,7 @@ pub(super) fn design_checks(
     // Below a nanovolt the error is rounding noise of the arithmetic, not of the parts.
     let rounding_error = if s.rounding_error < 1e-9 { 0.0 } else { s.rounding_error };
     let err_pct = rounding_error / span * 100.0;
-    let lsb = span / 2f64.powi(d.bits as i32);
+    let lsb = d.lsb();
     let msg = format!("After rounding to {} the mapping is off by at most {} ({:.3} % of the span, {:.1} LSB) from the ideal; the headroom absorbs it and a two-point calibration removes it.", req.parts.resistor_series.name(), v(rounding_error), err_pct, rounding_error / lsb);
     c.push(if err_pct <= 0.5 {
         Check::ok("rounding", msg)
@@ -139,17 +139,30 @@ pub(super) fn design_checks(
     }
     if let Some(fh) = p.band_high {
         if fh < req.source.band_high {
-            c.push(Check::warning(
+            c.push(Check::error(
                 "bandwidth",
-                format!("The response falls 3 dB at {}, below the band edge {}.", hz(fh), hz(req.source.band_high)),
+                format!(
+                    "The response falls 3 dB at {}, inside the band (its upper edge is {}): signals between them \
+                     are lost. The gain stage needs a gain-bandwidth of at least {} (the amplifier has {}); choose a \
+                     faster amplifier, split the gain over two stages, or lower band_high.",
+                    hz(fh),
+                    hz(req.source.band_high),
+                    hz(r.gbw_min),
+                    hz(amp.gbw)
+                ),
             ));
         }
     }
     if let (Some(fl), Coupling::Ac) = (p.band_low, req.source.coupling) {
         if fl > req.source.band_low {
-            c.push(Check::warning(
+            c.push(Check::error(
                 "band_low",
-                format!("The response falls 3 dB at {}, above band_low {}.", hz(fl), hz(req.source.band_low)),
+                format!(
+                    "The response falls 3 dB at {}, inside the band (its lower edge is {}): signals between them \
+                     are lost. Larger coupling capacitors or larger resistors behind them move the corner down.",
+                    hz(fl),
+                    hz(req.source.band_low)
+                ),
             ));
         }
     }

@@ -5,7 +5,7 @@
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Circuit, PartKind};
+use crate::circuit::{Circuit, PartKind, PartRole};
 use crate::request::Request;
 use crate::synth;
 
@@ -124,7 +124,8 @@ pub fn noise_gain(c: &Circuit) -> f64 {
     if inn == out {
         return 1.0;
     }
-    let rs = c.part("RSENSE").map(|p| p.value).unwrap_or(0.0);
+    let rs = c.with_role(PartRole::SourceResistance).map(|p| p.value).unwrap_or(0.0);
+    let sensor = c.sensor_terminals();
     let mut rf = None;
     let mut g = 0.0;
     for p in c.parts.iter().filter(|p| p.kind == PartKind::Resistor && !p.bench && p.nodes.contains(inn)) {
@@ -132,7 +133,7 @@ pub fn noise_gain(c: &Circuit) -> f64 {
         if other == out {
             rf = Some(p.value);
         } else {
-            g += 1.0 / (p.value + if other == "sense" { rs } else { 0.0 });
+            g += 1.0 / (p.value + if sensor.contains(other) { rs } else { 0.0 });
         }
     }
     rf.map_or(1.0, |rf| 1.0 + rf * g)

@@ -105,6 +105,11 @@ pub struct FilterSpec {
     pub passband_error: f64,
     /// How strong unwanted content above the band can be, as a fraction of full scale.
     pub out_of_band_level: f64,
+    /// The share of `passband_error` the rest of the chain takes at `band_high` (front end,
+    /// gain stage, amplifier gain-bandwidth), dB; the filter is designed for what is left.
+    /// Set by the design pipeline when it measures the built chain; never part of a request.
+    #[serde(skip)]
+    pub chain_droop_db: f64,
 }
 
 impl Default for FilterSpec {
@@ -116,6 +121,7 @@ impl Default for FilterSpec {
             topology: FilterTopology::SallenKey,
             passband_error: DEFAULT_PASSBAND_ERROR_DB,
             out_of_band_level: 1.0,
+            chain_droop_db: 0.0,
         }
     }
 }
@@ -140,6 +146,52 @@ pub struct Destination {
     pub input_capacitance: f64,
     /// Largest current a fault may push into the converter's input protection, A.
     pub injection_limit: f64,
+}
+
+impl Destination {
+    /// The rate the converter's input is sampled at: the sample rate for a sampling
+    /// converter, the modulator's rate for an oversampling one (the sample rate when it
+    /// is not given).
+    pub fn input_rate(&self) -> f64 {
+        if self.converter.samples() {
+            self.sample_rate
+        } else {
+            self.modulator_rate.unwrap_or(self.sample_rate)
+        }
+    }
+
+    /// The first frequency that folds onto a band reaching `band_high`: the input rate
+    /// minus `band_high`. `None` when it does not lie above the band (or the band is empty).
+    pub fn folding_frequency(&self, band_high: f64) -> Option<f64> {
+        let f = self.input_rate() - band_high;
+        (f.is_finite() && f > band_high && band_high > 0.0).then_some(f)
+    }
+
+    /// The number of codes, 2^bits.
+    pub fn levels(&self) -> f64 {
+        levels_of(self.bits)
+    }
+
+    /// One LSB of the converter's input span, V.
+    pub fn lsb(&self) -> f64 {
+        lsb_of(self.max - self.min, self.bits)
+    }
+}
+
+/// The number of codes of a `bits`-bit converter, 2^bits.
+pub fn levels_of(bits: u32) -> f64 {
+    2f64.powi(bits as i32)
+}
+
+/// One LSB of a converter with input span `span` (V) and `bits` bits: span / 2^bits.
+pub fn lsb_of(span: f64, bits: u32) -> f64 {
+    span / levels_of(bits)
+}
+
+/// Full dynamic range (the SNR for a full-scale sine) of an ideal `bits`-bit converter,
+/// 20·log10(2^N·√1.5) ≈ 6.02·N + 1.76 dB.
+pub fn full_range_db(bits: u32) -> f64 {
+    20.0 * (levels_of(bits) * 1.5f64.sqrt()).log10()
 }
 
 pub(super) fn read_destination(v: &Value) -> Result<Destination, RequestError> {
@@ -321,5 +373,5 @@ pub(super) fn read_filter(v: &Value) -> Result<FilterSpec, RequestError> {
         ));
     }
     o.finish(&["response", "order", "max_order", "topology", "passband_error", "out_of_band_level"])?;
-    Ok(FilterSpec { response, order, max_order, topology, passband_error, out_of_band_level })
+    Ok(FilterSpec { response, order, max_order, topology, passband_error, out_of_band_level, chain_droop_db: 0.0 })
 }

@@ -20,6 +20,7 @@ mod json;
 mod parts;
 mod source;
 
+pub use destination::{full_range_db, levels_of, lsb_of};
 pub use destination::{
     ConverterKind, Destination, FilterSpec, FilterTopology, ResponseKind, DEFAULT_ACQUISITION_FRACTION, DEFAULT_BITS,
     DEFAULT_DESTINATION_IMPEDANCE, DEFAULT_HEADROOM, DEFAULT_INJECTION_LIMIT, DEFAULT_INPUT_CAPACITANCE,
@@ -55,6 +56,10 @@ pub struct Request {
     pub destination: Destination,
     /// The rails available, in volts (e.g. `[5]`, `[12, -12]`).
     pub supplies: Vec<f64>,
+    /// Each rail's tolerance as a fraction, in the order of `supplies` (one value applies to
+    /// every rail). Empty: [`DEFAULT_SUPPLY_TOLERANCE`] for each.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub supply_tolerance: Vec<f64>,
     pub parts: Parts,
     /// Amplifier facts the user knows; absent fields are taken from a generic class.
     #[serde(default)]
@@ -121,6 +126,10 @@ impl Request {
         let dest_v = top.required("destination")?;
         let destination = read_destination(dest_v)?;
         let supplies = read_supplies(top.required("supplies")?)?;
+        let supply_tolerance = match top.get("supply_tolerance") {
+            None | Some(Value::Null) => Vec::new(),
+            Some(v) => read_supply_tolerance(v, supplies.len())?,
+        };
         let src_v = top.required("source")?;
         let source = read_source(src_v, &destination, &supplies)?;
         let parts = match top.get("parts") {
@@ -147,6 +156,7 @@ impl Request {
             "source",
             "destination",
             "supplies",
+            "supply_tolerance",
             "parts",
             "amplifier",
             "keep_polarity",
@@ -160,6 +170,7 @@ impl Request {
             source,
             destination,
             supplies,
+            supply_tolerance,
             parts,
             amplifier,
             keep_polarity,
@@ -172,6 +183,47 @@ impl Request {
     pub fn to_json(&self) -> String {
         serde_json::to_string_pretty(self).unwrap_or_default()
     }
+}
+
+/// Tolerance of a rail when the request gives none: ±5 %. Common practice (the usual
+/// allowance of a regulated bench or board rail; the USB 2.0 specification's 4.75–5.25 V
+/// bus window is the same ±5 %, from memory).
+pub const DEFAULT_SUPPLY_TOLERANCE: f64 = 0.05;
+
+impl Request {
+    /// The tolerance of rail `v` (a value of `supplies`), as a fraction.
+    pub fn rail_tolerance(&self, v: f64) -> f64 {
+        let i = self.supplies.iter().position(|&x| x == v);
+        match (self.supply_tolerance.as_slice(), i) {
+            ([], _) => DEFAULT_SUPPLY_TOLERANCE,
+            ([one], _) => *one,
+            (all, Some(i)) => all.get(i).copied().unwrap_or(DEFAULT_SUPPLY_TOLERANCE),
+            (_, None) => DEFAULT_SUPPLY_TOLERANCE,
+        }
+    }
+}
+
+fn read_supply_tolerance(v: &Value, rails: usize) -> Result<Vec<f64>, RequestError> {
+    let items: Vec<&Value> = match v {
+        Value::Array(a) => a.iter().collect(),
+        other => vec![other],
+    };
+    if items.len() != 1 && items.len() != rails {
+        return Err(field_err(
+            "supply_tolerance",
+            &format!("give one tolerance for every rail or one per rail ({rails} here), e.g. \"5 %\" or [0.05, 0.02]"),
+        ));
+    }
+    let mut out = Vec::new();
+    for (i, item) in items.iter().enumerate() {
+        let path = if items.len() == 1 { "supply_tolerance".to_string() } else { format!("supply_tolerance[{i}]") };
+        let t = quantity(&path, item, Quantity::Ratio)?;
+        if !(0.0..=0.25).contains(&t) {
+            return Err(field_err(&path, "must be a fraction from 0 to 0.25 (e.g. 0.05 or \"5 %\")"));
+        }
+        out.push(t);
+    }
+    Ok(out)
 }
 
 fn read_supplies(v: &Value) -> Result<Vec<f64>, RequestError> {

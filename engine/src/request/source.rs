@@ -126,6 +126,22 @@ pub struct Source {
     pub bridge: Option<BridgeSpec>,
 }
 
+impl Source {
+    /// The band's geometric centre, √(band_low·band_high), Hz (0 when `band_low` is 0).
+    pub fn band_centre(&self) -> f64 {
+        (self.band_low * self.band_high).sqrt()
+    }
+
+    /// Where the mid-band gain is read, Hz: the band's geometric centre for AC coupling,
+    /// DC (0 Hz) for DC coupling.
+    pub fn mid_band(&self) -> f64 {
+        match self.coupling {
+            Coupling::Ac => self.band_centre(),
+            Coupling::Dc => 0.0,
+        }
+    }
+}
+
 /// A resistive bridge (`source.kind = "bridge"`).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct BridgeSpec {
@@ -404,7 +420,7 @@ fn read_bridge(o: &Obj, supplies: &[f64]) -> Result<BridgeSpec, RequestError> {
     }
     let ratiometric = o.bool("ratiometric")?.unwrap_or(false);
     let zero_balance = o.q("zero_balance", Quantity::Ratio)?.unwrap_or(DEFAULT_ZERO_BALANCE);
-    if !(zero_balance >= 0.0 && zero_balance < 1.0) {
+    if !(0.0..1.0).contains(&zero_balance) {
         return Err(o.err("zero_balance", "must be a fraction of the full-scale output from 0 to 1, e.g. \"2 %\""));
     }
     Ok(BridgeSpec { excitation, sensitivity, bridge_resistance, active_arms, ratiometric, zero_balance })

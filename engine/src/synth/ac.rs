@@ -6,8 +6,8 @@
 //!                         Rb                Rg
 //!                         ref ─ Rt/Rbt divider, Cb    Cg ─ ground
 //! ```
-//! The divider sets `ref` to the wanted output DC level; `Rb` carries no DC current, so the
-//! + input sits at that level; `Cg` makes the DC gain one, so the output sits there too,
+//! The divider sets `ref` to the wanted output DC level; `Rb` carries no DC current, so the +
+//! input sits at that level; `Cg` makes the DC gain one, so the output sits there too,
 //! whatever the mid-band gain `G = 1 + Rf/Rg`. Mid-band, the sensor reaches the + input
 //! through `Rb / (R_sensor + Ra + Rb)`; `Ra` is added only when the swing must be attenuated.
 //!
@@ -20,7 +20,7 @@
 use super::round::{anchors, optimise_all, pairs, RoundConfig};
 use super::{Limits, Synthesis, Target};
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Builder, PartKind, Stage, StageRole};
+use crate::circuit::{Builder, PartKind, PartRole, Stage, StageKind, StageRole};
 use crate::request::Request;
 use crate::units::{format, Quantity};
 use crate::values;
@@ -173,7 +173,7 @@ fn variant(
         c1,
         ctol,
         &["sense", after_c1],
-        StageRole::Coupling,
+        (StageRole::Coupling, PartRole::CouplingCapacitor),
         "coupling capacitor: blocks the sensor's DC level",
     )];
     if attenuate {
@@ -182,27 +182,28 @@ fn variant(
             ra,
             rtol,
             &[after_c1, inp],
-            StageRole::Coupling,
+            (StageRole::Coupling, PartRole::Attenuator),
             "series resistor: attenuates the swing with the bias resistor",
         ));
     }
+    // Without a divider the bias resistor returns straight to ground.
+    let ref_name = if has_divider { "ref" } else { "0" };
     coupling.push(bld.add(
         PartKind::Resistor,
         rb,
         rtol,
-        &[inp, "ref"],
-        StageRole::Coupling,
+        &[inp, ref_name],
+        (StageRole::Coupling, PartRole::Bias),
         "bias resistor: holds the + input at the reference",
     ));
     let mut reference = Vec::new();
-    let ref_name = if has_divider { "ref" } else { "0" };
     if has_divider {
         reference.push(bld.add(
             PartKind::Resistor,
             rt,
             rtol,
             &[ref_node, "ref"],
-            StageRole::Reference,
+            (StageRole::Reference, PartRole::DividerTop),
             "reference divider, upper leg",
         ));
         reference.push(bld.add(
@@ -210,7 +211,7 @@ fn variant(
             rbt,
             rtol,
             &["ref", "0"],
-            StageRole::Reference,
+            (StageRole::Reference, PartRole::DividerBottom),
             "reference divider, lower leg",
         ));
         if let Some(c) = cb {
@@ -219,32 +220,28 @@ fn variant(
                 c,
                 ctol,
                 &["ref", "0"],
-                StageRole::Reference,
+                (StageRole::Reference, PartRole::Bypass),
                 "reference bypass: keeps supply noise and signal current off the reference",
             ));
-        }
-    }
-    // Without a divider the bias resistor returns straight to ground.
-    if !has_divider {
-        if let Some(p) = bld.parts.iter_mut().find(|p| p.nodes == ["inp1", "ref"]) {
-            p.nodes[1] = ref_name.to_string();
         }
     }
     let inn = if follower { "adc" } else { "inn1" };
     let mut gain = Vec::new();
     if !follower {
-        gain.push(bld.add(PartKind::Resistor, rg, rtol, &[inn, "rg1"], StageRole::Gain, "gain-setting resistor"));
+        let at = (StageRole::Gain, PartRole::GainSetting);
+        gain.push(bld.add(PartKind::Resistor, rg, rtol, &[inn, "rg1"], at, "gain-setting resistor"));
         if let Some(c) = cg {
             gain.push(bld.add(
                 PartKind::Capacitor,
                 c,
                 ctol,
                 &["rg1", "0"],
-                StageRole::Gain,
+                (StageRole::Gain, PartRole::DcBlock),
                 "makes the DC gain one so the output rests at the reference",
             ));
         }
-        gain.push(bld.add(PartKind::Resistor, rf, rtol, &["adc", inn], StageRole::Gain, "feedback resistor"));
+        let at = (StageRole::Gain, PartRole::FeedbackResistor);
+        gain.push(bld.add(PartKind::Resistor, rf, rtol, &["adc", inn], at, "feedback resistor"));
     }
     let vneg = if rails.is_dual() { "vneg" } else { "0" };
     gain.push(bld.add(
@@ -252,7 +249,7 @@ fn variant(
         amp.gbw,
         None,
         &[inp, inn, "vpos", vneg, "adc"],
-        StageRole::Gain,
+        (StageRole::Gain, PartRole::Amplifier),
         "amplifier: AC gain and converter drive",
     ));
 
@@ -284,6 +281,7 @@ fn variant(
     };
     let mut stages = vec![Stage {
         role: StageRole::Coupling,
+        kind: StageKind::InputNetwork,
         description:
             "coupling capacitor and bias resistor: block the sensor's DC level and set the amplifier's input level"
                 .to_string(),
@@ -292,11 +290,13 @@ fn variant(
     if !reference.is_empty() {
         stages.push(Stage {
             role: StageRole::Reference,
+            kind: StageKind::Reference,
             description: format!("reference at {} from a divider with its bypass capacitor", v(vref)),
             parts: reference,
         });
     }
-    stages.push(Stage { role: StageRole::Gain, description: topology.to_string(), parts: gain });
+    let kind = StageKind::Gain { inverting: false };
+    stages.push(Stage { role: StageRole::Gain, kind, description: topology.to_string(), parts: gain });
     let error = (m_a - m).abs() * half + (vref - yc).abs();
     let synthesis = Synthesis {
         circuit: super::finish(bld, stages, amp, rails),

@@ -132,9 +132,7 @@ pub struct Shortfall {
 }
 
 /// Full dynamic range of an ideal N-bit converter, 20·log10(2^N·√1.5) dB (6.02·N + 1.76).
-pub fn full_range_db(bits: u32) -> f64 {
-    20.0 * (2f64.powi(bits as i32) * 1.5f64.sqrt()).log10()
-}
+pub use crate::request::full_range_db;
 
 /// Rejection required at the alias frequency: the full dynamic range reduced by how far
 /// below full scale (`level`, a fraction) the out-of-band content is.
@@ -146,10 +144,7 @@ pub fn required_rejection_db(bits: u32, level: f64) -> f64 {
 /// the modulator rate minus band_high for an oversampling one. `None` when it does not lie
 /// above the band.
 pub fn alias_frequency(req: &Request) -> Option<f64> {
-    let d = &req.destination;
-    let rate = if d.converter.samples() { d.sample_rate } else { d.modulator_rate.unwrap_or(d.sample_rate) };
-    let f = rate - req.source.band_high;
-    (f.is_finite() && f > req.source.band_high && req.source.band_high > 0.0).then_some(f)
+    req.destination.folding_frequency(req.source.band_high)
 }
 
 /// Why no filter was designed.
@@ -193,7 +188,7 @@ pub fn design(req: &Request) -> Result<FilterDesign, NoFilter> {
     let mut fallback = None;
     for n in orders {
         let Some(proto) = prototype(spec.response, n) else { continue };
-        let (xp, ripple_over) = proto.pass_edge(spec.passband_error);
+        let (xp, ripple_over) = proto.pass_edge((spec.passband_error - spec.chain_droop_db).max(0.01));
         let lo = bh / xp;
         let hi = proto.stop_edge(required).map_or(0.0, |xs| fa / xs);
         if hi < lo * CORNER_MARGIN && n != last {
@@ -206,7 +201,7 @@ pub fn design(req: &Request) -> Result<FilterDesign, NoFilter> {
         for &t in positions {
             let corner = if hi > lo { lo * (hi / lo).powf(t) } else { lo };
             let Some(d) = build(req, &proto, corner, [lo, hi], fa, required, ripple_over, cfg) else { continue };
-            if d.rounded_db >= required && d.passband_error_db <= d.passband_allowed_db + 1e-9 {
+            if d.rounded_db >= required && d.passband_error_db <= d.passband_allowed_db - spec.chain_droop_db + 1e-9 {
                 return Ok(d);
             }
             first.get_or_insert(d);

@@ -20,7 +20,7 @@
 
 use std::f64::consts::PI;
 
-use crate::circuit::{Circuit, PartKind, GND};
+use crate::circuit::{Circuit, Part, PartKind, PartRole, StageKind, GND};
 use crate::request::{Coupling, Request};
 use crate::synth::filter::sections::{SectionKind, C_MAX, C_MIN};
 use crate::synth::filter::FilterDesign;
@@ -38,39 +38,41 @@ pub struct Merge {
     pub f_p: f64,
     /// How it is built, for the part's purpose and the equations.
     pub how: &'static str,
+    /// The capacitor's role: across the feedback resistor, or from the + input to ground.
+    pub role: PartRole,
 }
 
-/// The merge for the gain stage in `c` (its output already renamed to `out`), or `None`
-/// when the stage has no place for the pole or the pole would cost rejection or flatness.
+/// The merge for the single-ended gain stage in `c` (its output already renamed to `out`),
+/// or `None` when the stage has no place for the pole or the pole would cost rejection or
+/// flatness.
 /// On success `f` is updated: section 1 is marked as in the gain stage with its new pole,
 /// and the cascade's figures are recomputed.
 pub fn plan(c: &Circuit, req: &Request, f: &mut FilterDesign, out: &str) -> Option<Merge> {
     let first = f.realised.first().filter(|r| r.kind == SectionKind::FirstOrder)?;
     let want = first.f_n;
-    let u =
-        c.parts.iter().find(|p| p.kind == PartKind::OpAmp && !p.bench && p.nodes.len() >= 5 && p.nodes[4] == out)?;
-    let (inp, inn) = (u.nodes[0].clone(), u.nodes[1].clone());
-    let plain = |p: &crate::circuit::Part| !p.bench && p.kind == PartKind::Resistor && p.nodes.len() == 2;
-    let joins = |p: &crate::circuit::Part, a: &str, b: &str| {
-        (p.nodes[0] == a && p.nodes[1] == b) || (p.nodes[0] == b && p.nodes[1] == a)
-    };
+    let stage = c.stages.iter().find(|s| matches!(s.kind, StageKind::Gain { .. }))?;
+    let in_stage = |p: &Part, role: PartRole| p.role == Some(role) && stage.parts.contains(&p.reference);
+    let has = |role: PartRole| c.parts.iter().find(|p| in_stage(p, role));
+    let u = has(PartRole::Amplifier).filter(|u| u.nodes.len() >= 5)?;
+    let inp = u.nodes[0].clone();
+    let plain = |p: &Part| !p.bench && p.kind == PartKind::Resistor && p.nodes.len() == 2;
     let capacitor_at =
         |n: &str| c.parts.iter().any(|p| !p.bench && p.kind == PartKind::Capacitor && p.nodes.iter().any(|x| x == n));
-    let from_sensor = |n: &str| c.parts.iter().any(|p| plain(p) && joins(p, "sense", n));
-    let (nodes, resistance, how) = if from_sensor(&inn) && inn != out {
-        let rf = c.parts.iter().find(|p| plain(p) && joins(p, out, &inn))?;
-        ([out.to_string(), inn.clone()], rf.value, "capacitor across the feedback resistor")
-    } else if req.source.coupling == Coupling::Dc && from_sensor(&inp) && !capacitor_at(&inp) {
+    let (nodes, resistance, how, role) = if has(PartRole::MinusInput).is_some() {
+        let rf = has(PartRole::FeedbackResistor)?;
+        let inn = u.nodes[1].clone();
+        ([out.to_string(), inn], rf.value, "capacitor across the feedback resistor", PartRole::FeedbackPole)
+    } else if req.source.coupling == Coupling::Dc && has(PartRole::PlusInput).is_some() && !capacitor_at(&inp) {
+        // The + input's legs in parallel, the sensor's impedance in series with its own.
         let mut g = 0.0;
-        for p in c.parts.iter().filter(|p| plain(p) && p.nodes.iter().any(|x| *x == inp)) {
-            let other = if p.nodes[0] == inp { &p.nodes[1] } else { &p.nodes[0] };
-            let r = if other == "sense" { p.value + req.source.impedance } else { p.value };
+        for p in c.parts.iter().filter(|p| plain(p) && p.nodes.contains(&inp)) {
+            let r = if p.role == Some(PartRole::PlusInput) { p.value + req.source.impedance } else { p.value };
             g += 1.0 / r;
         }
         if g <= 0.0 {
             return None;
         }
-        ([inp.clone(), GND.to_string()], 1.0 / g, "capacitor from the + input to ground")
+        ([inp.clone(), GND.to_string()], 1.0 / g, "capacitor from the + input to ground", PartRole::InputPole)
     } else {
         return None;
     };
@@ -101,7 +103,7 @@ pub fn plan(c: &Circuit, req: &Request, f: &mut FilterDesign, out: &str) -> Opti
             s.in_gain_stage = true;
         }
         *f = d;
-        return Some(Merge { nodes, capacitor, resistance, f_p, how });
+        return Some(Merge { nodes, capacitor, resistance, f_p, how, role });
     }
     None
 }

@@ -8,8 +8,8 @@
 //! Every DC case is met by one amplifier ([`dc`]): a non-inverting stage whose + input is a
 //! weighted average of the sensor, a rail and ground (m > 0, b ≥ 0, or b < 0 with a negative
 //! rail); a non-inverting stage whose feedback leg returns partly to the positive rail
-//! (m > 0, b < 0 on one supply); and, when polarity may flip, an inverting stage with its
-//! + input on a divider, or an inverting summer (m < 0). Because a reference divider is folded
+//! (m > 0, b < 0 on one supply); and, when polarity may flip, an inverting stage with its +
+//! input on a divider, or an inverting summer (m < 0). Because a reference divider is folded
 //! into the summing network, its own impedance is part of the gain equations and it never
 //! needs a buffer. AC coupling ([`ac`]) uses a coupling capacitor into a non-inverting stage
 //! biased from a bypassed divider at the output's DC level, with DC gain one.
@@ -30,7 +30,7 @@ pub mod round;
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Builder, Circuit, PartKind, Stage, StageRole};
+use crate::circuit::{Builder, Circuit, PartKind, PartRole, Stage, StageRole};
 use crate::diag::Check;
 use crate::request::{Coupling, Request};
 
@@ -93,7 +93,13 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
     let span = d.max - d.min;
     let mut lo = d.min + d.headroom * span;
     let mut hi = d.max - d.headroom * span;
-    let (out_lo, out_hi) = amp.output_limits(rails);
+    // The swing on the rails at the low end of their tolerance (each rail nearer ground),
+    // so that no build of the supply clips the range.
+    let low = Rails {
+        pos: rails.pos * (1.0 - req.rail_tolerance(rails.pos)),
+        neg: rails.neg * (1.0 - req.rail_tolerance(rails.neg)),
+    };
+    let (out_lo, out_hi) = amp.output_limits(low);
     // Stay a margin inside the stated swing: the output stage stops being linear before it.
     let (out_lo, out_hi) = (out_lo + SWING_MARGIN, out_hi - SWING_MARGIN);
     let fmt = |v: f64| crate::units::format(v, crate::units::Quantity::Voltage);
@@ -104,7 +110,7 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
             checks.push(Check::error(
                 "range_beyond_rails",
                 format!(
-                    "The amplifier output reaches only {} … {} on these rails, which covers less than half of the wanted {} … {}; add a rail that reaches the converter range (e.g. a negative rail for a converter input below 0 V) or give amplifier swing figures.",
+                    "The amplifier output reaches only {} … {} on these rails at the low end of their tolerance, which covers less than half of the wanted {} … {}; add a rail that reaches the converter range (e.g. a negative rail for a converter input below 0 V) or give amplifier swing figures.",
                     fmt(out_lo), fmt(out_hi), fmt(lo), fmt(hi)
                 ),
             ));
@@ -113,7 +119,7 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
         checks.push(Check::warning(
             "swing_limits_range",
             format!(
-                "The amplifier output reaches only {} … {} on these rails, so the design uses {} … {} instead of {} … {}; a rail-to-rail output amplifier or a wider rail recovers the rest.",
+                "The amplifier output reaches only {} … {} on these rails at the low end of their tolerance (supply_tolerance), so the design uses {} … {} instead of {} … {}; a rail-to-rail output amplifier or a wider rail recovers the rest.",
                 fmt(out_lo), fmt(out_hi), fmt(new_lo), fmt(new_hi), fmt(lo), fmt(hi)
             ),
         ));
@@ -121,7 +127,7 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
         hi = new_hi;
     }
     let x_span = s.max - s.min;
-    if !(x_span > 0.0) {
+    if x_span.is_nan() || x_span <= 0.0 {
         return None;
     }
     let m = (hi - lo) / x_span;
@@ -181,7 +187,7 @@ fn bench(bld: &mut Builder, req: &Request, rails: Rails) {
         PartKind::VoltageSource,
         0.5 * (s.min + s.max),
         &["emf", "0"],
-        StageRole::Sensor,
+        (StageRole::Sensor, PartRole::Emf),
         "sensor EMF (swept over the source range)",
     );
     // A zero source impedance is modelled as 1 mΩ so that the sensor terminal stays a node.
@@ -190,19 +196,20 @@ fn bench(bld: &mut Builder, req: &Request, rails: Rails) {
         PartKind::Resistor,
         s.impedance.max(1e-3),
         &["emf", "sense"],
-        StageRole::Sensor,
+        (StageRole::Sensor, PartRole::SourceResistance),
         "sensor output impedance",
     );
-    bld.bench("VPOS", PartKind::VoltageSource, rails.pos, &["vpos", "0"], StageRole::Supply, "positive rail");
+    let rail = (StageRole::Supply, PartRole::Rail);
+    bld.bench("VPOS", PartKind::VoltageSource, rails.pos, &["vpos", "0"], rail, "positive rail");
     if rails.is_dual() {
-        bld.bench("VNEG", PartKind::VoltageSource, rails.neg, &["vneg", "0"], StageRole::Supply, "negative rail");
+        bld.bench("VNEG", PartKind::VoltageSource, rails.neg, &["vneg", "0"], rail, "negative rail");
     }
     bld.bench(
         "RADC",
         PartKind::Resistor,
         req.destination.impedance,
         &["adc", "0"],
-        StageRole::Converter,
+        (StageRole::Converter, PartRole::ConverterLoad),
         "converter input impedance",
     );
 }

@@ -70,7 +70,7 @@ pub fn optimise_all(
                 v[i] = if mask & (1 << bit) != 0 { choices[i].1 } else { choices[i].0 };
             }
             let c = cost(&v);
-            if c.is_finite() && best_here.as_ref().map_or(true, |b| c < b.1) {
+            if c.is_finite() && best_here.as_ref().is_none_or(|b| c < b.1) {
                 best_here = Some((v.clone(), c));
             }
         }
@@ -81,7 +81,7 @@ pub fn optimise_all(
     let mut best: Option<(Vec<f64>, f64)> = None;
     for (v, c) in starts {
         let (v, c) = descend(&ladder, v, c, &cost);
-        if best.as_ref().map_or(true, |b| c < b.1) {
+        if best.as_ref().is_none_or(|b| c < b.1) {
             best = Some((v, c));
         }
     }

@@ -4,7 +4,7 @@
 
 use super::{Col, Elem, KernelError, Src, Step, System};
 use crate::circuit::{is_sensor_source, open_at_mid_band, Circuit, Part, PartKind};
-use crate::solve::{GM, GMIN};
+use crate::solve::GMIN;
 
 /// Compile-time context shared by both systems.
 pub(super) struct Ctx<'a> {
@@ -192,11 +192,12 @@ impl Ctx<'_> {
                 }
             }
         }
-        // Amplifier: −GM·(v+ + Vos − v−) + (GM/A0 + GMIN)·x = 0 on the internal node's row.
-        let amp = &c.amplifier;
+        // Amplifier (the macro-model of crate::amplifier::model):
+        // −GM·(v+ + Vos − v−) + (GM/A0 + GMIN)·x = 0 on the internal node's row.
+        let model = c.amplifier.macro_model();
         for (k, p) in amps.iter().enumerate() {
             let x = re(m + k);
-            for (node, g) in [(at(&p.nodes[0]), -GM), (at(&p.nodes[1]), GM)] {
+            for (node, g) in [(at(&p.nodes[0]), -model.gm), (at(&p.nodes[1]), model.gm)] {
                 match col(node) {
                     Col::Free(j) => s.base[x * n + j] += g,
                     Col::Known { u, w } => {
@@ -205,10 +206,10 @@ impl Ctx<'_> {
                     }
                 }
             }
-            s.base[x * n + x] += 1.0 / (amp.open_loop_gain / GM);
+            s.base[x * n + x] += model.load_conductance();
             if !short {
                 let b = self.amp_param[k];
-                s.srcs.push(Src { param: b, row: x, coef: GM });
+                s.srcs.push(Src { param: b, row: x, coef: model.gm });
                 for (j, node) in [(1, at(&p.nodes[0])), (2, at(&p.nodes[1]))] {
                     if let Some(r) = row(node) {
                         s.srcs.push(Src { param: b + j, row: r, coef: -1.0 });

@@ -9,10 +9,10 @@ pub(super) fn range_use_fraction(req: &Request) -> f64 {
 }
 
 /// The Monte Carlo result from the solved builds (one `[output at min, output at max, gain,
-/// offset]` per build) and the counts inside the converter range, inside the headroom and
-/// covering the range-use fraction, out of `runs` builds drawn.
+/// offset]` per build, with its clip bits from `Model::clips`) and the counts good, inside
+/// the headroom, covering the range-use fraction and clipped, out of `runs` builds drawn.
 pub(super) fn monte_carlo(
-    builds: Vec<[f64; 4]>, counts: [usize; 3], runs: usize, req: &Request, cfg: &ToleranceConfig,
+    builds: Vec<[f64; 4]>, clips: Vec<u8>, counts: [usize; 4], runs: usize, req: &Request, cfg: &ToleranceConfig,
     distributions: Vec<String>,
 ) -> MonteCarlo {
     let share = |k: usize| {
@@ -26,13 +26,14 @@ pub(super) fn monte_carlo(
     let [s0, s1, s2, s3] = std::array::from_fn(|q| stats(&builds, q, &mut column));
     let d = &req.destination;
     let histograms = Histograms {
-        output_at_min: histogram(&builds, 0, &s0, cfg.bins, d.min, d.max),
-        output_at_max: histogram(&builds, 1, &s1, cfg.bins, d.min, d.max),
+        output_at_min: histogram(&builds, &clips, 0, &s0, cfg.bins, d.min, d.max),
+        output_at_max: histogram(&builds, &clips, 1, &s1, cfg.bins, d.min, d.max),
     };
     MonteCarlo {
         runs,
         seed: cfg.seed,
         yield_: share(counts[0]),
+        clipped: counts[3],
         yield_headroom: share(counts[1]),
         range_use_fraction: range_use_fraction(req),
         range_use_yield: share(counts[2]),
@@ -132,12 +133,14 @@ fn percentile(x: &mut [f64], p: f64) -> f64 {
     }
 }
 
-/// Histogram of quantity `q` (see [`Histogram`] for its range).
-fn histogram(builds: &[[f64; 4]], q: usize, s: &Stats, bins: usize, d_min: f64, d_max: f64) -> Histogram {
+/// Histogram of quantity `q` (see [`Histogram`] for its range); builds whose clip bit `q` is
+/// set are counted apart.
+fn histogram(builds: &[[f64; 4]], clips: &[u8], q: usize, s: &Stats, bins: usize, d_min: f64, d_max: f64) -> Histogram {
     let mut counts = vec![0u32; bins];
     if builds.is_empty() {
-        return Histogram { lo: d_min, hi: d_max, counts };
+        return Histogram { lo: d_min, hi: d_max, counts, clipped: 0 };
     }
+    let mut clipped = 0u32;
     let (mut lo, mut hi) = (s.min, s.max);
     let width = hi - lo;
     let limit = if (lo - d_min).abs() <= (hi - d_max).abs() { d_min } else { d_max };
@@ -154,11 +157,15 @@ fn histogram(builds: &[[f64; 4]], q: usize, s: &Stats, bins: usize, d_min: f64, 
     if bins > 0 {
         let scale = bins as f64 / (hi - lo);
         let slots = &mut counts[..];
-        for b in builds {
+        for (i, b) in builds.iter().enumerate() {
+            if clips.get(i).is_some_and(|c| c >> q & 1 == 1) {
+                clipped = clipped.saturating_add(1);
+                continue;
+            }
             let k = ((b[q] - lo) * scale) as usize;
             let k = if k < bins { k } else { bins - 1 };
             slots[k] = slots[k].saturating_add(1);
         }
     }
-    Histogram { lo, hi, counts }
+    Histogram { lo, hi, counts, clipped }
 }

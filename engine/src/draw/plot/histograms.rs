@@ -6,7 +6,7 @@ use super::layout::{
     draw_title, left_edge, min_panel_h, min_panel_w, right_edge, title, widen, Rows, HEADROOM, Y_SPACING,
 };
 use super::legend::{spread, Legend, Sample, Tag};
-use super::page::{fit, line_h, percent, si, Page, Panel, ACCENT, DASH, GREY, INK, PAD, TINT};
+use super::page::{fit, line_h, percent, si, Page, Panel, ACCENT, DASH, GREY, INK, PAD, TINT, WARN};
 use super::ticks::{TickSet, Unit};
 use super::{Plot, PlotConfig};
 use crate::analysis::tolerance::Histogram;
@@ -84,6 +84,16 @@ pub(super) fn draw(d: &Design, a: &Analysis, cfg: &PlotConfig) -> Plot {
     }
     if has_worst {
         items.push((Sample::Bracket, "worst case over the tolerance box".to_string()));
+    }
+    let held = [&mc.histograms.output_at_min, &mc.histograms.output_at_max].map(|h| h.clipped);
+    if held.iter().any(|&n| n > 0) {
+        items.push((
+            Sample::Fill { colour: WARN, edge: WARN },
+            format!(
+                "held at the amplifier's swing limit, not in the bars (failures): {} at sensor min, {} at sensor max",
+                held[0], held[1]
+            ),
+        ));
     }
 
     let mut label_w = text_width("10000", fs);

@@ -17,7 +17,7 @@ use super::legend::{Legend, Sample, Tag, LEAD, SAMPLE_W};
 use super::ticks::TickSet;
 use super::Plot;
 use crate::draw::svg::{escape, text_box, text_width, Anchor, BoxRect, Pen, Segment, Svg};
-use crate::units::{format, format_sig, Quantity};
+use crate::units::{format, Quantity};
 
 pub(super) type Pt = (f64, f64);
 
@@ -68,7 +68,7 @@ pub(super) fn si(v: f64, q: Quantity) -> String {
 
 /// Share as a percentage, three significant digits ("36.6 %").
 pub(super) fn percent(share: f64) -> String {
-    format!("{} %", format_sig(100.0 * share, Quantity::Ratio, 3))
+    crate::units::format_percent(share)
 }
 
 /// A number for an attribute, one decimal, no "-0" (non-finite prints as 0).

@@ -221,7 +221,7 @@ impl Sheet<'_> {
             let quiet = self.quiet.contains(&w.net);
             if !w.net.is_empty()
                 && w.net != GND
-                && w.net != "emf"
+                && Some(&w.net) != self.emf.as_ref()
                 && !quiet
                 && !self.rails.iter().any(|r| r.node == w.net)
                 && !nets.contains(&w.net)

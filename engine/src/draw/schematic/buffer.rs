@@ -1,8 +1,8 @@
 //! The input buffer of a high-impedance sensor, and that sensor's bench model.
 //!
-//! Recognised by the design contract of `synth::front::follower`: an amplifier of the buffer stage
-//! wired as a follower (− input tied to the output), its + input at the sensor terminal
-//! `sense`. It gets the first row to itself: the sensor box, the free run of the sensor line
+//! Found by the follower stage's roles (`by_role`: its amplifier, the bias resistor R_b, the
+//! return divider and its bypass) or, without roles, by shape (`by_shape`). It gets the
+//! first row to itself: the sensor box, the free run of the sensor line
 //! (TP1), the legs hanging from that line (the bias resistor: to ground or a rail as a leg,
 //! to the sensor's return node down onto the return bus), the follower with its − input
 //! looped round from the output below the symbol, and the output stepping back up to the
@@ -12,17 +12,17 @@
 //! lower edge and runs as a bus under the row; the divider hangs from the bus right of the
 //! follower, as the gain stage's reference block does (`Sheet::block`).
 //!
-//! The sensor model (bench, grey): the EMF `VSENSE` from `emf` to the return; DC coupling
-//! with `RSENSE` (source resistance) along the line and `CSENSE` (cable capacitance) from
-//! the terminal to the return; AC coupling with `CSENSE` (the capacitance the signal sits
-//! behind) along the line and `RSENSE` (leakage) across it in a loop below. A sensor with
-//! neither a lifted return nor a `CSENSE` is left to the ordinary sensor block, so it draws
-//! as before.
+//! The sensor model (bench, grey, [`HighZ`]): the EMF `VSENSE` from its node to the return;
+//! DC coupling with `RSENSE` (source resistance) along the line and `CSENSE` (cable
+//! capacitance) from the terminal to the return; AC coupling with `CSENSE` (the capacitance
+//! the signal sits behind) along the line and `RSENSE` (leakage) across it in a loop below.
+//! A sensor with neither a lifted return nor a `CSENSE` is left to the ordinary sensor
+//! block, so it draws as before.
 
-use super::plan::{has, other, plain, Rail, Step};
+use super::blocks::HighZ;
+use super::plan::Step;
 use super::rows::ROW_GAP;
 use super::sheet::{Mark, Sheet, HSPAN, INK, PITCH, REF_DROP, TP_GAP, X0, Y0};
-use crate::circuit::{Circuit, PartKind, StageRole, GND};
 use crate::draw::svg::{Anchor, BoxRect, Pen};
 
 /// Width of the sensor box holding the high-impedance model.
@@ -47,64 +47,6 @@ pub(super) struct Buffer {
 }
 
 impl Buffer {
-    /// The buffer of `c`, if it has one (see the module's doc for what is recognised).
-    pub(super) fn of(c: &Circuit, rails: &[Rail]) -> Option<Buffer> {
-        let terminal = |n: &str| n == GND || rails.iter().any(|r| r.node == n);
-        let input = "sense";
-        let amp = c.parts.iter().position(|p| {
-            !p.bench
-                && p.kind == PartKind::OpAmp
-                && p.stage == StageRole::Buffer
-                && p.nodes.len() >= 5
-                && p.nodes[0] == input
-                && p.nodes[1] == p.nodes[4]
-                && p.nodes[4] != input
-                && !terminal(&p.nodes[4])
-        })?;
-        let out = c.parts[amp].nodes[4].clone();
-        let ret = c
-            .parts
-            .iter()
-            .find(|p| {
-                p.bench && p.kind == PartKind::VoltageSource && p.stage == StageRole::Sensor && p.nodes.len() == 2
-            })
-            .map(|p| p.nodes[1].clone())
-            .filter(|n| !terminal(n) && n != input && *n != out && n != "emf")
-            // Or the bias reference R_b returns to: a node the rails and ground hold.
-            .or_else(|| {
-                c.parts.iter().filter(|p| plain(p) && has(p, input)).map(|p| other(p, input)).find(|n| {
-                    !terminal(n)
-                        && *n != out
-                        && n != "emf"
-                        && c.parts.iter().any(|q| plain(q) && has(q, n) && terminal(&other(q, n)))
-                })
-            });
-        let mut used = vec![false; c.parts.len()];
-        used[amp] = true;
-        let mut bias = Vec::new();
-        for (i, p) in c.parts.iter().enumerate() {
-            if !plain(p) || !has(p, input) {
-                continue;
-            }
-            let to = other(p, input);
-            if terminal(&to) || ret.as_deref() == Some(to.as_str()) {
-                used[i] = true;
-                bias.push(Step { part: i, from: input.to_string(), to });
-            }
-        }
-        let reference = match &ret {
-            Some(r) => c
-                .parts
-                .iter()
-                .enumerate()
-                .filter(|(i, p)| !used[*i] && plain(p) && has(p, r) && terminal(&other(p, r)))
-                .map(|(i, p)| Step { part: i, from: r.clone(), to: other(p, r) })
-                .collect(),
-            None => Vec::new(),
-        };
-        Some(Buffer { amp, input: input.to_string(), out, bias, ret, reference })
-    }
-
     /// Every part the buffer's block draws.
     pub(super) fn parts(&self) -> Vec<usize> {
         let mut v = vec![self.amp];
@@ -115,69 +57,48 @@ impl Buffer {
 }
 
 impl Sheet<'_> {
-    /// The high-impedance sensor model in a wider dashed box, when the bench has one (a
-    /// lifted return or a `CSENSE`); returns the terminal's x. `None` leaves the sensor to
-    /// the ordinary block.
-    pub(super) fn high_impedance_sensor(&mut self) -> Option<f64> {
-        let c = self.c;
-        let sensor =
-            |i: &usize| c.parts[*i].bench && c.parts[*i].stage == StageRole::Sensor && c.parts[*i].nodes.len() == 2;
-        let vs = (0..c.parts.len()).filter(sensor).find(|&i| c.parts[i].kind == PartKind::VoltageSource)?;
-        let (emf, ret) = (c.parts[vs].nodes[0].clone(), c.parts[vs].nodes[1].clone());
-        if emf == ret || emf == "sense" || ret == "sense" {
-            return None;
-        }
-        let rs = (0..c.parts.len())
-            .filter(sensor)
-            .find(|&i| c.parts[i].kind == PartKind::Resistor && has(&c.parts[i], &emf) && has(&c.parts[i], "sense"))?;
-        let cap = |a: &str, b: &str| {
-            (0..c.parts.len())
-                .filter(sensor)
-                .find(|&i| c.parts[i].kind == PartKind::Capacitor && has(&c.parts[i], a) && has(&c.parts[i], b))
-        };
-        let (series_c, shunt_c) = (cap(&emf, "sense"), cap("sense", &ret));
-        let lifted = ret != GND && !self.rails.iter().any(|r| r.node == ret);
-        if !lifted && series_c.is_none() && shunt_c.is_none() {
-            return None;
-        }
+    /// The high-impedance sensor model `h` in a wider dashed box; returns the terminal's x.
+    pub(super) fn high_impedance_sensor(&mut self, h: &HighZ) -> f64 {
+        let HighZ { vs, rs, series_c, shunt_c, lifted, .. } = *h;
+        let (emf, ret, term) = (h.emf.as_str(), h.ret.as_str(), h.term.as_str());
         let y = Y0;
         let right = X0 + BOX_W;
         let sx = X0 + 40.0;
         let yr = y + 100.0;
-        self.two(vs, (sx, y), &emf, (sx, yr), &ret, true);
+        self.two(vs, (sx, y), emf, (sx, yr), ret, true);
         match series_c {
             Some(cs) => {
                 // The signal behind the capacitance, the leakage across it in a loop below.
                 let (xa, xb, yl) = (sx + 45.0, right - 30.0, y + 50.0);
-                self.wire((sx, y), (xa, y), &emf, true);
-                self.two(cs, (xa, y), &emf, (xb, y), "sense", true);
-                self.wire((xa, y), (xa, yl), &emf, true);
-                self.two(rs, (xa, yl), &emf, (xb, yl), "sense", true);
+                self.wire((sx, y), (xa, y), emf, true);
+                self.two(cs, (xa, y), emf, (xb, y), term, true);
+                self.wire((xa, y), (xa, yl), emf, true);
+                self.two(rs, (xa, yl), emf, (xb, yl), term, true);
                 if let Some(l) = self.labels.last_mut() {
                     l.below_first = true;
                 }
-                self.wire((xb, yl), (xb, y), "sense", true);
-                self.wire((xb, y), (right, y), "sense", true);
+                self.wire((xb, yl), (xb, y), term, true);
+                self.wire((xb, y), (right, y), term, true);
             }
             None => {
-                self.two(rs, (sx, y), &emf, (sx + HSPAN, y), "sense", true);
-                self.wire((sx + HSPAN, y), (right, y), "sense", true);
+                self.two(rs, (sx, y), emf, (sx + HSPAN, y), term, true);
+                self.wire((sx + HSPAN, y), (right, y), term, true);
             }
         }
         // A shunt capacitance from the terminal down to the return, joined to the EMF's foot.
         if let Some(cp) = shunt_c.filter(|_| series_c.is_none()) {
             let cx = right - 80.0;
-            self.two(cp, (cx, y), "sense", (cx, yr), &ret, true);
-            self.wire((sx, yr), (cx, yr), &ret, true);
+            self.two(cp, (cx, y), term, (cx, yr), ret, true);
+            self.wire((sx, yr), (cx, yr), ret, true);
         }
         let bottom = y + 130.0;
         if lifted {
-            self.wire((sx, yr), (sx, bottom), &ret, true);
+            self.wire((sx, yr), (sx, bottom), ret, true);
             self.svg.circle((sx, bottom), 3.5, "#ffffff", Some(self.pen(true)));
-            self.marks.push(Mark { text: ret.clone(), at: (sx, bottom), up: false, colour: INK });
-            self.ret_at = Some(((sx, bottom), ret.clone()));
+            self.marks.push(Mark { text: ret.to_string(), at: (sx, bottom), up: false, colour: INK });
+            self.ret_at = Some(((sx, bottom), ret.to_string()));
         } else {
-            self.terminal((sx, yr), &ret, false);
+            self.terminal((sx, yr), ret, false);
         }
         let dashed = Pen { colour: super::sheet::GREY, width: 1.5, dashed: true };
         self.svg.rect(X0, y - 60.0, BOX_W, 190.0, "none", dashed);
@@ -193,7 +114,7 @@ impl Sheet<'_> {
         );
         self.bench_areas.push(BoxRect::new(X0, y - 60.0, BOX_W, 190.0));
         self.svg.circle((right, y), 3.5, "#ffffff", Some(self.pen(true)));
-        Some(right)
+        right
     }
 
     /// The buffer's row from the sensor terminal at `x_term`; then starts the gain stage's

@@ -1,12 +1,12 @@
 //! The difference amplifier of a differential sensor, and that sensor's bench model.
 //!
-//! Recognised by the design contract of `synth::front::difference`: a bench EMF between two legs
-//! (`VSENSE`, neither node ground), a source from its second leg to ground (`VCM`), a bench
-//! resistor from each leg to a terminal (`RSENSEP`, `RSENSEN`); an amplifier of the gain
-//! stage with one input resistor from each terminal to one of its inputs, feedback from the
-//! output to the − input, and one more part from the + input to its reference: ground, a
-//! rail, or a node driven by a follower whose + input sits on a divider with its bypass.
-//! Anything short of that is left to the other blocks.
+//! Found by roles (`by_role`): on the bench the pair's EMF between its two legs (`VSENSE`),
+//! the common-mode source under the − leg (`VCM`), each leg's impedance to its terminal
+//! (`RSENSEP`, `RSENSEN`); in the difference stage its amplifier, the input resistors R1
+//! and R3 (each from one line to one input), the feedback R2 and R4 from the + input to the
+//! reference: ground, a rail, or the node a reference follower drives from its divider and
+//! bypass. Without roles the same is recognised by shape (`by_shape`). Anything short of
+//! that is left to the other blocks.
 //!
 //! The layout takes the first row. The sensor box holds the legs: `VSENSE` upright between
 //! them, `VCM` from the lower leg to ground, the leg resistors along the two lines to the
@@ -24,10 +24,10 @@
 //! recognised and drawn apart, so that `inamp` draws the same box in front of its first
 //! stage and the same difference stage behind it, fed from that stage's outputs.
 
-use super::plan::{has, other, plain, Leg, Rail, Step};
+use super::plan::{Leg, Step};
 use super::rows::ROW_GAP;
 use super::sheet::{Sheet, GREY, HSPAN, INK, OUT_RUN, PITCH, SPAN, X0, Y0};
-use crate::circuit::{Circuit, PartKind, StageRole, GND};
+use crate::circuit::GND;
 use crate::draw::svg::{Anchor, BoxRect, Pen};
 
 /// Width of the sensor box, and the drop from the upper line to the lower one.
@@ -45,13 +45,17 @@ const LINK: f64 = 105.0;
 /// source, the leg resistors, and the terminals the legs end at.
 #[derive(Debug, Clone)]
 pub(super) struct Pair {
-    vsense: usize,
-    vcm: usize,
-    leg_up: usize,
-    leg_low: usize,
+    pub(super) vsense: usize,
+    pub(super) vcm: usize,
+    pub(super) leg_up: usize,
+    pub(super) leg_low: usize,
     /// The two legs (upper, lower) and the terminals they end at (upper, lower).
     pub(super) emf: [String; 2],
     pub(super) term: [String; 2],
+    /// A bridge's load is on the bench: the box is wider for its label.
+    pub(super) wide: bool,
+    /// A bridge's excitation and its load, each from the excitation node to ground.
+    pub(super) bridge: Option<(usize, usize)>,
 }
 
 /// The difference amplifier and what hangs from it, fed from two lines.
@@ -59,21 +63,21 @@ pub(super) struct Pair {
 pub(super) struct Stage {
     /// The nodes of the two lines (upper, lower): the pair's terminals, or the outputs of an
     /// instrumentation amplifier's first stage.
-    lines: [String; 2],
+    pub(super) lines: [String; 2],
     pub(super) amp: usize,
     /// The input resistors from the upper and lower line, and the inputs they feed.
-    input: [usize; 2],
-    pin_node: [String; 2],
+    pub(super) input: [usize; 2],
+    pub(super) pin_node: [String; 2],
     /// The amplifier's + and − inputs and its output.
-    inp: String,
-    inn: String,
+    pub(super) inp: String,
+    pub(super) inn: String,
     pub(super) out: String,
-    feedback: Vec<usize>,
+    pub(super) feedback: Vec<usize>,
     /// The part from the + input to the reference, and the reference node.
-    to_ref: usize,
-    reference: String,
+    pub(super) to_ref: usize,
+    pub(super) reference: String,
     /// A follower driving the reference: amplifier, its + input and the divider there.
-    follower: Option<(usize, String, Vec<Step>)>,
+    pub(super) follower: Option<(usize, String, Vec<Step>)>,
 }
 
 /// A differential sensor straight into the difference amplifier.
@@ -83,152 +87,10 @@ pub(super) struct Diff {
     pub(super) stage: Stage,
 }
 
-impl Diff {
-    /// The difference amplifier of `c` fed from the pair's terminals, if it has one (see
-    /// the module's doc).
-    pub(super) fn of(c: &Circuit, rails: &[Rail]) -> Option<Diff> {
-        let pair = Pair::of(c, rails)?;
-        let stage = Stage::of(c, rails, &pair.term, &pair.emf)?;
-        Some(Diff { pair, stage })
-    }
-}
-
-impl Pair {
-    /// The pair's bench model in `c`, if it has one (see the module's doc).
-    pub(super) fn of(c: &Circuit, rails: &[Rail]) -> Option<Pair> {
-        let terminal = |n: &str| n == GND || rails.iter().any(|r| r.node == n);
-        let bench = |i: usize, k: PartKind| c.parts[i].bench && c.parts[i].kind == k && c.parts[i].nodes.len() == 2;
-        let n = c.parts.len();
-        let vsense = (0..n).find(|&i| {
-            let p = &c.parts[i];
-            bench(i, PartKind::VoltageSource)
-                && p.stage == StageRole::Sensor
-                && !terminal(&p.nodes[0])
-                && !terminal(&p.nodes[1])
-                && p.nodes[0] != p.nodes[1]
-        })?;
-        let emf = [c.parts[vsense].nodes[0].clone(), c.parts[vsense].nodes[1].clone()];
-        let vcm = (0..n).find(|&i| {
-            bench(i, PartKind::VoltageSource)
-                && c.parts[i].stage == StageRole::Sensor
-                && c.parts[i].nodes[0] == emf[1]
-                && c.parts[i].nodes[1] == GND
-        })?;
-        let leg = |e: &str, away: &str| {
-            (0..n).find(|&i| {
-                bench(i, PartKind::Resistor)
-                    && has(&c.parts[i], e)
-                    && other(&c.parts[i], e) != away
-                    && other(&c.parts[i], e) != e
-            })
-        };
-        let (leg_up, leg_low) = (leg(&emf[0], &emf[1])?, leg(&emf[1], &emf[0])?);
-        let term = [other(&c.parts[leg_up], &emf[0]), other(&c.parts[leg_low], &emf[1])];
-        if term[0] == term[1] || term.iter().any(|t| terminal(t) || emf.contains(t)) {
-            return None;
-        }
-        Some(Pair { vsense, vcm, leg_up, leg_low, emf, term })
-    }
-}
-
 impl Stage {
     /// The − input is fed from the upper line (its feedback loops above the amplifier).
     pub(super) fn minus_up(&self) -> bool {
         self.pin_node[0] != self.inp
-    }
-
-    /// The difference amplifier of the gain stage with an input resistor from each of
-    /// `lines` (upper, lower) to one of its inputs; neither input may sit on `lines` or on
-    /// `avoid` (the pair's inner nodes).
-    pub(super) fn of(c: &Circuit, rails: &[Rail], lines: &[String; 2], avoid: &[String; 2]) -> Option<Stage> {
-        let terminal = |n: &str| n == GND || rails.iter().any(|r| r.node == n);
-        let n = c.parts.len();
-        let term = lines;
-        if term[0] == term[1] {
-            return None;
-        }
-        let amp = (0..n).find(|&i| {
-            let p = &c.parts[i];
-            !p.bench
-                && p.kind == PartKind::OpAmp
-                && p.stage == StageRole::Gain
-                && p.nodes.len() >= 5
-                && p.nodes[0] != p.nodes[1]
-                && p.nodes[4] != p.nodes[0]
-                && p.nodes[4] != p.nodes[1]
-                && !terminal(&p.nodes[4])
-                && !p.nodes[..2].iter().any(|x| terminal(x) || term.contains(x) || avoid.contains(x))
-        })?;
-        let (inp, inn, out) =
-            (c.parts[amp].nodes[0].clone(), c.parts[amp].nodes[1].clone(), c.parts[amp].nodes[4].clone());
-        let feed = |t: &str, skip: Option<usize>| {
-            (0..n).find(|&i| {
-                Some(i) != skip
-                    && plain(&c.parts[i])
-                    && has(&c.parts[i], t)
-                    && [&inp, &inn].contains(&&other(&c.parts[i], t))
-            })
-        };
-        let up = feed(&term[0], None)?;
-        let low = feed(&term[1], Some(up))?;
-        let pin_node = [other(&c.parts[up], &term[0]), other(&c.parts[low], &term[1])];
-        if pin_node[0] == pin_node[1] {
-            return None;
-        }
-        let feedback: Vec<usize> =
-            (0..n).filter(|&i| plain(&c.parts[i]) && has(&c.parts[i], &inn) && has(&c.parts[i], &out)).collect();
-        let to_ref = (0..n).find(|&i| {
-            let p = &c.parts[i];
-            i != up
-                && i != low
-                && plain(p)
-                && has(p, &inp)
-                && ![&inp, &inn, &out].contains(&&other(p, &inp))
-                && !term.contains(&other(p, &inp))
-        })?;
-        if feedback.is_empty() {
-            return None;
-        }
-        let reference = other(&c.parts[to_ref], &inp);
-        let follower = if terminal(&reference) {
-            None
-        } else {
-            let f = (0..n).find(|&i| {
-                let p = &c.parts[i];
-                !p.bench
-                    && p.kind == PartKind::OpAmp
-                    && p.nodes.len() >= 5
-                    && i != amp
-                    && p.nodes[4] == reference
-                    && p.nodes[1] == reference
-                    && p.nodes[0] != reference
-            })?;
-            let dref = c.parts[f].nodes[0].clone();
-            if terminal(&dref) || [&inp, &inn, &out].contains(&&dref) {
-                return None;
-            }
-            let divider: Vec<Step> = (0..n)
-                .filter(|&i| plain(&c.parts[i]) && has(&c.parts[i], &dref) && terminal(&other(&c.parts[i], &dref)))
-                .map(|i| Step { part: i, from: dref.clone(), to: other(&c.parts[i], &dref) })
-                .collect();
-            if divider.is_empty() {
-                return None;
-            }
-            Some((f, dref, divider))
-        };
-        Some(Stage {
-            lines: lines.clone(),
-            amp,
-            input: [up, low],
-            pin_node,
-            inp,
-            inn,
-            out,
-            feedback,
-            to_ref,
-            reference,
-            follower,
-        })
     }
 }
 
@@ -239,8 +101,7 @@ impl Sheet<'_> {
         let (y, yl) = (Y0, Y0 + low);
         let sx = X0 + 40.0;
         // A bridge's excitation under the pair needs room for its load's label.
-        let bridge = self.c.parts.iter().any(|p| p.bench && p.reference == "RBRIDGE");
-        let box_w = if bridge { BOX_W + 40.0 } else { BOX_W };
+        let box_w = if d.wide { BOX_W + 40.0 } else { BOX_W };
         let right = X0 + box_w;
         self.two(d.vsense, (sx, y), &d.emf[0], (sx, yl), &d.emf[1], true);
         self.two(d.vcm, (sx, yl), &d.emf[1], (sx, yl + SPAN), GND, true);
@@ -256,10 +117,7 @@ impl Sheet<'_> {
         // A bridge's excitation and its load on it (bench `VEXC`, `RBRIDGE` from `exc` to
         // ground), side by side under the pair model.
         let c = self.c;
-        let find = |r: &str| {
-            c.parts.iter().position(|p| p.bench && p.reference == r && p.nodes.len() == 2 && p.nodes[1] == GND)
-        };
-        if let (Some(ve), Some(rb)) = (find("VEXC"), find("RBRIDGE")) {
+        if let Some((ve, rb)) = d.bridge {
             let (ye, xr) = (bottom + 30.0, sx + HSPAN);
             let exc = c.parts[ve].nodes[0].clone();
             self.two(ve, (sx, ye), &exc, (sx, ye + SPAN), GND, true);
@@ -367,7 +225,7 @@ impl Sheet<'_> {
         }
         self.opamp(d.amp, ux, y, [plus_up, !plus_up]);
         self.supply_pins(d.amp, ux, y);
-        let xa = x_out + if d.out == "adc" { OUT_RUN } else { OUT_RUN - 60.0 };
+        let xa = x_out + if d.out == self.pin { OUT_RUN } else { OUT_RUN - 60.0 };
         self.wire((x_out, yo), (xa, yo), &d.out, false);
         if let Some((f, dref, divider)) = &d.follower {
             self.reference_row(*f, dref, divider, &d.reference);

@@ -1,13 +1,12 @@
 //! The instrumentation amplifier of a differential pair or a bridge: a first stage of two
 //! input amplifiers, then the difference amplifier that `diff` draws.
 //!
-//! Recognised by the design contract of `synth::front::instrumentation`: the pair's bench model (as `diff`
-//! recognises it); from each terminal one resistor of the input stage (the leg's protection
-//! resistor) to the + input of an input-stage amplifier, the upper leg's amplifier first;
-//! either both amplifiers followers (− input tied to the output), or each with its − input
-//! on a node of its own, joined to its output by one resistor (R_F) and to the other
-//! amplifier's − input by one more (R_G); then the gain stage's difference amplifier fed
-//! from the two outputs. Anything short of that is left to the other blocks (the pair's
+//! Found by roles (`by_role`): the pair's bench model (as `diff` finds it); in the input
+//! stage each leg's protection resistor from its terminal to the + input of that leg's
+//! input amplifier, the + leg's first; either both amplifiers followers, or each − input
+//! joined to its output by that leg's R_F and to the other − input by R_G; then the
+//! difference stage fed from the two outputs. Without roles the same is recognised by
+//! shape (`by_shape`). Anything short of that is left to the other blocks (the pair's
 //! difference amplifier, or the fallback area).
 //!
 //! The first stage takes the first row, in the classic three-amplifier arrangement: the
@@ -26,10 +25,8 @@
 //! supply pins as the upper one gets no stubs of its own; a note under the drawing says so.
 
 use super::diff::{Pair, Stage, LOW};
-use super::plan::{has, other, plain, Rail};
 use super::rows::ROW_GAP;
 use super::sheet::{Sheet, HSPAN, X0, Y0};
-use crate::circuit::{Circuit, PartKind, StageRole, GND};
 
 /// Free run of each leg from the sensor box to its protection resistor (its test point).
 const RUN: f64 = 100.0;
@@ -51,85 +48,17 @@ const OUT_RUN: f64 = 140.0;
 pub(super) struct Inamp {
     pub(super) pair: Pair,
     /// Protection resistors (upper, lower leg) and the + inputs they feed.
-    protect: [usize; 2],
-    plus: [String; 2],
+    pub(super) protect: [usize; 2],
+    pub(super) plus: [String; 2],
     /// The input amplifiers (upper, lower), their − inputs and their outputs.
-    amps: [usize; 2],
-    minus: [String; 2],
-    outs: [String; 2],
+    pub(super) amps: [usize; 2],
+    pub(super) minus: [String; 2],
+    pub(super) outs: [String; 2],
     /// R_F of each amplifier and R_G between the − inputs; `None` for two followers.
-    gain: Option<([usize; 2], usize)>,
+    pub(super) gain: Option<([usize; 2], usize)>,
     pub(super) stage: Stage,
     /// The first stage's description in the circuit model, in one or two lines.
-    caption: Vec<String>,
-}
-
-impl Inamp {
-    /// The instrumentation amplifier of `c`, if it has one (see the module's doc).
-    pub(super) fn of(c: &Circuit, rails: &[Rail]) -> Option<Inamp> {
-        let terminal = |n: &str| n == GND || rails.iter().any(|r| r.node == n);
-        let pair = Pair::of(c, rails)?;
-        let n = c.parts.len();
-        let first = |i: usize| !c.parts[i].bench && c.parts[i].stage == StageRole::InputStage;
-        let inner = |x: &String| terminal(x) || pair.term.contains(x) || pair.emf.contains(x);
-        let mut protect = [0; 2];
-        let mut plus = [String::new(), String::new()];
-        for k in 0..2 {
-            let t = &pair.term[k];
-            let i = (0..n).find(|&i| {
-                first(i)
-                    && plain(&c.parts[i])
-                    && c.parts[i].kind == PartKind::Resistor
-                    && has(&c.parts[i], t)
-                    && !inner(&other(&c.parts[i], t))
-            })?;
-            protect[k] = i;
-            plus[k] = other(&c.parts[i], t);
-        }
-        if plus[0] == plus[1] {
-            return None;
-        }
-        let amp_on = |node: &str| {
-            (0..n).find(|&i| {
-                let p = &c.parts[i];
-                first(i)
-                    && p.kind == PartKind::OpAmp
-                    && p.nodes.len() >= 5
-                    && p.nodes[0] == node
-                    && p.nodes[1] != node
-                    && p.nodes[4] != node
-                    && !inner(&p.nodes[1])
-                    && !inner(&p.nodes[4])
-            })
-        };
-        let amps = [amp_on(&plus[0])?, amp_on(&plus[1])?];
-        let minus = [c.parts[amps[0]].nodes[1].clone(), c.parts[amps[1]].nodes[1].clone()];
-        let outs = [c.parts[amps[0]].nodes[4].clone(), c.parts[amps[1]].nodes[4].clone()];
-        if outs[0] == outs[1] || minus[0] == minus[1] || outs.iter().any(|o| plus.contains(o)) {
-            return None;
-        }
-        let gain = match (minus[0] == outs[0], minus[1] == outs[1]) {
-            (true, true) => None,
-            (false, false) => {
-                if minus.iter().any(|m| outs.contains(m) || plus.contains(m)) {
-                    return None;
-                }
-                let between = |a: &str, b: &str| {
-                    (0..n).find(|&i| first(i) && plain(&c.parts[i]) && has(&c.parts[i], a) && has(&c.parts[i], b))
-                };
-                Some(([between(&outs[0], &minus[0])?, between(&outs[1], &minus[1])?], between(&minus[0], &minus[1])?))
-            }
-            _ => return None,
-        };
-        let stage = Stage::of(c, rails, &outs, &pair.emf)?;
-        let caption = c
-            .stages
-            .iter()
-            .find(|s| s.role == StageRole::InputStage)
-            .map(|s| caption(&s.description))
-            .unwrap_or_default();
-        Some(Inamp { pair, protect, plus, amps, minus, outs, gain, stage, caption })
-    }
+    pub(super) caption: Vec<String>,
 }
 
 impl Sheet<'_> {
@@ -226,7 +155,7 @@ impl Sheet<'_> {
 
 /// "instrumentation-amplifier input stage, gain 441.000 (R_G 75 Ω)" → the stage's name and
 /// the rest, split at its first ", " or ": " (the model's own words); one line otherwise.
-fn caption(description: &str) -> Vec<String> {
+pub(super) fn caption(description: &str) -> Vec<String> {
     let cut = [", ", ": "].iter().filter_map(|s| description.find(s).map(|i| (i, s.len()))).min();
     match cut {
         Some((i, l)) => vec![description[..i].to_string(), description[i + l..].to_string()],

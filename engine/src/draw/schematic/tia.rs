@@ -1,9 +1,9 @@
 //! The transimpedance stage of a photodiode, and the photodiode's bench model.
 //!
-//! Recognised by the design contract of `synth::front::transimpedance`: an amplifier of the transimpedance
-//! stage whose − input (the sensor terminal, the diode's cathode) is not its output, with
-//! the feedback parts (R_f, C_f) from the output back to the − input, and the + input at
-//! ground, at a rail, or at a bias node held by a divider with its bypass. It gets the first
+//! Found by the transimpedance stage's roles (`by_role`: its amplifier, whose − input is the
+//! sensor terminal, the diode's cathode; R_f and C_f from the output back to it; the bias
+//! divider and its bypass at the + input, which is otherwise at ground or a rail) or,
+//! without roles, by shape (`by_shape`). It gets the first
 //! row to itself, as a high-impedance sensor's follower does (`buffer`): the sensor box, the
 //! free run of the sensor line (TP1) into the − input on the signal line, R_f and C_f as
 //! parallel loops above the amplifier from a tap on that line to the output column, the +
@@ -16,9 +16,10 @@
 //! the current leaves the terminal, and the junction capacitance `CSENSE` from the terminal
 //! to ground; their feet share one ground.
 
-use super::plan::{has, other, plain, Rail, Step};
+use super::blocks::Diode;
+use super::plan::Step;
 use super::sheet::{Sheet, GREY, PITCH, REF_DROP, TP_GAP, X0, Y0};
-use crate::circuit::{Circuit, PartKind, StageRole, GND};
+use crate::circuit::GND;
 use crate::draw::svg::{Anchor, BoxRect, Pen};
 
 /// Spacing of the sensor model's columns (a source's arrow left of it, its label right),
@@ -41,39 +42,11 @@ pub(super) struct Tia {
     pub(super) feedback: Vec<usize>,
     /// Parts from the + input's bias node to rails and ground (divider legs, bypass).
     pub(super) bias: Vec<Step>,
+    /// The sensor's current enters the − input.
+    pub(super) fed: bool,
 }
 
 impl Tia {
-    /// The transimpedance stage of `c`, if it has one (see the module's doc).
-    pub(super) fn of(c: &Circuit, rails: &[Rail]) -> Option<Tia> {
-        let terminal = |n: &str| n == GND || rails.iter().any(|r| r.node == n);
-        let amp = c.parts.iter().position(|p| {
-            !p.bench
-                && p.kind == PartKind::OpAmp
-                && p.stage == StageRole::Transimpedance
-                && p.nodes.len() >= 5
-                && p.nodes[1] != p.nodes[4]
-                && p.nodes[0] != p.nodes[1]
-                && p.nodes[0] != p.nodes[4]
-                && !terminal(&p.nodes[1])
-                && !terminal(&p.nodes[4])
-        })?;
-        let nodes = &c.parts[amp].nodes;
-        let (plus, input, out) = (nodes[0].clone(), nodes[1].clone(), nodes[4].clone());
-        let feedback: Vec<usize> = (0..c.parts.len())
-            .filter(|&i| plain(&c.parts[i]) && has(&c.parts[i], &input) && has(&c.parts[i], &out))
-            .collect();
-        let bias = if terminal(&plus) {
-            Vec::new()
-        } else {
-            (0..c.parts.len())
-                .filter(|&i| plain(&c.parts[i]) && has(&c.parts[i], &plus) && terminal(&other(&c.parts[i], &plus)))
-                .map(|i| Step { part: i, from: plus.clone(), to: other(&c.parts[i], &plus) })
-                .collect()
-        };
-        Some(Tia { amp, input, plus, out, feedback, bias })
-    }
-
     /// Every part the stage's block draws.
     pub(super) fn parts(&self) -> Vec<usize> {
         let mut v = vec![self.amp];
@@ -84,29 +57,10 @@ impl Tia {
 }
 
 impl Sheet<'_> {
-    /// The photodiode model in a dashed box, when the bench has a current source from a
-    /// terminal to ground; returns the terminal's x. `None` leaves the sensor to the other
-    /// blocks.
-    pub(super) fn photodiode_sensor(&mut self) -> Option<f64> {
-        let c = self.c;
-        let sensor =
-            |i: &usize| c.parts[*i].bench && c.parts[*i].stage == StageRole::Sensor && c.parts[*i].nodes.len() == 2;
-        let first = (0..c.parts.len()).filter(sensor).find(|&i| {
-            c.parts[i].kind == PartKind::CurrentSource && c.parts[i].nodes[1] == GND && c.parts[i].nodes[0] != GND
-        })?;
-        let term = c.parts[first].nodes[0].clone();
-        // The current sources out of the terminal, then the capacitance across them.
-        let mut cols: Vec<usize> = (0..c.parts.len())
-            .filter(sensor)
-            .filter(|&i| {
-                c.parts[i].kind == PartKind::CurrentSource && c.parts[i].nodes[0] == term && c.parts[i].nodes[1] == GND
-            })
-            .collect();
-        cols.extend(
-            (0..c.parts.len()).filter(sensor).filter(|&i| {
-                c.parts[i].kind == PartKind::Capacitor && has(&c.parts[i], &term) && has(&c.parts[i], GND)
-            }),
-        );
+    /// The photodiode model `d` in a dashed box: its current sources and capacitance in
+    /// columns from the terminal to ground; returns the terminal's x.
+    pub(super) fn photodiode_sensor(&mut self, d: &Diode) -> f64 {
+        let (cols, term) = (&d.cols, &d.term);
         let y = Y0;
         let yg = y + 100.0;
         let sx = X0 + 55.0;
@@ -115,9 +69,9 @@ impl Sheet<'_> {
         let right = X0 + box_w;
         for (k, &i) in cols.iter().enumerate() {
             let x = sx + k as f64 * COL;
-            self.two(i, (x, y), &term, (x, yg), GND, true);
+            self.two(i, (x, y), term, (x, yg), GND, true);
         }
-        self.wire((sx, y), (right, y), &term, true);
+        self.wire((sx, y), (right, y), term, true);
         if last > sx {
             self.wire((sx, yg), (last, yg), GND, true);
         }
@@ -127,7 +81,7 @@ impl Sheet<'_> {
         self.svg.text(X0 + 4.0, y - 66.0, "sensor", self.cfg.font_size, Anchor::Start, GREY, "", "italic");
         self.bench_areas.push(BoxRect::new(X0, y - 60.0, box_w, 190.0));
         self.svg.circle((right, y), 3.5, "#ffffff", Some(self.pen(true)));
-        Some(right)
+        right
     }
 
     /// The transimpedance row from the sensor terminal at `x_term`; then starts the gain
@@ -144,16 +98,7 @@ impl Sheet<'_> {
         // − input on the signal line, from the sensor terminal; when the sensor's current
         // goes elsewhere, the line starts at a terminal with the input's name instead, so no
         // wire claims a connection the circuit does not have.
-        let c = self.c;
-        let fed = c.parts.iter().any(|p| {
-            p.bench
-                && p.kind == PartKind::CurrentSource
-                && p.stage == StageRole::Sensor
-                && p.nodes.len() == 2
-                && p.nodes[0] == t.input
-                && p.nodes[1] == GND
-        });
-        if fed {
+        if t.fed {
             self.wire((x_term, y), (xf, y), &t.input, false);
         } else {
             let xs = x_term + 50.0;

@@ -183,7 +183,7 @@ pub fn realise(kind: SectionKind, f_n: f64, q: f64, cfg: PartsConfig) -> Option<
         let Some((rs, score)) = optimise_all(cfg.resistors, std::iter::once(r), cost) else { continue };
         let v = assemble(&rs);
         let (f, qq) = response_of(kind, &v);
-        if best.as_ref().map_or(true, |b| score < b.0) {
+        if best.as_ref().is_none_or(|b| score < b.0) {
             best = Some((score, Realised { kind, values: v, f_n: f, q: qq }));
         }
     }

@@ -8,7 +8,7 @@
 
 use serde::Serialize;
 
-use crate::circuit::{Builder, Circuit, PartKind, StageRole, GND};
+use crate::circuit::{Builder, Circuit, PartKind, PartRole, StageRole, GND};
 use crate::request::Request;
 use crate::units::{format, Quantity};
 
@@ -58,13 +58,14 @@ pub fn bridge_equivalent(req: &Request) -> Option<(Request, BridgeDesign)> {
 pub fn insert_bridge(circuit: &mut Circuit, req: &Request) {
     let Some(b) = &req.source.bridge else { return };
     let mut bld = Builder::resume(std::mem::take(&mut circuit.parts));
-    bld.bench("VEXC", PartKind::VoltageSource, b.excitation, &["exc", GND], StageRole::Sensor, "bridge excitation");
+    let at = (StageRole::Sensor, PartRole::Excitation);
+    bld.bench("VEXC", PartKind::VoltageSource, b.excitation, &["exc", GND], at, "bridge excitation");
     bld.bench(
         "RBRIDGE",
         PartKind::Resistor,
         b.bridge_resistance,
         &["exc", GND],
-        StageRole::Sensor,
+        (StageRole::Sensor, PartRole::BridgeLoad),
         "the bridge's load on its excitation",
     );
     circuit.parts = bld.parts;
@@ -114,7 +115,7 @@ pub fn zero_trim(req: &Request, d: &BridgeDesign, g: f64) -> Option<crate::diag:
     let room = req.destination.headroom * (req.destination.max - req.destination.min);
     let text = format!(
         "The bridge's zero balance (±{} of its full-scale output) moves the output by up to ±{}",
-        format!("{} %", crate::units::format_sig(100.0 * b.zero_balance, Quantity::Ratio, 3)),
+        crate::units::format_percent(b.zero_balance),
         format(d_out, Quantity::Voltage)
     );
     Some(if d_out > room {

@@ -21,7 +21,7 @@
 
 use serde::Serialize;
 
-use crate::circuit::{Circuit, PartKind, Stage, StageRole, GND};
+use crate::circuit::{Circuit, PartKind, PartRole, Stage, StageKind, StageRole, GND};
 use crate::diag::Check;
 use crate::figures::{Block, Table};
 use crate::request::{Request, SourceKind};
@@ -108,11 +108,9 @@ pub fn equivalent(req: &Request, l: &LoopDesign) -> Request {
 /// give way to the loop current `ISENSE` into `sense` and the shunt from `sense` to ground.
 /// Records the shunt's designator in `l`.
 pub fn to_loop(circuit: &mut Circuit, req: &Request, l: &mut LoopDesign) {
-    let emf_node = circuit
-        .part("RSENSE")
-        .and_then(|p| p.nodes.iter().find(|n| *n != "sense").cloned())
-        .unwrap_or_else(|| "emf".to_string());
-    circuit.parts.retain(|p| !(p.bench && (p.reference == "VSENSE" || p.reference == "RSENSE")));
+    let emf_node =
+        circuit.with_role(PartRole::Emf).and_then(|p| p.nodes.first().cloned()).unwrap_or_else(|| "emf".to_string());
+    circuit.parts.retain(|p| !(p.bench && matches!(p.role, Some(PartRole::Emf | PartRole::SourceResistance))));
     let mut bld = crate::circuit::Builder::resume(std::mem::take(&mut circuit.parts));
     let mid = 0.5 * (req.source.min + req.source.max);
     let shunt = bld.add(
@@ -120,7 +118,7 @@ pub fn to_loop(circuit: &mut Circuit, req: &Request, l: &mut LoopDesign) {
         l.shunt,
         Some(req.parts.resistor_tolerance),
         &["sense", GND],
-        StageRole::Shunt,
+        (StageRole::Shunt, PartRole::Shunt),
         "shunt: turns the loop current into the voltage the amplifier measures",
     );
     bld.bench(
@@ -128,7 +126,7 @@ pub fn to_loop(circuit: &mut Circuit, req: &Request, l: &mut LoopDesign) {
         PartKind::CurrentSource,
         mid,
         &[GND, "sense"],
-        StageRole::Sensor,
+        (StageRole::Sensor, PartRole::LoopCurrent),
         "loop current (swept over the source range)",
     );
     circuit.parts = bld.parts;
@@ -142,6 +140,7 @@ pub fn to_loop(circuit: &mut Circuit, req: &Request, l: &mut LoopDesign) {
         0,
         Stage {
             role: StageRole::Shunt,
+            kind: StageKind::LoopShunt,
             description: format!("shunt {} for the loop current", format(l.shunt, Quantity::Resistance)),
             parts: vec![shunt.clone()],
         },
@@ -197,7 +196,7 @@ pub fn checks(req: &Request, l: &LoopDesign) -> Vec<Check> {
         "shunt_tolerance",
         format!(
             "The shunt's ±{} tolerance moves the gain by as much (it is in the Monte Carlo); a ±0.1 % shunt, or a two-point calibration in firmware, keeps that small.",
-            format!("{} %", crate::units::format_sig(100.0 * req.parts.resistor_tolerance, Quantity::Ratio, 3))
+            crate::units::format_percent(req.parts.resistor_tolerance)
         ),
     ));
     let code = |label: &str| l.bands.iter().find(|b| b.label == label).map(|b| b.code);
@@ -244,7 +243,7 @@ pub fn bands(req: &Request, c: &Circuit) -> Vec<LoopBand> {
 /// The converter code of output `v` (clamped to the converter's codes).
 pub fn code_of(req: &Request, v: f64) -> u64 {
     let d = &req.destination;
-    let levels = 2f64.powi(d.bits as i32);
+    let levels = d.levels();
     let x = ((v - d.min) / (d.max - d.min) * levels).floor();
     x.clamp(0.0, levels - 1.0) as u64
 }

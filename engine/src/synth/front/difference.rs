@@ -19,7 +19,7 @@
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Builder, Circuit, PartKind, Stage, StageRole, GND};
+use crate::circuit::{Builder, Circuit, PartKind, PartRole, Side, Stage, StageKind, StageRole, GND};
 use crate::diag::Check;
 use crate::figures::Block;
 use crate::request::Request;
@@ -100,7 +100,7 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
         PartKind::VoltageSource,
         cm_mid - 0.5 * v_mid,
         &["emfn", GND],
-        StageRole::Sensor,
+        (StageRole::Sensor, PartRole::CommonMode),
         "common-mode level (the − leg; the pair's common mode is VCM + VSENSE/2)",
     );
     bld.bench(
@@ -108,33 +108,43 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
         PartKind::VoltageSource,
         v_mid,
         &["emfp", "emfn"],
-        StageRole::Sensor,
+        (StageRole::Sensor, PartRole::DifferentialEmf),
         "differential signal (swept over the source range)",
     );
-    bld.bench("RSENSEP", PartKind::Resistor, rs.max(1e-3), &["emfp", "sensep"], StageRole::Sensor, "+ leg impedance");
-    bld.bench("RSENSEN", PartKind::Resistor, rs.max(1e-3), &["emfn", "sensen"], StageRole::Sensor, "− leg impedance");
-    bld.bench("VPOS", PartKind::VoltageSource, rails.pos, &["vpos", GND], StageRole::Supply, "positive rail");
+    let leg = |side| (StageRole::Sensor, PartRole::LegImpedance(side));
+    bld.bench("RSENSEP", PartKind::Resistor, rs.max(1e-3), &["emfp", "sensep"], leg(Side::Plus), "+ leg impedance");
+    bld.bench("RSENSEN", PartKind::Resistor, rs.max(1e-3), &["emfn", "sensen"], leg(Side::Minus), "− leg impedance");
+    let rail = (StageRole::Supply, PartRole::Rail);
+    bld.bench("VPOS", PartKind::VoltageSource, rails.pos, &["vpos", GND], rail, "positive rail");
     if rails.is_dual() {
-        bld.bench("VNEG", PartKind::VoltageSource, rails.neg, &["vneg", GND], StageRole::Supply, "negative rail");
+        bld.bench("VNEG", PartKind::VoltageSource, rails.neg, &["vneg", GND], rail, "negative rail");
     }
     bld.bench(
         "RADC",
         PartKind::Resistor,
         req.destination.impedance,
         &["adc", GND],
-        StageRole::Converter,
+        (StageRole::Converter, PartRole::ConverterLoad),
         "converter input impedance",
     );
     let vneg = if rails.is_dual() { "vneg" } else { GND };
+    let at = |role| (StageRole::Gain, role);
     let mut parts = vec![
-        bld.add(PartKind::Resistor, r1, tol, &[minus_leg, "inn1"], StageRole::Gain, "input resistor R1 (− leg)"),
-        bld.add(PartKind::Resistor, r2, tol, &["inn1", "adc"], StageRole::Gain, "feedback resistor R2"),
+        bld.add(
+            PartKind::Resistor,
+            r1,
+            tol,
+            &[minus_leg, "inn1"],
+            at(PartRole::MinusInput),
+            "input resistor R1 (− leg)",
+        ),
+        bld.add(PartKind::Resistor, r2, tol, &["inn1", "adc"], at(PartRole::FeedbackResistor), "feedback resistor R2"),
         bld.add(
             PartKind::Resistor,
             r1,
             tol,
             &[plus_leg, "inp1"],
-            StageRole::Gain,
+            at(PartRole::PlusInput),
             "input resistor R3 (+ leg, equal to R1)",
         ),
     ];
@@ -164,7 +174,7 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
             top,
             tol,
             &[rail_node, "dref"],
-            StageRole::Reference,
+            (StageRole::Reference, PartRole::DividerTop),
             "reference divider, upper leg",
         ));
         ref_parts.push(bld.add(
@@ -172,7 +182,7 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
             bottom,
             tol,
             &["dref", GND],
-            StageRole::Reference,
+            (StageRole::Reference, PartRole::DividerBottom),
             "reference divider, lower leg",
         ));
         ref_parts.push(bld.add(
@@ -180,7 +190,7 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
             100e-9,
             Some(req.parts.capacitor_tolerance),
             &["dref", GND],
-            StageRole::Reference,
+            (StageRole::Reference, PartRole::Bypass),
             "reference bypass",
         ));
         equations.push(format!(
@@ -195,7 +205,7 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
         r2,
         tol,
         &["inp1", &pin],
-        StageRole::Gain,
+        at(PartRole::ToReference),
         "resistor R4 to the reference pin (equal to R2)",
     ));
     parts.push(bld.add(
@@ -203,7 +213,7 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
         amp.gbw,
         None,
         &["inp1", "inn1", "vpos", vneg, "adc"],
-        StageRole::Gain,
+        at(PartRole::Amplifier),
         "difference amplifier: gain, common-mode rejection and level",
     ));
     if pin == "ref" {
@@ -212,7 +222,7 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
             amp.gbw,
             None,
             &["dref", "ref", "vpos", vneg, "ref"],
-            StageRole::Reference,
+            (StageRole::Reference, PartRole::ReferenceFollower),
             "reference follower: drives the pin from a low impedance",
         ));
     }
@@ -229,10 +239,12 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
             g
         ),
     );
-    let mut stages = vec![Stage { role: StageRole::Gain, description: "difference amplifier".to_string(), parts }];
+    let description = "difference amplifier".to_string();
+    let mut stages = vec![Stage { role: StageRole::Gain, kind: StageKind::Difference, description, parts }];
     if !ref_parts.is_empty() {
         stages.push(Stage {
             role: StageRole::Reference,
+            kind: StageKind::Reference,
             description: format!("reference at {}", format(v_ref, Quantity::Voltage)),
             parts: ref_parts,
         });
@@ -266,16 +278,19 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
 /// filled in from the analyses ([`DiffDesign::cmrr_check`]).
 pub fn report(req: &Request, c: &Circuit, front_gain: Option<f64>) -> Option<DiffDesign> {
     let src = &req.source;
-    let r1 = c.parts.iter().find(|p| p.purpose.starts_with("input resistor R1"))?.value;
-    let r2 = c.parts.iter().find(|p| p.purpose.starts_with("feedback resistor R2"))?.value;
+    let part = |role| c.stage_part(StageKind::Difference, role);
+    let r1 = part(PartRole::MinusInput)?.value;
+    let r2 = part(PartRole::FeedbackResistor)?.value;
     let gain = r2 / (r1 + if front_gain.is_some() { 0.0 } else { src.impedance });
     let g1 = front_gain.unwrap_or(1.0);
     let t = req.parts.resistor_tolerance;
     let cmrr = super::instrumentation::cmrr_worst_db(g1, gain, t);
     let cm_span = src.common_mode_max.unwrap_or(0.0) - src.common_mode_min.unwrap_or(0.0);
     let cm_error = g1 * gain * cm_span / 10f64.powf(cmrr / 20.0);
-    let reference = c.parts.iter().find(|p| p.purpose.starts_with("resistor R4")).map_or(0.0, |p| {
-        let pin = p.nodes.iter().find(|n| *n != "inp1").cloned().unwrap_or_default();
+    // R4 runs from the amplifier's + input to the reference pin.
+    let plus = part(PartRole::Amplifier).and_then(|u| u.nodes.first()).cloned().unwrap_or_default();
+    let reference = part(PartRole::ToReference).map_or(0.0, |p| {
+        let pin = p.nodes.iter().find(|n| **n != plus).cloned().unwrap_or_default();
         if pin == GND {
             0.0
         } else {
@@ -303,8 +318,8 @@ impl DiffDesign {
         let t = req.parts.resistor_tolerance;
         let cm_span = src.common_mode_max.unwrap_or(0.0) - src.common_mode_min.unwrap_or(0.0);
         let d = &req.destination;
-        let lsb = (d.max - d.min) / 2f64.powi(d.bits as i32);
-        let tol = format!("{} %", crate::units::format_sig(100.0 * t, Quantity::Ratio, 3));
+        let lsb = d.lsb();
+        let tol = crate::units::format_percent(t);
         let rule = match self.first_gain {
             Some(g1) => {
                 format!("G1·(1 + G2)/(4t), the difference stage's (1 + G2)/(4t) times the first stage's gain {g1:.3}")

@@ -26,7 +26,7 @@
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Circuit, PartKind, Stage, StageRole, GND};
+use crate::circuit::{Circuit, PartKind, PartRole, Stage, StageKind, StageRole, GND};
 use crate::diag::Check;
 use crate::figures::Block;
 use crate::request::{Coupling, Request, SourceKind};
@@ -132,7 +132,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
         "U1",
         gbw,
         ["sense", "buf", "vpos", vneg, "buf"],
-        StageRole::Buffer,
+        (StageRole::Buffer, PartRole::Amplifier),
         "follower: takes no current from the sensor and drives the rest",
     )];
     let rtol = Some(req.parts.resistor_tolerance);
@@ -144,7 +144,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
             r_b,
             rtol,
             &["sense", ret],
-            StageRole::Buffer,
+            (StageRole::Buffer, PartRole::Bias),
             "bias resistor: the input's DC path; sets the low corner with the sensor's capacitance",
         ));
     }
@@ -155,7 +155,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
                 REF_LEG,
                 rtol,
                 &["vpos", "bref"],
-                StageRole::Buffer,
+                (StageRole::Buffer, PartRole::DividerTop),
                 "sensor return reference divider, upper leg",
             ));
             parts.push(bld.add(
@@ -163,7 +163,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
                 REF_LEG,
                 rtol,
                 &["bref", GND],
-                StageRole::Buffer,
+                (StageRole::Buffer, PartRole::DividerBottom),
                 "sensor return reference divider, lower leg",
             ));
             parts.push(bld.add(
@@ -171,7 +171,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
                 REF_BYPASS,
                 Some(req.parts.capacitor_tolerance),
                 &["bref", GND],
-                StageRole::Buffer,
+                (StageRole::Buffer, PartRole::Bypass),
                 "sensor return reference bypass",
             ));
         }
@@ -183,7 +183,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
         PartKind::VoltageSource,
         mid,
         &["emf", GND],
-        StageRole::Sensor,
+        (StageRole::Sensor, PartRole::Emf),
         "sensor EMF (swept over the source range)",
     );
     bld.bench(
@@ -191,7 +191,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
         PartKind::Resistor,
         s.impedance,
         &["emf", "sense"],
-        StageRole::Sensor,
+        (StageRole::Sensor, PartRole::SourceResistance),
         if s.coupling == Coupling::Ac { "sensor leakage resistance" } else { "sensor source resistance" },
     );
     match s.coupling {
@@ -200,7 +200,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
             PartKind::Capacitor,
             cs,
             &["emf", "sense"],
-            StageRole::Sensor,
+            (StageRole::Sensor, PartRole::SeriesCapacitance),
             "sensor capacitance (the signal sits behind it)",
         ),
         Coupling::Dc if cs > 0.0 => bld.bench(
@@ -208,7 +208,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
             PartKind::Capacitor,
             cs,
             &["sense", GND],
-            StageRole::Sensor,
+            (StageRole::Sensor, PartRole::ShuntCapacitance),
             "sensor and cable capacitance at the input",
         ),
         Coupling::Dc => {}
@@ -222,7 +222,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
         ),
         None => "follower: the sensor sees only the amplifier's input".to_string(),
     };
-    circuit.stages.insert(0, Stage { role: StageRole::Buffer, description: what, parts });
+    circuit.stages.insert(0, Stage { role: StageRole::Buffer, kind: StageKind::Follower, description: what, parts });
 }
 
 /// Design equations of the buffer, with the numbers substituted.
@@ -264,7 +264,7 @@ pub fn equations(req: &Request, b: &BufferDesign) -> Vec<String> {
 pub fn checks(req: &Request, b: &BufferDesign, amp: &Amplifier) -> Vec<Check> {
     let s = &req.source;
     let span = s.max - s.min;
-    let lsb = span / 2f64.powi(req.destination.bits as i32);
+    let lsb = crate::request::lsb_of(span, req.destination.bits);
     let v = |x: f64| format(x, Quantity::Voltage);
     let mut c = Vec::new();
     if !b.follows {

@@ -27,7 +27,7 @@
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Builder, Circuit, PartKind, Stage, StageRole, GND};
+use crate::circuit::{Builder, Circuit, PartKind, PartRole, Side, Stage, StageKind, StageRole, GND};
 use crate::diag::Check;
 use crate::figures::Block;
 use crate::request::{FrontEnd, Request, SourceKind};
@@ -201,14 +201,16 @@ pub fn equivalent(req: &Request, d: &InampDesign) -> Request {
 pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rails) {
     let s = &req.source;
     super::renumber_amplifiers(circuit, 2);
+    // The difference stage now reads the first stage's outputs instead of the pair's terminals.
+    let terminals = circuit.sensor_terminals();
     for p in circuit.parts.iter_mut() {
         if p.bench {
             continue;
         }
         for n in p.nodes.iter_mut() {
-            match n.as_str() {
-                "sensep" => *n = "oa".to_string(),
-                "sensen" => *n = "ob".to_string(),
+            match terminals.iter().position(|t| t == n) {
+                Some(0) => *n = "oa".to_string(),
+                Some(1) => *n = "ob".to_string(),
                 _ => {}
             }
         }
@@ -216,10 +218,10 @@ pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rail
     let mid = 0.5 * (s.min + s.max);
     let cm_mid = 0.5 * (s.common_mode_min.unwrap_or(0.0) + s.common_mode_max.unwrap_or(0.0));
     for p in circuit.parts.iter_mut().filter(|p| p.bench) {
-        match p.reference.as_str() {
-            "VSENSE" => p.value = mid,
-            "VCM" => p.value = cm_mid - 0.5 * mid,
-            "RSENSEP" | "RSENSEN" => p.value = s.impedance.max(1e-3),
+        match p.role {
+            Some(PartRole::DifferentialEmf) => p.value = mid,
+            Some(PartRole::CommonMode) => p.value = cm_mid - 0.5 * mid,
+            Some(PartRole::LegImpedance(_)) => p.value = s.impedance.max(1e-3),
             _ => {}
         }
     }
@@ -233,7 +235,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rail
         d.protection,
         rtol,
         &["sensep", "ipp"],
-        StageRole::InputStage,
+        (StageRole::InputStage, PartRole::Protection(Side::Plus)),
         "protection resistor, + leg: limits fault current into U1's input",
     ));
     parts.push(bld.add(
@@ -241,7 +243,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rail
         d.protection,
         rtol,
         &["sensen", "ipn"],
-        StageRole::InputStage,
+        (StageRole::InputStage, PartRole::Protection(Side::Minus)),
         "protection resistor, − leg: limits fault current into U2's input",
     ));
     match (d.feedback, d.gain_resistor) {
@@ -250,14 +252,14 @@ pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rail
                 "U1",
                 gbw,
                 ["ipp", "ga", "vpos", vneg, "oa"],
-                StageRole::InputStage,
+                (StageRole::InputStage, PartRole::InputAmplifier(Side::Plus)),
                 "input amplifier, + leg: gain 1 + 2R_F/R_G for the difference, 1 for the common mode",
             ));
             parts.push(bld.front_amplifier(
                 "U2",
                 gbw,
                 ["ipn", "gb", "vpos", vneg, "ob"],
-                StageRole::InputStage,
+                (StageRole::InputStage, PartRole::InputAmplifier(Side::Minus)),
                 "input amplifier, − leg: gain 1 + 2R_F/R_G for the difference, 1 for the common mode",
             ));
             parts.push(bld.add(
@@ -265,7 +267,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rail
                 r_f,
                 rtol,
                 &["oa", "ga"],
-                StageRole::InputStage,
+                (StageRole::InputStage, PartRole::LegFeedback(Side::Plus)),
                 "first-stage feedback R_F, + leg",
             ));
             parts.push(bld.add(
@@ -273,7 +275,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rail
                 r_g,
                 rtol,
                 &["ga", "gb"],
-                StageRole::InputStage,
+                (StageRole::InputStage, PartRole::GainResistor),
                 "gain resistor R_G: sets the first stage's gain",
             ));
             parts.push(bld.add(
@@ -281,7 +283,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rail
                 r_f,
                 rtol,
                 &["ob", "gb"],
-                StageRole::InputStage,
+                (StageRole::InputStage, PartRole::LegFeedback(Side::Minus)),
                 "first-stage feedback R_F, − leg",
             ));
         }
@@ -290,14 +292,14 @@ pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rail
                 "U1",
                 gbw,
                 ["ipp", "oa", "vpos", vneg, "oa"],
-                StageRole::InputStage,
+                (StageRole::InputStage, PartRole::InputAmplifier(Side::Plus)),
                 "input follower, + leg: the leg sees only its input",
             ));
             parts.push(bld.front_amplifier(
                 "U2",
                 gbw,
                 ["ipn", "ob", "vpos", vneg, "ob"],
-                StageRole::InputStage,
+                (StageRole::InputStage, PartRole::InputAmplifier(Side::Minus)),
                 "input follower, − leg: the leg sees only its input",
             ));
         }
@@ -311,7 +313,8 @@ pub fn insert(circuit: &mut Circuit, req: &Request, d: &InampDesign, rails: Rail
         ),
         None => "instrumentation-amplifier input stage: two followers".to_string(),
     };
-    circuit.stages.insert(0, Stage { role: StageRole::InputStage, description: what, parts });
+    let kind = StageKind::InstrumentationInput;
+    circuit.stages.insert(0, Stage { role: StageRole::InputStage, kind, description: what, parts });
 }
 
 /// The whole amplifier's topology in words, given the difference stage's.

@@ -26,7 +26,7 @@ pub mod transimpedance;
 use serde::ser::{Serialize, SerializeMap, Serializer};
 
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Circuit, PartKind};
+use crate::circuit::{Circuit, PartKind, PartRole};
 use crate::diag::Check;
 use crate::figures::Block;
 use crate::predict::Predicted;
@@ -235,14 +235,17 @@ pub(crate) fn stiff_source(req: &Request, min: f64, max: f64) -> Request {
 }
 
 /// Prepares a circuit synthesised for an equivalent stiff source to get a front-end
-/// amplifier as U1 (follower, transimpedance stage): drops the bench's `VSENSE`/`RSENSE`,
-/// moves every amplifier's designator up by one (in the parts and the stages), and moves
-/// the gain stage's input from the sensor terminal to `input`, the front end's output.
+/// amplifier as U1 (follower, transimpedance stage): drops the bench's EMF and source
+/// resistance (`VSENSE`, `RSENSE`), moves every amplifier's designator up by one (in the
+/// parts and the stages), and moves the gain stage's input from the sensor terminal (and
+/// the EMF's node) to `input`, the front end's output.
 pub(crate) fn make_room_in_front(circuit: &mut Circuit, input: &str) {
-    circuit.parts.retain(|p| !(p.bench && (p.reference == "VSENSE" || p.reference == "RSENSE")));
+    let mut old = circuit.sensor_terminals();
+    old.extend(circuit.with_role(PartRole::Emf).and_then(|p| p.nodes.first()).cloned());
+    circuit.parts.retain(|p| !(p.bench && matches!(p.role, Some(PartRole::Emf | PartRole::SourceResistance))));
     renumber_amplifiers(circuit, 1);
     for p in circuit.parts.iter_mut().filter(|p| !p.bench) {
-        for n in p.nodes.iter_mut().filter(|n| *n == "sense" || *n == "emf") {
+        for n in p.nodes.iter_mut().filter(|n| old.contains(n)) {
             *n = input.to_string();
         }
     }
@@ -289,8 +292,8 @@ pub fn input_protection(req: &Request, c: &Circuit, rails: Rails) -> Vec<Check> 
     if !beyond {
         return Vec::new();
     }
-    let inputs = ["sense", "sensep", "sensen"];
-    let on_input = |n: &String| inputs.contains(&n.as_str());
+    let inputs = c.sensor_terminals();
+    let on_input = |n: &String| inputs.contains(n);
     let direct = c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.nodes.iter().take(2).any(on_input));
     let series = c
         .parts

@@ -25,7 +25,7 @@ use std::f64::consts::PI;
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Circuit, PartKind, Stage, StageRole, GND};
+use crate::circuit::{Circuit, PartKind, PartRole, Stage, StageKind, StageRole, GND};
 use crate::diag::Check;
 use crate::figures::Block;
 use crate::request::{Request, SourceKind};
@@ -147,7 +147,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, t: &TiaDesign, rails: Rails)
         "U1",
         gbw,
         [plus, "sense", "vpos", vneg, "tia"],
-        StageRole::Transimpedance,
+        (StageRole::Transimpedance, PartRole::Amplifier),
         "transimpedance amplifier: holds the diode at the bias and turns its current into a voltage",
     )];
     let rtol = Some(req.parts.resistor_tolerance);
@@ -156,7 +156,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, t: &TiaDesign, rails: Rails)
         t.feedback_resistor,
         rtol,
         &["tia", "sense"],
-        StageRole::Transimpedance,
+        (StageRole::Transimpedance, PartRole::FeedbackResistor),
         "feedback resistor R_f: volts per ampere of photocurrent",
     ));
     parts.push(bld.add(
@@ -164,7 +164,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, t: &TiaDesign, rails: Rails)
         t.feedback_capacitor,
         Some(req.parts.capacitor_tolerance),
         &["tia", "sense"],
-        StageRole::Transimpedance,
+        (StageRole::Transimpedance, PartRole::FeedbackCapacitor),
         "feedback capacitor C_f: keeps the stage stable and flat against the diode's capacitance",
     ));
     if t.bias != 0.0 {
@@ -176,7 +176,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, t: &TiaDesign, rails: Rails)
             top,
             rtol,
             &["vpos", "pdb"],
-            StageRole::Transimpedance,
+            (StageRole::Transimpedance, PartRole::DividerTop),
             "bias divider, upper leg",
         ));
         parts.push(bld.add(
@@ -184,7 +184,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, t: &TiaDesign, rails: Rails)
             bottom,
             rtol,
             &["pdb", GND],
-            StageRole::Transimpedance,
+            (StageRole::Transimpedance, PartRole::DividerBottom),
             "bias divider, lower leg",
         ));
         parts.push(bld.add(
@@ -192,7 +192,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, t: &TiaDesign, rails: Rails)
             BIAS_BYPASS,
             Some(req.parts.capacitor_tolerance),
             &["pdb", GND],
-            StageRole::Transimpedance,
+            (StageRole::Transimpedance, PartRole::Bypass),
             "bias bypass",
         ));
     }
@@ -202,18 +202,19 @@ pub fn insert(circuit: &mut Circuit, req: &Request, t: &TiaDesign, rails: Rails)
         PartKind::CurrentSource,
         mid,
         &["sense", GND],
-        StageRole::Sensor,
+        (StageRole::Sensor, PartRole::Photocurrent),
         "photocurrent (swept over the source range)",
     );
     if let Some(d) = s.dark_current.filter(|d| *d > 0.0) {
-        bld.bench("IDARK", PartKind::CurrentSource, d, &["sense", GND], StageRole::Sensor, "dark current");
+        let at = (StageRole::Sensor, PartRole::DarkCurrent);
+        bld.bench("IDARK", PartKind::CurrentSource, d, &["sense", GND], at, "dark current");
     }
     bld.bench(
         "CSENSE",
         PartKind::Capacitor,
         s.capacitance.unwrap_or(0.0),
         &["sense", GND],
-        StageRole::Sensor,
+        (StageRole::Sensor, PartRole::ShuntCapacitance),
         "junction capacitance",
     );
     circuit.parts = bld.parts;
@@ -223,7 +224,8 @@ pub fn insert(circuit: &mut Circuit, req: &Request, t: &TiaDesign, rails: Rails)
         format(t.feedback_capacitor, Quantity::Capacitance),
         format(t.bias, Quantity::Voltage)
     );
-    circuit.stages.insert(0, Stage { role: StageRole::Transimpedance, description: what, parts });
+    let kind = StageKind::Transimpedance;
+    circuit.stages.insert(0, Stage { role: StageRole::Transimpedance, kind, description: what, parts });
 }
 
 /// Design equations of the stage, with the numbers substituted.

@@ -10,14 +10,17 @@
 //! low-voltage CMOS amplifier with rail-to-rail input and output, and a wide-supply
 //! bipolar-input amplifier with rail-to-rail output.
 //!
-//! The same [`Amplifier`] drives the solver and the SPICE3 subcircuit in [`crate::netlist`],
-//! so the prediction and the exported netlist describe one model: finite DC gain, one
-//! dominant pole at `gbw / open_loop_gain`, output limited `swing_low`/`swing_high` inside
-//! the rails.
+//! The same [`Amplifier`] drives the solver, the Monte Carlo kernel and the SPICE3
+//! subcircuit in [`crate::netlist`] through one macro-model ([`model`]), so the prediction
+//! and the exported netlist describe one model: finite DC gain, one dominant pole at
+//! `gbw / open_loop_gain`, output limited `swing_low`/`swing_high` inside the rails.
+
+pub mod model;
 
 use serde::Serialize;
 
 use crate::request::{AmplifierSpec, Request};
+pub use model::{MacroModel, GM};
 
 /// The rails one amplifier runs from. `neg` is 0 V (ground) on a single supply.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -112,7 +115,7 @@ impl Amplifier {
 
     /// Lowest and highest output the amplifier reaches on `rails`.
     pub fn output_limits(&self, rails: Rails) -> (f64, f64) {
-        (rails.neg + self.swing_low, rails.pos - self.swing_high)
+        self.macro_model().output_limits(rails)
     }
 
     /// Lowest and highest input common-mode voltage on `rails`.

@@ -1,0 +1,209 @@
+//! Bench truth: for each way a built circuit fails on the bench, ngspice on the exported
+//! netlist shows the failure in a design the checks flag with an error, and shows that the
+//! same job with the fault removed — a design with no error-severity check — holds up.
+//! The simulator is Debian's ngspice (SPICE3-compatible; tests/REFERENCES.md §ngspice);
+//! requests are scenarios of our own. ngspice must be installed: without it the test fails.
+
+use rangefit_engine::diag::Severity;
+use rangefit_engine::netlist::{netlist, NetlistConfig};
+use rangefit_engine::{design, Design, Request};
+use rangefit_tests::rows::{at_most, check, fact, row, Row};
+use rangefit_tests::spice;
+use serde_json::{json, Value};
+
+const NGSPICE: &str = "ngspice AC analysis of the exported netlist (tests/REFERENCES.md, ngspice)";
+
+fn request(v: &Value) -> Request {
+    Request::from_json(&v.to_string()).unwrap_or_else(|e| panic!("request does not read: {e}\n{v}"))
+}
+
+fn errors(d: &Design) -> Vec<String> {
+    d.checks.iter().filter(|c| c.severity == Severity::Error).map(|c| format!("{}: {}", c.id, c.message)).collect()
+}
+
+fn exported(d: &Design) -> String {
+    netlist(&d.request, d.circuit.as_ref().expect("a circuit"), NetlistConfig { testbench: false })
+}
+
+/// A quay crane's boom strain channel: 0 … 10 mV from a strain amplifier's raw output into a
+/// 12-bit converter at 500 kHz, 50 kHz of band, on one 5 V rail, with the amplifier's
+/// gain-bandwidth given.
+fn crane(gbw: &str) -> Request {
+    request(&json!({
+        "version": 1, "name": "Quay crane boom strain",
+        "source": {"kind": "single_ended", "min": 0, "max": 0.01, "coupling": "dc", "impedance": "100",
+                   "band_high": "50 kHz"},
+        "destination": {"min": 0, "max": 1.8, "bits": 12, "sample_rate": "500 kHz", "impedance": "100k"},
+        "supplies": [5],
+        "amplifier": {"gbw": gbw}
+    }))
+}
+
+/// Response corners anywhere: an amplifier with too little gain-bandwidth for its gain puts
+/// the −3 dB point inside the band. The engine must find it where ngspice finds it and
+/// call it an error; with a fast amplifier the band edge stays within the allowance.
+#[test]
+fn a_corner_inside_the_band_is_found_and_is_an_error() {
+    let mut rows: Vec<Row> = Vec::new();
+    let slow = design(&crane("1 MHz"));
+    let p = slow.predicted.expect("a prediction");
+    let fh = p.band_high.expect("an upper corner");
+    let net = exported(&slow);
+    let g = spice::ac_magnitudes("crane-slow", &net, "adc", &[50.0, fh, 50e3]);
+    rows.push(row(
+        "slow amplifier: ngspice gain at the engine's upper corner, dB re 50 Hz",
+        20.0 * (g[1] / g[0]).log10(),
+        -3.0103,
+        0.05,
+        NGSPICE,
+    ));
+    rows.push(fact(format!("slow amplifier: the corner {fh:.0} Hz lies inside the 50 kHz band"), fh < 50e3, NGSPICE));
+    rows.push(fact(
+        format!("slow amplifier: ngspice is below −3 dB at 50 kHz ({:.2} dB)", 20.0 * (g[2] / g[0]).log10()),
+        g[2] / g[0] < std::f64::consts::FRAC_1_SQRT_2,
+        NGSPICE,
+    ));
+    let e = errors(&slow);
+    rows.push(fact(
+        format!("slow amplifier: the bandwidth check is an error ({e:?})"),
+        e.iter().any(|m| m.starts_with("bandwidth:")),
+        "design contract",
+    ));
+
+    let fast = design(&crane("50 MHz"));
+    let e = errors(&fast);
+    rows.push(fact(format!("fast amplifier: no error-severity check ({e:?})"), e.is_empty(), "design contract"));
+    let net = exported(&fast);
+    let g = spice::ac_magnitudes("crane-fast", &net, "adc", &[50.0, 50e3]);
+    let allowed = fast.filter.as_ref().map_or(fast.request.filter.passband_error, |f| f.passband_allowed_db);
+    rows.push(at_most(
+        "fast amplifier: ngspice droop at 50 kHz, dB",
+        -20.0 * (g[1] / g[0]).log10(),
+        allowed,
+        0.01,
+        NGSPICE,
+    ));
+    check(&rows);
+}
+
+/// An orchard frost alarm's thermocouple amplifier: 0 … 80 mV into a 12-bit converter's
+/// 0 … 3.3 V on one 3.3 V rail, the low end of the range 5 % above the lower rail.
+fn orchard() -> Request {
+    request(&json!({
+        "version": 1, "name": "Orchard frost-alarm thermocouple",
+        "source": {"kind": "single_ended", "min": 0, "max": "80 mV", "coupling": "dc", "impedance": 0, "band_high": "5 Hz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "50 Hz", "impedance": "100k"},
+        "supplies": [3.3]
+    }))
+}
+
+/// `netlist` with a DC source of `volts` in series with the + input of amplifier `U1`
+/// (one build's input offset) and the rail `VPOS` at `rail` volts.
+fn with_offset_and_rail(netlist: &str, volts: f64, rail: f64) -> String {
+    let mut out = String::new();
+    for line in netlist.lines() {
+        let mut words: Vec<String> = line.split_whitespace().map(str::to_string).collect();
+        if words.first().is_some_and(|w| w == "XU1") {
+            let plus = words[1].clone();
+            out.push_str(&format!("VOFFSET {plus}_os {plus} DC {volts:e}\n"));
+            words[1] = format!("{plus}_os");
+            out.push_str(&(words.join(" ") + "\n"));
+        } else if words.first().is_some_and(|w| w == "VPOS") {
+            out.push_str(&format!("VPOS {} {} DC {rail:e}\n", words[1], words[2]));
+        } else {
+            out.push_str(line);
+            out.push('\n');
+        }
+    }
+    out
+}
+
+/// Yield that means it: builds whose amplifier offset and rail push the output into the
+/// amplifier's swing limit are failures. ngspice shows such a build pinned at the limit at
+/// the low end of the range; the engine counts clipped builds and the yield check fails;
+/// its worst case reaches the limit too. With the rail's own tolerance, ngspice's output at
+/// the two rail extremes (nominal parts) lies inside the engine's worst case.
+#[test]
+fn clipped_builds_are_failures_and_the_rail_is_in_the_worst_case() {
+    const OP: &str = "ngspice operating point of the exported netlist (tests/REFERENCES.md, ngspice)";
+    let mut rows: Vec<Row> = Vec::new();
+    let req = orchard();
+    let d = design(&req);
+    let a = d.analysis.as_ref().expect("analyses");
+    let mc = &a.tolerance.monte_carlo;
+    let net = exported(&d);
+    let amp = &d.amplifier;
+    // Builds at the corners of the engine's box: offset at ±its figure, rail at ±5 %; at each
+    // end of the range, how close ngspice's output comes to that build's swing limit.
+    let mut pinned = Vec::new();
+    for vos in [-amp.offset, amp.offset] {
+        for rail in [3.3 * 0.95, 3.3 * 1.05] {
+            let n = with_offset_and_rail(&net, vos, rail);
+            let ends = [vec!["alter VSENSE dc = 0".into()], vec!["alter VSENSE dc = 0.08".into()]];
+            let v = spice::operating_points("orchard-offset", &n, &ends, &["adc"]);
+            let (lo, hi) = (amp.swing_low, rail - amp.swing_high);
+            if v[0][0] <= lo + 2e-3 || v[1][0] >= hi - 2e-3 || v[0][0] >= hi - 2e-3 || v[1][0] <= lo + 2e-3 {
+                pinned.push(format!(
+                    "offset {:+.1} mV, rail {rail:.3} V: {:.4} V / {:.4} V",
+                    vos * 1e3,
+                    v[0][0],
+                    v[1][0]
+                ));
+            }
+        }
+    }
+    rows.push(fact(
+        format!("ngspice: builds at the box's corners sit at a swing limit at an end of the range ({pinned:?})"),
+        !pinned.is_empty(),
+        OP,
+    ));
+    rows.push(fact(
+        format!("engine: clipped builds are counted ({} of {})", mc.clipped, mc.runs),
+        mc.clipped > 0,
+        "design contract",
+    ));
+    rows.push(at_most(
+        "engine: yield leaves the clipped builds out",
+        mc.yield_,
+        1.0 - mc.clipped as f64 / mc.runs as f64,
+        1e-12,
+        "design contract",
+    ));
+    let yield_check = d.checks.iter().find(|c| c.id == "yield").expect("a yield check");
+    rows.push(fact(
+        format!("engine: the yield check says the clipped builds are failures ({})", yield_check.message),
+        yield_check.message.contains("count as failures"),
+        "design contract",
+    ));
+
+    // The rail alone, nominal parts: ngspice at ±5 % inside the engine's worst case.
+    let fast = design(&crane("50 MHz"));
+    let wc = &fast.analysis.as_ref().expect("analyses").tolerance.worst_case;
+    let net = exported(&fast);
+    for rail in [5.0 * 0.95, 5.0 * 1.05] {
+        let n = with_offset_and_rail(&net, 0.0, rail);
+        let v = spice::operating_points(
+            "crane-rail",
+            &n,
+            &[vec!["alter VSENSE dc = 0".into()], vec!["alter VSENSE dc = 0.01".into()]],
+            &["adc"],
+        );
+        rows.push(fact(
+            format!(
+                "crane, rail {rail} V: ngspice {:.4} V at 0 mV inside the worst case {:.4} … {:.4} V",
+                v[0][0], wc.output_at_min[0], wc.output_at_min[1]
+            ),
+            v[0][0] >= wc.output_at_min[0] - 1e-4 && v[0][0] <= wc.output_at_min[1] + 1e-4,
+            OP,
+        ));
+        rows.push(fact(
+            format!(
+                "crane, rail {rail} V: ngspice {:.4} V at 10 mV inside the worst case {:.4} … {:.4} V",
+                v[1][0], wc.output_at_max[0], wc.output_at_max[1]
+            ),
+            v[1][0] >= wc.output_at_max[0] - 1e-4 && v[1][0] <= wc.output_at_max[1] + 1e-4,
+            OP,
+        ));
+    }
+    check(&rows);
+}
