@@ -27,6 +27,15 @@ pub fn App() -> impl IntoView {
     // Build the steps not on show once the first screen is painted.
     request_animation_frame(move || set_timeout(move || ctx.ready.set(true), std::time::Duration::ZERO));
     opening::follow_address_bar(ctx);
+    // Sent by the page's service-worker script (index.html) when a new version is installed.
+    let _ = window_event_listener_untyped("rangefit-update", move |_| {
+        ctx.notify(
+            NoticeKind::Info,
+            "notice-update",
+            "A new version of Rangefit has been downloaded. It opens on your next visit, once every Rangefit tab \
+            is closed.",
+        )
+    });
 
     view! {
         <TopBar/>

@@ -1,5 +1,6 @@
 //! The few browser services the page uses, each failing softly: local storage (through
-//! gloo-storage), user-timing marks, the clipboard, file downloads and the address bar.
+//! gloo-storage), user-timing marks, the clipboard, file downloads, files the user picks,
+//! fetching a file of the app, and the address bar (a page opened from a file included).
 //! Nothing here throws into Rust or panics when a service is missing.
 
 use gloo_storage::{LocalStorage, Storage};
@@ -136,6 +137,39 @@ pub fn download(file_name: &str, mime: &str, content: &str) -> Result<(), String
     Ok(())
 }
 
+/// The text of the first file chosen in `input`.
+pub async fn chosen_text(input: &web_sys::HtmlInputElement) -> Result<String, String> {
+    let file = input.files().and_then(|f| f.get(0)).ok_or("no file was chosen")?;
+    let text = wasm_bindgen_futures::JsFuture::from(file.text()).await.map_err(|_| "the file could not be read")?;
+    text.as_string().ok_or_else(|| "the file is not text".into())
+}
+
+/// Fetches `url` (relative to the page) as text.
+pub async fn fetch_text(url: &str) -> Result<String, String> {
+    let window = web_sys::window().ok_or("no window")?;
+    let offline = "it could not be fetched; the network may be down";
+    let response = wasm_bindgen_futures::JsFuture::from(window.fetch_with_str(url)).await.map_err(|_| offline)?;
+    let response: web_sys::Response = response.dyn_into().map_err(|_| offline)?;
+    if !response.ok() {
+        return Err(format!("the server answered {}", response.status()));
+    }
+    let text = response.text().map_err(|_| offline)?;
+    let text = wasm_bindgen_futures::JsFuture::from(text).await.map_err(|_| offline)?;
+    text.as_string().ok_or_else(|| "it is not text".into())
+}
+
+/// Whether the page was opened from a file on this computer (the one-file app).
+pub fn from_file() -> bool {
+    web_sys::window().and_then(|w| w.location().protocol().ok()).is_some_and(|p| p == "file:")
+}
+
+/// The hosted app's address that the one-file app carries, if it knows it.
+pub fn home() -> Option<String> {
+    let doc = web_sys::window()?.document()?;
+    let meta = doc.query_selector("meta[name='rangefit-home']").ok()??;
+    meta.get_attribute("content").filter(|c| !c.is_empty())
+}
+
 /// The address-bar fragment without `#` (empty when there is none).
 pub fn fragment() -> String {
     web_sys::window()
@@ -144,16 +178,11 @@ pub fn fragment() -> String {
         .unwrap_or_default()
 }
 
-/// The page's address without fragment, e.g. `http://127.0.0.1:8080/`.
+/// The page's address without fragment, e.g. `http://127.0.0.1:8080/` or
+/// `file:///home/me/rangefit.html`.
 pub fn page_address() -> String {
-    let Some(w) = web_sys::window() else { return String::new() };
-    let loc = w.location();
-    format!(
-        "{}{}{}",
-        loc.origin().unwrap_or_default(),
-        loc.pathname().unwrap_or_default(),
-        loc.search().unwrap_or_default()
-    )
+    let href = web_sys::window().and_then(|w| w.location().href().ok()).unwrap_or_default();
+    href.split('#').next().unwrap_or_default().to_string()
 }
 
 /// Removes the fragment from the address bar without a new history entry.

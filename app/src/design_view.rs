@@ -106,7 +106,12 @@ fn fill_plots(ctx: Ctx) {
 #[component]
 fn Toolbar(shown: Arc<Shown>) -> impl IntoView {
     let ctx = expect_context::<Ctx>();
-    let link = format!("{}#{}", browser::page_address(), shown.fragment);
+    // The one-file app links to the hosted app when it knows its address, and to itself.
+    let here = format!("{}#{}", browser::page_address(), shown.fragment);
+    let (link, file_link) = match browser::home().filter(|_| browser::from_file()) {
+        Some(home) => (format!("{home}#{}", shown.fragment), Some(here)),
+        None => (here, None),
+    };
     let copied: RwSignal<Option<bool>> = RwSignal::new(None);
     let has_circuit = shown.design.circuit.is_some();
     let stored = StoredValue::new(shown);
@@ -136,6 +141,7 @@ fn Toolbar(shown: Arc<Shown>) -> impl IntoView {
         })
         .collect_view();
     let link_for_copy = link.clone();
+    let no_file_link = file_link.is_none();
     view! {
         <div class="toolbar">
             <div class="downloads" role="group" aria-label="Downloads">
@@ -150,6 +156,11 @@ fn Toolbar(shown: Arc<Shown>) -> impl IntoView {
                 <button type="button" class="btn" data-testid="copy-link" on:click=move |_| {
                     browser::copy_text(&link_for_copy, move |ok| copied.set(Some(ok)));
                 }>"Copy link"</button>
+                <span class="share-file" hidden=no_file_link>
+                    <label class="toolbar-label" for="file-link">"In this file"</label>
+                    <input id="file-link" type="text" readonly data-testid="file-link"
+                        prop:value=file_link.unwrap_or_default() />
+                </span>
                 <span class="copy-state" role="status">
                     {move || match copied.get() {
                         Some(true) => "Copied.",

@@ -1,6 +1,7 @@
 //! The designs list in the side bar: the designs saved in this browser with their actions
-//! (open, rename, duplicate, delete with a confirmation), stored entries that cannot be
-//! opened, and the examples.
+//! (open, rename, duplicate, delete with a confirmation), export and import of them as a
+//! JSON file, stored entries that cannot be opened, the examples, and the app as one file
+//! for a computer without a network.
 
 use leptos::prelude::*;
 use rangefit_engine::demos;
@@ -8,7 +9,7 @@ use rangefit_engine::demos;
 use crate::browser::{self, LocalBackend};
 use crate::opening;
 use crate::saving;
-use crate::state::{Ctx, NoticeKind, Open};
+use crate::state::{plural, Ctx, NoticeKind, Open};
 use crate::store::{self, Saved};
 
 /// The side bar: the designs saved in this browser (open, rename, duplicate, delete), the
@@ -112,13 +113,110 @@ pub fn Sidebar() -> impl IntoView {
                 </Show>
                 <ul class="saved-list" data-testid="designs">{entries}</ul>
                 {problems}
+                <Transfer/>
             </section>
             <section>
                 <h2>"Examples"</h2>
                 <ul class="examples">{examples}</ul>
             </section>
+            <OneFile/>
         </aside>
     }
+}
+
+/// Export of the saved designs as one JSON file and import of such a file (or of a request
+/// file of the `rangefit` command).
+#[component]
+fn Transfer() -> impl IntoView {
+    let ctx = expect_context::<Ctx>();
+    let export = move |_| {
+        let file = store::export(&ctx.saved.get_untracked());
+        if let Err(why) = browser::download("rangefit-designs.json", "application/json", &file) {
+            ctx.notify(NoticeKind::Error, "notice-export", format!("The designs were not exported: {why}."));
+        }
+    };
+    let import = move |ev: leptos::ev::Event| {
+        let input = event_target::<web_sys::HtmlInputElement>(&ev);
+        leptos::task::spawn_local(async move {
+            let read = browser::chosen_text(&input).await;
+            input.set_value("");
+            let result = read.and_then(|text| store::import(&mut LocalBackend::open(), &text, browser::now()));
+            match result {
+                Ok(got) => {
+                    let n = got.added.len();
+                    let already = match got.already {
+                        0 => String::new(),
+                        k => format!(" ({} already here)", plural(k, "design")),
+                    };
+                    ctx.notify(
+                        NoticeKind::Info,
+                        "notice-import",
+                        format!("Imported {}{already}.", plural(n, "design")),
+                    );
+                }
+                Err(why) => ctx.notify(NoticeKind::Error, "notice-import", format!("Nothing was imported: {why}.")),
+            }
+            saving::refresh_list(&ctx);
+        });
+    };
+    view! {
+        <div class="transfer">
+            <button type="button" class="link" data-testid="export-designs" on:click=export
+                disabled=move || ctx.saved.with(Vec::is_empty)>"Export (JSON)"</button>
+            <input type="file" id="import-designs" class="sr-only" data-testid="import-designs"
+                accept=".json,application/json" on:change=import/>
+            <label class="link" for="import-designs">"Import (JSON)"</label>
+        </div>
+    }
+}
+
+/// The app as one HTML file for a computer without a network, with this page's address in
+/// it so that its links open here too; on the file itself, what it is.
+#[component]
+fn OneFile() -> impl IntoView {
+    let ctx = expect_context::<Ctx>();
+    // One view for both cases (a second view type would cost the bundle more than the text).
+    let on_file = browser::from_file();
+    let (title, text) = if on_file {
+        ("This file", "Rangefit in one file: it needs no network. Export designs to move them.")
+    } else {
+        (
+            "Without a network",
+            "This page works offline after a first visit. For a computer with no network: the whole app in one \
+            HTML file.",
+        )
+    };
+    let download = move |_| {
+        leptos::task::spawn_local(async move {
+            let made = browser::fetch_text(ONE_FILE).await.and_then(|html| {
+                let home =
+                    format!(r#"<meta name="rangefit-home" content="{}">"#, escape_attr(&browser::page_address()));
+                browser::download("rangefit.html", "text/html", &html.replacen(HOME_META, &home, 1))
+            });
+            if let Err(why) = made {
+                ctx.notify(NoticeKind::Error, "notice-one-file", format!("The one-file app was not made: {why}."));
+            }
+        });
+    };
+    view! {
+        <section data-testid="one-file">
+            <h2>{title}</h2>
+            <p class="muted small">{text}</p>
+            <button type="button" class="btn small" data-testid="download-app" hidden=on_file on:click=download>
+                "Download the app (one file)"
+            </button>
+        </section>
+    }
+}
+
+/// The one-file app beside the bundle (written by tools/bundle) and the empty `<meta>` in it
+/// that receives the hosted app's address (`single::HOME_META` there).
+const ONE_FILE: &str = "rangefit-offline.html";
+const HOME_META: &str = r#"<meta name="rangefit-home" content="">"#;
+
+/// Text for a double-quoted HTML attribute.
+fn escape_attr(s: &str) -> String {
+    s.replace('&', "&amp;").replace('"', "&quot;").replace('<', "&lt;").replace('>', "&gt;")
 }
 
 /// One saved design in the list, with its actions.

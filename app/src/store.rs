@@ -271,6 +271,77 @@ pub fn write_working(b: &mut dyn Backend, w: &Working) -> Result<(), StoreError>
     b.set(CURRENT_KEY, &entry.to_string())
 }
 
+/// What [`export`] writes in its `kind` field, so an import can tell the file apart.
+pub const EXPORT_KIND: &str = "rangefit-designs";
+
+/// The saved designs as one JSON file, to move them to another browser or machine:
+/// `{"format": 1, "kind": "rangefit-designs", "designs": [{"id", "saved", "request"}, …]}`,
+/// each design an entry as stored.
+pub fn export(designs: &[Saved]) -> String {
+    let entries: Vec<Value> =
+        designs.iter().map(|d| json!({"format": FORMAT, "id": d.id, "saved": d.saved, "request": d.request})).collect();
+    // One line: a pretty printer of its own would cost the bundle about 2 KB.
+    json!({"format": FORMAT, "kind": EXPORT_KIND, "designs": entries}).to_string()
+}
+
+/// What an import did.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Imported {
+    /// The designs written, under fresh ids.
+    pub added: Vec<Saved>,
+    /// Designs that were already saved here with the same request.
+    pub already: usize,
+}
+
+/// Reads a file made by [`export`], one stored entry, or a bare request (a `rangefit`
+/// command `REQUEST.json`), and saves every design in it that is not saved here yet.
+/// Nothing is written unless every design in the file can be read.
+pub fn import(b: &mut dyn Backend, text: &str, now: f64) -> Result<Imported, String> {
+    let value: Value = serde_json::from_str(text).map_err(|e| format!("the file is not valid JSON ({e})"))?;
+    let Value::Object(map) = &value else { return Err("the file holds no design (not a JSON object)".into()) };
+    let entries: Vec<Value> = match map.get("designs") {
+        Some(Value::Array(list)) => {
+            if let Some(f) = map.get("format").and_then(Value::as_u64).filter(|f| *f > FORMAT) {
+                return Err(format!(
+                    "it was written by a newer version of Rangefit (format {f}; this page reads up to {FORMAT})"
+                ));
+            }
+            list.clone()
+        }
+        Some(_) => return Err("its “designs” is not a list".into()),
+        None if map.contains_key("request") => vec![value.clone()],
+        None => vec![json!({"format": FORMAT, "request": value})],
+    };
+    if entries.is_empty() {
+        return Err("the file holds no designs".into());
+    }
+    let mut requests = Vec::new();
+    for (i, entry) in entries.iter().enumerate() {
+        let which = if entries.len() == 1 { "its design".to_string() } else { format!("design {} of the file", i + 1) };
+        let text = entry.to_string();
+        let read = match upgrade(&text).map_err(|why| format!("{which}: {why}"))? {
+            Read::Current(v) | Read::Migrated(v) => v,
+        };
+        requests.push(request_of(&read).map_err(|why| format!("{which}: {why}"))?);
+    }
+    let mut saved = list(b).designs;
+    let mut out = Imported::default();
+    for request in requests {
+        if saved.iter().any(|s| s.request == request) {
+            out.already += 1;
+            continue;
+        }
+        let id = new_id(b, now);
+        let s = write(b, &id, &request, now).map_err(|e| {
+            let done = if out.added.is_empty() { String::new() } else { format!(" ({} were saved)", out.added.len()) };
+            format!("{}{done}", e.message())
+        })?;
+        saved.push(s.clone());
+        out.added.push(s);
+    }
+    Ok(out)
+}
+
 /// Local storage kept in memory, with an optional quota in characters (for tests).
 #[cfg(test)]
 #[derive(Debug, Clone, Default)]
@@ -405,6 +476,51 @@ mod tests {
         assert_eq!(b.items, before);
         let w = Working { saved_id: None, baseline: demo(), request: demo() };
         assert_eq!(write_working(&mut b, &w), Err(StoreError::Full));
+    }
+
+    #[test]
+    fn export_then_import_moves_every_design_once() {
+        let mut here = MemoryBackend::default();
+        write(&mut here, "a", &demo(), 1.0).expect("saved");
+        let second: Value = serde_json::from_str(demos::ALL[1].json).expect("demo is JSON");
+        write(&mut here, "b", &second, 2.0).expect("saved");
+        let file = export(&list(&mut here).designs);
+
+        let mut there = MemoryBackend::default();
+        write(&mut there, "x", &second, 3.0).expect("saved");
+        let got = import(&mut there, &file, 10.0).expect("imported");
+        assert_eq!(got.already, 1, "the design saved there already is not copied again");
+        assert_eq!(got.added.len(), 1);
+        assert_eq!(got.added[0].request, demo());
+        let names: Vec<String> = list(&mut there).designs.iter().map(Saved::name).collect();
+        assert_eq!(names.len(), 2);
+        let again = import(&mut there, &file, 11.0).expect("imported again");
+        assert_eq!((again.added.len(), again.already), (0, 2), "importing twice adds nothing");
+    }
+
+    #[test]
+    fn import_takes_a_bare_request_and_rejects_what_it_cannot_read() {
+        let mut b = MemoryBackend::default();
+        let got = import(&mut b, demos::ALL[2].json, 1.0).expect("a request file imports");
+        assert_eq!(got.added.len(), 1);
+        let cases = [
+            ("not json", "not valid JSON"),
+            ("[1]", "not a JSON object"),
+            (r#"{"designs": 3}"#, "not a list"),
+            (r#"{"designs": []}"#, "no designs"),
+            (r#"{"format": 9, "designs": [{}]}"#, "newer version"),
+            (r#"{"designs": [{"format": 1, "request": {}}, {"format": 1, "request": 7}]}"#, "design 2 of the file"),
+            (r#"{"format": 1, "request": {"version": 99}}"#, "its design: its request is version 99"),
+        ];
+        for (text, want) in cases {
+            let before = b.items.clone();
+            let err = import(&mut b, text, 2.0).expect_err(text);
+            assert!(err.contains(want), "{text}: {err}");
+            assert_eq!(b.items, before, "{text}: nothing written");
+        }
+        b.quota = Some(b.items.iter().map(|(k, v)| k.len() + v.len()).sum::<usize>() + 10);
+        let err = import(&mut b, demos::ALL[3].json, 3.0).expect_err("no room");
+        assert!(err.contains("full"), "{err}");
     }
 
     #[test]

@@ -2,10 +2,13 @@
 //! data-driven tests ([`rows`]), the ngspice runner ([`run_ngspice`]) and the browser-test
 //! machinery.
 //!
-//! A test serves the release bundle in `dist/` with `python3 -m http.server`, starts
-//! `chromedriver`, and drives headless Chromium through WebDriver (fantoccini). Both
-//! helper processes are children of the test and are killed when their guard drops.
-//! Nothing here skips: a missing bundle, Python, chromedriver or Chromium fails the test.
+//! A test serves the release bundle in `dist/` with the same server as `.ci/serve.sh`
+//! (`.ci/static-server.py`: Python's http.server sending the precompressed siblings),
+//! starts `chromedriver`, and drives headless Chromium through WebDriver (fantoccini),
+//! with Chromium's DevTools protocol at hand ([`cdp`]) for network emulation and storage
+//! quotas. Both helper processes are children of the test and are killed when their guard
+//! drops. Nothing here skips: a missing bundle, Python, chromedriver or Chromium fails the
+//! test.
 
 use std::future::Future;
 use std::net::{Ipv4Addr, SocketAddrV4, TcpListener, TcpStream};
@@ -107,14 +110,18 @@ pub struct StaticServer {
 }
 
 impl StaticServer {
-    /// Serves `dir` at the site root on 127.0.0.1 with Python's built-in server.
+    /// Serves `dir` at the site root on 127.0.0.1 with `.ci/static-server.py`.
     pub fn start(dir: &Path) -> StaticServer {
-        let port = free_port();
+        StaticServer::start_on(dir, free_port())
+    }
+
+    /// Serves `dir` on `port` (a port served before keeps the site's origin, and with it
+    /// the browser's service worker and storage for the site).
+    pub fn start_on(dir: &Path, port: u16) -> StaticServer {
+        let script = repo_root().join(".ci").join("static-server.py");
         let mut process = ChildGuard::spawn(
-            "python3 -m http.server",
-            Command::new("python3")
-                .args(["-m", "http.server", &port.to_string(), "--bind", "127.0.0.1", "--directory"])
-                .arg(dir),
+            "python3 .ci/static-server.py",
+            Command::new("python3").arg(script).arg(port.to_string()).arg(dir),
         );
         process.wait_for_port(port);
         StaticServer { _process: process, port }
@@ -177,8 +184,13 @@ pub fn chromium_capabilities() -> serde_json::Map<String, serde_json::Value> {
 
 /// Opens a browser session through `driver`.
 pub async fn connect(driver: &Chromedriver) -> Client {
+    connect_with(driver, chromium_capabilities()).await
+}
+
+/// Opens a browser session through `driver` with `capabilities`.
+pub async fn connect_with(driver: &Chromedriver, capabilities: serde_json::Map<String, Value>) -> Client {
     let mut builder = ClientBuilder::new(HttpConnector::new());
-    builder.capabilities(chromium_capabilities());
+    builder.capabilities(capabilities);
     builder
         .connect(&driver.url())
         .await
@@ -279,6 +291,8 @@ pub async fn texts(client: &Client, css: &str) -> Vec<String> {
 /// makes a new temporary profile per session), so a second session is "another browser".
 pub struct Env {
     url: String,
+    dir: PathBuf,
+    port: u16,
     driver: Chromedriver,
     server: Mutex<Option<StaticServer>>,
     sessions: Mutex<Vec<Client>>,
@@ -290,17 +304,29 @@ impl Env {
         &self.url
     }
 
+    /// The directory being served.
+    pub fn dir(&self) -> &Path {
+        &self.dir
+    }
+
     /// Opens a new browser session (fresh profile) at the site root plus `suffix`
     /// (e.g. `#r1.…` for a share link) and waits until the app has mounted.
     pub async fn open(&self, suffix: &str) -> Client {
-        let client = connect(&self.driver).await;
-        self.sessions.lock().expect("session list").push(client.clone());
+        let client = self.session().await;
         let target = format!("{}{}", self.url, suffix);
-        client.goto(&target).await.unwrap_or_else(|e| panic!("cannot load {target}: {e}"));
-        poll(&client, "the app to start", Duration::from_secs(30), || async {
-            client.find(Locator::Css("[data-testid='step-sensor']")).await.ok().map(|_| ())
-        })
-        .await;
+        goto_app(&client, &target).await;
+        client
+    }
+
+    /// Opens a new browser session (fresh profile) on a blank page.
+    pub async fn session(&self) -> Client {
+        self.session_with(chromium_capabilities()).await
+    }
+
+    /// Opens a new browser session with `capabilities`, on a blank page.
+    pub async fn session_with(&self, capabilities: serde_json::Map<String, Value>) -> Client {
+        let client = connect_with(&self.driver, capabilities).await;
+        self.sessions.lock().expect("session list").push(client.clone());
         client
     }
 
@@ -309,6 +335,22 @@ impl Env {
         let server = self.server.lock().expect("server slot").take();
         drop(server);
     }
+
+    /// Starts the static server again on the same port (the same origin for the browser).
+    pub fn restart_server(&self) {
+        let mut slot = self.server.lock().expect("server slot");
+        drop(slot.take());
+        *slot = Some(StaticServer::start_on(&self.dir, self.port));
+    }
+}
+
+/// Loads `address` and waits until the app has mounted.
+pub async fn goto_app(client: &Client, address: &str) {
+    client.goto(address).await.unwrap_or_else(|e| panic!("cannot load {address}: {e}"));
+    poll(client, "the app to start", Duration::from_secs(30), || async {
+        client.find(Locator::Css("[data-testid='step-sensor']")).await.ok().map(|_| ())
+    })
+    .await;
 }
 
 /// Serves `dist/`, starts chromedriver and runs `body`, which opens its own sessions with
@@ -318,11 +360,25 @@ where
     F: FnOnce(Arc<Env>) -> Fut,
     Fut: Future<Output = ()> + Send + 'static,
 {
-    let dist = dist_dir();
-    let server = StaticServer::start(&dist);
+    with_site(&dist_dir(), body).await
+}
+
+/// As [`with_app`], serving `dir` (e.g. a copy of the bundle that the test changes).
+pub async fn with_site<F, Fut>(dir: &Path, body: F)
+where
+    F: FnOnce(Arc<Env>) -> Fut,
+    Fut: Future<Output = ()> + Send + 'static,
+{
+    let server = StaticServer::start(dir);
     let driver = Chromedriver::start();
-    let env =
-        Arc::new(Env { url: server.url(), driver, server: Mutex::new(Some(server)), sessions: Mutex::new(Vec::new()) });
+    let env = Arc::new(Env {
+        url: server.url(),
+        dir: dir.to_path_buf(),
+        port: server.port,
+        driver,
+        server: Mutex::new(Some(server)),
+        sessions: Mutex::new(Vec::new()),
+    });
 
     let task = tokio::spawn(body(env.clone()));
     let abort = task.abort_handle();
@@ -374,6 +430,43 @@ pub fn record_figure(line: &str) {
     if let Ok(mut f) = std::fs::OpenOptions::new().create(true).append(true).open(path) {
         let _ = writeln!(f, "{line}");
     }
+}
+
+/// Runs the DevTools-protocol command `method` with `params` in the session's page, through
+/// chromedriver's `goog/cdp/execute`, and returns its result.
+pub async fn cdp(client: &Client, method: &str, params: Value) -> Value {
+    let command = Cdp { method: method.to_string(), params };
+    client.issue_cmd(command).await.unwrap_or_else(|e| panic!("DevTools command {method} failed: {e}"))
+}
+
+#[derive(Debug)]
+struct Cdp {
+    method: String,
+    params: Value,
+}
+
+impl fantoccini::wd::WebDriverCompatibleCommand for Cdp {
+    fn endpoint(&self, base: &url::Url, session: Option<&str>) -> Result<url::Url, url::ParseError> {
+        base.join(&format!("session/{}/goog/cdp/execute", session.unwrap_or_default()))
+    }
+
+    fn method_and_body(&self, _: &url::Url) -> (http::Method, Option<String>) {
+        (http::Method::POST, Some(json!({"cmd": self.method, "params": self.params}).to_string()))
+    }
+}
+
+/// A fresh, empty directory under the system's temporary directory for this test.
+pub fn temp_dir(tag: &str) -> PathBuf {
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    static N: AtomicUsize = AtomicUsize::new(0);
+    let dir = std::env::temp_dir().join(format!(
+        "rangefit-{tag}-{}-{}",
+        std::process::id(),
+        N.fetch_add(1, Ordering::SeqCst)
+    ));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap_or_else(|e| panic!("cannot make {}: {e}", dir.display()));
+    dir
 }
 
 /// Runs `script` in the page and returns its result.
