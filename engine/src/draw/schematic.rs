@@ -48,6 +48,7 @@ mod annotate;
 mod blocks;
 mod buffer;
 mod by_role;
+#[cfg(feature = "shape-fallback")]
 mod by_shape;
 mod chain;
 mod diff;
@@ -228,10 +229,14 @@ pub fn schematic(
     let at = out.map(|o| {
         let chain = match &blocks.chain {
             Some(chain) => chain.clone(),
+            #[cfg(feature = "shape-fallback")]
             None => {
                 let mut used = sh.done.clone();
                 by_shape::chain(circuit, &o.2, &sh.rails, &mut used)
             }
+            // Without the fallback an unrecognised chain is left to the unplaced-parts area.
+            #[cfg(not(feature = "shape-fallback"))]
+            None => Default::default(),
         };
         sh.chain_rows(&chain, o, plan.amp)
     });

@@ -90,7 +90,7 @@ pub(super) struct Blocks {
 impl Blocks {
     /// The blocks of `c`: by its roles when they describe every stage, otherwise by shape.
     pub(super) fn of(c: &Circuit) -> Blocks {
-        super::by_role::blocks(c).unwrap_or_else(|| super::by_shape::blocks(c))
+        super::by_role::blocks(c).unwrap_or_else(|| fallback(c))
     }
 
     /// Where the gain stage's series path starts (the sensor terminal, or a front end's
@@ -101,5 +101,42 @@ impl Blocks {
             (None, Some(t)) => (t.out.clone(), t.parts()),
             (None, None) => (term.to_string(), Vec::new()),
         }
+    }
+}
+
+/// Circuits without whole roles (built by hand, or altered after synthesis): blocks by the
+/// shapes of their nodes.
+#[cfg(feature = "shape-fallback")]
+fn fallback(c: &Circuit) -> Blocks {
+    super::by_shape::blocks(c)
+}
+
+/// Without the shape fallback (the browser build, where every circuit comes from synthesis
+/// with its roles) such a circuit places no block; its parts go to the unplaced area.
+#[cfg(not(feature = "shape-fallback"))]
+fn fallback(_: &Circuit) -> Blocks {
+    Blocks {
+        mode: Mode::Shapes,
+        rails: Vec::new(),
+        sensor: Sensor::Plain(Plain::default()),
+        emf: None,
+        pin: "adc".to_string(),
+        buffer: None,
+        tia: None,
+        inamp: None,
+        diff: None,
+        plan: None,
+        chain: None,
+    }
+}
+
+/// The converter load found by shape (only in the fallback).
+pub(super) fn shape_load(c: &Circuit, net: &str) -> Option<usize> {
+    #[cfg(feature = "shape-fallback")]
+    return super::by_shape::load(c, net);
+    #[cfg(not(feature = "shape-fallback"))]
+    {
+        let _ = (c, net);
+        None
     }
 }

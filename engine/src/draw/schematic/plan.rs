@@ -6,7 +6,7 @@
 //! Found by role (`by_role`), or by shape for circuits without roles (`by_shape`); what
 //! neither places is left for the fallback area. Also the small helpers every block uses.
 
-use crate::circuit::{Part, PartKind};
+use crate::circuit::Part;
 
 /// One part of a chain, drawn from node `from` to node `to`.
 #[derive(Debug, Clone)]
@@ -63,6 +63,9 @@ pub(super) fn other(p: &Part, n: &str) -> String {
 }
 
 /// A resistor or capacitor to build, with two nodes.
+#[cfg(feature = "shape-fallback")]
 pub(super) fn plain(p: &Part) -> bool {
-    !p.bench && p.nodes.len() == 2 && matches!(p.kind, PartKind::Resistor | PartKind::Capacitor)
+    !p.bench
+        && p.nodes.len() == 2
+        && matches!(p.kind, crate::circuit::PartKind::Resistor | crate::circuit::PartKind::Capacitor)
 }

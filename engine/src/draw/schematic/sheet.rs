@@ -201,7 +201,7 @@ impl<'a> Sheet<'a> {
                 .parts
                 .iter()
                 .position(|p| p.role == Some(PartRole::ConverterLoad) && p.nodes.len() == 2 && has(p, &net)),
-            Mode::Shapes => super::by_shape::load(self.c, &net),
+            Mode::Shapes => super::blocks::shape_load(self.c, &net),
         };
         self.wire((xa, y), (xa + 40.0, y), &net, true);
         if let Some(i) = radc {
