@@ -315,22 +315,7 @@ mod tests {
             }
             assert!(field(&p).is_some(), "no input for request field {p}");
         }
-        for name in [
-            "gbw",
-            "slew_rate",
-            "swing_low",
-            "swing_high",
-            "cm_low",
-            "cm_high",
-            "supply_min",
-            "supply_max",
-            "offset",
-            "bias_current",
-            "noise_voltage",
-            "noise_current",
-            "noise_corner",
-            "open_loop_gain",
-        ] {
+        for name in rangefit_engine::request::AMPLIFIER_FIGURES {
             assert!(field(&format!("amplifier.{name}")).is_some(), "no input for amplifier.{name}");
         }
     }

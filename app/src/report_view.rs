@@ -6,7 +6,7 @@
 //! by the engine's `units::format`.
 
 use rangefit_engine::diag::Severity;
-use rangefit_engine::request::{Coupling, ResponseKind};
+use rangefit_engine::request::{Coupling, ResponseKind, AMPLIFIER_FIGURES};
 use rangefit_engine::units::{format, Quantity};
 
 use crate::dom::{el, el_c, row, table, Node};
@@ -213,23 +213,6 @@ fn roles_node(s: &Shown) -> Node {
     table("roles", "", &["Part", "Value", "Purpose", "Connects"], rows)
 }
 
-const AMP_FIGURES: [&str; 14] = [
-    "gbw",
-    "slew_rate",
-    "swing_low",
-    "swing_high",
-    "cm_low",
-    "cm_high",
-    "supply_min",
-    "supply_max",
-    "offset",
-    "bias_current",
-    "noise_voltage",
-    "noise_current",
-    "noise_corner",
-    "open_loop_gain",
-];
-
 fn assumptions_node(s: &Shown) -> Node {
     let d = &s.design;
     let amp = serde_json::to_value(&d.amplifier).unwrap_or_default();
@@ -241,7 +224,7 @@ fn assumptions_node(s: &Shown) -> Node {
         el("li").child(el("span").text(label)).text(" ").child(el_c("strong", "num").text(&value))
     };
     let assumed = &d.amplifier.assumed;
-    let given: Vec<&str> = AMP_FIGURES.iter().copied().filter(|n| !assumed.contains(n)).collect();
+    let given: Vec<&str> = AMPLIFIER_FIGURES.iter().copied().filter(|n| !assumed.contains(n)).collect();
     let (runs, seed) = d
         .analysis
         .as_ref()

@@ -262,6 +262,18 @@ pub fn designator_key(d: &str) -> (String, u64) {
     (prefix.to_string(), num.parse().unwrap_or(0))
 }
 
+/// A divided level for [`Builder::divider`]: legs `top` (from `from` to `tap`) and `bottom`
+/// (`tap` to ground) in stage `stage`, an optional bypass (value, purpose).
+pub struct Divider<'a> {
+    pub from: &'a str,
+    pub tap: &'a str,
+    pub top: f64,
+    pub bottom: f64,
+    pub bypass: Option<(f64, &'a str)>,
+    pub stage: StageRole,
+    pub what: &'a str,
+}
+
 /// Builds a circuit part by part, numbering designators per letter.
 #[derive(Debug, Default)]
 pub struct Builder {
@@ -297,6 +309,34 @@ impl Builder {
             }
         };
         format!("{letter}{n}")
+    }
+
+    /// Adds a level taken from a rail: a divider `from` → `tap` → ground (upper and lower legs
+    /// named "`what`, upper leg" and "`what`, lower leg") and, when `bypass` is given, a
+    /// capacitor from `tap` to ground; the one way synthesis builds a divided level.
+    pub fn divider(&mut self, d: &Divider, rtol: Option<f64>, ctol: Option<f64>) -> Vec<String> {
+        let mut parts = vec![
+            self.add(
+                PartKind::Resistor,
+                d.top,
+                rtol,
+                &[d.from, d.tap],
+                (d.stage, PartRole::DividerTop),
+                &format!("{}, upper leg", d.what),
+            ),
+            self.add(
+                PartKind::Resistor,
+                d.bottom,
+                rtol,
+                &[d.tap, GND],
+                (d.stage, PartRole::DividerBottom),
+                &format!("{}, lower leg", d.what),
+            ),
+        ];
+        if let Some((c, purpose)) = d.bypass {
+            parts.push(self.add(PartKind::Capacitor, c, ctol, &[d.tap, GND], (d.stage, PartRole::Bypass), purpose));
+        }
+        parts
     }
 
     /// Adds a part to build and returns its designator; `at` is its stage, with its role

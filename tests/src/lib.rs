@@ -512,7 +512,8 @@ pub async fn field_message(client: &Client, path: &str) -> String {
 
 /// Rows of the part list as shown: the text of every cell, row by row.
 pub async fn part_rows(client: &Client) -> Vec<Vec<String>> {
-    let script = "return Array.from(document.querySelectorAll(\"[data-testid='parts'] tbody tr\")).map(r => Array.from(r.cells).map(c => c.textContent));";
+    let script = "return Array.from(document.querySelectorAll(\"[data-testid='parts'] tbody tr\")).map(r => \
+        Array.from(r.cells).map(c => c.textContent));";
     match client.execute(script, vec![]).await {
         Ok(v) => serde_json::from_value(v).unwrap_or_default(),
         Err(_) => Vec::new(),

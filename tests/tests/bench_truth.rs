@@ -91,7 +91,9 @@ fn a_corner_inside_the_band_is_found_and_is_an_error() {
 fn orchard() -> Request {
     request(&json!({
         "version": 1, "name": "Orchard frost-alarm thermocouple",
-        "source": {"kind": "single_ended", "min": 0, "max": "80 mV", "coupling": "dc", "impedance": 0, "band_high": "5 Hz"},
+        "source": {
+            "kind": "single_ended", "min": 0, "max": "80 mV", "coupling": "dc", "impedance": 0, "band_high": "5 Hz"
+        },
         "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "50 Hz", "impedance": "100k"},
         "supplies": [3.3]
     }))

@@ -63,7 +63,8 @@ fn variant(base: &str, pointer: &str, value: Option<Value>) -> String {
 const BASE: &str = r#"{
   "version": 1,
   "name": "Greenhouse light logger",
-  "source": {"kind": "single_ended", "min": 0, "max": "0.8 V", "coupling": "dc", "impedance": "1k", "band_high": "5 Hz"},
+  "source": {"kind": "single_ended", "min": 0, "max": "0.8 V", "coupling": "dc", "impedance": "1k",
+  "band_high": "5 Hz"},
   "destination": {"min": 0, "max": "3.3 V", "bits": 12, "sample_rate": "100 Hz", "impedance": "100k"},
   "supplies": [3.3],
   "parts": {"resistor_series": "E24"}
@@ -72,7 +73,8 @@ const BASE: &str = r#"{
 /// An AC-coupled request with polarity free, for the read-back case.
 const AC_FREE: &str = r#"{
   "name": "Cattle-shed ventilation fan vibration",
-  "source": {"min": "1.9 V", "max": "2.6 V", "coupling": "ac", "impedance": "220", "band_low": "5 Hz", "band_high": "1 kHz"},
+  "source": {"min": "1.9 V", "max": "2.6 V", "coupling": "ac", "impedance": "220", "band_low": "5 Hz",
+  "band_high": "1 kHz"},
   "destination": {"min": -2.5, "max": 2.5, "bits": 16, "sample_rate": "8 kHz", "impedance": "47k", "headroom": "3 %"},
   "supplies": [12, -12],
   "keep_polarity": false,

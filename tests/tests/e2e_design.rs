@@ -41,7 +41,13 @@ async fn go_to(client: &Client, step: &str) {
     click(client, &format!("step-{step}")).await;
     let want = format!("step-{step}");
     poll(client, &format!("step {step} to open"), LIMIT, || async {
-        let v = eval(client, "const t = document.querySelector(\"[role='tab'][aria-selected='true']\"); return t ? t.dataset.testid : null;", vec![]).await;
+        let v = eval(
+            client,
+            "const t = document.querySelector(\"[role='tab'][aria-selected='true']\"); return t ? \
+            t.dataset.testid : null;",
+            vec![],
+        )
+        .await;
         (v.as_str() == Some(want.as_str())).then_some(())
     })
     .await;
@@ -58,13 +64,20 @@ async fn first_visit_then_a_new_design_step_by_step() {
         assert_eq!(texts(&client, "[data-testid='design-name']").await, std::slice::from_ref(&first.name));
         assert_eq!(texts(&client, "h1").await, ["Rangefit"]);
         assert_eq!(selected_step(&client).await, "The design");
-        let shown = poll(&client, "the design-shown mark", LIMIT, || async { timings(&client, "rangefit:design-shown").await.first().copied() }).await;
-        let plotted = poll(&client, "the plots-shown mark", LIMIT, || async { timings(&client, "rangefit:plots-shown").await.first().copied() }).await;
+        let shown = poll(&client, "the design-shown mark", LIMIT, || async {
+            timings(&client, "rangefit:design-shown").await.first().copied()
+        })
+        .await;
+        let plotted = poll(&client, "the plots-shown mark", LIMIT, || async {
+            timings(&client, "rangefit:plots-shown").await.first().copied()
+        })
+        .await;
         let started = timings(&client, "rangefit:start").await.first().copied().unwrap_or((f64::NAN, 0.0));
         let run = timings(&client, "rangefit:design").await.first().copied().unwrap_or((f64::NAN, f64::NAN));
         let drawn = timings(&client, "rangefit:outputs").await.first().copied().unwrap_or((f64::NAN, f64::NAN));
         record_figure(&format!(
-            "first load: app started {:.0} ms, engine run {:.0} ms from {:.0} ms, drawing {:.0} ms, design shown {:.0} ms, plots shown {:.0} ms after navigation",
+            "first load: app started {:.0} ms, engine run {:.0} ms from {:.0} ms, drawing {:.0} ms, design shown \
+                {:.0} ms, plots shown {:.0} ms after navigation",
             started.0, run.1, run.0, drawn.1, shown.0, plotted.0
         ));
         // Budget 300 ms on loopback; asserted generously so a loaded machine does not fail it.
@@ -75,7 +88,10 @@ async fn first_visit_then_a_new_design_step_by_step() {
         assert!(texts(&client, "[data-testid='cautions'] li").await.len() >= 3, "safety cautions are listed");
         for plot in ["response", "transfer", "tolerance", "noise"] {
             let css = format!("[data-testid='plot-{plot}'] svg");
-            poll(&client, &format!("plot {plot}"), LIMIT, || async { client.find(Locator::Css(&css)).await.ok().map(|_| ()) }).await;
+            poll(&client, &format!("plot {plot}"), LIMIT, || async {
+                client.find(Locator::Css(&css)).await.ok().map(|_| ())
+            })
+            .await;
         }
         let mc = texts(&client, "[data-testid='monte-carlo']").await.concat();
         assert_eq!(mc, format!("{} builds, seed {}", first.analysis.monte_carlo_runs, first.analysis.seed));
@@ -84,7 +100,8 @@ async fn first_visit_then_a_new_design_step_by_step() {
 
         // A new design: every step reachable but the design, which waits for a complete request.
         click(&client, "new-design").await;
-        poll(&client, "an empty part list", LIMIT, || async { part_rows(&client).await.is_empty().then_some(()) }).await;
+        poll(&client, "an empty part list", LIMIT, || async { part_rows(&client).await.is_empty().then_some(()) })
+            .await;
         assert_eq!(selected_step(&client).await, "The sensor");
         let disabled = by_testid(&client, "step-design").await.attr("aria-disabled").await.expect("attr");
         assert_eq!(disabled.as_deref(), Some("true"), "the design step waits for a complete request");
@@ -119,10 +136,22 @@ async fn first_visit_then_a_new_design_step_by_step() {
         assert_eq!(selected_step(&client).await, "The design");
         wait_for_parts(&client, "the new design's part list", &want).await;
         assert_eq!(texts(&client, "[data-testid='design-name']").await, ["Greenhouse humidity probe"]);
-        let title = eval(&client, "const t = document.querySelector(\"[data-testid='schematic'] svg title\"); return t ? t.textContent : null;", vec![]).await;
+        let title = eval(
+            &client,
+            "const t = document.querySelector(\"[data-testid='schematic'] svg title\"); return \
+            t ? t.textContent : null;",
+            vec![],
+        )
+        .await;
         assert_eq!(title, json!("Greenhouse humidity probe"), "the schematic is drawn for the new design");
         let engine_svg = of_design(&design(&request(&typed)), &SchematicConfig::default()).expect("schematic").svg;
-        let page_svg = eval(&client, "return document.querySelector(\"[data-testid='schematic'] svg\").outerHTML.length;", vec![]).await;
+        let page_svg = eval(
+            &client,
+            "return document.querySelector(\"[data-testid='schematic'] \
+            svg\").outerHTML.length;",
+            vec![],
+        )
+        .await;
         assert!(page_svg.as_u64().unwrap_or(0) > engine_svg.len() as u64 / 2, "the whole schematic is inserted");
 
         // Changing a field redesigns without any button.
@@ -138,7 +167,8 @@ async fn first_visit_then_a_new_design_step_by_step() {
         // A bad value: its message under the field, the last design stays, the page works on.
         go_to(&client, "sensor").await;
         type_into(&client, "source.max", "2.8 Ω").await;
-        let engine_message = units::parse("2.8 Ω", Quantity::Voltage).expect_err("not a voltage").message(Quantity::Voltage);
+        let engine_message =
+            units::parse("2.8 Ω", Quantity::Voltage).expect_err("not a voltage").message(Quantity::Voltage);
         let shown_message = poll(&client, "the field message", LIMIT, || async {
             let m = field_message(&client, "source.max").await;
             (!m.is_empty()).then_some(m)
@@ -150,7 +180,11 @@ async fn first_visit_then_a_new_design_step_by_step() {
         assert_eq!(texts(&client, "[data-testid='step-sensor'] .step-state").await, ["1 problem"]);
         screenshot(&client, "step-sensor-bad-value").await;
         go_to(&client, "design").await;
-        assert!(!texts(&client, "[data-testid='stale-note']").await.concat().is_empty(), "the design says it is the last good one");
+        assert!(
+            !texts(&client, "[data-testid='stale-note']").await.concat().is_empty(),
+            "the design says it is the \
+            last good one"
+        );
         assert_eq!(part_rows(&client).await, want_changed, "the last good design stays");
         screenshot(&client, "design-stale").await;
         // Still alive: other fields edit, the bad one is fixed, the design follows.
@@ -164,10 +198,20 @@ async fn first_visit_then_a_new_design_step_by_step() {
 
         // The steps from the keyboard: arrows, Home and End on the step bar.
         by_testid(&client, "step-design").await.click().await.expect("focus the tab");
-        let focused = || async { eval(&client, "return document.activeElement ? document.activeElement.id : null;", vec![]).await };
+        let focused = || async {
+            eval(&client, "return document.activeElement ? document.activeElement.id : null;", vec![]).await
+        };
         let key = |k: &'static str| {
             let client = client.clone();
-            async move { client.find(Locator::Css("[role='tab'][aria-selected='true']")).await.expect("selected tab").send_keys(k).await.expect("press a key") }
+            async move {
+                client
+                    .find(Locator::Css("[role='tab'][aria-selected='true']"))
+                    .await
+                    .expect("selected tab")
+                    .send_keys(k)
+                    .await
+                    .expect("press a key")
+            }
         };
         key("\u{e012}").await; // ArrowLeft
         assert_eq!(selected_step(&client).await, "Power and parts");
@@ -185,7 +229,8 @@ async fn first_visit_then_a_new_design_step_by_step() {
         // Every input has a label bound to it.
         let unlabelled = eval(
             &client,
-            "return Array.from(document.querySelectorAll('input:not([type=radio]), select, textarea')).filter(e => !(e.labels && e.labels.length)).map(e => e.id || e.dataset.testid);",
+            "return Array.from(document.querySelectorAll('input:not([type=radio]), select, textarea')).filter(e => \
+                !(e.labels && e.labels.length)).map(e => e.id || e.dataset.testid);",
             vec![],
         )
         .await;
@@ -202,7 +247,13 @@ async fn downloads_equal_the_command_and_refresh_is_timed() {
         wait_for_parts(&client, "the first demo", &expected_rows(&first)).await;
 
         // Catch the files the page hands to the browser.
-        eval(&client, "window.__files = []; const make = URL.createObjectURL; URL.createObjectURL = function (b) { window.__files.push(b); return make.call(URL, b); };", vec![]).await;
+        eval(
+            &client,
+            "window.__files = []; const make = URL.createObjectURL; URL.createObjectURL = function (b) { \
+            window.__files.push(b); return make.call(URL, b); };",
+            vec![],
+        )
+        .await;
         let d = design(&first);
         let circuit = d.circuit.as_ref().expect("the demo has a circuit");
         let cases = [
@@ -214,7 +265,11 @@ async fn downloads_equal_the_command_and_refresh_is_timed() {
         for (i, (button, want)) in cases.iter().enumerate() {
             click(&client, button).await;
             let got = client
-                .execute_async("const done = arguments[arguments.length - 1]; const f = window.__files[arguments[0]]; if (!f) { done(null); } else { f.text().then(done); }", vec![json!(i)])
+                .execute_async(
+                    "const done = arguments[arguments.length - 1]; const f = window.__files[arguments[0]]; \
+                    if (!f) { done(null); } else { f.text().then(done); }",
+                    vec![json!(i)],
+                )
                 .await
                 .expect("read the file");
             assert_eq!(got.as_str(), Some(want.as_str()), "{button} equals the engine's output");
@@ -229,16 +284,21 @@ async fn downloads_equal_the_command_and_refresh_is_timed() {
         for i in 0..edits {
             type_into(&client, "destination.max", values[i % 2]).await;
             let want = before + i + 1;
-            poll(&client, "a new design run", LIMIT, || async { (timings(&client, "rangefit:design").await.len() >= want).then_some(()) }).await;
+            poll(&client, "a new design run", LIMIT, || async {
+                (timings(&client, "rangefit:design").await.len() >= want).then_some(())
+            })
+            .await;
         }
         let mut runs: Vec<f64> = timings(&client, "rangefit:design").await[before..].iter().map(|r| r.1).collect();
-        let mut outs: Vec<f64> = timings(&client, "rangefit:outputs").await[outputs_before..].iter().map(|r| r.1).collect();
+        let mut outs: Vec<f64> =
+            timings(&client, "rangefit:outputs").await[outputs_before..].iter().map(|r| r.1).collect();
         assert!(runs.len() >= edits, "one engine run per change, got {}", runs.len());
         runs.sort_by(f64::total_cmp);
         outs.sort_by(f64::total_cmp);
         let median = |v: &[f64]| v[v.len() / 2];
         record_figure(&format!(
-            "design refresh (rangefit:design, {} runs): median {:.1} ms, min {:.1}, max {:.1}; drawing it (rangefit:outputs: schematic, plots, part list, link): median {:.1} ms",
+            "design refresh (rangefit:design, {} runs): median {:.1} ms, min {:.1}, max {:.1}; drawing it \
+                (rangefit:outputs: schematic, plots, part list, link): median {:.1} ms",
             runs.len(),
             median(&runs),
             runs[0],
@@ -257,15 +317,27 @@ async fn keeps_working_offline_and_fetches_only_its_own_files() {
         let client = env.open("").await;
         wait_for_parts(&client, "the first demo", &expected_rows(&demo(0))).await;
         let origin = env.url().trim_end_matches('/').to_string();
-        let foreign = eval(&client, "return performance.getEntriesByType('resource').map(e => e.name).filter(n => !n.startsWith(arguments[0] + '/'));", vec![json!(origin)]).await;
+        let foreign = eval(
+            &client,
+            "return performance.getEntriesByType('resource').map(e => e.name).filter(n => \
+            !n.startsWith(arguments[0] + '/'));",
+            vec![json!(origin)],
+        )
+        .await;
         assert_eq!(foreign, json!([]), "requests to anything but the app's own files");
 
         env.stop_server();
         // A demo, an edit and a save all work without the network.
         let last = demos::ALL.len() - 1;
         // With nine demos the last button sits low in the list: bring it into view first.
-        let button = client.find(Locator::Css(&format!("[data-demo='{}']", demos::ALL[last].id))).await.expect("demo button");
-        eval(&client, "arguments[0].scrollIntoView({block: 'center'});", vec![serde_json::to_value(&button).expect("element reference")]).await;
+        let button =
+            client.find(Locator::Css(&format!("[data-demo='{}']", demos::ALL[last].id))).await.expect("demo button");
+        eval(
+            &client,
+            "arguments[0].scrollIntoView({block: 'center'});",
+            vec![serde_json::to_value(&button).expect("element reference")],
+        )
+        .await;
         button.click().await.expect("click");
         wait_for_parts(&client, "the last demo offline", &expected_rows(&demo(last))).await;
         go_to(&client, "sensor").await;
@@ -294,7 +366,13 @@ async fn layouts_contrast_and_print_styles() {
         // Text contrast (WCAG 2.1 success criterion 1.4.3: 4.5:1, 3:1 for large text), on
         // the design and on a form step showing an error, a missing value and the notices.
         // First the probe itself must catch a pale grey text (#aaa on white is 2.32:1).
-        eval(&client, "const p = document.createElement('p'); p.id = 'probe'; p.style.color = '#aaaaaa'; p.style.background = '#ffffff'; p.textContent = 'pale'; document.body.appendChild(p);", vec![]).await;
+        eval(
+            &client,
+            "const p = document.createElement('p'); p.id = 'probe'; p.style.color = '#aaaaaa'; \
+            p.style.background = '#ffffff'; p.textContent = 'pale'; document.body.appendChild(p);",
+            vec![],
+        )
+        .await;
         let caught = eval(&client, CONTRAST, vec![]).await;
         assert_eq!(caught.as_array().map(Vec::len), Some(1), "the contrast probe finds the pale text: {caught}");
         eval(&client, "document.getElementById('probe').remove();", vec![]).await;
@@ -333,15 +411,25 @@ async fn layouts_contrast_and_print_styles() {
         // Printing: the print rules hide the controls and show the design, whatever step is open.
         let rules = eval(
             &client,
-            "let out = []; for (const s of document.styleSheets) { for (const r of s.cssRules) { if (r.media && r.media.mediaText === 'print') { for (const x of r.cssRules) out.push(x.cssText); } } } return out.join('\\n');",
+            "let out = []; for (const s of document.styleSheets) { for (const r of s.cssRules) { if (r.media && \
+                r.media.mediaText === 'print') { for (const x of r.cssRules) out.push(x.cssText); } } } return \
+                out.join('\\n');",
             vec![],
         )
         .await;
         let rules = rules.as_str().unwrap_or("").to_string();
         for hidden in [".steps", ".step-panel", ".sidebar", ".toolbar", ".topbar"] {
-            assert!(rules.lines().any(|l| l.contains(hidden) && l.contains("display: none")), "print hides {hidden}:\n{rules}");
+            assert!(
+                rules.lines().any(|l| l.contains(hidden) && l.contains("display: none")),
+                "print hides \
+                {hidden}:\n{rules}"
+            );
         }
-        assert!(rules.lines().any(|l| l.contains(".design-panel[hidden]") && l.contains("display: block")), "print shows the design:\n{rules}");
+        assert!(
+            rules.lines().any(|l| l.contains(".design-panel[hidden]") && l.contains("display: block")),
+            "print \
+            shows the design:\n{rules}"
+        );
     })
     .await;
 }
@@ -353,7 +441,13 @@ const CONTRAST: &str = r#"
 const parse = c => { const m = c.match(/rgba?\(([^)]+)\)/); return m ? m[1].split(',').map(parseFloat) : null; };
 const lin = v => { v /= 255; return v <= 0.03928 ? v / 12.92 : Math.pow((v + 0.055) / 1.055, 2.4); };
 const lum = p => 0.2126 * lin(p[0]) + 0.7152 * lin(p[1]) + 0.0722 * lin(p[2]);
-const background = el => { for (; el; el = el.parentElement) { const p = parse(getComputedStyle(el).backgroundColor); if (p && (p.length < 4 || p[3] > 0.5)) return p; } return [255, 255, 255]; };
+const background = el => {
+  for (; el; el = el.parentElement) {
+    const p = parse(getComputedStyle(el).backgroundColor);
+    if (p && (p.length < 4 || p[3] > 0.5)) return p;
+  }
+  return [255, 255, 255];
+};
 const low = [];
 for (const el of document.querySelectorAll('body *')) {
   if (el.closest('svg') || el.closest(':disabled') || el.closest('[aria-disabled="true"]')) continue;
@@ -365,7 +459,8 @@ for (const el of document.querySelectorAll('body *')) {
   const ratio = (Math.max(a, b) + 0.05) / (Math.min(a, b) + 0.05);
   const size = parseFloat(cs.fontSize), bold = parseInt(cs.fontWeight, 10) >= 700;
   const need = (size >= 24 || (size >= 18.66 && bold)) ? 3 : 4.5;
-  if (ratio < need) low.push(el.tagName + '.' + el.className + ' "' + el.textContent.trim().slice(0, 40) + '" ' + ratio.toFixed(2));
+  if (ratio < need)
+    low.push(el.tagName + '.' + el.className + ' "' + el.textContent.trim().slice(0, 40) + '" ' + ratio.toFixed(2));
 }
 return low;
 "#;
@@ -376,21 +471,33 @@ async fn amplifier_figures_given_or_assumed() {
         let client = env.open("").await;
         wait_for_parts(&client, "the first demo", &expected_rows(&demo(0))).await;
         let boiler = demos::ALL[1].id;
-        client.find(Locator::Css(&format!("[data-demo='{boiler}']"))).await.expect("demo button").click().await.expect("click");
+        let button = client.find(Locator::Css(&format!("[data-demo='{boiler}']"))).await.expect("demo button");
+        button.click().await.expect("click");
         wait_for_parts(&client, "the second demo", &expected_rows(&demo(1))).await;
         go_to(&client, "parts").await;
 
         // By default Rangefit assumes a class and states the requirements; the figures wait.
         let class = design(&demo(1)).amplifier.class;
         assert!(texts(&client, ".assumed-amp").await.concat().contains(&class));
-        let gbw_shown = "return getComputedStyle(document.querySelector(\"[data-testid='field-amplifier.gbw']\").closest('.field')).display !== 'none';";
+        let gbw_shown = "return \
+            getComputedStyle(document.querySelector(\"[data-testid='field-amplifier.gbw']\").closest('.field')) \
+            .display \
+            !== 'none';";
         assert_eq!(eval(&client, gbw_shown, vec![]).await, json!(false));
         click(&client, "field-amplifier-given").await;
         assert_eq!(eval(&client, gbw_shown, vec![]).await, json!(true));
-        let placeholder = by_testid(&client, "field-amplifier.gbw").await.attr("placeholder").await.expect("attr").unwrap_or_default();
-        assert_eq!(placeholder, format!("assumed: {}", units::format(design(&demo(1)).amplifier.gbw, Quantity::Frequency)), "the assumed figure is shown");
+        let gbw = by_testid(&client, "field-amplifier.gbw").await;
+        let placeholder = gbw.attr("placeholder").await.expect("attr").unwrap_or_default();
+        let assumed = units::format(design(&demo(1)).amplifier.gbw, Quantity::Frequency);
+        assert_eq!(placeholder, format!("assumed: {assumed}"), "the assumed figure is shown");
         type_into(&client, "amplifier.gbw", "2 MHz").await;
-        eval(&client, "document.querySelector(\"[data-testid='field-amplifier.gbw']\").scrollIntoView({block: 'center'});", vec![]).await;
+        eval(
+            &client,
+            "document.querySelector(\"[data-testid='field-amplifier.gbw']\").scrollIntoView({block: \
+            'center'});",
+            vec![],
+        )
+        .await;
         screenshot(&client, "step-parts-amplifier").await;
 
         let mut json: Value = serde_json::from_str(demos::ALL[1].json).expect("JSON");

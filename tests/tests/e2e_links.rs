@@ -64,7 +64,10 @@ async fn a_link_opens_the_same_design_in_a_fresh_browser() {
         let want = expected_rows(&req);
         wait_for_parts(&a, "browser A's part list", &want).await;
         click(&a, "copy-link").await;
-        poll(&a, "the copy result", LIMIT, || async { (!texts(&a, ".copy-state").await.concat().is_empty()).then_some(()) }).await;
+        poll(&a, "the copy result", LIMIT, || async {
+            (!texts(&a, ".copy-state").await.concat().is_empty()).then_some(())
+        })
+        .await;
 
         // Browser B, a fresh profile, opens it: same part list, offered to save, nothing stored yet.
         let b = env.open(&format!("#{fragment}")).await;
@@ -74,9 +77,16 @@ async fn a_link_opens_the_same_design_in_a_fresh_browser() {
         assert!(offer.contains("not in your designs yet"), "{offer}");
         screenshot(&b, "link-opened").await;
         assert!(saved_names(&b).await.is_empty());
-        assert_eq!(eval(&b, "return localStorage.getItem('rangefit:current');", vec![]).await, Value::Null, "an unedited link is not stored");
+        assert_eq!(
+            eval(&b, "return localStorage.getItem('rangefit:current');", vec![]).await,
+            Value::Null,
+            "an unedited link is not stored"
+        );
         click(&b, "save-shared").await;
-        poll(&b, "the shared design saved", LIMIT, || async { (saved_names(&b).await == ["Pier 3 hydrophone, shared"]).then_some(()) }).await;
+        poll(&b, "the shared design saved", LIMIT, || async {
+            (saved_names(&b).await == ["Pier 3 hydrophone, shared"]).then_some(())
+        })
+        .await;
         assert!(texts(&b, "[data-testid='notice-link']").await.is_empty(), "the offer goes once saved");
 
         // A link made by the engine (as `rangefit link` prints it) opens in a fresh profile too.
@@ -86,7 +96,13 @@ async fn a_link_opens_the_same_design_in_a_fresh_browser() {
 
         // A link opened where a design is saved never overwrites it: browser B opens another
         // link in the same tab, saves it, and the first saved design is unchanged.
-        let before = eval(&b, "return localStorage.getItem(Object.keys(localStorage).find(k => k.startsWith('rangefit:design:')));", vec![]).await;
+        let before = eval(
+            &b,
+            "return localStorage.getItem(Object.keys(localStorage).find(k => \
+            k.startsWith('rangefit:design:')));",
+            vec![],
+        )
+        .await;
         let fourth = demo(3);
         eval(&b, "location.hash = arguments[0];", vec![json!(share::encode(&fourth))]).await;
         wait_for_parts(&b, "the second link in browser B", &expected_rows(&fourth)).await;
@@ -97,7 +113,13 @@ async fn a_link_opens_the_same_design_in_a_fresh_browser() {
         let mut want_names = vec!["Pier 3 hydrophone, shared".to_string(), fourth.name.clone()];
         want_names.sort();
         assert_eq!(names, want_names);
-        let keys = eval(&b, "return Object.keys(localStorage).filter(k => k.startsWith('rangefit:design:')).map(k => localStorage.getItem(k));", vec![]).await;
+        let keys = eval(
+            &b,
+            "return Object.keys(localStorage).filter(k => k.startsWith('rangefit:design:')).map(k => \
+            localStorage.getItem(k));",
+            vec![],
+        )
+        .await;
         assert!(keys.as_array().is_some_and(|k| k.contains(&before)), "the first saved design is untouched");
     })
     .await;
@@ -159,7 +181,10 @@ async fn a_design_named_like_markup_stays_text() {
     async fn clean(client: &Client) {
         let report = eval(
             client,
-            "return {img: document.querySelectorAll('img').length, b: document.querySelectorAll('b').length, handlers: document.querySelectorAll('[onerror],[onload]').length, pwned: typeof window.__pwned, svgs: Array.from(document.querySelectorAll('svg')).filter(s => !s.closest(\"[data-testid='schematic'], .plot-svg\")).length};",
+            "return {img: document.querySelectorAll('img').length, b: document.querySelectorAll('b').length, \
+                handlers: document.querySelectorAll('[onerror],[onload]').length, pwned: typeof window.__pwned, svgs: \
+                Array.from(document.querySelectorAll('svg')).filter(s => !s.closest(\"[data-testid='schematic'], \
+                .plot-svg\")).length};",
             vec![],
         )
         .await;

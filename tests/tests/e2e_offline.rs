@@ -47,7 +47,8 @@ async fn worker_state(client: &Client) -> Option<String> {
     let v = client
         .execute_async(
             "const done = arguments[arguments.length - 1];
-             navigator.serviceWorker.getRegistration().then(r => done(r && r.active ? r.active.state : null), () => done(null));",
+             navigator.serviceWorker.getRegistration()
+               .then(r => done(r && r.active ? r.active.state : null), () => done(null));",
             vec![],
         )
         .await
@@ -233,7 +234,8 @@ async fn a_quota_the_worker_cannot_use_leaves_the_page_on_the_network() {
             ServiceWorkerContainer.prototype.register = function (...a) {
               const p = reg.apply(this, a);
               p.then(r => { const w = r.installing || r.waiting || r.active; window.__sw = w ? w.state : 'none';
-                if (w) w.addEventListener('statechange', () => window.__sw = w.state); }, e => window.__sw = 'refused ' + e);
+                if (w) w.addEventListener('statechange', () => window.__sw = w.state); },
+                e => window.__sw = 'refused ' + e);
               return p; };";
         cdp(&client, "Page.addScriptToEvaluateOnNewDocument", json!({"source": watch})).await;
         goto_app(&client, env.url()).await;

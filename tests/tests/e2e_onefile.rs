@@ -27,14 +27,24 @@ fn demo(i: usize) -> Request {
 
 /// Catches the files the page hands to the browser as downloads.
 async fn catch_downloads(client: &Client) {
-    eval(client, "window.__files = []; const make = URL.createObjectURL; URL.createObjectURL = function (b) { window.__files.push(b); return make.call(URL, b); };", vec![]).await;
+    eval(
+        client,
+        "window.__files = []; const make = URL.createObjectURL; URL.createObjectURL = function (b) { \
+        window.__files.push(b); return make.call(URL, b); };",
+        vec![],
+    )
+    .await;
 }
 
 /// The text of the `i`-th file the page handed over, once it is there.
 async fn downloaded(client: &Client, i: usize) -> String {
     poll(client, &format!("download {i}"), LIMIT, || async {
         let got = client
-            .execute_async("const done = arguments[arguments.length - 1]; const f = (window.__files || [])[arguments[0]]; if (!f) { done(null); } else { f.text().then(done); }", vec![json!(i)])
+            .execute_async(
+                "const done = arguments[arguments.length - 1]; const f = (window.__files || \
+                [])[arguments[0]]; if (!f) { done(null); } else { f.text().then(done); }",
+                vec![json!(i)],
+            )
             .await
             .expect("read the file");
         got.as_str().map(str::to_string)

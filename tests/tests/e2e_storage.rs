@@ -168,12 +168,24 @@ async fn save_reload_rename_duplicate_delete_open() {
 async fn a_version_0_entry_is_migrated_and_a_damaged_one_reported() {
     with_app(|env| async move {
         let client = env.open("").await;
-        wait_for_parts(&client, "the first demo", &expected_rows(&Request::from_json(demos::ALL[0].json).expect("valid"))).await;
+        wait_for_parts(
+            &client,
+            "the first demo",
+            &expected_rows(&Request::from_json(demos::ALL[0].json).expect("valid")),
+        )
+        .await;
 
         // Hand-made entries: one in format 0 (a title and the request as text, no format
         // number), one damaged, one from a future format.
         let v0 = json!({"title": "Legacy boiler tap", "text": demos::ALL[1].json}).to_string();
-        eval(&client, "localStorage.setItem('rangefit:design:legacy', arguments[0]); localStorage.setItem('rangefit:design:broken', '{\"format\": 1, \"request\": {'); localStorage.setItem('rangefit:design:future', JSON.stringify({format: 9, request: {}}));", vec![json!(v0)]).await;
+        eval(
+            &client,
+            "localStorage.setItem('rangefit:design:legacy', arguments[0]); \
+            localStorage.setItem('rangefit:design:broken', '{\"format\": 1, \"request\": {'); \
+            localStorage.setItem('rangefit:design:future', JSON.stringify({format: 9, request: {}}));",
+            vec![json!(v0)],
+        )
+        .await;
         reload(&client).await;
 
         wait_for_saved(&client, &["Legacy boiler tap"]).await;
@@ -187,19 +199,34 @@ async fn a_version_0_entry_is_migrated_and_a_damaged_one_reported() {
 
         let problems = texts(&client, "[data-testid='storage-problems'] li").await;
         assert_eq!(problems.len(), 2, "{problems:?}");
-        assert!(problems[0].contains("rangefit:design:broken") && problems[0].contains("not valid JSON"), "{problems:?}");
-        assert!(problems[1].contains("rangefit:design:future") && problems[1].contains("newer version"), "{problems:?}");
-        assert!(stored(&client, "rangefit:design:broken").await.is_string(), "a damaged entry is not deleted behind the user's back");
+        assert!(
+            problems[0].contains("rangefit:design:broken") && problems[0].contains("not valid JSON"),
+            "{problems:?}"
+        );
+        assert!(
+            problems[1].contains("rangefit:design:future") && problems[1].contains("newer version"),
+            "{problems:?}"
+        );
+        assert!(
+            stored(&client, "rangefit:design:broken").await.is_string(),
+            "a damaged entry is not deleted behind \
+            the user's back"
+        );
         screenshot(&client, "storage-problems").await;
 
         // The migrated design opens and designs like the original request.
         entry_action(&client, "Legacy boiler tap", "open").await;
-        wait_for_parts(&client, "the migrated design", &expected_rows(&Request::from_value(&want).expect("valid"))).await;
+        wait_for_parts(&client, "the migrated design", &expected_rows(&Request::from_value(&want).expect("valid")))
+            .await;
 
         // The user removes the damaged entry; the others stay.
-        let remove = client.find(Locator::Css("[data-testid='storage-problems'] li button")).await.expect("remove button");
+        let remove =
+            client.find(Locator::Css("[data-testid='storage-problems'] li button")).await.expect("remove button");
         remove.click().await.expect("click");
-        poll(&client, "one problem left", LIMIT, || async { (texts(&client, "[data-testid='storage-problems'] li").await.len() == 1).then_some(()) }).await;
+        poll(&client, "one problem left", LIMIT, || async {
+            (texts(&client, "[data-testid='storage-problems'] li").await.len() == 1).then_some(())
+        })
+        .await;
         assert!(stored(&client, "rangefit:design:broken").await.is_null());
         assert!(!stored(&client, "rangefit:design:future").await.is_null());
         wait_for_saved(&client, &["Legacy boiler tap"]).await;
@@ -213,7 +240,12 @@ async fn a_version_0_entry_is_migrated_and_a_damaged_one_reported() {
         })
         .await;
         assert!(notice.contains("could not be restored"), "{notice}");
-        wait_for_parts(&client, "the first demo instead", &expected_rows(&Request::from_json(demos::ALL[0].json).expect("valid"))).await;
+        wait_for_parts(
+            &client,
+            "the first demo instead",
+            &expected_rows(&Request::from_json(demos::ALL[0].json).expect("valid")),
+        )
+        .await;
         wait_for_saved(&client, &["Legacy boiler tap"]).await;
     })
     .await;
@@ -223,12 +255,19 @@ async fn a_version_0_entry_is_migrated_and_a_damaged_one_reported() {
 async fn a_full_storage_quota_is_reported() {
     with_app(|env| async move {
         let client = env.open("").await;
-        wait_for_parts(&client, "the first demo", &expected_rows(&Request::from_json(demos::ALL[0].json).expect("valid"))).await;
+        wait_for_parts(
+            &client,
+            "the first demo",
+            &expected_rows(&Request::from_json(demos::ALL[0].json).expect("valid")),
+        )
+        .await;
 
         // Fill the origin's storage with filler until the browser refuses more.
         let filled = eval(
             &client,
-            "let n = 0; for (let size = 1 << 20; size >= 16; size >>= 1) { const chunk = 'x'.repeat(size); while (true) { try { localStorage.setItem('filler' + n, chunk); n++; } catch (e) { if (e.name !== 'QuotaExceededError') { return 'unexpected ' + e.name; } break; } } } return n;",
+            "let n = 0; for (let size = 1 << 20; size >= 16; size >>= 1) { const chunk = 'x'.repeat(size); while \
+                (true) { try { localStorage.setItem('filler' + n, chunk); n++; } catch (e) { if (e.name !== \
+                'QuotaExceededError') { return 'unexpected ' + e.name; } break; } } } return n;",
             vec![],
         )
         .await;
@@ -247,7 +286,13 @@ async fn a_full_storage_quota_is_reported() {
         // Editing cannot be kept for the next visit either, and the page says so.
         click(&client, "step-sensor").await;
         // A long note, as if pasted: the working copy outgrows what is left.
-        eval(&client, "const e = document.querySelector(\"[data-testid='field-notes']\"); e.value = 'A long note pasted in. '.repeat(200); e.dispatchEvent(new Event('input', {bubbles: true}));", vec![]).await;
+        eval(
+            &client,
+            "const e = document.querySelector(\"[data-testid='field-notes']\"); e.value = 'A long note \
+            pasted in. '.repeat(200); e.dispatchEvent(new Event('input', {bubbles: true}));",
+            vec![],
+        )
+        .await;
         let autosave = poll(&client, "the autosave notice", LIMIT, || async {
             let t = texts(&client, "[data-testid='notice-autosave']").await.concat();
             (!t.is_empty()).then_some(t)
@@ -257,11 +302,20 @@ async fn a_full_storage_quota_is_reported() {
         screenshot(&client, "storage-full").await;
 
         // Room again: saving works and the notices clear.
-        eval(&client, "Object.keys(localStorage).filter(k => k.startsWith('filler')).forEach(k => localStorage.removeItem(k));", vec![]).await;
+        eval(
+            &client,
+            "Object.keys(localStorage).filter(k => k.startsWith('filler')).forEach(k => \
+            localStorage.removeItem(k));",
+            vec![],
+        )
+        .await;
         click(&client, "save-design").await;
         wait_for_saved(&client, &[Request::from_json(demos::ALL[0].json).expect("valid").name.as_str()]).await;
         type_into(&client, "notes", "Room again.").await;
-        poll(&client, "the autosave notice to clear", LIMIT, || async { texts(&client, "[data-testid='notice-autosave']").await.is_empty().then_some(()) }).await;
+        poll(&client, "the autosave notice to clear", LIMIT, || async {
+            texts(&client, "[data-testid='notice-autosave']").await.is_empty().then_some(())
+        })
+        .await;
     })
     .await;
 }

@@ -65,16 +65,47 @@ async fn time_to_first_design_cold_and_warm_on_a_10_mbit_link() {
             goto_app(&client, env.url()).await;
             cold.push(design_shown(&client).await);
             let start = timings(&client, "rangefit:start").await.first().map(|t| t.0).unwrap_or(f64::NAN);
-            let module_end = eval(&client, "const e = performance.getEntriesByType('resource').find(e => e.name.endsWith('.wasm')); return e ? e.responseEnd : null;", vec![]).await;
+            let module_end = eval(
+                &client,
+                "const e = performance.getEntriesByType('resource').find(e => \
+                e.name.endsWith('.wasm')); return e ? e.responseEnd : null;",
+                vec![],
+            )
+            .await;
             parts.push((module_end.as_f64().unwrap_or(f64::NAN), start));
-            let sent = eval(&client, "const n = performance.getEntriesByType('navigation')[0]; return performance.getEntriesByType('resource').reduce((a, e) => a + e.transferSize, n.transferSize);", vec![]).await;
+            let sent = eval(
+                &client,
+                "const n = performance.getEntriesByType('navigation')[0]; return \
+                performance.getEntriesByType('resource').reduce((a, e) => a + e.transferSize, n.transferSize);",
+                vec![],
+            )
+            .await;
             moved = sent.as_u64().unwrap_or(0);
-            let module = eval(&client, "const e = performance.getEntriesByType('resource').find(e => e.name.endsWith('.wasm')); return e ? e.encodedBodySize : null;", vec![]).await;
+            let module = eval(
+                &client,
+                "const e = performance.getEntriesByType('resource').find(e => \
+                e.name.endsWith('.wasm')); return e ? e.encodedBodySize : null;",
+                vec![],
+            )
+            .await;
             let module = module.as_u64().unwrap_or(0);
-            coding = if module == br { "brotli" } else if module == gz { "gzip" } else { "uncompressed" };
+            coding = if module == br {
+                "brotli"
+            } else if module == gz {
+                "gzip"
+            } else {
+                "uncompressed"
+            };
             // Wait for the service worker to hold the build, then visit again.
             poll(&client, "the service worker", LIMIT, || async {
-                let v = client.execute_async("const done = arguments[arguments.length - 1]; navigator.serviceWorker.ready.then(r => done(r.active.state));", vec![]).await.ok()?;
+                let v = client
+                    .execute_async(
+                        "const done = arguments[arguments.length - 1]; \
+                    navigator.serviceWorker.ready.then(r => done(r.active.state));",
+                        vec![],
+                    )
+                    .await
+                    .ok()?;
                 (v == json!("activated")).then_some(())
             })
             .await;
@@ -87,7 +118,9 @@ async fn time_to_first_design_cold_and_warm_on_a_10_mbit_link() {
             let _ = client.close().await;
         }
         record_figure(&format!(
-            "time to first design, 10 Mbit/s, 40 ms round trip: cold {:.0} ms (median of {RUNS}; {moved} bytes moved, module {coding}; module received / app started at {parts:.0?} ms), warm {:.0} ms (median of {}, service worker); goal 1000 / 300 ms; runs cold {cold:.0?}, warm {warm:.0?}",
+            "time to first design, 10 Mbit/s, 40 ms round trip: cold {:.0} ms (median of {RUNS}; {moved} bytes moved, \
+                module {coding}; module received / app started at {parts:.0?} ms), warm {:.0} ms (median of {}, \
+                service worker); goal 1000 / 300 ms; runs cold {cold:.0?}, warm {warm:.0?}",
             median(cold.clone()),
             median(warm.clone()),
             warm.len(),

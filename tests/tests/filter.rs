@@ -38,8 +38,10 @@ fn request(json: &str) -> Request {
 
 const CM_TABLES: &str =
     "Carter & Mancini, Op Amps for Everyone, 5th ed. (2018), §16.9, Tables 16.6 (Bessel) / 16.7 (Butterworth) [C]";
-const BUTTER_CLOSED: &str = "Butterworth closed form Q_k = 1/(2·sin((2k−1)π/(2n))), k = 1 … ⌊n/2⌋, f_n = 1, real pole at 1 for odd n (textbook; agrees with Carter & Mancini Table 16.7) [C]";
-const BESSEL_EIG: &str = "nalgebra complex_eigenvalues of the companion matrix of the reverse Bessel polynomial, −3 dB normalised by bisection here [C]";
+const BUTTER_CLOSED: &str = "Butterworth closed form Q_k = 1/(2·sin((2k−1)π/(2n))), k = 1 … ⌊n/2⌋, f_n = 1, real pole \
+    at 1 for odd n (textbook; agrees with Carter & Mancini Table 16.7) [C]";
+const BESSEL_EIG: &str = "nalgebra complex_eigenvalues of the companion matrix of the reverse Bessel polynomial, −3 \
+    dB normalised by bisection here [C]";
 
 /// Sections of a prototype as (f_n, Q) in ascending Q, plus the real pole.
 fn sections_of(p: &Prototype) -> (Option<f64>, Vec<(f64, f64)>) {
@@ -323,7 +325,8 @@ fn alias_and_settling_rules_give_the_published_values() {
     // Oversampling converters: the modulator rate minus band_high.
     let os = request(
         r#"{"name": "Kiln thermocouple logger", "source": {"min": 0, "max": 0.05, "band_high": "10 Hz"},
-        "destination": {"min": 0, "max": 2.5, "bits": 24, "sample_rate": "50 Hz", "converter": "oversampling", "modulator_rate": "256 kHz"}, "supplies": [5]}"#,
+        "destination": {"min": 0, "max": 2.5, "bits": 24, "sample_rate": "50 Hz", "converter": "oversampling",
+        "modulator_rate": "256 kHz"}, "supplies": [5]}"#,
     );
     rows.push(row(
         "alias frequency, oversampling",
@@ -343,7 +346,8 @@ fn an_impossible_rule_gives_the_best_filter_and_a_way_out() {
     const SRC: &str =
         "references.md: 16 bits at 48 kHz with a 20 kHz band needs a 34th-order Butterworth at the band edge [C]";
     let req = request(
-        r#"{"name": "Chapel organ recording", "source": {"min": -1, "max": 1, "coupling": "ac", "band_low": "20 Hz", "band_high": "20 kHz"},
+        r#"{"name": "Chapel organ recording", "source": {"min": -1, "max": 1, "coupling": "ac", "band_low": "20 Hz",
+            "band_high": "20 kHz"},
         "destination": {"min": 0, "max": 3.3, "bits": 16, "sample_rate": "48 kHz"}, "supplies": [3.3]}"#,
     );
     let d = design(&req);
@@ -391,12 +395,15 @@ fn filter_and_drive_parts_carry_stable_names() {
     for (what, json, mfb) in [
         (
             "Sallen-Key",
-            r#"{"name": "Orchard irrigation flow meter", "source": {"min": 0, "max": 1, "band_high": "100 Hz"}, "destination": {"min": 0, "max": 3.3, "sample_rate": "2 kHz"}, "supplies": [3.3]}"#,
+            r#"{"name": "Orchard irrigation flow meter", "source": {"min": 0, "max": 1, "band_high": "100 Hz"},
+                "destination": {"min": 0, "max": 3.3, "sample_rate": "2 kHz"}, "supplies": [3.3]}"#,
             false,
         ),
         (
             "multiple feedback",
-            r#"{"name": "Lighthouse lamp current", "source": {"min": 0, "max": 1, "band_high": "100 Hz"}, "destination": {"min": 0, "max": 3.3, "sample_rate": "2 kHz"}, "supplies": [3.3], "filter": {"topology": "multiple_feedback", "order": 4}}"#,
+            r#"{"name": "Lighthouse lamp current", "source": {"min": 0, "max": 1, "band_high": "100 Hz"},
+                "destination": {"min": 0, "max": 3.3, "sample_rate": "2 kHz"}, "supplies": [3.3],
+                "filter": {"topology": "multiple_feedback", "order": 4}}"#,
             true,
         ),
     ] {
@@ -468,7 +475,8 @@ fn filter_and_drive_parts_carry_stable_names() {
     // (The amplifier's rail equals the converter's range, so no protection resistor is needed.)
     let os = design(&request(
         r#"{"name": "Kiln thermocouple logger", "source": {"min": 0, "max": 0.05, "band_high": "10 Hz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 24, "sample_rate": "50 Hz", "converter": "oversampling", "modulator_rate": "256 kHz"}, "supplies": [3.3]}"#,
+        "destination": {"min": 0, "max": 3.3, "bits": 24, "sample_rate": "50 Hz", "converter": "oversampling",
+        "modulator_rate": "256 kHz"}, "supplies": [3.3]}"#,
     ));
     let c = os.circuit.as_ref().expect("circuit");
     rows.push(fact("oversampling: no drive", os.drive.is_none(), API));
@@ -479,7 +487,8 @@ fn filter_and_drive_parts_carry_stable_names() {
     ));
     let none = design(&request(
         r#"{"name": "Kiln thermocouple logger", "source": {"min": 0, "max": 0.05, "band_high": "10 Hz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 24, "sample_rate": "50 Hz", "converter": "oversampling", "modulator_rate": "256 kHz"}, "supplies": [3.3], "filter": {"response": "none"}}"#,
+        "destination": {"min": 0, "max": 3.3, "bits": 24, "sample_rate": "50 Hz", "converter": "oversampling",
+        "modulator_rate": "256 kHz"}, "supplies": [3.3], "filter": {"response": "none"}}"#,
     ));
     let c = none.circuit.as_ref().expect("circuit");
     rows.push(fact(
@@ -511,22 +520,28 @@ const SPICE_CASES: &[(&str, &str)] = &[
     (
         "flat, multiple feedback",
         r#"{"name": "Harbour crane load pin", "source": {"min": 0, "max": 1, "band_high": "10 kHz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "100 kHz"}, "supplies": [3.3], "filter": {"topology": "multiple_feedback"}}"#,
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "100 kHz"}, "supplies": [3.3],
+        "filter": {"topology": "multiple_feedback"}}"#,
     ),
     (
         "linear phase",
         r#"{"name": "Beehive weight pulses", "source": {"min": 0, "max": 1, "band_high": "1 kHz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "50 kHz"}, "supplies": [3.3], "filter": {"response": "linear_phase", "passband_error": "0.5 dB"}}"#,
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "50 kHz"}, "supplies": [3.3],
+        "filter": {"response": "linear_phase", "passband_error": "0.5 dB"}}"#,
     ),
     (
         "steep, AC",
-        r#"{"name": "Mill-race hydrophone", "source": {"min": 1.0, "max": 1.4, "coupling": "ac", "impedance": "600", "band_low": "50 Hz", "band_high": "4 kHz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "32 kHz", "impedance": "20k"}, "supplies": [3.3], "filter": {"response": "steep"}}"#,
+        r#"{"name": "Mill-race hydrophone", "source": {"min": 1.0, "max": 1.4, "coupling": "ac", "impedance": "600",
+            "band_low": "50 Hz", "band_high": "4 kHz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "32 kHz", "impedance": "20k"},
+        "supplies": [3.3], "filter": {"response": "steep"}}"#,
     ),
     (
         "inverting multiple feedback, dual rails",
-        r#"{"name": "Signal-box track circuit", "source": {"min": -1, "max": 1, "coupling": "ac", "band_low": "10 Hz", "band_high": "1 kHz"},
-        "destination": {"min": -5, "max": 5, "bits": 12, "sample_rate": "10 kHz"}, "supplies": [12, -12], "keep_polarity": false, "filter": {"topology": "multiple_feedback", "order": 6}}"#,
+        r#"{"name": "Signal-box track circuit", "source": {"min": -1, "max": 1, "coupling": "ac", "band_low": "10 Hz",
+            "band_high": "1 kHz"},
+        "destination": {"min": -5, "max": 5, "bits": 12, "sample_rate": "10 kHz"}, "supplies": [12, -12],
+        "keep_polarity": false, "filter": {"topology": "multiple_feedback", "order": 6}}"#,
     ),
     (
         "clamp to ground, ±12 V into 0–3.3 V",
@@ -613,17 +628,20 @@ const MERGE_CASES: &[(&str, &str)] = &[
     (
         "inverting, + on a divider",
         r#"{"name": "Quarry blast microphone", "source": {"min": -2, "max": 0, "band_high": "1 kHz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [3.3], "keep_polarity": false, "filter": {"order": 5}}"#,
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [3.3],
+        "keep_polarity": false, "filter": {"order": 5}}"#,
     ),
     (
         "inverting summer, split rails",
         r#"{"name": "Dam seepage probe", "source": {"min": 0, "max": 2, "band_high": "1 kHz"},
-        "destination": {"min": -2, "max": 2, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [5, -5], "keep_polarity": false, "filter": {"order": 5}}"#,
+        "destination": {"min": -2, "max": 2, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [5, -5],
+        "keep_polarity": false, "filter": {"order": 5}}"#,
     ),
     (
         "divider into the + input",
         r#"{"name": "Tram feeder monitor", "source": {"min": 0, "max": 10, "band_high": "1 kHz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [12, -12], "keep_polarity": false, "filter": {"order": 5}}"#,
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [12, -12],
+        "keep_polarity": false, "filter": {"order": 5}}"#,
     ),
 ];
 
@@ -727,14 +745,17 @@ fn random_requests_claim_what_ngspice_simulates() {
         let source = if rng.random_bool(0.3) {
             let band_low = band_high * rng.random_range(0.001..0.05);
             format!(
-                r#"{{"min": {min:.4}, "max": {max:.4}, "coupling": "ac", "band_low": {band_low:.4}, "band_high": {band_high:.4}}}"#
+                r#"{{"min": {min:.4}, "max": {max:.4}, "coupling": "ac", "band_low": {band_low:.4},
+                    "band_high": {band_high:.4}}}"#
             )
         } else {
             format!(r#"{{"min": {min:.4}, "max": {max:.4}, "band_high": {band_high:.4}}}"#)
         };
         let json = format!(
-            r#"{{"name": "Random bench {i}", "source": {source}, "destination": {{"min": 0, "max": {dest_max}, "bits": {bits}, "sample_rate": {fs:.3}}},
-            "supplies": {supplies}, "keep_polarity": false, "filter": {{"response": "{response}", "topology": "{topology}", "out_of_band_level": {level}}}}}"#
+            r#"{{"name": "Random bench {i}", "source": {source}, "destination": {{"min": 0, "max": {dest_max},
+                "bits": {bits}, "sample_rate": {fs:.3}}},
+            "supplies": {supplies}, "keep_polarity": false, "filter": {{"response": "{response}",
+            "topology": "{topology}", "out_of_band_level": {level}}}}}"#
         );
         let req = request(&json);
         let d = design(&req);
@@ -746,7 +767,10 @@ fn random_requests_claim_what_ngspice_simulates() {
             continue;
         };
         simulated += 1;
-        let what = format!("case {i} ({bits} bits, fs {fs:.0} Hz, band {band_high:.0} Hz, {response}, {topology}, level {level}, rails {supplies})");
+        let what = format!(
+            "case {i} ({bits} bits, fs {fs:.0} Hz, band {band_high:.0} Hz, {response}, {topology}, \
+            level {level}, rails {supplies})"
+        );
         let g = spice_gain(&format!("random-{i}"), &req, &d, &[a.ac.f_mid, req.source.band_high]);
         let flat_spice = 20.0 * (g[1] / g[0]).log10();
         let flat_engine = a.ac.gain_band_high_db - a.ac.gain_mid_db;
@@ -760,12 +784,24 @@ fn random_requests_claim_what_ngspice_simulates() {
         if let Some(f) = &d.filter {
             let warned = d.checks.iter().any(|c| c.id == "band_flatness" && c.severity == Severity::Error);
             let beyond = flat_spice.abs() > f.passband_allowed_db + 0.01;
-            rows.push(fact(format!("{what}: band_flatness is an error exactly when ngspice's band-edge error {flat_spice:+.3} dB exceeds the {} dB allowed", f.passband_allowed_db), warned == beyond || (flat_spice.abs() - f.passband_allowed_db).abs() < 0.01, SRC));
+            rows.push(fact(
+                format!(
+                    "{what}: band_flatness is an error exactly when ngspice's band-edge error \
+                {flat_spice:+.3} dB exceeds the {} dB allowed",
+                    f.passband_allowed_db
+                ),
+                warned == beyond || (flat_spice.abs() - f.passband_allowed_db).abs() < 0.01,
+                SRC,
+            ));
         }
         if let Some(x) = a.alias {
             let g = spice_gain(&format!("random-{i}-alias"), &req, &d, &[a.ac.f_mid, x.frequency]);
             let spice_db = 20.0 * (g[0] / g[1]).log10();
-            println!("{what}: alias {:.0} Hz engine {:.2} dB ngspice {:.2} dB; band edge engine {flat_engine:.3} dB ngspice {flat_spice:.3} dB", x.frequency, x.achieved_db, spice_db);
+            println!(
+                "{what}: alias {:.0} Hz engine {:.2} dB ngspice {:.2} dB; band edge engine {flat_engine:.3} dB \
+                ngspice {flat_spice:.3} dB",
+                x.frequency, x.achieved_db, spice_db
+            );
             rows.push(row(format!("{what}: rejection at the alias frequency, dB"), x.achieved_db, spice_db, 1.0, SRC));
         }
     }
@@ -782,7 +818,9 @@ fn random_requests_claim_what_ngspice_simulates() {
 
 #[test]
 fn filter_fields_are_read_and_refused_by_name() {
-    const BASE: &str = r#"{"name": "Tram-stop display light sensor", "source": {"min": 0, "max": 1, "band_high": "100 Hz"}, "destination": {"min": 0, "max": 3.3, "sample_rate": "2 kHz"DEST}, "supplies": [3.3]FILTER}"#;
+    const BASE: &str = r#"{"name": "Tram-stop display light sensor", "source": {"min": 0, "max": 1,
+        "band_high": "100 Hz"}, "destination": {"min": 0, "max": 3.3, "sample_rate": "2 kHz"DEST},
+        "supplies": [3.3]FILTER}"#;
     let with = |dest: &str, filter: &str| BASE.replace("DEST", dest).replace("FILTER", filter);
     let refused: &[(&str, &str, &str)] = &[
         ("", r#", "filter": {"response": "wobbly"}"#, "filter.response"),
@@ -850,7 +888,10 @@ fn odd_filter_requests_never_panic() {
             ] {
                 for coupling in [r#""coupling": "dc""#, r#""coupling": "ac", "band_low": "0.001 Hz""#] {
                     let json = format!(
-                        r#"{{"name": "odd", "source": {{"min": -0.5, "max": 0.5, {coupling}, "band_high": "{band}"}}, "destination": {{"min": 0, "max": 3.3, "bits": 16, "sample_rate": "{fs}"}}, "supplies": [5, -5], "keep_polarity": false, "filter": {{"response": "{response}", {filter}}}, "analysis": {{"monte_carlo_runs": 10}}}}"#
+                        r#"{{"name": "odd", "source": {{"min": -0.5, "max": 0.5, {coupling}, "band_high": "{band}"}},
+                            "destination": {{"min": 0, "max": 3.3, "bits": 16, "sample_rate": "{fs}"}},
+                            "supplies": [5, -5], "keep_polarity": false,
+                            "filter": {{"response": "{response}", {filter}}}, "analysis": {{"monte_carlo_runs": 10}}}}"#
                     );
                     let Ok(req) = Request::from_json(&json) else { continue };
                     let d = design(&req);

@@ -24,8 +24,11 @@ use rangefit_tests::rows::{check, fact, row};
 const SPICE: &str = "ngspice (Debian ngspice-39) operating point of the exported netlist";
 
 /// A soil-moisture probe's bipolar pair behind an instrumentation amplifier (our scenario).
-const PROBE: &str = r#"{"name": "Orchard soil-moisture probe pair", "source": {"kind": "differential", "min": "-40 mV", "max": "40 mV", "common_mode_min": "1.2 V", "common_mode_max": "1.8 V", "impedance": "2k", "band_high": "5 Hz", "front_end": "instrumentation"},
-    "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "50 Hz"}, "supplies": [3.3], "parts": {"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}"#;
+const PROBE: &str = r#"{"name": "Orchard soil-moisture probe pair", "source": {"kind": "differential", "min": "-40 mV",
+    "max": "40 mV", "common_mode_min": "1.2 V", "common_mode_max": "1.8 V", "impedance": "2k", "band_high": "5 Hz",
+    "front_end": "instrumentation"},
+    "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "50 Hz"}, "supplies": [3.3],
+    "parts": {"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}"#;
 
 /// The reference designator of the built part whose purpose starts with `what`.
 fn part(c: &Circuit, what: &str) -> String {
@@ -141,7 +144,8 @@ fn the_gain_follows_the_three_amplifier_formula() {
 
 #[test]
 fn common_mode_rejection_follows_the_tolerance_rule() {
-    const KC: &str = "Kitchin & Counts, A Designer's Guide to Instrumentation Amplifiers, 3rd ed. (from memory): difference stage (1 + G2)/(4t), times G1";
+    const KC: &str = "Kitchin & Counts, A Designer's Guide to Instrumentation Amplifiers, 3rd ed. (from memory): \
+        difference stage (1 + G2)/(4t), times G1";
     let mut rows = Vec::new();
     let req = request(PROBE);
     let d = design(&req);
@@ -276,7 +280,9 @@ fn the_front_end_is_chosen_and_read_by_name() {
     let pair = |min: &str, max: &str, imp: &str, front: &str| {
         let front = if front.is_empty() { String::new() } else { format!(r#", "front_end": "{front}""#) };
         design(&request(&format!(
-            r#"{{"source": {{"kind": "differential", "min": "{min}", "max": "{max}", "common_mode_min": 2, "common_mode_max": 3, "impedance": "{imp}", "band_high": 5{front}}}, "destination": {{"min": 0, "max": 3.3, "sample_rate": 100}}, "supplies": [5]}}"#
+            r#"{{"source": {{"kind": "differential", "min": "{min}", "max": "{max}", "common_mode_min": 2,
+                "common_mode_max": 3, "impedance": "{imp}", "band_high": 5{front}}}, "destination": {{"min": 0,
+                "max": 3.3, "sample_rate": 100}}, "supplies": [5]}}"#
         )))
     };
     let has = |d: &Design| d.instrumentation().is_some();
@@ -307,7 +313,9 @@ fn the_front_end_is_chosen_and_read_by_name() {
     ));
     let bridge = |front: &str| {
         design(&request(&format!(
-            r#"{{"source": {{"kind": "bridge", "excitation": 5, "sensitivity": "2 m", "bridge_resistance": 350{front}}}, "destination": {{"min": 0, "max": 3.3, "sample_rate": 10}}, "supplies": [5]}}"#
+            r#"{{"source": {{"kind": "bridge", "excitation": 5, "sensitivity": "2 m",
+                "bridge_resistance": 350{front}}}, "destination": {{"min": 0, "max": 3.3, "sample_rate": 10}},
+                "supplies": [5]}}"#
         )))
     };
     rows.push(fact(
@@ -365,8 +373,11 @@ fn random_instrumentation_front_ends_map_as_predicted() {
                 if supplies == "[12, -12]" { rng.random_range(-3.0..3.0) } else { rng.random_range(1.2..2.0) };
             let rs = 10f64.powf(rng.random_range(1.0..5.0));
             format!(
-                r#"{{"name": "Random in-amp pair {i}", "source": {{"kind": "differential", "min": {min:.6}, "max": {max:.6}, "common_mode_min": {:.3}, "common_mode_max": {:.3}, "impedance": {rs:.1}, "band_high": 10, "front_end": "instrumentation"}},
-                "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": 100}}, "supplies": {supplies}, "parts": {{"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}}}"#,
+                r#"{{"name": "Random in-amp pair {i}", "source": {{"kind": "differential", "min": {min:.6},
+                    "max": {max:.6}, "common_mode_min": {:.3}, "common_mode_max": {:.3}, "impedance": {rs:.1},
+                    "band_high": 10, "front_end": "instrumentation"}},
+                "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": 100}},
+                "supplies": {supplies}, "parts": {{"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}}}"#,
                 cm - 0.1,
                 cm + 0.1
             )
@@ -375,8 +386,10 @@ fn random_instrumentation_front_ends_map_as_predicted() {
             let r = [120.0, 350.0, 1000.0][rng.random_range(0..3)];
             let arms = [1, 2, 4][rng.random_range(0..3)];
             format!(
-                r#"{{"name": "Random bridge {i}", "source": {{"kind": "bridge", "excitation": "supply", "sensitivity": {s:.6}, "bridge_resistance": {r}, "active_arms": {arms}, "band_high": 2}},
-                "destination": {{"min": {dmin}, "max": {dmax}, "bits": 16, "sample_rate": 20}}, "supplies": {supplies}, "parts": {{"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}}}"#
+                r#"{{"name": "Random bridge {i}", "source": {{"kind": "bridge", "excitation": "supply",
+                    "sensitivity": {s:.6}, "bridge_resistance": {r}, "active_arms": {arms}, "band_high": 2}},
+                "destination": {{"min": {dmin}, "max": {dmax}, "bits": 16, "sample_rate": 20}}, "supplies": {supplies},
+                "parts": {{"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}}}"#
             )
         };
         let d = design(&request(&json));

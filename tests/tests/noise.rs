@@ -268,7 +268,8 @@ const SCENARIOS: &[Scenario] = &[
     Scenario {
         name: "bicycle-frame strain gauge",
         json: r#"{"name": "Bicycle-frame strain gauge",
-            "source": {"min": 2.4, "max": 2.6, "coupling": "ac", "impedance": "4.7k", "band_low": "5 Hz", "band_high": "500 Hz"},
+            "source": {"min": 2.4, "max": 2.6, "coupling": "ac", "impedance": "4.7k", "band_low": "5 Hz",
+            "band_high": "500 Hz"},
             "destination": {"min": 0, "max": 5, "bits": 16, "sample_rate": "2 kHz", "impedance": "47k"},
             "supplies": [5], "parts": {"resistor_series": "E96"}, "filter": {"out_of_band_level": "-40 dB"}}"#,
     },
@@ -286,7 +287,8 @@ const SCENARIOS: &[Scenario] = &[
     Scenario {
         name: "stable-door knock sensor",
         json: r#"{"name": "Stable-door knock sensor",
-            "source": {"min": 1.0, "max": 2.4, "coupling": "ac", "impedance": "1k", "band_low": "50 Hz", "band_high": "5 kHz"},
+            "source": {"min": 1.0, "max": 2.4, "coupling": "ac", "impedance": "1k", "band_low": "50 Hz",
+            "band_high": "5 kHz"},
             "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "16 kHz", "impedance": "20k"},
             "supplies": [3.3], "filter": {"out_of_band_level": "-40 dB", "passband_error": "0.2 dB"}}"#,
     },
@@ -296,7 +298,8 @@ const SCENARIOS: &[Scenario] = &[
     Scenario {
         name: "tunnel-boring vibration geophone",
         json: r#"{"name": "Tunnel-boring vibration geophone",
-            "source": {"min": "-120 mV", "max": "120 mV", "coupling": "ac", "impedance": "2.2k", "band_low": "1 Hz", "band_high": "300 Hz"},
+            "source": {"min": "-120 mV", "max": "120 mV", "coupling": "ac", "impedance": "2.2k", "band_low": "1 Hz",
+            "band_high": "300 Hz"},
             "destination": {"min": -5, "max": 5, "bits": 16, "sample_rate": "1 kHz", "impedance": "1M"},
             "supplies": [12, -12], "filter": {"out_of_band_level": "-60 dB"}}"#,
     },

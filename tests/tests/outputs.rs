@@ -68,7 +68,10 @@ fn dc(
 ) -> Value {
     let mut v = json!({
         "version": 1, "name": name,
-        "source": {"kind": "single_ended", "min": min, "max": max, "coupling": "dc", "impedance": impedance, "band_high": band_high},
+        "source": {
+            "kind": "single_ended", "min": min, "max": max, "coupling": "dc", "impedance": impedance,
+            "band_high": band_high
+        },
         "destination": {"min": dest.0, "max": dest.1, "bits": bits, "sample_rate": fs, "impedance": "100k"},
         "supplies": supplies,
         "analysis": {"monte_carlo_runs": 600}
@@ -85,7 +88,10 @@ fn ac(
 ) -> Value {
     let mut v = json!({
         "version": 1, "name": name,
-        "source": {"kind": "single_ended", "min": min, "max": max, "coupling": "ac", "impedance": impedance, "band_low": band.0, "band_high": band.1},
+        "source": {
+            "kind": "single_ended", "min": min, "max": max, "coupling": "ac", "impedance": impedance,
+            "band_low": band.0, "band_high": band.1
+        },
         "destination": {"min": dest.0, "max": dest.1, "bits": bits, "sample_rate": fs, "impedance": "100k"},
         "supplies": supplies,
         "analysis": {"monte_carlo_runs": 600}
@@ -140,7 +146,9 @@ fn scenario_requests() -> Vec<(&'static str, Value)> {
                 16,
                 "10 Hz",
                 json!([3.3]),
-                json!({"source": {"measurand": {"name": "bench temperature", "unit": "°C", "at_min": 120, "at_max": 15}}}),
+                json!({"source": {"measurand": {
+                    "name": "bench temperature", "unit": "°C", "at_min": 120, "at_max": 15
+                }}}),
             ),
         ),
         // A vineyard irrigation main: pressure transmitter 0.5 … 4.5 V for 0 … 600 kPa.
@@ -680,7 +688,9 @@ fn check_tolerance(f: &mut Fails, resistor_pct: f64, capacitor_pct: f64) {
         12,
         "50 kHz",
         json!([3.3]),
-        json!({"parts": {"resistor_tolerance": format!("{resistor_pct} %"), "capacitor_tolerance": format!("{capacitor_pct} %")}}),
+        json!({"parts": {
+            "resistor_tolerance": format!("{resistor_pct} %"), "capacitor_tolerance": format!("{capacitor_pct} %")
+        }}),
     );
     let d = design(&request(&v));
     let what = format!("resistors ±{resistor_pct} %, capacitors ±{capacitor_pct} %");
@@ -1646,7 +1656,8 @@ fn snapshot_dir() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("snapshots")
 }
 
-const UPDATE_HINT: &str = "if the change is intended, run `UPDATE_SNAPSHOTS=1 cargo test -p rangefit-tests --test outputs` and review the diff";
+const UPDATE_HINT: &str = "if the change is intended, run `UPDATE_SNAPSHOTS=1 cargo test -p rangefit-tests --test \
+    outputs` and review the diff";
 
 /// Compares `text` with the snapshot file `name`; with `UPDATE_SNAPSHOTS=1` rewrites it.
 fn check_snapshot(f: &mut Fails, name: &str, text: &str) {

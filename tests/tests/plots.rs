@@ -42,8 +42,10 @@ fn request(
 ) -> Request {
     let name = serde_json::to_string(name).unwrap();
     let json = format!(
-        r#"{{"version":1,"name":{name},"source":{{"kind":"single_ended","min":{min},"max":{max},"coupling":"{coupling}","impedance":"1k","band_low":{},"band_high":{}}},
-        "destination":{{"min":{},"max":{},"bits":{bits},"sample_rate":"{fs}","impedance":"100k"}},"supplies":{supplies},"keep_polarity":{keep_polarity},
+        r#"{{"version":1,"name":{name},"source":{{"kind":"single_ended","min":{min},"max":{max},"coupling":"{coupling}",
+            "impedance":"1k","band_low":{},"band_high":{}}},
+        "destination":{{"min":{},"max":{},"bits":{bits},"sample_rate":"{fs}","impedance":"100k"}},"supplies":{supplies},
+        "keep_polarity":{keep_polarity},
         "analysis":{{"monte_carlo_runs":2000}}}}"#,
         band.0, band.1, dest.0, dest.1
     );

@@ -35,8 +35,10 @@ prop_compose! {
         let (lo, hi) = (centre - span / 2.0, centre + span / 2.0);
         let coupling = if ac { r#""coupling": "ac", "band_low": 10,"# } else { r#""coupling": "dc","# };
         format!(
-            r#"{{"name": "property", "source": {{"min": {lo}, "max": {hi}, {coupling} "impedance": {rs}, "band_high": 1000}},
-                "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": 10000, "headroom": {headroom}}},
+            r#"{{"name": "property", "source": {{"min": {lo}, "max": {hi}, {coupling} "impedance": {rs},
+                "band_high": 1000}},
+                "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": 10000,
+                "headroom": {headroom}}},
                 "supplies": {supplies:?}, "parts": {{"resistor_series": "{series}"}}, "keep_polarity": {keep}}}"#
         )
     }
@@ -75,13 +77,18 @@ proptest! {
         // The analyses of every feasible design are numbers, never NaN or infinite.
         let a = d.analysis.as_ref().expect("analyses");
         let n = &a.noise;
-        prop_assert!([n.output_rms, n.input_rms, n.snr_db, n.enob, n.lsb_ratio].iter().all(|x| x.is_finite()), "noise {:?} for {}", n.output_rms, json);
-        prop_assert!(a.ac.points.iter().all(|q| q.mag_db.is_finite() && q.phase_deg.is_finite()), "AC response not finite for {}", json);
+        let noise = [n.output_rms, n.input_rms, n.snr_db, n.enob, n.lsb_ratio];
+        prop_assert!(noise.iter().all(|x| x.is_finite()), "noise {:?} for {}", n.output_rms, json);
+        prop_assert!(a.ac.points.iter().all(|q| q.mag_db.is_finite() && q.phase_deg.is_finite()), "AC response not \
+            finite for {}", json);
         prop_assert!(a.dc.transfer.iter().all(|q| q.y.is_finite()), "DC transfer not finite for {}", json);
         let mc = &a.tolerance.monte_carlo;
         let wc = &a.tolerance.worst_case;
-        prop_assert!([mc.yield_, mc.output_at_min.mean, mc.output_at_max.std, wc.output_at_min[0], wc.output_at_max[1], wc.gain[0]].iter().all(|x| x.is_finite()), "tolerance not finite for {}", json);
-        prop_assert!(a.loading.input_impedance.is_finite() && a.loading.gain_error.is_finite(), "loading not finite for {}", json);
+        let (lo, hi) = (wc.output_at_min[0], wc.output_at_max[1]);
+        let spread = [mc.yield_, mc.output_at_min.mean, mc.output_at_max.std, lo, hi, wc.gain[0]];
+        prop_assert!(spread.iter().all(|x| x.is_finite()), "tolerance not finite for {}", json);
+        let loading = [a.loading.input_impedance, a.loading.gain_error];
+        prop_assert!(loading.iter().all(|x| x.is_finite()), "loading not finite for {}", json);
         if req.keep_polarity {
             prop_assert!(p.gain > 0.0, "polarity flipped for {}", json);
         }
@@ -96,11 +103,14 @@ proptest! {
     ) {
         let json = match which {
             // Zero span.
-            0 => format!(r#"{{"source": {{"min": {level}, "max": {level}}}, "destination": {{"min": 0, "max": 3.3, "sample_rate": {fs}}}, "supplies": [3.3]}}"#),
+            0 => format!(r#"{{"source": {{"min": {level}, "max": {level}}}, "destination": {{"min": 0, "max": 3.3,
+                "sample_rate": {fs}}}, "supplies": [3.3]}}"#),
             // Band above Nyquist.
-            1 => format!(r#"{{"source": {{"min": 0, "max": 1, "band_high": {}}}, "destination": {{"min": 0, "max": 3.3, "sample_rate": {fs}}}, "supplies": [3.3]}}"#, fs * 0.75),
+            1 => format!(r#"{{"source": {{"min": 0, "max": 1, "band_high": {}}}, "destination": {{"min": 0, "max": 3.3,
+                "sample_rate": {fs}}}, "supplies": [3.3]}}"#, fs * 0.75),
             // Converter range far beyond the rails.
-            _ => format!(r#"{{"source": {{"min": 0, "max": 1, "band_high": {}}}, "destination": {{"min": 0, "max": 24, "sample_rate": {fs}}}, "supplies": [3.3]}}"#, fs * 0.1),
+            _ => format!(r#"{{"source": {{"min": 0, "max": 1, "band_high": {}}}, "destination": {{"min": 0, "max": 24,
+                "sample_rate": {fs}}}, "supplies": [3.3]}}"#, fs * 0.1),
         };
         let req = Request::from_json(&json).expect("well-formed");
         let d = design(&req);
@@ -119,14 +129,28 @@ proptest! {
     /// with status 0 (a design) or 2 (a field error).
     #[test]
     fn arbitrary_field_values_never_panic(
-        min in prop_oneof![any::<f64>().prop_map(|x| x.to_string()), "[a-zA-Z0-9µΩ .+-]{0,12}".prop_map(|s| format!("{s:?}"))],
-        max in prop_oneof![(-1e3f64..1e3).prop_map(|x| x.to_string()), "[a-zA-Z0-9 .]{0,8}".prop_map(|s| format!("{s:?}"))],
-        rate in prop_oneof![(-1e3f64..1e7).prop_map(|x| x.to_string()), Just("true".to_string()), Just("null".to_string())],
-        supplies in prop_oneof![Just("[]".to_string()), Just("[0]".to_string()), Just("[-5]".to_string()), Just("[5, -5, 3.3]".to_string()), (-100f64..100.0).prop_map(|x| format!("[{x}]"))],
-        bits in prop_oneof![Just("0".to_string()), Just("12".to_string()), Just("-3".to_string()), Just("64".to_string()), Just("1.5".to_string())],
+        min in prop_oneof![
+            any::<f64>().prop_map(|x| x.to_string()),
+            "[a-zA-Z0-9µΩ .+-]{0,12}".prop_map(|s| format!("{s:?}"))
+        ],
+        max in prop_oneof![
+            (-1e3f64..1e3).prop_map(|x| x.to_string()), "[a-zA-Z0-9 .]{0,8}".prop_map(|s| format!("{s:?}"))
+        ],
+        rate in prop_oneof![
+            (-1e3f64..1e7).prop_map(|x| x.to_string()), Just("true".to_string()), Just("null".to_string())
+        ],
+        supplies in prop_oneof![
+            Just("[]".to_string()), Just("[0]".to_string()), Just("[-5]".to_string()),
+            Just("[5, -5, 3.3]".to_string()), (-100f64..100.0).prop_map(|x| format!("[{x}]"))
+        ],
+        bits in prop_oneof![
+            Just("0".to_string()), Just("12".to_string()), Just("-3".to_string()), Just("64".to_string()),
+            Just("1.5".to_string())
+        ],
         coupling in prop_oneof![Just("\"ac\""), Just("\"dc\""), Just("\"xy\""), Just("3")],
     ) {
-        let json = format!(r#"{{"source": {{"min": {min}, "max": {max}, "coupling": {coupling}, "band_low": 1}}, "destination": {{"min": 0, "max": 3.3, "bits": {bits}, "sample_rate": {rate}}}, "supplies": {supplies}}}"#);
+        let json = format!(r#"{{"source": {{"min": {min}, "max": {max}, "coupling": {coupling}, "band_low": 1}},
+            "destination": {{"min": 0, "max": 3.3, "bits": {bits}, "sample_rate": {rate}}}, "supplies": {supplies}}}"#);
         let read = |_: &str| Ok(json.clone());
         let out = cli::run(&["design".to_string(), "x.json".to_string()], &read);
         prop_assert!(out.status == 0 || out.status == 2, "status {} for {}", out.status, json);
@@ -163,22 +187,35 @@ prop_compose! {
         let front = ["auto", "difference", "instrumentation"][front];
         let source = match which {
             // Current loop: 0 … 25 mA, burden 0.5 … 24 V.
-            0 => format!(r#"{{"kind": "current_loop", "min": {}, "max": {}, "burden_max": {}, "band_high": {band}}}"#, a * 5e-3, 5e-3 + b * 20e-3, 0.5 + c * 23.5),
+            0 => format!(r#"{{"kind": "current_loop", "min": {}, "max": {}, "burden_max": {},
+                "band_high": {band}}}"#, a * 5e-3, 5e-3 + b * 20e-3, 0.5 + c * 23.5),
             // High impedance: 1 MΩ … 1 TΩ, 1 pF … 10 nF, DC or AC.
             1 => {
-                let coupling = if ac { format!(r#""coupling": "ac", "band_low": {},"#, band / 100.0) } else { String::new() };
-                format!(r#"{{"kind": "high_impedance", "min": {}, "max": {}, {coupling} "impedance": {}, "capacitance": {}, "band_high": {band}}}"#, -1.0 + a, -1.0 + a + 0.01 + 2.0 * b, 10f64.powf(6.0 + 6.0 * c), 10f64.powf(-12.0 + 4.0 * b))
+                let coupling =
+                    if ac { format!(r#""coupling": "ac", "band_low": {},"#, band / 100.0) } else { String::new() };
+                format!(r#"{{"kind": "high_impedance", "min": {}, "max": {}, {coupling} "impedance": {},
+                    "capacitance": {},
+                    "band_high": {band}}}"#,
+                    -1.0 + a, -1.0 + a + 0.01 + 2.0 * b, 10f64.powf(6.0 + 6.0 * c), 10f64.powf(-12.0 + 4.0 * b))
             }
             // Photodiode: 1 nA … 1 mA, 1 pF … 1 nF.
-            2 => format!(r#"{{"kind": "photodiode", "min": 0, "max": {}, "capacitance": {}, "dark_current": {}, "band_high": {band}}}"#, 10f64.powf(-9.0 + 6.0 * a), 10f64.powf(-12.0 + 3.0 * b), c * 1e-8),
+            2 => format!(r#"{{"kind": "photodiode", "min": 0, "max": {}, "capacitance": {}, "dark_current": {},
+                "band_high": {band}}}"#, 10f64.powf(-9.0 + 6.0 * a), 10f64.powf(-12.0 + 3.0 * b), c * 1e-8),
             // Differential pair: ±1 mV … ±3 V on a common mode of −2 … 4 V.
-            3 => format!(r#"{{"kind": "differential", "min": {}, "max": {}, "common_mode_min": {}, "common_mode_max": {}, "impedance": {}, "band_high": {band}, "front_end": "{front}"}}"#, -1e-3 - 3.0 * a, 1e-3 + 3.0 * a, -2.0 + 4.0 * b, -1.9 + 4.0 * b + c, 1000.0 * c),
+            3 => format!(r#"{{"kind": "differential", "min": {}, "max": {}, "common_mode_min": {},
+                "common_mode_max": {}, "impedance": {}, "band_high": {band},
+                "front_end": "{front}"}}"#,
+                -1e-3 - 3.0 * a, 1e-3 + 3.0 * a, -2.0 + 4.0 * b, -1.9 + 4.0 * b + c, 1000.0 * c),
             // Bridge: 0.5 … 10 V, 0.5 … 10 mV/V, 120 Ω … 5 kΩ, 1, 2 or 4 arms (pairs and
             // bridges with each front end).
-            _ => format!(r#"{{"kind": "bridge", "excitation": {}, "sensitivity": {}, "bridge_resistance": {}, "active_arms": {}, "band_high": {band}, "front_end": "{front}"}}"#, 0.5 + 9.5 * a, 0.5e-3 + 9.5e-3 * b, 120.0 + 4880.0 * c, [1, 2, 4][(3.0 * a) as usize % 3]),
+            _ => format!(r#"{{"kind": "bridge", "excitation": {}, "sensitivity": {}, "bridge_resistance": {},
+                "active_arms": {}, "band_high": {band},
+                "front_end": "{front}"}}"#,
+                0.5 + 9.5 * a, 0.5e-3 + 9.5e-3 * b, 120.0 + 4880.0 * c, [1, 2, 4][(3.0 * a) as usize % 3]),
         };
         format!(
-            r#"{{"name": "property kind", "source": {source}, "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": {}}},
+            r#"{{"name": "property kind", "source": {source}, "destination": {{"min": {dmin}, "max": {dmax},
+                "bits": 12, "sample_rate": {}}},
                 "supplies": {supplies:?}, "keep_polarity": {keep}}}"#,
             band * 20.0
         )
@@ -196,10 +233,13 @@ proptest! {
         let Ok(req) = Request::from_json(&json) else { return Ok(()) };
         let d = design(&req);
         if let (Some(p), Some(a)) = (d.predicted, d.analysis.as_ref()) {
-            prop_assert!(p.output_at_min.is_finite() && p.output_at_max.is_finite() && p.gain.is_finite(), "prediction not finite for {}", json);
+            prop_assert!(p.output_at_min.is_finite() && p.output_at_max.is_finite() && p.gain.is_finite(), "prediction \
+                not finite for {}", json);
             prop_assert!(a.noise.output_rms.is_finite(), "noise not finite for {}", json);
-            prop_assert!(a.tolerance.worst_case.output_at_min.iter().all(|v| v.is_finite()), "worst case not finite for {}", json);
-            let svg = rangefit_engine::draw::schematic::of_design(&d, &rangefit_engine::draw::schematic::SchematicConfig::default());
+            prop_assert!(a.tolerance.worst_case.output_at_min.iter().all(|v| v.is_finite()), "worst case not finite \
+                for {}", json);
+            use rangefit_engine::draw::schematic::{of_design, SchematicConfig};
+            let svg = of_design(&d, &SchematicConfig::default());
             prop_assert!(svg.is_some(), "no schematic for {}", json);
             let bom = rangefit_engine::bom::bom(&d);
             prop_assert!(!bom.is_empty(), "no part list for {}", json);

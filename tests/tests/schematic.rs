@@ -23,8 +23,10 @@ fn request(
     keep_polarity: bool,
 ) -> String {
     format!(
-        r#"{{"version":1,"name":"{name}","source":{{"kind":"single_ended","min":{min},"max":{max},"coupling":"{coupling}","impedance":"1k","band_low":{},"band_high":{}}},
-        "destination":{{"min":{},"max":{},"bits":12,"sample_rate":"100 kHz","impedance":"100k"}},"supplies":{supplies},"keep_polarity":{keep_polarity}}}"#,
+        r#"{{"version":1,"name":"{name}","source":{{"kind":"single_ended","min":{min},"max":{max},
+            "coupling":"{coupling}","impedance":"1k","band_low":{},"band_high":{}}},
+        "destination":{{"min":{},"max":{},"bits":12,"sample_rate":"100 kHz","impedance":"100k"}},"supplies":{supplies},
+        "keep_polarity":{keep_polarity}}}"#,
         band.0, band.1, dest.0, dest.1
     )
 }
@@ -855,7 +857,8 @@ fn high_impedance(
     supplies: &str,
 ) -> String {
     format!(
-        r#"{{"version":1,"name":"{name}","source":{{"kind":"high_impedance","min":{min},"max":{max},"coupling":"{coupling}","impedance":"{}","capacitance":"{}","band_low":"{}","band_high":"{}"}},
+        r#"{{"version":1,"name":"{name}","source":{{"kind":"high_impedance","min":{min},"max":{max},
+            "coupling":"{coupling}","impedance":"{}","capacitance":"{}","band_low":"{}","band_high":"{}"}},
         "destination":{{"min":{},"max":{},"bits":12,"sample_rate":"5 kHz"}},"supplies":{supplies}}}"#,
         source.0, source.1, band.0, band.1, dest.0, dest.1
     )
@@ -1064,7 +1067,8 @@ fn photodiode_front_ends_are_drawn_by_role() {
         // Split rails: the + input at ground, no divider; no dark current stated, no IDARK.
         (
             "slit diode, split rails",
-            r#"{"name": "Spectrometer slit diode", "source": {"kind": "photodiode", "min": 0, "max": "2 µA", "capacitance": "15 pF", "band_high": "2 kHz"},
+            r#"{"name": "Spectrometer slit diode", "source": {"kind": "photodiode", "min": 0, "max": "2 µA",
+                "capacitance": "15 pF", "band_high": "2 kHz"},
                 "destination": {"min": -2, "max": 2, "bits": 14, "sample_rate": "20 kHz"}, "supplies": [5, -5]}"#
                 .to_string(),
             false,
@@ -1156,7 +1160,8 @@ fn differential_front_ends_are_drawn_by_role() {
         // Split rails, ±1 V into ±2.5 V: no offset, so R4 goes to ground and there is no U2.
         (
             "bench probe, split rails, reference at ground",
-            r#"{"name": "Bench differential probe", "source": {"kind": "differential", "min": -1, "max": 1, "common_mode_min": -2, "common_mode_max": 2, "impedance": "100", "band_high": "1 kHz"},
+            r#"{"name": "Bench differential probe", "source": {"kind": "differential", "min": -1, "max": 1,
+                "common_mode_min": -2, "common_mode_max": 2, "impedance": "100", "band_high": "1 kHz"},
                 "destination": {"min": -2.5, "max": 2.5, "bits": 12, "sample_rate": "20 kHz"}, "supplies": [5, -5]}"#
                 .to_string(),
             false,
@@ -1175,7 +1180,8 @@ fn pair(
     name: &str, range: (&str, &str), common_mode: (f64, f64), impedance: &str, band_high: &str, supply: f64,
 ) -> String {
     format!(
-        r#"{{"version":1,"name":"{name}","source":{{"kind":"differential","min":"{}","max":"{}","common_mode_min":{},"common_mode_max":{},"impedance":"{impedance}","band_high":"{band_high}","front_end":"instrumentation"}},
+        r#"{{"version":1,"name":"{name}","source":{{"kind":"differential","min":"{}","max":"{}","common_mode_min":{},
+            "common_mode_max":{},"impedance":"{impedance}","band_high":"{band_high}","front_end":"instrumentation"}},
         "destination":{{"min":0,"max":3.3,"bits":12,"sample_rate":"10 kHz"}},"supplies":[{supply}]}}"#,
         range.0, range.1, common_mode.0, common_mode.1
     )
@@ -1310,8 +1316,11 @@ fn random_instrumentation_front_ends_draw_cleanly() {
             let cm: f64 =
                 if supplies == "[12, -12]" { rng.random_range(-2.0..2.0) } else { rng.random_range(1.0..1.5) };
             format!(
-                r#"{{"version":1,"name":"Random in-amp pair {i}","source":{{"kind":"differential","min":{:.6},"max":{half:.6},"common_mode_min":{:.3},"common_mode_max":{:.3},"impedance":"1k","band_high":"20 Hz","front_end":"instrumentation"}},
-                "destination":{{"min":{dmin},"max":{dmax},"bits":12,"sample_rate":"1 kHz"}},"supplies":{supplies},"keep_polarity":{keep}}}"#,
+                r#"{{"version":1,"name":"Random in-amp pair {i}","source":{{"kind":"differential","min":{:.6},
+                    "max":{half:.6},"common_mode_min":{:.3},"common_mode_max":{:.3},"impedance":"1k",
+                    "band_high":"20 Hz","front_end":"instrumentation"}},
+                "destination":{{"min":{dmin},"max":{dmax},"bits":12,"sample_rate":"1 kHz"}},"supplies":{supplies},
+                "keep_polarity":{keep}}}"#,
                 -half,
                 cm - 0.1,
                 cm + 0.1
@@ -1319,8 +1328,10 @@ fn random_instrumentation_front_ends_draw_cleanly() {
         } else {
             let arms = [1, 2, 4][rng.random_range(0..3)];
             format!(
-                r#"{{"version":1,"name":"Random bridge {i}","source":{{"kind":"bridge","excitation":"supply","sensitivity":"{:.2} m","bridge_resistance":350,"active_arms":{arms},"band_high":"2 Hz"}},
-                "destination":{{"min":{dmin},"max":{dmax},"bits":16,"sample_rate":"20 Hz"}},"supplies":{supplies},"keep_polarity":{keep}}}"#,
+                r#"{{"version":1,"name":"Random bridge {i}","source":{{"kind":"bridge","excitation":"supply",
+                    "sensitivity":"{:.2} m","bridge_resistance":350,"active_arms":{arms},"band_high":"2 Hz"}},
+                "destination":{{"min":{dmin},"max":{dmax},"bits":16,"sample_rate":"20 Hz"}},"supplies":{supplies},
+                "keep_polarity":{keep}}}"#,
                 rng.random_range(1.0..3.0)
             )
         };

@@ -33,8 +33,10 @@ fn spice_outputs(tag: &str, d: &Design, currents: &[f64]) -> Vec<f64> {
     v
 }
 
-const TANK: &str = r#"{"name": "Cistern level loop", "source": {"kind": "current_loop", "min": "4 mA", "max": "20 mA", "burden_max": "3 V", "band_high": "5 Hz"},
-    "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "100 Hz"}, "supplies": [3.3], "parts": {"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}"#;
+const TANK: &str = r#"{"name": "Cistern level loop", "source": {"kind": "current_loop", "min": "4 mA", "max": "20 mA",
+    "burden_max": "3 V", "band_high": "5 Hz"},
+    "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "100 Hz"}, "supplies": [3.3],
+    "parts": {"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}"#;
 
 #[test]
 fn the_shunt_follows_the_burden_and_the_series() {
@@ -127,8 +129,10 @@ fn random_loops_map_as_predicted() {
             [("[3.3]", 3.3), ("[5]", 5.0), ("[5, 3.3]", 3.3), ("[12, -12]", 5.0)][rng.random_range(0..4)];
         let bits = [10, 12, 16][rng.random_range(0..3)];
         let json = format!(
-            r#"{{"name": "Random loop {i}", "source": {{"kind": "current_loop", "min": {min}, "max": {max}, "burden_max": {burden:.3}, "band_high": 10}},
-            "destination": {{"min": 0, "max": {dmax}, "bits": {bits}, "sample_rate": 1000}}, "supplies": {supplies}, "parts": {{"resistor_series": "{series}"}}}}"#
+            r#"{{"name": "Random loop {i}", "source": {{"kind": "current_loop", "min": {min}, "max": {max},
+                "burden_max": {burden:.3}, "band_high": 10}},
+            "destination": {{"min": 0, "max": {dmax}, "bits": {bits}, "sample_rate": 1000}}, "supplies": {supplies},
+            "parts": {{"resistor_series": "{series}"}}}}"#
         );
         let d = design(&request(&json));
         let (Some(p), Some(_)) = (d.predicted, d.circuit.as_ref()) else {
@@ -240,9 +244,13 @@ fn spice_ac_gain(tag: &str, d: &Design, f: f64) -> f64 {
     pick("vr(adc) = ").hypot(pick("vi(adc) = "))
 }
 
-const PH: &str = r#"{"name": "Aquarium pH electrode", "source": {"kind": "high_impedance", "min": "-0.25 V", "max": "0.25 V", "impedance": "300 MΩ", "capacitance": "150 pF", "band_high": "0.2 Hz"},
-    "destination": {"min": 0, "max": 2.5, "bits": 12, "sample_rate": "5 Hz"}, "supplies": [2.5, -2.5], "parts": {"resistor_series": "E96"}}"#;
-const FILM: &str = r#"{"name": "Footbridge vibration film", "source": {"kind": "high_impedance", "min": -0.5, "max": 0.5, "coupling": "ac", "impedance": "10 GΩ", "capacitance": "1.5 nF", "band_low": "2 Hz", "band_high": "500 Hz"},
+const PH: &str = r#"{"name": "Aquarium pH electrode", "source": {"kind": "high_impedance", "min": "-0.25 V",
+    "max": "0.25 V", "impedance": "300 MΩ", "capacitance": "150 pF", "band_high": "0.2 Hz"},
+    "destination": {"min": 0, "max": 2.5, "bits": 12, "sample_rate": "5 Hz"}, "supplies": [2.5, -2.5],
+    "parts": {"resistor_series": "E96"}}"#;
+const FILM: &str = r#"{"name": "Footbridge vibration film", "source": {"kind": "high_impedance", "min": -0.5,
+    "max": 0.5, "coupling": "ac", "impedance": "10 GΩ", "capacitance": "1.5 nF", "band_low": "2 Hz",
+    "band_high": "500 Hz"},
     "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "5 kHz"}, "supplies": [3.3]}"#;
 
 #[test]
@@ -339,7 +347,8 @@ fn random_electrodes_map_as_predicted() {
         let (supplies, dmin, dmax) =
             [("[3.3]", 0.0, 3.3), ("[5]", 0.0, 5.0), ("[5, -5]", -2.5, 2.5)][rng.random_range(0..3)];
         let json = format!(
-            r#"{{"name": "Random electrode {i}", "source": {{"kind": "high_impedance", "min": {min:.4}, "max": {max:.4}, "impedance": {r_s:.4e}, "capacitance": {c_s:.4e}, "band_high": 0.5}},
+            r#"{{"name": "Random electrode {i}", "source": {{"kind": "high_impedance", "min": {min:.4},
+                "max": {max:.4}, "impedance": {r_s:.4e}, "capacitance": {c_s:.4e}, "band_high": 0.5}},
             "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": 10}}, "supplies": {supplies}}}"#
         );
         let d = design(&request(&json));
@@ -419,14 +428,17 @@ fn spice_ac_at(tag: &str, d: &Design, node: &str, f: f64) -> f64 {
     pick(format!("vr({node}) = ")).hypot(pick(format!("vi({node}) = ")))
 }
 
-const LIGHT: &str = r#"{"name": "Orchard frost-night light sensor", "source": {"kind": "photodiode", "min": 0, "max": "25 µA", "capacitance": "50 pF", "dark_current": "1 nA", "band_high": "10 Hz"},
-    "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "100 Hz"}, "supplies": [3.3], "parts": {"resistor_series": "E96"}}"#;
+const LIGHT: &str = r#"{"name": "Orchard frost-night light sensor", "source": {"kind": "photodiode", "min": 0,
+    "max": "25 µA", "capacitance": "50 pF", "dark_current": "1 nA", "band_high": "10 Hz"},
+    "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "100 Hz"}, "supplies": [3.3],
+    "parts": {"resistor_series": "E96"}}"#;
 
 #[test]
 fn the_transimpedance_stage_follows_the_model_and_ngspice() {
     use rangefit_engine::synth::front::transimpedance as tia;
     const SRC: &str = "ngspice (Debian ngspice-39) on the exported netlist";
-    const REF: &str = "references.md: single-pole transimpedance model, 1 MΩ, 10 pF, 10 MHz (Graeme, Photodiode Amplifiers, 1996, from memory for the book; values re-checked by nodal analysis)";
+    const REF: &str = "references.md: single-pole transimpedance model, 1 MΩ, 10 pF, 10 MHz (Graeme, Photodiode \
+        Amplifiers, 1996, from memory for the book; values re-checked by nodal analysis)";
     let mut rows = vec![
         // The worked values: maximally flat C_f = 0.5640 pF and −3 dB at 388.15 kHz.
         row("flat C_f, 1 MΩ / 10 pF / 10 MHz", tia::flat_capacitor(1e6, 10e-12, 10e6), 0.5640e-12, 0.0005e-12, REF),
@@ -483,7 +495,8 @@ fn random_photodiodes_map_as_predicted() {
         let (supplies, dmin, dmax) =
             [("[3.3]", 0.0, 3.3), ("[5]", 0.0, 5.0), ("[5, -5]", -2.0, 2.0)][rng.random_range(0..3)];
         let json = format!(
-            r#"{{"name": "Random photodiode {i}", "source": {{"kind": "photodiode", "min": {min:e}, "max": {max:e}, "capacitance": {cj:e}, "dark_current": {dark:e}, "band_high": {band:e}}},
+            r#"{{"name": "Random photodiode {i}", "source": {{"kind": "photodiode", "min": {min:e}, "max": {max:e},
+                "capacitance": {cj:e}, "dark_current": {dark:e}, "band_high": {band:e}}},
             "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": {}}}, "supplies": {supplies}}}"#,
             20.0 * band
         );
@@ -539,8 +552,10 @@ fn photodiode_fields_are_read_and_refused_by_name() {
 // ---------------------------------------------------------------------------------------
 // Differential sensors
 
-const PAIR: &str = r#"{"name": "Kiln draught differential sensor", "source": {"kind": "differential", "min": "-1.5 V", "max": "1.5 V", "common_mode_min": "2 V", "common_mode_max": "3 V", "impedance": "200", "band_high": "5 Hz"},
-    "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "50 Hz"}, "supplies": [5], "parts": {"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}"#;
+const PAIR: &str = r#"{"name": "Kiln draught differential sensor", "source": {"kind": "differential", "min": "-1.5 V",
+    "max": "1.5 V", "common_mode_min": "2 V", "common_mode_max": "3 V", "impedance": "200", "band_high": "5 Hz"},
+    "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "50 Hz"}, "supplies": [5],
+    "parts": {"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}"#;
 
 #[test]
 fn the_difference_amplifier_follows_the_references_and_ngspice() {
@@ -653,8 +668,10 @@ fn random_pairs_map_as_predicted() {
         let (supplies, dmin, dmax) =
             [("[5]", 0.0, 3.3), ("[5]", 0.0, 5.0), ("[5, -5]", -2.0, 2.0)][rng.random_range(0..3)];
         let json = format!(
-            r#"{{"name": "Random pair {i}", "source": {{"kind": "differential", "min": {min:.5}, "max": {max:.5}, "common_mode_min": {:.3}, "common_mode_max": {:.3}, "impedance": {rs:.2}, "band_high": 10}},
-            "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": 100}}, "supplies": {supplies}, "keep_polarity": {}}}"#,
+            r#"{{"name": "Random pair {i}", "source": {{"kind": "differential", "min": {min:.5}, "max": {max:.5},
+                "common_mode_min": {:.3}, "common_mode_max": {:.3}, "impedance": {rs:.2}, "band_high": 10}},
+            "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": 100}}, "supplies": {supplies},
+            "keep_polarity": {}}}"#,
             cm - 0.2,
             cm + 0.2,
             rng.random_bool(0.7)
@@ -715,8 +732,10 @@ fn bridges_follow_the_bridge_formula_and_ngspice() {
     // One active arm, x = 0.002 on 5 V: sensitivity S = x/(4 + 2x) per volt.
     let s = 0.002 / (4.0 + 2.0 * 0.002);
     let json = format!(
-        r#"{{"name": "Cold-room floor strain gauge", "source": {{"kind": "bridge", "excitation": 5, "sensitivity": {s:e}, "bridge_resistance": 120, "active_arms": 1, "band_high": 2}},
-        "destination": {{"min": 0, "max": 3.3, "bits": 16, "sample_rate": 20}}, "supplies": [5], "parts": {{"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}}}"#
+        r#"{{"name": "Cold-room floor strain gauge", "source": {{"kind": "bridge", "excitation": 5,
+            "sensitivity": {s:e}, "bridge_resistance": 120, "active_arms": 1, "band_high": 2}},
+        "destination": {{"min": 0, "max": 3.3, "bits": 16, "sample_rate": 20}}, "supplies": [5],
+        "parts": {{"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}}}"#
     );
     let req = request(&json);
     // The worked value is given to 0.1 µV: half of that as the tolerance.
@@ -739,8 +758,10 @@ fn bridges_follow_the_bridge_formula_and_ngspice() {
     ));
     // The demo-like full bridge through ngspice: the mapping at the ends of the range.
     let req = request(
-        r#"{"name": "Grain silo load cell", "source": {"kind": "bridge", "excitation": "5 V", "sensitivity": "3 m", "bridge_resistance": "700", "band_high": "1 Hz"},
-        "destination": {"min": 0, "max": 3.3, "bits": 16, "sample_rate": "10 Hz"}, "supplies": [5], "parts": {"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}"#,
+        r#"{"name": "Grain silo load cell", "source": {"kind": "bridge", "excitation": "5 V", "sensitivity": "3 m",
+            "bridge_resistance": "700", "band_high": "1 Hz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 16, "sample_rate": "10 Hz"}, "supplies": [5],
+        "parts": {"resistor_series": "E96", "resistor_tolerance": "0.1 %"}}"#,
     );
     rows.push(row(
         "full bridge 3 mV/V on 5 V: range 0 … 15 mV",
@@ -782,7 +803,8 @@ fn bridges_follow_the_bridge_formula_and_ngspice() {
     ));
     // Excitation "supply": the highest positive rail.
     let r = request(
-        r#"{"source": {"kind": "bridge", "excitation": "supply", "sensitivity": "2 m", "bridge_resistance": 350}, "destination": {"min": 0, "max": 3.3, "sample_rate": 10}, "supplies": [12, 5, -5]}"#,
+        r#"{"source": {"kind": "bridge", "excitation": "supply", "sensitivity": "2 m", "bridge_resistance": 350},
+            "destination": {"min": 0, "max": 3.3, "sample_rate": 10}, "supplies": [12, 5, -5]}"#,
     );
     rows.push(row(
         "excitation \"supply\" with rails 12, 5, −5 V",
@@ -810,7 +832,8 @@ fn bridge_fields_are_read_and_refused_by_name() {
             "source.active_arms",
         ),
         (
-            r#"{"kind": "bridge", "excitation": 5, "sensitivity": "2 m", "bridge_resistance": 350, "common_mode_min": 1}"#,
+            r#"{"kind": "bridge", "excitation": 5, "sensitivity": "2 m", "bridge_resistance": 350,
+                "common_mode_min": 1}"#,
             "source.common_mode_min",
         ),
         (r#"{"min": 0, "max": 1, "excitation": 5}"#, "source.excitation"),

@@ -169,7 +169,8 @@ const CASES: &[Case] = &[
         name: "beehive scale load cell",
         json: r#"{"name": "Beehive scale load-cell amplifier",
             "source": {"min": "-1.5 V", "max": "1.5 V", "impedance": "2.2k", "band_high": "4 Hz"},
-            "destination": {"min": 0, "max": 5, "bits": 14, "sample_rate": "40 Hz", "impedance": "200k", "headroom": "4 %"},
+            "destination": {"min": 0, "max": 5, "bits": 14, "sample_rate": "40 Hz", "impedance": "200k",
+            "headroom": "4 %"},
             "supplies": [5], "parts": {"resistor_series": "E12"}}"#,
     },
     // ±15 V rails, DC, unipolar 0–2.5 V into a bipolar ±5 V input: gain with a negative offset.
@@ -201,7 +202,8 @@ const CASES: &[Case] = &[
         name: "pottery-kiln setpoint monitor",
         json: r#"{"name": "Pottery-kiln setpoint monitor",
             "source": {"min": "-10 V", "max": "10 V", "impedance": "470", "band_high": "10 Hz"},
-            "destination": {"min": -5, "max": 5, "bits": 16, "sample_rate": "1 kHz", "impedance": "1M", "headroom": 0.02},
+            "destination": {"min": -5, "max": 5, "bits": 16, "sample_rate": "1 kHz", "impedance": "1M",
+            "headroom": 0.02},
             "supplies": [15, -15], "keep_polarity": false, "parts": {"resistor_series": "E12"}}"#,
     },
     // 5 V rail, DC, keep_polarity false, a negative-going sensor into 0–2.5 V.
@@ -226,7 +228,8 @@ const CASES: &[Case] = &[
     Case {
         name: "wind-turbine vibration pickup",
         json: r#"{"name": "Wind-turbine nacelle vibration pickup",
-            "source": {"min": 2.0, "max": 3.0, "coupling": "ac", "impedance": "100", "band_low": "2 Hz", "band_high": "2 kHz"},
+            "source": {"min": 2.0, "max": 3.0, "coupling": "ac", "impedance": "100", "band_low": "2 Hz",
+            "band_high": "2 kHz"},
             "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "10 kHz", "impedance": "10k"},
             "supplies": [3.3], "parts": {"resistor_series": "E24", "capacitor_series": "E6"},
             "filter": {"passband_error": "0.5 dB"}}"#,
@@ -237,7 +240,8 @@ const CASES: &[Case] = &[
     Case {
         name: "hedge bird-song microphone",
         json: r#"{"name": "Hedge bird-song microphone",
-            "source": {"min": "-4 V", "max": "4 V", "coupling": "ac", "impedance": "600", "band_low": "100 Hz", "band_high": "10 kHz"},
+            "source": {"min": "-4 V", "max": "4 V", "coupling": "ac", "impedance": "600", "band_low": "100 Hz",
+            "band_high": "10 kHz"},
             "destination": {"min": 0, "max": 5, "bits": 16, "sample_rate": "48 kHz", "impedance": "10k"},
             "supplies": [5], "parts": {"resistor_series": "E96", "capacitor_series": "E12"},
             "filter": {"out_of_band_level": "-40 dB"}}"#,
@@ -247,7 +251,8 @@ const CASES: &[Case] = &[
     Case {
         name: "quarry-edge geophone",
         json: r#"{"name": "Quarry-edge geophone",
-            "source": {"min": "-50 mV", "max": "50 mV", "coupling": "ac", "impedance": "3.3k", "band_low": "1 Hz", "band_high": "200 Hz"},
+            "source": {"min": "-50 mV", "max": "50 mV", "coupling": "ac", "impedance": "3.3k", "band_low": "1 Hz",
+            "band_high": "200 Hz"},
             "destination": {"min": -5, "max": 5, "bits": 16, "sample_rate": "1 kHz", "impedance": "1M"},
             "supplies": [12, -12], "parts": {"resistor_series": "E24"},
             "filter": {"out_of_band_level": "-40 dB"}}"#,
@@ -300,7 +305,8 @@ fn check(case: &Case) -> Result<Measured, Vec<String>> {
     let slack = rangefit_engine::synth::HEADROOM_SLACK * span;
     if lo < want_lo - slack || hi > want_hi + slack {
         problems.push(format!(
-            "predicted range {lo:.6} … {hi:.6} V leaves the converter range less {:.1} % headroom ({want_lo:.6} … {want_hi:.6} V)",
+            "predicted range {lo:.6} … {hi:.6} V leaves the converter range less {:.1} % headroom ({want_lo:.6} … \
+                {want_hi:.6} V)",
             dst.headroom * 100.0
         ));
     }
@@ -343,7 +349,8 @@ fn check(case: &Case) -> Result<Measured, Vec<String>> {
             m.mapping = dev_min.max(dev_max);
             if m.mapping > SPAN_TOL {
                 problems.push(format!(
-                    "DC mapping off by {:.4} % of the span (limit {:.1} %): ngspice {y1:.6} / {y2:.6} V, predicted {:.6} / {:.6} V at {} / {} V",
+                    "DC mapping off by {:.4} % of the span (limit {:.1} %): ngspice {y1:.6} / {y2:.6} V, predicted \
+                        {:.6} / {:.6} V at {} / {} V",
                     m.mapping * 100.0,
                     SPAN_TOL * 100.0,
                     p.output_at_min,
@@ -376,7 +383,8 @@ fn check(case: &Case) -> Result<Measured, Vec<String>> {
             m.mapping = (level - p.offset).abs() / span;
             if m.mapping > SPAN_TOL {
                 problems.push(format!(
-                    "output DC level off by {:.4} % of the span (limit {:.1} %): ngspice {level:.6} V, predicted {:.6} V",
+                    "output DC level off by {:.4} % of the span (limit {:.1} %): ngspice {level:.6} V, predicted \
+                        {:.6} V",
                     m.mapping * 100.0,
                     SPAN_TOL * 100.0,
                     p.offset
@@ -386,7 +394,8 @@ fn check(case: &Case) -> Result<Measured, Vec<String>> {
             m.gain = (mag - p.gain.abs()).abs() / p.gain.abs();
             if m.gain > GAIN_TOL {
                 problems.push(format!(
-                    "mid-band gain at {f:.4} Hz off by {:.4} % (limit {:.1} %): ngspice |H| = {mag:.6}, predicted {:.6}",
+                    "mid-band gain at {f:.4} Hz off by {:.4} % (limit {:.1} %): ngspice |H| = {mag:.6}, predicted \
+                        {:.6}",
                     m.gain * 100.0,
                     GAIN_TOL * 100.0,
                     p.gain
@@ -519,7 +528,8 @@ const CLIPPING: &[Case] = &[
         name: "sawmill blade-vibration monitor",
         json: r#"{"name": "Sawmill blade-vibration monitor",
             "source": {"min": "-10 V", "max": "10 V", "impedance": "220", "band_high": "100 Hz"},
-            "destination": {"min": -10, "max": 10, "bits": 16, "sample_rate": "2 kHz", "impedance": "1M", "headroom": "2 %"},
+            "destination": {"min": -10, "max": 10, "bits": 16, "sample_rate": "2 kHz", "impedance": "1M",
+            "headroom": "2 %"},
             "supplies": [12, -12], "keep_polarity": false, "parts": {"resistor_series": "E24"}}"#,
     },
 ];
@@ -745,25 +755,30 @@ const TEMPLATE_CASES: &[TemplateCase] = &[
     TemplateCase {
         name: "cellar humidity",
         template: rangefit_engine::synth::dc::Template::NonInvertingMinus,
-        json: r#"{"source": {"min": 0.8, "max": 2.4, "impedance": 220, "band_high": 5}, "destination": {"min": 0, "max": 3.3, "sample_rate": 100}, "supplies": [3.3]}"#,
+        json: r#"{"source": {"min": 0.8, "max": 2.4, "impedance": 220, "band_high": 5}, "destination": {"min": 0,
+            "max": 3.3, "sample_rate": 100}, "supplies": [3.3]}"#,
     },
     // A kiln-door position pot, 0–1 V, read upside down into 0–5 V (m < 0, b > 0).
     TemplateCase {
         name: "kiln door",
         template: rangefit_engine::synth::dc::Template::InvertingPlus,
-        json: r#"{"source": {"min": 0, "max": 1, "band_high": 20}, "destination": {"min": 0, "max": 5, "sample_rate": 1000}, "supplies": [5], "keep_polarity": false}"#,
+        json: r#"{"source": {"min": 0, "max": 1, "band_high": 20}, "destination": {"min": 0, "max": 5,
+            "sample_rate": 1000}, "supplies": [5], "keep_polarity": false}"#,
     },
     // A buoy inclinometer, −3…−1 V, into 0–3.3 V on one rail (m < 0, b < 0).
     TemplateCase {
         name: "buoy inclinometer",
         template: rangefit_engine::synth::dc::Template::InvertingSum,
-        json: r#"{"source": {"min": -3, "max": -1, "impedance": 1000, "band_high": 10}, "destination": {"min": 0, "max": 3.3, "sample_rate": 200}, "supplies": [3.3], "keep_polarity": false, "parts": {"resistor_series": "E96"}}"#,
+        json: r#"{"source": {"min": -3, "max": -1, "impedance": 1000, "band_high": 10}, "destination": {"min": 0,
+            "max": 3.3, "sample_rate": 200}, "supplies": [3.3], "keep_polarity": false,
+            "parts": {"resistor_series": "E96"}}"#,
     },
     // A compost-heap probe, ±1 V, into ±5 V on ±12 V rails (m < 0, b = 0).
     TemplateCase {
         name: "compost probe",
         template: rangefit_engine::synth::dc::Template::InvertingPlus,
-        json: r#"{"source": {"min": -1, "max": 1, "band_high": 10}, "destination": {"min": -5, "max": 5, "sample_rate": 200}, "supplies": [12, -12], "keep_polarity": false}"#,
+        json: r#"{"source": {"min": -1, "max": 1, "band_high": 10}, "destination": {"min": -5, "max": 5,
+            "sample_rate": 200}, "supplies": [12, -12], "keep_polarity": false}"#,
     },
 ];
 

@@ -325,7 +325,8 @@ fn facts_of_the_trade() {
     // gain magnitude of 10 (common practice). Headroom 0, an output that reaches the rails
     // and a rail held exact.
     let req = request(
-        r#"{"name": "fact", "source": {"min": 0.55, "max": 1.05, "coupling": "ac", "band_low": "100 Hz", "band_high": "5 kHz"},
+        r#"{"name": "fact", "source": {"min": 0.55, "max": 1.05, "coupling": "ac", "band_low": "100 Hz",
+            "band_high": "5 kHz"},
             "destination": {"min": 0, "max": 5, "sample_rate": "50 kHz", "headroom": 0},
             "supplies": [5], "supply_tolerance": 0, "amplifier": {"swing_low": 0, "swing_high": 0}}"#,
     );
@@ -387,25 +388,31 @@ fn four_sign_cases_of_gain_and_offset() {
         SignCase {
             name: "m>0 b>0",
             template: Template::NonInvertingPlus,
-            json: r#"{"source": {"min": 0.1, "max": 1.1, "band_high": 100}, "destination": {"min": 0, "max": 5, "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "parts": {"resistor_series": "E96"}}"#,
+            json: r#"{"source": {"min": 0.1, "max": 1.1, "band_high": 100}, "destination": {"min": 0, "max": 5,
+                "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "parts": {"resistor_series": "E96"}}"#,
         },
         // m > 0, b < 0: 1–2 V into 0.5–4.5 V (m = 4, b = −3.5 V).
         SignCase {
             name: "m>0 b<0",
             template: Template::NonInvertingMinus,
-            json: r#"{"source": {"min": 1, "max": 2, "band_high": 100}, "destination": {"min": 0, "max": 5, "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "parts": {"resistor_series": "E96"}}"#,
+            json: r#"{"source": {"min": 1, "max": 2, "band_high": 100}, "destination": {"min": 0, "max": 5,
+                "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "parts": {"resistor_series": "E96"}}"#,
         },
         // m < 0, b > 0: 0–1 V into 4.5–0.5 V (m = −4, b = +4.5 V).
         SignCase {
             name: "m<0 b>0",
             template: Template::InvertingPlus,
-            json: r#"{"source": {"min": 0, "max": 1, "band_high": 100}, "destination": {"min": 0, "max": 5, "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "keep_polarity": false, "parts": {"resistor_series": "E96"}}"#,
+            json: r#"{"source": {"min": 0, "max": 1, "band_high": 100}, "destination": {"min": 0, "max": 5,
+                "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "keep_polarity": false,
+                "parts": {"resistor_series": "E96"}}"#,
         },
         // m < 0, b < 0: −2…−1 V into 4.5–0.5 V (m = −4, b = −3.5 V).
         SignCase {
             name: "m<0 b<0",
             template: Template::InvertingSum,
-            json: r#"{"source": {"min": -2, "max": -1, "band_high": 100}, "destination": {"min": 0, "max": 5, "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "keep_polarity": false, "parts": {"resistor_series": "E96"}}"#,
+            json: r#"{"source": {"min": -2, "max": -1, "band_high": 100}, "destination": {"min": 0, "max": 5,
+                "sample_rate": 1000, "headroom": 0.1}, "supplies": [5], "keep_polarity": false,
+                "parts": {"resistor_series": "E96"}}"#,
         },
     ];
     for case in &cases {
@@ -420,7 +427,8 @@ fn four_sign_cases_of_gain_and_offset() {
 fn predicted_matches_closed_form_from_part_values() {
     let req = request(
         r#"{"name": "river gauge", "source": {"min": -1, "max": 1, "impedance": 0, "band_high": 10},
-            "destination": {"min": 0, "max": 3.3, "sample_rate": 100}, "supplies": [3.3], "parts": {"resistor_series": "E24"}}"#,
+            "destination": {"min": 0, "max": 3.3, "sample_rate": 100}, "supplies": [3.3],
+            "parts": {"resistor_series": "E24"}}"#,
     );
     let d = design(&req);
     let c = d.circuit.as_ref().expect("circuit");

@@ -37,7 +37,8 @@ const SOIL_PROBE: &str = r#"{"name": "Greenhouse soil-moisture probe",
 
 /// An AC-coupled conveyor-bearing vibration pickup riding on 2 V.
 const BEARING: &str = r#"{"name": "Conveyor-bearing vibration pickup",
-  "source": {"min": "1.9 V", "max": "2.1 V", "coupling": "ac", "impedance": "2k", "band_low": "10 Hz", "band_high": "2 kHz"},
+  "source": {"min": "1.9 V", "max": "2.1 V", "coupling": "ac", "impedance": "2k", "band_low": "10 Hz",
+  "band_high": "2 kHz"},
   "destination": {"min": 0, "max": "3.3 V", "bits": 12, "sample_rate": "10 kHz", "impedance": "20k"},
   "supplies": [5]}"#;
 
@@ -523,8 +524,8 @@ fn plain_stage(rf: f64, rg: f64, tol_f: f64, tol_g: f64, offset: f64) -> Circuit
 #[test]
 fn worst_case_gain_of_plain_stage_matches_hand_bound() {
     // Source: the non-inverting gain formula G = 1 + Rf/Rg; its extremes over ±t are
-    // 1 + Rf(1∓t)/(Rg(1±t)), reduced by the finite loop gain as G/(1 + G/A). An input offset Vos reaches the output as G·Vos (the offset
-    // sits in series with the + input), so the intercept spans ±G_max·Vos.
+    // 1 + Rf(1∓t)/(Rg(1±t)), reduced by the finite loop gain as G/(1 + G/A). An input offset Vos
+    // reaches the output as G·Vos (the offset sits in series with the + input), so the intercept spans ±G_max·Vos.
     let req = request(TIDE_GAUGE, "");
     let mut checks = Vec::new();
     for (rf, rg, t, vos) in

@@ -396,6 +396,13 @@ impl System {
         for &k in &self.touched {
             a[k] = self.base[k];
         }
+        self.add_perturbations(g, a, u, w);
+    }
+
+    /// The right-hand sides from the base, and each perturbed conductance `g[param]` added at
+    /// its flat stamp positions of `a` and each source `g[param]` into `w`.
+    #[inline(always)]
+    fn add_perturbations(&self, g: &[f64], a: &mut [f64], u: &mut [f64], w: &mut [f64]) {
         u.copy_from_slice(&self.base_u);
         w.copy_from_slice(&self.base_w);
         for &(k, e, sign) in &self.mat {
@@ -415,18 +422,7 @@ impl System {
     #[inline(always)]
     fn assemble(&self, g: &[f64], a: &mut [f64], u: &mut [f64], w: &mut [f64]) {
         a.copy_from_slice(&self.base);
-        u.copy_from_slice(&self.base_u);
-        w.copy_from_slice(&self.base_w);
-        for &(k, e, sign) in &self.mat {
-            a[k] += sign * g[e];
-        }
-        for &(r, e, cu, cw) in &self.rhs {
-            u[r] += cu * g[e];
-            w[r] += cw * g[e];
-        }
-        for s in &self.srcs {
-            w[s.row] += s.coef * g[s.param];
-        }
+        self.add_perturbations(g, a, u, w);
     }
 }
 

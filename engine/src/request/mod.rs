@@ -26,7 +26,7 @@ pub use destination::{
     DEFAULT_DESTINATION_IMPEDANCE, DEFAULT_HEADROOM, DEFAULT_INJECTION_LIMIT, DEFAULT_INPUT_CAPACITANCE,
     DEFAULT_MAX_ORDER, DEFAULT_PASSBAND_ERROR_DB, ORDER_LIMIT, STEEP_PASSBAND_ERROR_DB,
 };
-pub use parts::{AmplifierSpec, AnalysisOptions, Parts};
+pub use parts::{AmplifierSpec, AnalysisOptions, Parts, AMPLIFIER_FIGURES};
 pub use source::{
     BridgeSpec, Coupling, FrontEnd, LoopSpec, Measurand, Source, SourceKind, DEFAULT_BAND_FRACTION_OF_FS,
     DEFAULT_BURDEN_MAX, DEFAULT_ZERO_BALANCE, NAMUR_FAULT_HIGH, NAMUR_FAULT_LOW,

@@ -9,6 +9,25 @@ use super::RequestError;
 use crate::units::Quantity;
 use crate::values::Series;
 
+/// The figures an amplifier may be given by (the keys of `amplifier`), in the order they are
+/// read, listed once for the reader, the page's inputs and the report.
+pub const AMPLIFIER_FIGURES: [&str; 14] = [
+    "gbw",
+    "slew_rate",
+    "swing_low",
+    "swing_high",
+    "cm_low",
+    "cm_high",
+    "supply_min",
+    "supply_max",
+    "offset",
+    "bias_current",
+    "noise_voltage",
+    "noise_current",
+    "noise_corner",
+    "open_loop_gain",
+];
+
 /// The parts at hand.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Parts {
@@ -174,22 +193,7 @@ pub(super) fn read_amplifier(v: &Value) -> Result<AmplifierSpec, RequestError> {
     // Negative offsets and bias currents describe the same spread as positive ones.
     a.offset = a.offset.map(f64::abs);
     a.bias_current = a.bias_current.map(f64::abs);
-    o.finish(&[
-        "gbw",
-        "slew_rate",
-        "swing_low",
-        "swing_high",
-        "cm_low",
-        "cm_high",
-        "supply_min",
-        "supply_max",
-        "offset",
-        "bias_current",
-        "noise_voltage",
-        "noise_current",
-        "noise_corner",
-        "open_loop_gain",
-    ])?;
+    o.finish(&AMPLIFIER_FIGURES)?;
     Ok(a)
 }
 

@@ -20,7 +20,7 @@
 use super::round::{anchors, optimise_all, pairs, RoundConfig};
 use super::{Limits, Synthesis, Target};
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Builder, PartKind, PartRole, Stage, StageKind, StageRole};
+use crate::circuit::{Builder, Divider, PartKind, PartRole, Stage, StageKind, StageRole};
 use crate::request::Request;
 use crate::units::{format, Quantity};
 use crate::values;
@@ -71,8 +71,7 @@ fn variant(
     if has_divider && !(k > 0.0 && k < 1.0) {
         return None;
     }
-    let cfg =
-        RoundConfig { series: req.parts.resistor_series, min: req.parts.resistor_min, max: req.parts.resistor_max };
+    let cfg = RoundConfig::of(&req.parts);
     // Vector layout: Rb, [Ra], [Rt, Rbt], [Rg, Rf].
     let unpack = |v: &[f64]| {
         let mut i = 0;
@@ -198,32 +197,16 @@ fn variant(
     ));
     let mut reference = Vec::new();
     if has_divider {
-        reference.push(bld.add(
-            PartKind::Resistor,
-            rt,
-            rtol,
-            &[ref_node, "ref"],
-            (StageRole::Reference, PartRole::DividerTop),
-            "reference divider, upper leg",
-        ));
-        reference.push(bld.add(
-            PartKind::Resistor,
-            rbt,
-            rtol,
-            &["ref", "0"],
-            (StageRole::Reference, PartRole::DividerBottom),
-            "reference divider, lower leg",
-        ));
-        if let Some(c) = cb {
-            reference.push(bld.add(
-                PartKind::Capacitor,
-                c,
-                ctol,
-                &["ref", "0"],
-                (StageRole::Reference, PartRole::Bypass),
-                "reference bypass: keeps supply noise and signal current off the reference",
-            ));
-        }
+        let divider = Divider {
+            from: ref_node,
+            tap: "ref",
+            top: rt,
+            bottom: rbt,
+            bypass: cb.map(|c| (c, "reference bypass: keeps supply noise and signal current off the reference")),
+            stage: StageRole::Reference,
+            what: "reference divider",
+        };
+        reference.extend(bld.divider(&divider, rtol, ctol));
     }
     let inn = if follower { "adc" } else { "inn1" };
     let mut gain = Vec::new();

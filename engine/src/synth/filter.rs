@@ -43,7 +43,6 @@ use serde::Serialize;
 
 use crate::figures::Block;
 use crate::request::{FilterTopology, Request, ResponseKind};
-use crate::synth::round::RoundConfig;
 use crate::units::{format, Quantity};
 use prototype::{cascade_loss_db, prototype, Pair, Prototype};
 use sections::{realise, PartsConfig, Realised, SectionKind};
@@ -177,14 +176,7 @@ pub fn design(req: &Request) -> Result<FilterDesign, NoFilter> {
         None => (1..=spec.max_order.max(1)).collect(),
     };
     let last = *orders.last().unwrap_or(&1);
-    let cfg = PartsConfig {
-        resistors: RoundConfig {
-            series: req.parts.resistor_series,
-            min: req.parts.resistor_min,
-            max: req.parts.resistor_max,
-        },
-        capacitors: req.parts.capacitor_series,
-    };
+    let cfg = PartsConfig::of(&req.parts);
     let mut fallback = None;
     for n in orders {
         let Some(proto) = prototype(spec.response, n) else { continue };
@@ -230,14 +222,7 @@ impl FilterDesign {
             return None;
         }
         let proto = prototype(self.response, self.order)?;
-        let cfg = PartsConfig {
-            resistors: RoundConfig {
-                series: req.parts.resistor_series,
-                min: req.parts.resistor_min,
-                max: req.parts.resistor_max,
-            },
-            capacitors: req.parts.capacitor_series,
-        };
+        let cfg = PartsConfig::of(&req.parts);
         let d = build(
             req,
             &proto,

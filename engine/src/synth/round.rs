@@ -28,6 +28,13 @@ pub struct RoundConfig {
     pub max: f64,
 }
 
+impl RoundConfig {
+    /// The resistor series and window the request allows.
+    pub fn of(parts: &crate::request::Parts) -> RoundConfig {
+        RoundConfig { series: parts.resistor_series, min: parts.resistor_min, max: parts.resistor_max }
+    }
+}
+
 /// Starts that go on to the descent.
 const DESCENT_STARTS: usize = 4;
 /// Passes of the descent at most.

@@ -76,11 +76,7 @@ pub fn synthesize_with(
         rails,
         limits,
         rs: req.source.impedance,
-        cfg: RoundConfig {
-            series: req.parts.resistor_series,
-            min: req.parts.resistor_min,
-            max: req.parts.resistor_max,
-        },
+        cfg: RoundConfig::of(&req.parts),
         span: req.destination.max - req.destination.min,
     };
     let inv = Target {

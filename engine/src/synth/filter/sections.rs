@@ -93,6 +93,13 @@ pub struct PartsConfig {
     pub capacitors: Series,
 }
 
+impl PartsConfig {
+    /// The series and windows the request allows.
+    pub fn of(parts: &crate::request::Parts) -> PartsConfig {
+        PartsConfig { resistors: RoundConfig::of(parts), capacitors: parts.capacitor_series }
+    }
+}
+
 /// f_n and Q of `kind` built from `values` (ideal amplifier). First order: Q = 0.
 pub fn response_of(kind: SectionKind, values: &[f64]) -> (f64, f64) {
     match (kind, values) {

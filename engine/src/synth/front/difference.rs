@@ -19,7 +19,7 @@
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Builder, Circuit, PartKind, PartRole, Side, Stage, StageKind, StageRole, GND};
+use crate::circuit::{Builder, Circuit, Divider, PartKind, PartRole, Side, Stage, StageKind, StageRole, GND};
 use crate::diag::Check;
 use crate::figures::Block;
 use crate::request::Request;
@@ -169,30 +169,16 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
         let (top, bottom) = values::best_divider(series, ratio, Some(50e3), window)
             .map_or((100e3, 100e3 * ratio / (1.0 - ratio)), |d| (d.top, d.bottom));
         v_ref = rail * bottom / (top + bottom);
-        ref_parts.push(bld.add(
-            PartKind::Resistor,
+        let divider = Divider {
+            from: rail_node,
+            tap: "dref",
             top,
-            tol,
-            &[rail_node, "dref"],
-            (StageRole::Reference, PartRole::DividerTop),
-            "reference divider, upper leg",
-        ));
-        ref_parts.push(bld.add(
-            PartKind::Resistor,
             bottom,
-            tol,
-            &["dref", GND],
-            (StageRole::Reference, PartRole::DividerBottom),
-            "reference divider, lower leg",
-        ));
-        ref_parts.push(bld.add(
-            PartKind::Capacitor,
-            100e-9,
-            Some(req.parts.capacitor_tolerance),
-            &["dref", GND],
-            (StageRole::Reference, PartRole::Bypass),
-            "reference bypass",
-        ));
+            bypass: Some((100e-9, "reference bypass")),
+            stage: StageRole::Reference,
+            what: "reference divider",
+        };
+        ref_parts.extend(bld.divider(&divider, tol, Some(req.parts.capacitor_tolerance)));
         equations.push(format!(
             "V_ref = {} from a divider on {}, buffered so the pin sees no resistance",
             format(v_ref, Quantity::Voltage),

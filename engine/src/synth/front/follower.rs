@@ -26,7 +26,7 @@
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Circuit, PartKind, PartRole, Stage, StageKind, StageRole, GND};
+use crate::circuit::{Circuit, Divider, PartKind, PartRole, Stage, StageKind, StageRole, GND};
 use crate::diag::Check;
 use crate::figures::Block;
 use crate::request::{Coupling, Request, SourceKind};
@@ -150,30 +150,16 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
     }
     {
         if ret != GND {
-            parts.push(bld.add(
-                PartKind::Resistor,
-                REF_LEG,
-                rtol,
-                &["vpos", "bref"],
-                (StageRole::Buffer, PartRole::DividerTop),
-                "sensor return reference divider, upper leg",
-            ));
-            parts.push(bld.add(
-                PartKind::Resistor,
-                REF_LEG,
-                rtol,
-                &["bref", GND],
-                (StageRole::Buffer, PartRole::DividerBottom),
-                "sensor return reference divider, lower leg",
-            ));
-            parts.push(bld.add(
-                PartKind::Capacitor,
-                REF_BYPASS,
-                Some(req.parts.capacitor_tolerance),
-                &["bref", GND],
-                (StageRole::Buffer, PartRole::Bypass),
-                "sensor return reference bypass",
-            ));
+            let divider = Divider {
+                from: "vpos",
+                tap: "bref",
+                top: REF_LEG,
+                bottom: REF_LEG,
+                bypass: Some((REF_BYPASS, "sensor return reference bypass")),
+                stage: StageRole::Buffer,
+                what: "sensor return reference divider",
+            };
+            parts.extend(bld.divider(&divider, rtol, Some(req.parts.capacitor_tolerance)));
         }
     }
     let mid = 0.5 * (s.min + s.max);

@@ -25,7 +25,7 @@ use std::f64::consts::PI;
 use serde::Serialize;
 
 use crate::amplifier::{Amplifier, Rails};
-use crate::circuit::{Circuit, PartKind, PartRole, Stage, StageKind, StageRole, GND};
+use crate::circuit::{Circuit, Divider, PartKind, PartRole, Stage, StageKind, StageRole, GND};
 use crate::diag::Check;
 use crate::figures::Block;
 use crate::request::{Request, SourceKind};
@@ -171,30 +171,16 @@ pub fn insert(circuit: &mut Circuit, req: &Request, t: &TiaDesign, rails: Rails)
         let ratio = t.bias / rails.pos;
         let top = BIAS_LEG;
         let bottom = values::nearest(req.parts.resistor_series, top * ratio / (1.0 - ratio)).unwrap_or(top);
-        parts.push(bld.add(
-            PartKind::Resistor,
+        let divider = Divider {
+            from: "vpos",
+            tap: "pdb",
             top,
-            rtol,
-            &["vpos", "pdb"],
-            (StageRole::Transimpedance, PartRole::DividerTop),
-            "bias divider, upper leg",
-        ));
-        parts.push(bld.add(
-            PartKind::Resistor,
             bottom,
-            rtol,
-            &["pdb", GND],
-            (StageRole::Transimpedance, PartRole::DividerBottom),
-            "bias divider, lower leg",
-        ));
-        parts.push(bld.add(
-            PartKind::Capacitor,
-            BIAS_BYPASS,
-            Some(req.parts.capacitor_tolerance),
-            &["pdb", GND],
-            (StageRole::Transimpedance, PartRole::Bypass),
-            "bias bypass",
-        ));
+            bypass: Some((BIAS_BYPASS, "bias bypass")),
+            stage: StageRole::Transimpedance,
+            what: "bias divider",
+        };
+        parts.extend(bld.divider(&divider, rtol, Some(req.parts.capacitor_tolerance)));
     }
     let mid = 0.5 * (s.min + s.max);
     bld.bench(
