@@ -218,7 +218,14 @@ fn resistor_row(p: &Part, s: &Stress) -> BomRow {
         } else {
             format!("≥ {} (use a power resistor)", format(RATING_MARGIN * power, Quantity::Power))
         },
-        construction: "thin-film or metal-film".to_string(),
+        construction: if p.value > values::STANDARD_RESISTOR_MAX * (1.0 + 1e-9) {
+            format!(
+                "special high-value part (glass or ceramic body): beyond the {} of ordinary series parts",
+                format(values::STANDARD_RESISTOR_MAX, Quantity::Resistance)
+            )
+        } else {
+            "thin-film or metal-film".to_string()
+        },
         stress: power,
         notes: String::new(),
     }

@@ -41,6 +41,13 @@
 
 use std::sync::OnceLock;
 
+/// The largest resistor of an ordinary series part, Ω: standard thick-film chip ranges end
+/// at 10 MΩ (common practice). Above it a part is special and the part list says so.
+pub const STANDARD_RESISTOR_MAX: f64 = 10e6;
+/// The largest special high-value resistor that can be bought, Ω: parts in glass or
+/// ceramic bodies reach about 1 TΩ (from memory).
+pub const SPECIAL_RESISTOR_MAX: f64 = 1e12;
+
 /// An IEC 60063 preferred-number series.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
 pub enum Series {

@@ -209,3 +209,80 @@ fn clipped_builds_are_failures_and_the_rail_is_in_the_worst_case() {
     }
     check(&rows);
 }
+
+/// A harbour wall's piezo strain film: 1 GΩ of leakage behind 1 nF, ±`peak` into a 12-bit
+/// converter on one 3.3 V rail.
+fn harbour_film(peak: f64) -> Request {
+    request(&json!({
+        "version": 1, "name": "Harbour wall piezo strain film",
+        "source": {"kind": "high_impedance", "min": -peak, "max": peak, "coupling": "ac", "impedance": "1G",
+                   "capacitance": "1 nF", "band_low": "1 Hz", "band_high": "1 kHz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "10 kHz"},
+        "supplies": [3.3]
+    }))
+}
+
+/// The netlist with the sensor's EMF as a `peak` sine at 100 Hz (its return as exported, or
+/// ground when `grounded`), and the transient's extremes of the follower's output and the
+/// converter pin over five periods after the operating point.
+fn film_extremes(tag: &str, netlist: &str, peak: f64, grounded: bool) -> [f64; 4] {
+    let vsense = netlist.lines().find(|l| l.starts_with("VSENSE ")).expect("VSENSE in the netlist");
+    let nodes: Vec<&str> = vsense.split_whitespace().skip(1).take(2).collect();
+    let ret = if grounded { "0" } else { nodes[1] };
+    let mut lines: Vec<String> = netlist.lines().map(str::to_string).collect();
+    for l in lines.iter_mut().filter(|l| l.starts_with("VSENSE ")) {
+        *l = format!("VSENSE {} {ret} DC 0 SIN(0 {peak} 100)", nodes[0]);
+    }
+    let control = "tran 20u 60m\n\
+        meas tran bufmax MAX v(buf) from=10m to=60m\nmeas tran bufmin MIN v(buf) from=10m to=60m\n\
+        meas tran adcmax MAX v(adc) from=10m to=60m\nmeas tran adcmin MIN v(adc) from=10m to=60m";
+    let v = spice::printed(tag, &lines.join("\n"), control);
+    let get = |n: &str| v.iter().find(|x| x.0 == n).unwrap_or_else(|| panic!("[{tag}] no {n} in {v:?}")).1;
+    [get("bufmax"), get("bufmin"), get("adcmax"), get("adcmin")]
+}
+
+/// High-impedance sensors that are biased: on one supply a floating film returns to the
+/// reference its bias resistor holds, so its own leakage cannot pull the follower's input to
+/// ground. In ngspice the old wiring (sensor returned to ground, R_b to mid-rail) rests the
+/// follower near ground and loses the negative half; the design as built passes the whole
+/// sine to the converter as predicted. A film whose swing the follower cannot reach is an
+/// error (`follower_range`), and ngspice shows it clipped.
+#[test]
+fn a_floating_sensor_rests_on_its_return_and_the_follower_passes_it() {
+    const TRAN: &str = "ngspice transient of the exported netlist, sensor EMF a 100 Hz sine (tests/REFERENCES.md)";
+    let mut rows = Vec::new();
+    let d = design(&harbour_film(0.5));
+    rows.push(fact(format!("±0.5 V film: no error checks ({:?})", errors(&d)), errors(&d).is_empty(), "engine"));
+    let b = d.high_impedance().expect("a follower");
+    rows.push(row("±0.5 V film: the input rests on the return (V)", b.input_level, 1.65, 1e-6, "half of 3.3 V"));
+    let p = d.predicted.expect("predicted");
+    let net = exported(&d);
+    let [bmax, bmin, amax, amin] = film_extremes("film built", &net, 0.5, false);
+    // 100 Hz is 570 times the low corner (0.175 Hz) and far below the filter: full swing.
+    rows.push(row("built: follower peak (V)", bmax, 1.65 + 0.5, 0.01, TRAN));
+    rows.push(row("built: follower trough (V)", bmin, 1.65 - 0.5, 0.01, TRAN));
+    let span = 3.3;
+    let (lo, hi) = (p.output_at_min.min(p.output_at_max), p.output_at_min.max(p.output_at_max));
+    rows.push(row("built: converter pin peak (V)", amax, hi, 0.01 * span, TRAN));
+    rows.push(row("built: converter pin trough (V)", amin, lo, 0.01 * span, TRAN));
+    // The old wiring: the film's return at ground; R_b (10 × the leakage) to mid-rail.
+    let [gmax, gmin, ..] = film_extremes("film grounded", &net, 0.5, true);
+    println!("film built: buf {bmin:.4} … {bmax:.4} V, adc {amin:.4} … {amax:.4} V (predicted {lo:.4} … {hi:.4} V)");
+    println!("film returned to ground: buf {gmin:.4} … {gmax:.4} V");
+    rows.push(fact(
+        format!("returned to ground: the follower's trough {gmin:.3} V sits at its swing limit, not at rest − 0.5 V"),
+        gmin < 0.06 && gmax - gmin < 0.8,
+        TRAN,
+    ));
+    // ±2 V cannot ride on 1.65 V inside 0.06 … 3.08 V: an error, and ngspice clips it.
+    let wide = design(&harbour_film(2.0));
+    let flagged = wide.checks.iter().any(|c| c.id == "follower_range" && c.severity == Severity::Error);
+    rows.push(fact("±2 V film: follower_range is an error", flagged, "engine"));
+    if let Some(c) = wide.circuit.as_ref() {
+        let net = netlist(&wide.request, c, NetlistConfig { testbench: false });
+        let [wmax, wmin, ..] = film_extremes("film wide", &net, 2.0, false);
+        println!("±2 V film: buf {wmin:.4} … {wmax:.4} V");
+        rows.push(at_most("±2 V film: follower swing clipped below 4 V peak to peak", wmax - wmin, 3.3, 0.0, TRAN));
+    }
+    check(&rows);
+}

@@ -263,13 +263,27 @@ fn the_buffer_follows_the_rules_and_ngspice() {
     let b = d.high_impedance().expect("buffer design");
     let amp = &d.amplifier;
     rows.push(fact("pH: the follower passes the range on ±2.5 V", b.follows, "design contract"));
-    // On a single 3.3 V rail it cannot: an error check, not a clipped design presented as good.
+    // On a single 3.3 V rail it cannot follow below ground: the electrode floats on a return
+    // lifted to half the rail, and the whole circuit maps as ngspice says.
     let single = design(&request(&PH.replace("[2.5, -2.5]", "[3.3]")));
-    rows.push(fact(
-        "pH on one 3.3 V rail: follower_range error",
-        single.checks.iter().any(|c| c.id == "follower_range" && c.severity == Severity::Error),
-        "the follower's output cannot go below its negative rail (common practice)",
+    let lifted = single.high_impedance().expect("buffer design");
+    rows.push(row(
+        "pH on one 3.3 V rail: return lifted to half the rail (V)",
+        lifted.return_level,
+        1.65,
+        1e-9,
+        "README",
     ));
+    rows.push(fact(
+        "pH on one 3.3 V rail: no follower_range error",
+        !single.checks.iter().any(|c| c.id == "follower_range" && c.severity == Severity::Error),
+        "the follower's output cannot go below its negative rail (common practice), hence the lift",
+    ));
+    let (lo, hi) = (single.request.source.min, single.request.source.max);
+    let lifted_spice = spice_dc("ph-lifted", &single, &[lo, hi]);
+    let p1 = single.predicted.expect("predicted");
+    rows.push(row("pH lifted: output at min (V)", p1.output_at_min, lifted_spice[0], 1e-4 * 3.3, SRC));
+    rows.push(row("pH lifted: output at max (V)", p1.output_at_max, lifted_spice[1], 1e-4 * 3.3, SRC));
     rows.push(row(
         "pH: input corner 1/(2π R_s C_s)",
         b.input_corner.unwrap_or(f64::NAN),
@@ -352,11 +366,12 @@ fn random_electrodes_map_as_predicted() {
             "destination": {{"min": {dmin}, "max": {dmax}, "bits": 12, "sample_rate": 10}}, "supplies": {supplies}}}"#
         );
         let d = design(&request(&json));
-        // Below the follower's reach on a single supply the design says so instead.
-        if d.checks.iter().any(|c| c.id == "follower_range") {
+        // Beyond the follower's reach (on its return, lifted on one supply) the design says so.
+        if d.checks.iter().any(|c| c.id == "follower_range" && c.severity == Severity::Error) {
+            let b = d.high_impedance().expect("buffer design");
             rows.push(fact(
-                format!("electrode {i}: flagged only when it swings below the follower's reach on one supply"),
-                supplies != "[5, -5]" && min < 0.1,
+                format!("electrode {i}: flagged only when its range leaves the follower's reach"),
+                b.input_range.0 < b.reach.0 || b.input_range.1 > b.reach.1,
                 "design contract",
             ));
             continue;

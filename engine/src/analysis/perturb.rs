@@ -235,7 +235,7 @@ impl Kernel {
             back(&a, n, &mut w);
         }
         let value = |c: &Col| match *c {
-            Col::Free(i) => u[i] * source + w[i],
+            Col::Free(i, du, dw) => (u[i] + du) * source + w[i] + dw,
             Col::Known { u, w } => u * source + w,
         };
         Some(self.nodes.iter().map(|(name, c)| (name.clone(), value(c))).collect())
@@ -267,8 +267,13 @@ fn finite_abs(x: f64) -> f64 {
 /// Where a node's voltage lives: an unknown, or known as `u·source + w`.
 #[derive(Debug, Clone, Copy, PartialEq)]
 enum Col {
-    Free(usize),
-    Known { u: f64, w: f64 },
+    /// Unknown `k`, plus a known shift `u·source + w` (a node that a floating source ties to
+    /// another node: both share one unknown, the source's terminal shifted by its value).
+    Free(usize, f64, f64),
+    Known {
+        u: f64,
+        w: f64,
+    },
 }
 
 /// A perturbed conductance: its nominal resistance, its parameter and where it stamps.
@@ -280,7 +285,7 @@ struct Elem {
     mat: [(usize, f64); 4],
     n_mat: usize,
     /// (row, coefficient into `u`, coefficient into `w`), to be multiplied by the conductance.
-    rhs: [(usize, f64, f64); 2],
+    rhs: [(usize, f64, f64); 4],
     n_rhs: usize,
 }
 
@@ -331,12 +336,13 @@ impl System {
     /// Output `(slope, intercept)` of the build whose conductances and sources are in
     /// `ws.g`. Sizes up to 8 run on stack arrays of a size known at compile time.
     fn line(&self, ws: &mut Workspace) -> Option<(f64, f64)> {
-        if let Col::Known { u, w } = self.out {
-            return Some((u, w));
-        }
+        let (du, dw) = match self.out {
+            Col::Known { u, w } => return Some((u, w)),
+            Col::Free(_, du, dw) => (du, dw),
+        };
         let Workspace { a, u, w, g } = ws;
         let g = &g[..];
-        match self.n {
+        let line = match self.n {
             1 => self.line_in(g, &mut [0.0; 1], &mut [0.0; 1], &mut [0.0; 1]),
             2 => self.line_in(g, &mut [0.0; 4], &mut [0.0; 2], &mut [0.0; 2]),
             3 => self.line_in(g, &mut [0.0; 9], &mut [0.0; 3], &mut [0.0; 3]),
@@ -347,7 +353,8 @@ impl System {
             8 => self.line_in(g, &mut [0.0; 64], &mut [0.0; 8], &mut [0.0; 8]),
             n if a.len() >= n * n && u.len() >= n => self.line_in(g, &mut a[..n * n], &mut u[..n], &mut w[..n]),
             _ => None,
-        }
+        };
+        line.map(|(s, i)| (s + du, i + dw))
     }
 
     /// Runs the compiled elimination; falls back to full partial pivoting when a pivot has

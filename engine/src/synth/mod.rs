@@ -85,6 +85,15 @@ pub struct Limits {
     pub in_hi: f64,
 }
 
+/// The rails at the low end of their tolerance (each rail nearer ground): where an
+/// amplifier's reach is smallest.
+pub fn low_rails(req: &Request, rails: Rails) -> Rails {
+    Rails {
+        pos: rails.pos * (1.0 - req.rail_tolerance(rails.pos)),
+        neg: rails.neg * (1.0 - req.rail_tolerance(rails.neg)),
+    }
+}
+
 /// Computes the target mapping. Returns `None` (with an error check) when nothing usable
 /// is left of the converter range.
 pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Check>) -> Option<Target> {
@@ -93,13 +102,9 @@ pub fn target(req: &Request, amp: &Amplifier, rails: Rails, checks: &mut Vec<Che
     let span = d.max - d.min;
     let mut lo = d.min + d.headroom * span;
     let mut hi = d.max - d.headroom * span;
-    // The swing on the rails at the low end of their tolerance (each rail nearer ground),
-    // so that no build of the supply clips the range.
-    let low = Rails {
-        pos: rails.pos * (1.0 - req.rail_tolerance(rails.pos)),
-        neg: rails.neg * (1.0 - req.rail_tolerance(rails.neg)),
-    };
-    let (out_lo, out_hi) = amp.output_limits(low);
+    // The swing on the rails at the low end of their tolerance, so that no build of the
+    // supply clips the range.
+    let (out_lo, out_hi) = amp.output_limits(low_rails(req, rails));
     // Stay a margin inside the stated swing: the output stage stops being linear before it.
     let (out_lo, out_hi) = (out_lo + SWING_MARGIN, out_hi - SWING_MARGIN);
     let fmt = |v: f64| crate::units::format(v, crate::units::Quantity::Voltage);

@@ -47,7 +47,7 @@ impl Ctx<'_> {
         while !pending.is_empty() {
             let before = pending.len();
             let mut rest = Vec::new();
-            for (a, b, u, w, r) in pending {
+            for (a, b, u, w, r) in std::mem::take(&mut pending) {
                 match (known[a], known[b]) {
                     (None, Some((ku, kw))) => known[a] = Some((ku + u, kw + w)),
                     (Some((ku, kw)), None) => known[b] = Some((ku - u, kw - w)),
@@ -55,33 +55,54 @@ impl Ctx<'_> {
                     (None, None) => rest.push((a, b, u, w, r)),
                 }
             }
-            if rest.len() == before {
-                return err(format!("{} is not a source from a node to ground", rest[0].4));
-            }
+            let stalled = rest.len() == before;
             pending = rest;
+            if stalled {
+                break;
+            }
         }
-        // Shorted capacitors join nodes (one across two different known potentials stays open).
+        // Nodes joined into one unknown: V(i) = V(parent[i]) + shift[i] (u·source + w). A
+        // floating source (a sensor on a lifted return) joins its + node to its − node shifted
+        // by its value; shorted capacitors join with no shift (one across two different known
+        // potentials stays open).
         let mut parent: Vec<usize> = (0..names.len()).collect();
-        fn root(parent: &mut [usize], mut i: usize) -> usize {
+        let mut shift: Vec<(f64, f64)> = vec![(0.0, 0.0); names.len()];
+        fn root(parent: &[usize], shift: &[(f64, f64)], mut i: usize) -> (usize, (f64, f64)) {
+            let mut s = (0.0, 0.0);
             while parent[i] != i {
-                parent[i] = parent[parent[i]];
+                s = (s.0 + shift[i].0, s.1 + shift[i].1);
                 i = parent[i];
             }
-            i
+            (i, s)
+        }
+        for (a, b, u, w, r) in pending {
+            let ((ra, sa), (rb, sb)) = (root(&parent, &shift, a), root(&parent, &shift, b));
+            if ra == rb {
+                return err(format!("{r} closes a loop of sources"));
+            }
+            // V(a) − V(b) = (u, w): V(ra) = V(rb) + sb + (u, w) − sa.
+            parent[ra] = rb;
+            shift[ra] = (sb.0 + u - sa.0, sb.1 + w - sa.1);
         }
         // Filter and drive capacitors set corners above the band: open at mid-band.
         for p in c.parts.iter().filter(|p| short && p.kind == PartKind::Capacitor && !open_at_mid_band(p)) {
-            let (ra, rb) = (root(&mut parent, at(&p.nodes[0])), root(&mut parent, at(&p.nodes[1])));
-            match (known[ra], known[rb]) {
+            let ((ra, sa), (rb, sb)) = (root(&parent, &shift, at(&p.nodes[0])), root(&parent, &shift, at(&p.nodes[1])));
+            let pot = |k: Option<(f64, f64)>, s: (f64, f64)| k.map(|k| (k.0 + s.0, k.1 + s.1));
+            match (pot(known[ra], sa), pot(known[rb], sb)) {
                 _ if ra == rb => {}
                 (Some(x), Some(y)) if x != y => {}
-                (ka, kb) => {
+                (_, kb) => {
+                    // V(rb) = V(ra) + sa − sb.
                     parent[rb] = ra;
-                    known[ra] = ka.or(kb);
+                    shift[rb] = (sa.0 - sb.0, sa.1 - sb.1);
+                    if known[ra].is_none() {
+                        known[ra] = kb.map(|k| (k.0 - sa.0, k.1 - sa.1));
+                    }
                 }
             }
         }
-        let roots: Vec<usize> = (0..names.len()).map(|i| root(&mut parent, i)).collect();
+        let joined: Vec<(usize, (f64, f64))> = (0..names.len()).map(|i| root(&parent, &shift, i)).collect();
+        let roots: Vec<usize> = joined.iter().map(|j| j.0).collect();
         let amps: Vec<&Part> = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp).collect();
         let mut amp_out: Vec<Option<usize>> = vec![None; names.len()];
         for (k, p) in amps.iter().enumerate() {
@@ -98,17 +119,20 @@ impl Ctx<'_> {
             m += 1;
         }
         let n = m + amps.len();
-        let raw_col = |i: usize| match (known[roots[i]], amp_out[roots[i]]) {
-            (Some((u, w)), _) => Col::Known { u, w },
-            (None, Some(k)) => Col::Free(m + k),
-            (None, None) => Col::Free(ord[roots[i]]),
+        let raw_col = |i: usize| {
+            let (du, dw) = joined[i].1;
+            match (known[roots[i]], amp_out[roots[i]]) {
+                (Some((u, w)), _) => Col::Known { u: u + du, w: w + dw },
+                (None, Some(k)) => Col::Free(m + k, du, dw),
+                (None, None) => Col::Free(ord[roots[i]], du, dw),
+            }
         };
         let Some(out_node) = names.iter().position(|nm| nm == self.out) else {
             return err(format!("the circuit has no node {}", self.out));
         };
         let top = n.saturating_sub(1);
         let last = match raw_col(out_node) {
-            Col::Free(k) => k,
+            Col::Free(k, ..) => k,
             Col::Known { .. } => top,
         };
         let re = |i: usize| {
@@ -121,7 +145,7 @@ impl Ctx<'_> {
             }
         };
         let col = |i: usize| match raw_col(i) {
-            Col::Free(k) => Col::Free(re(k)),
+            Col::Free(k, du, dw) => Col::Free(re(k), du, dw),
             known => known,
         };
         let row = |i: usize| (ord[roots[i]] != usize::MAX).then(|| re(ord[roots[i]]));
@@ -147,14 +171,18 @@ impl Ctx<'_> {
             if roots[a] == roots[b] {
                 continue;
             }
-            let mut e = Elem { param: 0, r0: p.value, mat: [(0, 0.0); 4], n_mat: 0, rhs: [(0, 0.0, 0.0); 2], n_rhs: 0 };
+            let mut e = Elem { param: 0, r0: p.value, mat: [(0, 0.0); 4], n_mat: 0, rhs: [(0, 0.0, 0.0); 4], n_rhs: 0 };
             for (this, other) in [(a, b), (b, a)] {
                 let Some(r) = row(this) else { continue };
                 for (node, sign) in [(this, 1.0), (other, -1.0)] {
                     match col(node) {
-                        Col::Free(k) => {
+                        Col::Free(k, du, dw) => {
                             e.mat[e.n_mat] = (r * n + k, sign);
                             e.n_mat += 1;
+                            if du != 0.0 || dw != 0.0 {
+                                e.rhs[e.n_rhs] = (r, -sign * du, -sign * dw);
+                                e.n_rhs += 1;
+                            }
                         }
                         Col::Known { u, w } => {
                             e.rhs[e.n_rhs] = (r, -sign * u, -sign * w);
@@ -199,7 +227,11 @@ impl Ctx<'_> {
             let x = re(m + k);
             for (node, g) in [(at(&p.nodes[0]), -model.gm), (at(&p.nodes[1]), model.gm)] {
                 match col(node) {
-                    Col::Free(j) => s.base[x * n + j] += g,
+                    Col::Free(j, du, dw) => {
+                        s.base[x * n + j] += g;
+                        s.base_u[x] -= g * du;
+                        s.base_w[x] -= g * dw;
+                    }
                     Col::Known { u, w } => {
                         s.base_u[x] -= g * u;
                         s.base_w[x] -= g * w;

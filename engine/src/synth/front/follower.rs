@@ -11,12 +11,24 @@
 //! band_high. AC coupling (piezo film, electret capsule): the EMF behind `CSENSE` (the
 //! capacitance the signal sits behind) with `RSENSE` across it (leakage).
 //!
-//! **Bias path** (AC coupling): the follower's + input needs a DC path; a resistor R_b to a
-//! reference (ground with split rails, otherwise half the positive rail from a divider with
-//! a bypass capacitor) gives it, and with C_s sets the low corner
-//! f_L = 1/(2π·(R_b ∥ R_s)·C_s). R_b is the smallest series value that puts f_L at or below
-//! band_low / 10, the rule the coupling capacitors follow. It may lie far above the
-//! resistor window (gigaohms are common here).
+//! **Return level.** With split rails the sensor returns to ground. On one supply an
+//! AC-coupled sensor, and a DC-coupled one whose range the follower cannot reach above
+//! ground, returns to a reference at half the positive rail (`bref`, a divider with a
+//! bypass capacitor): the sensor floats on it, so its own leakage cannot pull the input away
+//! from the level the bias resistor sets (a bias resistor to mid-rail against a leakage to
+//! ground would lose: 1 TΩ against 1 GΩ rests the input at a thousandth of the reference).
+//!
+//! **Bias path** (AC coupling): the follower's + input needs a DC path; a resistor R_b to
+//! the return level gives it, and with C_s sets the low corner f_L = 1/(2π·(R_b ∥ R_s)·C_s).
+//! R_b is the smallest series value that puts f_L at or below band_low / 10, the rule the
+//! coupling capacitors follow; when the leakage alone sets a higher corner, R_b is ten times
+//! the leakage (more buys nothing). It may lie far above the resistor window: above
+//! [`STANDARD_RESISTOR_MAX`] it is a special high-value part (a warning, and flagged in the
+//! part list), above [`SPECIAL_RESISTOR_MAX`] it cannot be bought (an error).
+//!
+//! **Range.** For both couplings the follower's input and output must hold the sensor's
+//! range around its rest level on the rails at the low end of their tolerance, inside the
+//! amplifier's input range and output swing less the synthesis margin (`follower_range`).
 //!
 //! **Bias current.** The follower's input bias current flows through the source (DC) or
 //! through R_b (AC): an offset of I_b·R at the input, checked against the span and one
@@ -31,7 +43,7 @@ use crate::diag::Check;
 use crate::figures::Block;
 use crate::request::{Coupling, Request, SourceKind};
 use crate::units::{format, Quantity};
-use crate::values;
+use crate::values::{self, SPECIAL_RESISTOR_MAX, STANDARD_RESISTOR_MAX};
 
 /// Each leg of the reference divider for the bias resistor (single supply), Ω.
 pub const REF_LEG: f64 = 100e3;
@@ -46,9 +58,14 @@ pub struct BufferDesign {
     /// The DC level R_b holds the input at (AC coupling), V: ground with split rails, half
     /// the positive rail from a divider otherwise.
     pub return_level: f64,
-    /// DC coupling: whether the follower can pass the sensor's range on these rails (on a
-    /// single supply it cannot follow a sensor that swings below its reach).
+    /// Whether the follower passes the sensor's range around its rest level on the rails at
+    /// the low end of their tolerance (input range and output swing).
     pub follows: bool,
+    /// The follower's lowest and highest input over the sensor's range, V.
+    pub input_range: (f64, f64),
+    /// What the follower can take and drive there, V (the tighter of input range and swing,
+    /// less the synthesis margin).
+    pub reach: (f64, f64),
     /// The follower's input at the middle of the sensor's range, V.
     pub input_level: f64,
     /// AC coupling: the low corner the bias resistor and the sensor's capacitance set, Hz.
@@ -68,40 +85,55 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<BufferDesign
     }
     let cs = s.capacitance.unwrap_or(0.0);
     let r_s = s.impedance;
+    let mid = 0.5 * (s.min + s.max);
     let mid_rail = if rails.is_dual() { 0.0 } else { 0.5 * rails.pos };
+    // What the follower can take and drive on the rails at the low end of their tolerance;
+    // a return at mid-rail comes down with the rail.
+    let low = crate::synth::low_rails(req, rails);
+    let (out_lo, out_hi) = amp.output_limits(low);
+    let (in_lo, in_hi) = amp.input_limits(low);
+    let m = crate::synth::SWING_MARGIN;
+    let reach = (out_lo.max(in_lo) + m, out_hi.min(in_hi) - m);
+    let scale = if rails.pos > 0.0 { low.pos / rails.pos } else { 1.0 };
+    let range = |input_level: f64| (input_level + (s.min - mid), input_level + (s.max - mid));
+    let inside = |(lo, hi): (f64, f64), ret: f64| lo + (scale - 1.0) * ret >= reach.0 && hi <= reach.1;
     match s.coupling {
         Coupling::Dc => {
-            // The follower must pass the sensor's range: inside its input range and its
-            // output swing (with the synthesis margin); otherwise the return is lifted.
-            let (out_lo, out_hi) = amp.output_limits(rails);
-            let (in_lo, in_hi) = amp.input_limits(rails);
-            let m = crate::synth::SWING_MARGIN;
-            let fits = s.min >= out_lo.max(in_lo) + m && s.max <= out_hi.min(in_hi) - m;
+            // The sensor against ground if the follower can pass its range there; otherwise,
+            // on one supply, lifted to mid-rail.
+            let grounded = range(mid);
+            let return_level = if inside(grounded, 0.0) || rails.is_dual() { 0.0 } else { mid_rail };
+            let input_range = range(return_level + mid);
             Some(BufferDesign {
                 bias_resistor: None,
-                return_level: 0.0,
-                follows: fits,
-                input_level: 0.5 * (s.min + s.max),
+                return_level,
+                follows: inside(input_range, return_level),
+                input_range,
+                reach,
+                input_level: return_level + mid,
                 low_corner: None,
                 input_corner: (cs > 0.0).then(|| 1.0 / (2.0 * std::f64::consts::PI * r_s * cs)),
                 bias_error: amp.bias_current * r_s,
             })
         }
         Coupling::Ac => {
-            // R_b ∥ R_s must reach `want`: R_b ≥ want·R_s/(R_s − want) (when the leakage
-            // alone is lower than that, the largest series value is the best there is).
+            // R_b ∥ R_s must reach `want`: R_b ≥ want·R_s/(R_s − want); when the leakage alone
+            // sets a higher corner, ten times the leakage (a larger R_b buys nothing).
             let want = 10.0 / (2.0 * std::f64::consts::PI * cs * s.band_low.max(1e-6));
-            let need = if r_s > want { want * r_s / (r_s - want) } else { 1e12 };
-            let r_b = values::step_up(req.parts.resistor_series, need.min(1e12)).unwrap_or(need);
+            let need = if r_s > 1.1 * want { want * r_s / (r_s - want) } else { 10.0 * r_s };
+            let need = need.min(SPECIAL_RESISTOR_MAX);
+            let r_b = values::step_up(req.parts.resistor_series, need).unwrap_or(need);
             let r_par = r_b * r_s / (r_b + r_s);
-            // The leakage ties the input to the sensor's own DC (its return, ground, plus the
-            // EMF's middle): the input sits between that and the bias level.
-            let mid = 0.5 * (s.min + s.max);
-            let input_level = (mid_rail * r_s + mid * r_b) / (r_s + r_b);
+            // The sensor floats on the return level: its leakage carries only the EMF's own
+            // DC (the middle of its range) to the input, divided against R_b.
+            let input_level = mid_rail + mid * r_b / (r_s + r_b);
+            let input_range = range(input_level);
             Some(BufferDesign {
                 bias_resistor: Some(r_b),
                 return_level: mid_rail,
-                follows: true,
+                follows: inside(input_range, mid_rail),
+                input_range,
+                reach,
                 input_level,
                 low_corner: Some(1.0 / (2.0 * std::f64::consts::PI * r_par * cs)),
                 input_corner: None,
@@ -136,7 +168,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
         "follower: takes no current from the sensor and drives the rest",
     )];
     let rtol = Some(req.parts.resistor_tolerance);
-    // The bias reference (AC coupling on a single supply); the sensor's return is ground.
+    // The return reference (one supply, AC coupling or a lifted DC return), else ground.
     let ret = if b.return_level != 0.0 { "bref" } else { GND };
     if let Some(r_b) = b.bias_resistor {
         parts.push(bld.add(
@@ -168,7 +200,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
         "VSENSE",
         PartKind::VoltageSource,
         mid,
-        &["emf", GND],
+        &["emf", ret],
         (StageRole::Sensor, PartRole::Emf),
         "sensor EMF (swept over the source range)",
     );
@@ -193,7 +225,7 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
             "CSENSE",
             PartKind::Capacitor,
             cs,
-            &["sense", GND],
+            &["sense", ret],
             (StageRole::Sensor, PartRole::ShuntCapacitance),
             "sensor and cable capacitance at the input",
         ),
@@ -219,9 +251,10 @@ pub fn equations(req: &Request, b: &BufferDesign) -> Vec<String> {
     let mut e =
         vec!["U1 follows the sensor (unity gain, no resistor in the signal path); the gain stage works on its output"
             .to_string()];
-    if b.bias_resistor.is_some() && b.return_level != 0.0 {
+    if b.return_level != 0.0 {
         e.push(format!(
-            "R_b returns to {} (a divider with a bypass); with the sensor's leakage the input rests at {}",
+            "the sensor{} returns to {} (a divider with a bypass); the input rests at {}",
+            if b.bias_resistor.is_some() { " and R_b" } else { "" },
             format(b.return_level, Quantity::Voltage),
             format(b.input_level, Quantity::Voltage)
         ));
@@ -253,17 +286,57 @@ pub fn checks(req: &Request, b: &BufferDesign, amp: &Amplifier) -> Vec<Check> {
     let lsb = crate::request::lsb_of(span, req.destination.bits);
     let v = |x: f64| format(x, Quantity::Voltage);
     let mut c = Vec::new();
-    if !b.follows {
-        c.push(Check::error(
+    let (lo, hi) = b.input_range;
+    let against = if b.return_level != 0.0 {
+        format!(" on its return at {} (the sensor must float: its return connects only there)", v(b.return_level))
+    } else {
+        String::new()
+    };
+    let range = format!(
+        "The sensor swings {} … {}{against}, so the follower's input and output go {} … {}; on the rails at the low \
+            end of their tolerance it can take and drive {} … {}",
+        v(s.min),
+        v(s.max),
+        v(lo),
+        v(hi),
+        v(b.reach.0),
+        v(b.reach.1)
+    );
+    c.push(if b.follows {
+        Check::ok("follower_range", format!("{range}."))
+    } else {
+        Check::error(
             "follower_range",
             format!(
-                "The sensor swings {} … {}, which the follower cannot reach on these rails (it needs its input and \
-                    output inside the rails' reach). Add a negative rail, or return the sensor to a reference above \
-                    ground (its reference electrode or shield at mid-rail) and describe its range against that.",
-                v(s.min),
-                v(s.max)
+                "{range}: the follower would clip. Use rails on which the amplifier reaches {} … {}, or split \
+                    rails (the sensor then returns to ground).",
+                v(lo),
+                v(hi)
             ),
-        ));
+        )
+    });
+    if let Some(r_b) = b.bias_resistor {
+        let std_max = format(STANDARD_RESISTOR_MAX, Quantity::Resistance);
+        if r_b > SPECIAL_RESISTOR_MAX * (1.0 + 1e-9) {
+            c.push(Check::error(
+                "bias_part",
+                format!(
+                    "The bias resistor would be {}, beyond the {} special high-value parts reach.",
+                    format(r_b, Quantity::Resistance),
+                    format(SPECIAL_RESISTOR_MAX, Quantity::Resistance)
+                ),
+            ));
+        } else if r_b > STANDARD_RESISTOR_MAX * (1.0 + 1e-9) {
+            c.push(Check::warning(
+                "bias_part",
+                format!(
+                    "The bias resistor {} is above the {std_max} that ordinary series parts reach: order a special \
+                        high-value part (glass or ceramic body; flagged in the part list), keep its body and the input \
+                        clean and guarded (surface leakage on a dirty board is of the same order).",
+                    format(r_b, Quantity::Resistance)
+                ),
+            ));
+        }
     }
     let through = if b.bias_resistor.is_some() { "the bias resistor" } else { "the sensor's source resistance" };
     let text = format!(
@@ -320,15 +393,24 @@ pub fn checks(req: &Request, b: &BufferDesign, amp: &Amplifier) -> Vec<Check> {
         });
     }
     if let (Some(r_b), Some(f_l)) = (b.bias_resistor, b.low_corner) {
-        c.push(Check::ok(
-            "low_corner",
-            format!(
-                "The {} bias resistor and the sensor's capacitance set the low corner at {}, a tenth of band_low \
-                or lower.",
-                format(r_b, Quantity::Resistance),
-                format(f_l, Quantity::Frequency)
-            ),
-        ));
+        let text = format!(
+            "The {} bias resistor, the sensor's {} leakage and its capacitance set the low corner at {}",
+            format(r_b, Quantity::Resistance),
+            format(s.impedance, Quantity::Resistance),
+            format(f_l, Quantity::Frequency)
+        );
+        c.push(if f_l <= 0.1 * s.band_low * (1.0 + 1e-6) {
+            Check::ok("low_corner", format!("{text}, a tenth of band_low or lower."))
+        } else {
+            Check::warning(
+                "low_corner",
+                format!(
+                    "{text}, above a tenth of band_low ({}): the sensor's own leakage sets it, and no bias resistor \
+                        can lower it; the response check says what this does to the band's low end.",
+                    format(0.1 * s.band_low, Quantity::Frequency)
+                ),
+            )
+        });
     }
     c
 }
