@@ -10,15 +10,10 @@
 //! * **Capacitor working voltage** (common practice): the smallest standard rating of at least
 //!   twice the largest voltage across the part — class-2 ceramics lose capacitance under DC
 //!   bias and electrolytics last longer well below their rating — and 6.3 V at the least.
-//! * **Capacitor kind** (common practice, EIA-198 dielectric classes): C0G/NP0 ceramic up to
-//!   10 nF (stable, no DC-bias loss); in the signal path above that, film below 10 µF, then
-//!   aluminium electrolytic; off the signal path (reference bypass), X7R ceramic below 10 µF,
-//!   then electrolytic. Capacitors that set a filter corner (stage `filter`) and the charge
-//!   bucket (stage `drive`) must hold their value under voltage and temperature: C0G/NP0
-//!   up to [`C0G_UP_TO`] (the largest made in common sizes), film above, never a class-2
-//!   ceramic. A polarised capacitor's + terminal goes to the node the operating
-//!   point makes more positive; if the DC across it is under 0.1 V or changes sign over the
-//!   signal swing, a non-polarised type is required instead.
+//! * **Capacitor kind**: the technology chosen on the built circuit (`design::capacitors`,
+//!   the rules in `ratings`). A polarised capacitor's + terminal goes to the node the
+//!   operating point makes more positive; if the DC across it is under 0.1 V or changes sign
+//!   over the signal swing, a non-polarised type is required instead.
 //! * **Amplifier** as a list of requirements (never a product name).
 //!
 //! [`to_csv`] writes the rows as CSV per RFC 4180 (CRLF line ends, fields with a comma, quote
@@ -33,18 +28,7 @@ use crate::solve::Solver;
 use crate::units::{format, Quantity};
 use crate::values;
 
-/// Standard resistor power ratings, W (common practice).
-pub const POWER_RATINGS: [f64; 7] = [0.063, 0.1, 0.125, 0.25, 0.5, 1.0, 2.0];
-/// Standard capacitor voltage ratings, V (common practice).
-pub const VOLTAGE_RATINGS: [f64; 12] = [6.3, 10.0, 16.0, 25.0, 35.0, 50.0, 63.0, 100.0, 250.0, 400.0, 630.0, 1000.0];
-/// Capacitors from this value up are aluminium electrolytics (polarised); the schematic
-/// draws them with their + mark (common practice: film and ceramic parts stop being
-/// practical around 10 µF).
-pub const ELECTROLYTIC_FROM: f64 = 10e-6;
-/// Largest C0G/NP0 ceramic listed for a filter or drive capacitor, F (common practice).
-pub const C0G_UP_TO: f64 = 100e-9;
-/// Rating margin: a rating at least this many times the stress.
-pub const RATING_MARGIN: f64 = 2.0;
+use crate::ratings::{self, Dielectric, RATING_MARGIN};
 
 /// One row of the part list.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -203,7 +187,7 @@ fn resistor_row(p: &Part, s: &Stress) -> BomRow {
     let (_, lo, hi) = s.across(p);
     let v = lo.abs().max(hi.abs());
     let power = v * v / p.value;
-    let rating = POWER_RATINGS.iter().copied().find(|&r| r >= RATING_MARGIN * power).unwrap_or(f64::NAN);
+    let rating = ratings::power_rating(power).unwrap_or(f64::NAN);
     let (tolerance, tolerance_code) = tolerance_text(p.tolerance);
     BomRow {
         designators: vec![p.reference.clone()],
@@ -234,28 +218,27 @@ fn resistor_row(p: &Part, s: &Stress) -> BomRow {
 fn capacitor_row(p: &Part, s: &Stress) -> BomRow {
     let (at_op, lo, hi) = s.across(p);
     let v = lo.abs().max(hi.abs());
-    let rating = VOLTAGE_RATINGS.iter().copied().find(|&r| r >= RATING_MARGIN * v).unwrap_or(f64::NAN);
-    let in_signal_path = matches!(p.stage, StageRole::Coupling | StageRole::Gain);
+    let rating = ratings::voltage_rating(v).unwrap_or(f64::NAN);
     let sets_corner = matches!(p.stage, StageRole::Filter | StageRole::Drive);
-    let large = p.value >= ELECTROLYTIC_FROM;
     let one_sign = (lo > 0.1 && hi > 0.1) || (lo < -0.1 && hi < -0.1);
-    let construction = if sets_corner && p.value <= C0G_UP_TO {
-        "C0G/NP0 ceramic (sets a filter corner: no class-2 dielectric)".to_string()
-    } else if sets_corner && !large {
-        "film (polypropylene or polyphenylene sulphide; sets a filter corner)".to_string()
-    } else if p.value <= 10e-9 {
-        "C0G/NP0 ceramic".to_string()
-    } else if !large {
-        if in_signal_path {
-            "film (polyester or polypropylene)".to_string()
-        } else {
-            "X7R ceramic".to_string()
+    let construction = match dielectric_of(p) {
+        Dielectric::C0g if sets_corner => "C0G/NP0 ceramic (sets a filter corner: no class-2 dielectric)".to_string(),
+        Dielectric::C0g => "C0G/NP0 ceramic".to_string(),
+        Dielectric::Film if sets_corner => {
+            "film (polypropylene or polyphenylene sulphide; sets a filter corner)".to_string()
         }
-    } else if one_sign {
-        let plus = if at_op >= 0.0 { &p.nodes[0] } else { &p.nodes[1] };
-        format!("aluminium electrolytic, polarised: + to node {plus}")
-    } else {
-        "non-polarised (bipolar) electrolytic: the DC across it is too small or changes sign".to_string()
+        Dielectric::Film => "film (polyester or polypropylene)".to_string(),
+        Dielectric::Class2 if p.value >= ratings::ELECTROLYTIC_FROM => {
+            "X5R/X7R multilayer ceramic (an electrolytic's leakage would move the rest level here)".to_string()
+        }
+        Dielectric::Class2 => "X7R ceramic".to_string(),
+        Dielectric::Electrolytic if one_sign => {
+            let plus = if at_op >= 0.0 { &p.nodes[0] } else { &p.nodes[1] };
+            format!("aluminium electrolytic, polarised: + to node {plus}")
+        }
+        Dielectric::Electrolytic => {
+            "non-polarised (bipolar) electrolytic: the DC across it is too small or changes sign".to_string()
+        }
     };
     let (tolerance, tolerance_code) = tolerance_text(p.tolerance);
     BomRow {
@@ -283,6 +266,16 @@ fn capacitor_row(p: &Part, s: &Stress) -> BomRow {
     }
 }
 
+/// The technology chosen for `p` on the built circuit, or by its place alone for a circuit
+/// built by hand.
+pub fn dielectric_of(p: &Part) -> Dielectric {
+    p.dielectric.unwrap_or_else(|| {
+        let sets_corner = matches!(p.stage, StageRole::Filter | StageRole::Drive);
+        let in_signal_path = matches!(p.stage, StageRole::Coupling | StageRole::Gain);
+        ratings::dielectric_by_place(p.value, sets_corner, in_signal_path)
+    })
+}
+
 fn diode_row(p: &Part, s: &Stress) -> BomRow {
     let (_, lo, hi) = s.across(p);
     let reverse = (-lo).max(-hi).max(0.0);
@@ -296,10 +289,7 @@ fn diode_row(p: &Part, s: &Stress) -> BomRow {
         tolerance_code: String::new(),
         rating: format!(
             "reverse ≥ {}, ≥ 10 mA",
-            format(
-                VOLTAGE_RATINGS.iter().copied().find(|&r| r >= RATING_MARGIN * reverse).unwrap_or(6.3),
-                Quantity::Voltage
-            )
+            format(ratings::voltage_rating(reverse).unwrap_or(6.3), Quantity::Voltage)
         ),
         construction: "small-signal Schottky, low leakage".to_string(),
         stress: reverse,

@@ -148,6 +148,10 @@ pub struct Part {
     pub purpose: String,
     /// Part of the bench (sensor, supplies, converter load), not something to build.
     pub bench: bool,
+    /// A capacitor's technology, chosen on the built circuit (`design::capacitors`); `None`
+    /// before that and for other parts.
+    #[serde(skip)]
+    pub dielectric: Option<crate::ratings::Dielectric>,
 }
 
 /// One stage of the design with its role in words.
@@ -365,6 +369,7 @@ impl Builder {
             role: at.role,
             purpose: purpose.to_string(),
             bench: false,
+            dielectric: None,
         });
         reference
     }
@@ -385,6 +390,7 @@ impl Builder {
             role: at.role,
             purpose: purpose.to_string(),
             bench: false,
+            dielectric: None,
         });
         designator.to_string()
     }
@@ -404,6 +410,7 @@ impl Builder {
             role: at.role,
             purpose: purpose.to_string(),
             bench: true,
+            dielectric: None,
         });
     }
 }

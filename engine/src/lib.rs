@@ -1,9 +1,9 @@
 //! Rangefit engine: designs the analog interface between a sensor and an ADC input.
 //!
 //! The pipeline reads top-down in the module tree:
-//! [`units`] → [`figures`] → [`values`] → [`diag`] → [`request`] → [`amplifier`] → [`synth`] → [`circuit`] →
-//! [`solve`] → [`predict`] → [`analysis`] → [`design`] (checks and the design result) → [`netlist`],
-//! [`bom`], [`scaling`], [`share`], [`draw`], [`report`] (exports) →
+//! [`units`] → [`figures`] → [`values`] → [`ratings`] → [`diag`] → [`request`] → [`amplifier`] →
+//! [`synth`] → [`circuit`] → [`solve`] → [`predict`] → [`analysis`] → [`design`] (checks and the
+//! design result) → [`netlist`], [`bom`], [`scaling`], [`share`], [`draw`], [`report`] (exports) →
 //! [`cli`] (the `rangefit` command). [`order`] is a shared stable sort the others use.
 //!
 //! The engine knows nothing of browsers, the DOM or storage; it builds for the host and
@@ -23,6 +23,7 @@ pub mod figures;
 pub mod netlist;
 pub mod order;
 pub mod predict;
+pub mod ratings;
 pub mod report;
 pub mod request;
 pub mod scaling;

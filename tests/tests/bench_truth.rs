@@ -7,7 +7,7 @@
 use rangefit_engine::diag::Severity;
 use rangefit_engine::netlist::{netlist, NetlistConfig};
 use rangefit_engine::{design, Design, Request};
-use rangefit_tests::rows::{at_most, check, fact, row, Row};
+use rangefit_tests::rows::{at_most, check, fact, row, row_rel, Row};
 use rangefit_tests::spice;
 use serde_json::{json, Value};
 
@@ -284,5 +284,118 @@ fn a_floating_sensor_rests_on_its_return_and_the_follower_passes_it() {
         println!("±2 V film: buf {wmin:.4} … {wmax:.4} V");
         rows.push(at_most("±2 V film: follower swing clipped below 4 V peak to peak", wmax - wmin, 3.3, 0.0, TRAN));
     }
+    check(&rows);
+}
+
+/// A lock gate's vibration pickup: ±10 mV, AC-coupled from `band_low` to 2 kHz, into a
+/// 12-bit converter on one 3.3 V rail (gain about 150 in one stage).
+fn lock_gate(band_low: &str) -> Request {
+    request(&json!({
+        "version": 1, "name": "Lock-gate vibration pickup",
+        "source": {"kind": "single_ended", "min": -0.01, "max": 0.01, "coupling": "ac", "impedance": "600",
+                   "band_low": band_low, "band_high": "2 kHz"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "20 kHz"},
+        "supplies": [3.3]
+    }))
+}
+
+/// Operating point of `node` with `extra` lines added to the netlist.
+fn op_with(tag: &str, netlist: &str, extra: &str, node: &str) -> f64 {
+    let body = netlist.trim_end().strip_suffix(".end").unwrap_or(netlist).to_string();
+    let v = spice::printed(tag, &format!("{body}\n{extra}\n.end\n"), &format!("op\nprint v({node})"));
+    v.first().map(|x| x.1).unwrap_or_else(|| panic!("[{tag}] no v({node})"))
+}
+
+/// Capacitors that behave: an aluminium electrolytic's leakage (0.01·C·V or 3 µA, from
+/// memory; tests/REFERENCES.md §13) through the gain leg's DC block flows through R_f and
+/// moves the output's rest level. ngspice with that current across the part shows the shift
+/// the engine states; where it is beyond a tenth of the headroom a ceramic takes the part's
+/// place, and where no ceramic is large enough the design is an error — ngspice shows it
+/// pinned at the swing limit. After power-up the converter pin settles within the time the
+/// `settling` check states (ngspice transient from all capacitors discharged).
+#[test]
+fn electrolytic_leakage_and_power_up_settling() {
+    use rangefit_engine::circuit::{PartKind, PartRole, StageRole};
+    use rangefit_engine::ratings::{electrolytic_leakage, Dielectric};
+    const OP: &str = "ngspice operating point of the exported netlist with the leakage as a current source";
+    let mut rows = Vec::new();
+    // 2 Hz: the DC block is 470 µF, beyond the ceramics; its 29.6 µA leakage pins the output.
+    let d = design(&lock_gate("2 Hz"));
+    let flagged = d.checks.iter().any(|c| c.id == "leakage" && c.severity == Severity::Error);
+    rows.push(fact("2 Hz: leakage is an error", flagged, "engine"));
+    let c = d.circuit.as_ref().expect("a circuit");
+    let block = c
+        .parts
+        .iter()
+        .find(|p| p.kind == PartKind::Capacitor && p.stage == StageRole::Gain)
+        .expect("the gain leg's DC block");
+    rows.push(fact(
+        "2 Hz: the DC block stays an electrolytic",
+        block.dielectric == Some(Dielectric::Electrolytic),
+        "engine",
+    ));
+    rows.push(row("2 Hz: electrolytic tolerance", block.tolerance.unwrap_or(0.0), 0.2, 1e-12, "common practice"));
+    let net = exported(&d);
+    let leak = electrolytic_leakage(block.value, 6.3);
+    let line = format!("ILEAK {} {} DC {leak:e}", block.nodes[0], block.nodes[1]);
+    let rest = op_with("leak nominal", &net, "", "adc");
+    let leaky = op_with("leak 2 Hz", &net, &line, "adc");
+    println!(
+        "2 Hz: {} {:.0} µF leaks {:.1} µA: converter pin {rest:.4} V → {leaky:.4} V",
+        block.reference,
+        block.value * 1e6,
+        leak * 1e6
+    );
+    rows.push(fact(
+        format!("2 Hz: with the leakage the pin is pinned near a limit ({leaky:.3} V)"),
+        !(0.1..3.2).contains(&leaky),
+        OP,
+    ));
+    // 20 Hz: 47 µF; as an electrolytic its 3 µA would move the output by 3 µA × R_f.
+    let d = design(&lock_gate("20 Hz"));
+    rows.push(fact(format!("20 Hz: no error checks ({:?})", errors(&d)), errors(&d).is_empty(), "engine"));
+    let c = d.circuit.as_ref().expect("a circuit");
+    let block = c
+        .parts
+        .iter()
+        .find(|p| p.kind == PartKind::Capacitor && p.stage == StageRole::Gain)
+        .expect("the gain leg's DC block");
+    rows.push(fact("20 Hz: the DC block is a ceramic", block.dielectric == Some(Dielectric::Class2), "engine"));
+    let r_f = c
+        .parts
+        .iter()
+        .find(|p| p.stage == StageRole::Gain && p.role == Some(PartRole::FeedbackResistor))
+        .map(|p| p.value)
+        .expect("R_f");
+    let net = exported(&d);
+    let leak = electrolytic_leakage(block.value, 6.3);
+    let line = format!("ILEAK {} {} DC {leak:e}", block.nodes[0], block.nodes[1]);
+    let rest = op_with("leak 20 nominal", &net, "", "out1");
+    let leaky = op_with("leak 20 Hz", &net, &line, "out1");
+    rows.push(row_rel("20 Hz: an electrolytic's shift of the rest level (V)", leaky - rest, leak * r_f, 0.02, 0.0, OP));
+    let stated = d.checks.iter().find(|c| c.id == "leakage").map(|c| c.message.clone()).unwrap_or_default();
+    let shown = rangefit_engine::units::format(leaky - rest, rangefit_engine::units::Quantity::Voltage);
+    println!("20 Hz: rest {rest:.4} V, with 3 µA {leaky:.4} V; engine: {stated}");
+    rows.push(fact(format!("20 Hz: the leakage check states ngspice's shift {shown}"), stated.contains(&shown), OP));
+    // Power-up: all capacitors discharged; the pin's last excursion beyond ½ LSB of its rest.
+    let settle = d.checks.iter().find(|c| c.id == "settling").expect("a settling check");
+    let stated: Vec<&str> = settle.message.split(" level in ").nth(1).unwrap_or("").split(' ').take(2).collect();
+    let engine_t =
+        rangefit_engine::units::parse(&stated.join(" "), rangefit_engine::units::Quantity::Time).unwrap_or(f64::NAN);
+    let half = 0.5 * 3.3 / 4096.0;
+    let final_v = op_with("settle op", &net, "", "adc");
+    let control = format!(
+        "tran {:e} {:e} uic\nmeas tran up WHEN v(adc)={:e} CROSS=LAST\nmeas tran down WHEN v(adc)={:e} CROSS=LAST",
+        engine_t / 2000.0,
+        3.0 * engine_t,
+        final_v + half,
+        final_v - half
+    );
+    let v = spice::printed("settle", &net, &control);
+    let t = v.iter().filter(|x| x.0 == "up" || x.0 == "down").map(|x| x.1).fold(0.0f64, f64::max);
+    println!("20 Hz: power-up settling ngspice {t:.3} s; engine: {}", settle.message);
+    // A clamped output holds the DC block charging through the whole feedback network: the
+    // time is far beyond a few τ at rest, and the engine's quasi-static charge follows it.
+    rows.push(row_rel("20 Hz: power-up settling to ½ LSB (s)", engine_t, t, 0.1, 0.0, "ngspice transient, uic"));
     check(&rows);
 }

@@ -483,7 +483,7 @@ fn polarised_capacitor_plus_faces_the_higher_dc_level() {
     let (req, c, _) =
         designed(&request("polarised coupling", 1.1, 1.3, "ac", (0.1, 1000.0), (0.0, 3.3), "[3.3]", true));
     let c1 = c.part("C1").expect("C1");
-    assert!(c1.value >= rangefit_engine::bom::ELECTROLYTIC_FROM, "C1 is {} F, not polarised", c1.value);
+    assert!(c1.value >= rangefit_engine::ratings::ELECTROLYTIC_FROM, "C1 is {} F, not polarised", c1.value);
     let op = Solver::new(&c).dc(1.2).unwrap();
     let (lo, hi) = (c1.nodes[0].clone(), c1.nodes[1].clone());
     let (lo, hi) = if op.voltage(&lo) < op.voltage(&hi) { (lo, hi) } else { (hi, lo) };

@@ -11,6 +11,7 @@
 //! finite-bandwidth amplifier model — the same model the netlist exports — so it agrees with
 //! a SPICE3 simulation of that netlist.
 
+pub mod capacitors;
 mod checks;
 pub mod requirements;
 
@@ -212,6 +213,7 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
             requirements::widen(&mut req_amp, &n, rails, req.source.band_high);
         }
     }
+    checks.extend(capacitors::choose(&mut s.circuit, req, &capacitors::CapacitorConfig::default()));
     let nominal = Nominal { gain: p.gain, f_low_3db: p.band_low, f_high_3db: p.band_high };
     let (analysis, analysis_checks) = analyse(req, &s.circuit, nominal, cfg);
     checks.extend(analysis_checks);

@@ -38,9 +38,10 @@
 //! points with the signal range there. Every text goes to the first free spot among a few
 //! candidates round its part or net, checked against every text, stroke and symbol placed
 //! so far (see [`super::svg`] for the text size estimate); a label with no free spot goes to
-//! the notes under the drawing. Capacitors of [`SchematicConfig::polarised_from`] and more
-//! (10 µF, the part list's threshold for electrolytics, see [`crate::bom`]) are drawn
-//! polarised, with `+` on the side the operating point makes more positive.
+//! the notes under the drawing. Aluminium electrolytics (the technology the design step chose,
+//! see [`crate::ratings`]; for a circuit built by hand, capacitors of
+//! [`SchematicConfig::polarised_from`] and more) are drawn polarised, with `+` on the side the
+//! operating point makes more positive.
 
 use serde::Serialize;
 
@@ -93,7 +94,7 @@ impl Default for SchematicConfig {
             dc_levels: true,
             font_size: 13.0,
             line_width: 1.8,
-            polarised_from: crate::bom::ELECTROLYTIC_FROM,
+            polarised_from: crate::ratings::ELECTROLYTIC_FROM,
         }
     }
 }

@@ -280,10 +280,8 @@ impl Sheet<'_> {
             lines.push("Blue italic: DC level of each node at the operating point.".to_string());
         }
         if self.polarised {
-            lines.push(format!(
-                "Capacitors of {} and more are drawn polarised, + on the side at the higher DC level.",
-                format(self.cfg.polarised_from, Quantity::Capacitance)
-            ));
+            lines
+                .push("Electrolytic capacitors are drawn polarised, + on the side at the higher DC level.".to_string());
         }
         lines.extend(self.notes.iter().cloned());
         let mut y = y1 + 2.0 * fs;

@@ -42,7 +42,11 @@ impl Sheet<'_> {
                 let (e1, e2) = at(e, 13.0);
                 self.svg.segment(s1, s2, "", pen);
                 self.svg.segment(e1, e2, "", pen);
-                if p.value >= self.cfg.polarised_from {
+                let polarised = match p.dielectric {
+                    Some(d) => d == crate::ratings::Dielectric::Electrolytic,
+                    None => p.value >= self.cfg.polarised_from,
+                };
+                if polarised {
                     self.polarised = true;
                     let v = |n: &str| self.pol.as_ref().and_then(|o| o.voltage(n));
                     let at_a = match (v(na), v(nb)) {
