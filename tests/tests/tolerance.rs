@@ -752,10 +752,11 @@ fn odd_inputs_do_not_panic() {
     let req = request(COLD_STORE, "");
     let (c, _) = designed(&req);
     let none = tolerance(&req, &c, &ToleranceConfig { runs: 0, seed: 0, bins: 0 });
-    // A voltage source between two non-ground nodes is outside the kernel's eliminations.
+    // A voltage source from a node to itself closes a loop of sources: outside the kernel's
+    // eliminations (a source between two other nodes is joined into one unknown).
     let mut odd = c.clone();
     if let Some(v) = odd.parts.iter_mut().find(|p| p.reference == "VPOS") {
-        v.nodes[1] = "sense".to_string();
+        v.nodes = vec!["sense".to_string(), "sense".to_string()];
     }
     let refused = tolerance(&req, &odd, &cfg(100, 1));
     let mut empty = c.clone();
@@ -798,7 +799,7 @@ fn odd_inputs_do_not_panic() {
             refused.worst_case.method.starts_with("not available") as u8 as f64,
             1.0,
             0.0,
-            "kernel refuses floating sources",
+            "kernel refuses a loop of sources",
         ),
         near(
             "circuit without parts: stated as not available",
@@ -808,4 +809,54 @@ fn odd_inputs_do_not_panic() {
             "no output node",
         ),
     ]);
+}
+
+#[test]
+fn spread_budget_of_plain_stage_follows_the_gain_formula() {
+    // Source: the non-inverting gain formula y = (1 + Rf/Rg)·x + G·Vos; to first order a
+    // resistor pair at ±t moves the output at x by ±2·x·(Rf/Rg)·t, an offset by ±G·Vos. The
+    // offset the range allows at an end is (margin − resistor spread)/G, the margin the
+    // distance from G·x to the nearer end of the 0 … 2.5 V converter range inside the
+    // amplifier's swing; the budget's is the smaller over both ends. Tolerance 0.5 % on the
+    // resistor spread: the first-order formula leaves out the t² term (0.25 % at 5 %).
+    let req = request(TIDE_GAUGE, "");
+    let mut rows = Vec::new();
+    for (rf, rg, t, vos) in [(30e3, 1e3, 0.01, 1e-3), (10e3, 2e3, 0.001, 2e-3), (20e3, 1e3, 0.05, 0.2e-3)] {
+        let c = plain_stage(rf, rg, t, t, vos);
+        let b = tolerance(&req, &c, &cfg(0, 1)).budget.expect("a budget");
+        let g = 1.0 + rf / rg;
+        let (x_lo, x_hi) = (req.source.min, req.source.max);
+        let what = format!("Rf {rf} Rg {rg} ±{t} Vos {vos}");
+        let spread = |name: &str| b.contributors.iter().find(|c| c.what == name).map_or(0.0, |c| c.spread);
+        let res_hi = 2.0 * x_hi * (rf / rg) * t;
+        let res_lo = 2.0 * x_lo * (rf / rg) * t;
+        // The worse end is the top (x_hi > x_lo), where the budget states each class.
+        rows.push(near(
+            format!("{what}: resistor spread at the top"),
+            spread("resistor tolerances"),
+            res_hi,
+            5e-3 * res_hi,
+            "first-order sensitivity of the gain formula",
+        ));
+        rows.push(near(
+            format!("{what}: offset spread"),
+            spread("amplifier input offset"),
+            g * vos,
+            1e-6 * g * vos,
+            "output offset = G·Vos",
+        ));
+        let (lim_lo, lim_hi) = c.output_limits();
+        let (lo, hi) = (lim_lo.max(0.0), lim_hi.min(2.5));
+        let margin = (g * x_lo - lo).min(hi - g * x_hi);
+        rows.push(near(format!("{what}: margin"), b.margin, margin, 1e-6, "distance to the converter range"));
+        let allowed = ((g * x_lo - lo - res_lo) / g).min((hi - g * x_hi - res_hi) / g).max(0.0);
+        rows.push(near(
+            format!("{what}: largest offset"),
+            b.offset_max.unwrap_or(f64::NAN),
+            allowed,
+            5e-3 * allowed.max(1e-6),
+            "(margin − resistor spread)/G",
+        ));
+    }
+    check(&rows);
 }

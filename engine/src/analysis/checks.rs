@@ -53,13 +53,13 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
             String::new()
         }
     );
-    let advice = " Tighter resistor tolerances, more headroom or a two-point calibration in firmware raise it.";
+    let advice = yield_advice(req, a.tolerance.budget.as_ref());
     c.push(if mc.runs == 0 {
         Check::ok("yield", "Monte Carlo was switched off (analysis.monte_carlo_runs = 0).")
     } else if mc.yield_ < YIELD_ERROR {
-        Check::error("yield", format!("{msg}{advice}"))
+        Check::error("yield", format!("{msg} {advice}"))
     } else if mc.yield_ < YIELD_WARNING {
-        Check::warning("yield", format!("{msg}{advice}"))
+        Check::warning("yield", format!("{msg} {advice}"))
     } else {
         Check::ok("yield", msg)
     });
@@ -140,4 +140,59 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
         Check::ok("loading", loading_msg)
     });
     c
+}
+
+/// What would raise the yield, from the worst case's budget: the contributors ranked, and a
+/// change for the largest that is not already so.
+fn yield_advice(req: &Request, b: Option<&super::tolerance::budget::Budget>) -> String {
+    let v = |x: f64| format(x, Quantity::Voltage);
+    let Some(b) = b.filter(|b| !b.contributors.is_empty()) else {
+        return "More headroom or a two-point calibration in firmware raises it.".to_string();
+    };
+    let top = &b.contributors[0];
+    let share = format!("{:.0} %", 100.0 * top.share);
+    let fix = match top.what.as_str() {
+        "resistor tolerances" if req.parts.resistor_tolerance > 0.001 + 1e-12 => format!(
+            "0.1 % resistors (now ±{}) cut that part about {:.0}-fold",
+            crate::units::format_percent(req.parts.resistor_tolerance),
+            req.parts.resistor_tolerance / 0.001
+        ),
+        "resistor tolerances" => {
+            "the resistors are already 0.1 %: a two-point calibration in firmware removes their gain and offset \
+             spread"
+                .to_string()
+        }
+        "amplifier input offset" => match b.offset_max {
+            Some(m) if m > 0.0 => format!(
+                "an amplifier with an input offset below {} (now {}) keeps the worst case inside the range",
+                v(m),
+                v(b.offset_stated)
+            ),
+            _ => format!(
+                "an amplifier with far less input offset than {}, or a one-point calibration",
+                v(b.offset_stated)
+            ),
+        },
+        "amplifier bias currents" => match b.bias_current_max {
+            Some(m) if m > 0.0 => format!(
+                "an amplifier with a bias current below {} (now {}) keeps the worst case inside the range",
+                format(m, Quantity::Current),
+                format(b.bias_current_stated, Quantity::Current)
+            ),
+            _ => "lower resistances at the amplifiers' inputs, or an amplifier with less bias current".to_string(),
+        },
+        _ => format!(
+            "a level shift taken from a reference instead of a rail of ±{} (or readings ratiometric to the rail) \
+             removes that part",
+            crate::units::format_percent(req.supplies.iter().map(|&r| req.rail_tolerance(r)).fold(0.0, f64::max))
+        ),
+    };
+    format!(
+        "The worst-case spread at the range's worse end is ±{} against a margin of {} to the converter's limits: {}. \
+         The largest is {} ({share}): {fix}.",
+        v(b.contributors.iter().map(|c| c.spread).sum()),
+        v(b.margin),
+        b.ranking(),
+        top.what
+    )
 }

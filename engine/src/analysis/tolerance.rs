@@ -46,6 +46,7 @@
 //! until none improves it. Where an output reaches an amplifier limit the gain and offset
 //! bounds follow from the limited outputs by interval arithmetic.
 
+pub mod budget;
 mod builds;
 mod summary;
 
@@ -84,6 +85,9 @@ impl From<&AnalysisConfig> for ToleranceConfig {
 pub struct ToleranceAnalysis {
     pub worst_case: WorstCase,
     pub monte_carlo: MonteCarlo,
+    /// Each class's part of the worst-case spread and the amplifier figures that keep it
+    /// inside the converter range; `None` when the circuit could not be analysed.
+    pub budget: Option<budget::Budget>,
 }
 
 /// Extreme values over the tolerance box, each as `[low, high]` (`NaN`, JSON `null`, when
@@ -164,12 +168,22 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
             let cfg = &ToleranceConfig { bins: cfg.bins.min(MAX_BINS), ..cfg.clone() };
             let notes = vec![format!("No builds were drawn: {reason}.")];
             let monte_carlo = summary::monte_carlo(Vec::new(), Vec::new(), [0; 4], 0, req, cfg, notes);
-            return ToleranceAnalysis { worst_case: WorstCase::unknown(&reason), monte_carlo };
+            return ToleranceAnalysis { worst_case: WorstCase::unknown(&reason), monte_carlo, budget: None };
         }
     };
     let cfg = &ToleranceConfig { runs: cfg.runs.min(MAX_RUNS), seed: cfg.seed, bins: cfg.bins.min(MAX_BINS) };
     let mut ws = model.kernel.workspace();
     let (worst_case, effect) = worst_case(&model, &mut ws);
+    let d = &req.destination;
+    let nominal = model.raw(&vec![0.0; effect.len()], &mut ws);
+    // The usable range: the converter's, inside the output amplifier's swing on nominal rails
+    // (a rail moves the output in the budget; how it moves the swing limit itself is left to
+    // the Monte Carlo, which draws both).
+    let mut usable = (d.min, d.max);
+    if let Some((lo, hi)) = model.limits {
+        usable = (usable.0.max(lo), usable.1.min(hi));
+    }
+    let budget = nominal.map(|n| budget::budget(model.kernel.params(), &effect, [n[0], n[1]], usable));
     let span = (req.destination.max - req.destination.min).abs();
     let drawn = significant(&effect, span);
     // The builds run on a kernel in which the parts held nominal (and the capacitors, which
@@ -235,7 +249,7 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
         ));
     }
     let monte_carlo = summary::monte_carlo(builds, clips, counts, cfg.runs, req, cfg, notes);
-    ToleranceAnalysis { worst_case, monte_carlo }
+    ToleranceAnalysis { worst_case, monte_carlo, budget }
 }
 
 /// The compiled circuit with the request's source and the amplifier's limits.

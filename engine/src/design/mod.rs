@@ -217,6 +217,9 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     let nominal = Nominal { gain: p.gain, f_low_3db: p.band_low, f_high_3db: p.band_high };
     let (analysis, analysis_checks) = analyse(req, &s.circuit, nominal, cfg);
     checks.extend(analysis_checks);
+    if let Some(b) = &analysis.tolerance.budget {
+        requirements::from_budget(&mut req_amp, b);
+    }
     let edge_db = analysis.ac.gain_band_high_db - analysis.ac.gain_mid_db;
     if let Some(retry) = leave_room_for_the_chain(req, &s, edge_db) {
         return design_with(&retry, cfg);

@@ -27,6 +27,11 @@ pub struct Requirements {
     pub gbw_min: f64,
     pub slew_rate_min: f64,
     pub noise_gain: f64,
+    /// The largest input offset and bias current that keep the worst case inside the usable
+    /// range (from the tolerance budget), V and A; `None` before the analyses or where they
+    /// move nothing.
+    pub offset_max: Option<f64>,
+    pub bias_current_max: Option<f64>,
     pub summary: Vec<String>,
 }
 
@@ -83,7 +88,36 @@ pub(super) fn requirements(req: &Request, s: &synth::Synthesis, amp: &Amplifier,
         gbw_min,
         slew_rate_min,
         noise_gain: ng,
+        offset_max: None,
+        bias_current_max: None,
         summary,
+    }
+}
+
+/// Adds the input offset and bias current the tolerance budget allows.
+pub(super) fn from_budget(r: &mut Requirements, b: &crate::analysis::tolerance::budget::Budget) {
+    r.offset_max = b.offset_max;
+    r.bias_current_max = b.bias_current_max;
+    let i = |x: f64| crate::units::format(x, crate::units::Quantity::Current);
+    match (b.offset_max, b.bias_current_max) {
+        (Some(o), _) if o <= 0.0 => r.summary.push(format!(
+            "input offset: none is small enough to keep the worst case inside the range — the parts' and rails' \
+             tolerances take the {} margin (see the yield check)",
+            v(b.margin)
+        )),
+        (Some(o), Some(ib)) => r.summary.push(format!(
+            "input offset ≤ {} and bias current ≤ {} keep the worst case inside the range (each with the other at \
+             {} / {}, with the parts' and rails' tolerances)",
+            v(o),
+            i(ib),
+            v(b.offset_stated),
+            i(b.bias_current_stated)
+        )),
+        (Some(o), None) => r.summary.push(format!("input offset ≤ {} keeps the worst case inside the range", v(o))),
+        (None, Some(ib)) => {
+            r.summary.push(format!("input bias current ≤ {} keeps the worst case inside the range", i(ib)))
+        }
+        (None, None) => {}
     }
 }
 
