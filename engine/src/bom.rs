@@ -19,6 +19,9 @@
 //!   ceramic. A polarised capacitor's + terminal goes to the node the operating
 //!   point makes more positive; if the DC across it is under 0.1 V or changes sign over the
 //!   signal swing, a non-polarised type is required instead.
+//! * **Supply decoupling** (stage `decoupling`, by role; values in [`crate::synth::decouple`]):
+//!   X7R ceramic whatever the value (the 10 µF bulk part included: a ceramic, not an
+//!   electrolytic), rated by the working-voltage rule above from the rail across it.
 //! * **Amplifier** as a list of requirements (never a product name).
 //!
 //! [`to_csv`] writes the rows as CSV per RFC 4180 (CRLF line ends, fields with a comma, quote
@@ -26,7 +29,7 @@
 
 use serde::Serialize;
 
-use crate::circuit::{Circuit, Part, PartKind, StageRole};
+use crate::circuit::{is_decoupling, Circuit, Part, PartKind, StageRole};
 use crate::design::Design;
 use crate::request::{Coupling, Request};
 use crate::solve::Solver;
@@ -232,7 +235,9 @@ fn capacitor_row(p: &Part, s: &Stress) -> BomRow {
     let sets_corner = matches!(p.stage, StageRole::Filter | StageRole::Drive);
     let large = p.value >= ELECTROLYTIC_FROM;
     let one_sign = (lo > 0.1 && hi > 0.1) || (lo < -0.1 && hi < -0.1);
-    let construction = if sets_corner && p.value <= C0G_UP_TO {
+    let construction = if is_decoupling(p) {
+        "X7R ceramic (supply decoupling)".to_string()
+    } else if sets_corner && p.value <= C0G_UP_TO {
         "C0G/NP0 ceramic (sets a filter corner: no class-2 dielectric)".to_string()
     } else if sets_corner && !large {
         "film (polypropylene or polyphenylene sulphide; sets a filter corner)".to_string()

@@ -3,7 +3,7 @@
 //! stamps, and the elimination program reused by every build (see [`super`]).
 
 use super::{Col, Elem, KernelError, Src, Step, System};
-use crate::circuit::{is_sensor_source, open_at_mid_band, Circuit, Part, PartKind};
+use crate::circuit::{is_decoupling, is_sensor_source, open_at_mid_band, Circuit, Part, PartKind};
 use crate::solve::GMIN;
 
 /// Compile-time context shared by both systems.
@@ -69,8 +69,10 @@ impl Ctx<'_> {
             }
             i
         }
-        // Filter and drive capacitors set corners above the band: open at mid-band.
-        for p in c.parts.iter().filter(|p| short && p.kind == PartKind::Capacitor && !open_at_mid_band(p)) {
+        // Filter and drive capacitors set corners above the band: open at mid-band. Supply
+        // decoupling joins a rail to ground, both fixed already: left out.
+        let shorted = |p: &&Part| p.kind == PartKind::Capacitor && !open_at_mid_band(p) && !is_decoupling(p);
+        for p in c.parts.iter().filter(|p| short && shorted(p)) {
             let (ra, rb) = (root(&mut parent, at(&p.nodes[0])), root(&mut parent, at(&p.nodes[1])));
             match (known[ra], known[rb]) {
                 _ if ra == rb => {}

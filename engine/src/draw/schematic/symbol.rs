@@ -5,7 +5,7 @@
 
 use super::sheet::{Label, Pt, Shape, Sheet, GREY, INK};
 use super::value_text;
-use crate::circuit::PartKind;
+use crate::circuit::{is_decoupling, PartKind};
 use crate::draw::svg::{Anchor, BoxRect, Segment};
 
 impl Sheet<'_> {
@@ -42,7 +42,8 @@ impl Sheet<'_> {
                 let (e1, e2) = at(e, 13.0);
                 self.svg.segment(s1, s2, "", pen);
                 self.svg.segment(e1, e2, "", pen);
-                if p.value >= self.cfg.polarised_from {
+                // Supply decoupling is ceramic at any value: never polarised.
+                if p.value >= self.cfg.polarised_from && !is_decoupling(p) {
                     self.polarised = true;
                     let v = |n: &str| self.pol.as_ref().and_then(|o| o.voltage(n));
                     let at_a = match (v(na), v(nb)) {
