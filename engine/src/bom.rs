@@ -14,6 +14,9 @@
 //!   the rules in `ratings`). A polarised capacitor's + terminal goes to the node the
 //!   operating point makes more positive; if the DC across it is under 0.1 V or changes sign
 //!   over the signal swing, a non-polarised type is required instead.
+//! * **Supply decoupling** (stage `decoupling`, by role; values in [`crate::synth::decouple`]):
+//!   X7R ceramic whatever the value (the 10 µF bulk part included: a ceramic, not an
+//!   electrolytic), rated by the working-voltage rule from the rail across it.
 //! * **Amplifier** as a list of requirements (never a product name).
 //!
 //! [`to_csv`] writes the rows as CSV per RFC 4180 (CRLF line ends, fields with a comma, quote
@@ -21,7 +24,7 @@
 
 use serde::Serialize;
 
-use crate::circuit::{Circuit, Part, PartKind, StageRole};
+use crate::circuit::{is_decoupling, Circuit, Part, PartKind, StageRole};
 use crate::design::Design;
 use crate::request::{Coupling, Request};
 use crate::solve::Solver;
@@ -221,23 +224,29 @@ fn capacitor_row(p: &Part, s: &Stress) -> BomRow {
     let rating = ratings::voltage_rating(v).unwrap_or(f64::NAN);
     let sets_corner = matches!(p.stage, StageRole::Filter | StageRole::Drive);
     let one_sign = (lo > 0.1 && hi > 0.1) || (lo < -0.1 && hi < -0.1);
-    let construction = match dielectric_of(p) {
-        Dielectric::C0g if sets_corner => "C0G/NP0 ceramic (sets a filter corner: no class-2 dielectric)".to_string(),
-        Dielectric::C0g => "C0G/NP0 ceramic".to_string(),
-        Dielectric::Film if sets_corner => {
-            "film (polypropylene or polyphenylene sulphide; sets a filter corner)".to_string()
-        }
-        Dielectric::Film => "film (polyester or polypropylene)".to_string(),
-        Dielectric::Class2 if p.value >= ratings::ELECTROLYTIC_FROM => {
-            "X5R/X7R multilayer ceramic (an electrolytic's leakage would move the rest level here)".to_string()
-        }
-        Dielectric::Class2 => "X7R ceramic".to_string(),
-        Dielectric::Electrolytic if one_sign => {
-            let plus = if at_op >= 0.0 { &p.nodes[0] } else { &p.nodes[1] };
-            format!("aluminium electrolytic, polarised: + to node {plus}")
-        }
-        Dielectric::Electrolytic => {
-            "non-polarised (bipolar) electrolytic: the DC across it is too small or changes sign".to_string()
+    let construction = if is_decoupling(p) {
+        "X7R ceramic (supply decoupling)".to_string()
+    } else {
+        match dielectric_of(p) {
+            Dielectric::C0g if sets_corner => {
+                "C0G/NP0 ceramic (sets a filter corner: no class-2 dielectric)".to_string()
+            }
+            Dielectric::C0g => "C0G/NP0 ceramic".to_string(),
+            Dielectric::Film if sets_corner => {
+                "film (polypropylene or polyphenylene sulphide; sets a filter corner)".to_string()
+            }
+            Dielectric::Film => "film (polyester or polypropylene)".to_string(),
+            Dielectric::Class2 if p.value >= ratings::ELECTROLYTIC_FROM => {
+                "X5R/X7R multilayer ceramic (an electrolytic's leakage would move the rest level here)".to_string()
+            }
+            Dielectric::Class2 => "X7R ceramic".to_string(),
+            Dielectric::Electrolytic if one_sign => {
+                let plus = if at_op >= 0.0 { &p.nodes[0] } else { &p.nodes[1] };
+                format!("aluminium electrolytic, polarised: + to node {plus}")
+            }
+            Dielectric::Electrolytic => {
+                "non-polarised (bipolar) electrolytic: the DC across it is too small or changes sign".to_string()
+            }
         }
     };
     let (tolerance, tolerance_code) = tolerance_text(p.tolerance);

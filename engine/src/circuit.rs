@@ -25,7 +25,7 @@ use serde::Serialize;
 use crate::amplifier::{Amplifier, Rails};
 
 mod role;
-pub use role::{PartRole, Place, SectionPart, Side, StageKind};
+pub use role::{PartRole, Place, RailSide, SectionPart, Side, StageKind};
 
 /// Ground node name.
 pub const GND: &str = "0";
@@ -78,6 +78,11 @@ pub fn open_at_mid_band(p: &Part) -> bool {
             || (p.bench && p.stage == StageRole::Sensor && p.nodes.iter().any(|n| n == GND)))
 }
 
+/// True for a supply decoupling capacitor (by its role; see [`PartRole::is_decoupling`]).
+pub fn is_decoupling(p: &Part) -> bool {
+    p.role.is_some_and(PartRole::is_decoupling)
+}
+
 /// What a part is for; the stage it belongs to.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
@@ -106,6 +111,9 @@ pub enum StageRole {
     Filter,
     /// The converter drive: charge-bucket capacitor, isolation resistor, input protection.
     Drive,
+    /// Supply decoupling: local capacitors at the amplifiers' supply pins, bulk capacitors
+    /// on the rails.
+    Decoupling,
 }
 
 impl StageRole {
@@ -123,6 +131,7 @@ impl StageRole {
             StageRole::Converter => "converter",
             StageRole::Filter => "filter",
             StageRole::Drive => "drive",
+            StageRole::Decoupling => "decoupling",
         }
     }
 }

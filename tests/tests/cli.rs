@@ -99,6 +99,7 @@ const STAGE_NAMES: &[&str] = &[
     "converter",
     "filter",
     "drive",
+    "decoupling",
 ];
 
 /// `design FILE` prints the whole result with the documented shape.

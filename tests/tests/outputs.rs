@@ -23,7 +23,7 @@ use std::process::Command;
 use std::sync::OnceLock;
 
 use rangefit_engine::bom::{bom, to_csv, BomRow};
-use rangefit_engine::circuit::{Circuit, Part, PartKind};
+use rangefit_engine::circuit::{is_decoupling, Circuit, Part, PartKind};
 use rangefit_engine::draw::plot::{self, PlotConfig};
 use rangefit_engine::draw::schematic::{self, SchematicConfig};
 use rangefit_engine::report::report;
@@ -695,8 +695,15 @@ fn check_tolerance(f: &mut Fails, resistor_pct: f64, capacitor_pct: f64) {
     let d = design(&request(&v));
     let what = format!("resistors ±{resistor_pct} %, capacitors ±{capacitor_pct} %");
     let rows = bom(&d);
+    // Supply decoupling keeps its own ±10 % (X7R, common practice) whatever the request asks.
+    let c = d.circuit.as_ref().expect("circuit");
+    let decoupling = |r: &&BomRow| r.designators.iter().all(|x| c.part(x).is_some_and(is_decoupling));
+    for r in rows.iter().filter(decoupling) {
+        let what = format!("{what}: decoupling {}", r.designators.join(" "));
+        f.expect("common practice", &what, (r.tolerance.as_str(), r.tolerance_code.as_str()) == ("±10 %", "K"), r);
+    }
     for (kind, pct) in [("resistor", resistor_pct), ("capacitor", capacitor_pct)] {
-        let of_kind: Vec<&BomRow> = rows.iter().filter(|r| r.kind == kind).collect();
+        let of_kind: Vec<&BomRow> = rows.iter().filter(|r| r.kind == kind && !decoupling(r)).collect();
         f.expect("own scenario", &format!("{what}: the design has {kind}s"), !of_kind.is_empty(), rows.len());
         for r in of_kind {
             let letter = iec_60062(pct).unwrap_or("");
@@ -908,7 +915,18 @@ fn check_ratings(f: &mut Fails, id: &str, d: &Design) {
                     }
                     None => f.expect("part list", &format!("{id}: {x} rating reads as a voltage"), false, &r.rating),
                 }
-                let large = p.value >= 10e-6;
+                // Supply decoupling is X7R ceramic at any value (common practice), so the
+                // electrolytic rule below is for the signal parts.
+                let decoupling = is_decoupling(p);
+                if decoupling {
+                    f.expect(
+                        "common practice: supply decoupling is X7R ceramic",
+                        &format!("{id}: {x} ({}) is an X7R ceramic", r.value),
+                        r.construction.starts_with("X7R ceramic"),
+                        &r.construction,
+                    );
+                }
+                let large = p.value >= 10e-6 && !decoupling;
                 let one_sign = (a.lo > 0.1 && a.hi > 0.1) || (a.lo < -0.1 && a.hi < -0.1);
                 // 10 µF and more is an electrolytic, or a multilayer ceramic (up to 100 µF)
                 // where the design's leakage check says an electrolytic would leak too much.
@@ -1721,4 +1739,104 @@ fn demo_part_lists_and_netlists_match_their_snapshots() {
         }
     }
     f.finish();
+}
+
+// ---------------------------------------------------------------------------------------
+// Supply decoupling (common practice, no source: a local ceramic capacitor at each
+// amplifier's supply pin on each rail, one bulk capacitor per rail).
+
+/// The demos, and each demo again on supplies drawn from a seeded generator (rand_chacha
+/// ChaCha8Rng, seed 14): one rail or split rails, for every sensor kind the demos hold.
+fn decoupling_requests() -> Vec<(String, Request)> {
+    use rand::{Rng, SeedableRng};
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(14);
+    let supplies = [json!([3.3]), json!([5]), json!([5, -5]), json!([12, -12]), json!([15, -15])];
+    let mut out = Vec::new();
+    for demo in demos::ALL {
+        out.push((demo.id.to_string(), request(&serde_json::from_str(demo.json).expect("demo JSON"))));
+        let mut v: Value = serde_json::from_str(demo.json).expect("demo JSON");
+        let k = rng.random_range(0..supplies.len());
+        v["supplies"] = supplies[k].clone();
+        out.push((format!("{} on {}", demo.id, supplies[k]), request(&v)));
+    }
+    out
+}
+
+#[test]
+fn every_amplifier_supply_pin_and_rail_is_decoupled_by_role() {
+    use rangefit_engine::circuit::{PartRole, RailSide, StageKind, GND};
+    let src = "common practice";
+    let mut rows = Vec::new();
+    for (id, req) in decoupling_requests() {
+        let d = design(&req);
+        let Some(c) = d.circuit.as_ref() else {
+            rows.push(fact(format!("{id}: designs"), false, "own scenario"));
+            continue;
+        };
+        let rails: Vec<(&str, RailSide)> = c
+            .parts
+            .iter()
+            .filter(|p| p.bench && p.role == Some(PartRole::Rail))
+            .map(|p| (p.nodes[0].as_str(), if p.value > 0.0 { RailSide::Positive } else { RailSide::Negative }))
+            .collect();
+        let on = |p: &Part, node: &str| p.nodes.len() == 2 && p.nodes[0] == node && p.nodes[1] == GND;
+        let mut locals = 0;
+        for u in c.build_parts().into_iter().filter(|p| p.kind == PartKind::OpAmp) {
+            let n: u32 = u.reference.trim_start_matches('U').parse().expect("amplifier designator");
+            for (pin, side) in [(2, RailSide::Positive), (3, RailSide::Negative)] {
+                let Some((node, _)) = rails.iter().find(|r| r.1 == side && r.0 == u.nodes[pin]) else { continue };
+                let role = PartRole::LocalDecoupling { amplifier: n, rail: side };
+                let caps: Vec<&Part> = c.parts.iter().filter(|p| p.role == Some(role)).collect();
+                let what = format!("{id}: {} has one local capacitor on its {side:?} pin ({node})", u.reference);
+                let ok = caps.len() == 1 && on(caps[0], node) && (caps[0].value - 100e-9).abs() < 1e-15;
+                rows.push(fact(what, ok, src));
+                locals += 1;
+            }
+        }
+        for (node, side) in &rails {
+            let bulk: Vec<&Part> = c.parts.iter().filter(|p| p.role == Some(PartRole::BulkDecoupling(*side))).collect();
+            let ok = bulk.len() == 1 && on(bulk[0], node) && (bulk[0].value - 10e-6).abs() < 1e-12;
+            rows.push(fact(format!("{id}: rail {node} has one bulk capacitor"), ok, src));
+        }
+        let all: Vec<&Part> = c.parts.iter().filter(|p| is_decoupling(p)).collect();
+        rows.push(fact(format!("{id}: no other decoupling part"), all.len() == locals + rails.len(), src));
+        let stage = c.stages.iter().filter(|s| s.kind == StageKind::SupplyDecoupling).collect::<Vec<_>>();
+        let listed = stage.len() == 1 && all.iter().all(|p| stage[0].parts.contains(&p.reference) && !p.bench);
+        rows.push(fact(format!("{id}: one decoupling stage lists them"), listed, src));
+        // Designators continue after the signal parts: every decoupling C after every other C.
+        let num = |p: &Part| p.reference[1..].parse::<u32>().unwrap_or(0);
+        let signal = c.build_parts().into_iter().filter(|p| p.kind == PartKind::Capacitor && !is_decoupling(p));
+        let last = signal.map(num).max().unwrap_or(0);
+        rows.push(fact(format!("{id}: decoupling numbered after C{last}"), all.iter().all(|p| num(p) > last), src));
+    }
+    check(&rows);
+}
+
+#[test]
+fn decoupling_moves_no_predicted_or_analysed_figure() {
+    use rangefit_engine::analysis::{analyse, AnalysisConfig, Nominal};
+    // The rails are ideal sources in the solver: a capacitor from a rail to ground carries
+    // no signal, so the circuit without the decoupling predicts and analyses the same.
+    let src = "engine solver: a rail is a known node";
+    let mut rows = Vec::new();
+    for demo in demos::ALL {
+        let d = designed(demo.id);
+        let (c, a) = (circuit(demo.id, d), d.analysis.as_ref().expect("analysis"));
+        let mut bare = c.clone();
+        bare.parts.retain(|p| !is_decoupling(p));
+        rows.push(fact(format!("{}: the design has decoupling", demo.id), bare.parts.len() < c.parts.len(), src));
+        let p = rangefit_engine::design::predict(&d.request, &bare).expect("prediction");
+        let same = json!(p) == json!(d.predicted);
+        rows.push(fact(format!("{}: predicted mapping unchanged", demo.id), same, src));
+        let nominal = Nominal { gain: p.gain, f_low_3db: p.band_low, f_high_3db: p.band_high };
+        let (b, _) = analyse(&d.request, &bare, nominal, &AnalysisConfig::from_request(&d.request));
+        for (what, x, y) in [
+            ("AC response", json!(a.ac), json!(b.ac)),
+            ("noise", json!(a.noise), json!(b.noise)),
+            ("worst case and Monte Carlo", json!(a.tolerance), json!(b.tolerance)),
+        ] {
+            rows.push(fact(format!("{}: {what} unchanged", demo.id), x == y, src));
+        }
+    }
+    check(&rows);
 }

@@ -162,7 +162,8 @@ fn reference_quantities(req: &Request, c: &Circuit, k: &Kernel, p: &[f64]) -> [f
 /// kernel's mid-band system has them.
 fn shorted(c: &Circuit) -> Circuit {
     let mut c = c.clone();
-    c.parts.retain(|q| !rangefit_engine::circuit::open_at_mid_band(q));
+    // Supply decoupling joins a rail to ground, both fixed: it carries nothing, so it goes.
+    c.parts.retain(|q| !rangefit_engine::circuit::open_at_mid_band(q) && !rangefit_engine::circuit::is_decoupling(q));
     while let Some(i) = c.parts.iter().position(|q| q.kind == PartKind::Capacitor) {
         let cap = c.parts.remove(i);
         let (keep, gone) = if cap.nodes[1] == "0" {

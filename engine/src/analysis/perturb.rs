@@ -50,7 +50,7 @@ mod compile;
 
 use compile::Ctx;
 
-use crate::circuit::{Circuit, PartKind};
+use crate::circuit::{is_decoupling, Circuit, PartKind};
 
 /// What one parameter of a build is.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -107,7 +107,8 @@ pub struct Workspace {
 
 impl Kernel {
     /// Compiles `circuit` with `out` as the output node. Parameters are, in circuit order,
-    /// every non-bench resistor and capacitor with a tolerance, then per amplifier its
+    /// every non-bench resistor and capacitor with a tolerance (supply decoupling excluded),
+    /// then per amplifier its
     /// offset and the bias currents of its + and − inputs.
     pub fn compile(circuit: &Circuit, out: &str) -> Result<Kernel, KernelError> {
         let mut params = Vec::new();
@@ -119,7 +120,8 @@ impl Kernel {
                 PartKind::Capacitor => ParamKind::Capacitor,
                 _ => continue,
             };
-            if let (false, Some(t)) = (p.bench, p.tolerance) {
+            // Supply decoupling (a rail to ground) moves no quantity: not a parameter.
+            if let (false, Some(t), false) = (p.bench, p.tolerance, is_decoupling(p)) {
                 part_param[i] = Some(params.len());
                 if kind == ParamKind::Resistor {
                     res.push((params.len(), p.value));

@@ -34,6 +34,17 @@ pub enum StageKind {
     Filter,
     /// The converter drive: isolation resistor, charge bucket, clamp.
     ConverterDrive,
+    /// The supply decoupling: each amplifier's local capacitors and each rail's bulk
+    /// capacitor, off the signal path.
+    SupplyDecoupling,
+}
+
+/// A supply rail: the positive one, or the negative one of split rails.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RailSide {
+    Positive,
+    Negative,
 }
 
 /// One leg of a differential pair: the + leg (the pair's first terminal) or the − leg.
@@ -126,6 +137,10 @@ pub enum PartRole {
     ChargeBucket,
     /// The clamp diode at the converter pin.
     Clamp,
+    /// The local ceramic capacitor at amplifier U`amplifier`'s supply pin on `rail`.
+    LocalDecoupling { amplifier: u32, rail: RailSide },
+    /// The bulk capacitor of one rail.
+    BulkDecoupling(RailSide),
     /// Bench: a single-ended sensor's EMF.
     Emf,
     /// Bench: a differential pair's EMF between its legs.
@@ -155,6 +170,14 @@ pub enum PartRole {
     Rail,
     /// Bench: the converter's input load.
     ConverterLoad,
+}
+
+impl PartRole {
+    /// A supply decoupling capacitor (local or bulk): from a rail to ground, it moves no
+    /// signal figure (the rails are ideal sources in every analysis).
+    pub fn is_decoupling(self) -> bool {
+        matches!(self, PartRole::LocalDecoupling { .. } | PartRole::BulkDecoupling(_))
+    }
 }
 
 /// Where a part goes when it is built: its stage and, from synthesis, its role there.

@@ -78,6 +78,11 @@ pub fn choose(circuit: &mut Circuit, req: &Request, cfg: &CapacitorConfig) -> Ve
     let mut leak_errors: Vec<String> = Vec::new();
     let mut slowest: Option<(f64, String, f64)> = None;
     for (i, p) in circuit.parts.iter().enumerate().filter(|(_, p)| p.kind == PartKind::Capacitor && !p.bench) {
+        // Supply decoupling is ceramic at any value and takes no part in the signal's levels.
+        if crate::circuit::is_decoupling(p) {
+            plan.push((i, Dielectric::Class2));
+            continue;
+        }
         let sets_corner = matches!(p.stage, StageRole::Filter | StageRole::Drive);
         let in_signal_path = matches!(p.stage, StageRole::Coupling | StageRole::Gain);
         let mut kind = ratings::dielectric_by_place(p.value, sets_corner, in_signal_path);

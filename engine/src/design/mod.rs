@@ -213,6 +213,8 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
             requirements::widen(&mut req_amp, &n, rails, req.source.band_high);
         }
     }
+    // Every amplifier is placed: its supply pins get their decoupling (no signal figure moves).
+    synth::decouple::decouple(&mut s.circuit);
     checks.extend(capacitors::choose(&mut s.circuit, req, &capacitors::CapacitorConfig::default()));
     let nominal = Nominal { gain: p.gain, f_low_3db: p.band_low, f_high_3db: p.band_high };
     let (analysis, analysis_checks) = analyse(req, &s.circuit, nominal, cfg);

@@ -28,9 +28,11 @@
 //! the pair's sensor box, in the three-amplifier arrangement, and its difference stage starts
 //! the second from a pair of flags; see `inamp`); what follows it goes on rows below, at least two sections
 //! to a row, within 1100 user units of width (see `rows`). A new stage kind is a new block
-//! in that sequence. Any part the blocks cannot place by role goes into a fallback area
-//! below the drawing with its node names: never dropped. The bench (sensor, supplies,
-//! converter load) is drawn in grey.
+//! in that sequence. The supply decoupling (by role) goes below the signal rows in a block
+//! of its own: a bus from each rail with the local capacitors, each naming the amplifier it
+//! serves, and the rail's bulk capacitor (see `decoupling`). Any part the blocks cannot
+//! place by role goes into a fallback area below the drawing with its node names: never
+//! dropped. The bench (sensor, supplies, converter load) is drawn in grey.
 //!
 //! Annotation: designator and value of every part, rail names and voltages, the DC level of
 //! every node that matters (from the operating point, blue italic; not the nodes inside a
@@ -52,6 +54,7 @@ mod by_role;
 #[cfg(feature = "shape-fallback")]
 mod by_shape;
 mod chain;
+mod decoupling;
 mod diff;
 mod gain;
 mod inamp;
@@ -242,6 +245,7 @@ pub fn schematic(
         sh.chain_rows(&chain, o, plan.amp)
     });
     sh.converter(at, &plan);
+    sh.decoupling();
     sh.fallback();
     for p in sh.svg.junctions() {
         sh.svg.circle(p, 3.2, INK, None);

@@ -21,6 +21,7 @@
 pub mod ac;
 pub mod chain;
 pub mod dc;
+pub mod decouple;
 pub mod drive;
 pub mod filter;
 pub mod front;

@@ -3,7 +3,7 @@
 //! stamps, and the elimination program reused by every build (see [`super`]).
 
 use super::{Col, Elem, KernelError, Src, Step, System};
-use crate::circuit::{is_sensor_source, open_at_mid_band, Circuit, Part, PartKind};
+use crate::circuit::{is_decoupling, is_sensor_source, open_at_mid_band, Circuit, Part, PartKind};
 use crate::solve::GMIN;
 
 /// Compile-time context shared by both systems.
@@ -85,7 +85,12 @@ impl Ctx<'_> {
             shift[ra] = (sb.0 + u - sa.0, sb.1 + w - sa.1);
         }
         // Filter and drive capacitors set corners above the band: open at mid-band.
-        for p in c.parts.iter().filter(|p| short && p.kind == PartKind::Capacitor && !open_at_mid_band(p)) {
+        // Supply decoupling joins a rail to ground, both fixed already: left out.
+        for p in c
+            .parts
+            .iter()
+            .filter(|p| short && p.kind == PartKind::Capacitor && !open_at_mid_band(p) && !is_decoupling(p))
+        {
             let ((ra, sa), (rb, sb)) = (root(&parent, &shift, at(&p.nodes[0])), root(&parent, &shift, at(&p.nodes[1])));
             let pot = |k: Option<(f64, f64)>, s: (f64, f64)| k.map(|k| (k.0 + s.0, k.1 + s.1));
             match (pot(known[ra], sa), pot(known[rb], sb)) {

@@ -5,7 +5,7 @@
 
 use super::sheet::{Label, Pt, Shape, Sheet, GREY, INK};
 use super::value_text;
-use crate::circuit::PartKind;
+use crate::circuit::{is_decoupling, PartKind};
 use crate::draw::svg::{Anchor, BoxRect, Segment};
 
 impl Sheet<'_> {
@@ -44,7 +44,7 @@ impl Sheet<'_> {
                 self.svg.segment(e1, e2, "", pen);
                 let polarised = match p.dielectric {
                     Some(d) => d == crate::ratings::Dielectric::Electrolytic,
-                    None => p.value >= self.cfg.polarised_from,
+                    None => p.value >= self.cfg.polarised_from && !is_decoupling(p),
                 };
                 if polarised {
                     self.polarised = true;
