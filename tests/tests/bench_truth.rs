@@ -306,6 +306,22 @@ fn op_with(tag: &str, netlist: &str, extra: &str, node: &str) -> f64 {
     v.first().map(|x| x.1).unwrap_or_else(|| panic!("[{tag}] no v({node})"))
 }
 
+/// The circuit, its gain leg's DC block, that part's leakage as an electrolytic at its 6.3 V
+/// rating (tests/REFERENCES.md §13, from memory) and the netlist line of a current source
+/// carrying it across the part.
+fn dc_block(d: &Design) -> (&rangefit_engine::circuit::Circuit, &rangefit_engine::circuit::Part, f64, String) {
+    use rangefit_engine::circuit::{PartKind, StageRole};
+    let c = d.circuit.as_ref().expect("a circuit");
+    let block = c
+        .parts
+        .iter()
+        .find(|p| p.kind == PartKind::Capacitor && p.stage == StageRole::Gain)
+        .expect("the gain leg's DC block");
+    let leak = rangefit_engine::ratings::electrolytic_leakage(block.value, 6.3);
+    let line = format!("ILEAK {} {} DC {leak:e}", block.nodes[0], block.nodes[1]);
+    (c, block, leak, line)
+}
+
 /// Capacitors that behave: an aluminium electrolytic's leakage (0.01·C·V or 3 µA, from
 /// memory; tests/REFERENCES.md §13) through the gain leg's DC block flows through R_f and
 /// moves the output's rest level. ngspice with that current across the part shows the shift
@@ -315,20 +331,15 @@ fn op_with(tag: &str, netlist: &str, extra: &str, node: &str) -> f64 {
 /// `settling` check states (ngspice transient from all capacitors discharged).
 #[test]
 fn electrolytic_leakage_and_power_up_settling() {
-    use rangefit_engine::circuit::{PartKind, PartRole, StageRole};
-    use rangefit_engine::ratings::{electrolytic_leakage, Dielectric};
+    use rangefit_engine::circuit::{PartRole, StageRole};
+    use rangefit_engine::ratings::Dielectric;
     const OP: &str = "ngspice operating point of the exported netlist with the leakage as a current source";
     let mut rows = Vec::new();
     // 2 Hz: the DC block is 470 µF, beyond the ceramics; its 29.6 µA leakage pins the output.
     let d = design(&lock_gate("2 Hz"));
     let flagged = d.checks.iter().any(|c| c.id == "leakage" && c.severity == Severity::Error);
     rows.push(fact("2 Hz: leakage is an error", flagged, "engine"));
-    let c = d.circuit.as_ref().expect("a circuit");
-    let block = c
-        .parts
-        .iter()
-        .find(|p| p.kind == PartKind::Capacitor && p.stage == StageRole::Gain)
-        .expect("the gain leg's DC block");
+    let (_, block, leak, line) = dc_block(&d);
     rows.push(fact(
         "2 Hz: the DC block stays an electrolytic",
         block.dielectric == Some(Dielectric::Electrolytic),
@@ -336,8 +347,6 @@ fn electrolytic_leakage_and_power_up_settling() {
     ));
     rows.push(row("2 Hz: electrolytic tolerance", block.tolerance.unwrap_or(0.0), 0.2, 1e-12, "common practice"));
     let net = exported(&d);
-    let leak = electrolytic_leakage(block.value, 6.3);
-    let line = format!("ILEAK {} {} DC {leak:e}", block.nodes[0], block.nodes[1]);
     let rest = op_with("leak nominal", &net, "", "adc");
     let leaky = op_with("leak 2 Hz", &net, &line, "adc");
     println!(
@@ -354,12 +363,7 @@ fn electrolytic_leakage_and_power_up_settling() {
     // 20 Hz: 47 µF; as an electrolytic its 3 µA would move the output by 3 µA × R_f.
     let d = design(&lock_gate("20 Hz"));
     rows.push(fact(format!("20 Hz: no error checks ({:?})", errors(&d)), errors(&d).is_empty(), "engine"));
-    let c = d.circuit.as_ref().expect("a circuit");
-    let block = c
-        .parts
-        .iter()
-        .find(|p| p.kind == PartKind::Capacitor && p.stage == StageRole::Gain)
-        .expect("the gain leg's DC block");
+    let (c, block, leak, line) = dc_block(&d);
     rows.push(fact("20 Hz: the DC block is a ceramic", block.dielectric == Some(Dielectric::Class2), "engine"));
     let r_f = c
         .parts
@@ -368,8 +372,6 @@ fn electrolytic_leakage_and_power_up_settling() {
         .map(|p| p.value)
         .expect("R_f");
     let net = exported(&d);
-    let leak = electrolytic_leakage(block.value, 6.3);
-    let line = format!("ILEAK {} {} DC {leak:e}", block.nodes[0], block.nodes[1]);
     let rest = op_with("leak 20 nominal", &net, "", "out1");
     let leaky = op_with("leak 20 Hz", &net, &line, "out1");
     rows.push(row_rel("20 Hz: an electrolytic's shift of the rest level (V)", leaky - rest, leak * r_f, 0.02, 0.0, OP));
