@@ -21,12 +21,16 @@ use super::round::{anchors, optimise_all, pairs, RoundConfig};
 use super::{Limits, Synthesis, Target};
 use crate::amplifier::{Amplifier, Rails};
 use crate::circuit::{Builder, Divider, PartKind, PartRole, Stage, StageKind, StageRole};
+use crate::ratings;
 use crate::request::Request;
 use crate::units::{format, Quantity};
 use crate::values;
 
 /// Fraction of `band_low` at which each high-pass corner is placed.
 pub const CORNER_FRACTION: f64 = 0.1;
+/// Cost of a gain leg whose DC block only an electrolytic reaches, in the mapping cost's unit
+/// (a share of the span): it outweighs a 5 % mapping miss, which rounding never leaves.
+const BIG_BLOCK_COST: f64 = 0.05;
 
 /// Designs the AC-coupled stage: the plain form (a buffer with an attenuator when |m| < 1,
 /// an amplifier of gain m otherwise) and a form with a quarter more gain taken back by an
@@ -72,6 +76,8 @@ fn variant(
         return None;
     }
     let cfg = RoundConfig::of(&req.parts);
+    let fc = s.band_low * CORNER_FRACTION;
+    let block_for = |r: f64| 1.0 / (2.0 * std::f64::consts::PI * fc * r);
     // Vector layout: Rb, [Ra], [Rt, Rbt], [Rg, Rf].
     let unpack = |v: &[f64]| {
         let mut i = 0;
@@ -109,6 +115,14 @@ fn variant(
         if rs > 0.0 {
             c += 0.5 * rs / (ra + rb);
         }
+        // A gain leg whose DC block would need more than the largest ceramic becomes an
+        // electrolytic, and its leakage through Rf moves the rest level by about
+        // 0.01·V·(G − 1)/(2π·f_c) whatever the resistance level: prefer a leg that keeps it
+        // a ceramic (ratings::CERAMIC_UP_TO) wherever the window allows one.
+        let (.., rg, _) = unpack(v);
+        if !follower && block_for(rg) > ratings::CERAMIC_UP_TO {
+            c += BIG_BLOCK_COST;
+        }
         c + v.iter().map(|r| 1e-8 * (r / 47e3).max(47e3 / r)).sum::<f64>()
     };
     let ideal = |pair: Option<(f64, f64)>, rb: f64| {
@@ -141,8 +155,15 @@ fn variant(
     // The gain pair (Rg, Rf) comes from the best ratio pairs; the rest follows from the
     // pair's exact gain.
     let g_plan = if attenuate { g } else { m };
+    // Pairs whose Rg keeps the DC block a ceramic come first; only when the window has none
+    // does the search take the whole window.
+    let leg = RoundConfig { min: cfg.min.max(block_for(ratings::CERAMIC_UP_TO)), ..cfg };
+    let leg_pairs = || {
+        let within = pairs(leg, g_plan - 1.0, 0.0, 3);
+        if within.is_empty() { pairs(cfg, g_plan - 1.0, 0.0, 3) } else { within }
+    };
     let runs: Vec<Option<(f64, f64)>> =
-        if follower { vec![None] } else { pairs(cfg, g_plan - 1.0, 0.0, 3).into_iter().map(Some).collect() };
+        if follower { vec![None] } else { leg_pairs().into_iter().map(Some).collect() };
     let anchors = anchors(cfg);
     let ideal = &ideal;
     let anchors = &anchors;
@@ -153,9 +174,8 @@ fn variant(
     let (m_a, vref, alpha) = mapping(&vals);
 
     // Capacitors: each corner at or below band_low / 10, rounded up in the series.
-    let fc = s.band_low * CORNER_FRACTION;
     let cser = req.parts.capacitor_series;
-    let cap_for = |r: f64| values::step_up(cser, 1.0 / (2.0 * std::f64::consts::PI * fc * r));
+    let cap_for = |r: f64| values::step_up(cser, block_for(r));
     let c1 = cap_for(rs + ra + rb)?;
     let rth = if has_divider { rt * rbt / (rt + rbt) } else { 0.0 };
     let cb = if has_divider { Some(cap_for(rth)?) } else { None };
