@@ -2,7 +2,7 @@
 //! kind, step, group and help line, the choices of the choice fields, finding a field by its
 //! request path, and the placeholder an empty field shows (what the engine uses instead).
 
-use rangefit_engine::request::DEFAULT_PASSBAND_ERROR_DB;
+use rangefit_engine::request::{DEFAULT_PASSBAND_ERROR_DB, DEFAULT_REFERENCE_TOLERANCE, DEFAULT_SUPPLY_TOLERANCE};
 use rangefit_engine::units::{self, Quantity};
 
 use crate::fields::{pct, q, Field, Kind, Step, AMP_GIVEN, AMP_STATE};
@@ -95,6 +95,15 @@ pub const FIELDS: &[Field] = &[
     entry("destination.injection_limit", "Largest fault current into the pin", q(Quantity::Current), Step::Converter,
         "Sampling", false,
         "What the pin's protection may carry in a fault, from the converter's datasheet, e.g. 5 mA."),
+    entry("destination.ratiometric", "The converter's reference is the positive supply rail", Kind::Flag,
+        Step::Converter, "Reference", false, "Then its readings follow that rail: a level taken as a share of it \
+        cancels, but the rail's tolerance scales every reading."),
+    entry("destination.reference_voltage", "Reference voltage", q(Quantity::Voltage), Step::Converter, "Reference",
+        false, "The voltage the converter's span is made from, e.g. 2.5 V."),
+    entry("destination.reference_tolerance", "Reference tolerance", pct(), Step::Converter, "Reference", false,
+        "Its initial accuracy, from its datasheet, e.g. 0.1 %."),
+    entry("destination.reference_pin", "The reference is brought out as a pin the circuit may use", Kind::Flag,
+        Step::Converter, "Reference", false, "Then level shifts are taken from it instead of from a rail."),
     entry("filter.response", "Filter response", Kind::Choice(RESPONSES), Step::Converter, "Anti-alias filter", false,
         "The shape of the low-pass ahead of the converter."),
     entry("filter.topology", "Sections built as", Kind::Choice(TOPOLOGIES), Step::Converter, "Anti-alias filter", false,
@@ -114,6 +123,8 @@ pub const FIELDS: &[Field] = &[
     entry("supplies", "Supply rails", Kind::Rails, Step::Parts, "Power", true,
         "Every rail you can use, separated by commas: “3.3” for one rail, “5, 3.3” for two, “12, -12” for a split \
         supply. Ground is always there."),
+    entry("supply_tolerance", "Rail tolerance", Kind::Level, Step::Parts, "Power", false,
+        "How far each rail may stray from its nominal value, e.g. 5 % (one figure for every rail)."),
     entry("parts.resistor_series", "Resistor series", Kind::Choice(SERIES), Step::Parts, "Resistors", false,
         "The IEC 60063 series you stock."),
     entry("parts.resistor_tolerance", "Resistor tolerance", pct(), Step::Parts, "Resistors", false,
@@ -146,6 +157,8 @@ pub const FIELDS: &[Field] = &[
     entry("amplifier.noise_current", "Current noise density", q(Quantity::CurrentNoise), Step::Parts, "Amplifier",
         false, ""),
     entry("amplifier.noise_corner", "1/f noise corner", q(Quantity::Frequency), Step::Parts, "Amplifier", false, ""),
+    entry("amplifier.supply_rejection", "Supply rejection", Kind::Level, Step::Parts, "Amplifier", false,
+        "Offset change per volt of supply: 80 dB or 1e-4."),
     entry("amplifier.open_loop_gain", "Open-loop gain (V/V)", q(Quantity::Ratio), Step::Parts, "Amplifier", false, ""),
     entry("analysis.temperature", "Temperature", q(Quantity::Temperature), Step::Parts, "Analyses", false,
         "For thermal noise, e.g. 300 K or 27 °C."),
@@ -211,6 +224,10 @@ pub fn placeholder(f: &Field, design: Option<&rangefit_engine::Design>) -> Strin
         "amplifier.noise_current" => assumed(amp.map(|a| a.noise_current)),
         "amplifier.noise_corner" => assumed(amp.map(|a| a.noise_corner)),
         "amplifier.open_loop_gain" => assumed(amp.map(|a| a.open_loop_gain)),
+        "amplifier.supply_rejection" => assumed(amp.map(|a| a.supply_rejection)),
+        "destination.reference_voltage" => "empty: the larger end of the input range".into(),
+        "destination.reference_tolerance" => format!("empty: {}", units::format_percent(DEFAULT_REFERENCE_TOLERANCE)),
+        "supply_tolerance" => format!("empty: {}", units::format_percent(DEFAULT_SUPPLY_TOLERANCE)),
         _ => match f.kind {
             Kind::Quantity { q, .. } => {
                 let (a, b) = match q {

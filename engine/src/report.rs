@@ -266,10 +266,11 @@ fn mapping(h: &mut String, d: &Design) {
         rows.push((
             "Added noise",
             format!(
-                "{} rms over {} … {} = {:.2} LSB; SNR {:.1} dB, {:.2} effective bits",
+                "{} rms over {} … {} ({}) = {:.2} LSB; SNR {:.1} dB, {:.2} effective bits",
                 v(n.output_rms),
                 hz(n.band[0]),
                 hz(n.band[1]),
+                crate::analysis::noise::band_note(&d.request),
                 n.lsb_ratio,
                 n.snr_db,
                 n.enob

@@ -81,12 +81,23 @@ fn rc(ohms: f64, farads: f64) -> Circuit {
     Circuit { parts: b.parts, stages: vec![], amplifier: quiet_amp(0.0, 0.0, 0.0), rail_pos: 5.0, rail_neg: -5.0 }
 }
 
-/// A DC-coupled request: a soil-temperature probe logged by a 3.3 V, 12-bit converter
-/// sampling at `sample_rate`, so the band runs from 0.1 Hz to `sample_rate`/2.
+/// A DC-coupled request: a soil-temperature probe logged by a 3.3 V, 12-bit oversampling
+/// converter with output rate `sample_rate`, so the band runs from 0.1 Hz to `sample_rate`/2.
 fn probe_request(sample_rate: f64) -> Request {
+    probe_request_for(sample_rate, "oversampling")
+}
+
+/// The probe's request for a converter of kind `converter` ("sar" or "oversampling").
+fn probe_request_for(sample_rate: f64, converter: &str) -> Request {
+    let modulator = if converter == "oversampling" {
+        format!(r#", "modulator_rate": {}"#, (64.0 * sample_rate).min(1e10))
+    } else {
+        String::new()
+    };
     request(&format!(
         r#"{{"name": "Soil-temperature probe", "source": {{"min": 0, "max": 1, "impedance": "10k", "band_high": 1}},
-            "destination": {{"min": 0, "max": 3.3, "bits": 12, "sample_rate": {sample_rate}}}, "supplies": [5, -5]}}"#
+            "destination": {{"min": 0, "max": 3.3, "bits": 12, "sample_rate": {sample_rate},
+            "converter": "{converter}"{modulator}}}, "supplies": [5, -5]}}"#
     ))
 }
 
@@ -110,14 +121,13 @@ fn johnson_noise_and_conversion_match_references() {
 
     // kT/C: 10 MΩ into 10 pF (corner 1.59 kHz), integrated from 0.1 Hz to 2.5 GHz, which
     // misses (2/π)·(0.1 Hz / 1.59 kHz) = 4e-5 of the total below and 4e-7 above.
-    let ktc = noise::noise(&probe_request(5e9), &rc(10e6, 10e-12), 1.0, None, &cfg(300.0, 2000, false));
+    let ktc = noise::noise(&probe_request(5e9), &rc(10e6, 10e-12), 1.0, &cfg(300.0, 2000, false));
 
     // A circuit with no noise at all (0 K, amplifier left out): the converter's own figures.
     let ideal = noise::noise(
         &probe_request(100.0),
         &resistor_into_buffer(10e3, quiet_amp(0.0, 0.0, 0.0)),
         1.0,
-        None,
         &cfg(0.0, 160, false),
     );
 
@@ -175,25 +185,52 @@ fn resistor_into_buffer_gives_johnson_noise() {
     const REF_C: &str = "references.md: Johnson–Nyquist √(4kTR·Δf), k exact (SI 2019)";
     const REF_SUM: &str =
         "uncorrelated sources add in power; 1/f density e²(1 + f_c/f) integrates to e²(Δf + f_c·ln(f_hi/f_lo))";
-    const RULE: &str = "band rule of analysis::noise: DC coupling 0.1 Hz … Nyquist";
+    const RULE: &str = "band rule of analysis::noise: DC coupling 0.1 Hz … Nyquist (oversampling converter)";
     let t = 300.0;
     let r = 10e3;
     // 20 kHz sampling: the band is 0.1 Hz … 10 kHz.
     let req = probe_request(20e3);
-    let quiet = noise::noise(&req, &resistor_into_buffer(r, quiet_amp(0.0, 0.0, 0.0)), 1.0, None, &cfg(t, 160, false));
+    let quiet = noise::noise(&req, &resistor_into_buffer(r, quiet_amp(0.0, 0.0, 0.0)), 1.0, &cfg(t, 160, false));
     let [f_lo, f_hi] = quiet.band;
     let df = f_hi - f_lo;
     let johnson = (4.0 * K_B * t * r * df).sqrt();
 
     // Amplifier noise of known density: e_n 20 nV/√Hz, i_n 1 pA/√Hz, corner 100 Hz.
     let (e_n, i_n, f_c) = (20e-9, 1e-12, 100.0);
-    let noisy = noise::noise(&req, &resistor_into_buffer(r, quiet_amp(e_n, i_n, f_c)), 1.0, None, &cfg(t, 160, true));
+    let noisy = noise::noise(&req, &resistor_into_buffer(r, quiet_amp(e_n, i_n, f_c)), 1.0, &cfg(t, 160, true));
     let flicker = df + f_c * (f_hi / f_lo).ln();
     let want_v = e_n * flicker.sqrt();
     let want_i = i_n * r * flicker.sqrt();
     let want_total = (johnson.powi(2) + want_v.powi(2) + want_i.powi(2)).sqrt();
 
+    // A sampling converter takes the buffer's whole roll-off: the follower's closed-loop pole
+    // sits at GBW·(1 + 1/A0), and |H|² = 1/(1 + (f/f_b)²) integrates to f_b·(atan(f_hi/f_b) −
+    // atan(f_lo/f_b)).
+    let amp = quiet_amp(0.0, 0.0, 0.0);
+    let sampled =
+        noise::noise(&probe_request_for(20e3, "sar"), &resistor_into_buffer(r, amp.clone()), 1.0, &cfg(t, 160, false));
+    let f_b = amp.gbw * (1.0 + 1.0 / amp.open_loop_gain);
+    let [s_lo, s_hi] = sampled.band;
+    let rolled = (4.0 * K_B * t * r * f_b * ((s_hi / f_b).atan() - (s_lo / f_b).atan())).sqrt();
+    const SAMPLED: &str = "single-pole roll-off integrated in closed form; sampling band rule of analysis::noise";
+
     check(&[
+        row_rel(
+            "sampling converter: band high within 10…100 × GBW",
+            (s_hi >= 10.0 * amp.gbw && s_hi <= 100.0 * amp.gbw * (1.0 + 1e-9)) as u8 as f64,
+            1.0,
+            0.0,
+            0.0,
+            SAMPLED,
+        ),
+        row_rel(
+            "sampling converter: 10 kΩ through the buffer's roll-off (V rms)",
+            sampled.output_rms,
+            rolled,
+            0.005,
+            0.0,
+            SAMPLED,
+        ),
         row_rel("band low (Hz)", f_lo, 0.1, 0.0, 0.0, RULE),
         row_rel("band high (Hz)", f_hi, 10e3, 0.0, 0.0, RULE),
         row_rel("10 kΩ into a buffer, resistors only (V rms)", quiet.output_rms, johnson, 0.005, 0.0, REF_C),
@@ -395,7 +432,7 @@ fn resistor_noise_matches_ngspice() {
             .collect();
         assert!(errors.is_empty(), "[{}] design has errors: {errors:?}", s.name);
         let (Some(circuit), Some(p)) = (d.circuit.as_ref(), d.predicted) else { panic!("[{}] no circuit", s.name) };
-        let a = noise::noise(&req, circuit, p.gain, p.band_high, &cfg(NGSPICE_KELVIN, 160, false));
+        let a = noise::noise(&req, circuit, p.gain, &cfg(NGSPICE_KELVIN, 160, false));
         let [f_lo, f_hi] = a.band;
         let net = netlist(&req, circuit, NetlistConfig { testbench: false });
         let spice = ngspice_noise(s.name, &net, f_lo, f_hi);
@@ -447,12 +484,73 @@ fn resistor_noise_matches_ngspice() {
     check(&rows);
 }
 
+/// The amplifiers' white voltage noise against ngspice: the exported netlist's amplifier
+/// model gets a noise-equivalent resistor e_n²/(4kT) in series with its + input (no current
+/// flows there, so the operating point is unchanged), and the engine runs with the same
+/// amplifier (white voltage noise only: no current noise, no 1/f corner). Over the sampling
+/// band this is the noise the converter folds: the filter sections' noise gain peaking near
+/// f₀ and every amplifier's roll-off above its GBW included.
+#[test]
+fn amplifier_noise_over_the_sampled_band_matches_ngspice() {
+    const SRC: &str = "ngspice .noise, onoise_total over the same band; noise-equivalent resistor e_n²/(4kT)";
+    let mut rows = Vec::new();
+    for s in SCENARIOS {
+        let req = request(s.json);
+        let d = design(&req);
+        let (Some(built), Some(p)) = (d.circuit.as_ref(), d.predicted) else { panic!("[{}] no circuit", s.name) };
+        let mut circuit = built.clone();
+        circuit.amplifier.noise_current = 0.0;
+        circuit.amplifier.noise_corner = 0.0;
+        let e_n = circuit.amplifier.noise_voltage;
+        let a = noise::noise(&req, &circuit, p.gain, &cfg(NGSPICE_KELVIN, 160, true));
+        let [f_lo, f_hi] = a.band;
+        let r_en = e_n * e_n / (4.0 * K_B * NGSPICE_KELVIN);
+        let net = netlist(&req, &circuit, NetlistConfig { testbench: false });
+        let g1 = net.lines().find(|l| l.starts_with("G1 0 x inp inn ")).expect("the amplifier model's input stage");
+        let noisy = net.replacen(g1, &format!("RNOISE inp inpn {r_en:e}\n{}", g1.replacen(" inp ", " inpn ", 1)), 1);
+        let spice = ngspice_noise(s.name, &noisy, f_lo, f_hi);
+        let total = spice["onoise_total"];
+        let share = contributor_share(&a, "voltage noise");
+        println!(
+            "{:<45} band {:.3e} … {:.3e} Hz: engine {:.5e} V (amplifiers {:.0} % of the power), ngspice {:.5e} V, \
+             deviation {:.2e}",
+            s.name,
+            f_lo,
+            f_hi,
+            a.output_rms,
+            100.0 * share,
+            total,
+            (a.output_rms / total - 1.0).abs()
+        );
+        rows.push(row_rel(
+            format!("{}: output noise with amplifier noise", s.name),
+            a.output_rms,
+            total,
+            SPICE_TOL,
+            0.0,
+            SRC,
+        ));
+    }
+    check(&rows);
+}
+
+/// Share of the output noise power from the contributors whose name contains `part`.
+fn contributor_share(a: &NoiseAnalysis, part: &str) -> f64 {
+    let p: f64 = a.contributors.iter().filter(|c| c.part.contains(part)).map(|c| c.output_rms.powi(2)).sum();
+    if a.output_rms > 0.0 {
+        p / a.output_rms.powi(2)
+    } else {
+        0.0
+    }
+}
+
 // ---------------------------------------------------------------------------------------
 // 4. Consistency and the demos
 
 #[test]
 fn converter_figures_are_consistent_and_demos_finite() {
     const DEF: &str = "definitions in analysis::noise (references.md, Kester MT-001)";
+    const BAND_RULE: &str = "band rule of analysis::noise (sampling: REACH × fastest corner; oversampling: Nyquist)";
     let mut rows = Vec::new();
     for demo in demos::ALL {
         let req = request(demo.json);
@@ -463,7 +561,6 @@ fn converter_figures_are_consistent_and_demos_finite() {
             &req,
             circuit,
             p.gain,
-            p.band_high,
             &NoiseConfig { temperature: req.analysis.temperature, ..NoiseConfig::default() },
         );
         println!(
@@ -476,6 +573,15 @@ fn converter_figures_are_consistent_and_demos_finite() {
             a.enob
         );
         let id = demo.id;
+        let nyquist = 0.5 * req.destination.sample_rate;
+        // A sampling converter: up to REACH × the fastest corner, or where the tail stopped
+        // (at least a decade past that corner); an oversampling one: Nyquist.
+        let corner = noise::fastest_corner(circuit).unwrap_or(nyquist);
+        let (band_min, band_max) = if req.destination.converter.samples() {
+            (10.0 * corner, noise::REACH * corner)
+        } else {
+            (nyquist, nyquist)
+        };
         let span = req.destination.max - req.destination.min;
         let fs_rms = span / (2.0 * 2f64.sqrt());
         let numbers = [
@@ -576,14 +682,21 @@ fn converter_figures_are_consistent_and_demos_finite() {
             row_rel(format!("{id}: RADC listed"), has("RADC"), 1.0, 0.0, 0.0, "API"),
             row_rel(format!("{id}: U1 voltage noise listed"), has("U1 voltage noise"), 1.0, 0.0, 0.0, "API"),
             row_rel(format!("{id}: U1 current noise listed"), has("U1 current noise"), 1.0, 0.0, 0.0, "API"),
-            row_rel(format!("{id}: density points"), a.density.len() as f64, 160.0, 0.0, 0.0, "NoiseConfig::points"),
             row_rel(
-                format!("{id}: band high ≤ Nyquist"),
-                (a.band[1] <= 0.5 * req.destination.sample_rate) as u8 as f64,
+                format!("{id}: density points below Nyquist"),
+                a.density.iter().filter(|q| q.f <= nyquist * (1.0 + 1e-12)).count() as f64,
+                if a.band[1] >= nyquist { 160.0 } else { a.density.len() as f64 },
+                0.0,
+                0.0,
+                "NoiseConfig::points",
+            ),
+            row_rel(
+                format!("{id}: band high within the rule"),
+                (a.band[1] >= band_min * (1.0 - 1e-9) && a.band[1] <= band_max * (1.0 + 1e-9)) as u8 as f64,
                 1.0,
                 0.0,
                 0.0,
-                "band rule",
+                BAND_RULE,
             ),
         ]);
     }
@@ -593,13 +706,12 @@ fn converter_figures_are_consistent_and_demos_finite() {
     let demo = request(demos::ALL[0].json);
     let d = design(&demo);
     let circuit = d.circuit.as_ref().expect("the first demo designs");
-    for (what, gain, corner, c) in [
-        ("zero gain", 0.0, None, NoiseConfig::default()),
-        ("corner below the band", 1.0, Some(1e-3), NoiseConfig::default()),
-        ("no points", 1.0, None, cfg(300.0, 0, true)),
-        ("NaN temperature", f64::NAN, Some(f64::NAN), cfg(f64::NAN, 3, true)),
+    for (what, gain, c) in [
+        ("zero gain", 0.0, NoiseConfig::default()),
+        ("no points", 1.0, cfg(300.0, 0, true)),
+        ("NaN temperature", f64::NAN, cfg(f64::NAN, 3, true)),
     ] {
-        let a = noise::noise(&demo, circuit, gain, corner, &c);
+        let a = noise::noise(&demo, circuit, gain, &c);
         let numbers = [
             a.band[0],
             a.band[1],

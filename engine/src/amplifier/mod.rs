@@ -71,6 +71,9 @@ pub struct Amplifier {
     /// Corner below which voltage and current noise densities rise as 1/f (Hz).
     pub noise_corner: f64,
     pub open_loop_gain: f64,
+    /// Input offset change per volt of total supply change, V/V (the supply rejection ratio's
+    /// inverse; typical figures, common practice: 80 dB CMOS, 90 dB bipolar).
+    pub supply_rejection: f64,
     /// Names of the fields taken from the class rather than from the request.
     pub assumed: Vec<&'static str>,
 }
@@ -103,6 +106,7 @@ impl Amplifier {
             noise_current: pick("noise_current", spec.noise_current, class.noise_current),
             noise_corner: pick("noise_corner", spec.noise_corner, class.noise_corner),
             open_loop_gain: pick("open_loop_gain", spec.open_loop_gain, class.open_loop_gain),
+            supply_rejection: pick("supply_rejection", spec.supply_rejection, class.supply_rejection),
             assumed: Vec::new(),
         };
         let given_all = assumed.is_empty();
@@ -142,6 +146,7 @@ fn low_voltage_class() -> Amplifier {
         noise_current: 1e-15,
         noise_corner: 500.0,
         open_loop_gain: 1e5,
+        supply_rejection: 1e-4,
         assumed: Vec::new(),
     }
 }
@@ -165,6 +170,7 @@ fn wide_supply_class() -> Amplifier {
         noise_current: 0.4e-12,
         noise_corner: 10.0,
         open_loop_gain: 1e5,
+        supply_rejection: 10f64.powf(-4.5),
         assumed: Vec::new(),
     }
 }

@@ -1,7 +1,8 @@
 //! Checks that follow from the analyses: clipping, tolerance yield, noise against the LSB,
 //! sensor loading and wideband noise above Nyquist. Each says what to change.
 
-use super::{Analysis, Nominal};
+use super::tolerance::rails::SupplyShift;
+use super::{noise, Analysis, Nominal};
 use crate::diag::Check;
 use crate::request::Request;
 use crate::units::{format, Quantity};
@@ -12,6 +13,77 @@ pub const YIELD_WARNING: f64 = 0.99;
 pub const YIELD_ERROR: f64 = 0.90;
 /// Sensor loading above this gain error (fraction) is a warning.
 pub const LOADING_LIMIT: f64 = 0.001;
+
+/// The `supply` check: how far the rails' tolerance moves the converter pin, in LSB, and
+/// what takes it away, with the figures of each remedy.
+fn supply_check(req: &Request, s: &SupplyShift) -> Check {
+    let v = |x: f64| format(x, Quantity::Voltage);
+    let lsb = req.destination.lsb();
+    let in_lsb = |x: f64| if lsb > 0.0 { x / lsb } else { 0.0 };
+    let rails: Vec<String> = s
+        .rails
+        .iter()
+        .map(|r| {
+            let (tol, at) = (crate::units::format_percent(r.tolerance), v(r.volts));
+            format!("{} ({at} ±{tol}) {} ({:.1} LSB)", r.reference, v(r.shift), in_lsb(r.shift))
+        })
+        .collect();
+    let db = if s.supply_rejection > 0.0 { -20.0 * s.supply_rejection.log10() } else { 0.0 };
+    let mut msg = if rails.is_empty() {
+        "The rails have no tolerance to move the converter pin.".to_string()
+    } else {
+        format!(
+            "At the ends of their tolerance the rails move the converter pin by up to {} ({:.1} LSB): {}; the \
+                amplifiers' supply rejection ({db:.0} dB) accounts for {}.",
+            v(s.total),
+            s.total_lsb,
+            rails.join(", "),
+            v(s.rejection)
+        )
+    };
+    let d = &req.destination;
+    if s.ratiometric {
+        msg.push_str(
+            " Readings are ratiometric to the positive rail: a level taken as a share of it cancels in the codes, \
+                and the shift above is what remains (the rail now scales every reading of a signal that does not \
+                follow it).",
+        );
+    } else if s.reference > 0.0 {
+        msg.push_str(&format!(
+            " The converter's reference (±{}) moves a reading by up to {} ({:.1} LSB).",
+            crate::units::format_percent(d.reference_tolerance),
+            v(s.reference),
+            in_lsb(s.reference)
+        ));
+    }
+    if s.total_lsb <= 1.0 {
+        return Check::ok("supply", msg);
+    }
+    let level_part = (s.total - s.rejection).max(0.0);
+    let mut fixes = Vec::new();
+    if !d.reference_pin && !s.ratiometric && level_part > lsb {
+        fixes.push(format!(
+            "taking the levels from the converter's reference pin (destination.reference_pin) or reading \
+                ratiometrically (destination.ratiometric) removes the {} the level shifts take",
+            v(level_part)
+        ));
+    }
+    let tight = s.rails.iter().map(|r| r.tolerance).fold(0.0, f64::max);
+    if tight > TIGHT_RAIL {
+        fixes.push(format!(
+            "rails regulated to ±{} leave {:.1} LSB",
+            crate::units::format_percent(TIGHT_RAIL),
+            s.total_lsb * TIGHT_RAIL / tight
+        ));
+    }
+    if fixes.is_empty() {
+        return Check::ok("supply", msg);
+    }
+    Check::warning("supply", format!("{msg} More than one LSB: {}.", fixes.join("; ")))
+}
+
+/// A rail tolerance a linear regulator or reference-grade supply holds (common practice).
+const TIGHT_RAIL: f64 = 0.01;
 
 /// The checks for one set of analyses.
 pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
@@ -64,17 +136,28 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
         Check::ok("yield", msg)
     });
 
+    if let Some(s) = &a.tolerance.supply {
+        c.push(supply_check(req, s));
+    }
+
     let n = &a.noise;
     let top = n
         .contributors
         .first()
         .map(|t| format!(" The largest contributor is {} ({}).", t.part, v(t.output_rms)))
         .unwrap_or_default();
-    let noise_msg =
-        format!(
-        "Added noise is {} rms at the converter over {} … {} ({:.2} LSB; quantisation alone is {}); the chain reaches \
-            {:.1} dB SNR, {:.2} effective bits, for a full-scale sine.{}",
-        v(n.output_rms), hz(n.band[0]), hz(n.band[1]), n.lsb_ratio, v(n.quantization_rms), n.snr_db, n.enob, top
+    let noise_msg = format!(
+        "Added noise is {} rms at the converter over {} … {} ({}; {:.2} LSB; quantisation alone is {}); the chain \
+            reaches {:.1} dB SNR, {:.2} effective bits, for a full-scale sine.{}",
+        v(n.output_rms),
+        hz(n.band[0]),
+        hz(n.band[1]),
+        noise::band_note(req),
+        n.lsb_ratio,
+        v(n.quantization_rms),
+        n.snr_db,
+        n.enob,
+        top
     );
     c.push(if n.lsb_ratio > 1.0 {
         Check::warning(

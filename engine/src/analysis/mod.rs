@@ -95,7 +95,7 @@ pub fn analyse(
     let ac = response::ac_response(req, circuit, nominal.f_low_3db, nominal.f_high_3db, cfg.ac_points);
     let noise_cfg =
         noise::NoiseConfig { temperature: cfg.temperature, points: cfg.noise_points, include_amplifier: true };
-    let noise = noise::noise(req, circuit, nominal.gain, nominal.f_high_3db, &noise_cfg);
+    let noise = noise::noise(req, circuit, nominal.gain, &noise_cfg);
     let tol_cfg = tolerance::ToleranceConfig { runs: cfg.monte_carlo_runs, seed: cfg.seed, bins: cfg.histogram_bins };
     let tolerance = tolerance::tolerance(req, circuit, &tol_cfg);
     let loading = loading::loading(req, circuit);

@@ -48,16 +48,18 @@
 
 pub mod budget;
 mod builds;
+pub mod rails;
 mod summary;
 
 use serde::Serialize;
 
 use super::perturb::{Kernel, Param, ParamKind, Workspace};
 use super::AnalysisConfig;
-use crate::circuit::{Circuit, PartKind, StageRole};
+use crate::circuit::Circuit;
 use crate::request::{Coupling, Request};
 use crate::solve::Solver;
 use crate::units::{format, Quantity};
+use rails::Rail;
 
 /// Options of the tolerance analysis.
 #[derive(Debug, Clone, PartialEq)]
@@ -88,6 +90,9 @@ pub struct ToleranceAnalysis {
     /// Each class's part of the worst-case spread and the amplifier figures that keep it
     /// inside the converter range; `None` when the circuit could not be analysed.
     pub budget: Option<budget::Budget>,
+    /// How far the rails and the converter's reference move the pin (the `supply` check);
+    /// `None` when the circuit could not be analysed.
+    pub supply: Option<rails::SupplyShift>,
 }
 
 /// Extreme values over the tolerance box, each as `[low, high]` (`NaN`, JSON `null`, when
@@ -168,7 +173,8 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
             let cfg = &ToleranceConfig { bins: cfg.bins.min(MAX_BINS), ..cfg.clone() };
             let notes = vec![format!("No builds were drawn: {reason}.")];
             let monte_carlo = summary::monte_carlo(Vec::new(), Vec::new(), [0; 4], 0, req, cfg, notes);
-            return ToleranceAnalysis { worst_case: WorstCase::unknown(&reason), monte_carlo, budget: None };
+            let worst_case = WorstCase::unknown(&reason);
+            return ToleranceAnalysis { worst_case, monte_carlo, budget: None, supply: None };
         }
     };
     let cfg = &ToleranceConfig { runs: cfg.runs.min(MAX_RUNS), seed: cfg.seed, bins: cfg.bins.min(MAX_BINS) };
@@ -183,7 +189,10 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
     if let Some((lo, hi)) = model.limits {
         usable = (usable.0.max(lo), usable.1.min(hi));
     }
-    let budget = nominal.map(|n| budget::budget(model.kernel.params(), &effect, [n[0], n[1]], usable));
+    let classes: Vec<usize> =
+        model.rails.iter().map(|r| if r.moves_swing { budget::RAILS } else { budget::REFERENCE }).collect();
+    let budget = nominal.map(|n| budget::budget(model.kernel.params(), &classes, &effect, [n[0], n[1]], usable));
+    let supply = Some(rails::supply_shift(req, &model.rails, &model.per_offset, circuit.amplifier.supply_rejection));
     let span = (req.destination.max - req.destination.min).abs();
     let drawn = significant(&effect, span);
     // The builds run on a kernel in which the parts held nominal (and the capacitors, which
@@ -218,7 +227,15 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
     let mut mc_ws = mc.kernel.workspace();
     let (builds, clips, counts) = builds::draw_builds(mc, &mut mc_ws, req, cfg, &mc_drawn);
     let mut notes = distributions(model.kernel.params());
-    for r in &model.rails {
+    for r in model.rails.iter().filter(|r| !r.moves_swing) {
+        notes.push(format!(
+            "Converter reference ({}): uniform over ±{} (request field destination.reference_tolerance); a reading \
+                is stated as its equivalent at the pin.",
+            format(r.volts, Quantity::Voltage),
+            crate::units::format_percent(r.tolerance)
+        ));
+    }
+    for r in model.rails.iter().filter(|r| r.moves_swing) {
         notes.push(format!(
             "Rail {} ({}): uniform over ±{} (request field supply_tolerance); the swing limit on its side moves with \
                 it.",
@@ -249,7 +266,7 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
         ));
     }
     let monte_carlo = summary::monte_carlo(builds, clips, counts, cfg.runs, req, cfg, notes);
-    ToleranceAnalysis { worst_case, monte_carlo, budget }
+    ToleranceAnalysis { worst_case, monte_carlo, budget, supply }
 }
 
 /// The compiled circuit with the request's source and the amplifier's limits.
@@ -262,20 +279,10 @@ struct Model {
     /// Nominal complex mid-band gain over nominal short-capacitor gain (AC coupling).
     ac_scale: f64,
     limits: Option<(f64, f64)>,
-    /// The rails as parameters after the kernel's own (see [`Rail`]).
+    /// The rails and the converter's reference as parameters after the kernel's own.
     rails: Vec<Rail>,
-}
-
-/// A rail as a tolerance parameter: its relative deviation δ lies within ±`tolerance`;
-/// the circuit is linear in the rail's voltage, so each quantity moves by `effect`·δ
-/// (the change per unit of δ, from the solver with nominal parts) and the swing limit on
-/// that side moves by `volts`·δ.
-#[derive(Debug, Clone)]
-struct Rail {
-    reference: String,
-    volts: f64,
-    tolerance: f64,
-    effect: [f64; 4],
+    /// Each amplifier offset's change of every quantity per volt.
+    per_offset: Vec<[f64; 4]>,
 }
 
 impl Model {
@@ -297,8 +304,37 @@ impl Model {
             }
         }
         let mid = 0.5 * (s.min + s.max);
-        let rails = rails(req, circuit, ac, mid);
-        Ok(Model { kernel, ac, s_min: s.min, s_max: s.max, mid, ac_scale, limits, rails })
+        let mut model = Model {
+            kernel,
+            ac,
+            s_min: s.min,
+            s_max: s.max,
+            mid,
+            ac_scale,
+            limits,
+            rails: Vec::new(),
+            per_offset: Vec::new(),
+        };
+        // Each amplifier offset's change of every quantity per volt (for the supply rejection).
+        let mut ws = model.kernel.workspace();
+        let zero = vec![0.0; model.kernel.params().len()];
+        let base = model.raw_parts(&zero, &mut ws).unwrap_or([0.0; 4]);
+        let mut per_offset = Vec::new();
+        for (i, p) in model.kernel.params().iter().enumerate() {
+            if p.kind != ParamKind::Offset || !(p.bound > 0.0) {
+                continue;
+            }
+            let mut x = zero.clone();
+            x[i] = p.bound;
+            let hi = model.raw_parts(&x, &mut ws);
+            x[i] = -p.bound;
+            if let (Some(hi), Some(lo)) = (hi, model.raw_parts(&x, &mut ws)) {
+                per_offset.push(std::array::from_fn(|q| (hi[q] - lo[q]) / (2.0 * p.bound)));
+            }
+        }
+        model.rails = rails::rails(req, circuit, &rails::dc_quantities(req, ac, mid), base, &per_offset);
+        model.per_offset = per_offset;
+        Ok(model)
     }
 
     /// Bounds of every parameter: the kernel's, then the rails' tolerances.
@@ -323,7 +359,7 @@ impl Model {
     fn limits_of(&self, p: &[f64]) -> Option<(f64, f64)> {
         let (mut lo, mut hi) = self.limits?;
         let n = self.kernel.params().len();
-        for (rail, d) in self.rails.iter().zip(&p[n..]) {
+        for (rail, d) in self.rails.iter().zip(&p[n..]).filter(|(r, _)| r.moves_swing) {
             if rail.volts > 0.0 {
                 hi += rail.volts * d;
             } else {
@@ -381,39 +417,6 @@ fn clamp_in(limits: Option<(f64, f64)>, y: f64) -> f64 {
         Some((_, hi)) if y > hi => hi,
         _ => y,
     }
-}
-
-/// The circuit's rails as tolerance parameters, each quantity's change per unit of relative
-/// deviation found by the solver from a 0.1 % step of the rail (the circuit is linear in it).
-fn rails(req: &Request, circuit: &Circuit, ac: bool, mid: f64) -> Vec<Rail> {
-    const STEP: f64 = 1e-3;
-    let s = &req.source;
-    let quantities = |c: &Circuit| -> Option<[f64; 4]> {
-        let solver = Solver::new(c);
-        let at = |x: f64| solver.dc(x).ok().and_then(|o| o.voltage("adc"));
-        if ac {
-            let level = at(mid)?;
-            Some([level, level, 0.0, level])
-        } else {
-            let (y1, y2) = (at(s.min)?, at(s.max)?);
-            let g = slope(y1, y2, s.min, s.max);
-            Some([y1, y2, g, y1 - g * s.min])
-        }
-    };
-    let Some(nominal) = quantities(circuit) else { return Vec::new() };
-    let supplies = circuit.parts.iter().filter(|p| p.stage == StageRole::Supply && p.kind == PartKind::VoltageSource);
-    supplies
-        .filter_map(|p| {
-            let tolerance = req.rail_tolerance(p.value);
-            let mut c = circuit.clone();
-            let part = c.parts.iter_mut().find(|q| q.reference == p.reference)?;
-            part.value *= 1.0 + STEP;
-            let moved = quantities(&c)?;
-            let effect = std::array::from_fn(|q| (moved[q] - nominal[q]) / STEP);
-            Some(Rail { reference: p.reference.clone(), volts: p.value, tolerance, effect })
-        })
-        .filter(|r| r.tolerance > 0.0)
-        .collect()
 }
 
 fn slope(y1: f64, y2: f64, x1: f64, x2: f64) -> f64 {

@@ -170,6 +170,8 @@ pub enum PartRole {
     Rail,
     /// Bench: the converter's input load.
     ConverterLoad,
+    /// Bench: the converter's reference, brought out as a pin the levels are taken from.
+    ConverterReference,
 }
 
 impl PartRole {

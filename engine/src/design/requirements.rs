@@ -107,7 +107,7 @@ pub(super) fn from_budget(r: &mut Requirements, b: &crate::analysis::tolerance::
         )),
         (Some(o), Some(ib)) => r.summary.push(format!(
             "input offset ≤ {} and bias current ≤ {} keep the worst case inside the range (each with the other at \
-             {} / {}, with the parts' and rails' tolerances)",
+             {} / {}, with the tolerances of the parts, the rails and the reference)",
             v(o),
             i(ib),
             v(b.offset_stated),

@@ -38,6 +38,10 @@ pub const DEFAULT_INPUT_CAPACITANCE: f64 = 20e-12;
 /// the converter's datasheet governs).
 pub const DEFAULT_INJECTION_LIMIT: f64 = 5e-3;
 
+/// Default initial tolerance of the converter's reference, as a fraction (a dedicated voltage
+/// reference of the usual grades, common practice; the reference's datasheet governs).
+pub const DEFAULT_REFERENCE_TOLERANCE: f64 = 1e-3;
+
 /// What kind of converter the output drives.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
@@ -146,6 +150,18 @@ pub struct Destination {
     pub input_capacitance: f64,
     /// Largest current a fault may push into the converter's input protection, A.
     pub injection_limit: f64,
+    /// The converter's reference voltage, V (`None`: the larger magnitude of `min` and `max`;
+    /// a ratiometric converter's reference is the positive rail).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reference_voltage: Option<f64>,
+    /// Its initial tolerance, as a fraction (a ratiometric converter's is the rail's).
+    pub reference_tolerance: f64,
+    /// The reference is brought out as a pin the circuit may take its levels from.
+    #[serde(default)]
+    pub reference_pin: bool,
+    /// The converter's reference is the positive rail, so its readings are ratiometric to it.
+    #[serde(default)]
+    pub ratiometric: bool,
 }
 
 impl Destination {
@@ -175,6 +191,16 @@ impl Destination {
     /// One LSB of the converter's input span, V.
     pub fn lsb(&self) -> f64 {
         lsb_of(self.max - self.min, self.bits)
+    }
+
+    /// The converter's reference voltage on nominal rails (`rail_pos`: the positive rail a
+    /// ratiometric converter uses), V.
+    pub fn reference(&self, rail_pos: f64) -> f64 {
+        if self.ratiometric {
+            rail_pos
+        } else {
+            self.reference_voltage.unwrap_or(self.min.abs().max(self.max.abs()))
+        }
     }
 }
 
@@ -272,6 +298,36 @@ pub(super) fn read_destination(v: &Value) -> Result<Destination, RequestError> {
             "must be above 0 A and at most 100 mA (e.g. \"5 mA\", from the converter's datasheet)",
         ));
     }
+    let ratiometric = o.bool("ratiometric")?.unwrap_or(false);
+    let reference_voltage = o.q("reference_voltage", Quantity::Voltage)?;
+    let reference_tolerance = o.q("reference_tolerance", Quantity::Ratio)?;
+    let reference_pin = o.bool("reference_pin")?.unwrap_or(false);
+    if ratiometric {
+        let why = "does not apply to a ratiometric converter: its reference is the positive rail (clear ratiometric \
+            to give the reference's own figure)";
+        for (set, key) in [
+            (reference_voltage.is_some(), "reference_voltage"),
+            (reference_tolerance.is_some(), "reference_tolerance"),
+            (reference_pin, "reference_pin"),
+        ] {
+            if set {
+                return Err(o.err(key, why));
+            }
+        }
+    }
+    if let Some(v) = reference_voltage {
+        if !(v > 0.0) || v < 0.5 * min.abs().max(max.abs()) {
+            return Err(o.err(
+                "reference_voltage",
+                "must be above 0 V and at least half the converter's largest input (e.g. \"2.5 V\" for a 0 … 2.5 V \
+                    input)",
+            ));
+        }
+    }
+    let reference_tolerance = reference_tolerance.unwrap_or(DEFAULT_REFERENCE_TOLERANCE);
+    if !(0.0..0.2).contains(&reference_tolerance) {
+        return Err(o.err("reference_tolerance", "must be a fraction from 0 to 0.2 (e.g. \"0.1 %\")"));
+    }
     o.finish(&[
         "min",
         "max",
@@ -284,6 +340,10 @@ pub(super) fn read_destination(v: &Value) -> Result<Destination, RequestError> {
         "acquisition_time",
         "input_capacitance",
         "injection_limit",
+        "reference_voltage",
+        "reference_tolerance",
+        "reference_pin",
+        "ratiometric",
     ])?;
     Ok(Destination {
         min,
@@ -297,6 +357,10 @@ pub(super) fn read_destination(v: &Value) -> Result<Destination, RequestError> {
         acquisition_time,
         input_capacitance,
         injection_limit,
+        reference_voltage,
+        reference_tolerance,
+        reference_pin,
+        ratiometric,
     })
 }
 

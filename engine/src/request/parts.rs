@@ -4,14 +4,14 @@
 use serde::{Deserialize, Serialize};
 use serde_json::Value;
 
-use super::json::Obj;
+use super::json::{decibels, is_decibels, Obj};
 use super::RequestError;
 use crate::units::Quantity;
 use crate::values::Series;
 
 /// The figures an amplifier may be given by (the keys of `amplifier`), in the order they are
 /// read, listed once for the reader, the page's inputs and the report.
-pub const AMPLIFIER_FIGURES: [&str; 14] = [
+pub const AMPLIFIER_FIGURES: [&str; 15] = [
     "gbw",
     "slew_rate",
     "swing_low",
@@ -26,6 +26,7 @@ pub const AMPLIFIER_FIGURES: [&str; 14] = [
     "noise_current",
     "noise_corner",
     "open_loop_gain",
+    "supply_rejection",
 ];
 
 /// The parts at hand.
@@ -88,6 +89,9 @@ pub struct AmplifierSpec {
     /// Open-loop DC gain, V/V.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub open_loop_gain: Option<f64>,
+    /// Supply rejection (input offset change per volt of supply change, as a ratio), V/V.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub supply_rejection: Option<f64>,
 }
 
 /// Options of the analyses (`analysis` in the request).
@@ -165,6 +169,13 @@ pub(super) fn read_amplifier(v: &Value) -> Result<AmplifierSpec, RequestError> {
         noise_current: o.q("noise_current", Quantity::CurrentNoise)?,
         noise_corner: o.q("noise_corner", Quantity::Frequency)?,
         open_loop_gain: o.q("open_loop_gain", Quantity::Ratio)?,
+        supply_rejection: match o.get("supply_rejection") {
+            // "80 dB" and "-80 dB" both mean 1e-4: a rejection is always below one.
+            Some(Value::String(t)) if is_decibels(t) => {
+                Some(10f64.powf(-decibels(&o.path_of("supply_rejection"), &Value::String(t.clone()))?.abs() / 20.0))
+            }
+            _ => o.q("supply_rejection", Quantity::Ratio)?,
+        },
     };
     for (key, val) in [("gbw", a.gbw), ("slew_rate", a.slew_rate), ("supply_max", a.supply_max)] {
         if let Some(x) = val {
@@ -188,6 +199,15 @@ pub(super) fn read_amplifier(v: &Value) -> Result<AmplifierSpec, RequestError> {
     if let Some(g) = a.open_loop_gain {
         if g < 10.0 {
             return Err(o.err("open_loop_gain", "must be at least 10 V/V (an amplifier's open-loop gain, e.g. 1e5)"));
+        }
+    }
+    if let Some(r) = a.supply_rejection {
+        if !(r > 0.0 && r < 1.0) {
+            return Err(o.err(
+                "supply_rejection",
+                "must lie between 0 and 1 V/V (offset change per volt of supply), or be given in decibels, e.g. \
+                    \"80 dB\" or 1e-4",
+            ));
         }
     }
     // Negative offsets and bias currents describe the same spread as positive ones.

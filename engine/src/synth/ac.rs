@@ -64,7 +64,7 @@ fn variant(
     let (ref_rail, ref_node) = if yc.abs() < 1e-6 {
         (0.0, "0")
     } else if yc > 0.0 {
-        (rails.pos, "vpos")
+        super::level_source(req, rails, yc)
     } else if rails.is_dual() {
         (rails.neg, "vneg")
     } else {
@@ -160,10 +160,13 @@ fn variant(
     let leg = RoundConfig { min: cfg.min.max(block_for(ratings::CERAMIC_UP_TO)), ..cfg };
     let leg_pairs = || {
         let within = pairs(leg, g_plan - 1.0, 0.0, 3);
-        if within.is_empty() { pairs(cfg, g_plan - 1.0, 0.0, 3) } else { within }
+        if within.is_empty() {
+            pairs(cfg, g_plan - 1.0, 0.0, 3)
+        } else {
+            within
+        }
     };
-    let runs: Vec<Option<(f64, f64)>> =
-        if follower { vec![None] } else { leg_pairs().into_iter().map(Some).collect() };
+    let runs: Vec<Option<(f64, f64)>> = if follower { vec![None] } else { leg_pairs().into_iter().map(Some).collect() };
     let anchors = anchors(cfg);
     let ideal = &ideal;
     let anchors = &anchors;
@@ -183,6 +186,7 @@ fn variant(
 
     let mut bld = Builder::default();
     super::bench(&mut bld, req, rails);
+    super::reference_pin(&mut bld, req, rails, ref_node);
     let rtol = Some(req.parts.resistor_tolerance);
     let ctol = Some(req.parts.capacitor_tolerance);
     let inp = "inp1";

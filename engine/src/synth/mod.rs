@@ -229,6 +229,33 @@ fn bench(bld: &mut Builder, req: &Request, rails: Rails) {
     );
 }
 
+/// Node of the converter's reference pin when levels are taken from it.
+pub const REFERENCE_NODE: &str = "vref";
+
+/// Where a level shift or bias of `level` volts (above ground) is taken from: the converter's
+/// reference pin when the request brings one out (and it reaches above the level), else the
+/// positive rail. Returns the source's voltage and node.
+pub fn level_source(req: &Request, rails: Rails, level: f64) -> (f64, &'static str) {
+    let d = &req.destination;
+    let vref = d.reference(rails.pos);
+    if d.reference_pin && !d.ratiometric && level < vref {
+        (vref, REFERENCE_NODE)
+    } else {
+        (rails.pos, "vpos")
+    }
+}
+
+/// Adds the converter's reference pin as the bench source `VREF` when `node` is its node
+/// and it is not there yet.
+pub fn reference_pin(bld: &mut Builder, req: &Request, rails: Rails, node: &str) {
+    if node != REFERENCE_NODE || bld.parts.iter().any(|p| p.role == Some(PartRole::ConverterReference)) {
+        return;
+    }
+    let at = (StageRole::Supply, PartRole::ConverterReference);
+    let v = req.destination.reference(rails.pos);
+    bld.bench("VREF", PartKind::VoltageSource, v, &[REFERENCE_NODE, "0"], at, "converter's reference pin");
+}
+
 /// Wraps the built parts into the circuit model.
 pub(crate) fn finish(bld: Builder, stages: Vec<Stage>, amp: &Amplifier, rails: Rails) -> Circuit {
     Circuit { parts: bld.parts, stages, amplifier: amp.clone(), rail_pos: rails.pos, rail_neg: rails.neg }

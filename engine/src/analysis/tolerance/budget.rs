@@ -1,6 +1,7 @@
 //! The spread budget of the worst case: how much of the output's spread at each end of the
 //! sensor's range each class of parameter takes (resistors, amplifier input offset,
-//! amplifier bias currents, the rails), ranked, and the largest input offset and bias
+//! amplifier bias currents, the rails with the amplifiers' supply rejection, the converter's
+//! reference), ranked, and the largest input offset and bias
 //! current an amplifier may have for the worst case to stay inside the converter range.
 //!
 //! The worst case is linear in every parameter near nominal, so a class's part of the
@@ -67,13 +68,26 @@ fn class(kind: ParamKind) -> Option<usize> {
     }
 }
 
-const NAMES: [&str; 4] = ["resistor tolerances", "amplifier input offset", "amplifier bias currents", "rail tolerance"];
+const NAMES: [&str; CLASSES] = [
+    "resistor tolerances",
+    "amplifier input offset",
+    "amplifier bias currents",
+    "rail tolerance",
+    "converter reference",
+];
+const CLASSES: usize = 5;
+/// The class of a rail (with the amplifiers' supply rejection) among the entries after the
+/// parameters.
+pub const RAILS: usize = 3;
+/// The class of the converter's reference.
+pub const REFERENCE: usize = 4;
 
 /// The budget from each parameter's full-range effect on `[output at min, output at max, …]`
-/// (`params` then one entry per rail), the nominal outputs and the converter range.
-pub fn budget(params: &[Param], effect: &[[f64; 4]], nominal: [f64; 2], range: (f64, f64)) -> Budget {
+/// (`params`, then the entries after them with their classes `extra`: [`RAILS`] or
+/// [`REFERENCE`]), the nominal outputs and the converter range.
+pub fn budget(params: &[Param], extra: &[usize], effect: &[[f64; 4]], nominal: [f64; 2], range: (f64, f64)) -> Budget {
     // Spread per class and end: half the sum of the full-range effects.
-    let mut spread = [[0.0f64; 2]; 4];
+    let mut spread = [[0.0f64; 2]; CLASSES];
     let mut offset_bound = 0.0f64;
     let mut bias_bound = 0.0f64;
     for (i, e) in effect.iter().enumerate() {
@@ -86,7 +100,7 @@ pub fn budget(params: &[Param], effect: &[[f64; 4]], nominal: [f64; 2], range: (
                 }
                 class(p.kind)
             }
-            None => Some(3),
+            None => extra.get(i - params.len()).copied(),
         };
         let Some(c) = c else { continue };
         for q in 0..2 {
@@ -100,7 +114,7 @@ pub fn budget(params: &[Param], effect: &[[f64; 4]], nominal: [f64; 2], range: (
     let worse =
         if spread.iter().map(|s| s[0]).sum::<f64>() >= spread.iter().map(|s| s[1]).sum::<f64>() { 0 } else { 1 };
     let total: f64 = spread.iter().map(|s| s[worse]).sum();
-    let mut contributors: Vec<Contributor> = (0..4)
+    let mut contributors: Vec<Contributor> = (0..CLASSES)
         .filter(|&c| spread[c][worse] > 0.0)
         .map(|c| Contributor {
             what: NAMES[c].to_string(),
@@ -118,7 +132,7 @@ pub fn budget(params: &[Param], effect: &[[f64; 4]], nominal: [f64; 2], range: (
         let limit = (0..2)
             .filter(|&q| per_unit(q) > 0.0)
             .map(|q| {
-                let others: f64 = (0..4).filter(|&k| k != c).map(|k| spread[k][q]).sum();
+                let others: f64 = (0..CLASSES).filter(|&k| k != c).map(|k| spread[k][q]).sum();
                 ((margins[q] - others) / per_unit(q)).max(0.0)
             })
             .fold(f64::INFINITY, f64::min);

@@ -128,6 +128,7 @@ impl Chain {
                 parts,
             });
             if let Some((node, top, bottom, c)) = reference.and_then(|r| r.divider) {
+                crate::synth::reference_pin(&mut bld, req, rails, node);
                 let vref = reference.map_or(0.0, |r| r.vref);
                 let parts = vec![
                     bld.add(

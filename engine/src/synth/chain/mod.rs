@@ -78,7 +78,7 @@ impl Chain {
             return Some(Reference { vref: 0.0, divider: None });
         }
         let (rail, node) = if want > 0.0 {
-            (rails.pos, "vpos")
+            crate::synth::level_source(req, rails, want)
         } else if rails.is_dual() {
             (rails.neg, "vneg")
         } else {

@@ -12,6 +12,7 @@ pub(super) fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synt
     let req = ctx.req;
     let mut bld = Builder::default();
     crate::synth::bench(&mut bld, req, ctx.rails);
+    crate::synth::reference_pin(&mut bld, req, ctx.rails, ctx.level_node);
     let tol = Some(req.parts.resistor_tolerance);
     let has_feedback = c.net.slots.iter().any(|(s, _)| *s == Slot::Feedback);
     let has_plus = c.net.slots.iter().any(|(s, _)| matches!(s, Slot::Plus(_)));
@@ -25,7 +26,7 @@ pub(super) fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synt
     let inn = if has_feedback { "inn1" } else { "adc" };
     let node = |p: Pot| match p {
         Pot::Sensor => "sense",
-        Pot::Pos => "vpos",
+        Pot::Pos => ctx.level_node,
         Pot::Neg => "vneg",
         Pot::Gnd => "0",
     };
@@ -78,8 +79,8 @@ pub(super) fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synt
     gain_parts.push(u);
     let rs = ctx.rs;
     let s = &req.source;
-    let y1 = c.net.output(s.min, rs, ctx.rails);
-    let y2 = c.net.output(s.max, rs, ctx.rails);
+    let y1 = c.net.output(s.min, rs, ctx.level);
+    let y2 = c.net.output(s.max, rs, ctx.level);
     let m = (y2 - y1) / (s.max - s.min);
     let b = y1 - m * s.min;
     let v = |x: f64| format(x, Quantity::Voltage);
@@ -125,7 +126,7 @@ pub(super) fn build(ctx: &Ctx, amp: &Amplifier, c: Candidate, t: Target) -> Synt
         equations,
         rounding_error: c.error,
         plus_range: {
-            let (a, b) = (c.net.plus_voltage(s.min, rs, ctx.rails), c.net.plus_voltage(s.max, rs, ctx.rails));
+            let (a, b) = (c.net.plus_voltage(s.min, rs, ctx.level), c.net.plus_voltage(s.max, rs, ctx.level));
             (a.min(b), a.max(b))
         },
         checks: Vec::new(),

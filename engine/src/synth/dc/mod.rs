@@ -70,10 +70,31 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, target: Target, 
 pub fn synthesize_with(
     req: &Request, amp: &Amplifier, rails: Rails, target: Target, limits: Limits, templates: &[Template],
 ) -> Option<Synthesis> {
+    // Offsets come from the converter's reference pin where the request brings one out; when
+    // no template works from it, from the positive rail.
+    let (volts, node) = super::level_source(req, rails, 0.0);
+    if node != "vpos" {
+        let level = Rails { pos: volts, neg: rails.neg };
+        let from_pin = synthesize_from(req, amp, rails, (level, node), target, limits, templates);
+        if from_pin.is_some() {
+            return from_pin;
+        }
+    }
+    synthesize_from(req, amp, rails, (rails, "vpos"), target, limits, templates)
+}
+
+/// [`synthesize_with`] with the offsets taken from `level`: its rails (the positive one
+/// replaced by the level source's voltage) and the level source's node.
+fn synthesize_from(
+    req: &Request, amp: &Amplifier, rails: Rails, level: (Rails, &'static str), target: Target, limits: Limits,
+    templates: &[Template],
+) -> Option<Synthesis> {
     let ctx = Ctx {
         req,
         open_loop_gain: amp.open_loop_gain,
         rails,
+        level: level.0,
+        level_node: level.1,
         limits,
         rs: req.source.impedance,
         cfg: RoundConfig::of(&req.parts),
@@ -110,6 +131,11 @@ struct Ctx<'a> {
     req: &'a Request,
     open_loop_gain: f64,
     rails: Rails,
+    /// The rails as the offset legs see them: the positive one is the level source's voltage
+    /// (the converter's reference pin or the positive rail).
+    level: Rails,
+    /// The level source's node.
+    level_node: &'static str,
     limits: Limits,
     rs: f64,
     cfg: RoundConfig,
@@ -135,7 +161,7 @@ impl Ctx<'_> {
         // the range the target allows (headroom and output swing), so it costs ten times as much.
         let (lo, hi) = (t.at_min.min(t.at_max), t.at_min.max(t.at_max));
         for x in [s.min, s.max] {
-            let y = net.output(x, self.rs, self.rails);
+            let y = net.output(x, self.rs, self.level);
             let out = ((lo - y).max(0.0) + (y - hi).max(0.0)) / self.span;
             // An outward miss costs ten times an inward one; `design` pulls the target in when
             // the best rounding still misses outward.
@@ -145,7 +171,7 @@ impl Ctx<'_> {
         }
         let lim = self.limits;
         for x in [s.min, s.max] {
-            let vp = net.plus_voltage(x, self.rs, self.rails);
+            let vp = net.plus_voltage(x, self.rs, self.level);
             if vp < lim.in_lo - 1e-9 || vp > lim.in_hi + 1e-9 {
                 c += 10.0;
             }
@@ -159,7 +185,7 @@ impl Ctx<'_> {
     }
 
     fn output_err(&self, net: &Net, x: f64, want: f64) -> f64 {
-        (net.output(x, self.rs, self.rails) - want).abs()
+        (net.output(x, self.rs, self.level) - want).abs()
     }
 
     /// Rounds a template and returns the candidate. When `pairs` is given, the last two slots

@@ -13,11 +13,11 @@ pub(super) fn noninv_plus(ctx: &Ctx, t: Target, boost: f64) -> Option<Candidate>
     // rounding search then sees the remaining error like any other.
     let tiny = ctx.cfg.min / ctx.cfg.max;
     let (rail, rail_pot) = if b >= 0.0 {
-        (ctx.rails.pos, Pot::Pos)
+        (ctx.level.pos, Pot::Pos)
     } else if ctx.rails.is_dual() {
         (ctx.rails.neg, Pot::Neg)
-    } else if -b / ctx.rails.pos < tiny {
-        (ctx.rails.pos, Pot::Pos)
+    } else if -b / ctx.level.pos < tiny {
+        (ctx.level.pos, Pot::Pos)
     } else {
         return None;
     };
@@ -85,7 +85,7 @@ pub(super) fn noninv_plus(ctx: &Ctx, t: Target, boost: f64) -> Option<Candidate>
 /// m > 0, b < 0 on one supply: y = V+·(1 + (g_g + g_h)/g_f) − V_pos·g_h/g_f.
 pub(super) fn noninv_minus(ctx: &Ctx, t: Target, boost: f64) -> Option<Candidate> {
     let (m, b) = (t.gain, t.offset);
-    let vp = ctx.rails.pos;
+    let vp = ctx.level.pos;
     if b >= 0.0 || ctx.rails.is_dual() || vp <= 0.0 {
         return None;
     }
@@ -155,8 +155,8 @@ pub(super) fn inv_plus(ctx: &Ctx, t: Target) -> Option<Candidate> {
     }
     let (rail, pot) = if vplus.abs() < 1e-6 {
         (0.0, Pot::Gnd)
-    } else if vplus > 0.0 && vplus < ctx.rails.pos {
-        (ctx.rails.pos, Pot::Pos)
+    } else if vplus > 0.0 && vplus < ctx.level.pos {
+        (ctx.level.pos, Pot::Pos)
     } else if vplus < 0.0 && vplus > ctx.rails.neg {
         (ctx.rails.neg, Pot::Neg)
     } else {
@@ -197,7 +197,7 @@ pub(super) fn inv_sum(ctx: &Ctx, t: Target) -> Option<Candidate> {
         return None;
     }
     let (vh, pot) = if b < 0.0 {
-        (ctx.rails.pos, Pot::Pos)
+        (ctx.level.pos, Pot::Pos)
     } else if ctx.rails.is_dual() {
         (ctx.rails.neg, Pot::Neg)
     } else {

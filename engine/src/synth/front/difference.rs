@@ -156,7 +156,9 @@ pub fn synthesize(req: &Request, amp: &Amplifier, rails: Rails, t: Target, _limi
         GND.to_string()
     } else {
         let (rail_node, rail) = if t.offset > 0.0 {
-            ("vpos", rails.pos)
+            let (v, node) = crate::synth::level_source(req, rails, t.offset);
+            crate::synth::reference_pin(&mut bld, req, rails, node);
+            (node, v)
         } else if rails.is_dual() {
             ("vneg", rails.neg)
         } else {

@@ -86,7 +86,10 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<BufferDesign
     let cs = s.capacitance.unwrap_or(0.0);
     let r_s = s.impedance;
     let mid = 0.5 * (s.min + s.max);
-    let mid_rail = if rails.is_dual() { 0.0 } else { 0.5 * rails.pos };
+    // The return's reference halves the level source: the converter's reference pin where
+    // the request brings one out, else the positive rail.
+    let (source, node) = crate::synth::level_source(req, rails, 0.5 * rails.pos);
+    let mid_rail = if rails.is_dual() { 0.0 } else { 0.5 * source };
     // What the follower can take and drive on the rails at the low end of their tolerance;
     // a return at mid-rail comes down with the rail.
     let low = crate::synth::low_rails(req, rails);
@@ -94,7 +97,7 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails) -> Option<BufferDesign
     let (in_lo, in_hi) = amp.input_limits(low);
     let m = crate::synth::SWING_MARGIN;
     let reach = (out_lo.max(in_lo) + m, out_hi.min(in_hi) - m);
-    let scale = if rails.pos > 0.0 { low.pos / rails.pos } else { 1.0 };
+    let scale = if node == "vpos" && rails.pos > 0.0 { low.pos / rails.pos } else { 1.0 };
     let range = |input_level: f64| (input_level + (s.min - mid), input_level + (s.max - mid));
     let inside = |(lo, hi): (f64, f64), ret: f64| lo + (scale - 1.0) * ret >= reach.0 && hi <= reach.1;
     match s.coupling {
@@ -182,8 +185,10 @@ pub fn insert(circuit: &mut Circuit, req: &Request, b: &BufferDesign, rails: Rai
     }
     {
         if ret != GND {
+            let (_, from) = crate::synth::level_source(req, rails, 0.5 * rails.pos);
+            crate::synth::reference_pin(&mut bld, req, rails, from);
             let divider = Divider {
-                from: "vpos",
+                from,
                 tap: "bref",
                 top: REF_LEG,
                 bottom: REF_LEG,

@@ -168,11 +168,13 @@ pub fn insert(circuit: &mut Circuit, req: &Request, t: &TiaDesign, rails: Rails)
         "feedback capacitor C_f: keeps the stage stable and flat against the diode's capacitance",
     ));
     if t.bias != 0.0 {
-        let ratio = t.bias / rails.pos;
+        let (source, from) = crate::synth::level_source(req, rails, t.bias);
+        crate::synth::reference_pin(&mut bld, req, rails, from);
+        let ratio = t.bias / source;
         let top = BIAS_LEG;
         let bottom = values::nearest(req.parts.resistor_series, top * ratio / (1.0 - ratio)).unwrap_or(top);
         let divider = Divider {
-            from: "vpos",
+            from,
             tap: "pdb",
             top,
             bottom,
