@@ -111,3 +111,55 @@ fn a_level_from_the_rail_moves_the_pin_and_one_from_the_reference_does_not() {
     ));
     check(&rows);
 }
+
+/// Every amplifier inside its limits: the beehive scale's instrumentation amplifier runs its
+/// bridge from a fixed 3.3 V excitation while the amplifiers' rail may sit 5 % low. The first
+/// stage's outputs are inner nodes the engine watches; ngspice on the exported netlist with
+/// the rail at each end of its tolerance puts them where the engine's rows and rail effects
+/// say, inside their swing, and the design's stage_limits check is content.
+#[test]
+fn inner_stages_hold_their_limits_at_both_rail_extremes() {
+    let req = Request::from_json(rangefit_engine::demos::ALL.iter().find(|d| d.id == "beehive-scale").unwrap().json)
+        .expect("the demo reads");
+    let d = design(&req);
+    assert!(errors(&d).is_empty(), "errors: {:?}", errors(&d));
+    let a = d.analysis.as_ref().expect("analyses");
+    let c = d.checks.iter().find(|c| c.id == "stage_limits").expect("a stage_limits check");
+    let mut rows: Vec<Row> =
+        vec![fact(format!("stage_limits is ok: {}", c.message), c.severity == Severity::Ok, "design contract")];
+    let net = netlist(&req, d.circuit.as_ref().expect("a circuit"), NetlistConfig { testbench: false });
+    let first: Vec<_> = a
+        .tolerance
+        .stages
+        .iter()
+        .filter(|r| r.what == "output" && (r.amplifier == "U1" || r.amplifier == "U2"))
+        .collect();
+    assert!(!first.is_empty(), "the first stage's outputs are watched: {:?}", a.tolerance.stages);
+    let amp = &d.amplifier;
+    for r in first {
+        let node = d.circuit.as_ref().unwrap().part(&r.amplifier).unwrap().nodes[4].clone();
+        let mut alters = Vec::new();
+        for rail in [3.3, 3.3 * 0.95] {
+            alters.push(vec![format!("alter VPOS dc = {rail:e}"), format!("alter VSENSE dc = {:e}", r.at)]);
+        }
+        let v = spice::operating_points("beehive-inner", &net, &alters, &[&node]);
+        rows.push(row_rel(
+            format!("{} output at sensor {:.3e}: engine nominal against ngspice (V)", r.amplifier, r.at),
+            r.nominal,
+            v[0][0],
+            1e-4,
+            1e-5,
+            OP,
+        ));
+        let low_limit = 3.3 * 0.95 - amp.swing_high;
+        rows.push(fact(
+            format!(
+                "ngspice: {} output {:.4} V stays under its {:.4} V limit with the rail 5 % low",
+                r.amplifier, v[1][0], low_limit
+            ),
+            v[1][0] < low_limit,
+            OP,
+        ));
+    }
+    check(&rows);
+}

@@ -2,6 +2,7 @@
 //! sensor loading and wideband noise above Nyquist. Each says what to change.
 
 use super::tolerance::rails::SupplyShift;
+use super::tolerance::stages::StageRow;
 use super::{noise, Analysis, Nominal};
 use crate::diag::Check;
 use crate::request::Request;
@@ -82,6 +83,45 @@ fn supply_check(req: &Request, s: &SupplyShift) -> Check {
     Check::warning("supply", format!("{msg} More than one LSB: {}.", fixes.join("; ")))
 }
 
+/// The `stage_limits` check: every amplifier's output and input over the tolerance box.
+fn stage_check(req: &Request, rows: &[StageRow], clipped: usize) -> Option<Check> {
+    let v = |x: f64| format(x, Quantity::Voltage);
+    let at = |x: f64| format(x, req.source.kind.quantity());
+    let tight = rows.iter().min_by(|a, b| a.margin().total_cmp(&b.margin()))?;
+    let words = |r: &StageRow| {
+        format!(
+            "{}'s {} spans {} … {} at sensor {} over the tolerance box, against its {} … {}",
+            r.amplifier,
+            r.what,
+            v(r.worst[0]),
+            v(r.worst[1]),
+            at(r.at),
+            v(r.limits[0]),
+            v(r.limits[1])
+        )
+    };
+    if tight.margin() >= 0.0 {
+        return Some(Check::ok(
+            "stage_limits",
+            format!("Every amplifier stays inside its output swing and input range; the closest: {}.", words(tight)),
+        ));
+    }
+    let beyond: Vec<String> = rows.iter().filter(|r| r.margin() < 0.0).map(words).collect();
+    let nominal_out = rows.iter().any(|r| r.nominal < r.limits[0] || r.nominal > r.limits[1]);
+    let msg = format!("{}; the Monte Carlo counts such builds as clipped ({clipped} in all).", beyond.join("; "));
+    Some(if nominal_out {
+        Check::error(
+            "stage_limits",
+            format!(
+                "{msg} Even the nominal build leaves the limit: give that stage less gain \
+            or move its level."
+            ),
+        )
+    } else {
+        Check::warning("stage_limits", format!("{msg} The yield says how many builds that costs."))
+    })
+}
+
 /// A rail tolerance a linear regulator or reference-grade supply holds (common practice).
 const TIGHT_RAIL: f64 = 0.01;
 
@@ -116,7 +156,7 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
     let pct = |x: f64| format!("{:.2} %", 100.0 * x);
     let msg = format!(
         "{} of {} simulated builds (parts within tolerance, amplifier offset and bias currents spread) keep the output \
-            inside the converter range with the amplifier inside its swing; {} also keep the full {:.1} % headroom.{}",
+            inside the converter range with every amplifier inside its limits; {} also keep the full {:.1} % headroom.{}",
         pct(mc.yield_), mc.runs, pct(mc.yield_headroom), req.destination.headroom * 100.0,
         if mc.clipped > 0 {
             let share = pct(mc.clipped as f64 / mc.runs.max(1) as f64);
@@ -139,6 +179,7 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
     if let Some(s) = &a.tolerance.supply {
         c.push(supply_check(req, s));
     }
+    c.extend(stage_check(req, &a.tolerance.stages, mc.clipped));
 
     let n = &a.noise;
     let top = n

@@ -49,6 +49,7 @@
 pub mod budget;
 mod builds;
 pub mod rails;
+pub mod stages;
 mod summary;
 
 use serde::Serialize;
@@ -93,6 +94,8 @@ pub struct ToleranceAnalysis {
     /// How far the rails and the converter's reference move the pin (the `supply` check);
     /// `None` when the circuit could not be analysed.
     pub supply: Option<rails::SupplyShift>,
+    /// The worst case of every amplifier's output and input against its limits.
+    pub stages: Vec<stages::StageRow>,
 }
 
 /// Extreme values over the tolerance box, each as `[low, high]` (`NaN`, JSON `null`, when
@@ -174,7 +177,7 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
             let notes = vec![format!("No builds were drawn: {reason}.")];
             let monte_carlo = summary::monte_carlo(Vec::new(), Vec::new(), [0; 4], 0, req, cfg, notes);
             let worst_case = WorstCase::unknown(&reason);
-            return ToleranceAnalysis { worst_case, monte_carlo, budget: None, supply: None };
+            return ToleranceAnalysis { worst_case, monte_carlo, budget: None, supply: None, stages: Vec::new() };
         }
     };
     let cfg = &ToleranceConfig { runs: cfg.runs.min(MAX_RUNS), seed: cfg.seed, bins: cfg.bins.min(MAX_BINS) };
@@ -224,8 +227,9 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
             model.kernel.params().iter().position(|p| same(&p)).is_none_or(|i| drawn[i])
         })
         .collect();
+    let (stage_rows, inner) = stages::stage_limits(req, circuit, &model);
     let mut mc_ws = mc.kernel.workspace();
-    let (builds, clips, counts) = builds::draw_builds(mc, &mut mc_ws, req, cfg, &mc_drawn);
+    let (builds, clips, counts) = builds::draw_builds(mc, &mut mc_ws, req, cfg, &mc_drawn, &inner);
     let mut notes = distributions(model.kernel.params());
     for r in model.rails.iter().filter(|r| !r.moves_swing) {
         notes.push(format!(
@@ -266,7 +270,7 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
         ));
     }
     let monte_carlo = summary::monte_carlo(builds, clips, counts, cfg.runs, req, cfg, notes);
-    ToleranceAnalysis { worst_case, monte_carlo, budget, supply }
+    ToleranceAnalysis { worst_case, monte_carlo, budget, supply, stages: stage_rows }
 }
 
 /// The compiled circuit with the request's source and the amplifier's limits.

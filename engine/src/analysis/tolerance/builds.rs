@@ -6,14 +6,19 @@ use rand::{Rng, RngCore, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rand_distr::StandardNormal;
 
+use super::stages::Inner;
 use super::{summary, Model, ToleranceConfig};
+
+/// Clip bit of a build whose inner stage (an amplifier other than the one at the pin) leaves
+/// its limits.
+pub(super) const INNER_CLIP: u8 = 0b1000;
 use crate::analysis::perturb::{ParamKind, Workspace};
 use crate::request::Request;
 
 /// Draws and solves the builds: each build's limited quantities, and the counts of builds
 /// inside the converter range, inside the headroom, and covering the range-use fraction.
 pub(super) fn draw_builds(
-    model: &Model, ws: &mut Workspace, req: &Request, cfg: &ToleranceConfig, drawn: &[bool],
+    model: &Model, ws: &mut Workspace, req: &Request, cfg: &ToleranceConfig, drawn: &[bool], inner: &Inner,
 ) -> (Vec<[f64; 4]>, Vec<u8>, [usize; 4]) {
     let params = model.kernel.params();
     let mut rng = ChaCha8Rng::seed_from_u64(cfg.seed);
@@ -60,7 +65,11 @@ pub(super) fn draw_builds(
         if !(y[0].is_finite() && y[1].is_finite() && y[2].is_finite() && y[3].is_finite()) {
             continue;
         }
-        let clip = model.clips(r, limits);
+        let mut clip = model.clips(r, limits);
+        // An inner stage beyond its limits: the build fails, shown apart in both histograms.
+        if !inner.is_empty() && inner.clips(model, p) {
+            clip |= INNER_CLIP | 0b11;
+        }
         let (lo, hi) = if y[0] < y[1] { (y[0], y[1]) } else { (y[1], y[0]) };
         counts[0] += (clip == 0 && lo >= d.min && hi <= d.max) as usize;
         counts[3] += (clip != 0) as usize;

@@ -115,7 +115,8 @@ pub fn wanted(req: &Request, gain: f64) -> Option<String> {
 pub fn plan(req: &Request, amp: &Amplifier, rails: Rails, gain: f64, extra: f64, reason: String) -> InampDesign {
     let s = &req.source;
     let m = crate::synth::SWING_MARGIN;
-    let (out_lo, out_hi) = amp.output_limits(rails);
+    // The room on the rails at the low end of their tolerance (the common mode may not follow).
+    let (out_lo, out_hi) = amp.output_limits(crate::synth::low_rails(req, rails));
     let cm_lo = s.common_mode_min.unwrap_or(0.0);
     let cm_hi = s.common_mode_max.unwrap_or(cm_lo);
     // Each input amplifier's offset adds to the difference the stage multiplies.
