@@ -2,6 +2,7 @@
 //! alias rule and the in-band error, and the figures of both.
 
 use crate::diag::Check;
+use crate::ratings;
 use crate::request::Request;
 use crate::synth::drive::{self, DriveDesign};
 use crate::synth::filter::{self, sections::SectionKind, NoFilter};
@@ -15,6 +16,7 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
     let v = |x: f64| format(x, Quantity::Voltage);
     let r = |x: f64| format(x, Quantity::Resistance);
     let t = |x: f64| format(x, Quantity::Time);
+    let a = |x: f64| format(x, Quantity::Current);
     let Some(d) = d else {
         c.push(Check::ok(
             "converter_protection",
@@ -29,19 +31,17 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
                 {}; the acquisition time is {}.",
             d.settling_time_constants, r(d.resistor), format(cb, Quantity::Capacitance), t(ts), t(d.acquisition_time)
         );
-        c.push(if ts <= d.acquisition_time {
-            Check::ok("drive_settling", msg)
-        } else {
-            Check::warning(
-                "drive_settling",
-                format!(
-                    "{msg} The pin does not settle in time: a longer acquisition \
-                time, an amplifier with a higher GBW, or a converter with a smaller sampling capacitance would; R is \
-                held at {} by {}.",
-                    r(d.resistor),
-                    if d.r_protection_min >= d.r_stability_min { "the protection" } else { "stability" }
-                ),
-            )
+        c.push(match drive::remedies(req, d) {
+            None => Check::ok("drive_settling", msg),
+            Some(m) => {
+                let held = if d.r_protection_min >= d.r_stability_min { "the protection" } else { "stability" };
+                Check::warning(
+                    "drive_settling",
+                    format!("{msg} It does not settle in time; R is held at {} by {held}. {}.", r(d.resistor), {
+                        settling_ways(req, &m).join("; ")
+                    }),
+                )
+            }
         });
         let phase = d.phase_loss_deg.unwrap_or(0.0);
         let msg = format!(
@@ -64,24 +64,35 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
     }
     let over = d.overdrive[0].max(d.overdrive[1]);
     if over > drive::CLAMP_DROP {
+        let p = |x: f64| format(x, Quantity::Power);
+        let rated = |x: f64| ratings::power_rating(x).unwrap_or(ratings::RATING_MARGIN * x);
         let clamp = if d.clamp_to_ground {
-            " A Schottky clamp from ground takes the current below 0 V off the converter."
+            format!(" A Schottky clamp from ground takes up to {} below 0 V off the converter.", a(d.clamp_current))
         } else {
-            ""
+            String::new()
+        };
+        let conv = if d.fault_current > 0.0 {
+            format!(
+                " limits a fault's current into the converter's input protection to {} (limit used {}; the \
+                 converter's datasheet governs) and",
+                a(d.fault_current),
+                a(d.injection_limit)
+            )
+        } else {
+            String::new()
         };
         c.push(Check::ok(
             "converter_protection",
             format!(
                 "The amplifier can drive the pin up to {} above and {} below the converter's {} … {} range; the {} \
-                    drive resistor limits a fault's current into the converter's input protection to {} (limit used \
-                    {}; the converter's datasheet governs).{clamp}",
+                    drive resistor{conv} takes {} then, rated {} in the part list.{clamp}",
                 v(d.overdrive[0]),
                 v(d.overdrive[1]),
                 v(dst.min),
                 v(dst.max),
                 r(d.resistor),
-                format(d.fault_current, Quantity::Current),
-                format(d.injection_limit, Quantity::Current)
+                p(d.fault_power),
+                p(rated(d.fault_power))
             ),
         ));
     } else {
@@ -92,6 +103,45 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
         ));
     }
     c
+}
+
+/// What would let the pin settle, each with its figure (see [`drive::remedies`]).
+fn settling_ways(req: &Request, m: &drive::Remedies) -> Vec<String> {
+    let (r, t) = (|x: f64| format(x, Quantity::Resistance), |x: f64| format(x, Quantity::Time));
+    let (hz, dst) = (|x: f64| format(x, Quantity::Frequency), &req.destination);
+    let mut w = Vec::new();
+    if let Some((rc, i, ts)) = m.clamped {
+        let i = format(i, Quantity::Current);
+        w.push(format!(
+            "What would: {} with Schottky clamps from the pin to both range ends (up to {i}), {}",
+            r(rc),
+            t(ts)
+        ));
+    }
+    if let Some((cb, fc)) = m.bucket {
+        let cb = format(cb, Quantity::Capacitance);
+        w.push(format!("a {cb} bucket, whose kick stays under ½ LSB (corner {})", hz(fc)));
+    }
+    let (ts, rate) = m.acquisition;
+    if !dst.converter.samples() {
+        w.push(format!("a modulator rate of {} or less", hz(rate)));
+    } else if rate > 2.0 * req.source.band_high {
+        let acq =
+            if ts <= 1.0 / dst.sample_rate { format!("an acquisition time of {} or ", t(ts)) } else { String::new() };
+        w.push(format!("{acq}a sample rate of {} at the same share of the period", hz(rate)));
+    }
+    if let Some((rd, ts)) = m.driver {
+        let range = format!("{} … {}", format(dst.min, Quantity::Voltage), format(dst.max, Quantity::Voltage));
+        w.push(format!("a driver on the converter's {range} as its rails: {} settles in {}", r(rd), t(ts)));
+    }
+    if w.is_empty() {
+        let c = format(m.input_capacitance, Quantity::Capacitance);
+        w.push(format!("a converter whose sampling capacitance is {c} or less"));
+    }
+    if let Some(first) = w.first_mut().filter(|f| !f.starts_with("What")) {
+        *first = format!("What would: {first}");
+    }
+    w
 }
 
 /// Checks of the filter against the alias rule, from the rounded design's response
