@@ -246,6 +246,13 @@ fn fmt_current(a: f64) -> String {
 /// and discharged for the rest (a full-scale step every sample), the sensor at the top of
 /// its range.
 fn sampled_error(tag: &str, d: &Design, net: &str, fs: f64, t_acq: f64) -> f64 {
+    sampled_error_after(tag, d, net, (fs, t_acq), 8, Some(t_acq / 400.0))
+}
+
+/// [`sampled_error`] after `n` periods, with ngspice's largest step `max_step` (its own
+/// choice when `None`).
+fn sampled_error_after(tag: &str, d: &Design, net: &str, timing: (f64, f64), n: u32, max_step: Option<f64>) -> f64 {
+    let (fs, t_acq) = timing;
     let (c_in, top) = (d.request.destination.input_capacitance, d.request.source.max);
     let period = 1.0 / fs;
     let extra = format!(
@@ -256,13 +263,12 @@ fn sampled_error(tag: &str, d: &Design, net: &str, fs: f64, t_acq: f64) -> f64 {
     );
     let body = net.trim_end().strip_suffix(".end").unwrap_or(net);
     let deck = format!("{body}\n{extra}.options reltol=1e-6 abstol=1e-14 vntol=1e-8\n.end\n");
-    let n = 8.0;
-    let t_end = (n + 1.0) * period + t_acq - 5e-9;
+    let t_end = (f64::from(n) + 1.0) * period + t_acq - 5e-9;
+    let step = max_step.map_or(String::new(), |m| format!(" 0 {m:e}"));
     let control = format!(
-        "alter VSENSE dc = {top:e}\nop\nprint v(adc)\ntran {:e} {:e} 0 {:e}\nmeas tran vs FIND v(cs) AT={:e}",
+        "alter VSENSE dc = {top:e}\nop\nprint v(adc)\ntran {:e} {:e}{step}\nmeas tran vs FIND v(cs) AT={:e}",
         period / 2000.0,
         t_end + 1e-9,
-        t_acq / 400.0,
         t_end
     );
     let v = spice::printed(tag, &deck, &control);
@@ -385,6 +391,54 @@ fn a_pin_that_cannot_settle_and_the_remedies_that_do() {
             RULE,
         ));
     }
+    check(&rows);
+}
+
+/// The larger bucket the check names: at 1 kHz with a 1 µs acquisition time (flagged, and
+/// ngspice finds the sampled value off by more than ½ LSB), a bucket of 2^(N+1)·C_in or more
+/// behind the same resistor keeps the sampled value within ½ LSB.
+#[test]
+fn the_larger_bucket_the_check_names_holds_the_sample() {
+    let mut rows: Vec<Row> = Vec::new();
+    let mut v = serde_json::to_value(winch(json!([5]), "1 kHz", Some("1 µs"), "50 MHz")).expect("request json");
+    v["source"]["band_high"] = json!(20.0);
+    let d = design(&Request::from_json(&v.to_string()).expect("request reads"));
+    let dd = d.drive.clone().expect("a drive");
+    let m = drive::remedies(&d.request, &dd).expect("remedies");
+    let (cb, corner) = m.bucket.expect("the bucket remedy");
+    rows.push(fact(
+        format!("the check names the bucket ({})", message(&d, "drive_settling")),
+        message(&d, "drive_settling").contains("bucket, whose kick"),
+        "design contract",
+    ));
+    let bits = d.request.destination.bits;
+    let c_in = d.request.destination.input_capacitance;
+    rows.push(at_most(
+        "the kick C_in/(C_in + C_b) of a full-scale step, LSB",
+        c_in / (c_in + cb) * 2f64.powi(bits as i32),
+        0.5,
+        0.0,
+        "charge sharing (§14)",
+    ));
+    rows.push(at_most(
+        "ten times the band under R·C_b's corner, Hz",
+        10.0 * 20.0,
+        corner,
+        0.0,
+        "our rule (synth/drive.rs)",
+    ));
+    let timing = (1e3, dd.acquisition_time);
+    let net = exported_with(&d, "");
+    let e = sampled_error_after("bucket-small", &d, &net, timing, 2, Some(dd.acquisition_time / 200.0));
+    rows.push(fact(format!("470 pF: ngspice's sampled error {e:.2e} V exceeds ½ LSB"), e > half_lsb(&d), TRAN));
+    let bucket = circuit(&d).with_role(PartRole::ChargeBucket).expect("a bucket").reference.clone();
+    let net: String = net
+        .lines()
+        .map(|l| if l.starts_with(&format!("{bucket} ")) { replace_value(l, cb) } else { l.to_string() })
+        .collect::<Vec<_>>()
+        .join("\n");
+    let e = sampled_error_after("bucket-large", &d, &net, timing, 2, Some(dd.acquisition_time / 200.0));
+    rows.push(at_most(format!("{cb:e} F: ngspice's sampled error, V"), e, half_lsb(&d), 0.0, TRAN));
     check(&rows);
 }
 

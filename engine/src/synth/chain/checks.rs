@@ -34,12 +34,17 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
         c.push(match drive::remedies(req, d) {
             None => Check::ok("drive_settling", msg),
             Some(m) => {
-                let held = if d.r_protection_min >= d.r_stability_min { "the protection" } else { "stability" };
+                let held = if d.r_protection_min > d.r_stability_min.max(drive::R_MIN) {
+                    "by the protection"
+                } else if d.r_stability_min > drive::R_MIN {
+                    "by stability"
+                } else {
+                    "at its smallest value"
+                };
+                let ways = settling_ways(req, &m);
                 Check::warning(
                     "drive_settling",
-                    format!("{msg} It does not settle in time; R is held at {} by {held}. {}.", r(d.resistor), {
-                        settling_ways(req, &m).join("; ")
-                    }),
+                    format!("{msg} It does not settle in time; R is held at {} {held}.{ways}", r(d.resistor)),
                 )
             }
         });
@@ -105,43 +110,42 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
     c
 }
 
-/// What would let the pin settle, each with its figure (see [`drive::remedies`]).
-fn settling_ways(req: &Request, m: &drive::Remedies) -> Vec<String> {
+/// What would let the pin settle, each with its figure (see [`drive::remedies`]); empty when
+/// nothing within reach would.
+fn settling_ways(req: &Request, m: &drive::Remedies) -> String {
     let (r, t) = (|x: f64| format(x, Quantity::Resistance), |x: f64| format(x, Quantity::Time));
     let (hz, dst) = (|x: f64| format(x, Quantity::Frequency), &req.destination);
     let mut w = Vec::new();
     if let Some((rc, i, ts)) = m.clamped {
         let i = format(i, Quantity::Current);
-        w.push(format!(
-            "What would: {} with Schottky clamps from the pin to both range ends (up to {i}), {}",
-            r(rc),
-            t(ts)
-        ));
+        w.push(format!("{} with Schottky clamps from the pin to both range ends (up to {i}), {}", r(rc), t(ts)));
     }
     if let Some((cb, fc)) = m.bucket {
         let cb = format(cb, Quantity::Capacitance);
         w.push(format!("a {cb} bucket, whose kick stays under ½ LSB (corner {})", hz(fc)));
     }
     let (ts, rate) = m.acquisition;
-    if !dst.converter.samples() {
+    if dst.converter.samples() && ts <= 1.0 / dst.sample_rate {
+        w.push(format!("an acquisition time of {} or more", t(ts)));
+    }
+    if !dst.converter.samples() && rate >= 2.0 * dst.sample_rate {
         w.push(format!("a modulator rate of {} or less", hz(rate)));
-    } else if rate > 2.0 * req.source.band_high {
-        let acq =
-            if ts <= 1.0 / dst.sample_rate { format!("an acquisition time of {} or ", t(ts)) } else { String::new() };
-        w.push(format!("{acq}a sample rate of {} at the same share of the period", hz(rate)));
+    } else if dst.converter.samples() && rate > 2.0 * req.source.band_high {
+        w.push(format!("a sample rate of {} or less at the same share of the period", hz(rate)));
     }
     if let Some((rd, ts)) = m.driver {
         let range = format!("{} … {}", format(dst.min, Quantity::Voltage), format(dst.max, Quantity::Voltage));
         w.push(format!("a driver on the converter's {range} as its rails: {} settles in {}", r(rd), t(ts)));
     }
-    if w.is_empty() {
+    if w.is_empty() && m.input_capacitance > 0.0 {
         let c = format(m.input_capacitance, Quantity::Capacitance);
         w.push(format!("a converter whose sampling capacitance is {c} or less"));
     }
-    if let Some(first) = w.first_mut().filter(|f| !f.starts_with("What")) {
-        *first = format!("What would: {first}");
+    if w.is_empty() {
+        String::new()
+    } else {
+        format!(" What would: {}.", w.join("; "))
     }
-    w
 }
 
 /// Checks of the filter against the alias rule, from the rounded design's response
