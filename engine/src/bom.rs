@@ -188,14 +188,6 @@ fn tolerance_text(t: Option<f64>) -> (String, String) {
     }
 }
 
-/// The power rating the part list gives resistor `p` of circuit `c` for its signal stress, W
-/// (what a fault claim at the sensor side is checked against).
-pub fn signal_rating(req: &Request, c: &Circuit, p: &Part) -> f64 {
-    let (_, lo, hi) = Stress::of(req, c).across(p);
-    ratings::power_rating(lo.abs().max(hi.abs()).powi(2) / p.value)
-        .unwrap_or(*ratings::POWER_RATINGS.last().unwrap_or(&2.0))
-}
-
 /// What the drive's overdrive puts on `p` (its resistor or its clamp), 0 for other parts.
 fn drive_fault(design: &Design, p: &Part, of: fn(&crate::synth::drive::DriveDesign) -> f64) -> f64 {
     match (&design.drive, p.role) {

@@ -7,8 +7,10 @@
 //! * **What a resistor takes in a fault** ([`fault_across`]): the largest voltage across it
 //!   that keeps its power within its rating over [`RATING_MARGIN`] and within the working
 //!   voltage of its usual case ([`WORKING_VOLTAGES`], from memory). One rule for every fault
-//!   claim: a claim goes no further than the part as listed takes; the part list's rating
-//!   follows a fault only where the circuit itself reaches it (the drive at its swing limit).
+//!   claim: a claim goes no further than the part takes as the part list rates it (a sensor
+//!   side's series resistor at the least standard rating, which every listed part meets; a
+//!   loop shunt at its listed rating); the part list's rating follows a fault only where the
+//!   circuit itself reaches it (the drive with the amplifier at its swing limit).
 //! * **Capacitor technology** (common practice, EIA-198 dielectric classes): C0G/NP0 ceramic
 //!   up to 10 nF; a capacitor that sets a filter corner (or the charge bucket) C0G/NP0 up to
 //!   [`C0G_UP_TO`], film above; otherwise film in the signal path and X7R ceramic off it

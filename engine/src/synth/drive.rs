@@ -80,6 +80,7 @@ pub struct DriveDesign {
     /// Settling time of the pin with the chosen parts, s.
     pub settling_time: Option<f64>,
     /// The amplifier's own closed-loop time constant 1/(2π·GBW), s.
+    #[serde(skip)]
     pub amplifier_time_constant: f64,
     /// Time the pin has to settle: the acquisition time, or half a modulator period, s.
     pub acquisition_time: f64,
@@ -172,8 +173,6 @@ pub struct Remedies {
     pub acquisition: (f64, f64),
     /// A driver on the converter's range as its rails: R, Ω, and the settling time, s.
     pub driver: Option<(f64, f64)>,
-    /// The largest sampling capacitance whose bucket would settle behind R, F.
-    pub input_capacitance: f64,
 }
 
 /// The remedies for a pin that does not settle (`None` when it settles or has no bucket).
@@ -199,9 +198,7 @@ pub fn remedies(req: &Request, d: &DriveDesign) -> Option<Remedies> {
         .filter(|&(_, fc)| fc >= 10.0 * req.source.band_high)
         .filter(|_| d.resistor * dst.input_capacitance * dst.input_rate() * kick <= 1.0);
     let rate = dst.input_rate() * d.acquisition_time / ts;
-    let c_max = (d.acquisition_time / d.settling_time_constants - d.amplifier_time_constant) / d.resistor;
-    let input_capacitance = (c_max / BUCKET_RATIO).max(0.0);
-    Some(Remedies { clamped, bucket, acquisition: (ts, rate), driver, input_capacitance })
+    Some(Remedies { clamped, bucket, acquisition: (ts, rate), driver })
 }
 
 /// Smallest series resistor that keeps the phase the load `c` costs within the limit.

@@ -50,9 +50,8 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
         });
         let phase = d.phase_loss_deg.unwrap_or(0.0);
         let msg = format!(
-            "The drive resistor {} isolates the amplifier from the charge bucket: the load costs {:.1}° \
-            of phase at the amplifier's unity-gain frequency (limit {}°, with an assumed open-loop output resistance \
-            of {}).",
+            "The drive resistor {} isolates the amplifier from the bucket: the load costs {:.1}° of phase at its \
+            unity-gain frequency (limit {}°, assumed open-loop output resistance {}).",
             r(d.resistor),
             phase,
             drive::PHASE_LOSS_LIMIT,
@@ -113,38 +112,34 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
 /// What would let the pin settle, each with its figure (see [`drive::remedies`]); empty when
 /// nothing within reach would.
 fn settling_ways(req: &Request, m: &drive::Remedies) -> String {
-    let (r, t) = (|x: f64| format(x, Quantity::Resistance), |x: f64| format(x, Quantity::Time));
-    let (hz, dst) = (|x: f64| format(x, Quantity::Frequency), &req.destination);
-    let mut w = Vec::new();
-    if let Some((rc, i, ts)) = m.clamped {
+    let dst = &req.destination;
+    let mut w: Vec<String> = Vec::new();
+    if let Some((rc, i, _)) = m.clamped {
         let i = format(i, Quantity::Current);
-        w.push(format!("{} with Schottky clamps from the pin to both range ends (up to {i}), {}", r(rc), t(ts)));
+        w.push(format(rc, Quantity::Resistance) + " with Schottky clamps at both range ends (" + &i + ")");
     }
-    if let Some((cb, fc)) = m.bucket {
-        let cb = format(cb, Quantity::Capacitance);
-        w.push(format!("a {cb} bucket, whose kick stays under ½ LSB (corner {})", hz(fc)));
+    if let Some((cb, _)) = m.bucket {
+        w.push("a ".to_string() + &format(cb, Quantity::Capacitance) + " bucket, whose kick stays under ½ LSB");
     }
     let (ts, rate) = m.acquisition;
     if dst.converter.samples() && ts <= 1.0 / dst.sample_rate {
-        w.push(format!("an acquisition time of {} or more", t(ts)));
+        w.push("an acquisition time of ".to_string() + &format(ts, Quantity::Time) + " or more");
     }
-    if !dst.converter.samples() && rate >= 2.0 * dst.sample_rate {
-        w.push(format!("a modulator rate of {} or less", hz(rate)));
-    } else if dst.converter.samples() && rate > 2.0 * req.source.band_high {
-        w.push(format!("a sample rate of {} or less at the same share of the period", hz(rate)));
+    let (what, floor) = if dst.converter.samples() {
+        ("a sample rate of ", 2.0 * req.source.band_high)
+    } else {
+        ("a modulator rate of ", 2.0 * dst.sample_rate)
+    };
+    if rate >= floor {
+        w.push(what.to_string() + &format(rate, Quantity::Frequency) + " or less");
     }
-    if let Some((rd, ts)) = m.driver {
-        let range = format!("{} … {}", format(dst.min, Quantity::Voltage), format(dst.max, Quantity::Voltage));
-        w.push(format!("a driver on the converter's {range} as its rails: {} settles in {}", r(rd), t(ts)));
-    }
-    if w.is_empty() && m.input_capacitance > 0.0 {
-        let c = format(m.input_capacitance, Quantity::Capacitance);
-        w.push(format!("a converter whose sampling capacitance is {c} or less"));
+    if let Some((rd, _)) = m.driver {
+        w.push(format(rd, Quantity::Resistance) + " behind a driver on the converter's range as its rails");
     }
     if w.is_empty() {
         String::new()
     } else {
-        format!(" What would: {}.", w.join("; "))
+        " What would: ".to_string() + &w.join("; ") + "."
     }
 }
 

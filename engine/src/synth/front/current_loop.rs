@@ -20,7 +20,8 @@
 //! loop (0 mA) drives the output to its lower limit.
 //!
 //! *Terminal* ([`terminal`]). What the terminal tolerates is stated, not built: the least of
-//! what the shunt takes as the part list rates it ([`crate::ratings::fault_across`]) and
+//! what the shunt takes as the part list rates it ([`crate::ratings::fault_across`]; the
+//! part list rates it for I²R at the range's largest current) and
 //! what keeps the amplifier input behind it inside its rails (0.3 V beyond them, or as far
 //! as a series resistor allows, [`super::series_fault`]); beyond that the amplifier's input
 //! protection conducts with only the loop to limit it. A warning when the upper fault limit
@@ -30,7 +31,7 @@ use serde::Serialize;
 
 use crate::amplifier::Rails;
 use crate::circuit::{Circuit, PartKind, PartRole, Stage, StageKind, StageRole, GND};
-use crate::diag::Check;
+use crate::diag::{Check, Severity};
 use crate::figures::{Block, Table};
 use crate::request::{Request, SourceKind};
 use crate::units::{format, Quantity};
@@ -247,7 +248,9 @@ pub fn checks(req: &Request, l: &LoopDesign) -> Vec<Check> {
 pub fn terminal(req: &Request, c: &Circuit, rails: Rails, l: &LoopDesign) -> Option<Check> {
     let spec = req.source.current_loop.as_ref()?;
     let shunt = c.parts.iter().find(|p| p.reference == l.shunt_ref)?;
-    let rating = crate::bom::signal_rating(req, c, shunt);
+    // The part list's rule for the shunt: twice I²R at the range's largest current.
+    let i = req.source.max.abs().max(req.source.min.abs());
+    let rating = crate::ratings::power_rating(i * i * l.shunt).unwrap_or(2.0);
     let by_shunt = crate::ratings::fault_across(l.shunt, rating);
     let terminals = [shunt.nodes[0].clone()];
     let beyond = match super::series_fault(req, c, &terminals) {
@@ -255,33 +258,19 @@ pub fn terminal(req: &Request, c: &Circuit, rails: Rails, l: &LoopDesign) -> Opt
         None => crate::synth::drive::CLAMP_DROP,
     };
     let (lo, hi) = ((rails.neg - beyond).max(-by_shunt), (rails.pos + beyond).min(by_shunt));
-    let (v, a, w) =
-        (|x| format(x, Quantity::Voltage), |x| format(x, Quantity::Current), |x| format(x, Quantity::Power));
-    let why = |by_input: bool| {
-        if by_input {
-            "the amplifier's input protection conducts with only the loop to limit it"
-        } else {
-            "the shunt overheats"
-        }
-    };
+    let over = spec.fault_high * l.shunt > hi;
     let msg = format!(
-        "The loop terminal tolerates {} … {} ({} … {} through the {} shunt, which takes {} then, rated {}); above, \
-         {}; below, {}. A miswired loop supply needs a series resistor and clamps ahead of the terminal.",
-        v(lo),
-        v(hi),
-        a(lo / l.shunt),
-        a(hi / l.shunt),
+        "The loop terminal tolerates {} … {} (up to {} through the {} shunt, rated {}){}; beyond, the shunt \
+         overheats or the amplifier's input protection conducts: a miswired loop supply needs a series resistor \
+         and clamps.",
+        format(lo, Quantity::Voltage),
+        format(hi, Quantity::Voltage),
+        format(hi / l.shunt, Quantity::Current),
         format(l.shunt, Quantity::Resistance),
-        w(lo.abs().max(hi).powi(2) / l.shunt),
-        w(rating),
-        why(hi < by_shunt),
-        why(lo > -by_shunt)
+        format(rating, Quantity::Power),
+        if over { ", less than the upper fault limit" } else { "" }
     );
-    Some(if spec.fault_high * l.shunt > hi {
-        Check::warning("loop_terminal", format!("{msg} The upper fault limit {} lies beyond it.", a(spec.fault_high)))
-    } else {
-        Check::ok("loop_terminal", msg)
-    })
+    Some(Check::new("loop_terminal", if over { Severity::Warning } else { Severity::Ok }, msg))
 }
 
 /// Where a broken loop, the fault limits and the measuring range's ends land, from the

@@ -22,9 +22,9 @@
 //! input protection. R_P is the largest series value whose thermal noise stays at or below
 //! half the amplifier's voltage noise density (√(4kT·R_P) ≤ e_n/2, so the pair adds at most
 //! about 12 % to the stage's input noise), capped at 10 kΩ (common practice); the check
-//! states the fault each leg then tolerates: the current limit, and what R_P takes as the
-//! part list rates it (power and working voltage, [`crate::ratings::fault_across`]; the claim
-//! drops to that, it never raises the rating).
+//! states the fault each leg then tolerates: the current limit, and what R_P takes at the
+//! least standard rating, which every listed part meets (power and working voltage,
+//! [`crate::ratings::fault_across`]; the claim drops to that, it never raises the rating).
 
 use serde::Serialize;
 
@@ -66,8 +66,8 @@ pub struct InampDesign {
     /// Thermal noise density of one protection resistor, V/√Hz.
     pub protection_noise: f64,
     /// How far beyond a rail a leg may go with the current into the amplifier's input
-    /// limited to `destination.injection_limit` and R_P within what it takes as the part list
-    /// rates it ([`crate::ratings::fault_across`]; the least rating until the circuit is built), V.
+    /// limited to `destination.injection_limit` and R_P within what a part of the least
+    /// standard rating takes ([`crate::ratings::fault_across`]), V.
     pub fault_beyond_rail: f64,
     /// The amplifiers' + inputs over the common-mode and signal range, V.
     pub input_range: (f64, f64),

@@ -271,8 +271,9 @@ pub(crate) fn renumber_amplifiers(circuit: &mut Circuit, by: u32) {
 /// The sensor side: when the sensor's range reaches beyond the rails, how much fault
 /// voltage the resistance between the sensor and the amplifier inputs tolerates: the
 /// injection current limited (the amplifier's datasheet governs its input current) and the
-/// resistor within what it takes as the part list rates it ([`crate::ratings::fault_across`]:
-/// the claim drops to what the part takes, it never raises the rating).
+/// resistor within what the least standard part takes ([`crate::ratings::fault_across`] at
+/// 63 mW, which every part the part list names meets: the claim drops to what the part
+/// takes, it never raises the rating).
 pub fn input_protection(req: &Request, c: &Circuit, rails: Rails) -> Vec<Check> {
     let v = |x: f64| format(x, Quantity::Voltage);
     let src = &req.source;
@@ -322,7 +323,7 @@ pub fn input_protection(req: &Request, c: &Circuit, rails: Rails) -> Vec<Check> 
 /// The fault a series resistor at a sensor terminal tolerates (see [`series_fault`]).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct SeriesFault {
-    /// The resistor, Ω, and its rating in the part list, W.
+    /// The resistor, Ω, and the rating the claim assumes (the least standard one), W.
     pub resistance: f64,
     pub rating: f64,
     /// How far beyond a rail the terminal may go, V, and the power the resistor then takes, W.
@@ -331,7 +332,8 @@ pub struct SeriesFault {
 }
 
 /// Of the resistors in series from `terminals` (not to ground), the one that tolerates the least
-/// fault beyond a rail: its voltage at most R·I_limit and at most what it takes as rated.
+/// fault beyond a rail: its voltage at most R·I_limit and at most what a part of the least
+/// standard rating takes.
 pub fn series_fault(req: &Request, c: &Circuit, terminals: &[String]) -> Option<SeriesFault> {
     let limit = req.destination.injection_limit;
     c.parts
@@ -339,7 +341,7 @@ pub fn series_fault(req: &Request, c: &Circuit, terminals: &[String]) -> Option<
         .filter(|p| p.kind == PartKind::Resistor && !p.bench && !p.nodes.iter().any(|n| n == crate::circuit::GND))
         .filter(|p| p.nodes.iter().any(|n| terminals.contains(n)))
         .map(|p| {
-            let rating = crate::bom::signal_rating(req, c, p);
+            let rating = crate::ratings::POWER_RATINGS[0];
             let across = (p.value * limit).min(crate::ratings::fault_across(p.value, rating));
             let beyond_rail = across + crate::synth::drive::CLAMP_DROP;
             SeriesFault { resistance: p.value, rating, beyond_rail, power: across * across / p.value }
@@ -357,9 +359,8 @@ impl SeriesFault {
             ""
         };
         format!(
-            "A fault up to {} beyond a rail keeps the current into the input's protection under {} (the amplifier's \
-             datasheet governs) and puts {} into the {} series resistor, rated {} (at most half its rating and its \
-             working voltage); a larger fault needs a resistor rated for it.{high}",
+            "A fault up to {} beyond a rail keeps under {} in the input's protection (its datasheet governs) and {} \
+             in the {} series resistor, rated {} or more; a larger fault needs a larger part.{high}",
             format(self.beyond_rail, Quantity::Voltage),
             format(limit, Quantity::Current),
             w(self.power),
