@@ -4,7 +4,9 @@
 //!
 //! * **Stress.** Each part's voltage is taken at the operating point and at the extremes of
 //!   the signal (DC coupling: the sensor at its min and max; AC coupling: the operating point
-//!   plus and minus the mid-band swing of each node). Resistor power is the largest V²/R.
+//!   plus and minus the mid-band swing of each node). Resistor power is the largest V²/R;
+//!   the drive resistor's also the power it takes with the amplifier at its swing limit and
+//!   the pin held at its range (the converter protection's claim, [`crate::synth::drive`]).
 //! * **Resistor rating** (common practice): the smallest standard power rating of at least
 //!   twice the dissipation (50 % derating), 63 mW at the least.
 //! * **Capacitor working voltage** (common practice): the smallest standard rating of at least
@@ -24,7 +26,7 @@
 
 use serde::Serialize;
 
-use crate::circuit::{is_decoupling, Circuit, Part, PartKind, StageRole};
+use crate::circuit::{is_decoupling, Circuit, Part, PartKind, PartRole, StageRole};
 use crate::design::Design;
 use crate::request::{Coupling, Request};
 use crate::solve::Solver;
@@ -62,10 +64,10 @@ pub fn bom(design: &Design) -> Vec<BomRow> {
     let mut rows: Vec<BomRow> = Vec::new();
     for p in c.build_parts() {
         let row = match p.kind {
-            PartKind::Resistor => resistor_row(p, &stress),
+            PartKind::Resistor => resistor_row(p, &stress, drive_fault(design, p, |d| d.fault_power)),
             PartKind::Capacitor => capacitor_row(p, &stress),
             PartKind::OpAmp => amplifier_row(p, design),
-            PartKind::Diode => diode_row(p, &stress),
+            PartKind::Diode => diode_row(p, &stress, drive_fault(design, p, |d| d.clamp_current)),
             PartKind::VoltageSource | PartKind::CurrentSource => continue,
         };
         // One row per distinct part: same kind, value, tolerance, rating and construction
@@ -186,10 +188,18 @@ fn tolerance_text(t: Option<f64>) -> (String, String) {
     }
 }
 
-fn resistor_row(p: &Part, s: &Stress) -> BomRow {
+/// What the drive's overdrive puts on `p` (its resistor or its clamp), 0 for other parts.
+fn drive_fault(design: &Design, p: &Part, of: fn(&crate::synth::drive::DriveDesign) -> f64) -> f64 {
+    match (&design.drive, p.role) {
+        (Some(d), Some(PartRole::DriveResistor | PartRole::Clamp)) => of(d),
+        _ => 0.0,
+    }
+}
+
+fn resistor_row(p: &Part, s: &Stress, fault_power: f64) -> BomRow {
     let (_, lo, hi) = s.across(p);
     let v = lo.abs().max(hi.abs());
-    let power = v * v / p.value;
+    let power = (v * v / p.value).max(fault_power);
     let rating = ratings::power_rating(power).unwrap_or(f64::NAN);
     let (tolerance, tolerance_code) = tolerance_text(p.tolerance);
     BomRow {
@@ -285,7 +295,7 @@ pub fn dielectric_of(p: &Part) -> Dielectric {
     })
 }
 
-fn diode_row(p: &Part, s: &Stress) -> BomRow {
+fn diode_row(p: &Part, s: &Stress, current: f64) -> BomRow {
     let (_, lo, hi) = s.across(p);
     let reverse = (-lo).max(-hi).max(0.0);
     BomRow {
@@ -297,8 +307,9 @@ fn diode_row(p: &Part, s: &Stress) -> BomRow {
         tolerance: String::new(),
         tolerance_code: String::new(),
         rating: format!(
-            "reverse ≥ {}, ≥ 10 mA",
-            format(ratings::voltage_rating(reverse).unwrap_or(6.3), Quantity::Voltage)
+            "reverse ≥ {}, ≥ {}",
+            format(ratings::voltage_rating(reverse).unwrap_or(6.3), Quantity::Voltage),
+            format((RATING_MARGIN * current).max(10e-3), Quantity::Current)
         ),
         construction: "small-signal Schottky, low leakage".to_string(),
         stress: reverse,

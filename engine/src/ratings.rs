@@ -4,6 +4,13 @@
 //!
 //! * **Ratings** (common practice): the smallest standard rating of at least
 //!   [`RATING_MARGIN`] times the stress; resistors 63 mW at the least, capacitors 6.3 V.
+//! * **What a resistor takes in a fault** ([`fault_across`]): the largest voltage across it
+//!   that keeps its power within its rating over [`RATING_MARGIN`] and within the working
+//!   voltage of its usual case ([`WORKING_VOLTAGES`], from memory). One rule for every fault
+//!   claim: a claim goes no further than the part takes as the part list rates it (a sensor
+//!   side's series resistor at the least standard rating, which every listed part meets; a
+//!   loop shunt at its listed rating); the part list's rating follows a fault only where the
+//!   circuit itself reaches it (the drive with the amplifier at its swing limit).
 //! * **Capacitor technology** (common practice, EIA-198 dielectric classes): C0G/NP0 ceramic
 //!   up to 10 nF; a capacitor that sets a filter corner (or the charge bucket) C0G/NP0 up to
 //!   [`C0G_UP_TO`], film above; otherwise film in the signal path and X7R ceramic off it
@@ -19,6 +26,13 @@ use serde::Serialize;
 
 /// Standard resistor power ratings, W (common practice).
 pub const POWER_RATINGS: [f64; 7] = [0.063, 0.1, 0.125, 0.25, 0.5, 1.0, 2.0];
+/// Working voltage of a resistor of each [`POWER_RATINGS`] entry in its usual case, V (from
+/// memory: thick-film chips 0402 50 V, 0603 75 V, 0805 150 V, 1206 … 2512 200 V; a 2 W
+/// leaded metal-film part 500 V).
+pub const WORKING_VOLTAGES: [f64; 7] = [50.0, 75.0, 150.0, 200.0, 200.0, 200.0, 500.0];
+/// Above this a fault claim concerns high voltage (from memory: the AC limit of extra-low
+/// voltage, IEC 61140), V.
+pub const EXTRA_LOW_VOLTAGE: f64 = 50.0;
 /// Standard capacitor voltage ratings, V (common practice).
 pub const VOLTAGE_RATINGS: [f64; 12] = [6.3, 10.0, 16.0, 25.0, 35.0, 50.0, 63.0, 100.0, 250.0, 400.0, 630.0, 1000.0];
 /// Rating margin: a rating at least this many times the stress.
@@ -90,4 +104,11 @@ pub fn voltage_rating(stress: f64) -> Option<f64> {
 /// largest).
 pub fn power_rating(power: f64) -> Option<f64> {
     POWER_RATINGS.iter().copied().find(|&r| r >= RATING_MARGIN * power)
+}
+
+/// The largest voltage across a resistor of `r` ohms rated `rating` watts that it takes in a
+/// fault: √(rating·R/[`RATING_MARGIN`]), at most its case's working voltage.
+pub fn fault_across(r: f64, rating: f64) -> f64 {
+    let i = POWER_RATINGS.iter().position(|&p| p >= rating).unwrap_or(POWER_RATINGS.len() - 1);
+    (rating * r / RATING_MARGIN).max(0.0).sqrt().min(WORKING_VOLTAGES[i])
 }

@@ -470,19 +470,27 @@ fn filter_and_drive_parts_carry_stable_names() {
             }
         }
     }
-    // Without a drive (oversampling converter) the last section drives adc; without filter
-    // or drive the gain stage does.
+    // An oversampling converter gets the drive's RC too (synth::drive): the last section
+    // drives the drive resistor, which ends at adc; without a filter the gain stage drives it.
     // (The amplifier's rail equals the converter's range, so no protection resistor is needed.)
+    let drive_in = |c: &rangefit_engine::circuit::Circuit| {
+        c.with_role(rangefit_engine::circuit::PartRole::DriveResistor)
+            .filter(|r| r.nodes.iter().any(|n| n == "adc"))
+            .and_then(|r| r.nodes.iter().find(|n| *n != "adc").cloned())
+    };
     let os = design(&request(
         r#"{"name": "Kiln thermocouple logger", "source": {"min": 0, "max": 0.05, "band_high": "10 Hz"},
         "destination": {"min": 0, "max": 3.3, "bits": 24, "sample_rate": "50 Hz", "converter": "oversampling",
         "modulator_rate": "256 kHz"}, "supplies": [3.3]}"#,
     ));
     let c = os.circuit.as_ref().expect("circuit");
-    rows.push(fact("oversampling: no drive", os.drive.is_none(), API));
+    let input = drive_in(c);
+    rows.push(fact("oversampling: the drive resistor ends at adc", input.is_some(), API));
     rows.push(fact(
-        "oversampling: an amplifier drives adc",
-        c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter && p.nodes[4] == "adc"),
+        "oversampling: the last section drives the drive resistor",
+        c.parts
+            .iter()
+            .any(|p| p.kind == PartKind::OpAmp && p.stage == StageRole::Filter && Some(&p.nodes[4]) == input.as_ref()),
         API,
     ));
     let none = design(&request(
@@ -491,10 +499,10 @@ fn filter_and_drive_parts_carry_stable_names() {
         "modulator_rate": "256 kHz"}, "supplies": [3.3], "filter": {"response": "none"}}"#,
     ));
     let c = none.circuit.as_ref().expect("circuit");
+    let input = drive_in(c);
     rows.push(fact(
-        "no filter, no drive: the gain stage drives adc",
-        c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.nodes[4] == "adc")
-            && !c.nodes().iter().any(|n| n == "out1"),
+        "no filter: the gain stage drives the drive resistor",
+        input.is_some() && c.parts.iter().any(|p| p.kind == PartKind::OpAmp && Some(&p.nodes[4]) == input.as_ref()),
         API,
     ));
     let warn = none.checks.iter().find(|c| c.id == "alias_rejection");

@@ -253,13 +253,16 @@ fn protection_resistors_follow_the_noise_rule() {
             JN,
         ));
         let by_current = ia.protection * req.destination.injection_limit;
-        let by_power = (inamp::PROTECT_POWER * ia.protection).sqrt();
+        // The part list's rating of R_P: its signal stress is far below the least rating.
+        let rating = rangefit_engine::ratings::POWER_RATINGS[0];
+        let by_power = (rating / rangefit_engine::ratings::RATING_MARGIN * ia.protection).sqrt().min(50.0);
         rows.push(row(
-            format!("{tag}: fault tolerated beyond a rail min(R_P·I_limit, √(P·R_P)) + 0.3 V"),
+            format!("{tag}: fault tolerated beyond a rail min(R_P·I_limit, √(P/2·R_P), 50 V) + 0.3 V"),
             ia.fault_beyond_rail,
             by_current.min(by_power) + 0.3,
             1e-9,
-            "Ohm's law and P = V²/R; 0.3 V input-protection diode drop (common practice)",
+            "Ohm's law and P = V²/R; half of 63 mW and 0402's 50 V working voltage (from memory, §14); \
+             0.3 V input-protection diode drop (common practice)",
         ));
         let c = d.circuit.as_ref().expect("circuit");
         rows.push(fact(

@@ -864,7 +864,13 @@ fn check_ratings(f: &mut Fails, id: &str, d: &Design) {
             PartKind::Resistor => {
                 let a = across(d, c, p);
                 let v = a.lo.abs().max(a.hi.abs());
-                let watts = v * v / p.value;
+                // The drive resistor is rated for the power it takes at the amplifier's swing
+                // limit with the pin held at its range too (synth/drive.rs).
+                let fault = match (&d.drive, p.role) {
+                    (Some(dd), Some(rangefit_engine::circuit::PartRole::DriveResistor)) => dd.fault_power,
+                    _ => 0.0,
+                };
+                let watts = (v * v / p.value).max(fault);
                 let need = MARGIN * watts;
                 match rating_value(&r.rating, "W") {
                     Some(w) => {

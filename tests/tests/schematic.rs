@@ -412,17 +412,17 @@ fn every_topology_draws_cleanly() {
             &["cin1", "ref"],
         ),
         (
-            // An oversampling converter (its input is not a sampling capacitor) behind a
-            // rail-to-rail amplifier on the converter's own supply needs no drive (synth::drive):
-            // without the drive's DC loss the gain stays exactly one, and the filter's last
-            // section drives the pin directly. The ±1.485 V swing fills the 90 % window of an
-            // exact 3.3 V rail, so the rail is held exact (supply_tolerance 0).
-            "AC buffer, no drive",
+            // An oversampling converter behind a rail-to-rail amplifier on the converter's own
+            // supply: its switched-capacitor input gets the RC at the pin (synth::drive), whose
+            // DC loss the gain stage makes up, so it is an amplifier just above unity gain. The
+            // ±1.485 V swing fills the 90 % window of an exact 3.3 V rail, so the rail is held
+            // exact (supply_tolerance 0).
+            "AC near-unity amplifier, oversampling",
             designed(&oversampling(
                 &request("ac buffer", -1.485, 1.485, "ac", (10.0, 1000.0), (0.0, 3.3), "[3.3]", true)
                     .replace(r#""supplies":[3.3]"#, r#""supplies":[3.3],"supply_tolerance":0"#),
             )),
-            "into a buffer",
+            "non-inverting amplifier",
             &["ref", "adc"],
         ),
         (
@@ -834,12 +834,12 @@ fn filter_and_drive_are_drawn_by_role() {
             request("clamp", -1.0, 1.0, "dc", (0.0, 1000.0), (0.0, 3.3), "[5, -5]", true),
             Chain { kinds: None, drive: true, clamp: true },
         ),
-        // An oversampling converter needs no drive here (see every_topology_draws_cleanly):
-        // the last section's output is the pin.
+        // An oversampling converter's switched-capacitor input gets its RC at the pin too
+        // (synth::drive), settled at the modulator rate.
         (
-            "oversampling, no drive",
-            oversampling(&request("no drive", -1.485, 1.485, "ac", (10.0, 1000.0), (0.0, 3.3), "[3.3]", true)),
-            Chain { kinds: None, drive: false, clamp: false },
+            "oversampling, drive",
+            oversampling(&request("os drive", -1.485, 1.485, "ac", (10.0, 1000.0), (0.0, 3.3), "[3.3]", true)),
+            Chain { kinds: None, drive: true, clamp: false },
         ),
     ];
     for (what, json, want) in &rows {

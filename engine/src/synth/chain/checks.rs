@@ -2,6 +2,7 @@
 //! alias rule and the in-band error, and the figures of both.
 
 use crate::diag::Check;
+use crate::ratings;
 use crate::request::Request;
 use crate::synth::drive::{self, DriveDesign};
 use crate::synth::filter::{self, sections::SectionKind, NoFilter};
@@ -15,6 +16,7 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
     let v = |x: f64| format(x, Quantity::Voltage);
     let r = |x: f64| format(x, Quantity::Resistance);
     let t = |x: f64| format(x, Quantity::Time);
+    let a = |x: f64| format(x, Quantity::Current);
     let Some(d) = d else {
         c.push(Check::ok(
             "converter_protection",
@@ -29,25 +31,27 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
                 {}; the acquisition time is {}.",
             d.settling_time_constants, r(d.resistor), format(cb, Quantity::Capacitance), t(ts), t(d.acquisition_time)
         );
-        c.push(if ts <= d.acquisition_time {
-            Check::ok("drive_settling", msg)
-        } else {
-            Check::warning(
-                "drive_settling",
-                format!(
-                    "{msg} The pin does not settle in time: a longer acquisition \
-                time, an amplifier with a higher GBW, or a converter with a smaller sampling capacitance would; R is \
-                held at {} by {}.",
-                    r(d.resistor),
-                    if d.r_protection_min >= d.r_stability_min { "the protection" } else { "stability" }
-                ),
-            )
+        c.push(match drive::remedies(req, d) {
+            None => Check::ok("drive_settling", msg),
+            Some(m) => {
+                let held = if d.r_protection_min > d.r_stability_min.max(drive::R_MIN) {
+                    "by the protection"
+                } else if d.r_stability_min > drive::R_MIN {
+                    "by stability"
+                } else {
+                    "at its smallest value"
+                };
+                let ways = settling_ways(req, &m);
+                Check::warning(
+                    "drive_settling",
+                    format!("{msg} It does not settle in time; R is held at {} {held}.{ways}", r(d.resistor)),
+                )
+            }
         });
         let phase = d.phase_loss_deg.unwrap_or(0.0);
         let msg = format!(
-            "The drive resistor {} isolates the amplifier from the charge bucket: the load costs {:.1}° \
-            of phase at the amplifier's unity-gain frequency (limit {}°, with an assumed open-loop output resistance \
-            of {}).",
+            "The drive resistor {} isolates the amplifier from the bucket: the load costs {:.1}° of phase at its \
+            unity-gain frequency (limit {}°, assumed open-loop output resistance {}).",
             r(d.resistor),
             phase,
             drive::PHASE_LOSS_LIMIT,
@@ -64,24 +68,35 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
     }
     let over = d.overdrive[0].max(d.overdrive[1]);
     if over > drive::CLAMP_DROP {
+        let p = |x: f64| format(x, Quantity::Power);
+        let rated = |x: f64| ratings::power_rating(x).unwrap_or(ratings::RATING_MARGIN * x);
         let clamp = if d.clamp_to_ground {
-            " A Schottky clamp from ground takes the current below 0 V off the converter."
+            format!(" A Schottky clamp from ground takes up to {} below 0 V off the converter.", a(d.clamp_current))
         } else {
-            ""
+            String::new()
+        };
+        let conv = if d.fault_current > 0.0 {
+            format!(
+                " limits a fault's current into the converter's input protection to {} (limit used {}; the \
+                 converter's datasheet governs) and",
+                a(d.fault_current),
+                a(d.injection_limit)
+            )
+        } else {
+            String::new()
         };
         c.push(Check::ok(
             "converter_protection",
             format!(
                 "The amplifier can drive the pin up to {} above and {} below the converter's {} … {} range; the {} \
-                    drive resistor limits a fault's current into the converter's input protection to {} (limit used \
-                    {}; the converter's datasheet governs).{clamp}",
+                    drive resistor{conv} takes {} then, rated {} in the part list.{clamp}",
                 v(d.overdrive[0]),
                 v(d.overdrive[1]),
                 v(dst.min),
                 v(dst.max),
                 r(d.resistor),
-                format(d.fault_current, Quantity::Current),
-                format(d.injection_limit, Quantity::Current)
+                p(d.fault_power),
+                p(rated(d.fault_power))
             ),
         ));
     } else {
@@ -92,6 +107,40 @@ pub fn drive_checks(req: &Request, d: Option<&DriveDesign>) -> Vec<Check> {
         ));
     }
     c
+}
+
+/// What would let the pin settle, each with its figure (see [`drive::remedies`]); empty when
+/// nothing within reach would.
+fn settling_ways(req: &Request, m: &drive::Remedies) -> String {
+    let dst = &req.destination;
+    let mut w: Vec<String> = Vec::new();
+    if let Some((rc, i, _)) = m.clamped {
+        let i = format(i, Quantity::Current);
+        w.push(format(rc, Quantity::Resistance) + " with Schottky clamps at both range ends (" + &i + ")");
+    }
+    if let Some((cb, _)) = m.bucket {
+        w.push("a ".to_string() + &format(cb, Quantity::Capacitance) + " bucket, whose kick stays under ½ LSB");
+    }
+    let (ts, rate) = m.acquisition;
+    if dst.converter.samples() && ts <= 1.0 / dst.sample_rate {
+        w.push("an acquisition time of ".to_string() + &format(ts, Quantity::Time) + " or more");
+    }
+    let (what, floor) = if dst.converter.samples() {
+        ("a sample rate of ", 2.0 * req.source.band_high)
+    } else {
+        ("a modulator rate of ", 2.0 * dst.sample_rate)
+    };
+    if rate >= floor {
+        w.push(what.to_string() + &format(rate, Quantity::Frequency) + " or less");
+    }
+    if let Some((rd, _)) = m.driver {
+        w.push(format(rd, Quantity::Resistance) + " behind a driver on the converter's range as its rails");
+    }
+    if w.is_empty() {
+        String::new()
+    } else {
+        " What would: ".to_string() + &w.join("; ") + "."
+    }
 }
 
 /// Checks of the filter against the alias rule, from the rounded design's response

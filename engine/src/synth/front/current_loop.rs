@@ -18,11 +18,20 @@
 //! `fault_low … fault_high` (NAMUR NE 43 for 4–20 mA: 3.6 … 21 mA), so that range lands on
 //! the converter's usable span and the measuring range 4 … 20 mA sits inside it; a broken
 //! loop (0 mA) drives the output to its lower limit.
+//!
+//! *Terminal* ([`terminal`]). What the terminal tolerates is stated, not built: the least of
+//! what the shunt takes as the part list rates it ([`crate::ratings::fault_across`]; the
+//! part list rates it for I²R at the range's largest current) and
+//! what keeps the amplifier input behind it inside its rails (0.3 V beyond them, or as far
+//! as a series resistor allows, [`super::series_fault`]); beyond that the amplifier's input
+//! protection conducts with only the loop to limit it. A warning when the upper fault limit
+//! already lies beyond it.
 
 use serde::Serialize;
 
+use crate::amplifier::Rails;
 use crate::circuit::{Circuit, PartKind, PartRole, Stage, StageKind, StageRole, GND};
-use crate::diag::Check;
+use crate::diag::{Check, Severity};
 use crate::figures::{Block, Table};
 use crate::request::{Request, SourceKind};
 use crate::units::{format, Quantity};
@@ -235,6 +244,35 @@ pub fn checks(req: &Request, l: &LoopDesign) -> Vec<Check> {
     c
 }
 
+/// The check that states what the loop terminal tolerates (see the module documentation).
+pub fn terminal(req: &Request, c: &Circuit, rails: Rails, l: &LoopDesign) -> Option<Check> {
+    let spec = req.source.current_loop.as_ref()?;
+    let shunt = c.parts.iter().find(|p| p.reference == l.shunt_ref)?;
+    // The part list's rule for the shunt: twice I²R at the range's largest current.
+    let i = req.source.max.abs().max(req.source.min.abs());
+    let rating = crate::ratings::power_rating(i * i * l.shunt).unwrap_or(2.0);
+    let by_shunt = crate::ratings::fault_across(l.shunt, rating);
+    let terminals = [shunt.nodes[0].clone()];
+    let beyond = match super::series_fault(req, c, &terminals) {
+        Some(f) => f.beyond_rail,
+        None => crate::synth::drive::CLAMP_DROP,
+    };
+    let (lo, hi) = ((rails.neg - beyond).max(-by_shunt), (rails.pos + beyond).min(by_shunt));
+    let over = spec.fault_high * l.shunt > hi;
+    let msg = format!(
+        "The loop terminal tolerates {} … {} (up to {} through the {} shunt, rated {}){}; beyond, the shunt \
+         overheats or the amplifier's input protection conducts: a miswired loop supply needs a series resistor \
+         and clamps.",
+        format(lo, Quantity::Voltage),
+        format(hi, Quantity::Voltage),
+        format(hi / l.shunt, Quantity::Current),
+        format(l.shunt, Quantity::Resistance),
+        format(rating, Quantity::Power),
+        if over { ", less than the upper fault limit" } else { "" }
+    );
+    Some(Check::new("loop_terminal", if over { Severity::Warning } else { Severity::Ok }, msg))
+}
+
 /// Where a broken loop, the fault limits and the measuring range's ends land, from the
 /// solver (amplifier swing limits included).
 pub fn bands(req: &Request, c: &Circuit) -> Vec<LoopBand> {
@@ -283,7 +321,9 @@ impl super::Steps for LoopDesign {
 
     fn checks(&mut self, circuit: &Circuit, _p: &crate::predict::Predicted, ctx: &super::Context) -> Vec<Check> {
         self.bands = bands(ctx.req, circuit);
-        checks(ctx.req, self)
+        let mut c = checks(ctx.req, self);
+        c.extend(terminal(ctx.req, circuit, ctx.rails, self));
+        c
     }
 
     fn section(&self) -> &'static str {

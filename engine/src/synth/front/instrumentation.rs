@@ -22,8 +22,9 @@
 //! input protection. R_P is the largest series value whose thermal noise stays at or below
 //! half the amplifier's voltage noise density (√(4kT·R_P) ≤ e_n/2, so the pair adds at most
 //! about 12 % to the stage's input noise), capped at 10 kΩ (common practice); the check
-//! states the fault each leg then tolerates: the current limit, and R_P's own power within
-//! [`PROTECT_POWER`].
+//! states the fault each leg then tolerates: the current limit, and what R_P takes at the
+//! least standard rating, which every listed part meets (power and working voltage,
+//! [`crate::ratings::fault_across`]; the claim drops to that, it never raises the rating).
 
 use serde::Serialize;
 
@@ -40,9 +41,6 @@ pub const FEEDBACK_MIN: f64 = 10e3;
 pub const FEEDBACK_MAX: f64 = 100e3;
 /// Largest protection resistor, Ω (common practice).
 pub const PROTECT_MAX: f64 = 10e3;
-/// Power a protection resistor may take during a fault, W (common practice: an 0805
-/// thick-film resistor's rating; a larger case raises it).
-pub const PROTECT_POWER: f64 = 0.125;
 /// Smallest protection resistor, Ω.
 pub const PROTECT_MIN: f64 = 10.0;
 /// Gain errors this close to the smallest count as equal when the gain is split (well
@@ -68,7 +66,8 @@ pub struct InampDesign {
     /// Thermal noise density of one protection resistor, V/√Hz.
     pub protection_noise: f64,
     /// How far beyond a rail a leg may go with the current into the amplifier's input
-    /// limited to `destination.injection_limit` and R_P within [`PROTECT_POWER`], V.
+    /// limited to `destination.injection_limit` and R_P within what a part of the least
+    /// standard rating takes ([`crate::ratings::fault_across`]), V.
     pub fault_beyond_rail: f64,
     /// The amplifiers' + inputs over the common-mode and signal range, V.
     pub input_range: (f64, f64),
@@ -184,7 +183,8 @@ pub fn plan(req: &Request, amp: &Amplifier, rails: Rails, gain: f64, extra: f64,
         first_gain_limit: limit,
         protection,
         protection_noise: (four_kt * protection).sqrt(),
-        fault_beyond_rail: (protection * req.destination.injection_limit).min((PROTECT_POWER * protection).sqrt())
+        fault_beyond_rail: (protection * req.destination.injection_limit)
+            .min(crate::ratings::fault_across(protection, crate::ratings::POWER_RATINGS[0]))
             + crate::synth::drive::CLAMP_DROP,
         input_range,
         output_range: (cm_lo - swing, cm_hi + swing),
@@ -449,21 +449,6 @@ pub fn checks(req: &Request, d: &InampDesign, amp: &Amplifier, rails: Rails) -> 
             ),
         )
     });
-    c.push(Check::ok(
-        "input_series",
-        format!(
-            "Each leg reaches its amplifier through {}: a leg driven up to {} beyond a rail pushes at most {} into the \
-                input's protection (the amplifier's datasheet governs the figure it tolerates) and the resistor takes \
-                at most {}; for larger faults add clamp diodes from each input to the rails and a resistor rated for \
-                the fault. Each resistor adds {} of noise against the amplifier's {}.",
-            format(d.protection, Quantity::Resistance),
-            v(d.fault_beyond_rail),
-            format(req.destination.injection_limit, Quantity::Current),
-            format(PROTECT_POWER, Quantity::Power),
-            format(d.protection_noise, Quantity::VoltageNoise),
-            format(amp.noise_voltage, Quantity::VoltageNoise)
-        ),
-    ));
     c
 }
 
@@ -549,6 +534,19 @@ impl super::Steps for Instrumentation {
     fn checks(&mut self, circuit: &Circuit, p: &crate::predict::Predicted, ctx: &super::Context) -> Vec<Check> {
         let pair = &self.diff.pair;
         let mut c = checks(pair, &self.first, ctx.amp, ctx.rails);
+        if let Some(f) = super::series_fault(pair, circuit, &circuit.sensor_terminals()) {
+            self.first.fault_beyond_rail = f.beyond_rail;
+            c.push(Check::ok(
+                "input_series",
+                format!(
+                    "Each leg reaches its amplifier through {}, which adds {} of noise against the amplifier's {}. {}",
+                    format(self.first.protection, Quantity::Resistance),
+                    format(self.first.protection_noise, Quantity::VoltageNoise),
+                    format(ctx.amp.noise_voltage, Quantity::VoltageNoise),
+                    f.text(pair.destination.injection_limit)
+                ),
+            ));
+        }
         c.extend(super::input_protection(pair, circuit, ctx.rails));
         c.extend(self.diff.zero_trim(ctx.req, p));
         c

@@ -269,8 +269,11 @@ pub(crate) fn renumber_amplifiers(circuit: &mut Circuit, by: u32) {
 }
 
 /// The sensor side: when the sensor's range reaches beyond the rails, how much fault
-/// voltage the resistance between the sensor and the amplifier inputs tolerates with the
-/// injection current limited (the amplifier's datasheet governs its input current).
+/// voltage the resistance between the sensor and the amplifier inputs tolerates: the
+/// injection current limited (the amplifier's datasheet governs its input current) and the
+/// resistor within what the least standard part takes ([`crate::ratings::fault_across`] at
+/// 63 mW, which every part the part list names meets: the claim drops to what the part
+/// takes, it never raises the rating).
 pub fn input_protection(req: &Request, c: &Circuit, rails: Rails) -> Vec<Check> {
     let v = |x: f64| format(x, Quantity::Voltage);
     let src = &req.source;
@@ -295,15 +298,9 @@ pub fn input_protection(req: &Request, c: &Circuit, rails: Rails) -> Vec<Check> 
     let inputs = c.sensor_terminals();
     let on_input = |n: &String| inputs.contains(n);
     let direct = c.parts.iter().any(|p| p.kind == PartKind::OpAmp && p.nodes.iter().take(2).any(on_input));
-    let series = c
-        .parts
-        .iter()
-        .filter(|p| !p.bench && p.kind == PartKind::Resistor && p.nodes.iter().any(on_input))
-        .map(|p| p.value)
-        .fold(f64::INFINITY, f64::min);
     let limit = req.destination.injection_limit;
     let (lo, hi, neg, pos) = (v(lo), v(hi), v(rails.neg), v(rails.pos));
-    if direct || !series.is_finite() {
+    let Some(f) = series_fault(req, c, &inputs).filter(|_| !direct) else {
         return vec![Check::warning(
             "input_protection",
             format!(
@@ -312,17 +309,63 @@ pub fn input_protection(req: &Request, c: &Circuit, rails: Rails) -> Vec<Check> 
                 format(limit, Quantity::Current)
             ),
         )];
-    }
-    let tolerated = series * limit + drop;
+    };
     vec![Check::ok(
         "input_protection",
         format!(
             "The sensor reaches {lo} … {hi}, beyond the rails {neg} … {pos}; the input network keeps the amplifier's \
-             inputs inside them over that range, and its {} series resistance keeps a fault up to {} beyond a rail \
-             under {} into the input's protection (the amplifier's datasheet governs).",
-            format(series, Quantity::Resistance),
-            v(tolerated),
-            format(limit, Quantity::Current)
+             inputs inside them over that range. {}",
+            f.text(limit)
         ),
     )]
+}
+
+/// The fault a series resistor at a sensor terminal tolerates (see [`series_fault`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SeriesFault {
+    /// The resistor, Ω, and the rating the claim assumes (the least standard one), W.
+    pub resistance: f64,
+    pub rating: f64,
+    /// How far beyond a rail the terminal may go, V, and the power the resistor then takes, W.
+    pub beyond_rail: f64,
+    pub power: f64,
+}
+
+/// Of the resistors in series from `terminals` (not to ground), the one that tolerates the least
+/// fault beyond a rail: its voltage at most R·I_limit and at most what a part of the least
+/// standard rating takes.
+pub fn series_fault(req: &Request, c: &Circuit, terminals: &[String]) -> Option<SeriesFault> {
+    let limit = req.destination.injection_limit;
+    c.parts
+        .iter()
+        .filter(|p| p.kind == PartKind::Resistor && !p.bench && !p.nodes.iter().any(|n| n == crate::circuit::GND))
+        .filter(|p| p.nodes.iter().any(|n| terminals.contains(n)))
+        .map(|p| {
+            let rating = crate::ratings::POWER_RATINGS[0];
+            let across = (p.value * limit).min(crate::ratings::fault_across(p.value, rating));
+            let beyond_rail = across + crate::synth::drive::CLAMP_DROP;
+            SeriesFault { resistance: p.value, rating, beyond_rail, power: across * across / p.value }
+        })
+        .min_by(|a, b| a.beyond_rail.total_cmp(&b.beyond_rail))
+}
+
+impl SeriesFault {
+    /// The claim in words, with its numbers.
+    pub fn text(&self, limit: f64) -> String {
+        let w = |x: f64| format(x, Quantity::Power);
+        let high = if self.beyond_rail > crate::ratings::EXTRA_LOW_VOLTAGE {
+            " Mains-referenced sensors need isolation; data sheets and local codes govern."
+        } else {
+            ""
+        };
+        format!(
+            "A fault up to {} beyond a rail keeps under {} in the input's protection (its datasheet governs) and {} \
+             in the {} series resistor, rated {} or more; a larger fault needs a larger part.{high}",
+            format(self.beyond_rail, Quantity::Voltage),
+            format(limit, Quantity::Current),
+            w(self.power),
+            format(self.resistance, Quantity::Resistance),
+            w(self.rating)
+        )
+    }
 }
