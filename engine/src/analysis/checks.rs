@@ -155,8 +155,9 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
     let mc = &a.tolerance.monte_carlo;
     let pct = |x: f64| format!("{:.2} %", 100.0 * x);
     let msg = format!(
-        "{} of {} simulated builds (parts within tolerance, amplifier offset and bias currents spread) keep the output \
-            inside the converter range with every amplifier inside its limits; {} also keep the full {:.1} % headroom.{}",
+        "{} of {} simulated builds (parts within tolerance, amplifier offset and bias currents spread) keep the \
+            output inside the converter range with every amplifier inside its limits; {} also keep the full {:.1} % \
+            headroom.{}",
         pct(mc.yield_), mc.runs, pct(mc.yield_headroom), req.destination.headroom * 100.0,
         if mc.clipped > 0 {
             let share = pct(mc.clipped as f64 / mc.runs.max(1) as f64);
