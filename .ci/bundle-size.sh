@@ -1,6 +1,6 @@
 #!/usr/bin/env bash
 # Measures what the first visit transfers and holds it to the first-load budget: at most
-# 400 KB brotli and at most 470 KB gzip (1 KB = 1000 bytes). The files counted are those
+# 415 KB brotli and at most 490 KB gzip (1 KB = 1000 bytes). The files counted are those
 # a first visit loads (rangefit-bundle's first-load rule: everything in dist/ except the
 # .br/.gz siblings and the one-file app, which is downloaded on request only): the page,
 # the JavaScript glue, the WebAssembly module, the stylesheet, the service worker, the
@@ -10,15 +10,18 @@
 # when the ceiling came down to 470 KB); it is not held to the budget.
 # History of the single gzip -9 ceiling this replaces: 480 KB → 500 KB (anti-alias filter,
 # three sensor kinds) → 510 KB (instrumentation amplifier) → 470 KB (size-only work).
+# Brotli/gzip budget 400/470 KB → 415/490 KB with the bench-truth checks (the converter's
+# reference and supply figures, every amplifier's limits, protection the parts survive, the
+# drive's remedies; 409,560 / 480,780 bytes measured).
 # Builds nothing: run `trunk build --release` first (.ci/test.sh does).
 #
-#   .ci/bundle-size.sh [DIST_DIR]   budgets BROTLI_BUDGET (400000), GZIP_BUDGET (470000)
+#   .ci/bundle-size.sh [DIST_DIR]   budgets BROTLI_BUDGET (415000), GZIP_BUDGET (490000)
 set -euo pipefail
 
 ROOT="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
 DIST="${1:-$ROOT/dist}"
-BROTLI_BUDGET="${BROTLI_BUDGET:-400000}"
-GZIP_BUDGET="${GZIP_BUDGET:-470000}"
+BROTLI_BUDGET="${BROTLI_BUDGET:-415000}"
+GZIP_BUDGET="${GZIP_BUDGET:-490000}"
 
 if [ ! -f "$DIST/index.html" ]; then
     echo "bundle-size: $DIST/index.html is missing; build the bundle first (trunk build --release)" >&2
