@@ -15,6 +15,7 @@ use fantoccini::{Client, Locator};
 use rangefit_engine::bom::{bom, to_csv};
 use rangefit_engine::draw::schematic::{of_design, SchematicConfig};
 use rangefit_engine::netlist::{netlist, NetlistConfig};
+use rangefit_engine::request::AMPLIFIER_FIGURES;
 use rangefit_engine::units::{self, Quantity};
 use rangefit_engine::{demos, design, Request};
 use rangefit_tests::*;
@@ -509,7 +510,7 @@ async fn amplifier_figures_given_or_assumed() {
         assert!(gave.iter().any(|h| h == "Figures you gave"), "{gave:?}");
         let figures = texts(&client, "[data-testid='assumptions'] .figures li").await;
         assert!(figures.iter().any(|f| f.contains("Gain-bandwidth (GBW)") && f.contains("2 MHz")), "{figures:?}");
-        assert_eq!(figures.len(), 14, "every figure is listed once, assumed or given");
+        assert_eq!(figures.len(), AMPLIFIER_FIGURES.len(), "every figure is listed once, assumed or given");
         eval(&client, "document.querySelector(\"[data-testid='assumptions']\").scrollIntoView();", vec![]).await;
         screenshot(&client, "design-assumptions").await;
 
