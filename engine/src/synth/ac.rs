@@ -28,8 +28,9 @@ use crate::values;
 
 /// Fraction of `band_low` at which each high-pass corner is placed.
 pub const CORNER_FRACTION: f64 = 0.1;
-/// Cost of a gain leg whose DC block only an electrolytic reaches, in the mapping cost's unit
-/// (a share of the span): it outweighs a 5 % mapping miss, which rounding never leaves.
+/// Cost of a gain leg's DC block (or a reference bypass) only an electrolytic reaches, in the
+/// mapping cost's unit (a share of the span): it outweighs a 5 % mapping miss, which rounding
+/// never leaves.
 const BIG_BLOCK_COST: f64 = 0.05;
 
 /// Designs the AC-coupled stage: the plain form (a buffer with an attenuator when |m| < 1,
@@ -119,8 +120,13 @@ fn variant(
         // electrolytic, and its leakage through Rf moves the rest level by about
         // 0.01·V·(G − 1)/(2π·f_c) whatever the resistance level: prefer a leg that keeps it
         // a ceramic (ratings::CERAMIC_UP_TO) wherever the window allows one.
-        let (.., rg, _) = unpack(v);
+        let (_, _, rt, rbt, rg, _) = unpack(v);
         if !follower && block_for(rg) > ratings::CERAMIC_UP_TO {
+            c += BIG_BLOCK_COST;
+        }
+        // The reference's bypass likewise: its leakage through the divider's Thevenin
+        // resistance moves the rest level by about 0.01·V/(2π·f_c) as an electrolytic.
+        if has_divider && block_for(rt * rbt / (rt + rbt)) > ratings::CERAMIC_UP_TO {
             c += BIG_BLOCK_COST;
         }
         c + v.iter().map(|r| 1e-8 * (r / 47e3).max(47e3 / r)).sum::<f64>()
@@ -142,7 +148,10 @@ fn variant(
             v.push(ra);
         }
         if has_divider {
-            let rth = rb / 20.0;
+            // A twentieth of Rb, but no lower than keeps the bypass a ceramic (Rb carries no DC
+            // current and the bypass shorts the divider mid-band, so a higher Thevenin
+            // resistance costs only the bias current's drop across it).
+            let rth = (rb / 20.0).max(block_for(ratings::CERAMIC_UP_TO));
             v.push(rth / k);
             v.push(rth / (1.0 - k));
         }
