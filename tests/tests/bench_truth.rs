@@ -401,3 +401,41 @@ fn electrolytic_leakage_and_power_up_settling() {
     rows.push(row_rel("20 Hz: power-up settling to ½ LSB (s)", engine_t, t, 0.1, 0.0, "ngspice transient, uic"));
     check(&rows);
 }
+
+/// The harbour film's low corner: its own 1 GΩ of leakage across its 1 nF and the bias
+/// resistor R_b set it, whatever R_b does beyond that. The film's EMF reaches the follower
+/// through (1 + j·f/f_z)/(R_s/R_par + j·f/f_z), f_z = 1/(2π·R_s·C), with its pole at the
+/// engine's low corner 1/(2π·R_par·C); ngspice's AC response at the follower's output follows
+/// it from well below the corner to the band. With a 1 Hz band_low that corner lies above a
+/// tenth of it and the check warns.
+#[test]
+fn the_film_leakage_sets_the_low_corner_where_the_engine_says() {
+    let mut rows: Vec<Row> = Vec::new();
+    let d = design(&harbour_film(0.5));
+    let b = d.high_impedance().expect("a follower");
+    let (f_l, r_b) = (b.low_corner.expect("a low corner"), b.bias_resistor.expect("a bias resistor"));
+    let c = d.checks.iter().find(|c| c.id == "low_corner").expect("a low_corner check");
+    rows.push(fact(format!("low_corner warns: {}", c.message), c.severity == Severity::Warning, "design contract"));
+    let (r_s, cap) = (1e9, 1e-9);
+    let r_par = r_s * r_b / (r_s + r_b);
+    rows.push(row_rel(
+        "engine's corner = 1/(2π·R_par·C) (Hz)",
+        f_l,
+        1.0 / (2.0 * std::f64::consts::PI * r_par * cap),
+        1e-9,
+        0.0,
+        "RC corner",
+    ));
+    let net = exported(&d);
+    let freqs = [0.02, 0.1, f_l, 0.5, 1.0, 100.0];
+    let m = spice::ac_magnitudes("film-corner", &net, "buf", &freqs);
+    let f_z = f_l * r_par / r_s;
+    let model = |f: f64| (1.0 + (f / f_z).powi(2)).sqrt() / ((r_s / r_par).powi(2) + (f / f_z).powi(2)).sqrt();
+    for (i, &f) in freqs.iter().enumerate().take(freqs.len() - 1) {
+        let got = m[i] / m[freqs.len() - 1];
+        let want = model(f) / model(100.0);
+        println!("{f:.4} Hz: ngspice {got:.5}, pole at the engine's corner {want:.5}");
+        rows.push(row_rel(format!("response at {f:.3} Hz over 100 Hz"), got, want, 0.003, 0.0, NGSPICE));
+    }
+    check(&rows);
+}
