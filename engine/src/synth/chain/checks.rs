@@ -269,13 +269,31 @@ pub fn filter_checks(req: &Request, s: &Synthesis, achieved_db: Option<f64>, ban
                     {e:+.3} dB from mid-band at {}",
                     hz(req.source.band_high)
                 );
+                // A DC electrode's own resistance into its (and its cable's) capacitance is a pole
+                // no circuit after it undoes.
+                let src = &req.source;
+                let own = (src.kind == crate::request::SourceKind::HighImpedance
+                    && src.coupling == crate::request::Coupling::Dc)
+                    .then(|| src.capacitance.filter(|c| *c > 0.0 && src.impedance > 0.0))
+                    .flatten()
+                    .map(|cs| 1.0 / (2.0 * std::f64::consts::PI * src.impedance * cs))
+                    .map(|f_s| (f_s, -10.0 * (1.0 + (src.band_high / f_s).powi(2)).log10()))
+                    .filter(|(_, db)| db.abs() > allowed);
+                let fix = match own {
+                    Some((f_s, db)) => format!(
+                        "The sensor's own resistance and capacitance put a corner at {} ({db:+.3} dB at band_high) that \
+                            no circuit after it undoes: a narrower band or less cable capacitance.",
+                        hz(f_s)
+                    ),
+                    None => "A faster amplifier keeps the sections on their design values; a higher order moves the \
+                        corner further from the band."
+                        .to_string(),
+                };
                 c.push(if e.abs() > allowed + 0.005 {
                     Check::error(
                         "band_flatness",
                         format!(
-                            "{text}, beyond the {allowed} dB allowed (the filter \
-                        sections alone: {:.3} dB). A faster amplifier keeps the sections on their design values; a \
-                        higher order moves the corner further from the band.",
+                            "{text}, beyond the {allowed} dB allowed (the filter sections alone: {:.3} dB). {fix}",
                             f.passband_error_db
                         ),
                     )
