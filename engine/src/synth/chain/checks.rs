@@ -281,8 +281,8 @@ pub fn filter_checks(req: &Request, s: &Synthesis, achieved_db: Option<f64>, ban
                     .filter(|(_, db)| db.abs() > allowed);
                 let fix = match own {
                     Some((f_s, db)) => format!(
-                        "The sensor's own resistance and capacitance put a corner at {} ({db:+.3} dB at band_high) that \
-                            no circuit after it undoes: a narrower band or less cable capacitance.",
+                        "The sensor's own resistance and capacitance put a corner at {} ({db:+.3} dB at band_high) \
+                            that no circuit after it undoes: a narrower band or less cable capacitance.",
                         hz(f_s)
                     ),
                     None => "A faster amplifier keeps the sections on their design values; a higher order moves the \
