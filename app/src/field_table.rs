@@ -225,7 +225,7 @@ pub fn placeholder(f: &Field, design: Option<&rangefit_engine::Design>) -> Strin
         "amplifier.noise_corner" => assumed(amp.map(|a| a.noise_corner)),
         "amplifier.open_loop_gain" => assumed(amp.map(|a| a.open_loop_gain)),
         "amplifier.supply_rejection" => assumed(amp.map(|a| a.supply_rejection)),
-        "destination.reference_voltage" => "empty: the larger end of the input range".into(),
+        "destination.reference_voltage" => "empty: top of the range".into(),
         "destination.reference_tolerance" => format!("empty: {}", units::format_percent(DEFAULT_REFERENCE_TOLERANCE)),
         "supply_tolerance" => format!("empty: {}", units::format_percent(DEFAULT_SUPPLY_TOLERANCE)),
         _ => match f.kind {
