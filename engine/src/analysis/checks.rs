@@ -158,7 +158,10 @@ pub fn checks(req: &Request, a: &Analysis, nominal: Nominal) -> Vec<Check> {
         "{} of {} simulated builds (parts within tolerance, amplifier offset and bias currents spread) keep the \
             output inside the converter range with every amplifier inside its limits; {} also keep the full {:.1} % \
             headroom.{}",
-        pct(mc.yield_), mc.runs, pct(mc.yield_headroom), req.destination.headroom * 100.0,
+        pct(mc.yield_),
+        mc.runs,
+        pct(mc.yield_headroom),
+        req.destination.headroom * 100.0,
         if mc.clipped > 0 {
             let share = pct(mc.clipped as f64 / mc.runs.max(1) as f64);
             format!(" {} builds ({share}) reach the amplifier's swing limit and count as failures.", mc.clipped)
