@@ -31,8 +31,10 @@ use crate::request::{Coupling, Request, SourceKind};
 use crate::synth::{self, dc, Limits, Synthesis, Target};
 use crate::units::{format, Quantity};
 
-/// Each further try lowers G1 by this factor.
+/// Each further try lowers G1 by this factor, at most [`TRIES`] times (G1 down to about
+/// 1/200 of the first try: below that the second stage would need all but the whole gain).
 pub const STEP: f64 = 0.8;
+pub const TRIES: usize = 24;
 
 /// The first stage and the split (`two_stage` in the design output).
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -80,7 +82,10 @@ pub fn plan(
     let by_gbw = amp.gbw / (GBW_MARGIN * s.band_high.max(1e-9));
     let top = gain.abs().min(by_swing).min(by_gbw);
     let mut g1 = top;
-    while g1 >= 1.5 {
+    for _ in 0..TRIES {
+        if g1 < 1.5 {
+            break;
+        }
         if let Some(found) = split(ctx, g1, reach, reason, &second) {
             return Ok(found);
         }
@@ -88,10 +93,11 @@ pub fn plan(
     }
     Err(format!(
         "two stages fail too: the first stage's swing allows G1 ≤ {}, its bandwidth G1 ≤ {}, and no G1 from {} \
-         down to 1.5 leaves both stages realisable",
+         down to {} leaves both stages realisable",
         sig(by_swing),
         sig(by_gbw),
-        sig(top)
+        sig(top),
+        sig((g1 / STEP).min(top))
     ))
 }
 

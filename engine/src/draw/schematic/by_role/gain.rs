@@ -6,7 +6,8 @@ use super::super::plan::{has, other, Leg, Plan, Step};
 use super::{divider, Roles, R};
 use crate::circuit::{SectionPart, StageKind};
 
-/// The single-ended gain stage fed from `start` (`first`: the first of two gain stages): its amplifier; the series path of the input
+/// The single-ended gain stage fed from `start` (`first`: the first of two gain stages): its
+/// amplifier; the series path of the input
 /// network's coupling capacitor and attenuator and the input resistor; the legs from its
 /// inputs (to ground or a rail, R_g with C_g, the bias resistor with the reference divider,
 /// the filter's pole to ground, a loop's shunt); the feedback resistor and a pole across it.
