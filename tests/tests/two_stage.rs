@@ -241,3 +241,34 @@ fn random_high_gain_requests_design_and_hold_up_in_ngspice() {
     rows.push(fact(format!("some of them ({split}) built in two stages"), split > 0, CONTRACT));
     check(&rows);
 }
+
+/// Each stage's offset referred to the input, as the figures give it: the amplifier's offset
+/// put in series with each amplifier's + input in the exported netlist moves the converter
+/// pin by the figure times the whole gain (ngspice), so the second stage's share is ÷ G1.
+#[test]
+fn each_stage_offset_reaches_the_input_as_the_figures_say() {
+    let d = design(&thermopile());
+    let fig = d.figures.front.iter().find(|b| b.id == "two_stage").expect("the two_stage figures");
+    let val = |label: &str| fig.rows.iter().find(|r| r.label.starts_with(label)).and_then(|r| r.value).unwrap();
+    let gain = d.predicted.expect("a prediction").gain;
+    let net = exported(&d.request, d.circuit.as_ref().unwrap());
+    let vos = d.amplifier.offset;
+    let pin = |net: &str, tag: &str| {
+        spice::operating_points(tag, net, &[vec!["alter VSENSE dc = 1e-3".into()]], &["adc"])[0][0]
+    };
+    let base = pin(&net, "thermopile-offset-none");
+    let mut rows = Vec::new();
+    for (u, label) in [("XU1 ", "Offset at the input, first"), ("XU2 ", "Offset at the input, second")] {
+        let with: String = net
+            .lines()
+            .map(|l| match l.strip_prefix(u).and_then(|r| r.split_once(' ')) {
+                Some((plus, rest)) => format!("{u}{plus}_os {rest}\nVOS_{} {plus}_os {plus} DC {vos:e}\n", u.trim()),
+                None => format!("{l}\n"),
+            })
+            .collect();
+        assert!(with.contains("VOS_"), "{u}not in the netlist");
+        let moved = pin(&with, &format!("thermopile-offset-{}", u.trim())) - base;
+        rows.push(row_rel(format!("{u}offset referred to the input, V"), moved / gain, val(label), 0.02, 1e-9, OP));
+    }
+    check(&rows);
+}
