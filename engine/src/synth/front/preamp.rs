@@ -22,7 +22,7 @@
 use serde::Serialize;
 
 use super::{Context, Steps};
-use crate::circuit::{Builder, Circuit, PartKind, PartRole, Stage, StageKind, StageRole};
+use crate::circuit::{Builder, Circuit, PartKind, PartRole, Place, Stage, StageKind, StageRole};
 use crate::design::{noise_gain, GBW_MARGIN};
 use crate::diag::Check;
 use crate::figures::Block;
@@ -173,13 +173,13 @@ impl Steps for PreampDesign {
         let mut names: Vec<(String, String)> = Vec::new();
         for p in self.first.parts.iter().filter(|p| !p.bench) {
             let nodes: Vec<&str> = p.nodes.iter().map(|n| rename(n)).collect();
-            let role = p.role.unwrap_or(PartRole::Amplifier);
             let stage = if p.stage == StageRole::Gain { StageRole::InputStage } else { p.stage };
+            let at = Place { stage, role: p.role };
             let new = match <[&str; 5]>::try_from(nodes.as_slice()) {
                 Ok(n) if p.kind == PartKind::OpAmp => {
-                    bld.front_amplifier("U1", p.value, n, (stage, role), "first gain stage: most of the gain")
+                    bld.front_amplifier("U1", p.value, n, at, "first gain stage: most of the gain")
                 }
-                _ => bld.add(p.kind, p.value, p.tolerance, &nodes, (stage, role), &p.purpose),
+                _ => bld.add(p.kind, p.value, p.tolerance, &nodes, at, &p.purpose),
             };
             names.push((p.reference.clone(), new));
         }
