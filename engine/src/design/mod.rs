@@ -218,14 +218,13 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
                     "no_realisation",
                     format!(
                         "The mapping asks a gain of {}; one stage from {:?} parts in {} … {} reaches at most about {} \
-                         (1 + R_max/R_min); {two}. Two stages need R_max/R_min ≥ 1.5·√gain = {}: widen \
-                         parts.resistor_min … resistor_max, or narrow the converter range.",
+                         (1 + R_max/R_min); {two}. Widen parts.resistor_min … resistor_max, or narrow the converter \
+                         range.",
                         sig3(target.gain),
                         req.parts.resistor_series,
                         format(lo, Quantity::Resistance),
                         format(hi, Quantity::Resistance),
                         sig3(1.0 + hi / lo),
-                        sig3(1.5 * target.gain.abs().sqrt())
                     ),
                 ));
                 return finish_early(out, front, checks, &ctx);

@@ -93,11 +93,12 @@ pub fn plan(
     }
     Err(format!(
         "two stages fail too: the first stage's swing allows G1 ≤ {}, its bandwidth G1 ≤ {}, and no G1 from {} \
-         down to {} leaves both stages realisable",
+         down to {} leaves both stages realisable; two stages need R_max/R_min ≥ 1.5·√gain = {}",
         sig(by_swing),
         sig(by_gbw),
         sig(top),
-        sig((g1 / STEP).min(top))
+        sig((g1 / STEP).min(top)),
+        sig(1.5 * gain.abs().sqrt())
     ))
 }
 
