@@ -426,6 +426,18 @@ fn every_topology_draws_cleanly() {
             &["ref", "adc"],
         ),
         (
+            "gain in two stages, one rail",
+            designed(&request("two stages", 0.0, 0.002, "dc", (0.0, 2.0), (0.0, 2.5), "[5]", true)),
+            "two stages",
+            &["pre", "pinp", "pinn"],
+        ),
+        (
+            "gain in two stages, split rails",
+            designed(&request("two stages split", 0.0, 0.001, "dc", (0.0, 5.0), (-2.5, 2.5), "[5, -5]", true)),
+            "two stages",
+            &["pre", "pinn"],
+        ),
+        (
             "AC amplifier, bias to ground, dual supply",
             designed(&request("ac ground bias", 1.0, 1.2, "ac", (10.0, 1000.0), (-2.0, 2.0), "[5, -5]", true)),
             "non-inverting amplifier",
@@ -590,6 +602,7 @@ fn odd(build: impl Fn(&mut Builder)) -> Circuit {
 
 #[test]
 fn odd_circuits_never_panic_and_parts_are_never_dropped() {
+    let (_, two_stages, _) = designed(&request("two stages", 0.0, 0.002, "dc", (0.0, 2.0), (0.0, 2.5), "[5]", true));
     let (req, harbour, _) = designed(demos::ALL[0].json);
     let mut extra = harbour.clone();
     let mut b = Builder::default();
@@ -664,6 +677,20 @@ fn odd_circuits_never_panic_and_parts_are_never_dropped() {
                 b.bench("ISENSE", PartKind::CurrentSource, 1e-6, &["diode", "0"], StageRole::Sensor, "");
             }),
             true,
+        ),
+        // Gain in two stages (a design one stage cannot give), whole and with its first stage's
+        // feedback resistor removed after synthesis.
+        ("two stages", two_stages.clone(), true),
+        (
+            "two stages, first feedback removed",
+            {
+                let mut c = two_stages.clone();
+                let fb =
+                    |p: &rangefit_engine::circuit::Part| p.nodes.iter().any(|n| n == "pinn") && p.nodes[0] == "pre";
+                c.parts.retain(|p| !fb(p));
+                c
+            },
+            false,
         ),
         (
             "self loop",

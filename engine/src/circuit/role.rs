@@ -28,6 +28,8 @@ pub enum StageKind {
     Reference,
     /// The single-ended gain stage: gain and level shift in one amplifier, inverting or not.
     Gain { inverting: bool },
+    /// The first of two gain stages (non-inverting), in front of the gain stage.
+    FirstGain,
     /// A differential pair's difference amplifier.
     Difference,
     /// The anti-alias filter; each part's role names its section.

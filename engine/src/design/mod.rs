@@ -185,13 +185,55 @@ pub fn design_with(req: &Request, cfg: &AnalysisConfig) -> Design {
     let Some(target) = synth::target(syn, &amp, rails, &mut checks) else {
         return finish_early(out, front, checks, &ctx);
     };
-    let Some((mut s, mut p)) = synthesise(syn, &amp, rails, target) else {
-        checks.push(Check::error(
-            "no_realisation",
-            "No stage built from the requested series inside the resistor window realises this mapping; widen \
-             parts.resistor_min … resistor_max or choose a finer series.",
-        ));
-        return finish_early(out, front, checks, &ctx);
+    let mut found = synthesise(syn, &amp, rails, target);
+    // One stage that cannot give the gain (no realisation, or too little GBW): two stages.
+    let short = |x: &(synth::Synthesis, Predicted)| GBW_MARGIN * noise_gain(&x.0.circuit) * req.source.band_high;
+    let why = match &found {
+        None => Some(format!(
+            "One stage from {:?} parts reaches no gain of {}",
+            req.parts.resistor_series,
+            sig3(target.gain)
+        )),
+        Some(x) if front.is_none() && short(x) > amp.gbw => {
+            Some(format!("One stage of gain {} needs {} of gain-bandwidth", sig3(target.gain), hz(short(x))))
+        }
+        Some(_) => None,
+    };
+    let mut two = Err("no second stage is built behind this sensor's front end".to_string());
+    if let (None, Some(why)) = (&front, &why) {
+        let second = |eq: &Request| synthesise(eq, &amp, rails, synth::target(eq, &amp, rails, &mut Vec::new())?);
+        two = synth::front::preamp::plan(&ctx, target.gain, why, second);
+    }
+    let eq;
+    let syn = match two {
+        Ok((pre, s2, p2)) => {
+            eq = synth::front::Steps::equivalent(&pre, &ctx);
+            (found, front) = (Some((s2, p2)), Some(FrontEnd::Preamp(pre)));
+            &eq
+        }
+        Err(two) => {
+            if found.is_none() {
+                let (lo, hi) = (req.parts.resistor_min, req.parts.resistor_max);
+                checks.push(Check::error(
+                    "no_realisation",
+                    format!(
+                        "The mapping asks a gain of {}; one stage from {:?} parts in {} … {} reaches at most about {} \
+                         (1 + R_max/R_min); {two}. Widen parts.resistor_min … resistor_max, or narrow the converter \
+                         range.",
+                        sig3(target.gain),
+                        req.parts.resistor_series,
+                        format(lo, Quantity::Resistance),
+                        format(hi, Quantity::Resistance),
+                        sig3(1.0 + hi / lo),
+                    ),
+                ));
+                return finish_early(out, front, checks, &ctx);
+            }
+            syn
+        }
+    };
+    let Some((mut s, mut p)) = found else {
+        return unsolved(out, checks);
     };
     // Checks of the gain stage in the synthesis view (volts at `sense`).
     let mut req_amp = requirements::requirements(syn, &s, &amp, rails);

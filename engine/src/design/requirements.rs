@@ -139,12 +139,8 @@ pub(super) fn widen(r: &mut Requirements, n: &synth::front::Needs, rails: Rails,
     r.summary[2] = format!("input common-mode range covers {} … {}", v(r.input_low), v(r.input_high));
     if n.gbw > r.gbw_min {
         r.gbw_min = n.gbw;
-        r.summary[3] = format!(
-            "gain-bandwidth ≥ {} for the instrumentation amplifier's first stage (100 × its gain {:.3} × {})",
-            hz(r.gbw_min),
-            n.gain,
-            hz(band_high)
-        );
+        r.summary[3] =
+            format!("gain-bandwidth ≥ {} for the {} {:.3} × {})", hz(r.gbw_min), n.rule, n.gain, hz(band_high));
     }
 }
 

@@ -226,7 +226,7 @@ pub fn schematic(
         (None, Some(d)) => (stage(&d.stage), sh.diff_row(d)),
         (None, None) => {
             let plan = blocks.plan.clone().unwrap_or_default();
-            let out = front(&mut sh, &plan, blocks.buffer.as_ref(), blocks.tia.as_ref());
+            let out = front(&mut sh, &plan, blocks.buffer.as_ref(), blocks.tia.as_ref(), blocks.pre.as_ref());
             (plan, out)
         }
     };
@@ -263,9 +263,11 @@ pub fn schematic(
     sh.finish(name)
 }
 
-/// The sensor, whatever front end has a row of its own, the series path and the
-/// single-ended gain stage; returns where the gain stage's output line ends.
-fn front(sh: &mut Sheet, plan: &Plan, buffer: Option<&Buffer>, tia: Option<&Tia>) -> Option<(f64, f64, String)> {
+/// The sensor, whatever front end has a row of its own (a first gain stage `pre` too), the
+/// series path and the single-ended gain stage; returns where the gain stage's output line ends.
+fn front(
+    sh: &mut Sheet, plan: &Plan, buffer: Option<&Buffer>, tia: Option<&Tia>, pre: Option<&Plan>,
+) -> Option<(f64, f64, String)> {
     let x_term = sh.sensor();
     // The gain stage's own row: room above its line for the loops drawn there.
     let top = if plan.bottom == plan.inn && plan.inn != plan.out { 80.0 } else { 140.0 };
@@ -278,7 +280,16 @@ fn front(sh: &mut Sheet, plan: &Plan, buffer: Option<&Buffer>, tia: Option<&Tia>
             let tip = sh.tia_row(t, x_term, top);
             sh.series(plan, tip, sheet::TP_GAP / 2.0)
         }
-        (None, None) => sh.series(plan, x_term, sheet::TP_GAP),
+        (None, None) => match pre {
+            Some(p) => {
+                let x = sh.series(p, x_term, sheet::TP_GAP);
+                let (xa, y, net) = sh.amp_stage(p, x)?;
+                sh.flag(xa, y, &net);
+                let tip = sh.gain_row(&net, top);
+                sh.series(plan, tip, sheet::TP_GAP / 2.0)
+            }
+            None => sh.series(plan, x_term, sheet::TP_GAP),
+        },
     };
     sh.amp_stage(plan, x_line)
 }

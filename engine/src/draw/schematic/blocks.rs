@@ -80,6 +80,8 @@ pub(super) struct Blocks {
     pub(super) tia: Option<Tia>,
     pub(super) inamp: Option<Inamp>,
     pub(super) diff: Option<Diff>,
+    /// The first of two gain stages, in front of the gain stage.
+    pub(super) pre: Option<Plan>,
     /// The single-ended gain stage (absent behind a difference or instrumentation amplifier).
     pub(super) plan: Option<Plan>,
     /// The filter and the drive; `None` in the fallback, which walks them from the gain
@@ -125,6 +127,7 @@ fn fallback(_: &Circuit) -> Blocks {
         tia: None,
         inamp: None,
         diff: None,
+        pre: None,
         plan: None,
         chain: None,
     }

@@ -56,9 +56,18 @@ pub(super) fn blocks(c: &Circuit) -> Option<Blocks> {
         Sensor::Plain(p) => p.term.clone(),
     };
     let (start, _) = Blocks::start(buffer.as_ref(), tia.as_ref(), &term);
+    // The first of two gain stages, between the sensor and the gain stage.
+    let pre = match listed(StageKind::FirstGain) {
+        true => Some(plan(&r, &terminal, &start, true)).filter(|p| p.amp.is_some() && p.connected),
+        false => None,
+    };
+    if listed(StageKind::FirstGain) && pre.is_none() {
+        return None;
+    }
+    let start = pre.as_ref().map_or(start, |p| p.out.clone());
     let plan = match (&inamp, &diff) {
         (None, None) => {
-            let plan = plan(&r, &terminal, &start);
+            let plan = plan(&r, &terminal, &start, false);
             let gain = c.stages.iter().any(|s| matches!(s.kind, StageKind::Gain { .. }));
             if gain && plan.amp.is_none() {
                 return None;
@@ -85,6 +94,7 @@ pub(super) fn blocks(c: &Circuit) -> Option<Blocks> {
         tia,
         inamp,
         diff,
+        pre,
         plan,
         chain: Some(chain),
     })

@@ -43,6 +43,7 @@ pub(super) fn blocks(c: &Circuit) -> Blocks {
         tia,
         inamp,
         diff,
+        pre: None,
         plan,
         chain: None,
     }

@@ -563,6 +563,7 @@ impl super::Steps for Instrumentation {
             input_range: d.input_range,
             gbw: d.gbw_needed,
             gain: d.first_gain,
+            rule: "instrumentation amplifier's first stage (100 × its gain",
         })
     }
 

@@ -14,13 +14,15 @@
 //!    analyses ran, the checks that need them ([`Steps::analysed`]);
 //! 5. **figures**: its rows for the report, the app and the JSON ([`crate::figures`]).
 //!
-//! A single-ended voltage sensor has no front end: the gain stage meets it directly.
+//! A single-ended voltage sensor has no front end: the gain stage meets it directly, unless
+//! one stage cannot give its gain ([`preamp`]: a first gain stage in front).
 
 pub mod bridge;
 pub mod current_loop;
 pub mod difference;
 pub mod follower;
 pub mod instrumentation;
+pub mod preamp;
 pub mod transimpedance;
 
 use serde::ser::{Serialize, SerializeMap, Serializer};
@@ -57,6 +59,8 @@ pub struct Needs {
     pub gbw: f64,
     /// The front end's gain, V/V (named in the requirement's words).
     pub gain: f64,
+    /// The requirement's words before the gain: which stage, the rule's factor.
+    pub rule: &'static str,
 }
 
 /// The steps every front end takes (see the module documentation).
@@ -110,6 +114,8 @@ pub enum FrontEnd {
     Difference(difference::Difference),
     /// A differential pair or a bridge behind an instrumentation amplifier's first stage.
     Instrumentation(instrumentation::Instrumentation),
+    /// A first gain stage in front of the gain stage, when one stage cannot give the gain.
+    Preamp(preamp::PreampDesign),
 }
 
 impl FrontEnd {
@@ -133,6 +139,7 @@ impl FrontEnd {
             FrontEnd::Transimpedance(x) => x,
             FrontEnd::Difference(x) => x,
             FrontEnd::Instrumentation(x) => x,
+            FrontEnd::Preamp(x) => x,
         }
     }
 
@@ -144,6 +151,7 @@ impl FrontEnd {
             FrontEnd::Transimpedance(x) => x,
             FrontEnd::Difference(x) => x,
             FrontEnd::Instrumentation(x) => x,
+            FrontEnd::Preamp(x) => x,
         }
     }
 
@@ -194,7 +202,7 @@ impl FrontEnd {
 }
 
 /// The design output holds each front end under its own key(s): `current_loop`,
-/// `high_impedance`, `photodiode`, `differential` (+ `bridge`), and `instrumentation`.
+/// `high_impedance`, `photodiode`, `differential` (+ `bridge`), `instrumentation` and `two_stage`.
 impl Serialize for FrontEnd {
     fn serialize<S: Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
         let mut m = s.serialize_map(None)?;
@@ -202,6 +210,7 @@ impl Serialize for FrontEnd {
             FrontEnd::Loop(l) => m.serialize_entry("current_loop", l)?,
             FrontEnd::Follower(b) => m.serialize_entry("high_impedance", b)?,
             FrontEnd::Transimpedance(t) => m.serialize_entry("photodiode", t)?,
+            FrontEnd::Preamp(p) => m.serialize_entry("two_stage", p)?,
             FrontEnd::Difference(_) | FrontEnd::Instrumentation(_) => {
                 if let Some(d) = self.differential() {
                     m.serialize_entry("differential", d)?;

@@ -6,12 +6,13 @@ use super::super::plan::{has, other, Leg, Plan, Step};
 use super::{divider, Roles, R};
 use crate::circuit::{SectionPart, StageKind};
 
-/// The single-ended gain stage fed from `start`: its amplifier; the series path of the input
+/// The single-ended gain stage fed from `start` (`first`: the first of two gain stages): its
+/// amplifier; the series path of the input
 /// network's coupling capacitor and attenuator and the input resistor; the legs from its
 /// inputs (to ground or a rail, R_g with C_g, the bias resistor with the reference divider,
 /// the filter's pole to ground, a loop's shunt); the feedback resistor and a pole across it.
-pub(super) fn plan(r: &Roles, terminal: &dyn Fn(&str) -> bool, start: &str) -> Plan {
-    let gain = |k: StageKind| matches!(k, StageKind::Gain { .. });
+pub(super) fn plan(r: &Roles, terminal: &dyn Fn(&str) -> bool, start: &str, first: bool) -> Plan {
+    let gain = |k: StageKind| if first { k == StageKind::FirstGain } else { matches!(k, StageKind::Gain { .. }) };
     let Some(u) = r.all(gain, |x| x == R::Amplifier).into_iter().find(|&i| r.nodes(i).len() >= 5) else {
         return Plan { start: start.to_string(), ..Plan::default() };
     };
@@ -28,6 +29,7 @@ pub(super) fn plan(r: &Roles, terminal: &dyn Fn(&str) -> bool, start: &str) -> P
     if inn != out {
         plan.feedback = r.all(|_| true, |x| x == R::FeedbackPole);
         plan.feedback.extend(r.all(gain, |x| x == R::FeedbackResistor));
+        plan.feedback.retain(|&i| has(&r.c.parts[i], &inn));
         crate::order::sort_by_key(&mut plan.feedback, |&i| i);
     }
     let series = r.all(
@@ -56,19 +58,20 @@ pub(super) fn plan(r: &Roles, terminal: &dyn Fn(&str) -> bool, start: &str) -> P
     plan.top = top;
     plan.series = steps;
     plan.connected = connected;
-    plan.top_legs = legs(r, terminal, &plan.top, true);
+    plan.top_legs = legs(r, terminal, &plan.top, true, &gain);
     if plan.bottom != plan.out && plan.bottom != plan.top {
-        plan.bottom_legs = legs(r, terminal, &plan.bottom, false);
+        plan.bottom_legs = legs(r, terminal, &plan.bottom, false, &gain);
     }
     plan
 }
 
 /// The legs hanging from input node `node`: reference blocks (`allow_block`) first.
-fn legs(r: &Roles, terminal: &dyn Fn(&str) -> bool, node: &str, allow_block: bool) -> Vec<Leg> {
+fn legs(
+    r: &Roles, terminal: &dyn Fn(&str) -> bool, node: &str, allow_block: bool, gain: &dyn Fn(StageKind) -> bool,
+) -> Vec<Leg> {
     if terminal(node) {
         return Vec::new();
     }
-    let gain = |k: StageKind| matches!(k, StageKind::Gain { .. });
     let around = |k: StageKind| gain(k) || matches!(k, StageKind::Reference | StageKind::InputNetwork);
     let mut out = Vec::new();
     // A loop's shunt hangs here too when the input sits on the sensor terminal.
