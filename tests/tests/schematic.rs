@@ -489,19 +489,24 @@ fn user_text_is_escaped() {
 
 #[test]
 fn polarised_capacitor_plus_faces_the_higher_dc_level() {
-    // IEC 60617: a polarised capacitor carries "+" at its positive plate. Sensor DC 1.2 V,
-    // amplifier input at the reference (about 1.65 V): "+" on the amplifier side of C1.
-    // A band reaching down to 0.1 Hz makes C1 large enough to be an electrolytic.
+    // IEC 60617: a polarised capacitor carries "+" at its positive plate. A band reaching
+    // down to 0.1 Hz makes the gain leg's DC block large enough to be an electrolytic (the
+    // coupling capacitor, whose leakage would matter, is a ceramic): "+" on its side at the
+    // reference level, the other plate at ground.
     let (req, c, _) =
         designed(&request("polarised coupling", 1.1, 1.3, "ac", (0.1, 1000.0), (0.0, 3.3), "[3.3]", true));
-    let c1 = c.part("C1").expect("C1");
-    assert!(c1.value >= rangefit_engine::ratings::ELECTROLYTIC_FROM, "C1 is {} F, not polarised", c1.value);
+    let c1 = c
+        .parts
+        .iter()
+        .find(|p| p.dielectric == Some(rangefit_engine::ratings::Dielectric::Electrolytic))
+        .expect("an electrolytic");
     let op = Solver::new(&c).dc(1.2).unwrap();
     let (lo, hi) = (c1.nodes[0].clone(), c1.nodes[1].clone());
     let (lo, hi) = if op.voltage(&lo) < op.voltage(&hi) { (lo, hi) } else { (hi, lo) };
     assert!(
         op.voltage(&hi).unwrap() - op.voltage(&lo).unwrap() > 0.3,
-        "C1 sits between {lo} and {hi} at nearly the same level"
+        "{} sits between {lo} and {hi} at nearly the same level",
+        c1.reference
     );
     let s = draw(&req, &c, "polarised coupling");
     // C1's leads: a wire end of each net facing the other across the plates.
@@ -517,7 +522,7 @@ fn polarised_capacitor_plus_faces_the_higher_dc_level() {
             }
         }
     }
-    let (a, b) = pair.expect("C1's plates not found between its two nets");
+    let (a, b) = pair.unwrap_or_else(|| panic!("{}'s plates not found between its two nets", c1.reference));
     let mid = ((a.0 + b.0) / 2.0, (a.1 + b.1) / 2.0);
     let centre = |t: &BoxRect| (t.x + t.w / 2.0, t.y + t.h / 2.0);
     let plus = s.texts.iter().filter(|t| t.text == "+").min_by(|p, q| {
@@ -525,8 +530,9 @@ fn polarised_capacitor_plus_faces_the_higher_dc_level() {
         (cp.0 - mid.0).hypot(cp.1 - mid.1).total_cmp(&(cq.0 - mid.0).hypot(cq.1 - mid.1))
     });
     let p = centre(plus.expect("no + mark"));
-    assert!((p.0 - mid.0).hypot(p.1 - mid.1) < 30.0, "the nearest + mark is far from C1");
-    assert!((p.0 - b.0).hypot(p.1 - b.1) < (p.0 - a.0).hypot(p.1 - a.1), "+ of C1 is on the {lo} side, not on {hi}");
+    assert!((p.0 - mid.0).hypot(p.1 - mid.1) < 30.0, "the nearest + mark is far from {}", c1.reference);
+    let r = &c1.reference;
+    assert!((p.0 - b.0).hypot(p.1 - b.1) < (p.0 - a.0).hypot(p.1 - a.1), "+ of {r} is on the {lo} side, not on {hi}");
     check("polarised coupling", &c, &s, Some(&req));
 }
 
