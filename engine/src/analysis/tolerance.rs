@@ -214,10 +214,10 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
             for p in c.parts.iter_mut().filter(|p| fixed.contains(&p.reference.as_str())) {
                 p.tolerance = None;
             }
-            Model::new(req, &c).ok()
+            Model::new(req, &c).ok().map(|m| (m, c))
         })
         .flatten();
-    let mc = lean.as_ref().unwrap_or(&model);
+    let (mc, mc_circuit) = lean.as_ref().map_or((&model, circuit), |(m, c)| (m, c));
     let mc_drawn: Vec<bool> = mc
         .kernel
         .params()
@@ -227,7 +227,8 @@ pub fn tolerance(req: &Request, circuit: &Circuit, cfg: &ToleranceConfig) -> Tol
             model.kernel.params().iter().position(|p| same(&p)).is_none_or(|i| drawn[i])
         })
         .collect();
-    let (stage_rows, inner) = stages::stage_limits(req, circuit, &model);
+    let (stage_rows, mut inner) = stages::stage_limits(req, circuit, &model);
+    inner.compile(mc_circuit);
     let mut mc_ws = mc.kernel.workspace();
     let (builds, clips, counts) = builds::draw_builds(mc, &mut mc_ws, req, cfg, &mc_drawn, &inner);
     let mut notes = distributions(model.kernel.params());

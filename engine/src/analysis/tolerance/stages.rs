@@ -13,7 +13,10 @@
 
 use serde::Serialize;
 
-use super::Model;
+use std::cell::RefCell;
+
+use super::{rails, Model};
+use crate::analysis::perturb::{Kernel, Workspace};
 use crate::circuit::{Circuit, PartKind, PartRole, StageKind};
 use crate::request::{Coupling, Request};
 use crate::solve::Solver;
@@ -54,10 +57,12 @@ pub(super) struct Watched {
     rail_effect: Vec<f64>,
 }
 
-/// The nodes the Monte Carlo watches in every build.
+/// The nodes the Monte Carlo watches in every build, each with the kernel compiled with it as
+/// its output (the same parameters as the Monte Carlo's kernel, so a build solves it as fast).
 #[derive(Debug, Clone, Default)]
 pub(super) struct Inner {
     watch: Vec<Watched>,
+    kernels: Vec<Option<(Kernel, RefCell<Workspace>)>>,
 }
 
 impl Inner {
@@ -65,21 +70,29 @@ impl Inner {
         self.watch.is_empty()
     }
 
+    /// Compiles each watched node's kernel on the Monte Carlo's circuit.
+    pub fn compile(&mut self, circuit: &Circuit) {
+        self.kernels = self
+            .watch
+            .iter()
+            .map(|w| {
+                let k = Kernel::compile(circuit, &w.node).ok()?;
+                let ws = RefCell::new(k.workspace());
+                Some((k, ws))
+            })
+            .collect();
+    }
+
     /// Whether build `p` (the kernel's parameters, then the rails') takes a watched node
     /// beyond its limits; each rail moves the node by its effect and the limit on its side.
     pub fn clips(&self, model: &Model, p: &[f64]) -> bool {
         let n = model.kernel.params().len();
         let deviations = &p[n..];
-        let mut last: Option<(f64, Vec<(String, f64)>)> = None;
-        for w in &self.watch {
-            if last.as_ref().is_none_or(|l| l.0 != w.at) {
-                let Some(v) = model.kernel.dc_voltages(&p[..n], w.at) else { continue };
-                last = Some((w.at, v));
-            }
-            let Some((_, v)) = &last else { continue };
-            let Some(&(_, y)) = v.iter().find(|(m, _)| *m == w.node) else { continue };
+        self.watch.iter().zip(&self.kernels).any(|(w, k)| {
+            let Some((kernel, ws)) = k else { return false };
+            let Some((slope, icpt)) = kernel.dc_line(&p[..n], &mut ws.borrow_mut()) else { return false };
             let (mut lo, mut hi) = w.limits;
-            let mut y = y;
+            let mut y = slope * w.at + icpt;
             for ((rail, d), e) in model.rails.iter().zip(deviations).zip(&w.rail_effect) {
                 y += e * d;
                 if rail.moves_swing && rail.volts > 0.0 {
@@ -88,11 +101,8 @@ impl Inner {
                     lo += rail.volts * d;
                 }
             }
-            if y < lo || y > hi {
-                return true;
-            }
-        }
-        false
+            y < lo || y > hi
+        })
     }
 }
 
@@ -192,12 +202,17 @@ pub(super) fn stage_limits(req: &Request, circuit: &Circuit, model: &Model) -> (
                 worst,
                 limits: [limits.0, limits.1],
             };
-            // What the rails could take of the margin: each moves the node and a limit.
+            // What the rails could take of each side's margin: a rail moves the node by its
+            // effect and the limit on its own side by its voltage.
             let by_rail = by_rail.get_or_insert_with(|| rail_effects(x));
             let rail_effect: Vec<f64> = by_rail.iter().map(|e| e[k]).collect();
-            let reach: f64 =
-                model.rails.iter().zip(&rail_effect).map(|(r, e)| (r.volts.abs() + e.abs()) * r.tolerance).sum();
-            if row.margin() < reach {
+            let reach = |side: f64| -> f64 {
+                let moves = |r: &rails::Rail| if r.moves_swing && side * r.volts > 0.0 { r.volts } else { 0.0 };
+                model.rails.iter().zip(&rail_effect).map(|(r, e)| (moves(r) - e).abs() * r.tolerance).sum()
+            };
+            let low_margin = row.worst[0] - row.limits[0];
+            let high_margin = row.limits[1] - row.worst[1];
+            if low_margin < reach(-1.0) || high_margin < reach(1.0) {
                 inner.watch.push(Watched { node: node.clone(), at: x, limits: *limits, rail_effect });
             }
             rows.push(row);
