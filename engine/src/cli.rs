@@ -40,7 +40,7 @@ pub const USAGE: &str = "usage:
   rangefit bom REQUEST.json                  part list as CSV (RFC 4180)
   rangefit scaling [--c] REQUEST.json        converter code to sensor quantity (JSON or a C header)
   rangefit link REQUEST.json                 share-link fragment (everything after #)
-  rangefit open FRAGMENT                     the request a link or fragment carries, as JSON
+  rangefit open FRAGMENT                     the request a link or fragment carries, as JSON (- reads it)
   rangefit demo [ID]                         print a demo request (lists them without ID)
 REQUEST.json may be - for standard input.";
 
@@ -163,7 +163,16 @@ pub fn run(args: &[String], read: &dyn Fn(&str) -> Result<String, String>) -> Ou
             let [fragment] = files.as_slice() else {
                 return fail(format!("open needs exactly one link or fragment\n{USAGE}"));
             };
-            match crate::share::decode(fragment) {
+            // `-`: the fragment on standard input (one beyond the shell's argument limit).
+            let text = if *fragment == "-" {
+                match read("-") {
+                    Ok(t) => t,
+                    Err(e) => return fail(format!("cannot read standard input: {e}")),
+                }
+            } else {
+                fragment.to_string()
+            };
+            match crate::share::decode(&text) {
                 Ok(r) => ok(r.to_json() + "\n"),
                 Err(e) => fail(e.to_string()),
             }

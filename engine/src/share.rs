@@ -57,8 +57,13 @@ pub fn decode(fragment: &str) -> Result<Request, RequestError> {
     let packed = URL_SAFE_NO_PAD
         .decode(payload.as_bytes())
         .map_err(|_| bad("the link is damaged (not valid base64url); was it cut off when copied?"))?;
-    let json = miniz_oxide::inflate::decompress_to_vec_with_limit(&packed, MAX_INFLATED)
-        .map_err(|_| bad("the link is damaged or truncated (it does not inflate); was it cut off when copied?"))?;
+    let json = miniz_oxide::inflate::decompress_to_vec_with_limit(&packed, MAX_INFLATED).map_err(|e| {
+        if e.status == miniz_oxide::inflate::TINFLStatus::HasMoreOutput {
+            bad("the link unpacks to more than a design can be (over 64 KiB); it was not made by Rangefit")
+        } else {
+            bad("the link is damaged or truncated (it does not inflate); was it cut off when copied?")
+        }
+    })?;
     let value: Value =
         serde_json::from_slice(&json).map_err(|_| bad("the link is damaged (its content is not a request)"))?;
     Request::from_value(&value)

@@ -614,6 +614,19 @@ fn binary_passes_files_stdin_streams_and_status_through() {
         let lib = call(lib_args, &[("base.json", BASE), ("bad.json", &bad)]);
         assert_eq!(real, lib, "rangefit {args:?} differs from cli::run {lib_args:?}");
     }
+    // `open -`: the fragment on standard input gives what `open FRAGMENT` gives.
+    let fragment = call(&["link", "base.json"], &[("base.json", BASE)]).stdout;
+    let piped = exec(&["open", "-"], &fragment);
+    let argued = call(&["open", fragment.trim()], &[]);
+    assert_eq!(piped, argued, "open - differs from open FRAGMENT");
+    assert_eq!(piped.status, 0, "{piped:?}");
+    // A fragment that inflates past the engine's limit (a decompression bomb) is too large,
+    // not damaged.
+    let mut bomb: Value = serde_json::from_str(BASE).expect("JSON");
+    bomb["notes"] = Value::String("0".repeat(4 * rangefit_engine::share::MAX_INFLATED));
+    let req = rangefit_engine::Request::from_value(&bomb).expect("the bomb reads as a request");
+    let told = call(&["open", &rangefit_engine::share::encode(&req)], &[]);
+    assert!(told.status != 0 && told.stderr.contains("unpacks to more than a design can be"), "{told:?}");
     let bad_run = exec(&["design", "-"], &bad);
     assert_eq!(bad_run.status, 2);
     assert!(bad_run.stdout.is_empty() && bad_run.stderr.contains("destination.bits: "), "{bad_run:?}");
