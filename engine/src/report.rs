@@ -286,12 +286,16 @@ fn mapping(h: &mut String, d: &Design) {
         ));
         rows.push((
             "Monte Carlo yield",
-            format!(
-                "{:.2} % of {} builds inside the converter range ({:.2} % keep the full headroom)",
-                mc.yield_ * 100.0,
-                mc.runs,
-                mc.yield_headroom * 100.0
-            ),
+            if mc.runs == 0 {
+                "not run (analysis.monte_carlo_runs = 0)".to_string()
+            } else {
+                format!(
+                    "{:.2} % of {} builds inside the converter range ({:.2} % keep the full headroom)",
+                    mc.yield_ * 100.0,
+                    mc.runs,
+                    mc.yield_headroom * 100.0
+                )
+            },
         ));
         rows.push(("Impedance seen by the sensor", format(a.loading.input_impedance, Quantity::Resistance)));
         rows.push(("In-band ripple", format!("{:.3} dB", a.ac.ripple_db)));

@@ -634,3 +634,29 @@ fn binary_passes_files_stdin_streams_and_status_through() {
     assert_eq!(ok_run.status, 0);
     json_of(&ok_run, "binary design");
 }
+
+/// Extreme but accepted requests print only finite numbers: a measurand beyond ±1e15 is
+/// refused with its field named; with the Monte Carlo switched off the report says so
+/// instead of printing NaN, and neither the report nor the C header carries NaN or inf.
+#[test]
+fn extreme_requests_print_no_nan_or_inf() {
+    let huge = variant(
+        BASE,
+        "/source/measurand",
+        Some(serde_json::json!({"name": "p", "unit": "Pa",
+        "at_min": -1e308, "at_max": 1e308})),
+    );
+    let out = call(&["design", "huge.json"], &[("huge.json", &huge)]);
+    assert_eq!(out.status, 2, "{out:?}");
+    assert!(out.stderr.contains("source.measurand.at_min: must lie within ±1e15"), "{out:?}");
+    let off = variant(BASE, "/analysis", Some(serde_json::json!({"monte_carlo_runs": 0})));
+    for cmd in [&["report", "off.json"][..], &["scaling", "--c", "off.json"][..]] {
+        let out = call(cmd, &[("off.json", &off)]);
+        assert_eq!(out.status, 0, "{cmd:?}: {out:?}");
+        let bad =
+            ["NaN", "inf", "Inf"].iter().any(|w| out.stdout.split(|c: char| !c.is_alphanumeric()).any(|t| t == *w));
+        assert!(!bad, "{cmd:?} prints a non-finite number");
+    }
+    let report = call(&["report", "off.json"], &[("off.json", &off)]).stdout;
+    assert!(report.contains("not run (analysis.monte_carlo_runs = 0)"), "the report says the Monte Carlo did not run");
+}

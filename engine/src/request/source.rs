@@ -492,6 +492,9 @@ fn read_loop(o: &Obj, min: f64, max: f64) -> Result<LoopSpec, RequestError> {
     Ok(LoopSpec { burden_max, fault_low, fault_high })
 }
 
+/// Largest magnitude of a measurand's value the scaling takes.
+const MEASURAND_LIMIT: f64 = 1e15;
+
 fn read_measurand(v: &Value) -> Result<Measurand, RequestError> {
     let o = Obj::new("source.measurand", v)?;
     let name =
@@ -510,6 +513,13 @@ fn read_measurand(v: &Value) -> Result<Measurand, RequestError> {
     };
     let at_min = number("at_min")?;
     let at_max = number("at_max")?;
+    // Beyond this the scaling's slope and intercept overflow (our rule: 10¹⁵ covers every
+    // engineering unit with room to spare).
+    for (key, x) in [("at_min", at_min), ("at_max", at_max)] {
+        if x.abs() > MEASURAND_LIMIT {
+            return Err(o.err(key, "must lie within ±1e15 in the measurand's unit (choose a larger unit)"));
+        }
+    }
     if at_min == at_max {
         return Err(o.err("at_max", "must differ from at_min"));
     }
