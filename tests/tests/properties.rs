@@ -1,6 +1,7 @@
 //! Property tests (proptest): feasible requests land inside the converter range with the
-//! requested headroom; malformed requests, unit strings and infeasible requests never panic,
-//! and infeasible ones always carry an error check.
+//! requested headroom, and no check that calls a figure fine stands beside an error on the
+//! same figure; malformed requests, unit strings and infeasible requests never panic, and
+//! infeasible ones always carry an error check.
 
 use proptest::prelude::*;
 use rangefit_engine::diag::Severity;
@@ -91,6 +92,26 @@ proptest! {
         prop_assert!(loading.iter().all(|x| x.is_finite()), "loading not finite for {}", json);
         if req.keep_polarity {
             prop_assert!(p.gain > 0.0, "polarity flipped for {}", json);
+        }
+    }
+
+    /// No two checks contradict each other: a check that says a figure is fine never stands
+    /// beside an error that says the same figure fails (design contract).
+    #[test]
+    fn no_two_checks_contradict(json in feasible_request()) {
+        const PAIRS: [(&str, &str); 4] = [
+            ("headroom", "clipping"),
+            ("clipping", "stage_limits"),
+            ("follower_range", "clipping"),
+            ("band_flatness", "bandwidth"),
+        ];
+        let d = design(&Request::from_json(&json).expect("well-formed"));
+        let severity = |id: &str| d.checks.iter().find(|c| c.id == id).map(|c| c.severity);
+        for (fine, fails) in PAIRS {
+            prop_assert!(
+                !(severity(fine) == Some(Severity::Ok) && severity(fails) == Some(Severity::Error)),
+                "{fine} is ok beside a {fails} error for {}", json
+            );
         }
     }
 

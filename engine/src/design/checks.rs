@@ -113,8 +113,8 @@ pub(super) fn design_checks(
         c.push(Check::ok(
             "headroom",
             format!(
-                "The sensor's range lands on {} … {}, {:.1} % of the converter span, \
-            inside the {:.1} % headroom at each end.",
+                "The nominal build lands the sensor's range on {} … {}, {:.1} % of the converter span, \
+            inside the {:.1} % headroom at each end (the yield check says what the parts' spread does to it).",
                 v(lo),
                 v(hi),
                 used,
