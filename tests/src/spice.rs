@@ -53,3 +53,23 @@ pub fn operating_points(tag: &str, netlist: &str, alters: &[Vec<String>], nodes:
     assert_eq!(v.len(), alters.len() * nodes.len(), "[{tag}] ngspice printed {v:?}");
     v.chunks(nodes.len()).map(|c| c.iter().map(|x| x.1).collect()).collect()
 }
+
+/// `netlist` with a DC source of `volts` in series with the + input of amplifier `amp`
+/// (`"U1"`: its subcircuit instance `XU1`), the way an input offset sits in a real part.
+pub fn with_offset(netlist: &str, amp: &str, volts: f64) -> String {
+    let instance = format!("X{amp}");
+    let mut out = String::new();
+    for line in netlist.lines() {
+        let mut words: Vec<String> = line.split_whitespace().map(str::to_string).collect();
+        if words.first().is_some_and(|w| *w == instance) && words.len() > 1 {
+            let plus = words[1].clone();
+            out.push_str(&format!("VOS_{amp} {plus}_os {plus} DC {volts:e}\n"));
+            words[1] = format!("{plus}_os");
+            out.push_str(&(words.join(" ") + "\n"));
+        } else {
+            out.push_str(line);
+            out.push('\n');
+        }
+    }
+    out
+}

@@ -29,24 +29,6 @@ fn cold_frame() -> Request {
     Request::from_json(&v.to_string()).unwrap_or_else(|e| panic!("request does not read: {e}"))
 }
 
-/// `netlist` with a DC source of `volts` in series with the + input of `U1`.
-fn with_offset(netlist: &str, volts: f64) -> String {
-    let mut out = String::new();
-    for line in netlist.lines() {
-        let mut words: Vec<String> = line.split_whitespace().map(str::to_string).collect();
-        if words.first().is_some_and(|w| w == "XU1") {
-            let plus = words[1].clone();
-            out.push_str(&format!("VOFFSET {plus}_os {plus} DC {volts:e}\n"));
-            words[1] = format!("{plus}_os");
-            out.push_str(&(words.join(" ") + "\n"));
-        } else {
-            out.push_str(line);
-            out.push('\n');
-        }
-    }
-    out
-}
-
 #[test]
 fn the_stated_offset_limit_holds_and_a_larger_offset_leaves_the_range() {
     let req = cold_frame();
@@ -69,7 +51,7 @@ fn the_stated_offset_limit_holds_and_a_larger_offset_leaves_the_range() {
     let net = netlist(&req, c, NetlistConfig { testbench: false });
     let ends = |volts: f64| {
         let alters = [vec!["alter VSENSE dc = 0".to_string()], vec!["alter VSENSE dc = 0.02".to_string()]];
-        let v = spice::operating_points("cold-frame", &with_offset(&net, volts), &alters, &["adc"]);
+        let v = spice::operating_points("cold-frame", &spice::with_offset(&net, "U1", volts), &alters, &["adc"]);
         [v[0][0], v[1][0]]
     };
     let inside = |y: [f64; 2]| y.iter().all(|&v| v >= usable.0 - 1e-6 && v <= usable.1 + 1e-6);

@@ -102,22 +102,18 @@ fn orchard() -> Request {
 /// `netlist` with a DC source of `volts` in series with the + input of amplifier `U1`
 /// (one build's input offset) and the rail `VPOS` at `rail` volts.
 fn with_offset_and_rail(netlist: &str, volts: f64, rail: f64) -> String {
-    let mut out = String::new();
-    for line in netlist.lines() {
-        let mut words: Vec<String> = line.split_whitespace().map(str::to_string).collect();
-        if words.first().is_some_and(|w| w == "XU1") {
-            let plus = words[1].clone();
-            out.push_str(&format!("VOFFSET {plus}_os {plus} DC {volts:e}\n"));
-            words[1] = format!("{plus}_os");
-            out.push_str(&(words.join(" ") + "\n"));
-        } else if words.first().is_some_and(|w| w == "VPOS") {
-            out.push_str(&format!("VPOS {} {} DC {rail:e}\n", words[1], words[2]));
-        } else {
-            out.push_str(line);
-            out.push('\n');
-        }
-    }
-    out
+    let shifted = spice::with_offset(netlist, "U1", volts);
+    shifted
+        .lines()
+        .map(|line| {
+            let words: Vec<&str> = line.split_whitespace().collect();
+            if words.first() == Some(&"VPOS") {
+                format!("VPOS {} {} DC {rail:e}\n", words[1], words[2])
+            } else {
+                format!("{line}\n")
+            }
+        })
+        .collect()
 }
 
 /// Yield that means it: builds whose amplifier offset and rail push the output into the

@@ -258,16 +258,10 @@ fn each_stage_offset_reaches_the_input_as_the_figures_say() {
     };
     let base = pin(&net, "thermopile-offset-none");
     let mut rows = Vec::new();
-    for (u, label) in [("XU1 ", "Offset at the input, first"), ("XU2 ", "Offset at the input, second")] {
-        let with: String = net
-            .lines()
-            .map(|l| match l.strip_prefix(u).and_then(|r| r.split_once(' ')) {
-                Some((plus, rest)) => format!("{u}{plus}_os {rest}\nVOS_{} {plus}_os {plus} DC {vos:e}\n", u.trim()),
-                None => format!("{l}\n"),
-            })
-            .collect();
-        assert!(with.contains("VOS_"), "{u}not in the netlist");
-        let moved = pin(&with, &format!("thermopile-offset-{}", u.trim())) - base;
+    for (u, label) in [("U1", "Offset at the input, first"), ("U2", "Offset at the input, second")] {
+        let with = spice::with_offset(&net, u, vos);
+        assert!(with.contains("VOS_"), "{u} not in the netlist");
+        let moved = pin(&with, &format!("thermopile-offset-{u}")) - base;
         rows.push(row_rel(format!("{u}offset referred to the input, V"), moved / gain, val(label), 0.02, 1e-9, OP));
     }
     check(&rows);
