@@ -5,6 +5,7 @@
 //! tolerance; tests/REFERENCES.md §ngspice); the request is a scenario of our own.
 
 use rangefit_engine::analysis::tolerance::rails::SupplyShift;
+use rangefit_engine::circuit::PartKind;
 use rangefit_engine::diag::Severity;
 use rangefit_engine::netlist::{netlist, NetlistConfig};
 use rangefit_engine::{design, Design, Request};
@@ -161,5 +162,89 @@ fn inner_stages_hold_their_limits_at_both_rail_extremes() {
             OP,
         ));
     }
+    check(&rows);
+}
+
+/// The failure `stage_limits` guards against: a slurry tank's level pair on a 4 V common mode
+/// into an instrumentation amplifier on one 5 V rail. At the low end of the range the
+/// difference stage U3 sits 130 mV above its swing limit; the engine's worst case takes it
+/// below the limit and the check warns, the Monte Carlo counting such builds as clipped.
+/// ngspice on the exported netlist at the same vertex (each resistor at ±1 % and each
+/// amplifier's offset at ± its figure, the sign of each from ngspice's own sensitivities)
+/// holds U3 at its swing limit.
+#[test]
+fn an_inner_stage_at_the_tolerance_vertex_reaches_its_swing_limit() {
+    let v = json!({"version": 1, "name": "Slurry-tank level pair",
+        "source": {"kind": "differential", "min": -0.05, "max": 0.05, "common_mode_min": 3.9, "common_mode_max": 4.1,
+            "impedance": "100", "band_high": "10 Hz", "front_end": "instrumentation"},
+        "destination": {"min": 0, "max": 3.3, "bits": 12, "sample_rate": "1 kHz"},
+        "supplies": [5], "parts": {"resistor_series": "E96", "resistor_tolerance": "1 %"}});
+    let req = Request::from_json(&v.to_string()).expect("reads");
+    let d = design(&req);
+    let c = d.circuit.as_ref().expect("a circuit");
+    let a = d.analysis.as_ref().expect("analyses");
+    let check_of = d.checks.iter().find(|c| c.id == "stage_limits").expect("a stage_limits check");
+    let row = a.tolerance.stages.iter().find(|r| r.amplifier == "U3" && r.what == "output" && r.at < 0.0).expect("U3");
+    let mut rows: Vec<Row> = vec![
+        fact(
+            format!("stage_limits warns: {}", check_of.message),
+            check_of.severity == Severity::Warning,
+            "design contract",
+        ),
+        fact(
+            format!("engine: U3's worst case {:.4} V lies below its {:.4} V limit", row.worst[0], row.limits[0]),
+            row.worst[0] < row.limits[0],
+            "design contract",
+        ),
+        fact(
+            format!("the Monte Carlo counts clipped builds ({})", a.tolerance.monte_carlo.clipped),
+            a.tolerance.monte_carlo.clipped > 0,
+            "design contract",
+        ),
+    ];
+    // Every amplifier gets an offset source (0 V), so one ngspice run can step each parameter.
+    let amps: Vec<String> = c.parts.iter().filter(|p| p.kind == PartKind::OpAmp).map(|p| p.reference.clone()).collect();
+    let mut net = netlist(&req, c, NetlistConfig { testbench: false });
+    for u in &amps {
+        net = spice::with_offset(&net, u, 0.0);
+    }
+    let node = c.part("U3").expect("U3").nodes[4].clone();
+    let resistors: Vec<(String, f64)> = c
+        .parts
+        .iter()
+        .filter(|p| !p.bench && p.kind == PartKind::Resistor && p.tolerance.is_some())
+        .map(|p| (p.reference.clone(), p.value))
+        .collect();
+    let vos = d.amplifier.offset;
+    let sensor = "alter VSENSE dc = -0.05".to_string();
+    // Each parameter stepped up alone, then set back: its sign from ngspice.
+    let mut steps: Vec<Vec<String>> = vec![vec![sensor.clone()]];
+    for (r, x) in &resistors {
+        steps.push(vec![format!("alter {r} = {:e}", x * 1.01)]);
+        steps.push(vec![format!("alter {r} = {x:e}")]);
+    }
+    for u in &amps {
+        steps.push(vec![format!("alter VOS_{u} dc = {vos:e}")]);
+        steps.push(vec![format!("alter VOS_{u} dc = 0")]);
+    }
+    let v = spice::operating_points("slurry-signs", &net, &steps, &[&node]);
+    let base = v[0][0];
+    let down = |k: usize| v[1 + 2 * k][0] < base;
+    let mut vertex = vec![sensor];
+    for (k, (r, x)) in resistors.iter().enumerate() {
+        vertex.push(format!("alter {r} = {:e}", if down(k) { x * 1.01 } else { x * 0.99 }));
+    }
+    for (j, u) in amps.iter().enumerate() {
+        let k = resistors.len() + j;
+        vertex.push(format!("alter VOS_{u} dc = {:e}", if down(k) { vos } else { -vos }));
+    }
+    let at = spice::operating_points("slurry-vertex", &net, &[vertex], &[&node])[0][0];
+    println!("U3 output: nominal {base:.4} V, at the vertex {at:.4} V, limit {:.4} V", row.limits[0]);
+    rows.push(fact(
+        format!("ngspice: U3 at the vertex {at:.4} V is held at its {:.4} V swing limit", row.limits[0]),
+        at <= row.limits[0] + 2e-3,
+        OP,
+    ));
+    rows.push(row_rel("ngspice: U3 nominal against the engine's row (V)", base, row.nominal, 1e-3, 1e-4, OP));
     check(&rows);
 }
